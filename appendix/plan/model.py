@@ -1,0 +1,146 @@
+"""The study file, format 1, as typed frozen models.
+
+These models are the single source of the study-file schema: validation, the published
+JSON Schema (`schema/study.schema.json`) and the frozen plan that the pipeline passes on
+are all derived from them. Unknown keys are errors (``extra="forbid"``).
+
+Format 1 holds one treatment factor; the lists (`design.factors`, `outcomes`) leave
+room for the factorial, blocked and covariate designs and contrasts of later formats.
+"""
+
+from __future__ import annotations
+
+import datetime as _dt
+from typing import Literal
+
+from pydantic import BaseModel, ConfigDict, Field
+
+
+
+class _Frozen(BaseModel):
+    model_config = ConfigDict(extra="forbid", frozen=True, strict=False)
+
+
+class Study(_Frozen):
+    """Who and what: the study's stable identifier and title."""
+
+    id: str = Field(
+        pattern=r"^[A-Za-z0-9][A-Za-z0-9._-]{0,79}$",
+        description="Stable identifier: letters, digits, '.', '_' or '-'; names the output folder.",
+    )
+    title: str = Field(min_length=1, description="Full title as in the trial report.")
+    registered: _dt.date | None = Field(
+        default=None, description="Date the analysis plan was fixed (ISO 8601)."
+    )
+    population: str | None = Field(
+        default=None, description="The analysis population in words, e.g. 'all randomised units'."
+    )
+
+
+class Exclusion(_Frozen):
+    """A pre-registered exclusion rule: units whose `column` equals `equals` are set aside."""
+
+    id: str = Field(min_length=1, description="Short identifier of the rule, e.g. 'X1'.")
+    column: str = Field(min_length=1, description="Data column the rule looks at.")
+    equals: str | int | float | bool = Field(description="Value that excludes a unit.")
+    reason: str = Field(min_length=1, description="Why units matching the rule are excluded.")
+
+
+class PlannedN(_Frozen):
+    """Planned numbers of analysed units (reported against the numbers achieved)."""
+
+    per_group: int | None = Field(default=None, ge=1)
+    total: int | None = Field(default=None, ge=1)
+
+
+class Data(_Frozen):
+    """Where the data are and how units are identified."""
+
+    source: str = Field(
+        min_length=1,
+        description="Data file, relative to the study file: .csv, .tsv, .parquet, .xlsx or .xpt.",
+    )
+    unit: str = Field(min_length=1, description="Column identifying each experimental unit.")
+    sheet: str | None = Field(default=None, description="Worksheet name, for Excel sources.")
+    exclusions: tuple[Exclusion, ...] = Field(default=(), description="Pre-registered rules only.")
+    planned_n: PlannedN | None = None
+
+
+class Factor(_Frozen):
+    """A treatment factor: a data column and its levels in the registered order."""
+
+    name: str = Field(min_length=1, description="Data column holding the level of each unit.")
+    label: str | None = Field(default=None, description="Name of the factor in prose.")
+    levels: tuple[str, ...] = Field(min_length=2, description="Levels in registered order.")
+    control: str | None = Field(default=None, description="The control level, if any.")
+    ordered: bool = Field(default=False, description="Whether the levels are ordered.")
+
+
+class Design(_Frozen):
+    """The model's terms. Format 1: exactly one treatment factor."""
+
+    factors: tuple[Factor, ...] = Field(min_length=1, max_length=1)
+
+
+class Outcome(_Frozen):
+    """A registered outcome (response variable)."""
+
+    name: str = Field(
+        pattern=r"^[A-Za-z][A-Za-z0-9_]{0,62}$",
+        description="Identifier used in results and figures.",
+    )
+    column: str | None = Field(default=None, description="Data column; defaults to `name`.")
+    label: str = Field(min_length=1, description="Name of the outcome in prose.")
+    unit: str | None = Field(default=None, description="Measurement unit, e.g. 'mg'.")
+    role: Literal["primary", "secondary"]
+
+    @property
+    def data_column(self) -> str:
+        return self.column or self.name
+
+
+class Outliers(_Frozen):
+    """Flag units whose externally studentized residual exceeds `threshold` in absolute value."""
+
+    method: Literal["studentized-residual"] = "studentized-residual"
+    threshold: float = Field(default=3.0, gt=0)
+
+
+class Attested(_Frozen):
+    """Properties of the design that data cannot show; the plan states how they hold."""
+
+    random_allocation: str | None = Field(
+        default=None, description="How units were allocated at random to groups."
+    )
+    independent_units: str | None = Field(
+        default=None, description="Why observations on different units are independent."
+    )
+
+
+class Assumptions(_Frozen):
+    """Which diagnostics to compute (they are always shown, never used to switch tests here)."""
+
+    normality: Literal["shapiro-wilk", "none"] = "shapiro-wilk"
+    equal_variance: tuple[Literal["brown-forsythe", "bartlett"], ...] = (
+        "brown-forsythe",
+        "bartlett",
+    )
+    outliers: Outliers = Outliers()
+    attested: Attested = Attested()
+
+
+class Plan(_Frozen):
+    """A whole study file, format 1."""
+
+    format: Literal[1]
+    study: Study
+    data: Data
+    alpha: float = Field(default=0.05, gt=0, lt=0.5, description="Significance level.")
+    design: Design
+    outcomes: tuple[Outcome, ...] = Field(min_length=1)
+    assumptions: Assumptions = Assumptions()
+
+    @property
+    def factor(self) -> Factor:
+        """The single treatment factor of a format-1 plan."""
+        return self.design.factors[0]

@@ -1,0 +1,364 @@
+"""Result types and their canonical JSON.
+
+Every analysis returns a frozen dataclass defined here; `StudyResults` gathers them for a
+run. `to_json` is the one contract between computing and everything after it
+(rendering, diff, verify): sorted keys, two-space indent, no NaN or infinity (written as
+null), no wall-clock time, so that two runs on the same inputs give byte-identical files.
+
+Fields named ``ci_low``/``ci_high`` always come with a ``confidence_level`` value on the
+same object. Degenerate data never raise: the statistic is None and a `StatWarning`
+explains the gap.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import json
+import math
+from dataclasses import dataclass, field
+from typing import Any, Literal
+
+FORMAT_VERSION = 1
+
+
+@dataclass(frozen=True)
+class StatWarning:
+    """Why a statistic is missing or should be read with care.
+
+    `code` is a stable identifier (e.g. ``group-n-one``); `message` is a full sentence.
+    """
+
+    code: str
+    message: str
+
+
+Warnings = tuple[StatWarning, ...]
+
+
+# --- per-outcome statistics -------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class GroupSummary:
+    """Descriptive statistics of one group (level) of the factor for one outcome.
+
+    `sd` is the sample standard deviation (n - 1 divisor); `se` = sd / sqrt(n); the CI of
+    the mean uses Student's t with n - 1 df. Quartiles use linear interpolation
+    (Hyndman & Fan 1996, definition 7).
+    """
+
+    level: str
+    n: int
+    n_missing: int
+    mean: float | None
+    sd: float | None
+    se: float | None
+    ci_low: float | None
+    ci_high: float | None
+    median: float | None
+    q1: float | None
+    q3: float | None
+    minimum: float | None
+    maximum: float | None
+
+
+@dataclass(frozen=True)
+class Descriptives:
+    confidence_level: float
+    groups: tuple[GroupSummary, ...]
+    warnings: Warnings = ()
+
+
+@dataclass(frozen=True)
+class VarianceRow:
+    """One line of a variance table. `term` is ``between``, ``within`` or ``total``."""
+
+    term: str
+    df: int
+    sum_of_squares: float
+    mean_square: float | None
+    f: float | None
+    p: float | None
+
+
+@dataclass(frozen=True)
+class OneWayTable:
+    """The classical one-way variance table (Fisher 1925) and its reference distribution.
+
+    The F test refers `f` to F(`df_between`, `df_within`), right tail; `critical_f` is the
+    upper-`alpha` quantile. `r_squared` = SS_between / SS_total; `residual_sd` = sqrt(MS_within).
+    """
+
+    rows: tuple[VarianceRow, ...]
+    df_between: int
+    df_within: int
+    f: float | None
+    p: float | None
+    alpha: float
+    critical_f: float | None
+    r_squared: float | None
+    residual_sd: float | None
+    warnings: Warnings = ()
+
+
+@dataclass(frozen=True)
+class WelchAnova:
+    """Welch's (1951) heteroscedastic one-way test: F on (df_num, df_den), df_den fractional."""
+
+    f: float | None
+    df_num: float | None
+    df_den: float | None
+    p: float | None
+    warnings: Warnings = ()
+
+
+@dataclass(frozen=True)
+class KruskalWallis:
+    """Kruskal & Wallis (1952) rank test, H corrected for ties, chi-squared on `df`."""
+
+    h: float | None
+    df: int | None
+    p: float | None
+    tie_correction: float | None
+    warnings: Warnings = ()
+
+
+@dataclass(frozen=True)
+class EffectSize:
+    """A variance-explained effect size with a CI from inverting the noncentral F (Steiger 2004).
+
+    `measure` is ``eta_squared``, ``omega_squared`` or ``cohens_f``.
+    """
+
+    measure: str
+    estimate: float | None
+    ci_low: float | None
+    ci_high: float | None
+    confidence_level: float
+    warnings: Warnings = ()
+
+
+@dataclass(frozen=True)
+class NormalityTest:
+    """Shapiro & Wilk (1965) test on the model residuals (Royston 1995 algorithm)."""
+
+    method: str
+    statistic: float | None
+    p: float | None
+    n: int
+    warnings: Warnings = ()
+
+
+@dataclass(frozen=True)
+class VarianceTest:
+    """A test of equal group variances: ``brown-forsythe`` (F) or ``bartlett`` (chi-squared)."""
+
+    method: str
+    statistic: float | None
+    df_num: float | None
+    df_den: float | None
+    p: float | None
+    warnings: Warnings = ()
+
+
+@dataclass(frozen=True)
+class FlaggedUnit:
+    unit: str
+    level: str
+    value: float
+    residual: float
+    studentized: float
+
+
+@dataclass(frozen=True)
+class OutlierScreen:
+    """Units whose externally studentized residual exceeds `threshold` in absolute value."""
+
+    method: str
+    threshold: float
+    n_screened: int
+    flagged: tuple[FlaggedUnit, ...]
+    warnings: Warnings = ()
+
+
+@dataclass(frozen=True)
+class AssumptionStatus:
+    """How one classical assumption of the model is supported.
+
+    `basis` is ``checked`` (a diagnostic was computed), ``attested`` (the plan states how
+    it holds), ``not-attested`` (the plan is silent) or ``by-construction`` (the tool
+    enforces it, e.g. a numeric response).
+    """
+
+    assumption: str
+    basis: Literal["checked", "attested", "not-attested", "by-construction"]
+    detail: str
+
+
+@dataclass(frozen=True)
+class Diagnostics:
+    normality: NormalityTest | None
+    equal_variance: tuple[VarianceTest, ...]
+    outliers: OutlierScreen | None
+    assumptions: tuple[AssumptionStatus, ...]
+
+
+@dataclass(frozen=True)
+class Conclusion:
+    """The plain-language conclusion for one outcome, and the decision it states.
+
+    `decision` is ``reject`` (H0 rejected at `alpha`), ``retain`` (not rejected; not
+    evidence of equality) or ``unavailable`` (the test could not be computed).
+    """
+
+    sentence: str
+    decision: Literal["reject", "retain", "unavailable"]
+    p: float | None
+    alpha: float
+
+
+@dataclass(frozen=True)
+class OutcomeResult:
+    name: str
+    label: str
+    unit: str | None
+    role: str
+    n_analysed: int
+    descriptives: Descriptives
+    table: OneWayTable
+    welch: WelchAnova
+    kruskal: KruskalWallis
+    effect_sizes: tuple[EffectSize, ...]
+    diagnostics: Diagnostics
+    conclusion: Conclusion
+    warnings: Warnings = ()
+
+
+# --- data provenance --------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class InputFile:
+    """An input file, by path relative to the study file, with its SHA-256."""
+
+    role: str
+    path: str
+    sha256: str
+    bytes: int
+
+
+@dataclass(frozen=True)
+class LevelCount:
+    level: str
+    n: int
+
+
+@dataclass(frozen=True)
+class ExclusionCount:
+    """Units set aside by one registered exclusion rule (rules apply in plan order)."""
+
+    rule: str
+    column: str
+    equals: str
+    reason: str
+    by_level: tuple[LevelCount, ...]
+    total: int
+
+
+@dataclass(frozen=True)
+class OutcomeFlow:
+    outcome: str
+    missing: tuple[LevelCount, ...]
+    analysed: tuple[LevelCount, ...]
+
+
+@dataclass(frozen=True)
+class UnitFlow:
+    """Read -> excluded by rule -> eligible -> (per outcome) missing, analysed; per level."""
+
+    read: tuple[LevelCount, ...]
+    exclusions: tuple[ExclusionCount, ...]
+    eligible: tuple[LevelCount, ...]
+    outcomes: tuple[OutcomeFlow, ...]
+
+
+@dataclass(frozen=True)
+class Finding:
+    """Something about plan versus data that the reader must see (not an error)."""
+
+    code: str
+    message: str
+
+
+# --- the run ----------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class StudyInfo:
+    id: str
+    title: str
+    registered: str | None
+    population: str | None
+
+
+@dataclass(frozen=True)
+class FactorInfo:
+    name: str
+    label: str
+    levels: tuple[str, ...]
+    control: str | None
+    ordered: bool
+
+
+@dataclass(frozen=True)
+class Software:
+    name: str
+    version: str
+
+
+@dataclass(frozen=True)
+class StudyResults:
+    """Everything a run computed; serialised by `to_json` as results.json."""
+
+    study: StudyInfo
+    plan_sha256: str
+    alpha: float
+    factor: FactorInfo
+    inputs: tuple[InputFile, ...]
+    unit_flow: UnitFlow
+    outcomes: tuple[OutcomeResult, ...]
+    findings: tuple[Finding, ...]
+    software: tuple[Software, ...]
+    format_version: int = field(default=FORMAT_VERSION)
+
+
+# --- canonical JSON ---------------------------------------------------------------------
+
+
+def _plain(value: Any) -> Any:
+    """Dataclasses, tuples and floats to JSON-ready values; NaN and infinities to None."""
+    if dataclasses.is_dataclass(value) and not isinstance(value, type):
+        return {f.name: _plain(getattr(value, f.name)) for f in dataclasses.fields(value)}
+    if isinstance(value, (list, tuple)):
+        return [_plain(v) for v in value]
+    if isinstance(value, dict):
+        return {str(k): _plain(v) for k, v in value.items()}
+    if isinstance(value, bool) or value is None or isinstance(value, (int, str)):
+        return value
+    if isinstance(value, float):
+        return value if math.isfinite(value) else None
+    # numpy scalars and the like
+    if hasattr(value, "item"):
+        return _plain(value.item())
+    raise TypeError(f"cannot serialise {type(value).__name__} in results")
+
+
+def to_json(results: StudyResults) -> str:
+    """Canonical results.json text: sorted keys, no NaN, ends with a newline."""
+    return json.dumps(_plain(results), sort_keys=True, indent=2, ensure_ascii=False,
+                      allow_nan=False) + "\n"
+
+
+def to_plain(results: Any) -> Any:
+    """The same JSON-ready structure `to_json` writes, for rendering without a file."""
+    return json.loads(json.dumps(_plain(results), allow_nan=False))
