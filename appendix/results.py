@@ -185,13 +185,14 @@ class OutlierScreen:
 class AssumptionStatus:
     """How one classical assumption of the model is supported.
 
-    `basis` is ``checked`` (a diagnostic was computed), ``attested`` (the plan states how
-    it holds), ``not-attested`` (the plan is silent) or ``by-construction`` (the tool
-    enforces it, e.g. a numeric response).
+    `basis` is ``checked`` (a diagnostic was computed), ``not-checked`` (none registered
+    or it could not be computed), ``attested`` (the plan states how it holds),
+    ``not-attested`` (the plan is silent) or ``by-construction`` (the tool enforces it,
+    e.g. a numeric response).
     """
 
     assumption: str
-    basis: Literal["checked", "attested", "not-attested", "by-construction"]
+    basis: Literal["checked", "not-checked", "attested", "not-attested", "by-construction"]
     detail: str
 
 
