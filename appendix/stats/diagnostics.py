@@ -1,0 +1,146 @@
+"""Assumption diagnostics of the one-way model: normality, equal variances, outliers."""
+
+from __future__ import annotations
+
+import math
+import warnings as _warnings
+from collections.abc import Sequence
+
+import numpy as np
+from scipy import stats as _st
+
+from appendix.errors import InternalError
+from appendix.results import FlaggedUnit, NormalityTest, OutlierScreen, StatWarning, VarianceTest
+from appendix.stats.cells import CellStats, check_inputs, layout_warnings, residuals, single_group_warning
+from appendix.stats.cells import cell_stats
+from appendix.stats.descriptives import split_by_code
+from appendix.stats.oneway import partition
+
+_SHAPIRO_MAX_N = 5000  # upper end of the range scipy states for its p-value
+
+
+def shapiro_wilk(residuals: np.ndarray) -> NormalityTest:
+    """Shapiro & Wilk (1965, Biometrika 52:591-611) W on the model residuals.
+
+    scipy.stats.shapiro implements Royston's (1995, Appl. Stat. 44:547-551) AS R94
+    algorithm; its p-value is stated for 3 <= n <= 5000, so larger n carries a warning.
+    """
+    x = np.asarray(residuals, dtype=np.float64)
+    n = int(x.size)
+    if n < 3:
+        return NormalityTest("shapiro-wilk", None, None, n, (StatWarning(
+            "normality-too-few", f"The Shapiro-Wilk test needs at least 3 residuals; there are {n}."),))
+    if np.ptp(x) == 0.0:
+        return NormalityTest("shapiro-wilk", None, None, n, (StatWarning(
+            "normality-constant", "All residuals are equal; the Shapiro-Wilk test is undefined."),))
+    notes: tuple[StatWarning, ...] = ()
+    with _warnings.catch_warnings():
+        # scipy's own note for n > 5000 is replaced by the typed warning below.
+        _warnings.filterwarnings("ignore", message=r"scipy\.stats\.shapiro: For N > 5000",
+                                 category=UserWarning)
+        w, p = _st.shapiro(x)
+    if n > _SHAPIRO_MAX_N:
+        notes = (StatWarning(
+            "normality-p-approximate",
+            f"With {n} residuals the Shapiro-Wilk p-value is an extrapolation beyond the "
+            f"algorithm's stated range (n <= {_SHAPIRO_MAX_N}); read it as approximate."),)
+    return NormalityTest("shapiro-wilk", float(w), float(p), n, notes)
+
+
+def brown_forsythe(
+    values: np.ndarray, codes: np.ndarray, k: int, levels: Sequence[str] | None = None
+) -> VarianceTest:
+    """Brown & Forsythe (1974, JASA 69:364-367) test of equal variances.
+
+    Levene's (1960) one-way F test applied to |y - median of the unit's level|.
+    """
+    values, codes = check_inputs(values, codes, k)
+    medians = np.array([np.median(g) if g.size else np.nan for g in split_by_code(values, codes, k)])
+    spread = np.abs(values - medians[codes])
+    part = partition(cell_stats(spread, codes, k, levels))
+    if part.f is None:
+        return VarianceTest("brown-forsythe", None, None, None, None, part.warnings)
+    return VarianceTest("brown-forsythe", part.f, float(part.df_between), float(part.df_within),
+                        part.p, part.warnings)
+
+
+def bartlett(cells: CellStats) -> VarianceTest:
+    """Bartlett's (1937, Proc. R. Soc. A 160:268-282) test of equal variances.
+
+    With s_i^2 = ssd_i / (n_i - 1), pooled s_p^2 = SS_within / (N - k):
+    T = [(N - k) ln s_p^2 - sum (n_i - 1) ln s_i^2] /
+        [1 + (sum 1/(n_i - 1) - 1/(N - k)) / (3 (k - 1))], chi-squared on k - 1 df.
+    """
+    found = list(layout_warnings(cells))
+    single = single_group_warning(cells)
+    if single is not None:
+        return VarianceTest("bartlett", None, None, None, None, (*found, single))
+    occupied = cells.occupied
+    n = cells.n[occupied].astype(np.float64)
+    ssd = cells.ssd[occupied]
+    if np.any(n < 2) or np.any(ssd == 0.0):
+        found.append(StatWarning(
+            "bartlett-undefined",
+            "Bartlett's test needs every level to have at least two units and a positive variance; "
+            "it is not computed."))
+        return VarianceTest("bartlett", None, None, None, None, tuple(found))
+    k = float(n.size)
+    df_within = float(n.sum() - k)
+    pooled = float(ssd.sum()) / df_within
+    numerator = df_within * math.log(pooled) - float(np.sum((n - 1) * np.log(ssd / (n - 1))))
+    denominator = 1.0 + (float(np.sum(1.0 / (n - 1))) - 1.0 / df_within) / (3.0 * (k - 1))
+    t = numerator / denominator
+    return VarianceTest("bartlett", t, k - 1, None, float(_st.chi2.sf(t, k - 1)), tuple(found))
+
+
+def outlier_screen(
+    values: np.ndarray,
+    codes: np.ndarray,
+    cells: CellStats,
+    units: Sequence[str],
+    levels: Sequence[str],
+    threshold: float,
+) -> OutlierScreen:
+    """Flag units whose externally studentized residual exceeds `threshold` in |t|.
+
+    For the one-way model the leverage of a unit in level i is h = 1/n_i, so with
+    residual e, SS_within and df = N - k:
+    t = e / sqrt(s_(-)^2 (1 - h)), s_(-)^2 = (SS_within - e^2 / (1 - h)) / (df - 1)
+    (Belsley, Kuh & Welsch 1980, *Regression Diagnostics*, eq. 2.10). Units alone in
+    their level (h = 1) have no defined t and are skipped with a warning.
+    """
+    values, codes = check_inputs(values, codes, cells.k)
+    if not threshold > 0:
+        raise InternalError(f"threshold must be positive, got {threshold!r}")
+    if len(units) != values.size or len(levels) != cells.k:
+        raise InternalError("units must match values and levels must match the cells")
+    method = "studentized-residual"
+    notes: list[StatWarning] = []
+    n_own = cells.n[codes]
+    alone = n_own == 1
+    if alone.any():
+        notes.append(StatWarning(
+            "outlier-leverage-one",
+            f"{int(alone.sum())} unit(s) alone in their level have leverage 1 and are not screened."))
+    screened = ~alone
+    df_left = cells.df_within - 1
+    ss_within = cells.ss_within
+    if df_left < 1 or ss_within == 0.0:
+        notes.append(StatWarning(
+            "outlier-undefined",
+            "Too few residual degrees of freedom or no residual variation; no unit is screened."))
+        return OutlierScreen(method, float(threshold), 0, (), tuple(notes))
+    e = residuals(values, codes, cells)
+    keep = 1.0 - 1.0 / n_own[screened]
+    e_kept = e[screened]
+    # s_(-)^2 can reach 0 when one unit carries all residual variation: t is then
+    # infinite and the unit is flagged, so the division is allowed to give inf here.
+    s2 = np.maximum(ss_within - e_kept**2 / keep, 0.0) / df_left
+    with np.errstate(divide="ignore", invalid="ignore"):
+        t = np.where(e_kept == 0.0, 0.0, e_kept / np.sqrt(s2 * keep))
+    index = np.flatnonzero(screened)
+    flagged = tuple(
+        FlaggedUnit(str(units[i]), str(levels[codes[i]]), float(values[i]), float(e[i]), float(ti))
+        for i, ti in zip(index, t) if abs(ti) > threshold
+    )
+    return OutlierScreen(method, float(threshold), int(index.size), flagged, tuple(notes))
