@@ -1,0 +1,5 @@
+"""`python -m appendix` runs the command line."""
+
+from appendix.cli import console
+
+console()

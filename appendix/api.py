@@ -1,0 +1,137 @@
+"""The Python API, for notebooks and scripts; the command line calls exactly these.
+
+>>> from appendix import api
+>>> computed = api.compute("studies/seed-coating/study.yaml")        # doctest: +SKIP
+>>> computed.results.outcomes[0].table.f                            # doctest: +SKIP
+>>> api.run("studies/seed-coating/study.yaml", out_dir="out/demo")  # doctest: +SKIP
+
+Stages: `load_plan` -> `load_data` -> `analyse` -> `render` -> `run` writes the folder.
+"""
+
+from __future__ import annotations
+
+import datetime as _dt
+import platform
+import sys
+from collections.abc import Callable
+from dataclasses import dataclass
+from importlib import metadata
+from pathlib import Path
+
+from appendix import __version__
+from appendix.data.build import build_dataset
+from appendix.data.dataset import Dataset
+from appendix.plan.load import LoadedPlan, load_plan
+from appendix.results import Software, StudyResults, to_json, to_plain
+from appendix.runner import analyse as _analyse
+
+__all__ = ["Computed", "Rendered", "RunRecord", "load_plan", "load_data", "analyse",
+           "compute", "check", "render", "run", "software_versions"]
+
+# Libraries whose versions can change a number or a page; recorded in every run.
+_LIBRARIES = ("numpy", "scipy", "pandas", "statsmodels", "pydantic", "PyYAML", "pyarrow",
+              "openpyxl", "matplotlib", "Jinja2", "weasyprint")
+
+
+def software_versions() -> tuple[Software, ...]:
+    """appendix, Python and every library that computes or renders, by installed version."""
+    found = [Software("appendix", __version__),
+             Software("Python", platform.python_version())]
+    for name in _LIBRARIES:
+        try:
+            found.append(Software(name, metadata.version(name)))
+        except metadata.PackageNotFoundError:
+            found.append(Software(name, "not installed"))
+    return tuple(found)
+
+
+@dataclass(frozen=True)
+class Computed:
+    """A plan, its dataset and everything computed from them."""
+
+    loaded: LoadedPlan
+    dataset: Dataset
+    results: StudyResults
+
+
+@dataclass(frozen=True)
+class Rendered:
+    """The finished appendix in memory: canonical JSON, figures (SVG) and HTML."""
+
+    results_json: str
+    figures: dict[str, str]
+    html: str
+
+
+@dataclass(frozen=True)
+class RunRecord:
+    folder: Path
+    results: StudyResults
+    files: tuple[str, ...]
+
+
+def load_data(loaded: LoadedPlan) -> Dataset:
+    """Read, check and exclude: the dataset stage."""
+    return build_dataset(loaded)
+
+
+def analyse(loaded: LoadedPlan, dataset: Dataset) -> StudyResults:
+    """Every registered analysis (pure computation)."""
+    return _analyse(loaded, dataset, software_versions())
+
+
+def compute(study: str | Path) -> Computed:
+    """Plan, data and results for a study file; raises `appendix.errors.UserError`."""
+    loaded = load_plan(Path(study))
+    dataset = load_data(loaded)
+    return Computed(loaded, dataset, analyse(loaded, dataset))
+
+
+def check(study: str | Path) -> list[str]:
+    """What a run would compute, as lines of text; reads the plan and data, writes nothing."""
+    from appendix.preview import describe_run
+
+    loaded = load_plan(Path(study))
+    return describe_run(loaded, load_data(loaded))
+
+
+def render(computed: Computed, options=None) -> Rendered:
+    """Figures and HTML from the results; rendering sees only results.json and figures."""
+    from appendix import figures, render as html
+
+    options = options or html.RenderOptions()
+    text = to_json(computed.results)
+    svgs = figures.make_figures(computed.dataset, computed.results)
+    page = html.render_html(to_plain(computed.results), svgs, options)
+    return Rendered(results_json=text, figures=svgs, html=page)
+
+
+def run(study: str | Path, out_dir: str | Path | None = None, *,
+        out_root: str | Path = "out", options=None,
+        pdf: bool = True, clock: Callable[[], _dt.datetime] | None = None,
+        progress: Callable[[str], None] | None = None) -> RunRecord:
+    """Compute and render a study into its run folder (`out_dir`, by default
+    ``<out_root>/<study id>/``), replacing the folder only once everything is written."""
+    from appendix import publish, render as html
+
+    say = progress or (lambda _message: None)
+    say("reading plan and data")
+    computed = compute(study)
+    say("computing figures and HTML")
+    options = options or html.RenderOptions()
+    rendered = render(computed, options)
+    folder = Path(out_dir) if out_dir is not None else Path(out_root) / computed.results.study.id
+    now = (clock or (lambda: _dt.datetime.now(_dt.timezone.utc)))()
+    with publish.staged_folder(folder) as staging:
+        (staging / "results.json").write_text(rendered.results_json, encoding="utf-8")
+        (staging / "appendix.html").write_text(rendered.html, encoding="utf-8")
+        (staging / "figures").mkdir()
+        for stem, svg in sorted(rendered.figures.items()):
+            (staging / "figures" / f"{stem}.svg").write_text(svg, encoding="utf-8")
+        if pdf:
+            say("rendering PDF")
+            html.render_pdf(rendered.html, staging / "appendix.pdf", options)
+        written = publish.write_manifest(staging, computed.results, now, environment={
+            "python": sys.version.split()[0], "platform": platform.platform()})
+    say(f"wrote {folder}")
+    return RunRecord(folder=folder, results=computed.results, files=written)

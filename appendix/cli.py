@@ -1,0 +1,114 @@
+"""Command line: parse arguments, call one API function per command, map errors to exit codes.
+
+Exit codes: 0 done; 1 done, but something the user must see; 2 bad input or usage (a
+message, no traceback); 3 an internal error (a bug), with a log file naming versions.
+"""
+
+from __future__ import annotations
+
+import argparse
+import datetime as _dt
+import sys
+import traceback
+from collections.abc import Callable, Sequence
+from pathlib import Path
+from typing import TextIO
+
+from appendix import __version__
+from appendix.errors import UserError
+
+EXIT_OK, EXIT_ATTENTION, EXIT_USAGE, EXIT_BUG = 0, 1, 2, 3
+
+
+class _Parser(argparse.ArgumentParser):
+    """argparse that raises instead of exiting, so usage errors map to exit code 2 here."""
+
+    def error(self, message: str):  # noqa: D102 - argparse hook
+        raise UserError(f"{self.prog}: {message}\n{self.format_usage().rstrip()}")
+
+
+def _parser() -> argparse.ArgumentParser:
+    parser = _Parser(prog="appendix", description="The statistics appendix of a designed "
+                     "study, computed exactly as its registered analysis plan fixed it.")
+    parser.add_argument("--version", action="version", version=f"appendix {__version__}")
+    commands = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
+    check = commands.add_parser("check", help="validate plan and data, list what a run "
+                                "would compute; writes nothing")
+    check.add_argument("study", type=Path, help="the study file (YAML)")
+    run = commands.add_parser("run", help="compute and render into out/<study id>/")
+    run.add_argument("study", type=Path, help="the study file (YAML)")
+    run.add_argument("--out", type=Path, help="run folder (default: out/<study id>/)")
+    run.add_argument("--no-pdf", action="store_true", help="write the HTML only")
+    run.add_argument("--paper", choices=["A4", "Letter"], default="A4", help="PDF page size")
+    return parser
+
+
+def _check(args, out: TextIO) -> int:
+    from appendix import api
+
+    for line in api.check(args.study):
+        print(line, file=out)
+    return EXIT_OK
+
+
+def _run(args, cwd: Path, out: TextIO, err: TextIO, clock) -> int:
+    from appendix import api
+    from appendix.render import RenderOptions
+
+    tty = err.isatty()
+
+    def progress(message: str) -> None:
+        if tty:  # long runs show progress on a terminal and stay quiet elsewhere
+            print(f"  {message} ...", file=err, flush=True)
+
+    record = api.run(args.study, cwd / args.out if args.out else None, out_root=cwd / "out",
+                     options=RenderOptions(paper=args.paper), pdf=not args.no_pdf,
+                     clock=clock, progress=progress)
+    print(f"wrote {record.folder}", file=out)
+    for outcome in record.results.outcomes:
+        print(f"  {outcome.name} ({outcome.role}): {outcome.conclusion.decision}", file=out)
+    return EXIT_OK
+
+
+def _log_bug(error: BaseException, directory: Path, now: _dt.datetime) -> Path:
+    from appendix.api import software_versions
+
+    path = directory / f"appendix-error-{now:%Y%m%dT%H%M%S}.log"
+    lines = [f"appendix {__version__} internal error at {now.isoformat()}",
+             *(f"{s.name} {s.version}" for s in software_versions()), "",
+             "".join(traceback.format_exception(error))]
+    path.write_text("\n".join(lines), encoding="utf-8")
+    return path
+
+
+def main(argv: Sequence[str] | None = None, *, stdout: TextIO | None = None,
+         stderr: TextIO | None = None, cwd: Path | None = None,
+         clock: Callable[[], _dt.datetime] | None = None) -> int:
+    """Run one command; return its exit code. Paths, streams and clock are injectable."""
+    out, err = stdout or sys.stdout, stderr or sys.stderr
+    clock = clock or (lambda: _dt.datetime.now(_dt.timezone.utc))
+    cwd = cwd or Path.cwd()
+    try:
+        args = _parser().parse_args(list(sys.argv[1:] if argv is None else argv))
+        if args.command is None:
+            print(_parser().format_help(), file=err)
+            return EXIT_USAGE
+        args.study = cwd / args.study
+        if args.command == "check":
+            return _check(args, out)
+        return _run(args, cwd, out, err, clock)
+    except SystemExit as done:  # --help and --version print, then ask to exit
+        return int(done.code or 0)
+    except UserError as error:
+        print(f"error: {error}", file=err)
+        return EXIT_USAGE
+    except Exception as error:  # a bug: say so, log it, never a bare traceback
+        log = _log_bug(error, cwd, clock())
+        print(f"internal error (a bug in appendix): {error!r}\n"
+              f"details were written to {log}", file=err)
+        return EXIT_BUG
+
+
+def console() -> None:
+    """Entry point of the `appendix` console script."""
+    sys.exit(main())

@@ -1,0 +1,20 @@
+"""Shared fixtures: the demo study copied into a temporary folder, so tests never write
+into the repository."""
+
+from __future__ import annotations
+
+import shutil
+from pathlib import Path
+
+import pytest
+
+REPO = Path(__file__).resolve().parent.parent
+DEMO = REPO / "studies" / "seed-coating"
+
+
+@pytest.fixture
+def demo_study(tmp_path: Path) -> Path:
+    """A copy of the demo study folder; returns the path of its study file."""
+    target = tmp_path / "seed-coating"
+    shutil.copytree(DEMO, target, ignore=shutil.ignore_patterns("__pycache__"))
+    return target / "study.yaml"
