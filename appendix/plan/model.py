@@ -11,10 +11,52 @@ room for the factorial, blocked and covariate designs and contrasts of later for
 from __future__ import annotations
 
 import datetime as _dt
-from typing import Literal
+from typing import Annotated, Literal
 
-from pydantic import BaseModel, ConfigDict, Field
+from pydantic import (
+    BaseModel,
+    BeforeValidator,
+    ConfigDict,
+    Field,
+    StringConstraints,
+    WithJsonSchema,
+    model_validator,
+)
+from pydantic_core import PydanticCustomError
 
+from appendix.plan.checks import DATA_FORMATS, consistency_problems
+from appendix.plan.scalars import scalar_text
+from appendix.plan.wording import key_path
+
+
+def _numbers_as_text(value: object) -> object:
+    # A level written `1` in YAML arrives as an int; it names the same level as the
+    # data text "1". Booleans stay booleans so that `yes`-like surprises are reported.
+    if isinstance(value, (int, float)) and not isinstance(value, bool):
+        return scalar_text(value)
+    return value
+
+
+def _scalars_as_text(value: object) -> object:
+    if isinstance(value, (bool, int, float)):
+        return scalar_text(value)
+    return value
+
+
+#: A level name: text, or a number taken as its canonical text.
+LevelText = Annotated[
+    str,
+    BeforeValidator(_numbers_as_text),
+    StringConstraints(min_length=1),
+    WithJsonSchema({"type": ["string", "number"], "minLength": 1}),
+]
+
+#: A value an exclusion rule compares with: text, number or boolean, kept as text.
+ValueText = Annotated[
+    str,
+    BeforeValidator(_scalars_as_text),
+    WithJsonSchema({"type": ["string", "number", "boolean"]}),
+]
 
 
 class _Frozen(BaseModel):
@@ -42,7 +84,9 @@ class Exclusion(_Frozen):
 
     id: str = Field(min_length=1, description="Short identifier of the rule, e.g. 'X1'.")
     column: str = Field(min_length=1, description="Data column the rule looks at.")
-    equals: str | int | float | bool = Field(description="Value that excludes a unit.")
+    equals: ValueText = Field(
+        description="Value that excludes a unit; compared with the cell as text (see the data stage)."
+    )
     reason: str = Field(min_length=1, description="Why units matching the rule are excluded.")
 
 
@@ -58,7 +102,7 @@ class Data(_Frozen):
 
     source: str = Field(
         min_length=1,
-        description="Data file, relative to the study file: .csv, .tsv, .parquet, .xlsx or .xpt.",
+        description=f"Data file, relative to the study file: {', '.join(DATA_FORMATS)}.",
     )
     unit: str = Field(min_length=1, description="Column identifying each experimental unit.")
     sheet: str | None = Field(default=None, description="Worksheet name, for Excel sources.")
@@ -71,15 +115,17 @@ class Factor(_Frozen):
 
     name: str = Field(min_length=1, description="Data column holding the level of each unit.")
     label: str | None = Field(default=None, description="Name of the factor in prose.")
-    levels: tuple[str, ...] = Field(min_length=2, description="Levels in registered order.")
-    control: str | None = Field(default=None, description="The control level, if any.")
+    levels: tuple[LevelText, ...] = Field(min_length=2, description="Levels in registered order.")
+    control: LevelText | None = Field(default=None, description="The control level, if any.")
     ordered: bool = Field(default=False, description="Whether the levels are ordered.")
 
 
 class Design(_Frozen):
     """The model's terms. Format 1: exactly one treatment factor."""
 
-    factors: tuple[Factor, ...] = Field(min_length=1, max_length=1)
+    factors: tuple[Factor, ...] = Field(
+        min_length=1, max_length=1, description="The treatment factor (format 1: exactly one)."
+    )
 
 
 class Outcome(_Frozen):
@@ -132,13 +178,23 @@ class Assumptions(_Frozen):
 class Plan(_Frozen):
     """A whole study file, format 1."""
 
-    format: Literal[1]
-    study: Study
-    data: Data
+    format: Literal[1] = Field(description="Version of the study-file format; this version reads 1.")
+    study: Study = Field(description="The study's identifier and title.")
+    data: Data = Field(description="Where the data are, how units are identified, exclusions.")
     alpha: float = Field(default=0.05, gt=0, lt=0.5, description="Significance level.")
-    design: Design
-    outcomes: tuple[Outcome, ...] = Field(min_length=1)
-    assumptions: Assumptions = Assumptions()
+    design: Design = Field(description="The treatment factor and its levels.")
+    outcomes: tuple[Outcome, ...] = Field(min_length=1, description="The registered outcomes.")
+    assumptions: Assumptions = Field(default=Assumptions(), description="Diagnostics to compute.")
+
+    @model_validator(mode="after")
+    def _consistent(self) -> Plan:
+        # The loader runs the same checks on the raw file so that they are reported
+        # together with field errors; this guards plans built in code.
+        problems = consistency_problems(self.model_dump(mode="json"))
+        if problems:
+            text = "; ".join(f"{key_path(loc)}: {message}" for loc, message in problems)
+            raise PydanticCustomError("plan_consistency", text)
+        return self
 
     @property
     def factor(self) -> Factor:

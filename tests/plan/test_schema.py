@@ -1,0 +1,43 @@
+"""The published JSON Schema equals the model's, and checks study files like the loader."""
+
+from __future__ import annotations
+
+import jsonschema
+import pytest
+
+from appendix.plan.schema import SCHEMA_FILE, main, schema_text, study_schema
+from appendix.plan.yamltree import read_tree
+from tests.plan.plans import BASE, variant
+
+
+def test_committed_schema_is_current():
+    assert SCHEMA_FILE.read_text(encoding="utf-8") == schema_text()
+
+
+def test_schema_header():
+    schema = study_schema()
+    assert schema["$schema"] == "https://json-schema.org/draft/2020-12/schema"
+    assert schema["$id"] == "urn:appendix:schema:study:format-1"
+    jsonschema.Draft202012Validator.check_schema(schema)
+
+
+def test_main_writes_file(tmp_path, capsys):
+    target = tmp_path / "s.json"
+    assert main([str(target)]) == 0
+    assert target.read_text(encoding="utf-8") == schema_text()
+
+
+def test_valid_plan_passes():
+    jsonschema.validate(read_tree(BASE).value, study_schema())
+
+
+@pytest.mark.parametrize("old, new", [
+    ("role: primary", "role: main"),
+    ("      levels:", "      levls:"),
+    ("format: 1", "format: 2"),
+    ("alpha: 0.05", "alpha: 0.5"),
+    ("id: trial-07", "id: trial 07"),
+])
+def test_bad_plan_fails(old, new):
+    with pytest.raises(jsonschema.ValidationError):
+        jsonschema.validate(read_tree(variant(old, new)).value, study_schema())
