@@ -17,6 +17,7 @@ from appendix.stats.descriptives import split_by_code
 from appendix.stats.oneway import partition
 
 _SHAPIRO_MAX_N = 5000  # upper end of the range scipy states for its p-value
+_LAYOUT_CODES = frozenset({"empty-level", "group-n-one", "single-group"})
 
 
 def shapiro_wilk(residuals: np.ndarray) -> NormalityTest:
@@ -59,7 +60,13 @@ def brown_forsythe(
     spread = np.abs(values - medians[codes])
     part = partition(cell_stats(spread, codes, k, levels))
     if part.f is None:
-        return VarianceTest("brown-forsythe", None, None, None, None, part.warnings)
+        # Keep the layout warnings; restate the F failure in terms of this test.
+        kept = tuple(w for w in part.warnings if w.code in _LAYOUT_CODES)
+        failure = (StatWarning(
+            "brown-forsythe-undefined",
+            "The absolute deviations from the level medians show no within-level variation "
+            "(or there are too few units); the Brown-Forsythe test is undefined."),)
+        return VarianceTest("brown-forsythe", None, None, None, None, kept + failure)
     return VarianceTest("brown-forsythe", part.f, float(part.df_between), float(part.df_within),
                         part.p, part.warnings)
 

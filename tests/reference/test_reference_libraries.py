@@ -1,0 +1,130 @@
+"""Agreement with independent reference libraries on random (seeded, invented) designs.
+
+References: statsmodels 0.15.0 (OLS + anova_lm, OLSInfluence), pingouin 0.7.0
+(welch_anova), scipy 1.17 (kruskal, levene with center="median", bartlett, ncf).
+The data are invented: normal draws from numpy's seeded generator, drawn per example.
+"""
+
+from __future__ import annotations
+
+
+import numpy as np
+import pandas as pd
+import pingouin
+import pytest
+import scipy.stats as st
+import statsmodels.formula.api as smf
+from hypothesis import given, settings
+from hypothesis import strategies as hs
+from statsmodels.stats.anova import anova_lm
+from statsmodels.stats.outliers_influence import OLSInfluence
+
+from appendix.stats.cells import cell_stats
+from appendix.stats.diagnostics import bartlett, brown_forsythe, outlier_screen
+from appendix.stats.oneway import variance_table, welch_anova
+from appendix.stats.rank import kruskal_wallis
+
+REL = 1e-10
+
+
+def _design(seed: int, ties: bool = False):
+    """An invented unbalanced one-way design: 2-6 levels, 2-15 units each, unequal spreads."""
+    rng = np.random.default_rng(seed)
+    k = int(rng.integers(2, 7))
+    sizes = rng.integers(2, 16, size=k)
+    codes = np.repeat(np.arange(k), sizes)
+    values = rng.normal(rng.uniform(-50, 50), 1.0, size=codes.size)
+    values += rng.normal(0, 2, size=k)[codes] * rng.uniform(0.1, 3.0, size=k)[codes]
+    if ties:
+        values = np.round(values)
+    order = rng.permutation(codes.size)  # data need not arrive sorted by level
+    return values[order], codes[order], k
+
+
+def _groups(values, codes, k):
+    return [values[codes == i] for i in range(k)]
+
+
+def _frame(values, codes):
+    return pd.DataFrame({"y": values, "g": [f"L{c}" for c in codes]})
+
+
+seeds = hs.integers(min_value=0, max_value=2**32 - 1)
+
+
+@settings(max_examples=40, deadline=None)
+@given(seeds)
+def test_variance_table_matches_statsmodels_anova_lm(seed: int) -> None:
+    values, codes, k = _design(seed)
+    table = variance_table(cell_stats(values, codes, k), alpha=0.05)
+    fit = smf.ols("y ~ C(g)", data=_frame(values, codes)).fit()
+    reference = anova_lm(fit, typ=1)  # statsmodels 0.15.0
+    between, within, _ = table.rows
+    assert between.df == reference["df"].iloc[0] and within.df == reference["df"].iloc[1]
+    assert between.sum_of_squares == pytest.approx(reference["sum_sq"].iloc[0], rel=REL)
+    assert within.sum_of_squares == pytest.approx(reference["sum_sq"].iloc[1], rel=REL)
+    assert table.f == pytest.approx(reference["F"].iloc[0], rel=REL)
+    assert table.p == pytest.approx(reference["PR(>F)"].iloc[0], rel=1e-8)
+    assert table.r_squared == pytest.approx(fit.rsquared, rel=REL)
+    assert table.residual_sd == pytest.approx(np.sqrt(fit.mse_resid), rel=REL)
+
+
+@settings(max_examples=40, deadline=None)
+@given(seeds)
+def test_welch_matches_pingouin(seed: int) -> None:
+    values, codes, k = _design(seed)
+    ours = welch_anova(cell_stats(values, codes, k))
+    reference = pingouin.welch_anova(data=_frame(values, codes), dv="y", between="g")  # pingouin 0.7.0
+    assert ours.df_num == reference["ddof1"].iloc[0]
+    assert ours.df_den == pytest.approx(reference["ddof2"].iloc[0], rel=REL)
+    assert ours.f == pytest.approx(reference["F"].iloc[0], rel=REL)
+    assert ours.p == pytest.approx(reference["p_unc"].iloc[0], rel=1e-8)
+
+
+@settings(max_examples=60, deadline=None)
+@given(seeds, hs.booleans())
+def test_kruskal_matches_scipy(seed: int, ties: bool) -> None:
+    values, codes, k = _design(seed, ties=ties)
+    ours = kruskal_wallis(values, codes, k)
+    h, p = st.kruskal(*_groups(values, codes, k))  # scipy 1.17
+    assert ours.h == pytest.approx(h, rel=REL)
+    assert ours.p == pytest.approx(p, rel=1e-8)
+
+
+@settings(max_examples=60, deadline=None)
+@given(seeds, hs.booleans())
+def test_brown_forsythe_matches_scipy_levene_median(seed: int, ties: bool) -> None:
+    values, codes, k = _design(seed, ties=ties)
+    ours = brown_forsythe(values, codes, k)
+    w, p = st.levene(*_groups(values, codes, k), center="median")  # scipy 1.17
+    assert ours.statistic == pytest.approx(w, rel=REL)
+    assert ours.p == pytest.approx(p, rel=1e-8)
+
+
+@settings(max_examples=60, deadline=None)
+@given(seeds)
+def test_bartlett_matches_scipy(seed: int) -> None:
+    values, codes, k = _design(seed)
+    ours = bartlett(cell_stats(values, codes, k))
+    t, p = st.bartlett(*_groups(values, codes, k))  # scipy 1.17
+    assert ours.statistic == pytest.approx(t, rel=REL)
+    assert ours.p == pytest.approx(p, rel=1e-8)
+
+
+@pytest.mark.parametrize("seed", [3, 17, 2024])
+def test_studentized_residuals_match_statsmodels(seed: int) -> None:
+    values, codes, k = _design(seed)
+    values = values.copy()
+    values[0] += 12.0  # one planted gross error so that something is flagged
+    cells = cell_stats(values, codes, k)
+    units = tuple(f"u{i}" for i in range(values.size))
+    screen = outlier_screen(values, codes, cells, units, tuple(f"L{i}" for i in range(k)), 0.0001)
+    fit = smf.ols("y ~ C(g)", data=_frame(values, codes)).fit()
+    reference = OLSInfluence(fit).resid_studentized_external  # statsmodels 0.15.0
+    got = {unit.unit: unit.studentized for unit in screen.flagged}
+    assert screen.n_screened == values.size
+    for i, unit in enumerate(units):
+        if abs(reference[i]) > 0.0001:
+            assert got[unit] == pytest.approx(reference[i], rel=1e-9)
+    big = outlier_screen(values, codes, cells, units, tuple(f"L{i}" for i in range(k)), 3.0)
+    assert "u0" in {unit.unit for unit in big.flagged}

@@ -1,0 +1,145 @@
+"""Degenerate one-way data: statistics are None with typed warnings, never an exception.
+
+Every test runs with Python warnings turned into errors, so a RuntimeWarning (division by
+zero, invalid value) leaking from the numeric core fails it.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from appendix.stats.cells import cell_stats
+from appendix.stats.descriptives import describe
+from appendix.stats.diagnostics import bartlett, brown_forsythe, outlier_screen, shapiro_wilk
+from appendix.stats.effect_sizes import effect_sizes
+from appendix.stats.oneway import variance_table, welch_anova
+from appendix.stats.rank import kruskal_wallis
+
+pytestmark = pytest.mark.filterwarnings("error")
+
+LEVELS = ("a", "b", "c")
+
+
+def codes_of(*sizes: int) -> np.ndarray:
+    return np.repeat(np.arange(len(sizes)), sizes)
+
+
+def run_all(values, codes, levels=LEVELS):
+    values = np.asarray(values, dtype=np.float64)
+    k = len(levels)
+    cells = cell_stats(values, codes, k, levels)
+    table = variance_table(cells, 0.05)
+    units = tuple(f"u{i}" for i in range(values.size))
+    return {
+        "descriptives": describe(values, codes, levels, [0] * k, 0.95),
+        "table": table,
+        "welch": welch_anova(cells),
+        "kruskal": kruskal_wallis(values, codes, k, levels),
+        "effects": effect_sizes(table, 0.90),
+        "bf": brown_forsythe(values, codes, k, levels),
+        "bartlett": bartlett(cells),
+        "outliers": outlier_screen(values, codes, cells, units, levels, 3.0),
+        "normality": shapiro_wilk(values - cells.mean[codes]) if values.size else shapiro_wilk(values),
+    }
+
+
+def codes_in(result) -> list[str]:
+    return [w.code for w in result.warnings]
+
+
+def test_group_with_one_unit() -> None:
+    r = run_all([1.0, 2.0, 4.0, 3.0, 5.0, 9.0], codes_of(3, 2, 1))
+    assert codes_in(r["table"]) == ["group-n-one"]
+    assert r["table"].f is not None  # the other levels still give within-group df
+    assert codes_in(r["welch"]) == ["group-n-one", "welch-undefined"]
+    assert r["welch"].f is None and r["welch"].p is None and r["welch"].df_den is None
+    assert codes_in(r["bartlett"]) == ["group-n-one", "bartlett-undefined"]
+    assert r["bartlett"].statistic is None
+    assert codes_in(r["outliers"]) == ["outlier-leverage-one"]
+    assert r["outliers"].n_screened == 5
+    c = r["descriptives"].groups[2]
+    assert (c.n, c.mean, c.median, c.minimum) == (1, 9.0, 9.0, 9.0)
+    assert c.sd is None and c.se is None and c.ci_low is None and c.ci_high is None
+    assert codes_in(r["descriptives"]) == ["group-n-one"]
+    assert "Level 'c' has a single unit" in r["descriptives"].warnings[0].message
+
+
+def test_zero_within_variance() -> None:
+    r = run_all([2.0, 2.0, 5.0, 5.0, 7.0, 7.0], codes_of(2, 2, 2))
+    table = r["table"]
+    assert codes_in(table) == ["zero-within-variance"]
+    assert table.f is None and table.p is None
+    assert table.rows[1].sum_of_squares == 0.0 and table.residual_sd == 0.0
+    assert table.r_squared == 1.0
+    assert table.critical_f == pytest.approx(9.552094495921, rel=1e-9)  # F(2, 3) upper 5%, scipy 1.17 f.isf
+    assert codes_in(r["welch"]) == ["zero-group-variance"]
+    assert "'a', 'b', 'c'" in r["welch"].warnings[0].message
+    assert [e.estimate for e in r["effects"]] == [None, None, None]
+    assert codes_in(r["effects"][0]) == ["effect-size-undefined"]
+    assert r["bartlett"].statistic is None and codes_in(r["bartlett"]) == ["bartlett-undefined"]
+    assert r["bf"].statistic is None and codes_in(r["bf"]) == ["brown-forsythe-undefined"]
+    assert r["outliers"].flagged == () and codes_in(r["outliers"]) == ["outlier-undefined"]
+    assert r["kruskal"].h is not None  # ranks still separate the levels
+
+
+def test_single_occupied_group_and_empty_levels() -> None:
+    r = run_all([1.0, 2.0, 4.0], np.zeros(3, dtype=np.intp))
+    table = r["table"]
+    assert codes_in(table) == ["empty-level", "empty-level", "single-group"]
+    assert (table.df_between, table.df_within) == (0, 2)
+    assert table.f is None and table.p is None and table.critical_f is None and table.r_squared is None
+    assert table.rows[0].mean_square is None
+    for key in ("welch", "kruskal", "bartlett"):
+        assert codes_in(r[key])[-1] == "single-group", key
+    assert codes_in(r["bf"]) == ["empty-level", "empty-level", "single-group", "brown-forsythe-undefined"]
+    assert r["welch"].f is None and r["kruskal"].h is None
+    assert r["bf"].statistic is None and r["bartlett"].statistic is None
+    empty = r["descriptives"].groups[1]
+    assert empty.n == 0 and empty.mean is None and empty.q1 is None and empty.maximum is None
+
+
+def test_empty_level_is_left_out_of_the_tests() -> None:
+    values = np.array([1.0, 2.0, 4.0, 3.0, 5.0, 9.0])
+    with_empty = run_all(values, np.repeat([0, 2], 3))
+    without = run_all(values, np.repeat([0, 1], 3), levels=("a", "c"))
+    assert codes_in(with_empty["table"]) == ["empty-level"]
+    assert "Level 'b' has no analysed units" in with_empty["table"].warnings[0].message
+    assert with_empty["table"].df_between == 1
+    assert with_empty["table"].f == without["table"].f
+    assert with_empty["welch"].f == without["welch"].f
+    assert with_empty["kruskal"].h == without["kruskal"].h
+    assert with_empty["bartlett"].statistic == without["bartlett"].statistic
+
+
+def test_all_values_identical() -> None:
+    r = run_all([3.0] * 6, codes_of(2, 2, 2))
+    assert codes_in(r["table"]) == ["all-identical"]
+    assert r["table"].f is None and r["table"].r_squared is None
+    assert codes_in(r["kruskal"]) == ["all-identical"]
+    assert r["kruskal"].h is None and r["kruskal"].tie_correction == 0.0 and r["kruskal"].df == 2
+    assert codes_in(r["normality"]) == ["normality-constant"]
+    assert r["normality"].statistic is None
+
+
+def test_every_level_has_one_unit() -> None:
+    r = run_all([1.0, 2.0, 4.0], codes_of(1, 1, 1))
+    assert codes_in(r["table"]) == ["group-n-one"] * 3 + ["no-within-df"]
+    assert r["table"].f is None and r["table"].residual_sd is None and r["table"].critical_f is None
+    assert r["table"].rows[1].mean_square is None
+
+
+def test_no_units_at_all() -> None:
+    r = run_all([], np.zeros(0, dtype=np.intp))
+    assert r["table"].f is None and r["table"].rows[2].df == 0
+    assert r["normality"].n == 0 and codes_in(r["normality"]) == ["normality-too-few"]
+    assert all(g.n == 0 for g in r["descriptives"].groups)
+
+
+def test_shapiro_small_and_large_samples() -> None:
+    assert codes_in(shapiro_wilk(np.array([0.5, -0.5]))) == ["normality-too-few"]
+    # Invented residuals from a seeded normal generator.
+    big = shapiro_wilk(np.random.default_rng(11).normal(size=5001))
+    assert codes_in(big) == ["normality-p-approximate"]
+    assert big.statistic is not None and 0.99 < big.statistic <= 1.0
+    assert shapiro_wilk(np.random.default_rng(11).normal(size=5000)).warnings == ()
