@@ -1,0 +1,168 @@
+"""Plan + data file -> `Dataset`: checked, exclusions applied, counted, arrays frozen.
+
+Checks, all collected into one `DataError`: the columns the plan names exist; unit
+identifiers are present and unique; every row's level is one of the plan's levels
+(exact text, spaces trimmed); every eligible outcome cell is a number or missing.
+Cells of units set aside by an exclusion rule are not checked as outcomes.
+"""
+
+from __future__ import annotations
+
+from collections import defaultdict
+from collections.abc import Sequence
+
+import numpy as np
+
+from appendix.data.checksums import study_inputs
+from appendix.data.dataset import Dataset, OutcomeData, frozen_array
+from appendix.data.exclusions import apply_exclusions
+from appendix.data.flow import flow_findings, level_counts
+from appendix.data.readers import read_table
+from appendix.data.table import Table
+from appendix.data.values import is_missing, parse_number
+from appendix.errors import DataError, Problem
+from appendix.plan.load import LoadedPlan
+from appendix.plan.wording import capped, did_you_mean, one_of, show
+from appendix.results import OutcomeFlow, UnitFlow
+
+#: At most this many offending cells are listed per column and kind of problem.
+LISTED = 20
+
+
+def build_dataset(loaded: LoadedPlan) -> Dataset:
+    """Read the plan's data source and turn it into the analysed `Dataset`."""
+    plan = loaded.plan
+    table = read_table(loaded.data_path, plan.data.sheet)
+    inputs = study_inputs(loaded.path, loaded.data_path)
+    where = str(loaded.data_path)
+    _require_columns(loaded, table)
+    levels = plan.factor.levels
+    problems = _unit_problems(table, plan.data.unit, where)
+    codes, level_problems = _level_codes(table, plan.factor.name, levels, where)
+    problems += level_problems
+    if problems:
+        raise DataError(problems)
+    eligible, excluded = apply_exclusions(table, plan.data.exclusions, codes, levels)
+    outcomes: list[OutcomeData] = []
+    flows: list[OutcomeFlow] = []
+    units = table.column(plan.data.unit)
+    for outcome in plan.outcomes:
+        column = outcome.data_column
+        rows, missing, bad = _outcome_rows(table, column, eligible, where)
+        problems += bad
+        outcomes.append(OutcomeData(
+            name=outcome.name,
+            values=frozen_array([value for _, value in rows], dtype=np.float64),
+            codes=frozen_array([codes[i] for i, _ in rows], dtype=np.int64),
+            units=tuple(str(units[i]) for i, _ in rows),
+            lines=tuple(table.lines[i] for i, _ in rows),
+        ))
+        flows.append(OutcomeFlow(outcome=outcome.name,
+                                 missing=level_counts((codes[i] for i in missing), levels),
+                                 analysed=level_counts((codes[i] for i, _ in rows), levels)))
+    if problems:
+        raise DataError(problems)
+    flow = UnitFlow(
+        read=level_counts(codes, levels),
+        exclusions=excluded,
+        eligible=level_counts((c for c, keep in zip(codes, eligible) if keep), levels),
+        outcomes=tuple(flows),
+    )
+    return Dataset(levels=levels, inputs=inputs, unit_flow=flow, outcomes=tuple(outcomes),
+                   findings=flow_findings(plan, flow))
+
+
+def _require_columns(loaded: LoadedPlan, table: Table) -> None:
+    """Every column the plan names is in the data, or one problem per missing column."""
+    plan = loaded.plan
+    named = [("data.unit", plan.data.unit), ("design.factors[0].name", plan.factor.name)]
+    named += [(f"data.exclusions[{i}].column", rule.column)
+              for i, rule in enumerate(plan.data.exclusions)]
+    named += [(f"outcomes[{i}].{'column' if o.column else 'name'}", o.data_column)
+              for i, o in enumerate(plan.outcomes)]
+    listing = capped([show(c) for c in table.columns], LISTED)
+    problems = [
+        Problem(str(table.path), table.header_line, column,
+                f"no such column (named by {key} at {loaded.path}:{loaded.line_of(key)}); "
+                f"the columns are {listing}{did_you_mean(column, table.columns)}")
+        for key, column in named if column not in table.cells
+    ]
+    if problems:
+        raise DataError(list(dict.fromkeys(problems)))
+
+
+def _lines(table: Table, rows: Sequence[int]) -> str:
+    label = "line" if len(rows) == 1 else "lines"
+    return f"{label} {capped([str(table.lines[i]) for i in rows], LISTED)}"
+
+
+def _unit_problems(table: Table, column: str, where: str) -> list[Problem]:
+    empty: list[int] = []
+    seen: dict[str, list[int]] = defaultdict(list)
+    for i, cell in enumerate(table.column(column)):
+        if is_missing(cell):
+            empty.append(i)
+        else:
+            seen[str(cell)].append(i)
+    problems = []
+    if empty:
+        problems.append(Problem(where, table.lines[empty[0]], column,
+                                f"no unit identifier on {_lines(table, empty)}; every row needs one"))
+    repeated = [(unit, rows) for unit, rows in seen.items() if len(rows) > 1]
+    for unit, rows in repeated[:LISTED]:
+        problems.append(Problem(where, table.lines[rows[1]], column,
+                                f"unit {show(unit)} appears on {_lines(table, rows)}; "
+                                "each unit must appear once"))
+    if len(repeated) > LISTED:
+        problems.append(Problem(where, None, column,
+                                f"and {len(repeated) - LISTED} more repeated units"))
+    return problems
+
+
+def _level_codes(table: Table, column: str, levels: Sequence[str],
+                 where: str) -> tuple[list[int], list[Problem]]:
+    """The index into `levels` of every row (-1 where the cell is not a plan level)."""
+    index = {level: i for i, level in enumerate(levels)}
+    codes: list[int] = []
+    unknown: dict[str, list[int]] = defaultdict(list)
+    for i, cell in enumerate(table.column(column)):
+        text = "" if cell is None else cell
+        codes.append(index.get(text, -1))
+        if text not in index:
+            unknown[text].append(i)
+    allowed = f"allowed: one of the plan's levels {one_of(levels)}"
+    problems = []
+    for text, rows in unknown.items():
+        got = "an empty cell" if text == "" else f"got {show(text)}"
+        problems.append(Problem(where, table.lines[rows[0]], column,
+                                f"{got} on {_lines(table, rows)}; {allowed}"
+                                f"{did_you_mean(text, levels)}"))
+    return codes, problems
+
+
+def _outcome_rows(table: Table, column: str, eligible: Sequence[bool], where: str
+                  ) -> tuple[list[tuple[int, float]], list[int], list[Problem]]:
+    """(row, value) of analysed cells, rows of missing cells, and non-numeric cells."""
+    rows: list[tuple[int, float]] = []
+    missing: list[int] = []
+    bad: list[Problem] = []
+    count_bad = 0
+    for i, cell in enumerate(table.column(column)):
+        if not eligible[i]:
+            continue
+        if is_missing(cell):
+            missing.append(i)
+            continue
+        value = parse_number(cell)
+        if value is not None:
+            rows.append((i, value))
+            continue
+        count_bad += 1
+        if count_bad <= LISTED:
+            bad.append(Problem(where, table.lines[i], column,
+                               f"got {show(cell)}; allowed: a number, or an empty cell or NA "
+                               "for a missing value"))
+    if count_bad > LISTED:
+        bad.append(Problem(where, None, column,
+                           f"and {count_bad - LISTED} more cells that are not numbers"))
+    return rows, missing, bad

@@ -1,0 +1,184 @@
+"""Readers: one data file in, one `Table` out. Files are only ever opened for reading.
+
+Formats, by file name ending (case ignored): ``.csv`` and ``.tsv`` (UTF-8 text, RFC 4180
+quoting; a quoted cell may span lines), ``.parquet`` (pyarrow), ``.xlsx`` (openpyxl; the
+first worksheet unless `sheet` is given; formulas give their last computed value), and
+``.xpt`` (SAS transport version 5, SAS TS-140, via pandas).
+"""
+
+from __future__ import annotations
+
+import csv
+from collections.abc import Callable, Iterable, Sequence
+from pathlib import Path
+from types import MappingProxyType
+
+from appendix.data.table import Table
+from appendix.errors import DataError, Problem, UserError
+from appendix.plan.model import DATA_FORMATS
+from appendix.plan.scalars import scalar_text
+from appendix.plan.wording import capped, one_of, show
+
+#: At most this many ragged rows are listed one by one.
+LISTED = 20
+
+
+def read_table(path: Path, sheet: str | None = None) -> Table:
+    """Read a data file by its ending; `sheet` picks an Excel worksheet.
+
+    Raises `UserError` for a missing file or an unknown ending, `DataError` for a file
+    whose layout is broken (ragged rows, unnamed or repeated column names).
+    """
+    reader = _READERS.get(path.suffix.lower())
+    if reader is None:
+        raise UserError(f"cannot read {path}: unknown file type {show(path.suffix or path.name)}; "
+                        f"allowed: {one_of(DATA_FORMATS)}")
+    if not path.is_file():
+        raise UserError(f"data file not found: {path.resolve()}")
+    return reader(path, sheet)
+
+
+def _table(path: Path, header: Sequence[object], rows: Iterable[tuple[int, Sequence[object]]],
+           header_line: int) -> Table:
+    """A `Table` from a header and (line, cells) rows, with every layout problem collected."""
+    where = str(path)
+    problems: list[Problem] = []
+    columns = tuple(scalar_text(name) or "" for name in header)
+    while columns and columns[-1] == "":  # trailing empty header cells (spreadsheets)
+        columns = columns[:-1]
+    seen: set[str] = set()
+    for i, name in enumerate(columns):
+        if name == "":
+            problems.append(Problem(where, header_line, "", f"column {i + 1} has no name"))
+        elif name in seen:
+            problems.append(Problem(where, header_line, name, "column name given twice"))
+        seen.add(name)
+    width = len(columns)
+    lines: list[int] = []
+    body: list[list[str | None]] = [[] for _ in columns]
+    ragged: list[str] = []
+    for line, cells in rows:
+        texts = [_cell_text(c) for c in cells]
+        while len(texts) > width and texts[-1] is None:
+            texts.pop()
+        if len(texts) > width:
+            ragged.append(f"line {line} has {len(texts)} cells")
+            continue
+        texts += [None] * (width - len(texts))
+        lines.append(line)
+        for column, text in zip(body, texts):
+            column.append(text)
+    if ragged:
+        problems.append(Problem(where, header_line, "",
+                                f"the header names {width} columns but {capped(ragged, LISTED)}"))
+    if problems:
+        raise DataError(problems)
+    cells = MappingProxyType({name: tuple(col) for name, col in zip(columns, body)})
+    return Table(path=path, columns=columns, cells=cells, lines=tuple(lines),
+                 header_line=header_line)
+
+
+def _cell_text(value: object) -> str | None:
+    text = scalar_text(value)
+    return text.strip() if text is not None else None
+
+
+def _delimited(delimiter: str) -> Callable[[Path, str | None], Table]:
+    def read(path: Path, sheet: str | None) -> Table:
+        try:
+            with path.open("r", encoding="utf-8-sig", newline="") as handle:
+                reader = csv.reader(handle, delimiter=delimiter, strict=True)
+                numbered: list[tuple[int, list[str]]] = []
+                start = 1
+                for row in reader:
+                    # line_num counts physical lines, so a quoted cell spanning lines
+                    # still gives the row's first line.
+                    if any(cell.strip() for cell in row):
+                        numbered.append((start, row))
+                    start = reader.line_num + 1
+        except UnicodeDecodeError:
+            raise UserError(f"cannot read {path}: not UTF-8 text "
+                            f"(near line {start}); save it as UTF-8") from None
+        except csv.Error as error:
+            raise UserError(f"cannot read {path}: line {start}: {error}") from None
+        if not numbered:
+            raise UserError(f"cannot read {path}: the file has no header line")
+        (header_line, header), rows = numbered[0], numbered[1:]
+        return _table(path, header, rows, header_line)
+
+    return read
+
+
+def _numbered_rows(columns: Sequence[Sequence[object]], n: int) -> Iterable[tuple[int, list[object]]]:
+    # Column-stored formats have no lines: row i (0-based) is "line" i + 2, header = 1.
+    return ((i + 2, [column[i] for column in columns]) for i in range(n))
+
+
+def _parquet(path: Path, sheet: str | None) -> Table:
+    import pyarrow.parquet as pq
+
+    with path.open("rb") as handle:
+        data = pq.read_table(handle)
+    columns = [data.column(i).to_pylist() for i in range(data.num_columns)]
+    return _table(path, data.column_names, _numbered_rows(columns, data.num_rows), 1)
+
+
+def _xlsx(path: Path, sheet: str | None) -> Table:
+    import openpyxl
+
+    with path.open("rb") as handle:
+        book = openpyxl.load_workbook(handle, read_only=True, data_only=True)
+        try:
+            if sheet is not None and sheet not in book.sheetnames:
+                raise UserError(f"cannot read {path}: no worksheet {show(sheet)}; "
+                                f"the workbook has {one_of(book.sheetnames, 'and')}")
+            worksheet = book[sheet] if sheet is not None else book.worksheets[0]
+            rows = [(number, row) for number, row in
+                    enumerate(worksheet.iter_rows(values_only=True), start=1)
+                    if any(_cell_text(c) not in (None, "") for c in row)]
+        finally:
+            book.close()
+    if not rows:
+        raise UserError(f"cannot read {path}: the worksheet is empty")
+    (header_line, header), body = rows[0], rows[1:]
+    return _table(path, header, body, header_line)
+
+
+def _xpt(path: Path, sheet: str | None) -> Table:
+    import pandas as pd
+
+    with path.open("rb") as handle:
+        try:
+            frame = pd.read_sas(handle, format="xport")
+        except (ValueError, OSError) as error:
+            raise UserError(f"cannot read {path} as SAS transport (XPORT v5): {error}") from None
+    columns = [[_sas_text(v) for v in frame[name].tolist()] for name in frame.columns]
+    return _table(path, list(frame.columns), _numbered_rows(columns, len(frame)), 1)
+
+
+def _sas_text(value: object) -> object:
+    # Character variables arrive as bytes; SAS transport files carry no encoding, so
+    # UTF-8 is tried first and Latin-1 (which decodes any byte) is the fallback.
+    if isinstance(value, bytes):
+        try:
+            return value.decode("utf-8")
+        except UnicodeDecodeError:
+            return value.decode("latin-1")
+    return value
+
+
+_READERS: dict[str, Callable[[Path, str | None], Table]] = {
+    ".csv": _delimited(","),
+    ".tsv": _delimited("\t"),
+    ".parquet": _parquet,
+    ".xlsx": _xlsx,
+    ".xpt": _xpt,
+}
+
+
+def formats() -> tuple[str, ...]:
+    """The file endings `read_table` reads."""
+    return tuple(_READERS)
+
+
+__all__ = ["Table", "formats", "read_table"]
