@@ -1,0 +1,191 @@
+"""The appendix as one self-contained HTML file, and that file as a PDF.
+
+`render_html` reads only the parsed results.json and the figures' SVG text; a fresh
+Jinja2 environment is made per call (autoescape on, undefined names are errors) with the
+number filters of `appendix.numbers`, configured by `RenderOptions`. `render_pdf` hands
+the HTML to WeasyPrint with a fetcher that refuses every URL except ``data:``.
+
+WeasyPrint 70 does not read SOURCE_DATE_EPOCH; it writes no creation date unless the HTML
+carries a ``dcterms.created`` meta element (ours does not) and no file identifier unless
+asked, so the same HTML gives byte-identical PDFs.
+"""
+
+from __future__ import annotations
+
+import importlib.resources
+import re
+from collections.abc import Mapping
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any, Literal
+
+import jinja2
+from markupsafe import Markup
+
+from appendix import numbers
+from appendix.figures import FIGURE_KINDS
+from appendix.methods import methods_used, references_for
+
+PAPER_SIZES = ("A4", "Letter")
+
+
+@dataclass(frozen=True)
+class RenderOptions:
+    """How the appendix is typeset.
+
+    `decimals` fixes the decimals of every estimate column; None chooses them per column
+    (`appendix.numbers.decimals_for`). `statistic_decimals` applies to F, H, W and
+    chi-squared; `effect_decimals` to effect sizes and their intervals.
+    """
+
+    paper: Literal["A4", "Letter"] = "A4"
+    decimals: int | None = None
+    statistic_decimals: int = 2
+    effect_decimals: int = 2
+
+    def __post_init__(self) -> None:
+        if self.paper not in PAPER_SIZES:
+            raise ValueError(f"paper must be one of {PAPER_SIZES}, got {self.paper!r}")
+        for name in ("decimals", "statistic_decimals", "effect_decimals"):
+            value = getattr(self, name)
+            if value is not None and not 0 <= value <= 10:
+                raise ValueError(f"{name} must be between 0 and 10, got {value!r}")
+
+
+class RefusedURL(ValueError):
+    """The PDF renderer asked for a URL; the appendix is self-contained, so none is fetched."""
+
+
+def template_root() -> Path:
+    """The templates folder: ``appendix/templates`` in a wheel, else the repository's."""
+    installed = importlib.resources.files("appendix") / "templates"
+    if installed.is_dir():
+        return Path(str(installed))
+    return Path(__file__).resolve().parent.parent / "templates"
+
+
+def _filters(options: RenderOptions) -> dict[str, Any]:
+    """Template filters: `appendix.numbers` with the options' decimals filled in."""
+
+    def column_decimals(values) -> int:
+        if options.decimals is not None:
+            return options.decimals
+        return numbers.decimals_for(list(values))
+
+    return {
+        "fixed": numbers.fixed,
+        "stat": lambda v: numbers.fixed(v, options.statistic_decimals),
+        "effect": lambda v: numbers.fixed(v, options.effect_decimals),
+        "proportion": lambda v: numbers.proportion(v, options.effect_decimals),
+        "effect_interval": lambda lo, hi, bounded=False: numbers.interval(
+            lo, hi, options.effect_decimals, bounded),
+        "interval": numbers.interval,
+        "pvalue": numbers.p_value,
+        "p_clause": numbers.p_clause,
+        "df": numbers.df_value,
+        "percent": numbers.percent,
+        "alpha": _alpha,
+        "column_decimals": column_decimals,
+        "short_hash": lambda digest: digest[:12],
+        "level_counts": _level_counts,
+    }
+
+
+def _level_counts(items: list[Mapping[str, Any]], levels: list[str]) -> list[int]:
+    """Counts in registered level order; a level absent from `items` counts zero."""
+    by_level = {item["level"]: item["n"] for item in items}
+    return [by_level.get(level, 0) for level in levels]
+
+
+def _alpha(value: float) -> str:
+    """A significance level as APA writes it: 0.05 -> ``.05``, 0.001 -> ``.001``."""
+    return numbers.no_leading_zero(f"{value:g}")
+
+
+_SVG_PROLOGUE = re.compile(r"^\s*(<\?xml[^>]*\?>\s*)?(<!DOCTYPE[^>]*>\s*)?", re.S)
+
+
+def _inline_svg(svg: str) -> Markup:
+    """SVG text from our own figure code, ready to sit inside HTML (prologue dropped)."""
+    return Markup(_SVG_PROLOGUE.sub("", svg, count=1))
+
+
+class _Numbering:
+    """Numbers tables or figures in the order the template first asks for them."""
+
+    def __init__(self) -> None:
+        self._numbers: dict[str, int] = {}
+
+    def __call__(self, key: str) -> int:
+        return self._numbers.setdefault(key, len(self._numbers) + 1)
+
+
+def _data_checksum(results: Mapping[str, Any]) -> str:
+    """SHA-256 of the data file (role ``data``, else the first input) for the header."""
+    inputs = list(results["inputs"])
+    data = [i for i in inputs if i["role"] == "data"] or inputs
+    return data[0]["sha256"] if data else ""
+
+
+def _tool_version(results: Mapping[str, Any]) -> str:
+    for item in results["software"]:
+        if item["name"] == "appendix":
+            return item["version"]
+    return "unknown"
+
+
+def _ordered_outcomes(results: Mapping[str, Any]) -> list[dict[str, Any]]:
+    """Outcomes with the primary ones first, otherwise in registered order."""
+    return sorted(results["outcomes"], key=lambda o: o["role"] != "primary")
+
+
+def render_html(results: dict, figures: dict[str, str], options: RenderOptions) -> str:
+    """The appendix as one self-contained HTML document (inline CSS and SVG, no scripts)."""
+    root = template_root()
+    env = jinja2.Environment(
+        loader=jinja2.FileSystemLoader(str(root)),
+        autoescape=True,
+        undefined=jinja2.StrictUndefined,
+        trim_blocks=True,
+        lstrip_blocks=True,
+        keep_trailing_newline=True,
+    )
+    env.filters.update(_filters(options))
+    methods = methods_used(results)
+    return env.get_template("appendix.html.j2").render(
+        r=results,
+        outcomes=_ordered_outcomes(results),
+        figures={key: _inline_svg(svg) for key, svg in figures.items()},
+        figure_kinds=FIGURE_KINDS,
+        options=options,
+        methods=methods,
+        references=references_for(methods),
+        data_sha256=_data_checksum(results),
+        tool_version=_tool_version(results),
+        table_number=_Numbering(),
+        figure_number=_Numbering(),
+    )
+
+
+def _offline_fetcher():
+    """A WeasyPrint URL fetcher that serves ``data:`` URLs and refuses every other URL."""
+    from weasyprint import URLFetcher
+
+    class OfflineFetcher(URLFetcher):
+        def fetch(self, url, headers=None):
+            if url.startswith("data:"):
+                return super().fetch(url, headers)
+            raise RefusedURL(f"refused to fetch {url}: the appendix must be self-contained")
+
+    return OfflineFetcher()
+
+
+def render_pdf(html: str, out_path: Path, options: RenderOptions) -> None:
+    """Typeset `html` as a PDF at `out_path` on the options' paper size."""
+    # imported here: commands that write no PDF should not pay for loading WeasyPrint
+    from weasyprint import CSS, HTML
+
+    fetcher = _offline_fetcher()
+    paper = CSS(string=f"@page {{ size: {options.paper}; }}", url_fetcher=fetcher)
+    document = HTML(string=html, url_fetcher=fetcher)
+    document.write_pdf(Path(out_path), stylesheets=[paper])
