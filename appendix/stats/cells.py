@@ -10,17 +10,22 @@ two-pass algorithm runs on the centred values: cell means first, squared deviati
 them second (Chan, Golub & LeVeque 1983, "Algorithms for computing the sample variance",
 Am. Stat. 37:242-247). The textbook one-pass formula sum(y^2) - (sum y)^2 / n is never
 used: it cancels catastrophically when the mean is large relative to the spread.
+When the values are decimals (the usual case: data read from text), means and sums of
+squares are instead computed exactly on scaled integers and rounded once
+(`appendix.stats.exact`); the float64 path remains for other data.
 """
 
 from __future__ import annotations
 
 from collections.abc import Sequence
 from dataclasses import dataclass
+from fractions import Fraction
 
 import numpy as np
 
 from appendix.errors import InternalError
 from appendix.results import StatWarning
+from appendix.stats.exact import ExactSums, decimal_digits, exact_sums
 
 
 def _read_only(array: np.ndarray) -> np.ndarray:
@@ -35,7 +40,9 @@ class CellStats:
     `labels[i]` names cell i (the plan's level, in plan order). `centred_mean[i]` is
     ``mean[i] - shift`` kept at full precision: differences of means are taken from it so
     that a large common offset (NIST SmLs07-09: 13 constant leading digits) does not
-    cost digits. Empty cells have n 0, mean NaN and ssd 0.
+    cost digits. Empty cells have n 0, mean NaN and ssd 0. `exact` holds the exact
+    integer sums when the data were read as decimals (see `appendix.stats.exact`), else
+    None; SS within and between then come from it, rounded once.
     """
 
     labels: tuple[str, ...]
@@ -46,6 +53,7 @@ class CellStats:
     centred_mean: np.ndarray
     n_total: int
     grand_mean: float
+    exact: ExactSums | None = None
 
     @property
     def k(self) -> int:
@@ -64,6 +72,8 @@ class CellStats:
     @property
     def ss_within(self) -> float:
         """Pooled within-cell sum of squares, sum over cells of ssd."""
+        if self.exact is not None:
+            return float(self.exact.ss_within)
         return float(self.ssd.sum())
 
     @property
@@ -100,9 +110,17 @@ def default_labels(k: int) -> tuple[str, ...]:
 
 
 def cell_stats(
-    values: np.ndarray, codes: np.ndarray, k: int, labels: Sequence[str] | None = None
+    values: np.ndarray,
+    codes: np.ndarray,
+    k: int,
+    labels: Sequence[str] | None = None,
+    *,
+    exact: bool = True,
 ) -> CellStats:
     """Per-cell n, mean and sum of squared deviations in one grouped two-pass sweep.
+
+    With `exact` (the default) and decimal data, means and SSDs are the correctly
+    rounded exact values (`appendix.stats.exact`); otherwise the float64 two-pass result.
 
     >>> c = cell_stats(np.array([1.0, 2.0, 3.0, 5.0]), np.array([0, 0, 1, 1]), 2)
     >>> c.mean.tolist(), c.ssd.tolist()
@@ -113,27 +131,54 @@ def cell_stats(
     if len(labels) != k:
         raise InternalError(f"{len(labels)} labels given for {k} cells")
     n = np.bincount(codes, minlength=k)
-    # Centring on the median makes each subtraction below nearly exact (Sterbenz) when
-    # the data share leading digits; the median is robust to a stray extreme value.
+    # Centring on the median makes each subtraction nearly exact (Sterbenz) when the
+    # data share leading digits; the median is robust to a stray extreme value.
     shift = float(np.median(values)) if values.size else 0.0
-    centred = values - shift
-    occupied = n > 0
-    centred_mean = np.full(k, np.nan)
-    centred_mean[occupied] = np.bincount(codes, weights=centred, minlength=k)[occupied] / n[occupied]
-    deviation = centred - centred_mean[codes]
-    ssd = np.bincount(codes, weights=deviation * deviation, minlength=k).astype(np.float64)
+    mean, centred_mean, ssd = _two_pass(values, codes, n, shift)
+    digits = decimal_digits(values) if exact else None
+    sums = exact_sums(values, codes, k, digits) if digits is not None else None
+    if sums is not None:
+        for i in np.flatnonzero(n):
+            exact_mean = sums.mean(int(i))
+            mean[i] = float(exact_mean)
+            centred_mean[i] = float(exact_mean - Fraction(shift))
+            ssd[i] = float(sums.ssd[i])
     n_total = int(values.size)
     grand_centred = weighted_centre(n, centred_mean)
     return CellStats(
         labels=labels,
         n=_read_only(n.astype(np.int64)),
-        mean=_read_only(shift + centred_mean),
+        mean=_read_only(mean),
         ssd=_read_only(ssd),
         shift=shift,
         centred_mean=_read_only(centred_mean),
         n_total=n_total,
         grand_mean=shift + grand_centred if n_total else float("nan"),
+        exact=sums,
     )
+
+
+def _two_pass(values: np.ndarray, codes: np.ndarray, n: np.ndarray, shift: float):
+    """Float64 cell means, centred means and SSDs: means of the centred data first,
+    squared deviations from them second."""
+    k = n.size
+    occupied = n > 0
+    centred = values - shift
+    centred_mean = np.full(k, np.nan)
+    centred_mean[occupied] = np.bincount(codes, weights=centred, minlength=k)[occupied] / n[occupied]
+    mean = shift + centred_mean
+    # A cell whose units are all equal must get SSD exactly 0 and its value as mean (the
+    # zero-variance checks downstream depend on it), but n copies of x need not sum to n x.
+    low = np.full(k, np.inf)
+    high = np.full(k, -np.inf)
+    np.minimum.at(low, codes, values)
+    np.maximum.at(high, codes, values)
+    constant = occupied & (low == high)
+    mean[constant] = low[constant]
+    centred_mean[constant] = low[constant] - shift
+    deviation = centred - centred_mean[codes]
+    ssd = np.bincount(codes, weights=deviation * deviation, minlength=k).astype(np.float64)
+    return mean, centred_mean, ssd
 
 
 def weighted_centre(n: np.ndarray, means: np.ndarray) -> float:
@@ -151,6 +196,8 @@ def ss_between(cells: CellStats) -> float:
     Computed from the centred means, so a large common offset cancels exactly before
     the squares are taken.
     """
+    if cells.exact is not None:
+        return float(cells.exact.ss_between)
     occupied = cells.occupied
     if not occupied.any():
         return 0.0

@@ -14,6 +14,7 @@ from appendix.results import FlaggedUnit, NormalityTest, OutlierScreen, StatWarn
 from appendix.stats.cells import CellStats, check_inputs, layout_warnings, residuals, single_group_warning
 from appendix.stats.cells import cell_stats
 from appendix.stats.descriptives import split_by_code
+from appendix.stats.exact import decimal_digits
 from appendix.stats.oneway import partition
 
 _SHAPIRO_MAX_N = 5000  # upper end of the range scipy states for its p-value
@@ -56,8 +57,7 @@ def brown_forsythe(
     Levene's (1960) one-way F test applied to |y - median of the unit's level|.
     """
     values, codes = check_inputs(values, codes, k)
-    medians = np.array([np.median(g) if g.size else np.nan for g in split_by_code(values, codes, k)])
-    spread = np.abs(values - medians[codes])
+    spread = _median_deviations(values, codes, k)
     part = partition(cell_stats(spread, codes, k, levels))
     if part.f is None:
         # Keep the layout warnings; restate the F failure in terms of this test.
@@ -69,6 +69,20 @@ def brown_forsythe(
         return VarianceTest("brown-forsythe", None, None, None, None, kept + failure)
     return VarianceTest("brown-forsythe", part.f, float(part.df_between), float(part.df_within),
                         part.p, part.warnings)
+
+
+def _median_deviations(values: np.ndarray, codes: np.ndarray, k: int) -> np.ndarray:
+    """|y - median of the unit's level|, as exact decimals when the data are decimals.
+
+    For decimal data the deviations are formed on the scaled integers (a median of
+    integers is an integer or a half), so that they too are decimals and the F test on
+    them takes the exact path of `cell_stats`.
+    """
+    digits = decimal_digits(values)
+    power = 10.0**digits if digits is not None else 1.0
+    scaled = np.round(values * power) if digits is not None else values
+    medians = np.array([np.median(g) if g.size else np.nan for g in split_by_code(scaled, codes, k)])
+    return np.abs(scaled - medians[codes]) / power
 
 
 def bartlett(cells: CellStats) -> VarianceTest:

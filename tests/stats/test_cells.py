@@ -77,3 +77,12 @@ def test_matches_exact_arithmetic_even_with_a_large_offset(seed: int, offset: fl
 def test_contract_violations_raise_internal_error(values, codes, k, message) -> None:
     with pytest.raises(InternalError, match=message):
         cell_stats(values, codes, k)
+
+
+def test_constant_cell_has_exactly_zero_ssd() -> None:
+    # Seven copies of 0.1: a naive mean (sum / 7) is not exactly 0.1 in float64, which
+    # would leave an SSD of ~1e-33 and turn "zero variance" into a huge F.
+    values = np.array([0.1] * 7 + [0.2, 0.25, 0.3])
+    cells = cell_stats(values, np.repeat([0, 1], [7, 3]), 2)
+    assert cells.ssd[0] == 0.0 and cells.mean[0] == 0.1
+    assert cells.ssd[1] == pytest.approx(0.005, rel=1e-13)

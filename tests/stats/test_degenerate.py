@@ -8,6 +8,8 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as hs
 
 from appendix.stats.cells import cell_stats
 from appendix.stats.descriptives import describe
@@ -143,3 +145,27 @@ def test_shapiro_small_and_large_samples() -> None:
     assert codes_in(big) == ["normality-p-approximate"]
     assert big.statistic is not None and 0.99 < big.statistic <= 1.0
     assert shapiro_wilk(np.random.default_rng(11).normal(size=5000)).warnings == ()
+
+
+@settings(max_examples=150, deadline=None)
+@given(
+    sizes=hs.lists(hs.integers(0, 4), min_size=3, max_size=3),
+    pool=hs.lists(hs.sampled_from([0.0, 1.0, 1.0, 2.5, -3.0, 1e9]), min_size=1, max_size=3),
+    seed=hs.integers(0, 2**32 - 1),
+)
+def test_no_exception_and_every_gap_is_explained(sizes, pool, seed) -> None:
+    # Invented small designs drawn from a tiny pool of values: empty and single-unit
+    # levels, heavy ties and constant levels are common. Warnings are errors here.
+    rng = np.random.default_rng(seed)
+    codes = codes_of(*sizes)
+    values = rng.choice(np.array(pool), size=codes.size) if codes.size else np.zeros(0)
+    r = run_all(values, codes)
+    for key, statistic in (("table", "f"), ("welch", "f"), ("kruskal", "h"), ("bf", "statistic"),
+                           ("bartlett", "statistic"), ("normality", "statistic")):
+        if getattr(r[key], statistic) is None:
+            assert r[key].warnings, f"{key}: statistic missing without a warning"
+        else:
+            assert np.isfinite(getattr(r[key], statistic)) and 0.0 <= r[key].p <= 1.0, key
+    for effect in r["effects"]:
+        if effect.estimate is not None:
+            assert 0.0 <= effect.ci_low <= effect.ci_high
