@@ -80,7 +80,9 @@ def _require_columns(loaded: LoadedPlan, table: Table) -> None:
               for i, rule in enumerate(plan.data.exclusions)]
     named += [(f"outcomes[{i}].{'column' if o.column else 'name'}", o.data_column)
               for i, o in enumerate(plan.outcomes)]
-    listing = capped([show(c) for c in table.columns], LISTED)
+    shown = table.columns
+    listing = (one_of(shown, "and") if len(shown) <= LISTED
+               else capped([show(c) for c in shown], LISTED))
     problems = [
         Problem(str(table.path), table.header_line, column,
                 f"no such column (named by {key} at {loaded.path}:{loaded.line_of(key)}); "
@@ -113,6 +115,7 @@ def _unit_problems(table: Table, column: str, where: str) -> list[Problem]:
         problems.append(Problem(where, table.lines[rows[1]], column,
                                 f"unit {show(unit)} appears on {_lines(table, rows)}; "
                                 "each unit must appear once"))
+    problems.sort(key=lambda p: p.line or 0)
     if len(repeated) > LISTED:
         problems.append(Problem(where, None, column,
                                 f"and {len(repeated) - LISTED} more repeated units"))

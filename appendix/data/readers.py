@@ -59,7 +59,7 @@ def _table(path: Path, header: Sequence[object], rows: Iterable[tuple[int, Seque
     ragged: list[str] = []
     for line, cells in rows:
         texts = [_cell_text(c) for c in cells]
-        while len(texts) > width and texts[-1] is None:
+        while len(texts) > width and texts[-1] in (None, ""):  # trailing empties are harmless
             texts.pop()
         if len(texts) > width:
             ragged.append(f"line {line} has {len(texts)} cells")
@@ -149,11 +149,18 @@ def _xpt(path: Path, sheet: str | None) -> Table:
 
     with path.open("rb") as handle:
         try:
-            frame = pd.read_sas(handle, format="xport")
+            # encoding=None: character cells come as bytes and are decoded below.
+            frame = pd.read_sas(handle, format="xport", encoding=None)
         except (ValueError, OSError) as error:
             raise UserError(f"cannot read {path} as SAS transport (XPORT v5): {error}") from None
     columns = [[_sas_text(v) for v in frame[name].tolist()] for name in frame.columns]
     return _table(path, list(frame.columns), _numbered_rows(columns, len(frame)), 1)
+
+
+#: What pandas returns for an IBM zero (pandas issue #50670): 16**-65, the smallest
+#: normalised IBM double. A true value this small is no plausible measurement, so it is
+#: read back as the zero it almost certainly was.
+_PANDAS_IBM_ZERO = 16.0**-65
 
 
 def _sas_text(value: object) -> object:
@@ -164,6 +171,8 @@ def _sas_text(value: object) -> object:
             return value.decode("utf-8")
         except UnicodeDecodeError:
             return value.decode("latin-1")
+    if isinstance(value, float) and abs(value) == _PANDAS_IBM_ZERO:
+        return 0.0
     return value
 
 
