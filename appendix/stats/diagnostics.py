@@ -159,6 +159,11 @@ def outlier_screen(
     s2 = np.maximum(ss_within - e_kept**2 / keep, 0.0) / df_left
     with np.errstate(divide="ignore", invalid="ignore"):
         t = np.where(e_kept == 0.0, 0.0, e_kept / np.sqrt(s2 * keep))
+    if np.isinf(t).any():
+        notes.append(StatWarning(
+            "outlier-infinite",
+            f"{int(np.isinf(t).sum())} unit(s) carry all the residual variation left once they are "
+            "set aside, so their studentized residual is infinite; they are flagged."))
     index = np.flatnonzero(screened)
     flagged = tuple(
         FlaggedUnit(str(units[i]), str(levels[codes[i]]), float(values[i]), float(e[i]), float(ti))

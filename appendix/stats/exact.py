@@ -57,7 +57,11 @@ class ExactSums:
 
 def decimal_digits(values: np.ndarray) -> int | None:
     """The fewest digits d <= MAX_DIGITS such that every value is the float64 of a
-    decimal with d digits after the point; None if there is none (not decimal data)."""
+    decimal with d digits after the point; None if there is none (not decimal data).
+
+    >>> decimal_digits(np.array([12.5, 1000000000000.4])), decimal_digits(np.array([1 / 3]))
+    (1, None)
+    """
     if values.size == 0:
         return None
     for digits in range(MAX_DIGITS + 1):

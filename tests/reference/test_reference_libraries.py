@@ -1,7 +1,8 @@
 """Agreement with independent reference libraries on random (seeded, invented) designs.
 
 References: statsmodels 0.15.0 (OLS + anova_lm, OLSInfluence), pingouin 0.7.0
-(welch_anova), scipy 1.17 (kruskal, levene with center="median", bartlett, ncf).
+(welch_anova), scipy 1.17 (kruskal, levene with center="median", bartlett, t), pandas 3
+(groupby mean, std, quantile).
 The data are invented: normal draws from numpy's seeded generator, drawn per example.
 """
 
@@ -20,6 +21,7 @@ from statsmodels.stats.anova import anova_lm
 from statsmodels.stats.outliers_influence import OLSInfluence
 
 from appendix.stats.cells import cell_stats
+from appendix.stats.descriptives import describe
 from appendix.stats.diagnostics import bartlett, brown_forsythe, outlier_screen
 from appendix.stats.oneway import variance_table, welch_anova
 from appendix.stats.rank import kruskal_wallis
@@ -27,8 +29,10 @@ from appendix.stats.rank import kruskal_wallis
 REL = 1e-10
 
 
-def _design(seed: int, ties: bool = False):
-    """An invented unbalanced one-way design: 2-6 levels, 2-15 units each, unequal spreads."""
+def _design(seed: int, ties: bool = False, decimals: int | None = None):
+    """An invented unbalanced one-way design: 2-6 levels, 2-15 units each, unequal spreads.
+
+    `decimals` rounds the values, as data read from text would be (the exact path)."""
     rng = np.random.default_rng(seed)
     k = int(rng.integers(2, 7))
     sizes = rng.integers(2, 16, size=k)
@@ -37,6 +41,8 @@ def _design(seed: int, ties: bool = False):
     values += rng.normal(0, 2, size=k)[codes] * rng.uniform(0.1, 3.0, size=k)[codes]
     if ties:
         values = np.round(values)
+    if decimals is not None:
+        values = np.round(values, decimals)
     order = rng.permutation(codes.size)  # data need not arrive sorted by level
     return values[order], codes[order], k
 
@@ -53,10 +59,12 @@ seeds = hs.integers(min_value=0, max_value=2**32 - 1)
 
 
 @settings(max_examples=40, deadline=None)
-@given(seeds)
-def test_variance_table_matches_statsmodels_anova_lm(seed: int) -> None:
-    values, codes, k = _design(seed)
-    table = variance_table(cell_stats(values, codes, k), alpha=0.05)
+@given(seeds, hs.sampled_from([None, 0, 2, 5]))
+def test_variance_table_matches_statsmodels_anova_lm(seed: int, decimals: int | None) -> None:
+    values, codes, k = _design(seed, decimals=decimals)
+    cells = cell_stats(values, codes, k)
+    assert (cells.exact is None) == (decimals is None)
+    table = variance_table(cells, alpha=0.05)
     fit = smf.ols("y ~ C(g)", data=_frame(values, codes)).fit()
     reference = anova_lm(fit, typ=1)  # statsmodels 0.15.0
     between, within, _ = table.rows
@@ -70,9 +78,9 @@ def test_variance_table_matches_statsmodels_anova_lm(seed: int) -> None:
 
 
 @settings(max_examples=40, deadline=None)
-@given(seeds)
-def test_welch_matches_pingouin(seed: int) -> None:
-    values, codes, k = _design(seed)
+@given(seeds, hs.sampled_from([None, 3]))
+def test_welch_matches_pingouin(seed: int, decimals: int | None) -> None:
+    values, codes, k = _design(seed, decimals=decimals)
     ours = welch_anova(cell_stats(values, codes, k))
     reference = pingouin.welch_anova(data=_frame(values, codes), dv="y", between="g")  # pingouin 0.7.0
     assert ours.df_num == reference["ddof1"].iloc[0]
@@ -92,9 +100,9 @@ def test_kruskal_matches_scipy(seed: int, ties: bool) -> None:
 
 
 @settings(max_examples=60, deadline=None)
-@given(seeds, hs.booleans())
-def test_brown_forsythe_matches_scipy_levene_median(seed: int, ties: bool) -> None:
-    values, codes, k = _design(seed, ties=ties)
+@given(seeds, hs.booleans(), hs.sampled_from([None, 1, 4]))
+def test_brown_forsythe_matches_scipy_levene_median(seed: int, ties: bool, decimals: int | None) -> None:
+    values, codes, k = _design(seed, ties=ties, decimals=decimals)
     ours = brown_forsythe(values, codes, k)
     w, p = st.levene(*_groups(values, codes, k), center="median")  # scipy 1.17
     assert ours.statistic == pytest.approx(w, rel=REL)
@@ -102,9 +110,9 @@ def test_brown_forsythe_matches_scipy_levene_median(seed: int, ties: bool) -> No
 
 
 @settings(max_examples=60, deadline=None)
-@given(seeds)
-def test_bartlett_matches_scipy(seed: int) -> None:
-    values, codes, k = _design(seed)
+@given(seeds, hs.sampled_from([None, 2]))
+def test_bartlett_matches_scipy(seed: int, decimals: int | None) -> None:
+    values, codes, k = _design(seed, decimals=decimals)
     ours = bartlett(cell_stats(values, codes, k))
     t, p = st.bartlett(*_groups(values, codes, k))  # scipy 1.17
     assert ours.statistic == pytest.approx(t, rel=REL)
@@ -128,3 +136,25 @@ def test_studentized_residuals_match_statsmodels(seed: int) -> None:
             assert got[unit] == pytest.approx(reference[i], rel=1e-9)
     big = outlier_screen(values, codes, cells, units, tuple(f"L{i}" for i in range(k)), 3.0)
     assert "u0" in {unit.unit for unit in big.flagged}
+
+
+@settings(max_examples=30, deadline=None)
+@given(seeds, hs.sampled_from([None, 1]))
+def test_describe_matches_pandas_and_scipy(seed: int, decimals: int | None) -> None:
+    values, codes, k = _design(seed, decimals=decimals)
+    levels = tuple(f"L{i}" for i in range(k))
+    ours = describe(values, codes, levels, [0] * k, 0.95)
+    grouped = _frame(values, codes).groupby("g")["y"]  # pandas 3
+    for group in ours.groups:
+        y = grouped.get_group(group.level)
+        assert group.n == y.size
+        assert group.mean == pytest.approx(y.mean(), rel=1e-13)
+        assert group.sd == pytest.approx(y.std(ddof=1), rel=1e-12)
+        assert group.median == y.median() and group.minimum == y.min() and group.maximum == y.max()
+        assert group.q1 == pytest.approx(y.quantile(0.25), rel=1e-14)  # pandas default: linear
+        assert group.q3 == pytest.approx(y.quantile(0.75), rel=1e-14)
+        if group.sd == 0.0:  # scipy returns NaN for a zero scale; ours is the point itself
+            assert group.ci_low == group.ci_high == group.mean
+            continue
+        low, high = st.t.interval(0.95, y.size - 1, loc=y.mean(), scale=st.sem(y))  # scipy 1.17
+        assert (group.ci_low, group.ci_high) == pytest.approx((low, high), rel=1e-12)
