@@ -42,7 +42,7 @@ PALETTE: tuple[str, ...] = (
     "#E8B4D0",  # pale rose
 )
 
-#: Beyond this many points a scatter is rasterised inside the SVG to keep files light.
+#: Beyond this many points in a figure its scatters are rasterised inside the SVG to keep files light.
 DENSE_POINTS = 5000
 
 _WIDTH_IN = 6.0
@@ -130,9 +130,10 @@ def _new_figure(height: float = _HEIGHT_IN) -> tuple[Figure, object]:
     return figure, figure.add_subplot()
 
 
-def _scatter(ax, x, y, colour: str, **kwargs) -> None:
+def _scatter(ax, panel: _Panel, x, y, colour: str, **kwargs) -> None:
+    # the whole cloud decides, not one group's share of it: all groups' points weigh
     ax.scatter(x, y, s=16, color=colour, edgecolors="#000000", linewidths=0.3, alpha=0.9,
-               rasterized=len(x) > DENSE_POINTS, **kwargs)
+               rasterized=len(panel.data.values) > DENSE_POINTS, **kwargs)
 
 
 def _distribution(panel: _Panel) -> Figure | None:
@@ -150,7 +151,7 @@ def _distribution(panel: _Panel) -> Figure | None:
                capprops={"linewidth": 0.8})
     for i in drawn:
         jitter = rng.uniform(-0.17, 0.17, size=len(groups[i]))
-        _scatter(ax, i + jitter, groups[i], level_colour(i), zorder=3)
+        _scatter(ax, panel, i + jitter, groups[i], level_colour(i), zorder=3)
     _level_axis(ax, panel.levels)
     ax.set_ylabel(panel.axis_label)
     return figure
@@ -199,7 +200,7 @@ def _qq(panel: _Panel) -> Figure | None:
     for i in range(len(panel.levels)):
         mine = sorted_codes == i
         if mine.any():
-            _scatter(ax, theoretical[mine], residuals[order][mine], level_colour(i),
+            _scatter(ax, panel, theoretical[mine], residuals[order][mine], level_colour(i),
                      label=panel.levels[i], zorder=3)
     ends = np.array([theoretical[0], theoretical[-1]])
     ax.plot(ends, ends * sd, color="#000000", linewidth=0.8, linestyle="--",
@@ -219,7 +220,7 @@ def _versus_fitted(panel: _Panel) -> Figure | None:
     for i in range(len(panel.levels)):
         mine = codes == i
         if mine.any():
-            _scatter(ax, fitted[mine], residuals[mine], level_colour(i),
+            _scatter(ax, panel, fitted[mine], residuals[mine], level_colour(i),
                      label=panel.levels[i], zorder=3)
     unit = panel.outcome.unit
     ax.set_xlabel(f"Fitted value: group mean ({unit})" if unit else "Fitted value: group mean")
@@ -257,7 +258,7 @@ def _f_reference(panel: _Panel) -> Figure | None:
 
 def _wrap(label: str) -> str:
     # long outcome labels would run off a 2.9-inch axis; break them between words
-    return "\n".join(textwrap.wrap(label, width=38)) or label
+    return "\n".join(textwrap.wrap(label, width=44)) or label
 
 
 def _legend_outside(ax) -> None:

@@ -1,0 +1,181 @@
+"""Fixtures for the render tests: a hand-built StudyResults and a tiny Dataset.
+
+All data here are INVENTED (seeded generator) for testing; they describe no real study.
+The primary outcome's statistics are computed below with numpy so that figures and
+tables agree; the secondary outcome is degenerate on purpose (F unavailable, with a
+warning) so that the appendix must show an explained gap.
+"""
+
+from __future__ import annotations
+
+import copy
+
+import numpy as np
+import pytest
+from scipy import stats
+
+from appendix import results as R
+from appendix.data.dataset import Dataset, OutcomeData, frozen_array
+
+LEVELS = ("placebo", "low dose", "high dose")
+PER_GROUP = 8
+DATA_SHA = "3f5a9c0e7b21d4c8a6e0f9b3d2c1a4e5f6071829304a5b6c7d8e9f0a1b2c3d4e"
+PLAN_SHA = "a1b2c3d4e5f60718293a4b5c6d7e8f90112233445566778899aabbccddeeff00"
+
+
+def _invented_values() -> tuple[np.ndarray, np.ndarray]:
+    rng = np.random.default_rng(12345)
+    codes = np.repeat(np.arange(len(LEVELS)), PER_GROUP)
+    values = np.round(np.array([-2.0, -7.0, -12.0])[codes] + rng.normal(0, 4.0, codes.size), 1)
+    return values, codes
+
+
+def _group(level: str, x: np.ndarray) -> R.GroupSummary:
+    n = len(x)
+    mean, sd = float(x.mean()), float(x.std(ddof=1))
+    se = sd / np.sqrt(n)
+    half = float(stats.t.ppf(0.975, n - 1)) * se
+    q1, median, q3 = (float(v) for v in np.quantile(x, [0.25, 0.5, 0.75]))
+    return R.GroupSummary(level, n, 0, mean, sd, se, mean - half, mean + half, median, q1,
+                          q3, float(x.min()), float(x.max()))
+
+
+def _primary(values: np.ndarray, codes: np.ndarray) -> R.OutcomeResult:
+    groups = [values[codes == i] for i in range(len(LEVELS))]
+    grand = values.mean()
+    ss_between = float(sum(len(g) * (g.mean() - grand) ** 2 for g in groups))
+    ss_within = float(sum(((g - g.mean()) ** 2).sum() for g in groups))
+    df_b, df_w = len(LEVELS) - 1, len(values) - len(LEVELS)
+    ms_b, ms_w = ss_between / df_b, ss_within / df_w
+    f = ms_b / ms_w
+    p = float(stats.f.sf(f, df_b, df_w))
+    table = R.OneWayTable(
+        rows=(R.VarianceRow("between", df_b, ss_between, ms_b, f, p),
+              R.VarianceRow("within", df_w, ss_within, ms_w, None, None),
+              R.VarianceRow("total", df_b + df_w, ss_between + ss_within, None, None, None)),
+        df_between=df_b, df_within=df_w, f=f, p=p, alpha=0.05,
+        critical_f=float(stats.f.isf(0.05, df_b, df_w)),
+        r_squared=ss_between / (ss_between + ss_within), residual_sd=float(np.sqrt(ms_w)))
+    eta = table.r_squared
+    diagnostics = R.Diagnostics(
+        normality=R.NormalityTest("shapiro-wilk", 0.9712, 0.6843, len(values)),
+        equal_variance=(R.VarianceTest("brown-forsythe", 0.41, 2, 21, 0.6688),
+                        R.VarianceTest("bartlett", 0.77, 2, None, 0.6805)),
+        outliers=R.OutlierScreen("studentized-residual", 3.0, len(values), (
+            R.FlaggedUnit("U-017", "high dose", -19.3, -9.81, -3.12),)),
+        assumptions=(
+            R.AssumptionStatus("Independent units", "attested", "One measurement per participant."),
+            R.AssumptionStatus("Random allocation", "not-attested", "The plan does not say."),
+            R.AssumptionStatus("Normal errors", "checked", "Shapiro-Wilk on residuals, Q-Q plot."),
+            R.AssumptionStatus("Equal variances", "checked", "Brown-Forsythe and Bartlett."),
+            R.AssumptionStatus("Numeric outcome", "by-construction", "Values are read as numbers."),
+        ))
+    return R.OutcomeResult(
+        name="sbp_change", label="Change in systolic blood pressure", unit="mmHg",
+        role="primary", n_analysed=len(values),
+        descriptives=R.Descriptives(0.95, tuple(_group(lv, g) for lv, g in zip(LEVELS, groups))),
+        table=table,
+        welch=R.WelchAnova(5.87, 2.0, 13.62, 0.0146),
+        kruskal=R.KruskalWallis(8.04, 2, 0.0180, 0.9996),
+        effect_sizes=(R.EffectSize("eta_squared", eta, 0.05, 0.61, 0.95),
+                      R.EffectSize("omega_squared", eta - 0.06, 0.0, 0.55, 0.95),
+                      R.EffectSize("cohens_f", 0.86, 0.23, 1.25, 0.95)),
+        diagnostics=diagnostics,
+        conclusion=R.Conclusion(
+            f"Mean change in systolic blood pressure differed between the groups, "
+            f"F({df_b}, {df_w}) = {f:.2f}, p = {p:.3f}.", "reject", p, 0.05))
+
+
+def _degenerate() -> R.OutcomeResult:
+    gap = R.StatWarning("within-variance-zero", "Every group's values are identical, so F is undefined.")
+    summaries = tuple(R.GroupSummary(lv, 3, 1, 2.0, 0.0, 0.0, 2.0, 2.0, 2.0, 2.0, 2.0, 2.0, 2.0)
+                      for lv in LEVELS)
+    return R.OutcomeResult(
+        name="pain", label="Pain score", unit=None, role="secondary", n_analysed=9,
+        descriptives=R.Descriptives(0.95, summaries),
+        table=R.OneWayTable(
+            rows=(R.VarianceRow("between", 2, 0.0, 0.0, None, None),
+                  R.VarianceRow("within", 6, 0.0, 0.0, None, None),
+                  R.VarianceRow("total", 8, 0.0, None, None, None)),
+            df_between=2, df_within=6, f=None, p=None, alpha=0.05, critical_f=5.1433,
+            r_squared=None, residual_sd=0.0, warnings=(gap,)),
+        welch=R.WelchAnova(None, None, None, None, (gap,)),
+        kruskal=R.KruskalWallis(None, 2, None, None, (gap,)),
+        effect_sizes=(),
+        diagnostics=R.Diagnostics(None, (), None, ()),
+        conclusion=R.Conclusion("The pain score could not be compared: every value was 2.",
+                                "unavailable", None, 0.05))
+
+
+def build_dataset() -> Dataset:
+    """A tiny INVENTED dataset matching `build_results`."""
+    values, codes = _invented_values()
+    units = tuple(f"U-{i + 1:03d}" for i in range(len(values)))
+    pain_codes = np.repeat(np.arange(len(LEVELS)), 3)
+    return Dataset(
+        levels=LEVELS,
+        inputs=(R.InputFile("data", "data/units.csv", DATA_SHA, 812),),
+        unit_flow=_flow(),
+        outcomes=(
+            OutcomeData("sbp_change", frozen_array(values), frozen_array(codes), units,
+                        tuple(range(2, len(values) + 2))),
+            OutcomeData("pain", frozen_array(np.full(9, 2.0)), frozen_array(pain_codes),
+                        units[:9], tuple(range(2, 11))),
+        ),
+        findings=(),
+    )
+
+
+def _counts(*ns: int) -> tuple[R.LevelCount, ...]:
+    return tuple(R.LevelCount(lv, n) for lv, n in zip(LEVELS, ns))
+
+
+def _flow() -> R.UnitFlow:
+    return R.UnitFlow(
+        read=_counts(9, 8, 9),
+        exclusions=(R.ExclusionCount("X1", "consent_withdrawn", "yes", "consent withdrawn",
+                                     _counts(1, 0, 1), 2),),
+        eligible=_counts(8, 8, 8),
+        outcomes=(R.OutcomeFlow("sbp_change", _counts(0, 0, 0), _counts(8, 8, 8)),
+                  R.OutcomeFlow("pain", _counts(5, 5, 5), _counts(3, 3, 3))))
+
+
+def build_results() -> R.StudyResults:
+    """A StudyResults built by hand from INVENTED numbers."""
+    values, codes = _invented_values()
+    return R.StudyResults(
+        study=R.StudyInfo("DEMO-BP-01", "Invented dose-finding study (test data only)",
+                          "2026-02-14", "all randomised units"),
+        plan_sha256=PLAN_SHA, alpha=0.05,
+        factor=R.FactorInfo("arm", "Treatment arm", LEVELS, "placebo", False),
+        inputs=(R.InputFile("data", "data/units.csv", DATA_SHA, 812),),
+        unit_flow=_flow(),
+        outcomes=(_degenerate(), _primary(values, codes)),
+        findings=(R.Finding("planned-n-not-met", "Planned 10 units per group; 8 analysed."),),
+        software=(R.Software("appendix", "0.1.0"), R.Software("numpy", np.__version__)),
+    )
+
+
+@pytest.fixture(scope="session")
+def dataset() -> Dataset:
+    return build_dataset()
+
+
+@pytest.fixture(scope="session")
+def study_results() -> R.StudyResults:
+    return build_results()
+
+
+@pytest.fixture(scope="session")
+def plain_results(study_results) -> dict:
+    return R.to_plain(study_results)
+
+
+@pytest.fixture()
+def hostile_results(plain_results) -> dict:
+    """Plain results whose plan and data strings try to inject markup."""
+    hostile = copy.deepcopy(plain_results)
+    hostile["study"]["title"] = "<script>alert(1)</script>"
+    hostile["outcomes"][1]["label"] = "<b onmouseover=alert(2)>x</b>"
+    hostile["unit_flow"]["exclusions"][0]["reason"] = "<img src=x onerror=alert(3)>"
+    return hostile

@@ -1,0 +1,61 @@
+"""Small HTML inspection helpers for the render tests (standard library parser only)."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from html.parser import HTMLParser
+
+
+_VOID = {"area", "base", "br", "col", "embed", "hr", "img", "input", "link", "meta", "source",
+         "track", "wbr"}
+
+
+@dataclass(eq=False)  # identity: equal-looking rows are still different rows
+class Element:
+    tag: str
+    attrs: dict[str, str | None]
+    text: str = ""
+
+
+@dataclass
+class Page(HTMLParser):
+    """Every element with its attributes and the text inside it."""
+
+    elements: list[Element] = field(default_factory=list)
+    _open: list[Element] = field(default_factory=list)
+
+    def __post_init__(self) -> None:
+        HTMLParser.__init__(self, convert_charrefs=True)
+
+    def handle_starttag(self, tag, attrs):
+        element = Element(tag, dict(attrs))
+        self.elements.append(element)
+        if tag not in _VOID:
+            self._open.append(element)
+
+    def handle_endtag(self, tag):
+        for i in range(len(self._open) - 1, -1, -1):
+            if self._open[i].tag == tag:
+                del self._open[i]
+                break
+
+    def handle_data(self, data):
+        for element in self._open:
+            element.text += data
+
+    def ids(self) -> list[str]:
+        return [e.attrs["id"] for e in self.elements if e.attrs.get("id")]
+
+    def by_tag(self, tag: str) -> list[Element]:
+        return [e for e in self.elements if e.tag == tag]
+
+
+def parse(html: str) -> Page:
+    page = Page()
+    page.feed(html)
+    page.close()
+    return page
+
+
+def squash(text: str) -> str:
+    return " ".join(text.split())

@@ -1,0 +1,127 @@
+"""make_figures: valid, deterministic, light SVG with one colour per level.
+
+Data are the INVENTED fixtures of conftest.py, plus a seeded dense cloud made here.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import itertools
+import re
+import xml.etree.ElementTree as ET
+
+import numpy as np
+import pytest
+
+from appendix.data.dataset import Dataset, OutcomeData, frozen_array
+from appendix.figures import DENSE_POINTS, FIGURE_KINDS, PALETTE, make_figures
+
+SVG = "{http://www.w3.org/2000/svg}svg"
+
+
+@pytest.fixture(scope="module")
+def figures(dataset, study_results):
+    return make_figures(dataset, study_results)
+
+
+def test_every_figure_is_valid_svg(figures):
+    expected = {f"sbp_change-{kind}" for kind in FIGURE_KINDS}
+    # the degenerate outcome has no F and residuals without spread
+    expected |= {"pain-distribution", "pain-means", "pain-residuals"}
+    assert set(figures) == expected
+    for svg in figures.values():
+        assert ET.fromstring(svg.encode()).tag == SVG
+
+
+def test_figures_are_deterministic_and_undated(dataset, study_results, figures):
+    assert make_figures(dataset, study_results) == figures
+    for svg in figures.values():
+        assert "<dc:date>" not in svg
+
+
+def test_ids_are_unique_across_figures(figures):
+    ids = [i for svg in figures.values() for i in re.findall(r'\bid="([^"]+)"', svg)]
+    assert len(ids) == len(set(ids))
+    for stem, svg in figures.items():
+        refs = re.findall(r'(?:href="#|url\(#)([^")]+)', svg)
+        assert refs and all(r.startswith(stem + "-") for r in refs)
+
+
+def test_text_stays_text_with_units_in_axis_labels(figures):
+    texts = ET.fromstring(figures["sbp_change-distribution"].encode()).iter(
+        "{http://www.w3.org/2000/svg}text")
+    labels = [t.text for t in texts]
+    assert "Change in systolic blood pressure (mmHg)" in " ".join(labels)
+    assert {"placebo", "low dose", "high dose"} <= set(labels)
+    assert "Residual (mmHg)" in figures["sbp_change-qq"]
+
+
+def test_f_figure_is_skipped_when_f_is_missing(dataset, study_results):
+    primary = study_results.outcomes[1]
+    no_f = dataclasses.replace(primary, table=dataclasses.replace(primary.table, f=None, p=None))
+    results = dataclasses.replace(study_results, outcomes=(no_f,))
+    figures = make_figures(dataset, results)
+    assert "sbp_change-f-reference" not in figures
+    assert "sbp_change-distribution" in figures
+
+
+def test_each_level_keeps_its_colour(figures):
+    for kind in ("distribution", "means", "qq", "residuals"):
+        svg = figures[f"sbp_change-{kind}"].lower()
+        for colour in PALETTE[:3]:
+            assert colour.lower() in svg, (kind, colour)
+        assert PALETTE[3].lower() not in svg  # no fourth level, no fourth colour
+
+
+def test_dense_clouds_are_rasterised(study_results, figures):
+    rng = np.random.default_rng(99)  # INVENTED dense data
+    n = DENSE_POINTS + 600
+    codes = np.arange(n) % 3
+    values = rng.normal(0, 4, n) + np.array([-2.0, -7.0, -12.0])[codes]
+    dense = Dataset(levels=study_results.factor.levels, inputs=(), unit_flow=None,
+                    findings=(), outcomes=(OutcomeData(
+                        "sbp_change", frozen_array(values), frozen_array(codes),
+                        tuple(str(i) for i in range(n)), tuple(range(2, n + 2))),))
+    results = dataclasses.replace(study_results, outcomes=(study_results.outcomes[1],))
+    heavy = make_figures(dense, results)
+    for kind in ("distribution", "qq", "residuals"):
+        assert heavy[f"sbp_change-{kind}"].count("data:image/png;base64,") == 1
+        assert "<image" not in figures[f"sbp_change-{kind}"]
+    # the raster replaces thousands of markers: the file stays small
+    assert len(heavy["sbp_change-distribution"]) < 400_000
+    assert "<image" not in heavy["sbp_change-f-reference"]
+
+
+# --- palette under simulated colour vision deficiency ---------------------------------
+# Machado, Oliveira & Fernandes (2009), IEEE TVCG 15(6), severity 1.0 matrices on linear
+# RGB (values as published in the paper's table, from memory).
+DEUTERANOPIA = np.array([[0.367322, 0.860646, -0.227968],
+                         [0.280085, 0.672501, 0.047413],
+                         [-0.011820, 0.042940, 0.968881]])
+PROTANOPIA = np.array([[0.152286, 1.052583, -0.204868],
+                       [0.114503, 0.786281, 0.099216],
+                       [-0.003882, -0.048116, 1.051998]])
+
+
+def _linear(colour: str) -> np.ndarray:
+    c = np.array([int(colour[i:i + 2], 16) for i in (1, 3, 5)]) / 255
+    return np.where(c <= 0.04045, c / 12.92, ((c + 0.055) / 1.055) ** 2.4)
+
+
+def _lab(rgb: np.ndarray) -> np.ndarray:
+    """CIE L*a*b* (D65) of linear sRGB."""
+    m = np.array([[0.4124, 0.3576, 0.1805], [0.2126, 0.7152, 0.0722],
+                  [0.0193, 0.1192, 0.9505]])
+    xyz = m @ np.clip(rgb, 0, 1) / np.array([0.95047, 1.0, 1.08883])
+    f = np.where(xyz > 0.008856, np.cbrt(xyz), 7.787 * xyz + 16 / 116)
+    return np.array([116 * f[1] - 16, 500 * (f[0] - f[1]), 200 * (f[1] - f[2])])
+
+
+@pytest.mark.parametrize("vision", [None, DEUTERANOPIA, PROTANOPIA],
+                         ids=["typical", "deuteranopia", "protanopia"])
+def test_first_six_colours_stay_apart(vision):
+    seen = [_lab(_linear(c) if vision is None else vision @ _linear(c)) for c in PALETTE[:6]]
+    closest = min(np.linalg.norm(a - b) for a, b in itertools.combinations(seen, 2))
+    assert closest >= 15.0
+    white = _lab(np.ones(3))
+    assert min(np.linalg.norm(c - white) for c in seen) >= 20.0  # visible on paper

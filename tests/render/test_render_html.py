@@ -1,0 +1,207 @@
+"""render_html: structure, safety, numbering and number formatting of the appendix HTML.
+
+Values asserted come from the INVENTED fixture data of conftest.py (numpy computed them).
+"""
+
+from __future__ import annotations
+
+import copy
+import json
+import re
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+from render_helpers import parse, squash
+
+from appendix.figures import make_figures
+from appendix.methods import methods_used, references_for
+from appendix.render import RenderOptions, render_html, template_root
+
+CSP = "default-src 'none'; style-src 'unsafe-inline'; img-src data:"
+
+
+@pytest.fixture(scope="module")
+def figures(dataset, study_results):
+    return make_figures(dataset, study_results)
+
+
+@pytest.fixture(scope="module")
+def html(plain_results, figures):
+    return render_html(plain_results, figures, RenderOptions())
+
+
+@pytest.fixture(scope="module")
+def page(html):
+    return parse(html)
+
+
+def _cells(page, row_class):
+    rows = [e for e in page.elements if e.tag == "tr" and e.attrs.get("class") == row_class]
+    index = page.elements.index(rows[0])
+    cells = []
+    for element in page.elements[index + 1:]:
+        if element.tag == "tr":
+            break
+        if element.tag in {"td", "th"}:
+            cells.append(squash(element.text))
+    return cells
+
+
+SECTION_IDS = [
+    "cover", "contents", "summary", "unit-flow", "findings", "methods", "references",
+    "reproducibility",
+    *(f"{prefix}{part}" for prefix in ("sbp_change-", "pain-") for part in (
+        "descriptives", "figures", "variance", "robust", "effects", "diagnostics",
+        "assumptions", "conclusion")),
+    "outcome-sbp_change", "outcome-pain",
+]
+
+
+def test_every_section_has_its_id_and_ids_are_unique(page):
+    ids = page.ids()
+    assert set(SECTION_IDS) <= set(ids)
+    assert len(ids) == len(set(ids)), "duplicate id in the document"
+
+
+def test_every_contents_link_has_a_target(page):
+    links = [e.attrs["href"] for e in page.elements
+             if e.tag == "a" and (e.attrs.get("href") or "").startswith("#")]
+    assert len(links) == len(SECTION_IDS) - 2  # cover and contents are not listed
+    assert {link[1:] for link in links} <= set(page.ids())
+
+
+def test_csp_present_no_script_and_no_external_url(page, html):
+    metas = [e.attrs for e in page.by_tag("meta")
+             if e.attrs.get("http-equiv") == "Content-Security-Policy"]
+    assert metas == [{"http-equiv": "Content-Security-Policy", "content": CSP}]
+    assert page.by_tag("script") == []
+    fetched = [value for e in page.elements for name, value in e.attrs.items()
+               if name in {"src", "href", "xlink:href"}]
+    assert fetched and all(v.startswith(("#", "data:")) for v in fetched)
+    assert "<link" not in html and "@import" not in html
+
+
+def test_plan_and_data_strings_are_escaped(hostile_results, figures):
+    html = render_html(hostile_results, figures, RenderOptions())
+    assert "<script>alert(1)</script>" not in html
+    assert "&lt;script&gt;alert(1)&lt;/script&gt;" in html
+    assert "<b onmouseover" not in html and "<img src=x" not in html
+    page = parse(html)
+    assert page.by_tag("script") == [] and not page.by_tag("b")
+    title = page.by_tag("title")[0].text
+    assert title == "Statistics appendix: <script>alert(1)</script>"
+
+
+def test_variance_table_cells_are_formatted_apa_style(page):
+    # between-groups row of the primary outcome: F(2, 21) = 5.73, p = .010
+    cells = _cells(page, "between")
+    assert cells == ["Between groups (Treatment arm)", "2", "240.2", "120.1", "5.73", ".010"]
+    assert _cells(page, "within")[:4] == ["Within groups (residual)", "21", "440.2", "21.0"]
+
+
+def test_degenerate_f_is_an_explained_gap(page):
+    between = [c for c in page.by_tag("tr") if c.attrs.get("class") == "between"]
+    assert len(between) == 2
+    start = page.elements.index(between[1])
+    cells = [squash(e.text) for e in page.elements[start + 1:start + 8] if e.tag == "td"]
+    assert cells[-2:] == ["\u2014", "\u2014"]
+    notes = [squash(p.text) for p in page.by_tag("p") if p.attrs.get("class") == "table-note gap"]
+    assert any("within-variance-zero: Every group's values are identical" in n for n in notes)
+    missing = [squash(p.text) for p in page.by_tag("p") if p.attrs.get("class") == "figure-missing"]
+    assert any("reference F distribution" in m for m in missing)
+
+
+def test_tiny_p_is_written_below_one_thousandth(plain_results, figures):
+    tiny = copy.deepcopy(plain_results)
+    primary = tiny["outcomes"][1]
+    primary["table"]["rows"][0]["p"] = 2.0e-7
+    page = parse(render_html(tiny, figures, RenderOptions()))
+    assert _cells(page, "between")[-1] == "< .001"
+
+
+def test_tables_and_figures_are_numbered_in_order(page):
+    tables = [squash(e.text) for e in page.elements if e.attrs.get("class") == "table-number"]
+    assert tables == [f"Table {i}" for i in range(1, len(tables) + 1)]
+    assert len(tables) == 13  # the degenerate outcome has no effect, diagnostics or assumption table
+    figures = [squash(e.text) for e in page.elements if e.attrs.get("class") == "figure-number"]
+    assert figures == [f"Figure {i}." for i in range(1, 9)]
+
+
+def test_descriptive_columns_keep_one_number_of_decimals(page):
+    rows = [e for e in page.by_tag("tr") if e.attrs.get("class") is None]
+    means = []
+    for row in rows:
+        start = page.elements.index(row)
+        cells = [squash(e.text) for e in page.elements[start + 1:start + 14] if e.tag == "td"]
+        if len(cells) == 11 and cells[5].startswith("["):
+            means.append(cells[2])
+    assert means[:3] == ["\u22123.41", "\u22126.32", "\u221211.09"]
+
+
+def test_summary_puts_primary_first_and_quotes_each_conclusion(page, plain_results):
+    items = [squash(e.text) for e in page.by_tag("li")
+             if "Primary," in e.text or "Secondary," in e.text]
+    assert items[0].startswith("Primary, Change in systolic blood pressure. Mean change")
+    assert items[1] == ("Secondary, Pain score. The pain score could not be compared: "
+                        "every value was 2.")
+
+
+def test_cover_shows_checksums_short_and_full_and_the_caution(page, plain_results):
+    text = squash(" ".join(e.text for e in page.by_tag("p")))
+    sha = plain_results["inputs"][0]["sha256"]
+    header = [e for e in page.elements if e.attrs.get("class") == "running-data"]
+    assert header and "running-header" in {e.attrs.get("class") for e in page.by_tag("p")}
+    short = [e.text for e in page.elements if e.attrs.get("class") == "hash-short"]
+    assert sha[:12] in short and plain_results["plan_sha256"][:12] in short
+    codes = [e for e in page.elements if e.tag == "code" and e.attrs.get("class") == "hash"]
+    assert len(codes) == 4  # plan and data, on the cover and in the reproducibility table
+    assert "not, a clinical or regulatory decision" in text
+    assert "qualified, licensed statistician" in text
+
+
+def test_methods_follow_what_was_run(plain_results):
+    names = [m.key for m in methods_used(plain_results)]
+    assert names == ["descriptives", "anova", "welch", "kruskal", "effect_sizes", "shapiro",
+                     "brown-forsythe", "bartlett", "outliers", "pretest", "reporting"]
+    stripped = copy.deepcopy(plain_results)
+    for outcome in stripped["outcomes"]:
+        outcome["diagnostics"]["normality"] = None
+        outcome["welch"]["f"] = None
+    keys = [m.key for m in methods_used(stripped)]
+    assert "shapiro" not in keys and "welch" not in keys
+    refs = [r.key for r in references_for(methods_used(stripped))]
+    assert "shapiro1965" not in refs and "welch1951" not in refs and "fisher1925" in refs
+
+
+def test_reference_list_is_alphabetical_with_dois(page):
+    refs = [squash(e.text) for e in page.by_tag("li")
+            if re.match(r"[A-Z][a-z]+, [A-Z]\.|American", e.text)]
+    assert refs == sorted(refs) and len(refs) == 17
+    assert any(r.startswith("Welch, B. L. (1951).") and "10.1093/biomet/38.3-4.330" in r
+               for r in refs)
+
+
+def test_paper_option_reaches_the_page_rule(plain_results, figures):
+    html = render_html(plain_results, figures, RenderOptions(paper="Letter"))
+    assert "@page { size: Letter; }" in html
+    with pytest.raises(ValueError, match="paper must be one of"):
+        RenderOptions(paper="A5")
+
+
+def test_fixed_decimals_option_overrides_per_column_choice(plain_results, figures):
+    page = parse(render_html(plain_results, figures, RenderOptions(decimals=3)))
+    assert _cells(page, "between")[2:4] == ["240.186", "120.093"]
+
+
+def test_templates_are_found_and_weasyprint_is_not_imported(tmp_path: Path, plain_results):
+    assert (template_root() / "appendix.html.j2").is_file()
+    source = tmp_path / "results.json"
+    source.write_text(json.dumps(plain_results))
+    code = ("import json, sys; from appendix.render import render_html, RenderOptions; "
+            f"html = render_html(json.load(open({str(source)!r})), {{}}, RenderOptions()); "
+            "print('weasyprint' in sys.modules, len(html) > 1000)")
+    done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
+                          check=True, cwd=Path(__file__).resolve().parents[2])
+    assert done.stdout.split() == ["False", "True"]

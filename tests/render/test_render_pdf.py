@@ -1,0 +1,102 @@
+"""render_pdf: the appendix typesets, carries its running header, and fetches nothing.
+
+Values come from the INVENTED fixture data of conftest.py.
+"""
+
+from __future__ import annotations
+
+import logging
+import socket
+from pathlib import Path
+
+import pypdf
+import pytest
+
+from appendix import numbers, render
+from appendix.figures import make_figures
+from appendix.render import RenderOptions, render_html, render_pdf
+
+
+@pytest.fixture(scope="module")
+def html(dataset, study_results, plain_results):
+    return render_html(plain_results, make_figures(dataset, study_results), RenderOptions())
+
+
+@pytest.fixture(scope="module")
+def pdf_path(html, tmp_path_factory) -> Path:
+    path = tmp_path_factory.mktemp("pdf") / "appendix.pdf"
+    render_pdf(html, path, RenderOptions())
+    return path
+
+
+def test_pdf_has_pages_tables_and_running_header(pdf_path, study_results):
+    reader = pypdf.PdfReader(pdf_path)
+    assert len(reader.pages) >= 2
+    texts = [page.extract_text() for page in reader.pages]
+    f_text = numbers.fixed(study_results.outcomes[1].table.f, 2)
+    assert f_text == "5.73"
+    assert any("Between groups (Treatment arm)" in t and f_text in t for t in texts)
+    short = study_results.inputs[0].sha256[:12]
+    for number, text in enumerate(texts, start=1):
+        assert "Study DEMO-BP-01" in text and short in text
+        assert f"Page {number} of {len(texts)}" in text
+    assert float(reader.pages[0].mediabox.width) == pytest.approx(595.3, abs=0.5)  # A4
+
+
+def test_contents_carry_page_numbers(pdf_path):
+    reader = pypdf.PdfReader(pdf_path)
+    contents = next(p.extract_text() for p in reader.pages if "Contents" in p.extract_text())
+    methods_page = next(i for i, p in enumerate(reader.pages, start=1)
+                        if "Every test uses the registered significance level" in p.extract_text())
+    line = next(ln for ln in contents.splitlines() if ln.startswith("Methods"))
+    assert line.rstrip().endswith(str(methods_page))
+
+
+def test_same_html_gives_identical_pdf_bytes(html, pdf_path, tmp_path):
+    again = tmp_path / "again.pdf"
+    render_pdf(html, again, RenderOptions())
+    assert again.read_bytes() == pdf_path.read_bytes()
+
+
+def test_letter_paper(tmp_path):
+    path = tmp_path / "letter.pdf"
+    render_pdf("<p>Letter</p>", path, RenderOptions(paper="Letter"))
+    box = pypdf.PdfReader(path).pages[0].mediabox
+    assert (float(box.width), float(box.height)) == (612.0, 792.0)
+
+
+def test_fetcher_refuses_external_urls_and_opens_no_socket(tmp_path, monkeypatch, caplog):
+    calls: list[tuple[str, str]] = []
+    real = render._offline_fetcher
+
+    def spying_fetcher():
+        fetcher = real()
+        fetch = fetcher.fetch
+
+        def spy(url, headers=None):
+            try:
+                response = fetch(url, headers)
+            except Exception as error:
+                calls.append((url, type(error).__name__))
+                raise
+            calls.append((url, "served"))
+            return response
+
+        fetcher.fetch = spy
+        return fetcher
+
+    connects: list[object] = []
+    monkeypatch.setattr(render, "_offline_fetcher", spying_fetcher)
+    monkeypatch.setattr(socket.socket, "connect", lambda self, address: connects.append(address))
+    pixel = ("data:image/png;base64,iVBORw0KGgoAAAANSUhEUgAAAAEAAAABCAYAAAAfFcSJAAAADUlEQVR42"
+             "mP8z8BQDwAEhQGAhKmMIQAAAABJRU5ErkJggg==")
+    html = (f'<p>x</p><img src="http://example.invalid/x.png"><img src="{pixel}">'
+            '<div style="background: url(https://example.invalid/y.png)">y</div>')
+    with caplog.at_level(logging.WARNING, logger="weasyprint"):
+        render_pdf(html, tmp_path / "offline.pdf", RenderOptions())
+    assert ("http://example.invalid/x.png", "RefusedURL") in calls
+    assert ("https://example.invalid/y.png", "RefusedURL") in calls
+    assert (pixel, "served") in calls
+    assert connects == []
+    assert "refused to fetch http://example.invalid/x.png" in caplog.text
+    assert (tmp_path / "offline.pdf").stat().st_size > 0
