@@ -144,7 +144,9 @@ def cell_stats(
             centred_mean[i] = float(exact_mean - Fraction(shift))
             ssd[i] = float(sums.ssd[i])
     n_total = int(values.size)
-    grand_centred = weighted_centre(n, centred_mean)
+    grand_mean = shift + weighted_centre(n, centred_mean) if n_total else float("nan")
+    if sums is not None:
+        grand_mean = float(Fraction(sum(sums.sums), n_total * 10**sums.digits))
     return CellStats(
         labels=labels,
         n=_read_only(n.astype(np.int64)),
@@ -153,7 +155,7 @@ def cell_stats(
         shift=shift,
         centred_mean=_read_only(centred_mean),
         n_total=n_total,
-        grand_mean=shift + grand_centred if n_total else float("nan"),
+        grand_mean=grand_mean,
         exact=sums,
     )
 

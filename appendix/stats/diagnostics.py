@@ -11,8 +11,8 @@ from scipy import stats as _st
 
 from appendix.errors import InternalError
 from appendix.results import FlaggedUnit, NormalityTest, OutlierScreen, StatWarning, VarianceTest
-from appendix.stats.cells import CellStats, check_inputs, layout_warnings, residuals, single_group_warning
-from appendix.stats.cells import cell_stats
+from appendix.stats.cells import (
+    CellStats, cell_stats, check_inputs, layout_warnings, residuals, single_group_warning)
 from appendix.stats.descriptives import split_by_code
 from appendix.stats.exact import decimal_digits
 from appendix.stats.oneway import partition
@@ -127,7 +127,7 @@ def outlier_screen(
     For the one-way model the leverage of a unit in level i is h = 1/n_i, so with
     residual e, SS_within and df = N - k:
     t = e / sqrt(s_(-)^2 (1 - h)), s_(-)^2 = (SS_within - e^2 / (1 - h)) / (df - 1)
-    (Belsley, Kuh & Welsch 1980, *Regression Diagnostics*, eq. 2.10). Units alone in
+    (Belsley, Kuh & Welsch 1980, *Regression Diagnostics*, ch. 2). Units alone in
     their level (h = 1) have no defined t and are skipped with a warning.
     """
     values, codes = check_inputs(values, codes, cells.k)
