@@ -22,7 +22,8 @@ def flow_findings(plan: Plan, flow: UnitFlow) -> tuple[Finding, ...]:
     ``level-without-units``: a plan level with no eligible unit. ``level-without-values``:
     an outcome with no analysed value at a level that does have eligible units (a level
     without units is reported once, not again per outcome). ``below-planned-n``: fewer
-    eligible units at a level than ``data.planned_n.per_group``.
+    eligible units (after exclusions, before missing values) than ``data.planned_n``
+    states, in all (``total``) or at a level that has units (``per_group``).
     """
     factor = plan.factor.label or plan.factor.name
     found: list[Finding] = []
@@ -36,7 +37,12 @@ def flow_findings(plan: Plan, flow: UnitFlow) -> tuple[Finding, ...]:
             found.append(Finding("level-without-units",
                                  f"No eligible units at level {show(count.level)} of {factor} "
                                  f"({why})."))
-    planned = plan.data.planned_n.per_group if plan.data.planned_n else None
+    planned_n = plan.data.planned_n
+    planned = planned_n.per_group if planned_n else None
+    total = sum(c.n for c in flow.eligible)
+    if planned_n and planned_n.total is not None and total < planned_n.total:
+        found.append(Finding("below-planned-n",
+                             f"{total} eligible units in all, {planned_n.total} planned."))
     if planned is not None:
         for count in flow.eligible:
             if 0 < count.n < planned:

@@ -58,10 +58,14 @@ def _source_format(data: Mapping) -> list[Found]:
     source = data.get("source")
     if not isinstance(source, str) or not source:
         return []
-    if any(source.lower().endswith(ext) for ext in DATA_FORMATS):
-        return []
-    return [(("data", "source"),
-             f"got {show(source)}; allowed: a file ending {one_of(DATA_FORMATS)}")]
+    if not any(source.lower().endswith(ext) for ext in DATA_FORMATS):
+        return [(("data", "source"),
+                 f"got {show(source)}; allowed: a file ending {one_of(DATA_FORMATS)}")]
+    if data.get("sheet") is not None and not source.lower().endswith(".xlsx"):
+        return [(("data", "sheet"),
+                 f"got {show(data['sheet'])}, but {show(source)} is not an Excel file; "
+                 "allowed: a sheet only for a .xlsx source")]
+    return []
 
 
 def _factor_levels(loc: Loc, factor: Mapping) -> list[Found]:

@@ -96,9 +96,19 @@ def read_tree(text: str) -> Tree:
         raise YamlSyntaxError(mark.line + 1 if mark else None, message) from None
     except yaml.YAMLError as error:
         raise YamlSyntaxError(None, str(error)) from None
+    except RecursionError:
+        raise YamlSyntaxError(None, _TOO_DEEP) from None
     builder = _Builder()
-    value = None if node is None else builder.value(node, ())
+    try:
+        value = None if node is None else builder.value(node, ())
+    except RecursionError:
+        raise YamlSyntaxError(None, _TOO_DEEP) from None
     return Tree(value, builder.lines, tuple(builder.problems))
+
+
+# PyYAML composes recursively; a plan is a few levels deep, so running out of stack means
+# a malformed or hostile file, reported as such rather than as a crash.
+_TOO_DEEP = "lists or mappings are nested too deeply"
 
 
 class _Builder:

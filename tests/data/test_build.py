@@ -177,3 +177,14 @@ def test_missing_columns_point_back_to_the_plan(tmp_path):
         f"{columns}",
         f"  {data}:1: sleep: no such column (named by outcomes[1].name at {study}:15); {columns}",
     ])
+
+
+def test_planned_total(tmp_path):
+    (tmp_path / "units.csv").write_text(
+        HEADER + "u1,placebo,no,5,1.5,7\nu2,low,no,5,2,8\nu3,high,yes,5,3,9\nu4,high,no,5,3,9\n",
+        encoding="utf-8")
+    study = write_study(tmp_path, "units.csv")
+    text = study.read_text(encoding="utf-8").replace("{per_group: 8}", "{total: 4}")
+    study.write_text(text, encoding="utf-8")
+    assert build_dataset(load_plan(study)).findings == (
+        Finding("below-planned-n", "3 eligible units in all, 4 planned."),)

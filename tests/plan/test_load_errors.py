@@ -144,3 +144,12 @@ def test_not_utf8_names_the_line(write_study):
     with pytest.raises(PlanError) as caught:
         load_plan(path)
     assert str(caught.value) == f"1 problem in the study file:\n  {path}:19: the file is not UTF-8 text"
+
+
+def test_sheet_only_for_excel(write_study):
+    path = write_study(variant("  unit: unit_id\n", "  unit: unit_id\n  sheet: units\n"))
+    with pytest.raises(PlanError) as caught:
+        load_plan(path)
+    assert str(caught.value) == _expected(path, [
+        "8: data.sheet: got 'units', but 'units.csv' is not an Excel file; "
+        "allowed: a sheet only for a .xlsx source"])

@@ -41,3 +41,9 @@ def test_two_documents_are_a_syntax_error():
         read_tree("a: 1\n---\nb: 2\n")
     assert caught.value.line == 2  # the second "---"
     assert "expected a single document" in caught.value.message
+
+
+def test_deep_nesting_is_an_error_not_a_crash():
+    with pytest.raises(YamlSyntaxError) as caught:
+        read_tree("a: " + "[" * 100_000 + "]" * 100_000 + "\n")
+    assert (caught.value.line, caught.value.message) == (None, "lists or mappings are nested too deeply")
