@@ -169,3 +169,12 @@ def test_no_exception_and_every_gap_is_explained(sizes, pool, seed) -> None:
     for effect in r["effects"]:
         if effect.estimate is not None:
             assert 0.0 <= effect.ci_low <= effect.ci_high
+
+
+def test_brown_forsythe_with_two_units_per_level() -> None:
+    # With two units per level both |y - median| are equal, so the deviations carry no
+    # within-level variation and the F ratio on them is undefined (scipy 1.17 levene: inf).
+    values = np.array([1.0, 3.0, 2.0, 7.0, 5.0, 6.0])
+    result = brown_forsythe(values, codes_of(2, 2, 2), 3, LEVELS)
+    assert result.statistic is None and result.p is None
+    assert [w.code for w in result.warnings] == ["brown-forsythe-undefined"]
