@@ -59,7 +59,21 @@ ValueText = Annotated[
 ]
 
 
+def _only_whole_numbers(value: object) -> object:
+    # Literal[1] would accept True and 1.0 (both == 1 in Python); a format number is
+    # written as the whole number itself.
+    if isinstance(value, (bool, float)):
+        raise PydanticCustomError("literal_error", "Input should be 1", {"expected": "1"})
+    return value
+
+
+#: The study-file format number (this version reads 1).
+FormatNumber = Annotated[Literal[1], BeforeValidator(_only_whole_numbers)]
+
+
 class _Frozen(BaseModel):
+    # Lax by default so that YAML lists fill tuples and ISO text fills dates; numbers and
+    # flags are strict per field, so that `format: true` or `ordered: 1` are reported.
     model_config = ConfigDict(extra="forbid", frozen=True, strict=False)
 
 
@@ -93,8 +107,8 @@ class Exclusion(_Frozen):
 class PlannedN(_Frozen):
     """Planned numbers of analysed units (reported against the numbers achieved)."""
 
-    per_group: int | None = Field(default=None, ge=1)
-    total: int | None = Field(default=None, ge=1)
+    per_group: int | None = Field(default=None, ge=1, strict=True)
+    total: int | None = Field(default=None, ge=1, strict=True)
 
 
 class Data(_Frozen):
@@ -117,7 +131,7 @@ class Factor(_Frozen):
     label: str | None = Field(default=None, description="Name of the factor in prose.")
     levels: tuple[LevelText, ...] = Field(min_length=2, description="Levels in registered order.")
     control: LevelText | None = Field(default=None, description="The control level, if any.")
-    ordered: bool = Field(default=False, description="Whether the levels are ordered.")
+    ordered: bool = Field(default=False, strict=True, description="Whether the levels are ordered.")
 
 
 class Design(_Frozen):
@@ -149,7 +163,7 @@ class Outliers(_Frozen):
     """Flag units whose externally studentized residual exceeds `threshold` in absolute value."""
 
     method: Literal["studentized-residual"] = "studentized-residual"
-    threshold: float = Field(default=3.0, gt=0)
+    threshold: float = Field(default=3.0, gt=0, strict=True)
 
 
 class Attested(_Frozen):
@@ -178,10 +192,10 @@ class Assumptions(_Frozen):
 class Plan(_Frozen):
     """A whole study file, format 1."""
 
-    format: Literal[1] = Field(description="Version of the study-file format; this version reads 1.")
+    format: FormatNumber = Field(description="Version of the study-file format; this version reads 1.")
     study: Study = Field(description="The study's identifier and title.")
     data: Data = Field(description="Where the data are, how units are identified, exclusions.")
-    alpha: float = Field(default=0.05, gt=0, lt=0.5, description="Significance level.")
+    alpha: float = Field(default=0.05, gt=0, lt=0.5, strict=True, description="Significance level.")
     design: Design = Field(description="The treatment factor and its levels.")
     outcomes: tuple[Outcome, ...] = Field(min_length=1, description="The registered outcomes.")
     assumptions: Assumptions = Field(default=Assumptions(), description="Diagnostics to compute.")

@@ -37,6 +37,14 @@ _FLOAT = re.compile(
 )
 
 
+def _plain_tag(text: str) -> str:
+    """The core-schema tag of an untagged plain scalar."""
+    for tag, pattern in (("null", _NULL), ("bool", _BOOL), ("int", _INT), ("float", _FLOAT)):
+        if pattern.match(text):
+            return f"{_CORE}{tag}"
+    return f"{_CORE}str"
+
+
 class _CoreLoader(yaml.SafeLoader):
     """SafeLoader with YAML 1.2 core implicit typing; notes anchors and aliases on nodes."""
 
@@ -159,7 +167,10 @@ class _Builder:
 
     def _scalar(self, node: ScalarNode, loc: Loc) -> object:
         text, tag = node.value, node.tag
-        if tag == f"{_CORE}str" or tag not in _ALLOWED_TAGS:
+        if tag not in _ALLOWED_TAGS:
+            # Already reported; read the value as if untagged so that only the tag is wrong.
+            tag = _plain_tag(text) if node.style is None else f"{_CORE}str"
+        if tag == f"{_CORE}str":
             return text
         try:
             if tag == f"{_CORE}null":

@@ -38,6 +38,10 @@ CASES = [
      ["10: alpha: got 'five percent'; allowed: a number greater than 0 and less than 0.5"]),
     ("wrong format", variant("format: 1", "format: 2"),
      ["1: format: got 2; allowed: 1"]),
+    ("format as a flag", variant("format: 1", "format: true"),
+     ["1: format: got true; allowed: 1"]),
+    ("ordered as a number", variant("control: placebo", "control: placebo\n      ordered: 1"),
+     ["16: design.factors[0].ordered: got 1; allowed: true or false"]),
     ("levels not a list", variant("[placebo, low, high]", "placebo, low, high"),
      ["14: design.factors[0].levels: got 'placebo, low, high'; allowed: a list, "
       "written [a, b] or as '- item' lines"]),
