@@ -127,10 +127,10 @@ def translate(error: Mapping, root: type[BaseModel]) -> tuple[Loc, str] | None:
         inner = _model_of(info.annotation) if info else None
         keys = f" with keys {one_of(inner.model_fields, 'and')}" if inner else ""
         return loc, f"{got}; allowed: a mapping{keys}"
-    if kind in _NUMBER or kind in _RANGE:
-        return loc, f"{got}; allowed: a number{_range(info)}"
-    if kind in _WHOLE:
-        return loc, f"{got}; allowed: a whole number{_range(info)}"
+    if kind in _NUMBER or kind in _RANGE or kind in _WHOLE:
+        whole = kind in _WHOLE or (info is not None and int in (info.annotation,
+                                                               *typing.get_args(info.annotation)))
+        return loc, f"{got}; allowed: {'a whole number' if whole else 'a number'}{_range(info)}"
     if kind in _BOOL:
         return loc, f"{got}; allowed: true or false"
     if kind in _DATE:
