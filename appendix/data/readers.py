@@ -3,7 +3,12 @@
 Formats, by file name ending (case ignored): ``.csv`` and ``.tsv`` (UTF-8 text, RFC 4180
 quoting; a quoted cell may span lines), ``.parquet`` (pyarrow), ``.xlsx`` (openpyxl; the
 first worksheet unless `sheet` is given; formulas give their last computed value), and
-``.xpt`` (SAS transport version 5, SAS TS-140, via pandas).
+``.xpt`` (SAS transport version 5, SAS TS-140, via pandas), and ``.dta`` (Stata, via
+pandas; value labels are read as the level text).
+
+To add a format: write a function ``(path, sheet) -> Table`` that opens the file with
+``open(path, "rb")`` and hands its header and rows to `_table`, register its ending in
+`_READERS`, and add the ending to `appendix.plan.checks.DATA_FORMATS`.
 """
 
 from __future__ import annotations
@@ -176,12 +181,25 @@ def _sas_text(value: object) -> object:
     return value
 
 
+def _dta(path: Path, sheet: str | None) -> Table:
+    import pandas as pd
+
+    with path.open("rb") as handle:
+        try:
+            frame = pd.read_stata(handle, convert_categoricals=True)
+        except (ValueError, OSError) as error:
+            raise UserError(f"cannot read {path} as a Stata file: {error}") from None
+    columns = [frame[name].astype(object).tolist() for name in frame.columns]
+    return _table(path, list(frame.columns), _numbered_rows(columns, len(frame)), 1)
+
+
 _READERS: dict[str, Callable[[Path, str | None], Table]] = {
     ".csv": _delimited(","),
     ".tsv": _delimited("\t"),
     ".parquet": _parquet,
     ".xlsx": _xlsx,
     ".xpt": _xpt,
+    ".dta": _dta,
 }
 
 

@@ -13,7 +13,7 @@ from appendix.plan.scalars import scalar_text
 from appendix.plan.wording import Loc, did_you_mean, one_of, show
 
 #: Data file formats format 1 reads, by file name ending.
-DATA_FORMATS: tuple[str, ...] = (".csv", ".tsv", ".parquet", ".xlsx", ".xpt")
+DATA_FORMATS: tuple[str, ...] = (".csv", ".tsv", ".parquet", ".xlsx", ".xpt", ".dta")
 
 Found = tuple[Loc, str]
 

@@ -104,3 +104,16 @@ def write_xpt(frame: pd.DataFrame, path: Path) -> Path:
 
     pyreadstat.write_xport(typed(frame), str(path), file_format_version=5, table_name="UNITS")
     return path
+
+
+def write_dta(frame: pd.DataFrame, path: Path) -> Path:
+    """A Stata file written by pyreadstat (independent of the pandas reader under test);
+    the arm is stored as integer codes with value labels, as Stata users usually do."""
+    import pyreadstat
+
+    data = typed(frame)
+    codes = {"placebo": 1, "low": 2, "high": 3}
+    data["arm"] = data["arm"].map(codes).astype("int64")
+    pyreadstat.write_dta(data, str(path),
+                         variable_value_labels={"arm": {v: k for k, v in codes.items()}})
+    return path

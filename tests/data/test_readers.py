@@ -8,8 +8,8 @@ from appendix.data.checksums import sha256_file
 from appendix.data.readers import formats, read_table
 from appendix.errors import DataError, UserError
 from appendix.plan.model import DATA_FORMATS
-from tests.data.helpers import (invented_units, write_delimited, write_parquet, write_xlsx,
-                                write_xpt)
+from tests.data.helpers import (invented_units, write_delimited, write_dta, write_parquet,
+                                write_xlsx, write_xpt)
 
 WRITERS = {
     "csv": lambda f, p: write_delimited(f, p),
@@ -17,6 +17,7 @@ WRITERS = {
     "parquet": write_parquet,
     "xlsx": write_xlsx,
     "xpt": write_xpt,
+    "dta": write_dta,
 }
 
 
@@ -102,7 +103,7 @@ def test_unknown_extension(tmp_path):
     with pytest.raises(UserError) as caught:
         read_table(path)
     assert str(caught.value) == (f"cannot read {path}: unknown file type '.sav'; allowed: "
-                                 "'.csv', '.tsv', '.parquet', '.xlsx' or '.xpt'")
+                                 "'.csv', '.tsv', '.parquet', '.xlsx', '.xpt' or '.dta'")
 
 
 def test_missing_file_names_resolved_path(tmp_path):
