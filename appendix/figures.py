@@ -174,8 +174,7 @@ def _means(panel: _Panel) -> Figure | None:
                 markeredgecolor="#000000", markeredgewidth=0.6, linestyle="none")
     _level_axis(ax, panel.levels)
     ax.set_xlim(-0.6, len(panel.levels) - 0.4)
-    unit = panel.outcome.unit
-    ax.set_ylabel(_wrap(f"Group mean, {panel.outcome.label.lower()}" + (f" ({unit})" if unit else "")))
+    ax.set_ylabel(panel.axis_label)  # the caption says these are means
     return figure
 
 

@@ -88,7 +88,13 @@ def _filters(options: RenderOptions) -> dict[str, Any]:
         "column_decimals": column_decimals,
         "short_hash": lambda digest: digest[:12],
         "level_counts": _level_counts,
+        "upper_first": _upper_first,
     }
+
+
+def _upper_first(text: str) -> str:
+    """Capitalise a sentence start only; `str.capitalize` would lower "HbA1c" to "Hba1c"."""
+    return text[:1].upper() + text[1:]
 
 
 def _level_counts(items: list[Mapping[str, Any]], levels: list[str]) -> list[int]:

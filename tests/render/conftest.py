@@ -15,11 +15,13 @@ import pytest
 from scipy import stats
 
 from appendix import results as R
+from appendix.numbers import p_clause
 from appendix.data.dataset import Dataset, OutcomeData, frozen_array
 
 LEVELS = ("placebo", "low dose", "high dose")
 PER_GROUP = 8
 DATA_SHA = "3f5a9c0e7b21d4c8a6e0f9b3d2c1a4e5f6071829304a5b6c7d8e9f0a1b2c3d4e"
+STUDY_SHA = "0f1e2d3c4b5a69788796a5b4c3d2e1f00112233445566778899aabbccddeeff1"
 PLAN_SHA = "a1b2c3d4e5f60718293a4b5c6d7e8f90112233445566778899aabbccddeeff00"
 
 
@@ -83,7 +85,7 @@ def _primary(values: np.ndarray, codes: np.ndarray) -> R.OutcomeResult:
         diagnostics=diagnostics,
         conclusion=R.Conclusion(
             f"Mean change in systolic blood pressure differed between the groups, "
-            f"F({df_b}, {df_w}) = {f:.2f}, p = {p:.3f}.", "reject", p, 0.05))
+            f"F({df_b}, {df_w}) = {f:.2f}, {p_clause(p)}.", "reject", p, 0.05))
 
 
 def _degenerate() -> R.OutcomeResult:
@@ -148,7 +150,8 @@ def build_results() -> R.StudyResults:
                           "2026-02-14", "all randomised units"),
         plan_sha256=PLAN_SHA, alpha=0.05,
         factor=R.FactorInfo("arm", "Treatment arm", LEVELS, "placebo", False),
-        inputs=(R.InputFile("data", "data/units.csv", DATA_SHA, 812),),
+        inputs=(R.InputFile("study", "study.yaml", STUDY_SHA, 1204),
+                R.InputFile("data", "data/units.csv", DATA_SHA, 812)),
         unit_flow=_flow(),
         outcomes=(_degenerate(), _primary(values, codes)),
         findings=(R.Finding("planned-n-not-met", "Planned 10 units per group; 8 analysed."),),

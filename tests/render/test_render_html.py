@@ -150,15 +150,29 @@ def test_summary_puts_primary_first_and_quotes_each_conclusion(page, plain_resul
 
 def test_cover_shows_checksums_short_and_full_and_the_caution(page, plain_results):
     text = squash(" ".join(e.text for e in page.by_tag("p")))
-    sha = plain_results["inputs"][0]["sha256"]
+    sha = plain_results["inputs"][1]["sha256"]
+    assert plain_results["inputs"][1]["role"] == "data"
     header = [e for e in page.elements if e.attrs.get("class") == "running-data"]
     assert header and "running-header" in {e.attrs.get("class") for e in page.by_tag("p")}
     short = [e.text for e in page.elements if e.attrs.get("class") == "hash-short"]
     assert sha[:12] in short and plain_results["plan_sha256"][:12] in short
     codes = [e for e in page.elements if e.tag == "code" and e.attrs.get("class") == "hash"]
-    assert len(codes) == 4  # plan and data, on the cover and in the reproducibility table
+    assert len(codes) == 6  # plan, study and data file, on the cover and in the final table
+    header_text = squash(" ".join(e.text for e in header))
+    assert header_text == f"data SHA-256 {sha[:12]}"
     assert "not, a clinical or regulatory decision" in text
     assert "qualified, licensed statistician" in text
+
+
+def test_lowercase_labels_start_sentences_capitalised(plain_results, figures):
+    lower = copy.deepcopy(plain_results)
+    lower["outcomes"][1]["label"] = "change in HbA1c"
+    page = parse(render_html(lower, figures, RenderOptions()))
+    titles = [squash(e.text) for e in page.elements if e.attrs.get("class") == "table-title"]
+    assert "Change in HbA1c by group" in titles
+    assert "One-way analysis of variance of change in HbA1c" in titles
+    rows = [squash(e.text) for e in page.by_tag("th") if "HbA1c: analysed" in e.text]
+    assert rows == ["Change in HbA1c: analysed"]
 
 
 def test_methods_follow_what_was_run(plain_results):

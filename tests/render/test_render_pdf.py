@@ -36,7 +36,7 @@ def test_pdf_has_pages_tables_and_running_header(pdf_path, study_results):
     f_text = numbers.fixed(study_results.outcomes[1].table.f, 2)
     assert f_text == "5.73"
     assert any("Between groups (Treatment arm)" in t and f_text in t for t in texts)
-    short = study_results.inputs[0].sha256[:12]
+    short = study_results.inputs[1].sha256[:12]  # the data file's
     for number, text in enumerate(texts, start=1):
         assert "Study DEMO-BP-01" in text and short in text
         assert f"Page {number} of {len(texts)}" in text

@@ -1,0 +1,87 @@
+"""The HTML appendix in headless Chromium: no console errors, figures laid out, contents
+links land on their sections. Data are the INVENTED fixtures of conftest.py.
+
+Skipped when /usr/bin/chromium is missing, unless APPENDIX_REQUIRE_BROWSER=1.
+"""
+
+from __future__ import annotations
+
+import os
+from pathlib import Path
+
+import pytest
+
+from appendix.figures import make_figures
+from appendix.render import RenderOptions, render_html
+
+CHROMIUM = Path("/usr/bin/chromium")
+ARGS = ["--no-sandbox", "--disable-gpu", "--disable-background-networking",
+        "--disable-component-update", "--disable-sync", "--no-first-run"]
+
+pytestmark = pytest.mark.browser
+
+
+def _need_browser() -> None:
+    if CHROMIUM.exists():
+        return
+    reason = f"{CHROMIUM} is missing (Debian package 'chromium')"
+    if os.environ.get("APPENDIX_REQUIRE_BROWSER") == "1":
+        pytest.fail(f"APPENDIX_REQUIRE_BROWSER=1 but {reason}")
+    pytest.skip(reason)
+
+
+@pytest.fixture(scope="module")
+def page_url(dataset, study_results, plain_results, tmp_path_factory) -> str:
+    html = render_html(plain_results, make_figures(dataset, study_results), RenderOptions())
+    path = tmp_path_factory.mktemp("browser") / "appendix.html"
+    path.write_text(html, encoding="utf-8")
+    return path.as_uri()
+
+
+def test_appendix_in_chromium(page_url):
+    _need_browser()
+    from playwright.sync_api import sync_playwright
+
+    with sync_playwright() as driver:
+        browser = driver.chromium.launch(executable_path=str(CHROMIUM), args=ARGS)
+        try:
+            page = browser.new_page(viewport={"width": 1100, "height": 800})
+            problems: list[str] = []
+            page.on("console", lambda m: problems.append(m.text) if m.type == "error" else None)
+            page.on("pageerror", lambda e: problems.append(str(e)))
+            page.on("request", lambda r: None if r.url.startswith(("file:", "data:"))
+                    else problems.append(f"request {r.url}"))
+            page.goto(page_url, wait_until="load")
+
+            boxes = page.eval_on_selector_all(
+                "figure svg", "els => els.map(e => [e.getBoundingClientRect().width,"
+                " e.getBoundingClientRect().height])")
+            assert len(boxes) == 8
+            assert all(w > 100 and h > 50 for w, h in boxes), boxes
+
+            targets = page.eval_on_selector_all(
+                "#contents a", "els => els.map(e => e.getAttribute('href'))")
+            assert len(targets) == 6 + 2 * 9  # six top-level sections, nine links per outcome
+            for href in targets:
+                page.click(f'#contents a[href="{href}"]')
+                assert page.evaluate("location.hash") == href
+                top, height = page.evaluate(
+                    "h => { const r = document.getElementById(h.slice(1))"
+                    ".getBoundingClientRect(); return [r.top, r.height]; }", href)
+                assert height > 0, href
+                # scrolled into view: the section now starts inside the viewport (at its
+                # top, or lower when the end of the page stopped the scroll)
+                assert -1 <= top < 800, (href, top)
+            assert problems == []
+        finally:
+            browser.close()
+
+
+def test_missing_browser_skips_or_fails_on_demand(monkeypatch, tmp_path):
+    monkeypatch.setattr(__import__(__name__), "CHROMIUM", tmp_path / "no-chromium")
+    monkeypatch.delenv("APPENDIX_REQUIRE_BROWSER", raising=False)
+    with pytest.raises(pytest.skip.Exception, match="no-chromium is missing"):
+        _need_browser()
+    monkeypatch.setenv("APPENDIX_REQUIRE_BROWSER", "1")
+    with pytest.raises(pytest.fail.Exception, match="APPENDIX_REQUIRE_BROWSER=1 but"):
+        _need_browser()
