@@ -131,3 +131,19 @@ def test_not_utf8(tmp_path):
     path.write_bytes(b"id,y\nu1,caf\xe9\n")
     with pytest.raises(UserError, match="not UTF-8 text"):
         read_table(path)
+
+
+def test_xlsx_rows_are_worksheet_row_numbers(tmp_path):
+    import openpyxl
+
+    book = openpyxl.Workbook()
+    sheet = book.active
+    sheet["A3"], sheet["B3"] = "unit_id", "pain"  # header on row 3, rows 1-2 empty
+    sheet.append(["u1", 1.5])
+    sheet.append([None, None])  # an empty row is skipped, its number is not reused
+    sheet.append(["u2", 2])
+    path = tmp_path / "u.xlsx"
+    book.save(path)
+    table = read_table(path)
+    assert (table.header_line, table.lines) == (3, (4, 6))
+    assert table.column("pain") == ("1.5", "2")

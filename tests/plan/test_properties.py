@@ -22,3 +22,48 @@ def test_reads_back_what_pyyaml_dumps(document):
     tree = read_tree(yaml.safe_dump(document))
     assert tree.value == document
     assert tree.problems == ()
+
+
+_PATHS = [("format",), ("alpha",), ("study",), ("study", "id"), ("study", "registered"),
+          ("data",), ("data", "unit"), ("data", "exclusions"), ("data", "exclusions", 0),
+          ("data", "exclusions", 0, "equals"), ("data", "planned_n"), ("design",),
+          ("design", "factors"), ("design", "factors", 0), ("design", "factors", 0, "levels"),
+          ("design", "factors", 0, "levels", 1), ("design", "factors", 0, "control"),
+          ("outcomes",), ("outcomes", 0), ("outcomes", 1, "name"), ("outcomes", 0, "role"),
+          ("assumptions",), ("assumptions", "equal_variance"), ("extra",)]
+
+
+def _holds(container: object, key: object) -> bool:
+    if isinstance(container, dict):
+        return isinstance(key, str)
+    return isinstance(container, list) and isinstance(key, int) and key < len(container)
+
+
+def _set(document: dict, path: tuple, value: object) -> None:
+    """Put `value` at `path` where the (already edited) document still has that place."""
+    target: object = document
+    for key in path[:-1]:
+        if not _holds(target, key) or (isinstance(target, dict) and key not in target):
+            return
+        target = target[key]
+    if _holds(target, path[-1]):
+        target[path[-1]] = value
+
+
+@given(st.lists(st.tuples(st.sampled_from(_PATHS), _VALUES), min_size=1, max_size=4))
+def test_any_edit_of_a_valid_plan_loads_or_lists_problems(tmp_path_factory, edits):
+    from appendix.errors import PlanError
+    from appendix.plan.load import load_plan
+    from tests.plan.plans import BASE
+
+    document = read_tree(BASE).value
+    for path, value in edits:
+        _set(document, path, value)
+    study = tmp_path_factory.mktemp("fuzz") / "study.yaml"
+    study.write_text(yaml.safe_dump(document), encoding="utf-8")
+    try:
+        load_plan(study)
+    except PlanError as error:
+        # Never a crash, never an empty or unlocated problem.
+        assert error.problems
+        assert all(p.message and p.line is not None for p in error.problems)
