@@ -188,3 +188,20 @@ def test_planned_total(tmp_path):
     study.write_text(text, encoding="utf-8")
     assert build_dataset(load_plan(study)).findings == (
         Finding("below-planned-n", "3 eligible units in all, 4 planned."),)
+
+
+def test_boolean_cells_match_true(tmp_path):
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    pq.write_table(pa.table({
+        "unit_id": ["u1", "u2", "u3", "u4"], "arm": ["placebo", "low", "high", "high"],
+        "violated": [False, True, None, False], "dose": [5, 5, 5, 0],
+        "pain": [1.5, 2.0, 3.0, 4.0], "sleep": [7.0, None, 8.0, 9.0],
+    }), tmp_path / "units.parquet")
+    study = write_study(tmp_path, "units.parquet", planned=1)
+    study.write_text(study.read_text(encoding="utf-8").replace("equals: yes", "equals: true"),
+                     encoding="utf-8")
+    flow = build_dataset(load_plan(study)).unit_flow
+    assert [(e.rule, e.equals, e.total) for e in flow.exclusions] == [("X1", "true", 1), ("X2", "0", 1)]
+    assert flow.eligible == (LevelCount("placebo", 1), LevelCount("low", 0), LevelCount("high", 1))
