@@ -27,6 +27,7 @@ import numpy as np
 from matplotlib.figure import Figure
 from scipy import stats
 
+from appendix import numbers
 from appendix.data.dataset import Dataset, OutcomeData
 from appendix.results import OutcomeResult, StudyResults
 
@@ -51,6 +52,7 @@ _JITTER_SEED = 20260214  # fixed: the same data always give the same picture
 
 _RC = {
     "svg.fonttype": "none",  # text stays text: light, searchable, same in both renderers
+    "text.parse_math": False,  # labels come from the plan and data: "$" is a dollar sign
     "font.family": "sans-serif",
     "font.sans-serif": ["Liberation Sans", "DejaVu Sans"],
     "font.size": 9,
@@ -233,19 +235,27 @@ def _f_reference(panel: _Panel) -> Figure | None:
     if table.f is None or table.critical_f is None or table.df_between < 1 or table.df_within < 1:
         return None
     dist = stats.f(table.df_between, table.df_within)
-    right = max(table.f * 1.15, float(dist.ppf(0.999)), table.critical_f * 1.3)
+    scale = max(float(dist.ppf(0.999)), table.critical_f * 1.3)
+    # a huge F would squash the density into the left edge: past 3x the scale it is
+    # marked by an arrow at the right edge instead of a line at its place
+    on_scale = table.f * 1.15 <= 3 * scale
+    right = max(scale, table.f * 1.15) if on_scale else scale
     x = np.linspace(right / 2000, right, 1200)
     y = dist.pdf(x)
     figure, ax = _new_figure(height=2.8)
     ax.plot(x, y, color=PALETTE[0], label=f"F({table.df_between}, {table.df_within}) density")
     tail = x >= table.critical_f
-    alpha = f"{table.alpha:g}".removeprefix("0")  # APA: no leading zero
+    alpha = numbers.no_leading_zero(f"{table.alpha:g}")
     ax.fill_between(x[tail], y[tail], color=PALETTE[1], alpha=0.85, linewidth=0,
                     label=f"Rejection region, \u03b1 = {alpha}")
     ax.axvline(table.critical_f, color=PALETTE[1], linewidth=1.0,
-               label=f"Critical F = {table.critical_f:.2f}")
-    ax.axvline(table.f, color="#000000", linewidth=1.0, linestyle="--",
-               label=f"Observed F = {table.f:.2f}")
+               label=f"Critical F = {numbers.fixed(table.critical_f, 2)}")
+    observed = f"Observed F = {numbers.fixed(table.f, 2)}"
+    if on_scale:
+        ax.axvline(table.f, color="#000000", linewidth=1.0, linestyle="--", label=observed)
+    else:
+        ax.annotate(f"{observed} \u2192", xy=(0.99, 0.5), xycoords="axes fraction",
+                    ha="right", va="center")
     # with df1 <= 2 the density is unbounded or highest at 0; keep the tail readable
     ax.set_ylim(0, float(np.max(y[x >= right * 0.02])) * 1.1)
     ax.set_xlim(0, right)

@@ -56,6 +56,17 @@ def test_text_stays_text_with_units_in_axis_labels(figures):
     assert "Residual (mmHg)" in figures["sbp_change-qq"]
 
 
+def test_plan_and_data_strings_stay_plain_text(dataset, study_results):
+    levels = ("<script>alert(1)</script>", "cost $5 & $6 -->", "x")
+    primary = dataclasses.replace(study_results.outcomes[1], label="Cost ($) <b>", unit="$")
+    figures = make_figures(dataclasses.replace(dataset, levels=levels),
+                           dataclasses.replace(study_results, outcomes=(primary,)))
+    svg = figures["sbp_change-distribution"]
+    assert "<script" not in svg and "<b>" not in svg and "<!--" not in svg
+    texts = [t.text for t in ET.fromstring(svg.encode()).iter("{http://www.w3.org/2000/svg}text")]
+    assert "cost $5 & $6 -->" in texts and "Cost ($) <b> ($)" in texts
+
+
 def test_f_figure_is_skipped_when_f_is_missing(dataset, study_results):
     primary = study_results.outcomes[1]
     no_f = dataclasses.replace(primary, table=dataclasses.replace(primary.table, f=None, p=None))
@@ -63,6 +74,19 @@ def test_f_figure_is_skipped_when_f_is_missing(dataset, study_results):
     figures = make_figures(dataset, results)
     assert "sbp_change-f-reference" not in figures
     assert "sbp_change-distribution" in figures
+
+
+def test_huge_f_is_marked_off_scale(dataset, study_results):
+    primary = study_results.outcomes[1]
+    huge = dataclasses.replace(primary, table=dataclasses.replace(primary.table, f=412.5))
+    svg = make_figures(dataset, dataclasses.replace(study_results, outcomes=(huge,)))[
+        "sbp_change-f-reference"]
+    assert "Observed F = 412.50 \u2192" in svg
+    ticks = [float(t.text.replace("\u2212", "-")) for t in ET.fromstring(svg.encode()).iter(
+        "{http://www.w3.org/2000/svg}text") if re.fullmatch(r"[\d.]+", t.text or "")]
+    assert max(ticks) < 20  # the axis keeps the density's scale
+    normal = make_figures(dataset, study_results)["sbp_change-f-reference"]
+    assert "Observed F = 5.73" in normal and "\u2192" not in normal
 
 
 def test_each_level_keeps_its_colour(figures):
