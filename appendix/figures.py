@@ -105,7 +105,10 @@ def make_figures(dataset: Dataset, results: StudyResults) -> dict[str, str]:
     Deterministic: two calls on the same inputs give identical text.
     """
     figures: dict[str, str] = {}
+    drawable = {item.name for item in dataset.outcomes}
     for outcome in results.outcomes:
+        if outcome.name not in drawable:
+            continue  # no data to draw from; the appendix says "not drawn"
         panel = _panel(dataset, outcome)
         for kind, draw in _DRAWERS.items():
             stem = f"{outcome.name}-{kind}"

@@ -3,8 +3,9 @@
 Each `Method` names a published procedure, says in a sentence or two what was computed,
 and lists the keys of its references. `methods_used` picks the methods that the results
 say were run, so that the section never describes an analysis that did not happen.
-References are written in APA 7 style (recalled, checked against the journals' records
-where a DOI is given).
+References are stored in parts so that the template can set them in APA 7 style; the
+bibliographic details were written from memory and are worth a check against the
+publishers' records before a release.
 """
 
 from __future__ import annotations
@@ -16,11 +17,36 @@ from typing import Any
 
 @dataclass(frozen=True)
 class Reference:
-    """One entry of the reference list; `text` is the APA 7 reference without the DOI."""
+    """One entry of the reference list, in the parts APA 7 sets differently.
+
+    A journal article has `journal`, `volume` and `pages` (italic journal and volume);
+    a book has `publisher` and an italic title. `edition` reads like ``2nd ed.``.
+    """
 
     key: str
-    text: str
+    authors: str
+    year: int
+    title: str
+    journal: str | None = None
+    volume: str | None = None
+    issue: str | None = None
+    pages: str | None = None
+    publisher: str | None = None
+    edition: str | None = None
     doi: str | None = None
+
+    @property
+    def is_article(self) -> bool:
+        return self.journal is not None
+
+
+def _article(key, authors, year, title, journal, volume, issue, pages, doi) -> Reference:
+    return Reference(key, authors, year, title, journal=journal, volume=volume, issue=issue,
+                     pages=pages, doi=doi)
+
+
+def _book(key, authors, year, title, publisher, edition=None, doi=None) -> Reference:
+    return Reference(key, authors, year, title, publisher=publisher, edition=edition, doi=doi)
 
 
 @dataclass(frozen=True)
@@ -34,56 +60,57 @@ class Method:
 
 
 REFERENCES: Mapping[str, Reference] = {r.key: r for r in (
-    Reference("apa2020", "American Psychological Association. (2020). Publication manual of "
-              "the American Psychological Association (7th ed.).", "10.1037/0000165-000"),
-    Reference("bartlett1937", "Bartlett, M. S. (1937). Properties of sufficiency and "
-              "statistical tests. Proceedings of the Royal Society of London. Series A, "
-              "160(901), 268\u2013282.", "10.1098/rspa.1937.0109"),
-    Reference("blom1958", "Blom, G. (1958). Statistical estimates and transformed "
-              "beta-variables. Wiley."),
-    Reference("brown1974", "Brown, M. B., & Forsythe, A. B. (1974). Robust tests for the "
-              "equality of variances. Journal of the American Statistical Association, "
-              "69(346), 364\u2013367.", "10.1080/01621459.1974.10482955"),
-    Reference("cohen1988", "Cohen, J. (1988). Statistical power analysis for the behavioral "
-              "sciences (2nd ed.). Lawrence Erlbaum Associates."),
-    Reference("cook1982", "Cook, R. D., & Weisberg, S. (1982). Residuals and influence in "
-              "regression. Chapman and Hall."),
-    Reference("fisher1925", "Fisher, R. A. (1925). Statistical methods for research workers. "
-              "Oliver and Boyd."),
-    Reference("hays1963", "Hays, W. L. (1963). Statistics for psychologists. Holt, Rinehart "
-              "and Winston."),
-    Reference("hyndman1996", "Hyndman, R. J., & Fan, Y. (1996). Sample quantiles in "
-              "statistical packages. The American Statistician, 50(4), 361\u2013365.",
-              "10.1080/00031305.1996.10473566"),
-    Reference("kruskal1952", "Kruskal, W. H., & Wallis, W. A. (1952). Use of ranks in "
-              "one-criterion variance analysis. Journal of the American Statistical "
-              "Association, 47(260), 583\u2013621.", "10.1080/01621459.1952.10483441"),
-    Reference("mccullough1998", "McCullough, B. D. (1998). Assessing the reliability of "
-              "statistical software: Part I. The American Statistician, 52(4), 358\u2013366.",
-              "10.1080/00031305.1998.10480586"),
-    Reference("olejnik2003", "Olejnik, S., & Algina, J. (2003). Generalized eta and omega "
-              "squared statistics: Measures of effect size for some common research designs. "
-              "Psychological Methods, 8(4), 434\u2013447.", "10.1037/1082-989X.8.4.434"),
-    Reference("rochon2012", "Rochon, J., Gondan, M., & Kieser, M. (2012). To test or not to "
-              "test: Preliminary assessment of normality when comparing two independent "
-              "samples. BMC Medical Research Methodology, 12, 81.",
-              "10.1186/1471-2288-12-81"),
-    Reference("royston1995", "Royston, P. (1995). Remark AS R94: A remark on algorithm AS 181: "
-              "The W-test for normality. Journal of the Royal Statistical Society. Series C "
-              "(Applied Statistics), 44(4), 547\u2013551.", "10.2307/2986146"),
-    Reference("shapiro1965", "Shapiro, S. S., & Wilk, M. B. (1965). An analysis of variance "
-              "test for normality (complete samples). Biometrika, 52(3\u20134), 591\u2013611.",
-              "10.1093/biomet/52.3-4.591"),
-    Reference("steiger2004", "Steiger, J. H. (2004). Beyond the F test: Effect size confidence "
-              "intervals and tests of close fit in the analysis of variance and contrast "
-              "analysis. Psychological Methods, 9(2), 164\u2013182.",
-              "10.1037/1082-989X.9.2.164"),
-    Reference("welch1951", "Welch, B. L. (1951). On the comparison of several mean values: An "
-              "alternative approach. Biometrika, 38(3\u20134), 330\u2013336.",
-              "10.1093/biomet/38.3-4.330"),
-    Reference("zimmerman2004", "Zimmerman, D. W. (2004). A note on preliminary tests of "
-              "equality of variances. British Journal of Mathematical and Statistical "
-              "Psychology, 57(1), 173\u2013181.", "10.1348/000711004849222"),
+    _book("apa2020", "American Psychological Association", 2020, "Publication manual of the "
+          "American Psychological Association", "American Psychological Association", "7th ed.",
+          "10.1037/0000165-000"),
+    _article("bartlett1937", "Bartlett, M. S.", 1937, "Properties of sufficiency and "
+             "statistical tests", "Proceedings of the Royal Society of London. Series A",
+             "160", "901", "268\u2013282", "10.1098/rspa.1937.0109"),
+    _book("blom1958", "Blom, G.", 1958, "Statistical estimates and transformed beta-variables",
+          "Wiley"),
+    _article("brown1974", "Brown, M. B., & Forsythe, A. B.", 1974, "Robust tests for the "
+             "equality of variances", "Journal of the American Statistical Association", "69",
+             "346", "364\u2013367", "10.1080/01621459.1974.10482955"),
+    _book("cohen1988", "Cohen, J.", 1988, "Statistical power analysis for the behavioral "
+          "sciences", "Lawrence Erlbaum Associates", "2nd ed."),
+    _book("cook1982", "Cook, R. D., & Weisberg, S.", 1982, "Residuals and influence in "
+          "regression", "Chapman and Hall"),
+    _book("fisher1925", "Fisher, R. A.", 1925, "Statistical methods for research workers",
+          "Oliver and Boyd"),
+    _book("hays1963", "Hays, W. L.", 1963, "Statistics for psychologists",
+          "Holt, Rinehart and Winston"),
+    _article("hyndman1996", "Hyndman, R. J., & Fan, Y.", 1996, "Sample quantiles in "
+             "statistical packages", "The American Statistician", "50", "4", "361\u2013365",
+             "10.1080/00031305.1996.10473566"),
+    _article("kruskal1952", "Kruskal, W. H., & Wallis, W. A.", 1952, "Use of ranks in "
+             "one-criterion variance analysis", "Journal of the American Statistical "
+             "Association", "47", "260", "583\u2013621", "10.1080/01621459.1952.10483441"),
+    _article("mccullough1998", "McCullough, B. D.", 1998, "Assessing the reliability of "
+             "statistical software: Part I", "The American Statistician", "52", "4",
+             "358\u2013366", "10.1080/00031305.1998.10480586"),
+    _article("olejnik2003", "Olejnik, S., & Algina, J.", 2003, "Generalized eta and omega "
+             "squared statistics: Measures of effect size for some common research designs",
+             "Psychological Methods", "8", "4", "434\u2013447", "10.1037/1082-989X.8.4.434"),
+    _article("rochon2012", "Rochon, J., Gondan, M., & Kieser, M.", 2012, "To test or not to "
+             "test: Preliminary assessment of normality when comparing two independent "
+             "samples", "BMC Medical Research Methodology", "12", None, "81",
+             "10.1186/1471-2288-12-81"),
+    _article("royston1995", "Royston, P.", 1995, "Remark AS R94: A remark on algorithm AS 181: "
+             "The W-test for normality", "Journal of the Royal Statistical Society. Series C "
+             "(Applied Statistics)", "44", "4", "547\u2013551", "10.2307/2986146"),
+    _article("shapiro1965", "Shapiro, S. S., & Wilk, M. B.", 1965, "An analysis of variance "
+             "test for normality (complete samples)", "Biometrika", "52", "3\u20134",
+             "591\u2013611", "10.1093/biomet/52.3-4.591"),
+    _article("steiger2004", "Steiger, J. H.", 2004, "Beyond the F test: Effect size confidence "
+             "intervals and tests of close fit in the analysis of variance and contrast "
+             "analysis", "Psychological Methods", "9", "2", "164\u2013182",
+             "10.1037/1082-989X.9.2.164"),
+    _article("welch1951", "Welch, B. L.", 1951, "On the comparison of several mean values: An "
+             "alternative approach", "Biometrika", "38", "3\u20134", "330\u2013336",
+             "10.1093/biomet/38.3-4.330"),
+    _article("zimmerman2004", "Zimmerman, D. W.", 2004, "A note on preliminary tests of "
+             "equality of variances", "British Journal of Mathematical and Statistical "
+             "Psychology", "57", "1", "173\u2013181", "10.1348/000711004849222"),
 )}
 
 METHODS: Mapping[str, Method] = {m.key: m for m in (
@@ -177,4 +204,4 @@ def methods_used(results: Mapping[str, Any]) -> tuple[Method, ...]:
 def references_for(methods: tuple[Method, ...]) -> tuple[Reference, ...]:
     """The references cited by `methods`, alphabetical as APA orders a reference list."""
     keys = {key for method in methods for key in method.references}
-    return tuple(sorted((REFERENCES[k] for k in keys), key=lambda r: r.text))
+    return tuple(sorted((REFERENCES[k] for k in keys), key=lambda r: (r.authors, r.year)))

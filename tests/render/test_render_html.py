@@ -197,6 +197,17 @@ def test_reference_list_is_alphabetical_with_dois(page):
                for r in refs)
 
 
+def test_references_are_set_in_apa_style(html):
+    assert ("Welch, B. L. (1951). On the comparison of several mean values: An alternative "
+            "approach. <i>Biometrika</i>, <i>38</i>(3\u20134), 330\u2013336. "
+            '<span class="doi">https://doi.org/10.1093/biomet/38.3-4.330</span>') in html
+    assert ("Cohen, J. (1988). <i>Statistical power analysis for the behavioral sciences</i> "
+            "(2nd ed.). Lawrence Erlbaum Associates.") in html
+    # a corporate author that publishes its own work is not named twice
+    assert ("American Psychological Association. (2020). <i>Publication manual of the American "
+            "Psychological Association</i> (7th ed.). <span") in html
+
+
 def test_paper_option_reaches_the_page_rule(plain_results, figures):
     html = render_html(plain_results, figures, RenderOptions(paper="Letter"))
     assert "@page { size: Letter; }" in html
