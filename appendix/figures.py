@@ -280,6 +280,12 @@ def _legend_outside(ax) -> None:
 
 def _level_axis(ax, levels: tuple[str, ...]) -> None:
     ax.set_xticks(range(len(levels)), labels=list(levels))
+    # many or long level names would overlap side by side
+    if len(levels) > 6 or max(len(level) for level in levels) > 14:
+        ax.tick_params(axis="x", labelrotation=30)
+        for label in ax.get_xticklabels():
+            label.set_horizontalalignment("right")
+            label.set_rotation_mode("anchor")
     ax.set_xlabel("Group")
 
 

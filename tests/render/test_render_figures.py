@@ -89,6 +89,19 @@ def test_huge_f_is_marked_off_scale(dataset, study_results):
     assert "Observed F = 5.73" in normal and "\u2192" not in normal
 
 
+def test_many_levels_get_slanted_labels_and_cycle_colours(dataset, study_results):
+    levels = tuple(f"dose {i}" for i in range(9))
+    data = dataset.outcomes[0]
+    many = dataclasses.replace(dataset, levels=levels, outcomes=(dataclasses.replace(
+        data, codes=frozen_array(np.arange(len(data.values)) % 9)),))
+    svg = make_figures(many, dataclasses.replace(
+        study_results, outcomes=(study_results.outcomes[1],)))["sbp_change-distribution"]
+    slanted = [t for t in ET.fromstring(svg.encode()).iter("{http://www.w3.org/2000/svg}text")
+               if t.text in levels and "rotate(-30" in t.get("transform", "")]
+    assert len(slanted) == 9
+    assert PALETTE[7].lower() in svg.lower()  # eight colours used, the ninth level cycles
+
+
 def test_each_level_keeps_its_colour(figures):
     for kind in ("distribution", "means", "qq", "residuals"):
         svg = figures[f"sbp_change-{kind}"].lower()

@@ -7,12 +7,15 @@ from __future__ import annotations
 
 import copy
 import json
+import random
 import re
 import subprocess
 import sys
 from pathlib import Path
 
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from render_helpers import parse, squash
 
 from appendix.figures import make_figures
@@ -230,3 +233,36 @@ def test_templates_are_found_and_weasyprint_is_not_imported(tmp_path: Path, plai
     done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
                           check=True, cwd=Path(__file__).resolve().parents[2])
     assert done.stdout.split() == ["False", "True"]
+
+
+def _floats_to_none(value, keep):
+    """`value` with every float replaced by None where `keep(path)` is false."""
+    def walk(item, path):
+        if isinstance(item, dict):
+            return {k: walk(v, f"{path}.{k}") for k, v in item.items()}
+        if isinstance(item, list):
+            return [walk(v, f"{path}[{i}]") for i, v in enumerate(item)]
+        if isinstance(item, float) and not keep(path):
+            return None
+        return item
+    return walk(value, "")
+
+
+def test_every_missing_statistic_renders_as_a_dash(plain_results):
+    empty = _floats_to_none(plain_results, keep=lambda path: path.endswith(
+        ("alpha", "confidence_level", "threshold")))
+    page = parse(render_html(empty, {}, RenderOptions()))
+    assert _cells(page, "between")[2:] == ["\u2014"] * 4
+    missing = [p for p in page.by_tag("p") if p.attrs.get("class") == "figure-missing"]
+    assert len(missing) == 10  # five kinds for two outcomes, none drawn
+    assert "\u2014" in squash(page.by_tag("body")[0].text)
+
+
+@settings(max_examples=25, derandomize=True, deadline=None)
+@given(st.integers(min_value=0, max_value=2**31 - 1))
+def test_any_pattern_of_missing_statistics_renders(plain_results, seed):
+    chooser = random.Random(seed)
+    partial = _floats_to_none(plain_results, keep=lambda path: path.endswith(
+        ("alpha", "confidence_level", "threshold")) or chooser.random() < 0.5)
+    page = parse(render_html(partial, {}, RenderOptions()))
+    assert set(SECTION_IDS) <= set(page.ids())
