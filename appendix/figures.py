@@ -174,7 +174,8 @@ def _means(panel: _Panel) -> Figure | None:
         if group.ci_low is not None and group.ci_high is not None:
             ax.errorbar([i], [group.mean],
                         yerr=[[group.mean - group.ci_low], [group.ci_high - group.mean]],
-                        fmt="none", ecolor=level_colour(i), elinewidth=1.4, capsize=5)
+                        fmt="none", color=level_colour(i), ecolor=level_colour(i),
+                        elinewidth=1.4, capsize=5)
         ax.plot([i], [group.mean], marker="o", markersize=6, color=level_colour(i),
                 markeredgecolor="#000000", markeredgewidth=0.6, linestyle="none")
     _level_axis(ax, panel.levels)

@@ -13,6 +13,7 @@ asked, so the same HTML gives byte-identical PDFs.
 from __future__ import annotations
 
 import importlib.resources
+import logging
 import re
 from collections.abc import Mapping
 from dataclasses import dataclass
@@ -186,6 +187,20 @@ def _offline_fetcher():
     return OfflineFetcher()
 
 
+_SVG_STYLE = re.compile(
+    r"^Ignored `(fill|stroke|clip|font|text|opacity|stop|marker|paint|mask|shape)[a-z-]*: "
+    r"[^`]*` at \d+:\d+, unknown property\.$")
+
+
+class _SvgStyleNotes(logging.Filter):
+    """Drops WeasyPrint's notes that inline SVG's own style properties (``fill``, ``stroke-*``)
+    are unknown to HTML CSS; its SVG renderer applies them, so they are false alarms and
+    would bury real warnings. Every other record passes."""
+
+    def filter(self, record: logging.LogRecord) -> bool:
+        return not _SVG_STYLE.match(record.getMessage())
+
+
 def render_pdf(html: str, out_path: Path, options: RenderOptions) -> None:
     """Typeset `html` as a PDF at `out_path` on the options' paper size."""
     # imported here: commands that write no PDF should not pay for loading WeasyPrint
@@ -193,5 +208,10 @@ def render_pdf(html: str, out_path: Path, options: RenderOptions) -> None:
 
     fetcher = _offline_fetcher()
     paper = CSS(string=f"@page {{ size: {options.paper}; }}", url_fetcher=fetcher)
-    document = HTML(string=html, url_fetcher=fetcher)
-    document.write_pdf(Path(out_path), stylesheets=[paper])
+    notes = _SvgStyleNotes()
+    logger = logging.getLogger("weasyprint")
+    logger.addFilter(notes)  # for this call only
+    try:
+        HTML(string=html, url_fetcher=fetcher).write_pdf(Path(out_path), stylesheets=[paper])
+    finally:
+        logger.removeFilter(notes)

@@ -52,10 +52,24 @@ def test_contents_carry_page_numbers(pdf_path):
     assert line.rstrip().endswith(str(methods_page))
 
 
-def test_same_html_gives_identical_pdf_bytes(html, pdf_path, tmp_path):
+def test_same_html_gives_identical_pdf_bytes_and_no_warnings(html, pdf_path, tmp_path, caplog):
     again = tmp_path / "again.pdf"
-    render_pdf(html, again, RenderOptions())
+    with caplog.at_level(logging.WARNING, logger="weasyprint"):
+        render_pdf(html, again, RenderOptions())
     assert again.read_bytes() == pdf_path.read_bytes()
+    assert [r.getMessage() for r in caplog.records if r.name.startswith("weasyprint")] == []
+
+
+def test_only_svg_style_notes_are_dropped(tmp_path, caplog):
+    html = ('<p style="frobnicate: 1">x</p>'
+            '<svg xmlns="http://www.w3.org/2000/svg" width="10" height="10">'
+            '<path d="M 0 0 L 5 5" style="fill: none; stroke-width: 0.8"/></svg>')
+    with caplog.at_level(logging.WARNING, logger="weasyprint"):
+        render_pdf(html, tmp_path / "notes.pdf", RenderOptions())
+    messages = [r.getMessage() for r in caplog.records]
+    assert any("frobnicate" in m for m in messages)
+    assert not any("fill" in m or "stroke" in m for m in messages)
+    assert not logging.getLogger("weasyprint").filters  # the filter lives for one call
 
 
 def test_letter_paper(tmp_path):
