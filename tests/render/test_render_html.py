@@ -102,6 +102,13 @@ def test_variance_table_cells_are_formatted_apa_style(page):
     cells = _cells(page, "between")
     assert cells == ["Between groups (Treatment arm)", "2", "240.2", "120.1", "5.73", ".010"]
     assert _cells(page, "within")[:4] == ["Within groups (residual)", "21", "440.2", "21.0"]
+    notes = [squash(p.text) for p in page.by_tag("p") if p.attrs.get("class") == "table-note"]
+    assert ("The F statistic is referred to the F distribution F(2, 21), right tail; its "
+            "critical value at \u03b1 = .05 is 3.47. R\u00b2 = .35; residual SD = 4.58 mmHg. "
+            "In text: F(2, 21) = 5.73, p = .010.") in notes[2]
+    assert notes[3].endswith("In text: Welch's F(2, 13.62) = 5.87, p = .015. "
+                             "Kruskal\u2013Wallis H(2, N = 24) = 8.04, p = .018.")
+    assert notes[4].startswith("Note. 95% confidence intervals, by inverting the noncentral F")
 
 
 def test_degenerate_f_is_an_explained_gap(page):
