@@ -273,3 +273,17 @@ def test_any_pattern_of_missing_statistics_renders(plain_results, seed):
         ("alpha", "confidence_level", "threshold")) or chooser.random() < 0.5)
     page = parse(render_html(partial, {}, RenderOptions()))
     assert set(SECTION_IDS) <= set(page.ids())
+
+
+def test_same_inputs_give_identical_html(plain_results, figures, html):
+    assert render_html(plain_results, figures, RenderOptions()) == html
+
+
+def test_installed_templates_win_over_the_repository(tmp_path, monkeypatch):
+    import appendix.render as render
+
+    (tmp_path / "templates").mkdir()
+    monkeypatch.setattr(render.importlib.resources, "files", lambda package: tmp_path)
+    assert render.template_root() == tmp_path / "templates"
+    (tmp_path / "templates").rmdir()
+    assert render.template_root() == Path(render.__file__).resolve().parents[1] / "templates"
