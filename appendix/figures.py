@@ -21,6 +21,7 @@ import re
 import textwrap
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass
+from types import MappingProxyType
 
 import matplotlib
 import numpy as np
@@ -50,7 +51,7 @@ _WIDTH_IN = 6.0
 _HEIGHT_IN = 2.9
 _JITTER_SEED = 20260214  # fixed: the same data always give the same picture
 
-_RC = {
+_RC = MappingProxyType({
     "svg.fonttype": "none",  # text stays text: light, searchable, same in both renderers
     "text.parse_math": False,  # labels come from the plan and data: "$" is a dollar sign
     "font.family": "sans-serif",
@@ -67,7 +68,7 @@ _RC = {
     "lines.linewidth": 1.1,
     "savefig.bbox": "standard",
     "svg.image_inline": True,
-}
+})
 
 
 def level_colour(index: int) -> str:
@@ -290,13 +291,13 @@ def _level_axis(ax, levels: tuple[str, ...]) -> None:
     ax.set_xlabel("Group")
 
 
-_DRAWERS: Mapping[str, Callable[[_Panel], Figure | None]] = {
+_DRAWERS: Mapping[str, Callable[[_Panel], Figure | None]] = MappingProxyType({
     "distribution": _distribution,
     "means": _means,
     "qq": _qq,
     "residuals": _versus_fitted,
     "f-reference": _f_reference,
-}
+})
 
 #: Figure kinds in the order the appendix shows them.
 FIGURE_KINDS: tuple[str, ...] = tuple(_DRAWERS)

@@ -12,6 +12,7 @@ from __future__ import annotations
 
 from collections.abc import Mapping
 from dataclasses import dataclass
+from types import MappingProxyType
 from typing import Any
 
 
@@ -59,7 +60,7 @@ class Method:
     references: tuple[str, ...]
 
 
-REFERENCES: Mapping[str, Reference] = {r.key: r for r in (
+REFERENCES: Mapping[str, Reference] = MappingProxyType({r.key: r for r in (
     _book("apa2020", "American Psychological Association", 2020, "Publication manual of the "
           "American Psychological Association", "American Psychological Association", "7th ed.",
           "10.1037/0000165-000"),
@@ -111,9 +112,9 @@ REFERENCES: Mapping[str, Reference] = {r.key: r for r in (
     _article("zimmerman2004", "Zimmerman, D. W.", 2004, "A note on preliminary tests of "
              "equality of variances", "British Journal of Mathematical and Statistical "
              "Psychology", "57", "1", "173\u2013181", "10.1348/000711004849222"),
-)}
+)})
 
-METHODS: Mapping[str, Method] = {m.key: m for m in (
+METHODS: Mapping[str, Method] = MappingProxyType({m.key: m for m in (
     Method("descriptives", "Descriptive statistics",
            "Per group: the number of units analysed and missing, the mean with its standard "
            "deviation (n \u2212 1 divisor), standard error and a confidence interval from "
@@ -179,7 +180,7 @@ METHODS: Mapping[str, Method] = {m.key: m for m in (
            "test statistic with its degrees of freedom, exact p to three decimals (\u201c< "
            ".001\u201d below that), and estimates with their confidence intervals in brackets.",
            ("apa2020",)),
-)}
+)})
 
 
 def _ran(outcomes: list[dict[str, Any]], test) -> bool:
