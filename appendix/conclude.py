@@ -48,6 +48,14 @@ def eta_clause(effects: tuple[EffectSize, ...]) -> str:
     return f", \u03b7\u00b2 = {fmt.proportion(eta.estimate)}{ci}"
 
 
+def _compatible(effects: tuple[EffectSize, ...]) -> str:
+    eta = next((e for e in effects if e.measure == "eta_squared"), None)
+    if eta is None or eta.ci_high is None:
+        return "the data cannot rule out differences of a size that would matter."
+    return (f"an effect as large as \u03b7\u00b2 = {fmt.proportion(eta.ci_high)}, the upper "
+            "confidence limit, remains compatible with the data.")
+
+
 def conclusion(plan: Plan, outcome: Outcome, table: OneWayTable,
                effects: tuple[EffectSize, ...]) -> Conclusion:
     """The registered hypothesis of one outcome (equal means across the factor's
@@ -73,8 +81,7 @@ def conclusion(plan: Plan, outcome: Outcome, table: OneWayTable,
         sentence = (
             f"{what[0].upper()}{what[1:]} did not differ detectably {across}, {stats}; the "
             f"hypothesis of equal means is not rejected at {_alpha(alpha)}. This is not "
-            "evidence that the means are equal: differences as large as the upper "
-            "confidence limit remain compatible with the data."
+            f"evidence that the means are equal: {_compatible(effects)}"
         )
         decision = "retain"
     return Conclusion(sentence=sentence, decision=decision, p=table.p, alpha=alpha)

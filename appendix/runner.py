@@ -56,7 +56,7 @@ def analyse_outcome(plan: Plan, outcome: Outcome, data: OutcomeData,
     """Every registered one-way analysis of one outcome."""
     levels = plan.factor.levels
     k = len(levels)
-    cells = cell_stats(data.values, data.codes, k)
+    cells = cell_stats(data.values, data.codes, k, levels)
     missing_by_level = [count.n for count in missing]
     descriptives = describe(data.values, data.codes, levels, missing_by_level,
                             DESCRIPTIVE_CONFIDENCE)

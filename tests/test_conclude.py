@@ -1,0 +1,83 @@
+"""Conclusion sentences: the decision at alpha, worded as reviewers require."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import pytest
+
+from appendix.conclude import assumption_statuses, conclusion
+from appendix.plan.load import load_plan
+from appendix.results import EffectSize, OneWayTable, StatWarning, VarianceRow, VarianceTest
+
+DEMO = Path(__file__).resolve().parent.parent / "studies" / "seed-coating" / "study.yaml"
+
+
+@pytest.fixture(scope="module")
+def plan():
+    return load_plan(DEMO).plan
+
+
+def table(f, p, warnings=()):
+    rows = (VarianceRow("between", 3, 30.0, 10.0, f, p),)
+    return OneWayTable(rows=rows, df_between=3, df_within=39, f=f, p=p, alpha=0.05,
+                       critical_f=2.85, r_squared=None, residual_sd=None, warnings=warnings)
+
+
+def eta(estimate, low, high):
+    return (EffectSize("eta_squared", estimate, low, high, 0.9),)
+
+
+def test_rejected_hypothesis_says_so_and_warns_that_significance_is_not_importance(plan):
+    outcome = plan.outcomes[0]
+    result = conclusion(plan, outcome, table(7.8856, 0.000313), eta(0.3776, 0.1419, 0.4988))
+    assert result.decision == "reject"
+    assert result.sentence == (
+        "Mean shoot dry mass at day 21 differed across the 4 levels of seed coating, "
+        "F(3, 39) = 7.89, p < .001, \u03b7\u00b2 = .38 (90% CI [.14, .50]); the hypothesis of "
+        "equal means is rejected at \u03b1 = .05. A significant F shows that the means are "
+        "not all equal, not which levels differ nor whether the differences matter in "
+        "practice.")
+
+
+def test_retained_hypothesis_is_not_called_evidence_of_equality(plan):
+    outcome = plan.outcomes[1]
+    result = conclusion(plan, outcome, table(0.2329, 0.8729), eta(0.0172, 0.0, 0.0470))
+    assert result.decision == "retain"
+    assert result.sentence.endswith(
+        "the hypothesis of equal means is not rejected at \u03b1 = .05. This is not evidence "
+        "that the means are equal: an effect as large as \u03b7\u00b2 = .05, the upper "
+        "confidence limit, remains compatible with the data.")
+    assert "p = .873" in result.sentence
+
+
+def test_p_exactly_alpha_is_not_a_rejection(plan):
+    # The F test rejects when p < alpha (common practice, no source).
+    result = conclusion(plan, plan.outcomes[0], table(2.85, 0.05), eta(0.18, 0.0, 0.3))
+    assert result.decision == "retain"
+
+
+def test_unavailable_test_explains_why(plan):
+    warning = StatWarning("single-group", "Only one group has data; there is nothing to compare.")
+    result = conclusion(plan, plan.outcomes[0], table(None, None, (warning,)), ())
+    assert result.decision == "unavailable" and result.p is None
+    assert result.sentence == ("The F test for shoot dry mass at day 21 could not be computed. "
+                               "Only one group has data; there is nothing to compare.")
+
+
+def test_assumptions_name_how_each_is_supported(plan):
+    tests = [VarianceTest("brown-forsythe", 0.48, 3.0, 39.0, 0.697),
+             VarianceTest("bartlett", 2.46, 3.0, None, 0.482)]
+    statuses = assumption_statuses(plan, None, tests)
+    basis = {s.assumption: s.basis for s in statuses}
+    assert basis == {
+        "independent observations": "attested",
+        "random allocation of units to groups": "attested",
+        "a categorical factor with fixed levels": "by-construction",
+        "a numeric response": "by-construction",
+        "normally distributed residuals": "not-checked",
+        "equal variances across groups": "checked",
+    }
+    spread = statuses[-1].detail
+    assert spread.startswith("Brown-Forsythe: F(3, 39) = 0.48, p = .697; "
+                             "Bartlett: \u03c7\u00b2(3) = 2.46, p = .482")
