@@ -1,0 +1,47 @@
+"""The Python API is the CLI's code path: same results, same files."""
+
+from __future__ import annotations
+
+import dataclasses
+from pathlib import Path
+
+import pytest
+
+from appendix import api
+from appendix.errors import PlanError
+from appendix.results import to_json
+
+
+def test_compute_gives_frozen_typed_results(demo_study: Path):
+    computed = api.compute(demo_study)
+    first = computed.results.outcomes[0]
+    assert (first.name, first.role) == ("dry_mass", "primary")
+    with pytest.raises(dataclasses.FrozenInstanceError):
+        first.table.f = 0.0  # type: ignore[misc]
+    # scipy.stats.f_oneway (scipy 1.17.1) on the same analysed units is the reference
+    from scipy.stats import f_oneway
+
+    data = computed.dataset.outcome("dry_mass")
+    groups = [data.values[data.codes == i] for i in range(4)]
+    reference = f_oneway(*groups)
+    assert first.table.f == pytest.approx(reference.statistic, rel=1e-12)
+    assert first.table.p == pytest.approx(reference.pvalue, rel=1e-9)
+
+
+def test_render_then_run_write_the_same_results(demo_study: Path, tmp_path: Path):
+    computed = api.compute(demo_study)
+    rendered = api.render(computed)
+    assert rendered.results_json == to_json(computed.results)
+    assert rendered.html.startswith("<!DOCTYPE html>")
+    record = api.run(demo_study, tmp_path / "run", pdf=False)
+    assert (tmp_path / "run" / "results.json").read_text(encoding="utf-8") == rendered.results_json
+    assert "appendix.pdf" not in record.files and "results.json" in record.files
+
+
+def test_load_plan_raises_plan_error_with_every_problem(tmp_path: Path):
+    bad = tmp_path / "study.yaml"
+    bad.write_text("format: 2\nalpha: 0.7\n", encoding="utf-8")
+    with pytest.raises(PlanError) as caught:
+        api.load_plan(bad)
+    paths = [problem.path for problem in caught.value.problems]
+    assert {"format", "alpha", "study", "data", "design", "outcomes"} <= set(paths)
