@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import math
+import warnings as _warnings
 
 from scipy import optimize as _opt
 from scipy import stats as _st
@@ -11,7 +12,10 @@ from appendix.errors import InternalError
 from appendix.results import EffectSize, OneWayTable, StatWarning
 from appendix.stats.descriptives import check_confidence
 
-_MAX_DOUBLINGS = 60
+# Beyond this noncentrality scipy's noncentral F (Boost series) slows down and then stops
+# converging (F ~ 1e18); such F are far outside any real trial, so the interval is then
+# reported as unavailable rather than computed unreliably.
+_MAX_LAMBDA = 1e10
 
 
 def _tail_above(f: float, df1: int, df2: int, lam: float) -> float:
@@ -21,8 +25,14 @@ def _tail_above(f: float, df1: int, df2: int, lam: float) -> float:
     return float(_st.ncf.sf(f, df1, df2, lam))
 
 
+class _OutOfRange(Exception):
+    """The noncentrality bound lies beyond what can be computed reliably."""
+
+
 def _solve(f: float, df1: int, df2: int, target: float) -> float:
     """The lambda >= 0 at which P(F' > f | lambda) = target; 0 if already above at 0.
+
+    Raises _OutOfRange when the root lies beyond `_MAX_LAMBDA`.
 
     P(F' > f | lambda) increases with lambda, so the root is bracketed by doubling an
     upper end until the tail probability passes the target, then found by Brent's method.
@@ -30,22 +40,22 @@ def _solve(f: float, df1: int, df2: int, target: float) -> float:
     if _tail_above(f, df1, df2, 0.0) >= target:
         return 0.0
     high = max(1.0, f * df1)
-    for _ in range(_MAX_DOUBLINGS):
-        if _tail_above(f, df1, df2, high) > target:
-            break
+    while high <= _MAX_LAMBDA and _tail_above(f, df1, df2, high) <= target:
         high *= 2.0
-    else:
-        raise InternalError(f"noncentrality bracket not found for F={f}, df=({df1}, {df2})")
+    if high > _MAX_LAMBDA:
+        raise _OutOfRange
     return float(_opt.brentq(lambda lam: _tail_above(f, df1, df2, lam) - target, 0.0, high,
                              xtol=1e-12, rtol=1e-13, maxiter=500))
 
 
-def noncentrality_interval(f: float, df1: int, df2: int, confidence: float) -> tuple[float, float]:
+def noncentrality_interval(f: float, df1: int, df2: int,
+                           confidence: float) -> tuple[float, float] | None:
     """Two-sided CI for the noncentrality lambda of F(df1, df2, lambda), by inversion.
 
     The lower end solves P(F' > f_obs | lambda) = (1 - confidence) / 2 and the upper end
     P(F' > f_obs | lambda) = (1 + confidence) / 2; an end is 0 when no positive lambda
-    reaches it (Steiger 2004, Psychological Methods 9:164-182, section 3).
+    reaches it (Steiger 2004, Psychological Methods 9:164-182, section 3). None when a
+    bound would exceed lambda = 1e10 or scipy's series fails to converge.
 
     >>> [round(x, 3) for x in noncentrality_interval(5.0, 3, 76, 0.95)]
     [1.867, 32.563]
@@ -54,7 +64,14 @@ def noncentrality_interval(f: float, df1: int, df2: int, confidence: float) -> t
     if not (f >= 0.0 and df1 > 0 and df2 > 0):
         raise InternalError(f"need F >= 0 and positive df, got F={f}, df=({df1}, {df2})")
     tail = (1.0 - confidence) / 2.0
-    return _solve(f, df1, df2, tail), _solve(f, df1, df2, 1.0 - tail)
+    with _warnings.catch_warnings():
+        # A non-converging series is reported by scipy as a RuntimeWarning; here it means
+        # "no reliable bound", which the caller turns into a typed warning.
+        _warnings.simplefilter("error", RuntimeWarning)
+        try:
+            return _solve(f, df1, df2, tail), _solve(f, df1, df2, 1.0 - tail)
+        except (_OutOfRange, RuntimeWarning, ValueError):  # ValueError: NaN from the series
+            return None
 
 
 def effect_sizes(table: OneWayTable, confidence: float) -> tuple[EffectSize, ...]:
@@ -85,7 +102,17 @@ def effect_sizes(table: OneWayTable, confidence: float) -> tuple[EffectSize, ...
     eta2 = between.sum_of_squares / total.sum_of_squares
     omega2 = (between.sum_of_squares - table.df_between * ms_within) / (total.sum_of_squares + ms_within)
     cohens_f = math.sqrt(eta2 / (1.0 - eta2)) if eta2 < 1.0 else math.inf
-    lam_low, lam_high = noncentrality_interval(table.f, table.df_between, table.df_within, confidence)
+    interval = noncentrality_interval(table.f, table.df_between, table.df_within, confidence)
+    if interval is None:
+        note = (StatWarning("effect-size-ci-unavailable",
+                            f"F = {table.f:.4g} is too large for the noncentral-F interval to be "
+                            "computed reliably; the interval is not reported."),)
+        return (
+            EffectSize("eta_squared", eta2, None, None, confidence, note),
+            EffectSize("omega_squared", omega2, None, None, confidence, note),
+            EffectSize("cohens_f", cohens_f, None, None, confidence, note),
+        )
+    lam_low, lam_high = interval
     share_low, share_high = lam_low / (lam_low + n_total), lam_high / (lam_high + n_total)
     f_low, f_high = math.sqrt(lam_low / n_total), math.sqrt(lam_high / n_total)
     return (

@@ -167,7 +167,9 @@ def test_no_exception_and_every_gap_is_explained(sizes, pool, seed) -> None:
         else:
             assert np.isfinite(getattr(r[key], statistic)) and 0.0 <= r[key].p <= 1.0, key
     for effect in r["effects"]:
-        if effect.estimate is not None:
+        if effect.ci_low is None:
+            assert effect.warnings
+        else:
             assert 0.0 <= effect.ci_low <= effect.ci_high
 
 

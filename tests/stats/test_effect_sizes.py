@@ -44,3 +44,18 @@ def test_ninety_percent_interval_excludes_zero_iff_the_test_rejects_at_five_perc
         eta = effect_sizes(table, 0.90)[0]
         assert (eta.ci_low > 0) == (table.p < 0.05)
         assert eta.ci_low <= eta.ci_high
+
+
+@pytest.mark.filterwarnings("error")
+def test_enormous_f_gives_no_interval_but_keeps_the_estimates() -> None:
+    # Invented data: two tight clusters 1e9 apart, F ~ 1e20, far beyond lambda = 1e10
+    # where scipy's noncentral F series stops converging.
+    values = np.array([0.0, 0.001, 0.002, 1e9, 1e9 + 0.001, 1e9 + 0.002])
+    table = variance_table(cell_stats(values, np.repeat([0, 1], 3), 2), 0.05)
+    assert table.f > 1e18
+    assert noncentrality_interval(table.f, 1, 4, 0.90) is None
+    eta, omega, cohen = effect_sizes(table, 0.90)
+    assert eta.estimate == pytest.approx(1.0, abs=1e-15) and cohen.estimate > 1e9
+    for effect in (eta, omega, cohen):
+        assert effect.ci_low is None and effect.ci_high is None
+        assert [w.code for w in effect.warnings] == ["effect-size-ci-unavailable"]
