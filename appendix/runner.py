@@ -20,6 +20,7 @@ from appendix.results import (
     StudyResults,
 )
 from appendix.stats.cells import cell_stats
+from appendix.stats.cells import residuals as stats_residuals
 from appendix.stats.descriptives import describe
 from appendix.stats.diagnostics import bartlett, brown_forsythe, outlier_screen, shapiro_wilk
 from appendix.stats.effect_sizes import effect_sizes
@@ -37,12 +38,12 @@ def effect_size_confidence(alpha: float) -> float:
 
 def _diagnostics(plan: Plan, data: OutcomeData, cells, levels) -> Diagnostics:
     settings = plan.assumptions
-    residuals = data.values - cells.mean[data.codes]
+    residuals = stats_residuals(data.values, data.codes, cells)
     normality = shapiro_wilk(residuals) if settings.normality == "shapiro-wilk" else None
     tests = []
     for method in settings.equal_variance:
         if method == "brown-forsythe":
-            tests.append(brown_forsythe(data.values, data.codes, len(levels)))
+            tests.append(brown_forsythe(data.values, data.codes, len(levels), levels))
         else:
             tests.append(bartlett(cells))
     outliers = outlier_screen(data.values, data.codes, cells, data.units, levels,
@@ -62,7 +63,7 @@ def analyse_outcome(plan: Plan, outcome: Outcome, data: OutcomeData,
                             DESCRIPTIVE_CONFIDENCE)
     table = variance_table(cells, plan.alpha)
     welch = welch_anova(cells)
-    kruskal = kruskal_wallis(data.values, data.codes, k)
+    kruskal = kruskal_wallis(data.values, data.codes, k, levels)
     effects = effect_sizes(table, effect_size_confidence(plan.alpha))
     diagnostics = _diagnostics(plan, data, cells, levels)
     sentence = conclude.conclusion(plan, outcome, table, effects)
