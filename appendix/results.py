@@ -219,6 +219,78 @@ class Conclusion:
 
 
 @dataclass(frozen=True)
+class HypothesisResult:
+    """One planned (or exploratory) contrast hypothesis: H0 says sum(weights * means) = 0.
+
+    `method` says how estimate, SE and df were computed: ``classical`` (pooled within-group
+    variance, df N - k), ``welch`` (per-group variances, Welch-Satterthwaite df) or
+    ``rank-based`` (Dunn 1964 z on mean ranks; the estimate is in mean-rank units).
+    `p` is the raw p for the `alternative`; `p_adjusted` the p under the registered
+    multiplicity control (None when not tested). `ci_simultaneous` is True when the interval
+    holds jointly for the family (Tukey-Kramer, Games-Howell, Dunnett, Bonferroni, Sidak).
+    For one-sided alternatives the open end of the interval is None. `standardized` is the
+    estimate over the pooled SD with Hedges' (1981) small-sample correction
+    J = 1 - 3 / (4 df - 1). `decision` is ``reject``, ``retain``, ``not-tested`` (a
+    fixed-sequence stop came first) or ``unavailable``.
+    """
+
+    id: str
+    contrast: str
+    kind: str
+    label: str
+    weights: tuple[float, ...]
+    alternative: str
+    method: str
+    estimate: float | None
+    se: float | None
+    statistic: float | None
+    statistic_name: str
+    df: float | None
+    p: float | None
+    p_adjusted: float | None
+    ci_low: float | None
+    ci_high: float | None
+    confidence_level: float
+    ci_simultaneous: bool
+    standardized: float | None
+    decision: str
+    warnings: Warnings = ()
+
+
+@dataclass(frozen=True)
+class ContrastFamily:
+    """The hypotheses of one outcome tested together under one multiplicity control.
+
+    `scope` is ``per-outcome``, ``primary-family`` (adjusted across every primary outcome's
+    hypotheses) or ``exploratory`` (never adjusted with the registered family).
+    `registered` is True for the family whose `method` the plan (or a registered
+    fallback) selected; other families are shown for comparison.
+    """
+
+    outcome: str
+    scope: str
+    multiplicity: str
+    method: str
+    alpha: float
+    registered: bool
+    hypotheses: tuple[HypothesisResult, ...]
+    warnings: Warnings = ()
+
+
+@dataclass(frozen=True)
+class Contingency:
+    """A registered fallback rule and whether it fired on this outcome's data."""
+
+    rule: str
+    when: str
+    test: str
+    p: float | None
+    threshold: float
+    fired: bool
+    use: str
+
+
+@dataclass(frozen=True)
 class OutcomeResult:
     name: str
     label: str
@@ -232,6 +304,10 @@ class OutcomeResult:
     effect_sizes: tuple[EffectSize, ...]
     diagnostics: Diagnostics
     conclusion: Conclusion
+    selected_method: str = "classical"
+    contrasts: tuple[ContrastFamily, ...] = ()
+    contingencies: tuple[Contingency, ...] = ()
+    hypothesis_conclusions: tuple[Conclusion, ...] = ()
     warnings: Warnings = ()
 
 
@@ -295,6 +371,31 @@ class Finding:
 
 
 @dataclass(frozen=True)
+class ExploratoryAnalysis:
+    """An analysis not in the registered plan, reported apart with the stated reason."""
+
+    id: str
+    label: str
+    reason: str
+    families: tuple[ContrastFamily, ...]
+
+
+@dataclass(frozen=True)
+class Deviation:
+    """A departure from the registered plan, or a registered contingency that was applied.
+
+    `kind` is a stable identifier (``registered-contingency``, ...); `acknowledged` says
+    whether the plan itself provides for it or justifies it.
+    """
+
+    kind: str
+    subject: str
+    message: str
+    acknowledged: bool
+    justification: str | None = None
+
+
+@dataclass(frozen=True)
 class StudyInfo:
     id: str
     title: str
@@ -330,6 +431,10 @@ class StudyResults:
     outcomes: tuple[OutcomeResult, ...]
     findings: tuple[Finding, ...]
     software: tuple[Software, ...]
+    exploratory: tuple[ExploratoryAnalysis, ...] = ()
+    deviations: tuple[Deviation, ...] = ()
+    multiplicity: str | None = None
+    multiplicity_scope: str | None = None
     format_version: int = field(default=FORMAT_VERSION)
 
 
