@@ -9,13 +9,13 @@ from __future__ import annotations
 
 from collections.abc import Iterator, Mapping
 
-from appendix.plan.scalars import scalar_text
+from appendix.plan.contrast_checks import contrast_problems
+from appendix.plan.raw import Found, items as _items, mapping as _mapping, repeats
+from appendix.plan.raw import text as _text, texts, unique
 from appendix.plan.wording import Loc, did_you_mean, one_of, show
 
 #: Data file formats format 1 reads, by file name ending.
 DATA_FORMATS: tuple[str, ...] = (".csv", ".tsv", ".parquet", ".xlsx", ".xpt", ".dta")
-
-Found = tuple[Loc, str]
 
 
 def consistency_problems(raw: object) -> list[Found]:
@@ -28,30 +28,11 @@ def consistency_problems(raw: object) -> list[Found]:
     factors = _items(_mapping(raw.get("design")).get("factors"))
     for i, factor in factors:
         found += _factor_levels(("design", "factors", i), factor)
-    found += _unique(("outcomes",), "name", raw.get("outcomes"), "outcome names")
-    found += _unique(("data", "exclusions"), "id", data.get("exclusions"), "exclusion ids")
+    found += unique([(("outcomes",), raw.get("outcomes"))], "name", "outcome names")
+    found += unique([(("data", "exclusions"), data.get("exclusions"))], "id", "exclusion ids")
     found += _column_roles(raw, data, factors)
+    found += contrast_problems(raw)
     return found
-
-
-def _mapping(value: object) -> Mapping:
-    return value if isinstance(value, Mapping) else {}
-
-
-def _items(value: object) -> list[tuple[int, Mapping]]:
-    if not isinstance(value, (list, tuple)):
-        return []
-    return [(i, item) for i, item in enumerate(value) if isinstance(item, Mapping)]
-
-
-def _text(value: object) -> str | None:
-    # Numbers count as their canonical text, as the model reads them; other types are
-    # field errors reported elsewhere.
-    if isinstance(value, str):
-        return value
-    if isinstance(value, (int, float)) and not isinstance(value, bool):
-        return scalar_text(value)
-    return None
 
 
 def _source_format(data: Mapping) -> list[Found]:
@@ -72,40 +53,13 @@ def _factor_levels(loc: Loc, factor: Mapping) -> list[Found]:
     levels = factor.get("levels")
     if not isinstance(levels, (list, tuple)):
         return []
-    texts = [_text(level) for level in levels]
-    found: list[Found] = []
-    first: dict[str, int] = {}
-    for j, text in enumerate(texts):
-        if text is None:
-            continue
-        if text in first:
-            found.append(((*loc, "levels", j),
-                          f"got {show(text)} again; each level must be named once "
-                          f"(first at levels[{first[text]}])"))
-        else:
-            first[text] = j
+    found = repeats((*loc, "levels"), levels, "each level must be named once")
+    names = list(dict.fromkeys(texts(levels)))
     control = _text(factor.get("control"))
-    if control is not None and first and control not in first:
-        names = list(first)
+    if control is not None and names and control not in names:
         found.append(((*loc, "control"),
                       f"got {show(control)}; allowed: one of the levels {one_of(names)}"
                       f"{did_you_mean(control, names)}"))
-    return found
-
-
-def _unique(loc: Loc, key: str, items: object, what: str) -> list[Found]:
-    found: list[Found] = []
-    first: dict[str, int] = {}
-    for i, item in _items(items):
-        value = item.get(key)
-        if not isinstance(value, str):
-            continue
-        if value in first:
-            found.append(((*loc, i, key),
-                          f"got {show(value)} again; {what} must be unique "
-                          f"(first at {loc[-1]}[{first[value]}])"))
-        else:
-            first[value] = i
     return found
 
 

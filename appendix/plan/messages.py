@@ -22,6 +22,8 @@ _PATTERNS = {
         "1 to 80 letters, digits, '.', '_' or '-', starting with a letter or digit",
     r"^[A-Za-z][A-Za-z0-9_]{0,62}$":
         "1 to 63 letters, digits or '_', starting with a letter",
+    r"^[A-Za-z][A-Za-z0-9_.-]{0,31}$":
+        "1 to 32 letters, digits, '.', '_' or '-', starting with a letter",
 }
 
 _TEXT = ("string_type",)

@@ -5,7 +5,9 @@ JSON Schema (`schema/study.schema.json`) and the frozen plan that the pipeline p
 are all derived from them. Unknown keys are errors (``extra="forbid"``).
 
 Format 1 holds one treatment factor; the lists (`design.factors`, `outcomes`) leave
-room for the factorial, blocked and covariate designs and contrasts of later formats.
+room for the factorial, blocked and covariate designs of later formats. Planned
+contrasts, their multiplicity control, registered fallbacks and exploratory analyses
+are optional keys of format 1.
 """
 
 from __future__ import annotations
@@ -14,10 +16,12 @@ import datetime as _dt
 from typing import Annotated, Literal
 
 from pydantic import (
+    AllowInfNan,
     BaseModel,
     BeforeValidator,
     ConfigDict,
     Field,
+    Strict,
     StringConstraints,
     WithJsonSchema,
     model_validator,
@@ -57,6 +61,13 @@ ValueText = Annotated[
     BeforeValidator(_scalars_as_text),
     WithJsonSchema({"type": ["string", "number", "boolean"]}),
 ]
+
+
+#: A finite number written as a number (not text, not true/false).
+Number = Annotated[float, Strict(), AllowInfNan(False)]
+
+#: Identifier of a contrast or exploratory analysis; hypothesis ids extend it with ':'.
+ContrastId = Annotated[str, StringConstraints(pattern=r"^[A-Za-z][A-Za-z0-9_.-]{0,31}$")]
 
 
 def _only_whole_numbers(value: object) -> object:
@@ -177,8 +188,24 @@ class Attested(_Frozen):
     )
 
 
+class Fallback(_Frozen):
+    """A registered contingency: when `test` gives p < `threshold`, the analysis `use` is in force.
+
+    Rules are evaluated in plan order per outcome; the first that fires wins.
+    """
+
+    when: Literal["unequal-variance", "non-normal"] = Field(
+        description="The assumption in doubt: unequal-variance or non-normal.")
+    test: Literal["brown-forsythe", "bartlett", "shapiro-wilk"] = Field(
+        description="The registered diagnostic that decides (unequal-variance: brown-forsythe "
+                    "or bartlett; non-normal: shapiro-wilk).")
+    threshold: float = Field(default=0.05, gt=0, lt=1, strict=True,
+                             description="The rule fires when the test's p is below this.")
+    use: Literal["welch", "rank-based"] = Field(description="The analysis used when it fires.")
+
+
 class Assumptions(_Frozen):
-    """Which diagnostics to compute (they are always shown, never used to switch tests here)."""
+    """Which diagnostics to compute (always shown), and the registered fallbacks, if any."""
 
     normality: Literal["shapiro-wilk", "none"] = "shapiro-wilk"
     equal_variance: tuple[Literal["brown-forsythe", "bartlett"], ...] = (
@@ -187,6 +214,87 @@ class Assumptions(_Frozen):
     )
     outliers: Outliers = Outliers()
     attested: Attested = Attested()
+    fallbacks: tuple[Fallback, ...] = Field(
+        default=(), description="Registered contingencies, evaluated in order; the first that fires wins.")
+
+
+class Analysis(_Frozen):
+    """The registered primary analysis of every outcome."""
+
+    method: Literal["classical", "welch", "rank-based"] = Field(
+        default="classical",
+        description="classical (F test, pooled variance), welch (Welch's ANOVA, Welch-Satterthwaite "
+                    "contrasts, Games-Howell pairs) or rank-based (Kruskal-Wallis, Dunn contrasts).")
+
+
+ContrastKind = Literal["custom", "pairwise", "versus-control", "trend", "helmert"]
+
+
+class Contrast(_Frozen):
+    """A registered contrast: one or more hypotheses over the levels of the factor.
+
+    `weights` belong to kind custom only, `degree` and `spacing` to kind trend only (the
+    cross-field checks say so); every other key applies to each kind.
+    """
+
+    id: ContrastId = Field(description="Unique across contrasts and exploratory analyses.")
+    kind: ContrastKind = Field(
+        description="custom, pairwise, versus-control, trend or helmert.")
+    label: str = Field(min_length=1, description="The contrast in prose.")
+    weights: dict[LevelText, Number] | None = Field(
+        default=None,
+        description="custom only: a weight per level name (missing levels weigh 0); sum 0.")
+    alternative: Literal["two-sided", "greater", "less"] = Field(
+        default="two-sided", description="greater: H1 says the estimate is above 0.")
+    justification: str | None = Field(
+        default=None, min_length=1, description="Why a one-sided test; required when one-sided.")
+    outcomes: tuple[str, ...] | None = Field(
+        default=None, min_length=1, description="Outcome names it applies to (default: all).")
+    factor: str | None = Field(default=None, description="The factor's name (optional).")
+    degree: int | None = Field(
+        default=None, ge=1, strict=True,
+        description="trend only: highest polynomial degree, 1 to k - 1 (default 1).")
+    spacing: tuple[Number, ...] | None = Field(
+        default=None,
+        description="trend only: a strictly increasing number per level (default equal).")
+
+    @property
+    def trend_degree(self) -> int:
+        """The degree a trend is fitted to: `degree`, or 1 when not given."""
+        return 1 if self.degree is None else self.degree
+
+    def applies_to(self, outcome: str) -> bool:
+        return self.outcomes is None or outcome in self.outcomes
+
+    def hypothesis_count(self, k: int) -> int:
+        """How many hypotheses the contrast expands into over `k` levels.
+
+        >>> Contrast(id="C", kind="pairwise", label="all pairs").hypothesis_count(4)
+        6
+        """
+        counts = {"custom": 1, "pairwise": k * (k - 1) // 2, "versus-control": k - 1,
+                  "trend": self.trend_degree, "helmert": k - 1}
+        return counts[self.kind]
+
+
+class ExploratoryContrast(Contrast):
+    """An analysis not in the registered plan: a contrast with the reason it is run."""
+
+    reason: str = Field(min_length=1, description="Why it is run although not pre-registered.")
+
+
+class Multiplicity(_Frozen):
+    """How the registered hypotheses of a family are adjusted together."""
+
+    method: Literal["none", "bonferroni", "holm", "hochberg", "sidak", "benjamini-hochberg",
+                    "tukey", "dunnett", "fixed-sequence"] = Field(
+        default="holm", description="The adjustment (benjamini-hochberg controls the FDR, not the FWER).")
+    scope: Literal["per-outcome", "primary-family"] = Field(
+        default="per-outcome",
+        description="per-outcome, or primary-family: one family over every primary outcome.")
+    order: tuple[ContrastId, ...] | None = Field(
+        default=None, min_length=1,
+        description="fixed-sequence only: every contrast id exactly once, in testing order.")
 
 
 class Plan(_Frozen):
@@ -198,7 +306,14 @@ class Plan(_Frozen):
     alpha: float = Field(default=0.05, gt=0, lt=0.5, strict=True, description="Significance level.")
     design: Design = Field(description="The treatment factor and its levels.")
     outcomes: tuple[Outcome, ...] = Field(min_length=1, description="The registered outcomes.")
-    assumptions: Assumptions = Field(default=Assumptions(), description="Diagnostics to compute.")
+    assumptions: Assumptions = Field(default=Assumptions(),
+                                     description="Diagnostics to compute and registered fallbacks.")
+    analysis: Analysis = Field(default=Analysis(), description="The registered primary analysis.")
+    contrasts: tuple[Contrast, ...] = Field(default=(), description="The registered contrasts.")
+    multiplicity: Multiplicity = Field(default=Multiplicity(),
+                                       description="Multiplicity control of the registered contrasts.")
+    exploratory: tuple[ExploratoryContrast, ...] = Field(
+        default=(), description="Analyses not in the plan: reported apart, never in conclusions.")
 
     @model_validator(mode="after")
     def _consistent(self) -> Plan:
@@ -214,3 +329,11 @@ class Plan(_Frozen):
     def factor(self) -> Factor:
         """The single treatment factor of a format-1 plan."""
         return self.design.factors[0]
+
+    def contrasts_for(self, outcome: str) -> tuple[Contrast, ...]:
+        """The registered contrasts that apply to the outcome named `outcome`, in plan order."""
+        return tuple(c for c in self.contrasts if c.applies_to(outcome))
+
+    def exploratory_for(self, outcome: str) -> tuple[ExploratoryContrast, ...]:
+        """The exploratory analyses that apply to the outcome named `outcome`, in plan order."""
+        return tuple(c for c in self.exploratory if c.applies_to(outcome))

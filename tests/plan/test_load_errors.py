@@ -8,7 +8,8 @@ from appendix.errors import PlanError
 from appendix.plan.load import MAX_BYTES, load_plan
 from tests.plan.plans import BASE, variant
 
-TOP_KEYS = "'format', 'study', 'data', 'alpha', 'design', 'outcomes' or 'assumptions'"
+TOP_KEYS = ("'format', 'study', 'data', 'alpha', 'design', 'outcomes', 'assumptions', "
+            "'analysis', 'contrasts', 'multiplicity' or 'exploratory'")
 
 # (case id, study file text, expected problem lines as "line: path: message").
 CASES = [

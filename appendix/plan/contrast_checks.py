@@ -1,0 +1,268 @@
+"""Cross-field checks of contrasts, exploratory analyses, multiplicity and fallbacks.
+
+Run on the raw parsed study file (see `checks`): keys whose values have the wrong shape
+are skipped here because field validation reports them. Defaults are those of the model,
+so that a dumped plan and the file it came from give the same problems.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping
+from dataclasses import dataclass
+
+from appendix.plan.raw import Found, items, mapping, number, repeats, text, texts, unique
+from appendix.plan.wording import Loc, did_you_mean, one_of, show
+
+KINDS = ("custom", "pairwise", "versus-control", "trend", "helmert")
+
+#: Keys that belong to some kinds only.
+_KIND_KEYS = {"weights": ("custom",), "degree": ("trend",), "spacing": ("trend",)}
+
+#: Multiplicity methods that need every hypothesis of a family to come from one contrast kind.
+_SINGLE_KIND = {"tukey": "pairwise", "dunnett": "versus-control"}
+
+#: The diagnostics that may decide each fallback, and where the plan registers them.
+_FALLBACK_TESTS = {"unequal-variance": ("brown-forsythe", "bartlett"), "non-normal": ("shapiro-wilk",)}
+_ASSUMPTION_DEFAULTS = {"equal_variance": ["brown-forsythe", "bartlett"], "normality": "shapiro-wilk"}
+_REGISTERED_IN = {"unequal-variance": "equal_variance", "non-normal": "normality"}
+
+
+@dataclass(frozen=True)
+class _Design:
+    """What the contrast checks need to know of the design and outcomes."""
+
+    factor: str | None
+    levels: tuple[str, ...]
+    ordered: object
+    control: object
+    outcomes: tuple[str, ...]
+
+    @classmethod
+    def of(cls, raw: Mapping) -> _Design:
+        factors = items(mapping(raw.get("design")).get("factors"))
+        factor = factors[0][1] if factors else {}
+        names = tuple(o["name"] for _, o in items(raw.get("outcomes")) if isinstance(o.get("name"), str))
+        return cls(factor=text(factor.get("name")),
+                   levels=tuple(dict.fromkeys(texts(factor.get("levels")))),
+                   ordered=factor.get("ordered", False), control=factor.get("control"),
+                   outcomes=names)
+
+
+def contrast_problems(raw: Mapping) -> list[Found]:
+    """Every cross-field problem of `contrasts`, `exploratory`, `multiplicity` and fallbacks."""
+    design = _Design.of(raw)
+    sections = [(("contrasts",), raw.get("contrasts")), (("exploratory",), raw.get("exploratory"))]
+    found: list[Found] = []
+    for loc, entries in sections:
+        for i, entry in items(entries):
+            found += _entry((*loc, i), entry, design)
+    found += unique(sections, "id", "ids of contrasts and exploratory analyses")
+    found += _multiplicity(raw, design)
+    found += _fallbacks(raw)
+    return found
+
+
+def _entry(loc: Loc, entry: Mapping, design: _Design) -> list[Found]:
+    kind = entry.get("kind")
+    if kind not in KINDS:
+        return _common(loc, entry, design)
+    found = _kind_keys(loc, entry, kind)
+    if kind == "custom":
+        found += _weights(loc, entry, design)
+    elif kind == "trend":
+        found += _trend(loc, entry, design)
+    elif kind == "versus-control" and design.control is None:
+        found.append(((*loc, "kind"),
+                      f"got 'versus-control', but the factor {show(design.factor)} has no control "
+                      "level; allowed: 'versus-control' only when design.factors[0].control names one"))
+    return found + _common(loc, entry, design)
+
+
+def _kind_keys(loc: Loc, entry: Mapping, kind: str) -> list[Found]:
+    return [((*loc, key), f"got {show(entry[key])} for kind {show(kind)}; allowed: "
+                          f"{show(key)} only with kind {one_of(kinds)} (remove it)")
+            for key, kinds in _KIND_KEYS.items()
+            if entry.get(key) is not None and kind not in kinds]
+
+
+def _weights(loc: Loc, entry: Mapping, design: _Design) -> list[Found]:
+    weights = entry.get("weights")
+    if weights is None:
+        return [((*loc, "weights"), "required key is missing for kind 'custom' "
+                                    "(a weight per level name, summing to 0)")]
+    if not isinstance(weights, Mapping):
+        return []
+    found: list[Found] = []
+    for key in weights:
+        name = text(key)
+        if design.levels and name not in design.levels:
+            found.append(((*loc, "weights", key),
+                          f"got {show(name)}; allowed: one of the levels {one_of(design.levels)}"
+                          f"{did_you_mean(name, design.levels)}"))
+    values = [number(value) for value in weights.values()]
+    if None in values or not all(math.isfinite(v) for v in values):
+        return found  # each non-number is a field error; a sum of them says nothing
+    largest = max((abs(v) for v in values), default=0.0)
+    total = math.fsum(values)
+    if largest == 0:
+        found.append(((*loc, "weights"), "got no weight other than 0; allowed: weights that "
+                                         "are not all 0, summing to 0"))
+    elif abs(total) > 1e-9 * largest:
+        found.append(((*loc, "weights"), f"got weights summing to {total:.10g}; allowed: weights "
+                                         "summing to 0 (levels not listed weigh 0)"))
+    return found
+
+
+def _trend(loc: Loc, entry: Mapping, design: _Design) -> list[Found]:
+    found: list[Found] = []
+    k = len(design.levels)
+    if design.ordered is False:
+        found.append(((*loc, "kind"),
+                      f"got 'trend', but the factor {show(design.factor)} is not ordered; allowed: "
+                      "a trend only over a factor with 'ordered: true'"))
+    degree = entry.get("degree")
+    if isinstance(degree, int) and not isinstance(degree, bool) and k >= 2 and degree > k - 1:
+        found.append(((*loc, "degree"), f"got {degree}; allowed: a whole number from 1 to {k - 1} "
+                                        f"(k - 1 for the {k} levels)"))
+    spacing = entry.get("spacing")
+    if not isinstance(spacing, (list, tuple)):
+        return found
+    values = [number(value) for value in spacing]
+    if None in values:
+        return found
+    if k >= 2 and len(values) != k:
+        found.append(((*loc, "spacing"), f"got {len(values)} number{'s' if len(values) != 1 else ''}; "
+                                         f"allowed: {k} numbers, one per level in registered order"))
+    for j in range(1, len(values)):
+        if not values[j] > values[j - 1]:
+            found.append(((*loc, "spacing", j), f"got {show(spacing[j])} after {show(spacing[j - 1])}; "
+                                                "allowed: numbers strictly increasing in level order"))
+    return found
+
+
+def _common(loc: Loc, entry: Mapping, design: _Design) -> list[Found]:
+    """Checks that hold for every kind: one-sided justification, outcomes, factor."""
+    found: list[Found] = []
+    alternative = entry.get("alternative")
+    if alternative in ("greater", "less") and entry.get("justification") is None:
+        found.append(((*loc, "alternative"),
+                      f"got {show(alternative)} without a justification; allowed: a one-sided "
+                      "alternative only with 'justification' saying why, or 'two-sided'"))
+    outcomes = entry.get("outcomes")
+    if isinstance(outcomes, (list, tuple)):
+        for j, name in enumerate(outcomes):
+            if isinstance(name, str) and design.outcomes and name not in design.outcomes:
+                found.append(((*loc, "outcomes", j),
+                              f"got {show(name)}; allowed: one of the outcomes {one_of(design.outcomes)}"
+                              f"{did_you_mean(name, design.outcomes)}"))
+        found += repeats((*loc, "outcomes"), outcomes, "each outcome must be named once")
+    factor = entry.get("factor")
+    if isinstance(factor, str) and design.factor is not None and factor != design.factor:
+        found.append(((*loc, "factor"), f"got {show(factor)}; allowed: {show(design.factor)}, "
+                                        "the factor of the design"))
+    return found
+
+
+def _applies(entry: Mapping, outcome: str) -> bool:
+    outcomes = entry.get("outcomes")
+    return not isinstance(outcomes, (list, tuple)) or outcome in outcomes
+
+
+def _multiplicity(raw: Mapping, design: _Design) -> list[Found]:
+    settings = mapping(raw.get("multiplicity"))
+    method = settings.get("method", "holm")
+    contrasts = items(raw.get("contrasts"))
+    found: list[Found] = []
+    if method in _SINGLE_KIND:
+        found += _single_kind(method, contrasts, design)
+    order = settings.get("order")
+    where = ("multiplicity", "order")
+    if method == "fixed-sequence":
+        if order is None:
+            found.append((where, "required key is missing for method 'fixed-sequence' "
+                                 "(every contrast id exactly once, in testing order)"))
+        elif isinstance(order, (list, tuple)):
+            found += _order(order, contrasts, raw)
+    elif order is not None and isinstance(method, str):
+        found.append((where, f"got {show(order)} with method {show(method)}; allowed: 'order' only "
+                             "with method 'fixed-sequence' (remove it, or choose that method)"))
+    return found
+
+
+def _single_kind(method: str, contrasts: list[tuple[int, Mapping]], design: _Design) -> list[Found]:
+    """Tukey and Dunnett adjust one family of all pairs / all versus control per outcome."""
+    kind = _SINGLE_KIND[method]
+    found: list[Found] = []
+    for i, entry in contrasts:
+        if entry.get("kind") in KINDS and entry.get("kind") != kind:
+            found.append((("contrasts", i, "kind"),
+                          f"got {show(entry.get('kind'))} under multiplicity method {show(method)}; "
+                          f"allowed: only {show(kind)} contrasts, one per outcome"))
+    reported: set[int] = set()
+    for outcome in design.outcomes:
+        first: int | None = None
+        for i, entry in contrasts:
+            if entry.get("kind") != kind or not _applies(entry, outcome):
+                continue
+            if first is None:
+                first = i
+            elif i not in reported:
+                reported.add(i)
+                found.append((("contrasts", i, "kind"),
+                              f"got a second {show(kind)} contrast for outcome {show(outcome)} "
+                              f"(first at contrasts[{first}]) under multiplicity method "
+                              f"{show(method)}; allowed: one {show(kind)} contrast per outcome"))
+    return found
+
+
+def _order(order: list, contrasts: list[tuple[int, Mapping]], raw: Mapping) -> list[Found]:
+    ids = [entry["id"] for _, entry in contrasts if isinstance(entry.get("id"), str)]
+    exploratory = {entry.get("id") for _, entry in items(raw.get("exploratory"))}
+    found: list[Found] = []
+    for j, name in enumerate(order):
+        if not isinstance(name, str) or name in ids:
+            continue
+        if name in exploratory:
+            message = (f"got {show(name)}, an exploratory analysis; allowed: registered contrast "
+                       "ids only (exploratory analyses are never adjusted with the plan)")
+        elif ids:
+            message = f"got {show(name)}; allowed: one of the contrast ids {one_of(ids)}{did_you_mean(name, ids)}"
+        else:
+            message = f"got {show(name)}; allowed: ids of entries under 'contrasts' (there are none)"
+        found.append((("multiplicity", "order", j), message))
+    found += repeats(("multiplicity", "order"), order, "each contrast id must be listed once")
+    missing = [name for name in ids if name not in order]
+    if missing:
+        found.append((("multiplicity", "order"),
+                      f"got a list without {one_of(missing, 'and')}; allowed: every contrast id "
+                      "exactly once"))
+    return found
+
+
+def _fallbacks(raw: Mapping) -> list[Found]:
+    assumptions = mapping(raw.get("assumptions"))
+    rules = assumptions.get("fallbacks")
+    method = mapping(raw.get("analysis")).get("method", "classical")
+    found: list[Found] = []
+    if isinstance(rules, (list, tuple)) and rules and method in ("welch", "rank-based"):
+        found.append((("assumptions", "fallbacks"),
+                      f"got {show(rules)} with analysis method {show(method)}; allowed: fallbacks only "
+                      "with analysis method 'classical' (the robust analysis is already registered)"))
+    for i, rule in items(rules):
+        when, test = rule.get("when"), rule.get("test")
+        if when not in _FALLBACK_TESTS or not isinstance(test, str):
+            continue
+        loc = ("assumptions", "fallbacks", i, "test")
+        if test not in _FALLBACK_TESTS[when]:
+            if test in _FALLBACK_TESTS["unequal-variance"] + _FALLBACK_TESTS["non-normal"]:
+                found.append((loc, f"got {show(test)} for when {show(when)}; allowed: "
+                                   f"{one_of(_FALLBACK_TESTS[when])}"))
+            continue
+        key = _REGISTERED_IN[when]
+        registered = assumptions.get(key, _ASSUMPTION_DEFAULTS[key])
+        listed = registered if isinstance(registered, (list, tuple)) else [registered]
+        if test not in listed:
+            found.append((loc, f"got {show(test)}, but assumptions.{key} does not register it; "
+                               f"allowed: a test the plan computes (add it to assumptions.{key})"))
+    return found
