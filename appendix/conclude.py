@@ -8,15 +8,21 @@ appendix.numbers (APA 7).
 
 from __future__ import annotations
 
+from dataclasses import dataclass
+
 from appendix import numbers as fmt
 from appendix.plan.model import Outcome, Plan
 from appendix.results import (
     AssumptionStatus,
     Conclusion,
     EffectSize,
+    HypothesisResult,
+    KruskalWallis,
     NormalityTest,
     OneWayTable,
+    StatWarning,
     VarianceTest,
+    WelchAnova,
 )
 
 _TEST_NAMES = {
@@ -56,35 +62,156 @@ def _compatible(effects: tuple[EffectSize, ...]) -> str:
             "confidence limit, remains compatible with the data.")
 
 
+@dataclass(frozen=True)
+class _Omnibus:
+    """The omnibus test in force for an outcome, as words."""
+
+    name: str
+    short: str
+    clause: str
+    p: float | None
+    warnings: tuple[StatWarning, ...]
+    hypothesis: str = "equal means"
+    unequal: str = "the means are not all equal"
+    equal: str = "the means are equal"
+
+
+def _omnibus(method: str, table: OneWayTable, effects: tuple[EffectSize, ...],
+             welch: WelchAnova | None, kruskal: KruskalWallis | None) -> _Omnibus:
+    if method == "welch" and welch is not None:
+        clause = (f"Welch's F({fmt.df_value(welch.df_num)}, {fmt.df_value(welch.df_den)}) = "
+                  f"{fmt.fixed(welch.f, 2)}, {fmt.p_clause(welch.p)}")
+        return _Omnibus("Welch's F test", "Welch's F", clause,
+                        welch.p if welch.f is not None else None, welch.warnings)
+    if method == "rank-based" and kruskal is not None:
+        clause = (f"Kruskal-Wallis H({kruskal.df}) = {fmt.fixed(kruskal.h, 2)}, "
+                  f"{fmt.p_clause(kruskal.p)}")
+        return _Omnibus("The Kruskal-Wallis test", "H", clause,
+                        kruskal.p if kruskal.h is not None else None, kruskal.warnings,
+                        hypothesis="identical distributions",
+                        unequal="the distributions are not all identical",
+                        equal="the distributions are identical")
+    clause = f"{f_clause(table)}{eta_clause(effects)}"
+    return _Omnibus("The F test", "F", clause, table.p if table.f is not None else None,
+                    table.warnings)
+
+
 def conclusion(plan: Plan, outcome: Outcome, table: OneWayTable,
-               effects: tuple[EffectSize, ...]) -> Conclusion:
-    """The registered hypothesis of one outcome (equal means across the factor's
-    levels), decided at the plan's alpha, in one sentence."""
+               effects: tuple[EffectSize, ...], *, method: str = "classical",
+               welch: WelchAnova | None = None,
+               kruskal: KruskalWallis | None = None) -> Conclusion:
+    """The outcome's omnibus hypothesis (equal means, or identical distributions for the
+    rank-based test) decided at the plan's alpha by the test in force, in one sentence."""
     factor = plan.factor
-    what = f"mean {outcome.label}"
+    what = upper_first(f"{'' if method == 'rank-based' else 'mean '}{outcome.label}")
     across = f"across the {len(factor.levels)} levels of {factor.label or factor.name}"
     alpha = plan.alpha
-    if table.f is None or table.p is None:
-        reasons = " ".join(w.message for w in table.warnings) or "see the warnings."
-        sentence = f"The F test for {outcome.label} could not be computed. {reasons}"
+    test = _omnibus(method, table, effects, welch, kruskal)
+    if test.p is None:
+        reasons = " ".join(w.message for w in test.warnings) or "See the warnings."
+        sentence = f"{test.name} for {outcome.label} could not be computed. {reasons}"
         return Conclusion(sentence=sentence, decision="unavailable", p=None, alpha=alpha)
-    stats = f"{f_clause(table)}{eta_clause(effects)}"
-    if table.p < alpha:
+    if test.p < alpha:
         sentence = (
-            f"{what[0].upper()}{what[1:]} differed {across}, {stats}; the hypothesis of "
-            f"equal means is rejected at {_alpha(alpha)}. A significant F shows that the "
-            "means are not all equal, not which levels differ nor whether the differences "
+            f"{what} differed {across}, {test.clause}; the hypothesis of {test.hypothesis} "
+            f"is rejected at {_alpha(alpha)}. A significant {test.short} shows that "
+            f"{test.unequal}, not which levels differ nor whether the differences "
             "matter in practice."
         )
         decision = "reject"
     else:
+        caveat = (_compatible(effects) if method == "classical" else
+                  "the data cannot rule out differences of a size that would matter.")
         sentence = (
-            f"{what[0].upper()}{what[1:]} did not differ detectably {across}, {stats}; the "
-            f"hypothesis of equal means is not rejected at {_alpha(alpha)}. This is not "
-            f"evidence that the means are equal: {_compatible(effects)}"
+            f"{what} did not differ detectably {across}, {test.clause}; the hypothesis of "
+            f"{test.hypothesis} is not rejected at {_alpha(alpha)}. This is not evidence "
+            f"that {test.equal}: {caveat}"
         )
         decision = "retain"
-    return Conclusion(sentence=sentence, decision=decision, p=table.p, alpha=alpha)
+    return Conclusion(sentence=sentence, decision=decision, p=test.p, alpha=alpha)
+
+
+def upper_first(text: str) -> str:
+    """Capitalise the first letter only (``hbA1c`` labels keep their other capitals)."""
+    return text[:1].upper() + text[1:]
+
+
+_MULTIPLICITY_NAMES = {
+    "none": "unadjusted",
+    "bonferroni": "Bonferroni",
+    "holm": "Holm",
+    "hochberg": "Hochberg",
+    "sidak": "Šidák",
+    "benjamini-hochberg": "Benjamini-Hochberg",
+    "tukey": "Tukey-Kramer",
+    "dunnett": "Dunnett",
+    "fixed-sequence": "fixed-sequence",
+}
+
+
+def _levels_compared(h: HypothesisResult, levels: tuple[str, ...]) -> tuple[str, str] | None:
+    """For a simple difference (one +1 and one -1 weight): (higher-weighted, lower) levels."""
+    plus = [lv for lv, w in zip(levels, h.weights) if w > 0]
+    minus = [lv for lv, w in zip(levels, h.weights) if w < 0]
+    if len(plus) == 1 and len(minus) == 1:
+        return plus[0], minus[0]
+    return None
+
+
+def _interval_words(h: HypothesisResult, unit: str) -> str:
+    kind = " simultaneous" if h.ci_simultaneous else ""
+    level = f"{fmt.percent(h.confidence_level)}{kind} CI"
+    if h.ci_low is None and h.ci_high is None:
+        return f"{level} not available"
+    low = "−∞" if h.ci_low is None else fmt.fixed(h.ci_low, 2)
+    high = "∞" if h.ci_high is None else fmt.fixed(h.ci_high, 2)
+    return f"{level} {low} to {high}{unit}"
+
+
+def hypothesis_conclusion(plan: Plan, outcome: Outcome, h: HypothesisResult,
+                          multiplicity: str) -> Conclusion:
+    """One registered contrast hypothesis in plain words, e.g. "Mean shoot dry mass under
+    seaweed was 6.1 mg higher than under uncoated (95% simultaneous CI 2.0 to 10.2 mg,
+    adjusted p = .002, Dunnett); the hypothesis of no difference is rejected at α = .05."
+    """
+    alpha = plan.alpha
+    ref = f"{h.label} ({h.id})"
+    if h.decision == "not-tested":
+        sentence = (f"{upper_first(ref)} was not tested under the plan: fixed-sequence testing "
+                    "stopped at an earlier hypothesis that was not rejected.")
+        return Conclusion(sentence=sentence, decision="unavailable", p=None, alpha=alpha)
+    if h.estimate is None or h.p is None:
+        reasons = " ".join(w.message for w in h.warnings) or "See the warnings."
+        sentence = f"{upper_first(ref)} could not be estimated. {reasons}"
+        return Conclusion(sentence=sentence, decision="unavailable", p=None, alpha=alpha)
+    unit = f" {outcome.unit}" if outcome.unit and h.method != "rank-based" else ""
+    adjusted = (f"adjusted {fmt.p_clause(h.p_adjusted)}"
+                if h.p_adjusted is not None and multiplicity != "none" else fmt.p_clause(h.p))
+    how = _MULTIPLICITY_NAMES.get(multiplicity, multiplicity)
+    evidence = f"{_interval_words(h, unit)}, {adjusted}, {how}"
+    pair = _levels_compared(h, plan.factor.levels)
+    size = abs(h.estimate)
+    measure = "mean rank" if h.method == "rank-based" else f"mean {outcome.label}"
+    if pair is not None:
+        higher_lower = "higher" if h.estimate >= 0 else "lower"
+        first = (f"{upper_first(measure)} under {pair[0]} was {fmt.fixed(size, 2)}{unit} "
+                 f"{higher_lower} than under {pair[1]} ({evidence})")
+        null = "no difference"
+    else:
+        first = (f"The contrast {ref} of {measure} was estimated at "
+                 f"{fmt.fixed(h.estimate, 2)}{unit} ({evidence})")
+        null = "a zero contrast"
+    if h.alternative != "two-sided":
+        null += f" against the one-sided alternative '{h.alternative}'"
+    if h.decision == "reject":
+        rest = f"the hypothesis of {null} is rejected at {_alpha(alpha)}."
+        decision = "reject"
+    else:
+        rest = (f"the hypothesis of {null} is not rejected at {_alpha(alpha)}, which is not "
+                "evidence that there is no difference.")
+        decision = "retain"
+    return Conclusion(sentence=f"{first}; {rest}", decision=decision,
+                      p=h.p_adjusted if h.p_adjusted is not None else h.p, alpha=alpha)
 
 
 def _variance_detail(test: VarianceTest) -> str:

@@ -81,3 +81,55 @@ def test_assumptions_name_how_each_is_supported(plan):
     spread = statuses[-1].detail
     assert spread.startswith("Brown-Forsythe: F(3, 39) = 0.48, p = .697; "
                              "Bartlett: \u03c7\u00b2(3) = 2.46, p = .482")
+
+
+def hypothesis(**changes):
+    from appendix.results import HypothesisResult
+
+    base = dict(id="C2:seaweed", contrast="C2", kind="versus-control", label="seaweed \u2212 uncoated",
+                weights=(-1.0, 0.0, 1.0, 0.0), alternative="two-sided", method="classical",
+                estimate=6.12, se=1.6, statistic=3.82, statistic_name="t", df=39.0, p=0.0005,
+                p_adjusted=0.0014, ci_low=2.01, ci_high=10.23, confidence_level=0.95,
+                ci_simultaneous=True, standardized=1.55, decision="reject")
+    base.update(changes)
+    return HypothesisResult(**base)
+
+
+def test_a_simple_difference_reads_as_higher_or_lower(plan):
+    from appendix.conclude import hypothesis_conclusion
+
+    result = hypothesis_conclusion(plan, plan.outcomes[0], hypothesis(), "dunnett")
+    assert result.decision == "reject" and result.p == 0.0014
+    assert result.sentence == (
+        "Mean shoot dry mass at day 21 under seaweed was 6.12 mg higher than under uncoated "
+        "(95% simultaneous CI 2.01 to 10.23 mg, adjusted p = .001, Dunnett); the hypothesis "
+        "of no difference is rejected at \u03b1 = .05.")
+    lower = hypothesis_conclusion(plan, plan.outcomes[0], hypothesis(
+        estimate=-1.5, ci_low=-3.0, ci_high=0.1, p=0.06, p_adjusted=0.12, decision="retain",
+        ci_simultaneous=False), "holm")
+    assert lower.sentence == (
+        "Mean shoot dry mass at day 21 under seaweed was 1.50 mg lower than under uncoated "
+        "(95% CI \u22123.00 to 0.10 mg, adjusted p = .120, Holm); the hypothesis of no "
+        "difference is not rejected at \u03b1 = .05, which is not evidence that there is no "
+        "difference.")
+
+
+def test_a_weighted_contrast_one_sided_and_not_tested(plan):
+    from appendix.conclude import hypothesis_conclusion
+
+    custom = hypothesis(id="C1", contrast="C1", kind="custom", label="coated versus uncoated",
+                        weights=(-1.0, 1 / 3, 1 / 3, 1 / 3), alternative="greater",
+                        estimate=3.9, ci_low=1.6, ci_high=None, ci_simultaneous=False,
+                        p_adjusted=0.0031)
+    sentence = hypothesis_conclusion(plan, plan.outcomes[0], custom, "fixed-sequence").sentence
+    assert sentence == (
+        "The contrast coated versus uncoated (C1) of mean shoot dry mass at day 21 was "
+        "estimated at 3.90 mg (95% CI 1.60 to \u221e mg, adjusted p = .003, fixed-sequence); "
+        "the hypothesis of a zero contrast against the one-sided alternative 'greater' is "
+        "rejected at \u03b1 = .05.")
+    skipped = hypothesis_conclusion(plan, plan.outcomes[0],
+                                    hypothesis(decision="not-tested", p_adjusted=None), "fixed-sequence")
+    assert skipped.decision == "unavailable"
+    assert skipped.sentence == ("Seaweed \u2212 uncoated (C2:seaweed) was not tested under the "
+                                "plan: fixed-sequence testing stopped at an earlier hypothesis "
+                                "that was not rejected.")
