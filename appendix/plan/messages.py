@@ -7,6 +7,7 @@ failed) or is reported by the cross-field checks instead.
 
 from __future__ import annotations
 
+import re
 import typing
 from collections.abc import Mapping
 
@@ -112,7 +113,8 @@ def translate(error: Mapping, root: type[BaseModel]) -> tuple[Loc, str] | None:
         near = did_you_mean(loc[-1], allowed)
         return loc, f"unknown key{near}" if near else f"unknown key; allowed: {one_of(allowed)}"
     if kind == "literal_error":
-        return loc, f"{got}; allowed: {ctx['expected']}"
+        choices = re.findall(r"'([^']*)'", ctx["expected"])
+        return loc, f"{got}; allowed: {ctx['expected']}{did_you_mean(value, choices)}"
     if kind in _TEXT:
         quote = " (put it in quotes to mean the text)" if isinstance(value, (bool, int, float)) else ""
         return loc, f"{got}; allowed: {_json_types(info) or 'text'}{quote}"

@@ -6,7 +6,7 @@ import pytest
 
 from appendix.errors import PlanError
 from appendix.plan.load import MAX_BYTES, load_plan
-from tests.plan.plans import BASE, variant
+from tests.plan.plans import BASE, assert_refused, expected_message as _expected, variant
 
 TOP_KEYS = ("'format', 'study', 'data', 'alpha', 'design', 'outcomes', 'assumptions', "
             "'analysis', 'contrasts', 'multiplicity' or 'exploratory'")
@@ -125,18 +125,9 @@ CASES = [
 ]
 
 
-def _expected(path, lines: list[str]) -> str:
-    head = f"{len(lines)} problem{'s' if len(lines) != 1 else ''} in the study file:"
-    return "\n".join([head, *(f"  {path}:{line}" for line in lines)])
-
-
 @pytest.mark.parametrize("text, lines", [c[1:] for c in CASES], ids=[c[0] for c in CASES])
 def test_broken_study_file_message(write_study, text, lines):
-    path = write_study(text)
-    with pytest.raises(PlanError) as caught:
-        load_plan(path)
-    assert str(caught.value) == _expected(path, lines)
-    assert len(caught.value.problems) == len(lines)
+    assert_refused(write_study(text), lines)
 
 
 def test_file_too_big_is_refused_before_parsing(write_study):
