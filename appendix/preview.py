@@ -4,15 +4,49 @@ or written."""
 from __future__ import annotations
 
 from appendix.data.dataset import Dataset
+from appendix.plan.lints import lint
 from appendix.plan.load import LoadedPlan
+from appendix.plan.model import Contrast, Plan
 
 
 def _counts(items) -> str:
     return ", ".join(f"{c.level} {c.n}" for c in items)
 
 
+def _hypotheses(n: int) -> str:
+    return f"{n} hypothes{'is' if n == 1 else 'es'}"
+
+
+def _contrast(word: str, contrast: Contrast, k: int) -> str:
+    outcomes = ", ".join(contrast.outcomes) if contrast.outcomes else "every outcome"
+    return (f"{word} {contrast.id} ({contrast.kind}): {contrast.label}; "
+            f"{_hypotheses(contrast.hypothesis_count(k))}, {contrast.alternative}; "
+            f"outcomes: {outcomes}")
+
+
+def describe_contrasts(plan: Plan) -> list[str]:
+    """The registered analysis, fallbacks, contrasts with their hypothesis counts, the
+    multiplicity control and the exploratory analyses, one line each."""
+    k = len(plan.factor.levels)
+    lines = [f"registered analysis: {plan.analysis.method}"]
+    lines += [f"registered fallback {i}: if {rule.test} gives p < {rule.threshold:g} "
+              f"({rule.when}), use {rule.use}"
+              for i, rule in enumerate(plan.assumptions.fallbacks, start=1)]
+    lines += [_contrast("contrast", c, k) for c in plan.contrasts]
+    if plan.contrasts:
+        settings = plan.multiplicity
+        order = f" in the order {', '.join(settings.order)}" if settings.order else ""
+        counts = ", ".join(f"{o.name} {plan.hypothesis_count(o.name)}" for o in plan.outcomes)
+        lines.append(f"multiplicity: {settings.method}{order}, {settings.scope}; "
+                     f"hypotheses per outcome: {counts}")
+    lines += [_contrast("exploratory", c, k) + f"; not adjusted; reason: {c.reason}"
+              for c in plan.exploratory]
+    return lines
+
+
 def describe_run(loaded: LoadedPlan, dataset: Dataset) -> list[str]:
-    """Lines of text: the plan, the data and its unit flow, and every analysis a run makes."""
+    """Lines of text: the plan, the data and its unit flow, every analysis a run makes, and
+    notes on plan choices the literature warns against."""
     plan = loaded.plan
     factor = plan.factor
     flow = dataset.unit_flow
@@ -41,6 +75,8 @@ def describe_run(loaded: LoadedPlan, dataset: Dataset) -> list[str]:
         f"per outcome, at alpha {plan.alpha:g}: descriptives; one-way variance table (F test); "
         f"Welch's ANOVA; Kruskal-Wallis; eta squared, omega squared and Cohen's f with CIs; "
         f"diagnostics: {', '.join(checks)}")
+    lines += describe_contrasts(plan)
     lines += [f"finding: {finding.message}" for finding in dataset.findings]
+    lines += [f"note: {note}" for note in lint(plan)]
     lines.append("nothing was written")
     return lines

@@ -11,10 +11,10 @@ import math
 from collections.abc import Mapping
 from dataclasses import dataclass
 
+from appendix.plan.choices import KINDS, METHODS
 from appendix.plan.raw import Found, items, mapping, number, repeats, text, texts, unique
 from appendix.plan.wording import Loc, did_you_mean, one_of, show
 
-KINDS = ("custom", "pairwise", "versus-control", "trend", "helmert")
 
 #: Keys that belong to some kinds only.
 _KIND_KEYS = {"weights": ("custom",), "degree": ("trend",), "spacing": ("trend",)}
@@ -179,12 +179,12 @@ def _multiplicity(raw: Mapping, design: _Design) -> list[Found]:
     order = settings.get("order")
     where = ("multiplicity", "order")
     if method == "fixed-sequence":
-        if order is None:
+        if order is None and contrasts:
             found.append((where, "required key is missing for method 'fixed-sequence' "
                                  "(every contrast id exactly once, in testing order)"))
         elif isinstance(order, (list, tuple)):
             found += _order(order, contrasts, raw)
-    elif order is not None and isinstance(method, str):
+    elif order is not None and method in METHODS:
         found.append((where, f"got {show(order)} with method {show(method)}; allowed: 'order' only "
                              "with method 'fixed-sequence' (remove it, or choose that method)"))
     return found

@@ -29,6 +29,7 @@ from pydantic import (
 from pydantic_core import PydanticCustomError
 
 from appendix.plan.checks import DATA_FORMATS, consistency_problems
+from appendix.plan.choices import ContrastKind, MultiplicityMethod
 from appendix.plan.scalars import scalar_text
 from appendix.plan.wording import key_path
 
@@ -227,9 +228,6 @@ class Analysis(_Frozen):
                     "contrasts, Games-Howell pairs) or rank-based (Kruskal-Wallis, Dunn contrasts).")
 
 
-ContrastKind = Literal["custom", "pairwise", "versus-control", "trend", "helmert"]
-
-
 class Contrast(_Frozen):
     """A registered contrast: one or more hypotheses over the levels of the factor.
 
@@ -286,8 +284,7 @@ class ExploratoryContrast(Contrast):
 class Multiplicity(_Frozen):
     """How the registered hypotheses of a family are adjusted together."""
 
-    method: Literal["none", "bonferroni", "holm", "hochberg", "sidak", "benjamini-hochberg",
-                    "tukey", "dunnett", "fixed-sequence"] = Field(
+    method: MultiplicityMethod = Field(
         default="holm", description="The adjustment (benjamini-hochberg controls the FDR, not the FWER).")
     scope: Literal["per-outcome", "primary-family"] = Field(
         default="per-outcome",
@@ -337,3 +334,8 @@ class Plan(_Frozen):
     def exploratory_for(self, outcome: str) -> tuple[ExploratoryContrast, ...]:
         """The exploratory analyses that apply to the outcome named `outcome`, in plan order."""
         return tuple(c for c in self.exploratory if c.applies_to(outcome))
+
+    def hypothesis_count(self, outcome: str) -> int:
+        """How many registered hypotheses the outcome named `outcome` is tested for."""
+        k = len(self.factor.levels)
+        return sum(c.hypothesis_count(k) for c in self.contrasts_for(outcome))

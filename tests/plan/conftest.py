@@ -6,6 +6,9 @@ from pathlib import Path
 
 import pytest
 
+# The shared assertion helpers live in a plain module; show their failures in full.
+pytest.register_assert_rewrite("tests.plan.plans")
+
 
 @pytest.fixture
 def write_study(tmp_path: Path):

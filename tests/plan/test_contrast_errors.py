@@ -161,6 +161,12 @@ CASES = [
             "multiplicity: {method: holm, order: [C1]}\n",
      ["21: multiplicity.order: got a list of 1 item with method 'holm'; allowed: 'order' only "
       "with method 'fixed-sequence' (remove it, or choose that method)"]),
+    ("order with an unknown method is not reported twice",
+     BASE + "contrasts:\n  - {id: C1, kind: helmert, label: x}\n"
+            "multiplicity: {method: sequence, order: [C1]}\n",
+     ["21: multiplicity.method: got 'sequence'; allowed: 'none', 'bonferroni', 'holm', "
+      "'hochberg', 'sidak', 'benjamini-hochberg', 'tukey', 'dunnett' or 'fixed-sequence'; "
+      "did you mean 'fixed-sequence'?"]),
     ("unknown scope",
      BASE + "multiplicity: {scope: all}\n",
      ["19: multiplicity.scope: got 'all'; allowed: 'per-outcome' or 'primary-family'"]),

@@ -150,3 +150,9 @@ def test_lines_of_contrast_keys(write_study):
     assert loaded.line_of("contrasts[3].spacing") == 26
     assert loaded.line_of("contrasts[0].weights.low") == 22
     assert loaded.line_of("assumptions.fallbacks[1].use") == 34
+
+
+def test_fixed_sequence_without_contrasts_needs_no_order(write_study):
+    plan = load_plan(write_study(ORDERED + "multiplicity: {method: fixed-sequence}\n")).plan
+    assert (plan.multiplicity.method, plan.multiplicity.order, plan.contrasts) == (
+        "fixed-sequence", None, ())

@@ -1,0 +1,12 @@
+"""The closed choices of the study file that both the model and the cross-field checks use."""
+
+from __future__ import annotations
+
+from typing import Literal, get_args
+
+ContrastKind = Literal["custom", "pairwise", "versus-control", "trend", "helmert"]
+MultiplicityMethod = Literal["none", "bonferroni", "holm", "hochberg", "sidak",
+                             "benjamini-hochberg", "tukey", "dunnett", "fixed-sequence"]
+
+KINDS: tuple[str, ...] = get_args(ContrastKind)
+METHODS: tuple[str, ...] = get_args(MultiplicityMethod)

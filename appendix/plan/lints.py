@@ -1,0 +1,93 @@
+"""Plan choices the literature warns against: notes for `appendix check`, never refusals.
+
+A plan may register any of these choices; the notes say what the published guidance
+says, with the reference, so that the statistician decides knowingly.
+
+>>> [note.code for note in lint(plan)]  # doctest: +SKIP
+['pre-test-fallback', 'one-sided']
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+from appendix.plan.model import Plan
+from appendix.plan.wording import key_path
+
+# Short citations, recalled from memory (author, year, journal, volume:pages); the EMA
+# reference number was checked against the agency's document page. The appendix's methods
+# section gives the full references.
+ZIMMERMAN_2004 = "Zimmerman 2004, Br J Math Stat Psychol 57:173-181"
+ROCHON_2012 = "Rochon, Gondan & Kieser 2012, BMC Med Res Methodol 12:81"
+DELACRE_2019 = "Delacre, Leys, Mora & Lakens 2019, Int Rev Soc Psychol 32(1):13"
+ICH_E9_MULTIPLICITY = ("ICH E9 1998, section 5.6; EMA 2017, guideline on multiplicity issues "
+                       "in clinical trials, EMA/CHMP/44762/2017")
+ICH_E9_ONE_SIDED = "ICH E9 1998, section 5.5"
+
+
+@dataclass(frozen=True)
+class Note:
+    """One lint: a stable `code`, the key `path` it concerns, the `message` and its `reference`."""
+
+    code: str
+    path: str
+    message: str
+    reference: str
+
+    def __str__(self) -> str:
+        return f"{self.path}: {self.message} (see {self.reference})"
+
+
+def lint(plan: Plan) -> tuple[Note, ...]:
+    """Every note on the plan, in the order of the study file's sections."""
+    return (*_pre_tests(plan), *_unadjusted(plan), *_one_sided(plan))
+
+
+def _pre_tests(plan: Plan) -> list[Note]:
+    """A fallback chosen by a pre-test is a two-stage rule (Zimmerman 2004; Rochon et al. 2012)."""
+    notes = []
+    for i, rule in enumerate(plan.assumptions.fallbacks):
+        source = ZIMMERMAN_2004 if rule.when == "unequal-variance" else ROCHON_2012
+        notes.append(Note(
+            "pre-test-fallback", key_path(("assumptions", "fallbacks", i)),
+            f"the switch to the {rule.use} analysis when {rule.test} gives p < {rule.threshold:g} "
+            "is a two-stage rule: choosing the test by a pre-test distorts its type I error rate "
+            "and power; consider registering analysis.method: welch outright",
+            f"{source}; {DELACRE_2019}"))
+    return notes
+
+
+def _unadjusted(plan: Plan) -> list[Note]:
+    """Several hypotheses on a primary outcome without adjustment (ICH E9 section 5.6)."""
+    if plan.multiplicity.method != "none":
+        return []
+    notes = []
+    for outcome in plan.outcomes:
+        m = plan.hypothesis_count(outcome.name)
+        if outcome.role != "primary" or m < 2:
+            continue
+        independent = -math.expm1(m * math.log1p(-plan.alpha))
+        notes.append(Note(
+            "no-multiplicity-control", "multiplicity.method",
+            f"method 'none' leaves the {m} hypotheses on primary outcome {outcome.name!r} "
+            f"unadjusted: the chance of at least one false rejection exceeds alpha {plan.alpha:g} "
+            f"({independent:.3f} if the {m} tests were independent)",
+            ICH_E9_MULTIPLICITY))
+    return notes
+
+
+def _one_sided(plan: Plan) -> list[Note]:
+    """One-sided tests at the registered alpha versus the half-alpha convention (ICH E9 5.5)."""
+    notes = []
+    for section, entries in (("contrasts", plan.contrasts), ("exploratory", plan.exploratory)):
+        for i, contrast in enumerate(entries):
+            if contrast.alternative == "two-sided":
+                continue
+            notes.append(Note(
+                "one-sided", key_path((section, i, "alternative")),
+                f"{contrast.id} is tested one-sided ({contrast.alternative}) at the registered "
+                f"alpha {plan.alpha:g}; the regulatory convention is a one-sided level of half "
+                f"the two-sided alpha ({plan.alpha / 2:g}); the appendix states the level used",
+                ICH_E9_ONE_SIDED))
+    return notes
