@@ -15,35 +15,17 @@ import platform
 import sys
 from collections.abc import Callable
 from dataclasses import dataclass
-from importlib import metadata
 from pathlib import Path
 
-from appendix import __version__
 from appendix.data.build import build_dataset
 from appendix.data.dataset import Dataset
 from appendix.plan.load import LoadedPlan, load_plan
-from appendix.results import Software, StudyResults, to_json, to_plain
+from appendix.results import StudyResults, to_json, to_plain
 from appendix.runner import analyse as _analyse
+from appendix.versions import software_versions
 
 __all__ = ["Computed", "Rendered", "RunRecord", "load_plan", "load_data", "analyse",
            "compute", "check", "render", "run", "software_versions"]
-
-# Libraries whose versions can change a number or a page; recorded in every run.
-_LIBRARIES = ("numpy", "scipy", "pandas", "statsmodels", "pydantic", "PyYAML", "pyarrow",
-              "openpyxl", "matplotlib", "Jinja2", "weasyprint")
-
-
-def software_versions() -> tuple[Software, ...]:
-    """appendix, Python and every library that computes or renders, by installed version."""
-    found = [Software("appendix", __version__),
-             Software("Python", platform.python_version())]
-    for name in _LIBRARIES:
-        try:
-            found.append(Software(name, metadata.version(name)))
-        except metadata.PackageNotFoundError:
-            found.append(Software(name, "not installed"))
-    return tuple(found)
-
 
 @dataclass(frozen=True)
 class Computed:

@@ -71,7 +71,7 @@ def _run(args, cwd: Path, out: TextIO, err: TextIO, clock) -> int:
 
 
 def _log_bug(error: BaseException, directory: Path, now: _dt.datetime) -> Path:
-    from appendix.api import software_versions
+    from appendix.versions import software_versions
 
     path = directory / f"appendix-error-{now:%Y%m%dT%H%M%S}.log"
     lines = [f"appendix {__version__} internal error at {now.isoformat()}",

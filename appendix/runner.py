@@ -6,12 +6,18 @@ that this stage never looks at its environment.
 
 from __future__ import annotations
 
-from appendix import conclude
+import dataclasses
+from dataclasses import dataclass
+
+from appendix import conclude, families
 from appendix.data.dataset import Dataset, OutcomeData
 from appendix.plan.load import LoadedPlan
 from appendix.plan.model import Outcome, Plan
 from appendix.results import (
+    ContrastFamily,
+    Deviation,
     Diagnostics,
+    ExploratoryAnalysis,
     FactorInfo,
     LevelCount,
     OutcomeResult,
@@ -52,9 +58,19 @@ def _diagnostics(plan: Plan, data: OutcomeData, cells, levels) -> Diagnostics:
                        assumptions=conclude.assumption_statuses(plan, normality, tests))
 
 
+@dataclass(frozen=True)
+class _OutcomeWork:
+    """One outcome's results plus what is reported elsewhere (exploratory, deviations)."""
+
+    result: OutcomeResult
+    exploratory: dict[str, ContrastFamily]
+    deviations: tuple[Deviation, ...]
+
+
 def analyse_outcome(plan: Plan, outcome: Outcome, data: OutcomeData,
-                    missing: tuple[LevelCount, ...]) -> OutcomeResult:
-    """Every registered one-way analysis of one outcome."""
+                    missing: tuple[LevelCount, ...]) -> _OutcomeWork:
+    """Every registered one-way analysis of one outcome, its planned contrasts under the
+    method in force (after any registered fallback), and its exploratory analyses."""
     levels = plan.factor.levels
     k = len(levels)
     cells = cell_stats(data.values, data.codes, k, levels)
@@ -66,8 +82,12 @@ def analyse_outcome(plan: Plan, outcome: Outcome, data: OutcomeData,
     kruskal = kruskal_wallis(data.values, data.codes, k, levels)
     effects = effect_sizes(table, effect_size_confidence(plan.alpha))
     diagnostics = _diagnostics(plan, data, cells, levels)
-    sentence = conclude.conclusion(plan, outcome, table, effects)
-    return OutcomeResult(
+    selected, contingencies = families.select_method(plan, diagnostics)
+    sentence = conclude.conclusion(plan, outcome, table, effects, method=selected,
+                                   welch=welch, kruskal=kruskal)
+    contrasts = families.registered_families(plan, outcome.name, selected, cells,
+                                             data.values, data.codes)
+    result = OutcomeResult(
         name=outcome.name,
         label=outcome.label,
         unit=outcome.unit,
@@ -80,7 +100,32 @@ def analyse_outcome(plan: Plan, outcome: Outcome, data: OutcomeData,
         effect_sizes=effects,
         diagnostics=diagnostics,
         conclusion=sentence,
+        selected_method=selected,
+        contrasts=contrasts,
+        contingencies=contingencies,
     )
+    return _OutcomeWork(
+        result=result,
+        exploratory=families.exploratory_families(plan, outcome.name, selected, cells,
+                                                  data.values, data.codes),
+        deviations=families.contingency_deviations(outcome.name, contingencies, selected),
+    )
+
+
+def _with_hypothesis_conclusions(plan: Plan, result: OutcomeResult) -> OutcomeResult:
+    outcome = next(o for o in plan.outcomes if o.name == result.name)
+    sentences = tuple(
+        conclude.hypothesis_conclusion(plan, outcome, h, family.multiplicity)
+        for family in result.contrasts if family.registered for h in family.hypotheses)
+    return dataclasses.replace(result, hypothesis_conclusions=sentences)
+
+
+def _exploratory(plan: Plan, work: list[_OutcomeWork]) -> tuple[ExploratoryAnalysis, ...]:
+    return tuple(
+        ExploratoryAnalysis(id=entry.id, label=entry.label, reason=entry.reason,
+                            families=tuple(w.exploratory[entry.id] for w in work
+                                           if entry.id in w.exploratory))
+        for entry in plan.exploratory)
 
 
 def analyse(loaded: LoadedPlan, dataset: Dataset,
@@ -89,11 +134,13 @@ def analyse(loaded: LoadedPlan, dataset: Dataset,
     plan = loaded.plan
     flows = {flow.outcome: flow for flow in dataset.unit_flow.outcomes}
     ordered = sorted(plan.outcomes, key=lambda o: o.role != "primary")
-    outcomes = tuple(
-        analyse_outcome(plan, outcome, dataset.outcome(outcome.name),
-                        flows[outcome.name].missing)
-        for outcome in ordered
-    )
+    work = [analyse_outcome(plan, outcome, dataset.outcome(outcome.name),
+                            flows[outcome.name].missing)
+            for outcome in ordered]
+    outcomes = tuple(w.result for w in work)
+    if plan.contrasts and plan.multiplicity.scope == "primary-family":
+        outcomes = families.adjust_primary_family(plan, outcomes)
+    outcomes = tuple(_with_hypothesis_conclusions(plan, o) for o in outcomes)
     factor = plan.factor
     study = plan.study
     return StudyResults(
@@ -117,4 +164,8 @@ def analyse(loaded: LoadedPlan, dataset: Dataset,
         outcomes=outcomes,
         findings=dataset.findings,
         software=software,
+        exploratory=_exploratory(plan, work),
+        deviations=tuple(d for w in work for d in w.deviations),
+        multiplicity=plan.multiplicity.method if plan.contrasts else None,
+        multiplicity_scope=plan.multiplicity.scope if plan.contrasts else None,
     )
