@@ -174,7 +174,7 @@ def _multiplicity(raw: Mapping, design: _Design) -> list[Found]:
     method = settings.get("method", "holm")
     contrasts = items(raw.get("contrasts"))
     found: list[Found] = []
-    if method in _SINGLE_KIND:
+    if isinstance(method, str) and method in _SINGLE_KIND:
         found += _single_kind(method, contrasts, design)
     order = settings.get("order")
     where = ("multiplicity", "order")
@@ -218,7 +218,7 @@ def _single_kind(method: str, contrasts: list[tuple[int, Mapping]], design: _Des
 
 def _order(order: list, contrasts: list[tuple[int, Mapping]], raw: Mapping) -> list[Found]:
     ids = [entry["id"] for _, entry in contrasts if isinstance(entry.get("id"), str)]
-    exploratory = {entry.get("id") for _, entry in items(raw.get("exploratory"))}
+    exploratory = [entry.get("id") for _, entry in items(raw.get("exploratory"))]
     found: list[Found] = []
     for j, name in enumerate(order):
         if not isinstance(name, str) or name in ids:
@@ -251,7 +251,7 @@ def _fallbacks(raw: Mapping) -> list[Found]:
                       "with analysis method 'classical' (the robust analysis is already registered)"))
     for i, rule in items(rules):
         when, test = rule.get("when"), rule.get("test")
-        if when not in _FALLBACK_TESTS or not isinstance(test, str):
+        if not isinstance(when, str) or when not in _FALLBACK_TESTS or not isinstance(test, str):
             continue
         loc = ("assumptions", "fallbacks", i, "test")
         if test not in _FALLBACK_TESTS[when]:

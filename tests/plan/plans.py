@@ -46,6 +46,26 @@ ORDERED = variant("      control: placebo\n", "      control: placebo\n      ord
 #: BASE without a control level; every line from 15 on moves up one.
 NO_CONTROL = variant("      control: placebo\n", "")
 
+#: ORDERED with every contrast kind, fixed-sequence multiplicity, an exploratory analysis
+#: and both kinds of fallback; appended lines start at 20.
+EVERY_KIND = ORDERED + """\
+analysis: {method: classical}
+contrasts:
+  - {id: C1, kind: custom, label: active versus placebo, weights: {placebo: -2, low: 1, high: 1}}
+  - {id: C2, kind: versus-control, label: each dose versus placebo, outcomes: [pain],
+     alternative: less, justification: only a reduction in pain matters clinically}
+  - {id: C3, kind: pairwise, label: all pairs, factor: arm}
+  - {id: C4, kind: trend, label: dose trend, degree: 2, spacing: [0, 1, 4]}
+  - {id: C5, kind: helmert, label: each level versus later ones, outcomes: [sleep]}
+multiplicity: {method: fixed-sequence, scope: primary-family, order: [C4, C1, C2, C3, C5]}
+exploratory:
+  - {id: E1, kind: trend, label: linear only, reason: asked by the data monitoring committee}
+assumptions:
+  fallbacks:
+    - {when: unequal-variance, test: bartlett, threshold: 0.01, use: welch}
+    - {when: non-normal, test: shapiro-wilk, use: rank-based}
+"""
+
 
 def expected_message(path: Path, lines: list[str]) -> str:
     """The PlanError text for problem lines written "line: path: message"."""

@@ -12,25 +12,8 @@ from appendix.plan.load import load_plan
 from appendix.plan.model import Contrast, ExploratoryContrast, Plan
 from appendix.plan.schema import study_schema
 from appendix.plan.yamltree import read_tree
-from tests.plan.plans import ORDERED, variant
+from tests.plan.plans import EVERY_KIND, ORDERED, variant
 
-EVERY_KIND = ORDERED + """\
-analysis: {method: classical}
-contrasts:
-  - {id: C1, kind: custom, label: active versus placebo, weights: {placebo: -2, low: 1, high: 1}}
-  - {id: C2, kind: versus-control, label: each dose versus placebo, outcomes: [pain],
-     alternative: less, justification: only a reduction in pain matters clinically}
-  - {id: C3, kind: pairwise, label: all pairs, factor: arm}
-  - {id: C4, kind: trend, label: dose trend, degree: 2, spacing: [0, 1, 4]}
-  - {id: C5, kind: helmert, label: each level versus later ones, outcomes: [sleep]}
-multiplicity: {method: fixed-sequence, scope: primary-family, order: [C4, C1, C2, C3, C5]}
-exploratory:
-  - {id: E1, kind: trend, label: linear only, reason: asked by the data monitoring committee}
-assumptions:
-  fallbacks:
-    - {when: unequal-variance, test: bartlett, threshold: 0.01, use: welch}
-    - {when: non-normal, test: shapiro-wilk, use: rank-based}
-"""
 
 
 def test_every_contrast_kind(write_study):

@@ -41,3 +41,24 @@ def test_valid_plan_passes():
 def test_bad_plan_fails(old, new):
     with pytest.raises(jsonschema.ValidationError):
         jsonschema.validate(read_tree(variant(old, new)).value, study_schema())
+
+
+def test_plan_with_every_contrast_kind_passes():
+    from tests.plan.plans import EVERY_KIND
+
+    jsonschema.validate(read_tree(EVERY_KIND).value, study_schema())
+
+
+@pytest.mark.parametrize("addition", [
+    "contrasts: [{id: C1, kind: pairwize, label: x}]\n",
+    "contrasts: [{id: 'C1:a', kind: pairwise, label: x}]\n",
+    "contrasts: [{id: C1, kind: custom, label: x, weights: {low: one}}]\n",
+    "contrasts: [{id: C1, kind: trend, label: x, degree: 0}]\n",
+    "multiplicity: {method: holms}\n",
+    "exploratory: [{id: E1, kind: pairwise, label: x}]\n",
+    "assumptions: {fallbacks: [{when: non-normal, test: shapiro-wilk, use: welch, threshold: 1}]}\n",
+    "analysis: {method: robust}\n",
+])
+def test_bad_contrast_keys_fail(addition):
+    with pytest.raises(jsonschema.ValidationError):
+        jsonschema.validate(read_tree(BASE + addition).value, study_schema())
