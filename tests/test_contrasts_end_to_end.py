@@ -1,0 +1,195 @@
+"""Planned contrasts end to end: every contrast kind and every multiplicity method runs
+from a study file to results and HTML (one full plan also to PDF); registered fallbacks
+fire deterministically and are recorded as deviations. Data are invented (seeded)."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import numpy as np
+import pytest
+import yaml
+
+from appendix import api
+
+LEVELS = ["d0", "d1", "d2", "d4"]
+ALL_KINDS = [
+    {"id": "C1", "kind": "custom", "label": "dosed versus undosed",
+     "weights": {"d0": -3, "d1": 1, "d2": 1, "d4": 1}},
+    {"id": "C2", "kind": "versus-control", "label": "each dose versus none"},
+    {"id": "C3", "kind": "pairwise", "label": "all pairs of doses"},
+    {"id": "C4", "kind": "trend", "label": "dose trend", "degree": 2, "spacing": [0, 1, 2, 4]},
+    {"id": "C5", "kind": "helmert", "label": "each dose versus the higher ones"},
+]
+
+
+def write_study(folder: Path, *, contrasts, multiplicity, sds=(1.0, 1.0, 1.0, 1.0),
+                skewed=False, extra=None, seed=7) -> Path:
+    """An invented dose study: 10 units per level, a rising mean, chosen spreads."""
+    rng = np.random.default_rng(seed)
+    lines = ["unit,dose,y,z"]
+    for i, (level, sd) in enumerate(zip(LEVELS, sds)):
+        noise = rng.exponential(sd, 10) if skewed else rng.normal(0, sd, 10)
+        for j, e in enumerate(noise):
+            lines.append(f"u{i}{j},{level},{10 + 0.8 * i + e:.3f},{5 + rng.normal():.3f}")
+    (folder / "units.csv").write_text("\n".join(lines) + "\n", encoding="utf-8")
+    plan = {
+        "format": 1,
+        "study": {"id": "dose-demo", "title": "Invented dose study"},
+        "data": {"source": "units.csv", "unit": "unit"},
+        "design": {"factors": [{"name": "dose", "levels": LEVELS, "control": "d0",
+                                "ordered": True}]},
+        "outcomes": [{"name": "y", "label": "response", "unit": "mg", "role": "primary"},
+                     {"name": "z", "label": "second response", "role": "secondary"}],
+        "contrasts": contrasts,
+        "multiplicity": multiplicity,
+    }
+    plan.update(extra or {})
+    study = folder / "study.yaml"
+    study.write_text(yaml.safe_dump(plan, sort_keys=False), encoding="utf-8")
+    return study
+
+
+def only(kind):
+    return [c for c in ALL_KINDS if c["kind"] == kind]
+
+
+CASES = {
+    "none": (ALL_KINDS, {"method": "none"}),
+    "bonferroni": (ALL_KINDS, {"method": "bonferroni"}),
+    "holm": (ALL_KINDS, {"method": "holm"}),
+    "hochberg": (ALL_KINDS, {"method": "hochberg"}),
+    "sidak": (ALL_KINDS, {"method": "sidak"}),
+    "benjamini-hochberg": (ALL_KINDS, {"method": "benjamini-hochberg"}),
+    "tukey": (only("pairwise"), {"method": "tukey"}),
+    "dunnett": (only("versus-control"), {"method": "dunnett"}),
+    "fixed-sequence": (ALL_KINDS, {"method": "fixed-sequence",
+                                   "order": ["C4", "C2", "C1", "C3", "C5"]}),
+}
+
+
+@pytest.mark.parametrize("method", sorted(CASES))
+def test_every_multiplicity_method_runs_to_html(method: str, tmp_path: Path):
+    contrasts, multiplicity = CASES[method]
+    study = write_study(tmp_path, contrasts=contrasts, multiplicity=multiplicity)
+    record = api.run(study, tmp_path / "run", pdf=False)
+    primary = record.results.outcomes[0]
+    (family,) = primary.contrasts
+    assert family.multiplicity == method and family.registered
+    expected = {"custom": 1, "versus-control": 3, "pairwise": 6, "trend": 2, "helmert": 3}
+    assert len(family.hypotheses) == sum(expected[c["kind"]] for c in contrasts)
+    for h in family.hypotheses:
+        if h.decision == "not-tested":
+            assert method == "fixed-sequence" and h.p_adjusted is None
+            continue
+        assert h.p_adjusted is not None and h.p_adjusted >= h.p - 1e-15
+        assert h.decision == ("reject" if h.p_adjusted < 0.05 else "retain")
+    assert len(primary.hypothesis_conclusions) == len(family.hypotheses)
+    html = (tmp_path / "run" / "appendix.html").read_text(encoding="utf-8")
+    assert 'id="y-contrasts"' in html
+    for h in family.hypotheses:
+        assert h.label.replace("\u2212", "&#8722;") in html or h.label in html
+
+
+def test_all_kinds_render_to_pdf_with_hypotheses(tmp_path: Path):
+    from pypdf import PdfReader
+
+    study = write_study(tmp_path, contrasts=ALL_KINDS, multiplicity={"method": "holm"})
+    api.run(study, tmp_path / "run")
+    text = " ".join(p.extract_text() for p in PdfReader(tmp_path / "run" / "appendix.pdf").pages)
+    results = json.loads((tmp_path / "run" / "results.json").read_text())
+    trend = next(h for h in results["outcomes"][0]["contrasts"][0]["hypotheses"]
+                 if h["id"] == "C4:linear")
+    # The invented means rise by 0.8 per level: the linear trend is clearly positive.
+    assert trend["estimate"] > 0 and trend["decision"] == "reject"
+    assert "linear" in text and "Holm" in text
+
+
+def test_fixed_sequence_stops_at_the_first_retained_hypothesis(tmp_path: Path):
+    contrasts = [ALL_KINDS[3], {"id": "C6", "kind": "custom", "label": "d1 versus d2",
+                                "weights": {"d1": -1, "d2": 1}}, ALL_KINDS[1]]
+    study = write_study(tmp_path, contrasts=contrasts,
+                        multiplicity={"method": "fixed-sequence", "order": ["C4", "C6", "C2"]})
+    record = api.run(study, tmp_path / "run", pdf=False)
+    by_id = {h.id: h for h in record.results.outcomes[0].contrasts[0].hypotheses}
+    walk = ["C4:linear", "C4:quadratic", "C6", "C2:d1", "C2:d2", "C2:d4"]
+    decisions = [by_id[i].decision for i in walk]
+    stop = next(i for i, d in enumerate(decisions) if d != "reject")
+    assert decisions[stop] == "retain"
+    assert all(d == "not-tested" for d in decisions[stop + 1:])
+    assert all(d == "reject" for d in decisions[:stop])
+
+
+def test_primary_family_adjusts_across_primary_outcomes(tmp_path: Path):
+    study = write_study(tmp_path, contrasts=only("versus-control"),
+                        multiplicity={"method": "bonferroni", "scope": "primary-family"})
+    plan_text = study.read_text().replace("role: secondary", "role: primary")
+    study.write_text(plan_text)
+    record = api.run(study, tmp_path / "run", pdf=False)
+    families = [o.contrasts[0] for o in record.results.outcomes]
+    assert [f.scope for f in families] == ["primary-family", "primary-family"]
+    for family in families:
+        for h in family.hypotheses:
+            # Bonferroni over both outcomes' 3 + 3 hypotheses (Dunn 1961): m = 6
+            assert h.p_adjusted == pytest.approx(min(1.0, 6 * h.p), rel=1e-12)
+
+
+def test_variance_fallback_fires_and_both_families_are_shown(tmp_path: Path):
+    fallback = {"assumptions": {"fallbacks": [{"when": "unequal-variance",
+                                               "test": "brown-forsythe", "threshold": 0.05,
+                                               "use": "welch"}]}}
+    study = write_study(tmp_path, contrasts=only("pairwise"), multiplicity={"method": "tukey"},
+                        sds=(0.2, 0.4, 2.5, 5.0), extra=fallback)
+    record = api.run(study, tmp_path / "run", pdf=False)
+    primary = record.results.outcomes[0]
+    (rule,) = primary.contingencies
+    assert rule.fired and rule.p < 0.05
+    assert primary.selected_method == "welch"
+    assert [(f.method, f.registered) for f in primary.contrasts] == [("welch", True),
+                                                                   ("classical", False)]
+    assert "differed across the 4 levels of dose, Welch's F(3, " in primary.conclusion.sentence
+    deviation = record.results.deviations[0]
+    assert (deviation.kind, deviation.subject, deviation.acknowledged) == (
+        "registered-contingency", "y", True)
+    html = (tmp_path / "run" / "appendix.html").read_text(encoding="utf-8")
+    assert 'id="deviations"' in html and "registered result" in html
+
+
+def test_normality_fallback_selects_the_rank_based_analysis(tmp_path: Path):
+    fallback = {"assumptions": {"fallbacks": [{"when": "non-normal", "test": "shapiro-wilk",
+                                               "threshold": 0.05, "use": "rank-based"}]}}
+    study = write_study(tmp_path, contrasts=only("versus-control"),
+                        multiplicity={"method": "holm"}, sds=(3, 3, 3, 3), skewed=True,
+                        extra=fallback, seed=3)
+    record = api.run(study, tmp_path / "run", pdf=False)
+    primary = record.results.outcomes[0]
+    assert primary.diagnostics.normality.p < 0.05  # exponential errors (invented)
+    assert primary.selected_method == "rank-based"
+    registered = next(f for f in primary.contrasts if f.registered)
+    assert registered.method == "rank-based"
+    assert {h.statistic_name for h in registered.hypotheses} == {"z"}
+    assert primary.conclusion.sentence.startswith("Response differed") or \
+        primary.conclusion.sentence.startswith("Response did not differ")
+    assert "Kruskal-Wallis H(3)" in primary.conclusion.sentence
+
+
+def test_exploratory_analyses_stay_out_of_the_conclusions(tmp_path: Path):
+    extra = {"exploratory": [{"id": "E1", "kind": "pairwise", "label": "all pairs",
+                              "reason": "asked for after unblinding (invented)"}]}
+    study = write_study(tmp_path, contrasts=only("versus-control"),
+                        multiplicity={"method": "holm"}, extra=extra)
+    record = api.run(study, tmp_path / "run", pdf=False)
+    (analysis,) = record.results.exploratory
+    assert analysis.reason == "asked for after unblinding (invented)"
+    assert [f.scope for f in analysis.families] == ["exploratory", "exploratory"]
+    assert all(f.multiplicity == "none" for f in analysis.families)
+    for family in analysis.families:
+        for h in family.hypotheses:
+            assert h.p_adjusted == h.p
+    sentences = " ".join(c.sentence for o in record.results.outcomes
+                         for c in o.hypothesis_conclusions)
+    assert "E1" not in sentences
+    html = (tmp_path / "run" / "appendix.html").read_text(encoding="utf-8")
+    summary = html[html.index('id="summary"'):html.index('id="unit-flow"')]
+    assert "E1" not in summary and 'id="exploratory"' in html
