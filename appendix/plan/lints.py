@@ -59,20 +59,28 @@ def _pre_tests(plan: Plan) -> list[Note]:
 
 
 def _unadjusted(plan: Plan) -> list[Note]:
-    """Several hypotheses on a primary outcome without adjustment (ICH E9 section 5.6)."""
+    """Several hypotheses on a primary outcome without adjustment (ICH E9 section 5.6).
+
+    Under scope primary-family the family is every primary outcome's hypotheses together.
+    """
     if plan.multiplicity.method != "none":
         return []
+    primary = [o.name for o in plan.outcomes if o.role == "primary"]
+    if plan.multiplicity.scope == "primary-family" and len(primary) > 1:
+        families = [(f"the primary family ({', '.join(map(repr, primary))})",
+                     sum(plan.hypothesis_count(name) for name in primary))]
+    else:
+        families = [(f"primary outcome {name!r}", plan.hypothesis_count(name)) for name in primary]
     notes = []
-    for outcome in plan.outcomes:
-        m = plan.hypothesis_count(outcome.name)
-        if outcome.role != "primary" or m < 2:
+    for family, m in families:
+        if m < 2:
             continue
         independent = -math.expm1(m * math.log1p(-plan.alpha))
         notes.append(Note(
             "no-multiplicity-control", "multiplicity.method",
-            f"method 'none' leaves the {m} hypotheses on primary outcome {outcome.name!r} "
-            f"unadjusted: the chance of at least one false rejection exceeds alpha {plan.alpha:g} "
-            f"({independent:.3f} if the {m} tests were independent)",
+            f"method 'none' leaves the {m} hypotheses of {family} unadjusted: the chance of at "
+            f"least one false rejection exceeds alpha {plan.alpha:g} ({independent:.3f} if the "
+            f"{m} tests were independent)",
             ICH_E9_MULTIPLICITY))
     return notes
 

@@ -52,7 +52,7 @@ def test_no_multiplicity_control_on_a_primary_outcome(write_study):
     # 1 - (1 - 0.05)^3 = 0.142625 (arithmetic).
     assert _notes(write_study, text) == (Note(
         "no-multiplicity-control", "multiplicity.method",
-        "method 'none' leaves the 3 hypotheses on primary outcome 'pain' unadjusted: the chance "
+        "method 'none' leaves the 3 hypotheses of primary outcome 'pain' unadjusted: the chance "
         "of at least one false rejection exceeds alpha 0.05 (0.143 if the 3 tests were independent)",
         "ICH E9 1998, section 5.6; EMA 2017, guideline on multiplicity issues in clinical trials, "
         "EMA/CHMP/44762/2017"),)
@@ -68,6 +68,18 @@ def test_no_multiplicity_control_on_a_primary_outcome(write_study):
 ])
 def test_no_multiplicity_note_when_not_needed(write_study, text):
     assert _notes(write_study, text) == ()
+
+
+def test_no_multiplicity_control_over_the_primary_family(write_study):
+    # Two primary outcomes with one hypothesis each form one unadjusted family of 2;
+    # 1 - 0.95^2 = 0.0975 (arithmetic).
+    text = ("contrasts:\n  - {id: C1, kind: custom, label: x, weights: {low: 1, high: -1}}\n"
+            "multiplicity: {method: none, scope: primary-family}\n")
+    notes = lint(load_plan(write_study(BASE.replace("role: secondary", "role: primary") + text)).plan)
+    assert [n.message for n in notes] == [
+        "method 'none' leaves the 2 hypotheses of the primary family ('pain', 'sleep') "
+        "unadjusted: the chance of at least one false rejection exceeds alpha 0.05 "
+        "(0.098 if the 2 tests were independent)"]
 
 
 def test_one_sided_tests_in_contrasts_and_exploratory(write_study):
