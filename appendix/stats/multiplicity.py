@@ -67,7 +67,10 @@ def adjust(p: Sequence[float | None], method: str) -> np.ndarray:
     elif method == "bonferroni":
         adjusted = values * m
     elif method == "sidak":
-        adjusted = -np.expm1(m * np.log1p(-values))
+        # p = 1 stays 1; log1p(-1) would be -inf (and a floating-point warning).
+        below = values < 1.0
+        adjusted = np.ones(m)
+        adjusted[below] = -np.expm1(m * np.log1p(-values[below]))
     else:
         order = np.argsort(values, kind="stable")
         ranked = values[order]
