@@ -176,6 +176,10 @@ def _multiplicity(raw: Mapping, design: _Design) -> list[Found]:
     found: list[Found] = []
     if isinstance(method, str) and method in _SINGLE_KIND:
         found += _single_kind(method, contrasts, design)
+        if settings.get("scope") == "primary-family":
+            found.append((("multiplicity", "scope"),
+                          f"got 'primary-family' with method {show(method)}; allowed: 'per-outcome' "
+                          "(its simultaneous tests compare the levels of one outcome)"))
     order = settings.get("order")
     where = ("multiplicity", "order")
     if method == "fixed-sequence":

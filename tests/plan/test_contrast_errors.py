@@ -135,6 +135,11 @@ CASES = [
             "multiplicity: {method: dunnett}\n",
      ["20: contrasts[0].kind: got 'pairwise' under multiplicity method 'dunnett'; allowed: only "
       "'versus-control' contrasts, one per outcome"]),
+    ("dunnett across the primary family",
+     BASE + "contrasts:\n  - {id: C1, kind: versus-control, label: x}\n"
+            "multiplicity: {method: dunnett, scope: primary-family}\n",
+     ["21: multiplicity.scope: got 'primary-family' with method 'dunnett'; allowed: "
+      "'per-outcome' (its simultaneous tests compare the levels of one outcome)"]),
     ("unknown multiplicity method",
      BASE + "multiplicity: {method: holms}\n",
      ["19: multiplicity.method: got 'holms'; allowed: 'none', 'bonferroni', 'holm', 'hochberg', "

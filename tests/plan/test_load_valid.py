@@ -60,7 +60,7 @@ def test_hash_is_of_canonical_plan_json(write_study):
     dumped = json.dumps(loaded.plan.model_dump(mode="json"), sort_keys=True,
                         separators=(",", ":"), ensure_ascii=False)
     assert canonical_json(loaded.plan) == dumped
-    assert loaded.sha256 == hashlib.sha256(dumped.encode()).hexdigest()
+    assert loaded.sha256 == plan_sha256(loaded.plan) == hashlib.sha256(dumped.encode()).hexdigest()
     assert loaded.content == BASE.encode()
 
 
