@@ -37,8 +37,10 @@ def describe_contrasts(plan: Plan) -> list[str]:
         settings = plan.multiplicity
         order = f" in the order {', '.join(settings.order)}" if settings.order else ""
         counts = ", ".join(f"{o.name} {plan.hypothesis_count(o.name)}" for o in plan.outcomes)
+        primary = sum(plan.hypothesis_count(o.name) for o in plan.outcomes if o.role == "primary")
+        family = f"; primary family {primary}" if settings.scope == "primary-family" else ""
         lines.append(f"multiplicity: {settings.method}{order}, {settings.scope}; "
-                     f"hypotheses per outcome: {counts}")
+                     f"hypotheses per outcome: {counts}{family}")
     lines += [_contrast("exploratory", c, k) + f"; not adjusted; reason: {c.reason}"
               for c in plan.exploratory]
     return lines

@@ -70,3 +70,11 @@ def test_check_prints_notes_before_the_last_line(demo_study):
 def test_no_contrasts_no_multiplicity_line(demo_study):
     text = PLAN.split("assumptions:")[0] + "analysis: {method: rank-based}\n"
     assert describe_contrasts(_loaded(demo_study, text).plan) == ["registered analysis: rank-based"]
+
+
+def test_primary_family_size(demo_study):
+    text = PLAN.replace("{method: fixed-sequence, order: [C2, C1, C3]}",
+                        "{method: bonferroni, scope: primary-family}")
+    lines = describe_contrasts(_loaded(demo_study, text).plan)
+    assert lines[5] == ("multiplicity: bonferroni, primary-family; hypotheses per outcome: "
+                        "dry_mass 9, chlorophyll 8; primary family 9")
