@@ -2,8 +2,9 @@
 
 `make_figures` draws, per outcome: the distribution by group, the group means with their
 confidence intervals, a normal Q-Q plot of the residuals, residuals against fitted values
-and the reference F distribution with the observed F. A figure whose statistic is missing
-is left out; the appendix then says why.
+and the reference F distribution with the observed F; and, when the outcome has planned
+contrasts, a forest plot of the registered family (``{outcome}-contrasts``). A figure
+whose statistic is missing is left out; the appendix then says why.
 
 Palette: eight colours of our own, chosen so that levels differ in lightness as well as
 hue. Red-green colour vision deficiencies collapse hue differences along the red-green
@@ -30,7 +31,7 @@ from scipy import stats
 
 from appendix import numbers
 from appendix.data.dataset import Dataset, OutcomeData
-from appendix.results import OutcomeResult, StudyResults
+from appendix.results import ContrastFamily, HypothesisResult, OutcomeResult, StudyResults
 
 #: Level colours, in level order (cycled beyond eight levels).
 PALETTE: tuple[str, ...] = (
@@ -108,17 +109,25 @@ def make_figures(dataset: Dataset, results: StudyResults) -> dict[str, str]:
     figures: dict[str, str] = {}
     drawable = {item.name for item in dataset.outcomes}
     for outcome in results.outcomes:
-        if outcome.name not in drawable:
-            continue  # no data to draw from; the appendix says "not drawn"
-        panel = _panel(dataset, outcome)
-        for kind, draw in _DRAWERS.items():
-            stem = f"{outcome.name}-{kind}"
-            # drawing inside the context: font sizes are fixed when artists are made
-            with matplotlib.rc_context({**_RC, "svg.hashsalt": stem}):
-                figure = draw(panel)
-                if figure is not None:
-                    figures[stem] = _to_svg(figure, stem)
+        # without data only the data figures are skipped; the appendix says "not drawn"
+        if outcome.name in drawable:
+            panel = _panel(dataset, outcome)
+            for kind, draw in _DRAWERS.items():
+                _draw(figures, f"{outcome.name}-{kind}", draw, panel)
+        family = next((f for f in outcome.contrasts if f.registered), None)
+        if family is not None and family.hypotheses:
+            _draw(figures, f"{outcome.name}-{CONTRASTS_KIND}",
+                  lambda f: _forest(outcome, f), family)
     return figures
+
+
+def _draw(figures: dict[str, str], stem: str, draw: Callable, source) -> None:
+    """Draw one figure into `figures[stem]` (nothing when `draw` returns None)."""
+    # drawing inside the context: font sizes are fixed when artists are made
+    with matplotlib.rc_context({**_RC, "svg.hashsalt": stem}):
+        figure = draw(source)
+        if figure is not None:
+            figures[stem] = _to_svg(figure, stem)
 
 
 def _panel(dataset: Dataset, outcome: OutcomeResult) -> _Panel:
@@ -270,9 +279,73 @@ def _f_reference(panel: _Panel) -> Figure | None:
     return figure
 
 
-def _wrap(label: str) -> str:
-    # long outcome labels would run off a 2.9-inch axis; break them between words
-    return "\n".join(textwrap.wrap(label, width=44)) or label
+#: The stem suffix of the forest plot of an outcome's registered contrasts.
+CONTRASTS_KIND = "contrasts"
+
+_GAP_WORDS = MappingProxyType({"not-tested": "not tested under the plan",
+                               "unavailable": "unavailable"})
+
+
+def _drawn(h: HypothesisResult) -> bool:
+    return (h.decision not in _GAP_WORDS and h.estimate is not None
+            and (h.ci_low is not None or h.ci_high is not None))
+
+
+def _forest(outcome: OutcomeResult, family: ContrastFamily) -> Figure | None:
+    """Estimates with their CIs, one row per hypothesis (plan order from the top), a zero
+    line; an open one-sided bound is an arrow to the axis edge; not-tested and unavailable
+    hypotheses are labelled gaps."""
+    hypotheses = family.hypotheses
+    shown = [h for h in hypotheses if _drawn(h)]
+    if not shown:
+        return None
+    ends = [0.0] + [v for h in shown for v in (h.estimate, h.ci_low, h.ci_high) if v is not None]
+    low, high = min(ends), max(ends)
+    pad = 0.08 * ((high - low) or 1.0)
+    left, right = low - pad, high + pad
+    if any(h.ci_low is None for h in shown):
+        left -= 2 * pad  # room for the arrow of an open lower bound
+    if any(h.ci_high is None for h in shown):
+        right += 2 * pad
+    rows = len(hypotheses)
+    figure, ax = _new_figure(height=max(1.7, 0.75 + 0.36 * rows))
+    ax.axvline(0.0, color="#000000", linewidth=0.7)
+    gap_place = ax.get_yaxis_transform()  # x in axes fraction, y in data
+    for i, h in enumerate(hypotheses):
+        y = rows - 1 - i
+        if not _drawn(h):
+            ax.text(0.5, y, _GAP_WORDS.get(h.decision, "no interval"), transform=gap_place,
+                    ha="center", va="center", fontstyle="italic", color="#555555")
+            continue
+        start = h.ci_low if h.ci_low is not None else h.ci_high
+        stop = h.ci_high if h.ci_low is not None else left
+        if h.ci_low is not None and h.ci_high is None:
+            stop = right
+        if h.ci_low is not None and h.ci_high is not None:
+            ax.plot([start, stop], [y, y], color=PALETTE[0], linewidth=1.5,
+                    solid_capstyle="butt")
+        else:
+            ax.annotate("", xy=(stop, y), xytext=(start, y),
+                        arrowprops={"arrowstyle": "-|>", "color": PALETTE[0], "linewidth": 1.5,
+                                    "shrinkA": 0, "shrinkB": 0, "mutation_scale": 9})
+        ax.plot([h.estimate], [y], marker="s", markersize=5.5, color=PALETTE[0],
+                markeredgecolor="#000000", markeredgewidth=0.6, linestyle="none")
+    ax.set_yticks(range(rows), labels=[_wrap(h.label, 30) for h in reversed(hypotheses)])
+    ax.tick_params(axis="y", length=0)
+    ax.spines["left"].set_visible(False)
+    ax.set_ylim(-0.6, rows - 0.4)
+    ax.set_xlim(left, right)
+    if family.method == "rank-based":
+        ax.set_xlabel("Difference in mean ranks")
+    else:
+        unit = outcome.unit
+        ax.set_xlabel(f"Contrast estimate ({unit})" if unit else "Contrast estimate")
+    return figure
+
+
+def _wrap(label: str, width: int = 44) -> str:
+    # long labels would run off a 2.9-inch axis; break them between words
+    return "\n".join(textwrap.wrap(label, width=width)) or label
 
 
 def _legend_outside(ax) -> None:

@@ -10,6 +10,7 @@ publishers' records before a release.
 
 from __future__ import annotations
 
+import unicodedata
 from collections.abc import Mapping
 from dataclasses import dataclass
 from types import MappingProxyType
@@ -35,10 +36,17 @@ class Reference:
     publisher: str | None = None
     edition: str | None = None
     doi: str | None = None
+    editors: str | None = None
+    book: str | None = None
 
     @property
     def is_article(self) -> bool:
         return self.journal is not None
+
+    @property
+    def is_chapter(self) -> bool:
+        """A chapter in an edited book: `book` (italic) with its `editors` and `pages`."""
+        return self.book is not None
 
 
 def _article(key, authors, year, title, journal, volume, issue, pages, doi) -> Reference:
@@ -48,6 +56,11 @@ def _article(key, authors, year, title, journal, volume, issue, pages, doi) -> R
 
 def _book(key, authors, year, title, publisher, edition=None, doi=None) -> Reference:
     return Reference(key, authors, year, title, publisher=publisher, edition=edition, doi=doi)
+
+
+def _chapter(key, authors, year, title, editors, book, pages, publisher) -> Reference:
+    return Reference(key, authors, year, title, pages=pages, publisher=publisher,
+                     editors=editors, book=book)
 
 
 @dataclass(frozen=True)
@@ -60,6 +73,8 @@ class Method:
     references: tuple[str, ...]
 
 
+# All entries from memory, including the contrast and multiplicity references of issue 3
+# (Tukey's 1953 manuscript, the Maurer et al. chapter and the DOIs are the least certain).
 REFERENCES: Mapping[str, Reference] = MappingProxyType({r.key: r for r in (
     _book("apa2020", "American Psychological Association", 2020, "Publication manual of the "
           "American Psychological Association", "American Psychological Association", "7th ed.",
@@ -67,6 +82,10 @@ REFERENCES: Mapping[str, Reference] = MappingProxyType({r.key: r for r in (
     _article("bartlett1937", "Bartlett, M. S.", 1937, "Properties of sufficiency and "
              "statistical tests", "Proceedings of the Royal Society of London. Series A",
              "160", "901", "268\u2013282", "10.1098/rspa.1937.0109"),
+    _article("benjamini1995", "Benjamini, Y., & Hochberg, Y.", 1995, "Controlling the false "
+             "discovery rate: A practical and powerful approach to multiple testing",
+             "Journal of the Royal Statistical Society. Series B (Methodological)", "57", "1",
+             "289\u2013300", "10.1111/j.2517-6161.1995.tb02031.x"),
     _book("blom1958", "Blom, G.", 1958, "Statistical estimates and transformed beta-variables",
           "Wiley"),
     _article("brown1974", "Brown, M. B., & Forsythe, A. B.", 1974, "Robust tests for the "
@@ -76,16 +95,51 @@ REFERENCES: Mapping[str, Reference] = MappingProxyType({r.key: r for r in (
           "sciences", "Lawrence Erlbaum Associates", "2nd ed."),
     _book("cook1982", "Cook, R. D., & Weisberg, S.", 1982, "Residuals and influence in "
           "regression", "Chapman and Hall"),
+    _article("dunn1961", "Dunn, O. J.", 1961, "Multiple comparisons among means",
+             "Journal of the American Statistical Association", "56", "293", "52\u201364",
+             "10.1080/01621459.1961.10482090"),
+    _article("dunn1964", "Dunn, O. J.", 1964, "Multiple comparisons using rank sums",
+             "Technometrics", "6", "3", "241\u2013252", "10.1080/00401706.1964.10490181"),
+    _article("dunnett1955", "Dunnett, C. W.", 1955, "A multiple comparison procedure for "
+             "comparing several treatments with a control", "Journal of the American "
+             "Statistical Association", "50", "272", "1096\u20131121",
+             "10.1080/01621459.1955.10501294"),
     _book("fisher1925", "Fisher, R. A.", 1925, "Statistical methods for research workers",
           "Oliver and Boyd"),
+    _book("fisher1938", "Fisher, R. A., & Yates, F.", 1938, "Statistical tables for "
+          "biological, agricultural and medical research", "Oliver and Boyd"),
+    _article("games1976", "Games, P. A., & Howell, J. F.", 1976, "Pairwise multiple comparison "
+             "procedures with unequal n's and/or variances: A Monte Carlo study", "Journal of "
+             "Educational Statistics", "1", "2", "113\u2013125", "10.3102/10769986001002113"),
     _book("hays1963", "Hays, W. L.", 1963, "Statistics for psychologists",
           "Holt, Rinehart and Winston"),
+    _article("hedges1981", "Hedges, L. V.", 1981, "Distribution theory for Glass's estimator of "
+             "effect size and related estimators", "Journal of Educational Statistics", "6", "2",
+             "107\u2013128", "10.3102/10769986006002107"),
+    _article("hochberg1988", "Hochberg, Y.", 1988, "A sharper Bonferroni procedure for multiple "
+             "tests of significance", "Biometrika", "75", "4", "800\u2013802",
+             "10.1093/biomet/75.4.800"),
+    _article("holm1979", "Holm, S.", 1979, "A simple sequentially rejective multiple test "
+             "procedure", "Scandinavian Journal of Statistics", "6", "2", "65\u201370", None),
     _article("hyndman1996", "Hyndman, R. J., & Fan, Y.", 1996, "Sample quantiles in "
              "statistical packages", "The American Statistician", "50", "4", "361\u2013365",
              "10.1080/00031305.1996.10473566"),
+    _book("ich1998", "International Conference on Harmonisation", 1998, "ICH harmonised "
+          "tripartite guideline E9: Statistical principles for clinical trials",
+          "International Conference on Harmonisation"),
+    _book("kirk2013", "Kirk, R. E.", 2013, "Experimental design: Procedures for the behavioral "
+          "sciences", "SAGE", "4th ed."),
+    _article("kramer1956", "Kramer, C. Y.", 1956, "Extension of multiple range tests to group "
+             "means with unequal numbers of replications", "Biometrics", "12", "3",
+             "307\u2013310", "10.2307/3001469"),
     _article("kruskal1952", "Kruskal, W. H., & Wallis, W. A.", 1952, "Use of ranks in "
              "one-criterion variance analysis", "Journal of the American Statistical "
              "Association", "47", "260", "583\u2013621", "10.1080/01621459.1952.10483441"),
+    _chapter("maurer1995", "Maurer, W., Hothorn, L. A., & Lehmacher, W.", 1995, "Multiple "
+             "comparisons in drug clinical trials and preclinical assays: A-priori ordered "
+             "hypotheses", "J. Vollmar (Ed.)", "Biometrie in der chemisch-pharmazeutischen "
+             "Industrie: Vol. 6. Testing principles in clinical and preclinical trials",
+             "3\u201318", "Gustav Fischer"),
     _article("mccullough1998", "McCullough, B. D.", 1998, "Assessing the reliability of "
              "statistical software: Part I", "The American Statistician", "52", "4",
              "358\u2013366", "10.1080/00031305.1998.10480586"),
@@ -99,16 +153,32 @@ REFERENCES: Mapping[str, Reference] = MappingProxyType({r.key: r for r in (
     _article("royston1995", "Royston, P.", 1995, "Remark AS R94: A remark on algorithm AS 181: "
              "The W-test for normality", "Journal of the Royal Statistical Society. Series C "
              "(Applied Statistics)", "44", "4", "547\u2013551", "10.2307/2986146"),
+    _article("satterthwaite1946", "Satterthwaite, F. E.", 1946, "An approximate distribution of "
+             "estimates of variance components", "Biometrics Bulletin", "2", "6",
+             "110\u2013114", "10.2307/3002019"),
     _article("shapiro1965", "Shapiro, S. S., & Wilk, M. B.", 1965, "An analysis of variance "
              "test for normality (complete samples)", "Biometrika", "52", "3\u20134",
              "591\u2013611", "10.1093/biomet/52.3-4.591"),
+    _article("sidak1967", "\u0160id\u00e1k, Z.", 1967, "Rectangular confidence regions for the "
+             "means of multivariate normal distributions", "Journal of the American "
+             "Statistical Association", "62", "318", "626\u2013633",
+             "10.1080/01621459.1967.10482935"),
     _article("steiger2004", "Steiger, J. H.", 2004, "Beyond the F test: Effect size confidence "
              "intervals and tests of close fit in the analysis of variance and contrast "
              "analysis", "Psychological Methods", "9", "2", "164\u2013182",
              "10.1037/1082-989X.9.2.164"),
+    _book("tukey1953", "Tukey, J. W.", 1953, "The problem of multiple comparisons",
+          "Unpublished manuscript, Princeton University; reprinted 1994 in The collected works "
+          "of John W. Tukey, Vol. 8, Chapman & Hall"),
+    _article("welch1947", "Welch, B. L.", 1947, "The generalization of \u2018Student's\u2019 "
+             "problem when several different population variances are involved", "Biometrika",
+             "34", "1\u20132", "28\u201335", "10.1093/biomet/34.1-2.28"),
     _article("welch1951", "Welch, B. L.", 1951, "On the comparison of several mean values: An "
              "alternative approach", "Biometrika", "38", "3\u20134", "330\u2013336",
              "10.1093/biomet/38.3-4.330"),
+    _article("westfall2001", "Westfall, P. H., & Krishen, A.", 2001, "Optimally weighted, fixed "
+             "sequence and gatekeeper multiple testing procedures", "Journal of Statistical "
+             "Planning and Inference", "99", "1", "25\u201340", None),
     _article("zimmerman2004", "Zimmerman, D. W.", 2004, "A note on preliminary tests of "
              "equality of variances", "British Journal of Mathematical and Statistical "
              "Psychology", "57", "1", "173\u2013181", "10.1348/000711004849222"),
@@ -169,6 +239,106 @@ METHODS: Mapping[str, Method] = MappingProxyType({m.key: m for m in (
            "plan's threshold in absolute value are listed. They are reported, not removed: "
            "only registered exclusion rules remove units.",
            ("cook1982",)),
+    Method("contrasts-classical", "Planned contrasts, pooled variance",
+           "Each planned contrast tests H0: \u03a3 w\u1d62\u03bc\u1d62 = 0 for its weights w "
+           "over the groups. The estimate is \u03a3 w\u1d62\u0233\u1d62, its standard error "
+           "\u221a(MS_within \u03a3 w\u1d62\u00b2/n\u1d62), and t = estimate / SE is referred "
+           "to Student's t on the N \u2212 k degrees of freedom of the within-group mean square "
+           "(Kirk, 2013). Pairs are written later level minus earlier level.",
+           ("kirk2013",)),
+    Method("contrasts-welch", "Planned contrasts, unequal variances (Welch\u2013Satterthwaite)",
+           "Without assuming equal variances, the standard error of a contrast is "
+           "\u221a(\u03a3 w\u1d62\u00b2s\u1d62\u00b2/n\u1d62) and t is referred to Student's "
+           "t on the Welch\u2013Satterthwaite degrees of freedom (Welch, 1947; Satterthwaite, "
+           "1946), generally fractional.",
+           ("welch1947", "satterthwaite1946")),
+    Method("contrasts-rank", "Rank-based contrasts (Dunn)",
+           "Contrasts of the groups' mean ranks over all units, with the standard error of "
+           "Dunn (1964) corrected for ties; z = estimate / SE is referred to the standard normal "
+           "distribution. Estimates are differences in mean ranks, not in the outcome's unit.",
+           ("dunn1964",)),
+    Method("trend", "Orthogonal polynomial trend contrasts",
+           "Trend contrasts for an ordered factor use orthogonal polynomial weights for the "
+           "registered spacing of the levels (linear, quadratic, ...), obtained by "
+           "orthogonalising the powers of the spacing; with equal spacing they are the "
+           "tabulated coefficients (Fisher & Yates, 1938; Kirk, 2013). Each is scaled so that "
+           "its squared weights sum to 1 and the highest level weighs positive.",
+           ("fisher1938", "kirk2013")),
+    Method("helmert", "Helmert contrasts",
+           "Each level in plan order is compared with the mean of the levels after it "
+           "(weights 1 and \u22121/(k \u2212 i)); the k \u2212 1 contrasts are mutually "
+           "orthogonal for equal group sizes (Kirk, 2013).",
+           ("kirk2013",)),
+    Method("tukey", "Tukey\u2013Kramer simultaneous pairwise comparisons",
+           "All pairwise differences are referred to the studentized range distribution "
+           "(Tukey, 1953), with the standard error of each pair from its own group sizes "
+           "(Kramer, 1956). Adjusted p values and confidence intervals hold simultaneously for "
+           "the whole family of pairs.",
+           ("tukey1953", "kramer1956")),
+    Method("games-howell", "Games\u2013Howell pairwise comparisons",
+           "Under unequal variances each pair's difference uses its own standard error and "
+           "Welch\u2013Satterthwaite degrees of freedom, referred to the studentized range "
+           "distribution (Games & Howell, 1976). Its intervals hold jointly only approximately.",
+           ("games1976", "welch1947")),
+    Method("dunnett", "Dunnett's many-to-one comparisons",
+           "Each level is compared with the control by a single-step test on the multivariate "
+           "t distribution of the comparisons, whose correlations follow from the group sizes "
+           "(Dunnett, 1955); adjusted p values and intervals hold simultaneously.",
+           ("dunnett1955",)),
+    Method("bonferroni", "Bonferroni adjustment",
+           "Each p value is multiplied by the number m of hypotheses in the family (capped at 1) "
+           "and each interval is set at level 1 \u2212 \u03b1/m, which holds the family-wise "
+           "error rate at \u03b1 under any dependence (Dunn, 1961).",
+           ("dunn1961",)),
+    Method("sidak", "\u0160id\u00e1k adjustment",
+           "Adjusted p = 1 \u2212 (1 \u2212 p)^m and intervals at level (1 \u2212 \u03b1)^(1/m) "
+           "(\u0160id\u00e1k, 1967), exact for independent tests and slightly less "
+           "conservative than Bonferroni.",
+           ("sidak1967",)),
+    Method("holm", "Holm's step-down adjustment",
+           "The ordered p values are compared with \u03b1/m, \u03b1/(m \u2212 1), ... and "
+           "testing stops at the first non-rejection (Holm, 1979); it controls the family-wise "
+           "error rate under any dependence. Intervals are unadjusted.",
+           ("holm1979",)),
+    Method("hochberg", "Hochberg's step-up adjustment",
+           "The ordered p values are compared with the same thresholds as Holm's, from the "
+           "largest down (Hochberg, 1988); it controls the family-wise error rate for "
+           "independent or positively dependent tests. Intervals are unadjusted.",
+           ("hochberg1988",)),
+    Method("benjamini-hochberg", "Benjamini\u2013Hochberg false discovery rate",
+           "Step-up adjusted p values that control the expected share of false rejections "
+           "among the rejections, the false discovery rate (Benjamini & Hochberg, 1995), not the "
+           "family-wise error rate. Intervals are unadjusted.",
+           ("benjamini1995",)),
+    Method("fixed-sequence", "Fixed-sequence testing",
+           "The hypotheses are tested at the full \u03b1 in the registered order; testing "
+           "stops at the first hypothesis not rejected, and the later ones are not tested. This "
+           "controls the family-wise error rate without splitting \u03b1 (Maurer et al., 1995; "
+           "Westfall & Krishen, 2001). The adjusted p of a hypothesis is the largest raw p up "
+           "to it; intervals are unadjusted.",
+           ("maurer1995", "westfall2001")),
+    Method("unadjusted", "No multiplicity adjustment",
+           "Families marked with no adjustment report raw p values and unadjusted intervals; "
+           "with several hypotheses the chance of at least one false rejection exceeds "
+           "\u03b1 (ICH E9, 1998, section 5.6).",
+           ("ich1998",)),
+    Method("hedges", "Standardized contrasts (Hedges' g)",
+           "The standardized effect of a contrast is its estimate divided by the pooled "
+           "within-group SD, times Hedges' (1981) small-sample correction "
+           "J = 1 \u2212 3/(4 df \u2212 1) on the within-group degrees of freedom.",
+           ("hedges1981",)),
+    Method("one-sided", "One-sided hypotheses",
+           "A one-sided hypothesis is tested at the registered \u03b1 as its one-sided level, "
+           "with an interval open on the side the alternative does not bound. The regulatory "
+           "convention is half the two-sided \u03b1 (ICH E9, 1998, section 5.5).",
+           ("ich1998",)),
+    Method("contingency", "Registered contingencies",
+           "The plan registers fallback rules: a named test of an assumption whose p below the "
+           "threshold puts another analysis in force, evaluated in plan order, the first that "
+           "fires winning. Such two-stage rules distort the error rates of the final test "
+           "(Zimmerman, 2004; Rochon et al., 2012); the appendix therefore shows every rule, "
+           "whether it fired, and the analyses both with and without it.",
+           ("zimmerman2004", "rochon2012")),
     Method("pretest", "Diagnostics are shown, not used to choose the test",
            "Choosing a test by the outcome of a preliminary test of an assumption distorts "
            "the error rates (Zimmerman, 2004; Rochon et al., 2012). The diagnostics in this "
@@ -187,6 +357,42 @@ def _ran(outcomes: list[dict[str, Any]], test) -> bool:
     return any(test(o) for o in outcomes)
 
 
+def all_families(results: Mapping[str, Any]) -> list[dict[str, Any]]:
+    """Every contrast family of the run: each outcome's, then each exploratory analysis's."""
+    return ([f for o in results["outcomes"] for f in o.get("contrasts", ())]
+            + [f for e in results.get("exploratory", ()) for f in e["families"]])
+
+
+_CONTRAST_METHODS = MappingProxyType({
+    "classical": "contrasts-classical", "welch": "contrasts-welch", "rank-based": "contrasts-rank"})
+
+
+def multiplicity_method(family: Mapping[str, Any]) -> str:
+    """The `METHODS` key of a family's multiplicity control (Tukey under Welch: Games-Howell)."""
+    name = family["multiplicity"]
+    if name == "tukey" and family["method"] == "welch":
+        return "games-howell"
+    return "unadjusted" if name == "none" else name
+
+
+def _contrast_methods(results: Mapping[str, Any]) -> list[str]:
+    families = [f for f in all_families(results) if f["hypotheses"]]
+    hypotheses = [h for f in families for h in f["hypotheses"]]
+    used = {_CONTRAST_METHODS.get(f["method"]) for f in families}
+    used |= {h["kind"] for h in hypotheses} | {multiplicity_method(f) for f in families}
+    if any(h["standardized"] is not None for h in hypotheses):
+        used.add("hedges")
+    if any(h["alternative"] != "two-sided" for h in hypotheses):
+        used.add("one-sided")
+    return [key for key in _CONTRAST_ORDER if key in used]
+
+
+_CONTRAST_ORDER = (
+    "contrasts-classical", "contrasts-welch", "contrasts-rank", "trend", "helmert", "tukey",
+    "games-howell", "dunnett", "bonferroni", "sidak", "holm", "hochberg", "benjamini-hochberg",
+    "fixed-sequence", "unadjusted", "hedges", "one-sided")
+
+
 def methods_used(results: Mapping[str, Any]) -> tuple[Method, ...]:
     """The methods that `results` (parsed results.json) show were run, in appendix order."""
     outcomes = list(results["outcomes"])
@@ -198,11 +404,21 @@ def methods_used(results: Mapping[str, Any]) -> tuple[Method, ...]:
     chosen += ["shapiro"] if _ran(outcomes, lambda o: o["diagnostics"]["normality"]) else []
     chosen += [m for m in ("brown-forsythe", "bartlett") if m in variance_methods]
     chosen += ["outliers"] if _ran(outcomes, lambda o: o["diagnostics"]["outliers"]) else []
-    chosen += ["pretest", "reporting"]
+    chosen += _contrast_methods(results)
+    # with a registered fallback the diagnostics can choose the analysis: say so instead
+    chosen += ["contingency"] if _ran(outcomes, lambda o: o.get("contingencies")) else ["pretest"]
+    chosen += ["reporting"]
     return tuple(METHODS[key] for key in chosen)
+
+
+def _alphabetical(text: str) -> str:
+    # APA files "Šidák" under S: compare letters without their diacritics
+    return "".join(c for c in unicodedata.normalize("NFKD", text)
+                   if not unicodedata.combining(c))
 
 
 def references_for(methods: tuple[Method, ...]) -> tuple[Reference, ...]:
     """The references cited by `methods`, alphabetical as APA orders a reference list."""
     keys = {key for method in methods for key in method.references}
-    return tuple(sorted((REFERENCES[k] for k in keys), key=lambda r: (r.authors, r.year)))
+    return tuple(sorted((REFERENCES[k] for k in keys),
+                        key=lambda r: (_alphabetical(r.authors), r.year)))

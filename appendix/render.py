@@ -18,6 +18,7 @@ import re
 from collections.abc import Mapping
 from dataclasses import dataclass
 from pathlib import Path
+from types import MappingProxyType
 from typing import Any, Literal
 
 import jinja2
@@ -25,7 +26,7 @@ from markupsafe import Markup
 
 from appendix import numbers
 from appendix.figures import FIGURE_KINDS
-from appendix.methods import methods_used, references_for
+from appendix.methods import methods_used, multiplicity_method, references_for
 
 PAPER_SIZES = ("A4", "Letter")
 
@@ -90,7 +91,60 @@ def _filters(options: RenderOptions) -> dict[str, Any]:
         "short_hash": lambda digest: digest[:12],
         "level_counts": _level_counts,
         "upper_first": _upper_first,
+        "contrast_interval": _contrast_interval,
+        "multiplicity_name": lambda family: WORDS["multiplicity"].get(
+            multiplicity_method(family), family["multiplicity"]),
     }
+
+
+#: Words the templates show for the results' stable identifiers.
+WORDS: Mapping[str, Mapping[str, str]] = MappingProxyType({
+    "analyses": MappingProxyType({
+        "classical": "classical (pooled variance)", "welch": "Welch (unequal variances)",
+        "rank-based": "rank-based (Dunn)"}),
+    "analysis_notes": MappingProxyType({
+        "classical": "Estimates are weighted sums of the group means; t on the within-group "
+                     "degrees of freedom (pooled variance).",
+        "welch": "Estimates are weighted sums of the group means; t on Welch\u2013Satterthwaite "
+                 "degrees of freedom (group variances not pooled).",
+        "rank-based": "Estimates are contrasts of the groups' mean ranks; z from Dunn's (1964) "
+                      "rank test, corrected for ties."}),
+    "scopes": MappingProxyType({
+        "per-outcome": "across this outcome's hypotheses",
+        "primary-family": "across the hypotheses of every primary outcome",
+        "exploratory": "within this exploratory analysis"}),
+    "decisions": MappingProxyType({
+        "reject": "rejected", "retain": "not rejected",
+        "not-tested": "not tested under the plan", "unavailable": "unavailable"}),
+    "multiplicity": MappingProxyType({  # keys of appendix.methods.multiplicity_method
+        "tukey": "Tukey\u2013Kramer single-step", "games-howell": "Games\u2013Howell single-step",
+        "dunnett": "Dunnett's many-to-one single-step", "bonferroni": "Bonferroni",
+        "sidak": "\u0160id\u00e1k", "holm": "Holm's step-down", "hochberg": "Hochberg's step-up",
+        "benjamini-hochberg": "Benjamini\u2013Hochberg, controlling the false discovery rate "
+                              "(not the family-wise error rate)",
+        "fixed-sequence": "fixed-sequence testing in the registered order"}),
+    "marks": MappingProxyType({
+        "registered": "Registered result",
+        "comparison": "Shown for comparison, not the registered result"}),
+    "conditions": MappingProxyType({
+        "unequal-variance": "unequal variances", "non-normal": "non-normal errors"}),
+    "tests": MappingProxyType({
+        "brown-forsythe": "Brown\u2013Forsythe", "bartlett": "Bartlett",
+        "shapiro-wilk": "Shapiro\u2013Wilk"}),
+    "deviations": MappingProxyType({"registered-contingency": "Registered contingency applied"}),
+})
+
+
+def _contrast_interval(h: Mapping[str, Any], decimals: int) -> str:
+    """A contrast's CI in brackets; a one-sided interval's open end is written as infinity."""
+    low, high = h["ci_low"], h["ci_high"]
+    if low is None and high is None:
+        return numbers.DASH
+    left = numbers.MINUS + "\u221e" if low is None and h["alternative"] == "less" else \
+        numbers.fixed(low, decimals)
+    right = "\u221e" if high is None and h["alternative"] == "greater" else \
+        numbers.fixed(high, decimals)
+    return f"[{left}, {right}]"
 
 
 def _upper_first(text: str) -> str:
@@ -164,6 +218,7 @@ def render_html(results: dict, figures: dict[str, str], options: RenderOptions) 
         outcomes=_ordered_outcomes(results),
         figures={key: _inline_svg(svg) for key, svg in figures.items()},
         figure_kinds=FIGURE_KINDS,
+        words=WORDS,
         options=options,
         methods=methods,
         references=references_for(methods),

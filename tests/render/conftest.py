@@ -4,11 +4,19 @@ All data here are INVENTED (seeded generator) for testing; they describe no real
 The primary outcome's statistics are computed below with numpy so that figures and
 tables agree; the secondary outcome is degenerate on purpose (F unavailable, with a
 warning) so that the appendix must show an explained gap.
+
+Planned contrasts (registered order C1, C2, C3 under a fixed sequence): C1 custom, C2 a
+one-sided linear trend (open lower bound), C3 each dose versus placebo. The Brown-Forsythe
+fallback fires on the primary outcome, so its Welch family is the registered result and
+the classical family is shown for comparison; the fixed sequence stops at C3:low dose, so
+C3:high dose is not tested. The secondary outcome's contrast is unavailable, with a
+warning. E1 is an exploratory pairwise analysis.
 """
 
 from __future__ import annotations
 
 import copy
+import dataclasses
 
 import numpy as np
 import pytest
@@ -17,6 +25,9 @@ from scipy import stats
 from appendix import results as R
 from appendix.numbers import p_clause
 from appendix.data.dataset import Dataset, OutcomeData, frozen_array
+from appendix.figures import make_figures
+from appendix.render import RenderOptions, render_html
+from render_helpers import parse
 
 LEVELS = ("placebo", "low dose", "high dose")
 PER_GROUP = 8
@@ -61,7 +72,7 @@ def _primary(values: np.ndarray, codes: np.ndarray) -> R.OutcomeResult:
     eta = table.r_squared
     diagnostics = R.Diagnostics(
         normality=R.NormalityTest("shapiro-wilk", 0.9712, 0.6843, len(values)),
-        equal_variance=(R.VarianceTest("brown-forsythe", 0.41, 2, 21, 0.6688),
+        equal_variance=(R.VarianceTest("brown-forsythe", 3.99, 2, 21, 0.0312),
                         R.VarianceTest("bartlett", 0.77, 2, None, 0.6805)),
         outliers=R.OutlierScreen("studentized-residual", 3.0, len(values), (
             R.FlaggedUnit("U-017", "high dose", -19.3, -9.81, -3.12),)),
@@ -72,6 +83,7 @@ def _primary(values: np.ndarray, codes: np.ndarray) -> R.OutcomeResult:
             R.AssumptionStatus("Equal variances", "checked", "Brown-Forsythe and Bartlett."),
             R.AssumptionStatus("Numeric outcome", "by-construction", "Values are read as numbers."),
         ))
+    registered = _family("sbp_change", "welch", groups, REGISTERED, registered=True)
     return R.OutcomeResult(
         name="sbp_change", label="Change in systolic blood pressure", unit="mmHg",
         role="primary", n_analysed=len(values),
@@ -85,7 +97,120 @@ def _primary(values: np.ndarray, codes: np.ndarray) -> R.OutcomeResult:
         diagnostics=diagnostics,
         conclusion=R.Conclusion(
             f"Mean change in systolic blood pressure differed between the groups, "
-            f"F({df_b}, {df_w}) = {f:.2f}, {p_clause(p)}.", "reject", p, 0.05))
+            f"F({df_b}, {df_w}) = {f:.2f}, {p_clause(p)}.", "reject", p, 0.05),
+        selected_method="welch",
+        contrasts=(registered,
+                   _family("sbp_change", "classical", groups, REGISTERED, registered=False)),
+        contingencies=(
+            R.Contingency("assumptions.fallbacks[0]", "non-normal", "shapiro-wilk", 0.6843, 0.05,
+                          False, "rank-based"),
+            R.Contingency("assumptions.fallbacks[1]", "unequal-variance", "brown-forsythe",
+                          0.0312, 0.05, True, "welch")),
+        hypothesis_conclusions=tuple(_sentence(h) for h in registered.hypotheses))
+
+
+# (id, contrast, kind, label, weights, alternative) in registered order
+REGISTERED = (
+    ("C1", "C1", "custom", "active doses versus placebo", (-1.0, 0.5, 0.5), "two-sided"),
+    ("C2:linear", "C2", "trend", "linear trend", (-0.5 ** 0.5, 0.0, 0.5 ** 0.5), "less"),
+    ("C3:low dose", "C3", "versus-control", "low dose \u2212 placebo", (-1.0, 1.0, 0.0),
+     "two-sided"),
+    ("C3:high dose", "C3", "versus-control", "high dose \u2212 placebo", (-1.0, 0.0, 1.0),
+     "two-sided"),
+)
+EXPLORATORY = (
+    ("E1:low dose-placebo", "E1", "pairwise", "low dose \u2212 placebo", (-1.0, 1.0, 0.0),
+     "two-sided"),
+    ("E1:high dose-placebo", "E1", "pairwise", "high dose \u2212 placebo", (-1.0, 0.0, 1.0),
+     "two-sided"),
+    ("E1:high dose-low dose", "E1", "pairwise", "high dose \u2212 low dose", (0.0, -1.0, 1.0),
+     "two-sided"),
+)
+
+
+def _hypothesis(spec, method: str, groups, confidence: float = 0.95) -> R.HypothesisResult:
+    """Contrast estimate, SE, t, df, p and CI by the textbook formulas (numpy/scipy):
+    pooled variance on N - k df, or per-group variances with Welch-Satterthwaite df."""
+    hid, contrast, kind, label, weights, alternative = spec
+    w = np.array(weights)
+    n = np.array([len(g) for g in groups], dtype=float)
+    means = np.array([g.mean() for g in groups])
+    variances = np.array([g.var(ddof=1) for g in groups])
+    df_within = n.sum() - len(groups)
+    pooled = float(((n - 1) * variances).sum() / df_within)
+    if method == "classical":
+        se, df = float(np.sqrt(pooled * (w ** 2 / n).sum())), df_within
+    else:
+        parts = w ** 2 * variances / n
+        se = float(np.sqrt(parts.sum()))
+        df = float(se ** 4 / (parts ** 2 / (n - 1)).sum())
+    estimate = float(w @ means)
+    t = estimate / se
+    low = high = None
+    if alternative == "two-sided":
+        p = float(2 * stats.t.sf(abs(t), df))
+        half = float(stats.t.isf((1 - confidence) / 2, df)) * se
+        low, high = estimate - half, estimate + half
+    elif alternative == "less":
+        p = float(stats.t.sf(-t, df))
+        high = estimate + float(stats.t.isf(1 - confidence, df)) * se
+    else:
+        p = float(stats.t.sf(t, df))
+        low = estimate - float(stats.t.isf(1 - confidence, df)) * se
+    hedges = estimate / np.sqrt(pooled) * (1 - 3 / (4 * df_within - 1))
+    return R.HypothesisResult(
+        id=hid, contrast=contrast, kind=kind, label=label, weights=tuple(weights),
+        alternative=alternative, method=method, estimate=estimate, se=se, statistic=t,
+        statistic_name="t", df=df, p=p, p_adjusted=None, ci_low=low, ci_high=high,
+        confidence_level=confidence, ci_simultaneous=False, standardized=float(hedges),
+        decision="retain")
+
+
+def _fixed_sequence(hypotheses, alpha: float = 0.05) -> tuple[R.HypothesisResult, ...]:
+    """Walk the registered order: reject while p < alpha; the first non-rejection is
+    retained and every later hypothesis is not tested (Maurer et al. 1995)."""
+    done, running, stopped = [], 0.0, False
+    for h in hypotheses:
+        if stopped:
+            done.append(dataclasses.replace(h, decision="not-tested", p_adjusted=None))
+            continue
+        running = max(running, h.p)
+        stopped = running >= alpha
+        done.append(dataclasses.replace(h, p_adjusted=running,
+                                        decision="retain" if stopped else "reject"))
+    return tuple(done)
+
+
+def _family(outcome: str, method: str, groups, specs, registered: bool) -> R.ContrastFamily:
+    hypotheses = _fixed_sequence([_hypothesis(s, method, groups) for s in specs])
+    return R.ContrastFamily(outcome, "per-outcome", "fixed-sequence", method, 0.05, registered,
+                            hypotheses)
+
+
+_DECISION_WORDS = {"reject": "is rejected", "retain": "is not rejected",
+                   "not-tested": "is not tested under the fixed sequence"}
+
+
+def _sentence(h: R.HypothesisResult) -> R.Conclusion:
+    text = f"The hypothesis {h.id} ({h.label}) {_DECISION_WORDS[h.decision]}"
+    if h.p_adjusted is not None:
+        text += f", adjusted {p_clause(h.p_adjusted)}"
+    decision = "retain" if h.decision == "not-tested" else h.decision
+    return R.Conclusion(text + ".", decision, h.p_adjusted, 0.05)
+
+
+def _exploratory(values: np.ndarray, codes: np.ndarray) -> R.ExploratoryAnalysis:
+    groups = [values[codes == i] for i in range(len(LEVELS))]
+    hypotheses = []
+    for spec in EXPLORATORY:
+        h = _hypothesis(spec, "classical", groups)
+        hypotheses.append(dataclasses.replace(
+            h, p_adjusted=h.p, decision="reject" if h.p < 0.05 else "retain"))
+    family = R.ContrastFamily("sbp_change", "exploratory", "none", "classical", 0.05, True,
+                              tuple(hypotheses))
+    return R.ExploratoryAnalysis("E1", "all pairs of arms",
+                                 "requested by the steering committee after unblinding",
+                                 (family,))
 
 
 def _degenerate() -> R.OutcomeResult:
@@ -106,7 +231,26 @@ def _degenerate() -> R.OutcomeResult:
         effect_sizes=(),
         diagnostics=R.Diagnostics(None, (), None, ()),
         conclusion=R.Conclusion("The pain score could not be compared: every value was 2.",
-                                "unavailable", None, 0.05))
+                                "unavailable", None, 0.05),
+        contrasts=(R.ContrastFamily("pain", "per-outcome", "fixed-sequence", "classical", 0.05,
+                                    True, (_unavailable(gap),)),),
+        contingencies=(R.Contingency("assumptions.fallbacks[0]", "non-normal", "shapiro-wilk",
+                                     None, 0.05, False, "rank-based"),
+                       R.Contingency("assumptions.fallbacks[1]", "unequal-variance",
+                                     "brown-forsythe", None, 0.05, False, "welch")),
+        hypothesis_conclusions=(R.Conclusion(
+            "The hypothesis C1 (active doses versus placebo) could not be tested for the pain "
+            "score: every value was 2.", "unavailable", None, 0.05),))
+
+
+def _unavailable(gap: R.StatWarning) -> R.HypothesisResult:
+    hid, contrast, kind, label, weights, alternative = REGISTERED[0]
+    return R.HypothesisResult(
+        id=hid, contrast=contrast, kind=kind, label=label, weights=weights,
+        alternative=alternative, method="classical", estimate=0.0, se=0.0, statistic=None,
+        statistic_name="t", df=6.0, p=None, p_adjusted=None, ci_low=None, ci_high=None,
+        confidence_level=0.95, ci_simultaneous=False, standardized=None,
+        decision="unavailable", warnings=(gap,))
 
 
 def build_dataset() -> Dataset:
@@ -149,13 +293,20 @@ def build_results() -> R.StudyResults:
         study=R.StudyInfo("DEMO-BP-01", "Invented dose-finding study (test data only)",
                           "2026-02-14", "all randomised units"),
         plan_sha256=PLAN_SHA, alpha=0.05,
-        factor=R.FactorInfo("arm", "Treatment arm", LEVELS, "placebo", False),
+        factor=R.FactorInfo("arm", "Treatment arm", LEVELS, "placebo", True),
         inputs=(R.InputFile("study", "study.yaml", STUDY_SHA, 1204),
                 R.InputFile("data", "data/units.csv", DATA_SHA, 812)),
         unit_flow=_flow(),
         outcomes=(_degenerate(), _primary(values, codes)),
         findings=(R.Finding("planned-n-not-met", "Planned 10 units per group; 8 analysed."),),
         software=(R.Software("appendix", "0.1.0"), R.Software("numpy", np.__version__)),
+        exploratory=(_exploratory(values, codes),),
+        deviations=(R.Deviation(
+            "registered-contingency", "sbp_change",
+            "Brown\u2013Forsythe p = .031 < .05 on the primary outcome: the registered fallback "
+            "put the Welch analysis in force; the classical analysis is shown for comparison.",
+            True, "Fallback assumptions.fallbacks[1] of the registered plan."),),
+        multiplicity="fixed-sequence", multiplicity_scope="per-outcome",
     )
 
 
@@ -172,6 +323,22 @@ def study_results() -> R.StudyResults:
 @pytest.fixture(scope="session")
 def plain_results(study_results) -> dict:
     return R.to_plain(study_results)
+
+
+@pytest.fixture(scope="session")
+def figures(dataset, study_results) -> dict[str, str]:
+    return make_figures(dataset, study_results)
+
+
+@pytest.fixture(scope="session")
+def html(plain_results, figures) -> str:
+    """The fixture's appendix HTML with default options."""
+    return render_html(plain_results, figures, RenderOptions())
+
+
+@pytest.fixture(scope="session")
+def page(html):
+    return parse(html)
 
 
 @pytest.fixture()

@@ -59,3 +59,23 @@ def parse(html: str) -> Page:
 
 def squash(text: str) -> str:
     return " ".join(text.split())
+
+
+def journal_tables(page: Page) -> dict[str, list[tuple[str | None, list[str]]]]:
+    """Each table by its title: its rows as (row class, cell texts), header rows included."""
+    tables: dict[str, list[tuple[str | None, list[str]]]] = {}
+    for index, element in enumerate(page.elements):
+        if element.tag != "table":
+            continue
+        title, rows = "", []
+        for inner in page.elements[index + 1:]:
+            if inner.tag in {"table", "p", "div", "section", "figure"}:
+                break
+            if inner.attrs.get("class") == "table-title":
+                title = squash(inner.text)
+            elif inner.tag == "tr":
+                rows.append((inner.attrs.get("class"), []))
+            elif inner.tag in {"td", "th"} and rows:
+                rows[-1][1].append(squash(inner.text))
+        tables[title] = rows
+    return tables

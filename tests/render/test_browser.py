@@ -56,12 +56,13 @@ def test_appendix_in_chromium(page_url):
             boxes = page.eval_on_selector_all(
                 "figure svg", "els => els.map(e => [e.getBoundingClientRect().width,"
                 " e.getBoundingClientRect().height])")
-            assert len(boxes) == 8
+            assert len(boxes) == 9  # primary: five kinds and the forest plot; "pain": three
             assert all(w > 100 and h > 50 for w, h in boxes), boxes
 
             targets = page.eval_on_selector_all(
                 "#contents a", "els => els.map(e => e.getAttribute('href'))")
-            assert len(targets) == 6 + 2 * 9  # six top-level sections, nine links per outcome
+            # seven top-level sections, eleven links per outcome, exploratory and its E1
+            assert len(targets) == 7 + 2 * 11 + 2
             for href in targets:
                 page.click(f'#contents a[href="{href}"]')
                 assert page.evaluate("location.hash") == href

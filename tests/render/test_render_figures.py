@@ -19,14 +19,9 @@ from appendix.figures import DENSE_POINTS, FIGURE_KINDS, PALETTE, make_figures
 SVG = "{http://www.w3.org/2000/svg}svg"
 
 
-@pytest.fixture(scope="module")
-def figures(dataset, study_results):
-    return make_figures(dataset, study_results)
-
-
 def test_every_figure_is_valid_svg(figures):
-    expected = {f"sbp_change-{kind}" for kind in FIGURE_KINDS}
-    # the degenerate outcome has no F and residuals without spread
+    expected = {f"sbp_change-{kind}" for kind in (*FIGURE_KINDS, "contrasts")}
+    # the degenerate outcome has no F, residuals without spread and no contrast estimate
     expected |= {"pain-distribution", "pain-means", "pain-residuals"}
     assert set(figures) == expected
     for svg in figures.values():
@@ -162,3 +157,74 @@ def test_first_six_colours_stay_apart(vision):
     assert closest >= 15.0
     white = _lab(np.ones(3))
     assert min(np.linalg.norm(c - white) for c in seen) >= 20.0  # visible on paper
+
+
+# --- forest plot of the registered contrasts -------------------------------------------
+
+def _texts(svg: str) -> list[ET.Element]:
+    return list(ET.fromstring(svg.encode()).iter("{http://www.w3.org/2000/svg}text"))
+
+
+def _with_registered(study_results, **changes):
+    """The fixture with the primary outcome's registered family changed."""
+    primary = study_results.outcomes[1]
+    family = dataclasses.replace(primary.contrasts[0], **changes)
+    outcome = dataclasses.replace(primary, contrasts=(family,) + primary.contrasts[1:])
+    return dataclasses.replace(study_results, outcomes=(outcome,))
+
+
+def test_forest_labels_hypotheses_top_to_bottom_in_plan_order(figures, study_results):
+    texts = _texts(figures["sbp_change-contrasts"])
+    labels = [h.label for h in study_results.outcomes[1].contrasts[0].hypotheses]
+    ys = {t.text: float(t.get("y")) for t in texts if t.text in labels}
+    assert sorted(ys, key=ys.get) == labels  # SVG y grows downwards
+    words = [t.text for t in texts]
+    assert "Contrast estimate (mmHg)" in words
+    # C3:high dose is not tested under the fixed sequence: a labelled gap in its row
+    gap = next(t for t in texts if t.text == "not tested under the plan")
+    assert float(gap.get("y")) == pytest.approx(ys["high dose \u2212 placebo"], abs=4)
+
+
+def test_forest_draws_an_open_bound_as_an_arrow(dataset, study_results, figures):
+    def patches(svg):
+        return len(re.findall(r'<g id="[^"]*-patch_\d+"', svg))
+
+    one_sided = study_results.outcomes[1].contrasts[0].hypotheses[1]
+    assert one_sided.alternative == "less" and one_sided.ci_low is None
+    closed = dataclasses.replace(one_sided, ci_low=one_sided.ci_high - 5.0)
+    hypotheses = list(study_results.outcomes[1].contrasts[0].hypotheses)
+    hypotheses[1] = closed
+    svg = make_figures(dataset, _with_registered(study_results, hypotheses=tuple(hypotheses)))[
+        "sbp_change-contrasts"]
+    assert patches(figures["sbp_change-contrasts"]) == patches(svg) + 1  # the arrow head
+
+
+def test_forest_axis_of_a_rank_based_family(dataset, study_results):
+    svg = make_figures(dataset, _with_registered(study_results, method="rank-based"))[
+        "sbp_change-contrasts"]
+    assert "Difference in mean ranks" in [t.text for t in _texts(svg)]
+
+
+def test_forest_only_when_the_outcome_has_drawable_contrasts(dataset, study_results):
+    primary = study_results.outcomes[1]
+    bare = dataclasses.replace(study_results, outcomes=(
+        dataclasses.replace(primary, contrasts=()),))
+    assert "sbp_change-contrasts" not in make_figures(dataset, bare)
+    gaps = tuple(dataclasses.replace(h, decision="unavailable")
+                 for h in primary.contrasts[0].hypotheses)
+    assert "sbp_change-contrasts" not in make_figures(
+        dataset, _with_registered(study_results, hypotheses=gaps))
+    # one gap among drawn rows is labelled in its row
+    some = (gaps[0],) + primary.contrasts[0].hypotheses[1:]
+    svg = make_figures(dataset, _with_registered(study_results, hypotheses=some))[
+        "sbp_change-contrasts"]
+    assert "unavailable" in [t.text for t in _texts(svg)]
+
+
+def test_forest_labels_stay_plain_text(dataset, study_results):
+    hypotheses = list(study_results.outcomes[1].contrasts[0].hypotheses)
+    hypotheses[0] = dataclasses.replace(hypotheses[0], label="<script>x</script> $a$")
+    svg = make_figures(dataset, _with_registered(study_results, hypotheses=tuple(hypotheses)))[
+        "sbp_change-contrasts"]
+    assert "<script>" not in svg
+    assert "<script>x</script> $a$" in [t.text for t in _texts(svg)]

@@ -18,26 +18,10 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from render_helpers import parse, squash
 
-from appendix.figures import make_figures
 from appendix.methods import methods_used, references_for
 from appendix.render import RenderOptions, render_html, template_root
 
 CSP = "default-src 'none'; style-src 'unsafe-inline'; img-src data:"
-
-
-@pytest.fixture(scope="module")
-def figures(dataset, study_results):
-    return make_figures(dataset, study_results)
-
-
-@pytest.fixture(scope="module")
-def html(plain_results, figures):
-    return render_html(plain_results, figures, RenderOptions())
-
-
-@pytest.fixture(scope="module")
-def page(html):
-    return parse(html)
 
 
 def _cells(page, row_class):
@@ -53,12 +37,12 @@ def _cells(page, row_class):
 
 
 SECTION_IDS = [
-    "cover", "contents", "summary", "unit-flow", "findings", "methods", "references",
-    "reproducibility",
+    "cover", "contents", "summary", "unit-flow", "findings", "deviations", "methods",
+    "references", "reproducibility",
     *(f"{prefix}{part}" for prefix in ("sbp_change-", "pain-") for part in (
-        "descriptives", "figures", "variance", "robust", "effects", "diagnostics",
-        "assumptions", "conclusion")),
-    "outcome-sbp_change", "outcome-pain",
+        "descriptives", "figures", "variance", "robust", "contrasts", "contingencies",
+        "effects", "diagnostics", "assumptions", "conclusion")),
+    "outcome-sbp_change", "outcome-pain", "exploratory", "exploratory-E1",
 ]
 
 
@@ -103,12 +87,17 @@ def test_variance_table_cells_are_formatted_apa_style(page):
     assert cells == ["Between groups (Treatment arm)", "2", "240.2", "120.1", "5.73", ".010"]
     assert _cells(page, "within")[:4] == ["Within groups (residual)", "21", "440.2", "21.0"]
     notes = [squash(p.text) for p in page.by_tag("p") if p.attrs.get("class") == "table-note"]
-    assert ("The F statistic is referred to the F distribution F(2, 21), right tail; its "
-            "critical value at \u03b1 = .05 is 3.47. R\u00b2 = .35; residual SD = 4.58 mmHg. "
-            "In text: F(2, 21) = 5.73, p = .010.") in notes[2]
-    assert notes[3].endswith("In text: Welch's F(2, 13.62) = 5.87, p = .015. "
-                             "Kruskal\u2013Wallis H(2, N = 24) = 8.04, p = .018.")
-    assert notes[4].startswith("Note. 95% confidence intervals, by inverting the noncentral F")
+
+    def first(start: str) -> str:  # the primary outcome comes first
+        return next(n for n in notes if n.startswith(start))
+
+    assert first("Note. The F statistic") == (
+        "Note. The F statistic is referred to the F distribution F(2, 21), right tail; its "
+        "critical value at \u03b1 = .05 is 3.47. R\u00b2 = .35; residual SD = 4.58 mmHg. "
+        "In text: F(2, 21) = 5.73, p = .010.")
+    assert first("Note. Welch's F").endswith("In text: Welch's F(2, 13.62) = 5.87, p = .015. "
+                                             "Kruskal\u2013Wallis H(2, N = 24) = 8.04, p = .018.")
+    assert first("Note. 95% confidence intervals, by inverting the noncentral F")
 
 
 def test_degenerate_f_is_an_explained_gap(page):
@@ -134,9 +123,11 @@ def test_tiny_p_is_written_below_one_thousandth(plain_results, figures):
 def test_tables_and_figures_are_numbered_in_order(page):
     tables = [squash(e.text) for e in page.elements if e.attrs.get("class") == "table-number"]
     assert tables == [f"Table {i}" for i in range(1, len(tables) + 1)]
-    assert len(tables) == 13  # the degenerate outcome has no effect, diagnostics or assumption table
+    # flow, deviations; primary: 10 (two contrast families); degenerate: 5 (no effect,
+    # diagnostics or assumption table); exploratory 1; inputs, software
+    assert len(tables) == 20
     figures = [squash(e.text) for e in page.elements if e.attrs.get("class") == "figure-number"]
-    assert figures == [f"Figure {i}." for i in range(1, 9)]
+    assert figures == [f"Figure {i}." for i in range(1, 10)]  # the forest plot is the ninth
 
 
 def test_descriptive_columns_keep_one_number_of_decimals(page):
@@ -155,7 +146,8 @@ def test_summary_puts_primary_first_and_quotes_each_conclusion(page, plain_resul
              if "Primary," in e.text or "Secondary," in e.text]
     assert items[0].startswith("Primary, Change in systolic blood pressure. Mean change")
     assert items[1] == ("Secondary, Pain score. The pain score could not be compared: "
-                        "every value was 2.")
+                        "every value was 2. The hypothesis C1 (active doses versus placebo) "
+                        "could not be tested for the pain score: every value was 2.")
 
 
 def test_cover_shows_checksums_short_and_full_and_the_caution(page, plain_results):
@@ -188,7 +180,9 @@ def test_lowercase_labels_start_sentences_capitalised(plain_results, figures):
 def test_methods_follow_what_was_run(plain_results):
     names = [m.key for m in methods_used(plain_results)]
     assert names == ["descriptives", "anova", "welch", "kruskal", "effect_sizes", "shapiro",
-                     "brown-forsythe", "bartlett", "outliers", "pretest", "reporting"]
+                     "brown-forsythe", "bartlett", "outliers", "contrasts-classical",
+                     "contrasts-welch", "trend", "fixed-sequence", "unadjusted", "hedges",
+                     "one-sided", "contingency", "reporting"]
     stripped = copy.deepcopy(plain_results)
     for outcome in stripped["outcomes"]:
         outcome["diagnostics"]["normality"] = None
@@ -202,7 +196,7 @@ def test_methods_follow_what_was_run(plain_results):
 def test_reference_list_is_alphabetical_with_dois(page):
     refs = [squash(e.text) for e in page.by_tag("li")
             if re.match(r"[A-Z][a-z]+, [A-Z]\.|American", e.text)]
-    assert refs == sorted(refs) and len(refs) == 17
+    assert refs == sorted(refs) and len(refs) == 24
     assert any(r.startswith("Welch, B. L. (1951).") and "10.1093/biomet/38.3-4.330" in r
                for r in refs)
 
@@ -261,7 +255,7 @@ def test_every_missing_statistic_renders_as_a_dash(plain_results):
     page = parse(render_html(empty, {}, RenderOptions()))
     assert _cells(page, "between")[2:] == ["\u2014"] * 4
     missing = [p for p in page.by_tag("p") if p.attrs.get("class") == "figure-missing"]
-    assert len(missing) == 10  # five kinds for two outcomes, none drawn
+    assert len(missing) == 12  # five kinds and the forest plot for two outcomes, none drawn
     assert "\u2014" in squash(page.by_tag("body")[0].text)
 
 

@@ -13,13 +13,7 @@ import pypdf
 import pytest
 
 from appendix import numbers, render
-from appendix.figures import make_figures
-from appendix.render import RenderOptions, render_html, render_pdf
-
-
-@pytest.fixture(scope="module")
-def html(dataset, study_results, plain_results):
-    return render_html(plain_results, make_figures(dataset, study_results), RenderOptions())
+from appendix.render import RenderOptions, render_pdf
 
 
 @pytest.fixture(scope="module")
@@ -41,6 +35,18 @@ def test_pdf_has_pages_tables_and_running_header(pdf_path, study_results):
         assert "Study DEMO-BP-01" in text and short in text
         assert f"Page {number} of {len(texts)}" in text
     assert float(reader.pages[0].mediabox.width) == pytest.approx(595.3, abs=0.5)  # A4
+
+
+def test_pdf_holds_contrast_rows_as_formatted(pdf_path, study_results):
+    texts = [" ".join(page.extract_text().split()) for page in pypdf.PdfReader(pdf_path).pages]
+    registered = study_results.outcomes[1].contrasts[0]
+    assert registered.registered and registered.method == "welch"
+    adjusted = numbers.p_value(registered.hypotheses[0].p_adjusted)
+    assert adjusted == ".010"  # INVENTED fixture: Welch contrast C1, fixed sequence
+    page = next(t for t in texts if "Registered result" in t)
+    assert "active doses versus placebo" in page and adjusted in page
+    assert "not tested under the plan" in page
+    assert any("Exploratory analyses (not pre-registered)" in t for t in texts)
 
 
 def test_contents_carry_page_numbers(pdf_path):
