@@ -277,3 +277,26 @@ def test_adjust_across_fixed_sequence_walks_outcome_after_outcome() -> None:
     a, b = mult.adjust_across([first, second], "fixed-sequence", 0.05, order=["C3"])
     assert all(r.decision == "reject" for r in a)
     assert [r.decision for r in b] == ["reject", "retain"] + ["not-tested"] * 4
+
+
+def test_dunnett_degenerate_levels_without_floating_point_warnings() -> None:
+    import warnings
+
+    labels = ("a", "b", "c")
+    vc = hypotheses_for("versus-control", labels, control="a", contrast_id="C2", label="v")
+    # Invented: level b has no spread, so under welch its comparison has correlation 1
+    # with the control's part.
+    values = np.array([1.0, 2, 3, 4, 5, 5, 5, 7, 8, 9.5])
+    codes = np.repeat([0, 1, 2], [4, 3, 3])
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        family = mult.dunnett_family(vc, cell_stats(values, codes, 3, labels), "two-sided", 0.05,
+                                     welch=True)
+        assert all(r.p is not None and r.p <= r.p_adjusted <= 1.0 for r in family)
+        assert all("dunnett-welch-approximate" in {w.code for w in r.warnings} for r in family)
+        # An empty control: nothing can be compared, every hypothesis says why.
+        keep = codes != 0
+        empty = mult.dunnett_family(vc, cell_stats(values[keep], codes[keep], 3, labels),
+                                    "two-sided", 0.05)
+    assert [r.decision for r in empty] == ["unavailable", "unavailable"]
+    assert empty[0].warnings[0].code == "hypothesis-empty-level"
