@@ -73,8 +73,10 @@ class Method:
     references: tuple[str, ...]
 
 
-# All entries from memory, including the contrast and multiplicity references of issue 3
-# (Tukey's 1953 manuscript, the Maurer et al. chapter and the DOIs are the least certain).
+# All entries from memory, including the contrast and multiplicity references of issue 3.
+# The DOIs of Kramer, Satterthwaite, Sidak, Games & Howell and Dunn (1964) agree with
+# citations found in public code; Tukey's 1953 manuscript, the Maurer et al. chapter and
+# Westfall & Krishen (no DOI given) are the least certain.
 REFERENCES: Mapping[str, Reference] = MappingProxyType({r.key: r for r in (
     _book("apa2020", "American Psychological Association", 2020, "Publication manual of the "
           "American Psychological Association", "American Psychological Association", "7th ed.",

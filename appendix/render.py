@@ -103,12 +103,14 @@ WORDS: Mapping[str, Mapping[str, str]] = MappingProxyType({
         "classical": "classical (pooled variance)", "welch": "Welch (unequal variances)",
         "rank-based": "rank-based (Dunn)"}),
     "analysis_notes": MappingProxyType({
-        "classical": "Estimates are weighted sums of the group means; t on the within-group "
-                     "degrees of freedom (pooled variance).",
-        "welch": "Estimates are weighted sums of the group means; t on Welch\u2013Satterthwaite "
-                 "degrees of freedom (group variances not pooled).",
-        "rank-based": "Estimates are contrasts of the groups' mean ranks; z from Dunn's (1964) "
-                      "rank test, corrected for ties."}),
+        # our own markup (italic test statistics), so marked safe for the autoescaping templates
+        "classical": Markup("Estimates are weighted sums of the group means; <i>t</i> on the "
+                            "within-group degrees of freedom (pooled variance)."),
+        "welch": Markup("Estimates are weighted sums of the group means; <i>t</i> on "
+                        "Welch\u2013Satterthwaite degrees of freedom (group variances not "
+                        "pooled)."),
+        "rank-based": Markup("Estimates are contrasts of the groups' mean ranks; <i>z</i> from "
+                             "Dunn's (1964) rank test, corrected for ties.")}),
     "scopes": MappingProxyType({
         "per-outcome": "across this outcome's hypotheses",
         "primary-family": "across the hypotheses of every primary outcome",

@@ -112,12 +112,29 @@ def test_simultaneous_intervals_are_stated(plain_results, figures):
 
 
 def test_unavailable_hypothesis_shows_dashes_and_its_reason(tables, page):
+    # no standardized effect anywhere in the family: no Hedges' g column
+    assert tables[PAIN][0][1][-2:] == ["Adjusted p", "Decision"]
     assert _body(tables[PAIN]) == [["active doses versus placebo C1", "0.00", "\u2014",
-                                    "\u2014", "\u2014", "\u2014", "\u2014", "unavailable"]]
+                                    "\u2014", "\u2014", "\u2014", "unavailable"]]
     assert ("\u2014 Active doses versus placebo (unavailable): within-variance-zero: Every "
             "group's values are identical, so F is undefined.") in _notes(page, "table-note gap")
     missing = squash(_section(page, "pain-contrasts").text)
     assert "Not drawn: the forest plot of the contrasts" in missing
+
+
+def test_rank_based_family_is_in_mean_ranks(plain_results, figures):
+    changed = copy.deepcopy(plain_results)
+    family = changed["outcomes"][1]["contrasts"][0]
+    family["method"] = "rank-based"
+    for h in family["hypotheses"]:
+        h.update(statistic_name="z", df=None, standardized=None)
+    page = parse(render_html(changed, figures, RenderOptions()))
+    title = WELCH.replace("Welch (unequal variances)", "rank-based (Dunn)")
+    table = journal_tables(page)[title]
+    assert table[0][1][1] == "Difference in mean ranks"
+    assert _body(table)[0][3] == f"z = {M}2.90"
+    note = next(n for n in _notes(page) if "mean ranks; z from Dunn's (1964)" in n)
+    assert "Hedges" not in note
 
 
 def test_contingencies_list_each_rule_and_whether_it_fired(page):
