@@ -309,3 +309,24 @@ def test_chapter_and_diacritic_references_are_set_and_filed(plain_results, figur
         _set_families(plain_results, "sidak", "classical")))]
     # APA files Šidák under S, between Shapiro and Steiger
     assert keys.index("shapiro1965") + 1 == keys.index("sidak1967") == keys.index("steiger2004") - 1
+
+
+def _forest_caption(page) -> str:
+    return next(squash(e.text) for e in page.by_tag("figcaption")
+                if "registered hypotheses" in e.text)
+
+
+def test_forest_caption_says_what_the_intervals_are(page, plain_results, figures):
+    caption = _forest_caption(page)
+    assert caption.startswith("Figure 6. Estimates of the registered hypotheses for Change in "
+                              "systolic blood pressure under the Welch (unequal variances) "
+                              "analysis, the registered result, with 95% confidence "
+                              "intervals, not adjusted for multiplicity (not simultaneous);")
+    assert "An arrow marks an interval open" in caption and "labelled gaps" in caption
+    changed = copy.deepcopy(plain_results)
+    family = changed["outcomes"][1]["contrasts"][0]
+    for h in family["hypotheses"]:
+        h.update(alternative="two-sided", decision="reject", ci_simultaneous=True)
+    caption = _forest_caption(parse(render_html(changed, figures, RenderOptions())))
+    assert "95% confidence intervals, simultaneous for the family;" in caption
+    assert "arrow" not in caption and "gaps" not in caption
