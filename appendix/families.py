@@ -44,10 +44,10 @@ def select_method(plan: Plan, diagnostics: Diagnostics) -> tuple[str, tuple[Cont
     selected = plan.analysis.method
     applied = False
     records = []
-    for rule in plan.assumptions.fallbacks:
+    for index, rule in enumerate(plan.assumptions.fallbacks):
         p = _diagnostic_p(diagnostics, rule.test)
         fired = p is not None and p < rule.threshold
-        records.append(Contingency(rule=f"{rule.when} -> {rule.use}", when=rule.when,
+        records.append(Contingency(rule=f"assumptions.fallbacks[{index}]", when=rule.when,
                                    test=rule.test, p=p, threshold=rule.threshold,
                                    fired=fired, use=rule.use))
         if fired and not applied:
@@ -187,7 +187,8 @@ def contingency_deviations(outcome: str, records: tuple[Contingency, ...],
                 kind="registered-contingency", subject=outcome,
                 message=(f"{record.test} p = {record.p:.4g} is below the registered "
                          f"threshold {record.threshold:g}: the registered rule "
-                         f"'{record.rule}' selects the {selected} analysis for {outcome}."),
+                         f"{record.rule} ({record.when}) selects the {selected} analysis "
+                         f"for {outcome}."),
                 acknowledged=True,
                 justification="registered in the plan's fallback rules"),)
     return ()
