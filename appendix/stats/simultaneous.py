@@ -90,7 +90,8 @@ def tukey_results(raw: Sequence[HypothesisResult], alpha: float) -> tuple[Hypoth
 
 # --- Dunnett -------------------------------------------------------------------------
 
-_S_NODES, _S_PANELS, _Z_STEP, _TAIL = 24, 4, 0.03, 1e-17
+_S_NODES, _Z_STEP = 16, 0.03
+_S_EDGES = np.array([1e-17, 1e-9, 1e-5, 1e-3, 0.02, 0.2, 0.5, 0.8, 0.98, 0.999, 1 - 1e-5, 1 - 1e-9])
 
 
 def many_to_one_tail(c: float, lam: Sequence[float], df: float, two_sided: bool) -> float:
@@ -101,9 +102,11 @@ def many_to_one_tail(c: float, lam: Sequence[float], df: float, two_sided: bool)
     rho_ij = lam_i lam_j of comparisons with one shared control (Dunnett 1955, JASA
     50:1096-1121, section 3). Conditional on Z_0 the comparisons are independent, so the
     probability is a double integral over Z_0 (Simpson's rule, step 0.03) and S
-    (24-point Gauss-Legendre in four panels between the 1e-17 quantiles of S). The complement of
-    the product of conditional non-exceedances is taken as -expm1(sum log1p(-q)), so the
-    tail stays accurate when it is small; df = inf drops the S integral.
+    (16-point Gauss-Legendre on log S in eleven panels between quantiles of S, from the
+    1e-17 to the 1 - 1e-9 quantile; about 1e-7 relative error from df = 1 to 1e4). The
+    complement of the product of conditional non-exceedances is taken as
+    -expm1(sum log1p(-q)), so the tail stays accurate when it is small; df = inf drops
+    the S integral.
     """
     # lam = 1 (a comparison whose treated level has no variance, under welch) makes the
     # conditional law a step; a nearly-1 lam keeps the integrand finite and the step sharp.
@@ -112,17 +115,18 @@ def many_to_one_tail(c: float, lam: Sequence[float], df: float, two_sided: bool)
     if math.isinf(df):
         s, w = np.ones(1), np.ones(1)
     else:
-        lo = math.sqrt(float(_st.chi2.ppf(_TAIL, df)) / df)
-        hi = math.sqrt(float(_st.chi2.isf(_TAIL, df)) / df)
+        # In u = log S the integrand is smooth for every df: for small df the mass that
+        # matters for large c sits at tiny S, which a grid in S itself would miss.
+        # Panels between quantiles of S put the nodes where its probability lies, whatever df.
+        edges = 0.5 * np.log(_st.chi2.ppf(_S_EDGES, df) / df)
         x, wx = _sp.roots_legendre(_S_NODES)
-        edges = np.linspace(lo, hi, _S_PANELS + 1)
         mid, half = (edges[1:] + edges[:-1]) / 2, (edges[1:] - edges[:-1]) / 2
-        s = (mid[:, None] + half[:, None] * x[None, :]).ravel()
-        w = (half[:, None] * wx[None, :]).ravel()
-        # density of S: 2 (df/2)^(df/2) s^(df-1) exp(-df s^2 / 2) / Gamma(df/2)
+        u = (mid[:, None] + half[:, None] * x[None, :]).ravel()
+        s = np.exp(u)
+        # density of S times dS/du: 2 (df/2)^(df/2) s^df exp(-df s^2 / 2) / Gamma(df/2)
         log_f = (math.log(2.0) + df / 2 * math.log(df / 2) - float(_sp.gammaln(df / 2))
-                 + (df - 1) * np.log(s) - df * s * s / 2)
-        w = w * np.exp(log_f)
+                 + df * u - df * s * s / 2)
+        w = (half[:, None] * wx[None, :]).ravel() * np.exp(log_f)
     cs = c * s
     reach = min(max(12.0, float(np.abs(cs).max()) + 12.0), 40.0)
     z = np.linspace(-reach, reach, 2 * int(reach / _Z_STEP) + 1)
@@ -145,8 +149,9 @@ def many_to_one_critical(alpha: float, lam: Sequence[float], df: float, two_side
     lam = tuple(float(x) for x in lam)
     dist = _st.norm() if math.isinf(df) else _st.t(df)
     side = 2.0 if two_sided else 1.0
-    low = float(dist.isf(alpha / side)) - 1e-9
-    high = float(dist.isf(alpha / side / len(lam))) + 1e-6
+    # Widened so that the integration error can never put both ends on one side.
+    low = 0.9 * float(dist.isf(alpha / side))
+    high = 1.1 * float(dist.isf(alpha / side / len(lam))) + 0.1
     return float(_opt.brentq(lambda c: many_to_one_tail(c, lam, df, two_sided) - alpha,
                              low, high, xtol=1e-10, rtol=1e-12))
 

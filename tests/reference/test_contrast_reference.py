@@ -110,6 +110,9 @@ def test_many_to_one_tail_reduces_to_t_and_normal() -> None:
     from scipy import stats as st
     # One comparison: the two-sided tail is 2 P(t_10 > 2); scipy.stats.t.sf 1.17 (Boost).
     assert many_to_one_tail(2.0, [0.6], 10, True) == pytest.approx(2 * st.t.sf(2.0, 10), rel=1e-10)
+    # One comparison on 1 df at alpha = .001: Dunnett's d is the t quantile (scipy.stats.t 1.17).
+    assert many_to_one_critical(0.001, [0.7], 1, True) == pytest.approx(st.t.isf(0.0005, 1), rel=1e-6)
+    assert many_to_one_critical(0.05, [0.7], 3, False) == pytest.approx(st.t.isf(0.05, 3), rel=1e-9)
     # Independent comparisons (lam = 0), normal: 1 - (1 - P(Z > 2))^3, exact arithmetic.
     tail = st.norm.sf(2.0)
     assert many_to_one_tail(2.0, [0.0, 0.0, 0.0], math.inf, False) == pytest.approx(
