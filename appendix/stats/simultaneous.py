@@ -55,7 +55,9 @@ def tukey_results(raw: Sequence[HypothesisResult], alpha: float) -> tuple[Hypoth
     estimate -/+ q_{1-alpha; k, df} / sqrt 2 * SE, where k is the number of levels
     compared (Tukey 1953; Kramer 1956, Biometrics 12:307-310, for unequal n). Under
     welch each pair has its own Welch df (Games & Howell 1976, J Educ Stat 1:113-125),
-    which makes the family level approximate; rank-based uses df = infinity.
+    which makes the family level approximate. Rank-based refers Dunn's z to the range
+    with df = infinity, the large-sample all-pairs test on joint mean ranks (Nemenyi
+    1963, from memory).
     The studentized range is two-sided; for a one-sided alternative the directed
     statistic is referred to the same two-sided range and the open end is dropped,
     which is conservative (a warning says so).

@@ -300,3 +300,16 @@ def test_dunnett_degenerate_levels_without_floating_point_warnings() -> None:
                                     "two-sided", 0.05)
     assert [r.decision for r in empty] == ["unavailable", "unavailable"]
     assert empty[0].warnings[0].code == "hypothesis-empty-level"
+
+
+def test_rank_based_tukey_refers_dunn_z_to_the_range_with_infinite_df() -> None:
+    cells, values, codes = _invented_cells(10)
+    hs = hypotheses_for("pairwise", LEVELS, contrast_id="C3", label="pairs")
+    family = mult.test_family(hs, ("two-sided",) * 6, method="rank-based", multiplicity="tukey",
+                              cells=cells, values=values, codes=codes, alpha=0.05)
+    q = st.studentized_range.isf(0.05, 4, np.inf)  # scipy 1.17
+    for r in family:
+        assert r.statistic_name == "z" and r.df is None
+        assert r.p_adjusted == pytest.approx(
+            max(r.p, st.studentized_range.sf(abs(r.statistic) * math.sqrt(2), 4, np.inf)), rel=1e-10)
+        assert r.ci_high - r.estimate == pytest.approx(q / math.sqrt(2) * r.se, rel=1e-10)
