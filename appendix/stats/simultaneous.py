@@ -99,7 +99,7 @@ _S_EDGES = np.array([1e-17, 1e-9, 1e-5, 1e-3, 0.02, 0.2, 0.5, 0.8, 0.98, 0.999, 
 def many_to_one_tail(c: float, lam: Sequence[float], df: float, two_sided: bool) -> float:
     """P(max_i T_i > c) (or P(max_i |T_i| > c)) for Dunnett's many-to-one statistics.
 
-    T_i = (Z_i) / S with Z_i = lam_i Z_0 + sqrt(1 - lam_i^2) E_i (Z_0, E_i independent
+    T_i = Z_i / S with Z_i = lam_i Z_0 + sqrt(1 - lam_i^2) E_i (Z_0, E_i independent
     standard normal) and S ~ sqrt(chi^2_df / df): exactly the correlation structure
     rho_ij = lam_i lam_j of comparisons with one shared control (Dunnett 1955, JASA
     50:1096-1121, section 3). Conditional on Z_0 the comparisons are independent, so the
