@@ -185,7 +185,9 @@ def dunnett_results(raw: Sequence[HypothesisResult], model: LevelModel,
         return tuple(raw)
     control = pairs[0][1]
     v_c = model.var_mean[control]
-    lam = tuple(float(math.sqrt(v_c / (v_c + model.var_mean[t]))) for _, t in ready)
+    # One comparison per treated level: a level listed twice is the same statistic.
+    treated = sorted({t for _, t in ready})
+    lam = tuple(float(math.sqrt(v_c / (v_c + model.var_mean[t]))) for t in treated)
     adjusted: dict[str, HypothesisResult] = {}
     for r, _ in ready:
         df = math.inf if r.df is None else float(r.df)

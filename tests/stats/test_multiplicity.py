@@ -313,3 +313,13 @@ def test_rank_based_tukey_refers_dunn_z_to_the_range_with_infinite_df() -> None:
         assert r.p_adjusted == pytest.approx(
             max(r.p, st.studentized_range.sf(abs(r.statistic) * math.sqrt(2), 4, np.inf)), rel=1e-10)
         assert r.ci_high - r.estimate == pytest.approx(q / math.sqrt(2) * r.se, rel=1e-10)
+
+
+def test_dunnett_counts_a_level_listed_twice_once() -> None:
+    cells, _, _ = _invented_cells(11)
+    vc = hypotheses_for("versus-control", LEVELS, control="uncoated", contrast_id="C2", label="v")
+    again = hypotheses_for("versus-control", LEVELS, control="uncoated", contrast_id="C6", label="w")
+    once = mult.dunnett_family(vc, cells, "two-sided", 0.05)
+    twice = mult.dunnett_family(vc + again[:1], cells, "two-sided", 0.05)
+    assert [r.p_adjusted for r in twice[:3]] == [r.p_adjusted for r in once]
+    assert twice[3].p_adjusted == once[0].p_adjusted and twice[3].id == "C6:chitosan"
