@@ -21,12 +21,32 @@ def frozen_array(values, dtype=None) -> np.ndarray:
 
 
 @dataclass(frozen=True)
+class CellSummary:
+    """Per-level sufficient statistics of all analysed units, computed where the rows
+    are (for a source too large to load): n, mean and sum of squared deviations from the
+    level mean, each an array over `Dataset.levels`."""
+
+    n: np.ndarray
+    mean: np.ndarray
+    ssd: np.ndarray
+
+
+@dataclass(frozen=True)
 class OutcomeData:
     """The analysed units of one outcome: after exclusions, without missing values.
 
     `codes[i]` is the index into `Dataset.levels` of unit `units[i]`, whose value is
     `values[i]` (float64). `lines[i]` is its 1-based line in the data file (header = 1)
     where the format has lines, else its 1-based row number.
+
+    `decimals` is set when every analysed value was written as plain decimal text with
+    at most that many digits after the point (CSV/TSV): the engine then sums them
+    exactly as scaled integers. None means the float64 path.
+
+    `summary` and `sample_of` are set together for a source aggregated out of core:
+    `summary` holds the full-data cell statistics (the variance table and every test
+    built on cell statistics use it), and the arrays hold a deterministic subsample of
+    `sample_of` analysed units, used only for figures and row-level diagnostics.
     """
 
     name: str
@@ -34,6 +54,9 @@ class OutcomeData:
     codes: np.ndarray
     units: tuple[str, ...]
     lines: tuple[int, ...]
+    decimals: int | None = None
+    summary: CellSummary | None = None
+    sample_of: int | None = None
 
 
 @dataclass(frozen=True)
