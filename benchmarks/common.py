@@ -1,0 +1,45 @@
+"""Shared pieces of the benchmark scripts: timing, peak memory, and the result row.
+
+Every benchmark prints ratios measured side by side in the same run, never absolute
+times compared with a constant, so a slow machine does not change the verdict.
+"""
+
+from __future__ import annotations
+
+import gc
+import time
+from collections.abc import Callable
+from dataclasses import dataclass
+
+
+@dataclass(frozen=True)
+class Measurement:
+    """One printed line: `value` compared with `target` (`better` says which way wins)."""
+
+    name: str
+    value: float
+    target: float
+    better: str  # "lower" or "higher"
+    unit: str = "x"
+    detail: str = ""
+
+    @property
+    def met(self) -> bool:
+        return self.value <= self.target if self.better == "lower" else self.value >= self.target
+
+    def line(self) -> str:
+        sign = "<=" if self.better == "lower" else ">="
+        verdict = "met" if self.met else "MISSED"
+        text = f"{self.name:<58} {self.value:>10.2f}{self.unit}  target {sign} {self.target:g}{self.unit}  {verdict}"
+        return text + (f"  ({self.detail})" if self.detail else "")
+
+
+def best_time(function: Callable[[], object], repeat: int = 3) -> float:
+    """The fastest of `repeat` wall-clock runs, in seconds (the least disturbed one)."""
+    times = []
+    for _ in range(repeat):
+        gc.collect()
+        start = time.perf_counter()
+        function()
+        times.append(time.perf_counter() - start)
+    return min(times)
