@@ -292,6 +292,15 @@ class Contingency:
 
 @dataclass(frozen=True)
 class OutcomeResult:
+    """Everything computed for one registered outcome.
+
+    `arithmetic` is ``exact-decimal`` when the sums of squares were accumulated exactly
+    on the decimal text as scaled integers, else ``float64``. When `sample_of` is set
+    the source was aggregated out of core: cell-statistic results use all `sample_of`
+    analysed units, while figures and row-level diagnostics (Shapiro-Wilk, Kruskal-Wallis,
+    Brown-Forsythe, outlier screen, quartiles) use a deterministic subsample of
+    `sample_size` units.
+    """
     name: str
     label: str
     unit: str | None
@@ -305,6 +314,9 @@ class OutcomeResult:
     diagnostics: Diagnostics
     conclusion: Conclusion
     selected_method: str = "classical"
+    arithmetic: str = "float64"
+    sample_of: int | None = None
+    sample_size: int | None = None
     contrasts: tuple[ContrastFamily, ...] = ()
     contingencies: tuple[Contingency, ...] = ()
     hypothesis_conclusions: tuple[Conclusion, ...] = ()
