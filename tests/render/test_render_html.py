@@ -180,7 +180,7 @@ def test_lowercase_labels_start_sentences_capitalised(plain_results, figures):
 def test_methods_follow_what_was_run(plain_results):
     names = [m.key for m in methods_used(plain_results)]
     assert names == ["descriptives", "anova", "welch", "kruskal", "effect_sizes", "shapiro",
-                     "brown-forsythe", "bartlett", "outliers", "contrasts-classical",
+                     "brown-forsythe", "bartlett", "outliers", "float64", "contrasts-classical",
                      "contrasts-welch", "trend", "fixed-sequence", "unadjusted", "hedges",
                      "one-sided", "contingency", "reporting"]
     stripped = copy.deepcopy(plain_results)
@@ -193,10 +193,22 @@ def test_methods_follow_what_was_run(plain_results):
     assert "shapiro1965" not in refs and "welch1951" not in refs and "fisher1925" in refs
 
 
+def test_methods_name_the_arithmetic_path_and_the_subsample(plain_results):
+    changed = copy.deepcopy(plain_results)
+    changed["outcomes"][0]["arithmetic"] = "exact-decimal"
+    keys = [m.key for m in methods_used(changed)]
+    assert keys.index("exact-decimal") < keys.index("float64")  # second outcome stays float
+    assert "subsample" not in keys
+    changed["outcomes"][1]["sample_of"] = 100_000_000
+    assert "subsample" in [m.key for m in methods_used(changed)]
+    refs = [r.key for r in references_for(methods_used(changed))]
+    assert "mccullough1998" in refs and "chan1983" in refs
+
+
 def test_reference_list_is_alphabetical_with_dois(page):
     refs = [squash(e.text) for e in page.by_tag("li")
             if re.match(r"[A-Z][a-z]+, [A-Z]\.|American", e.text)]
-    assert refs == sorted(refs) and len(refs) == 24
+    assert refs == sorted(refs) and len(refs) == 25
     assert any(r.startswith("Welch, B. L. (1951).") and "10.1093/biomet/38.3-4.330" in r
                for r in refs)
 
