@@ -5,14 +5,13 @@ of squared deviations from the cell mean (`ssd`). Everything in the variance tab
 Welch's test and Bartlett's test is then computed from these k numbers per cell, so the
 cost after the pass grows with the number of cells, not rows.
 
-Numerics: the data are first centred on one shift (their median), then the classical
-two-pass algorithm runs on the centred values: cell means first, squared deviations from
-them second (Chan, Golub & LeVeque 1983, "Algorithms for computing the sample variance",
-Am. Stat. 37:242-247). The textbook one-pass formula sum(y^2) - (sum y)^2 / n is never
-used: it cancels catastrophically when the mean is large relative to the spread.
-When the values are decimals (the usual case: data read from text), means and sums of
-squares are instead computed exactly on scaled integers and rounded once
-(`appendix.stats.exact`); the float64 path remains for other data.
+Numerics: float64 data go through a blocked two-pass sweep with each cell centred on
+one of its own values (`appendix.stats.sweep`; Chan, Golub & LeVeque 1983, "Algorithms
+for computing the sample variance", Am. Stat. 37:242-247). The textbook one-pass formula
+sum(y^2) - (sum y)^2 / n is never used in floating point: it cancels catastrophically
+when the mean is large relative to the spread. When the data stage reports that the
+values are decimal text (`decimals`), counts, sums and sums of squares are instead exact
+integer computations on the scaled values, rounded once (`appendix.stats.exact`).
 """
 
 from __future__ import annotations
@@ -25,7 +24,9 @@ import numpy as np
 
 from appendix.errors import InternalError
 from appendix.results import StatWarning
-from appendix.stats.exact import ExactSums, decimal_digits, exact_sums
+from appendix.data.dataset import CellSummary
+from appendix.stats.exact import ExactSums, NotExact, exact_sums
+from appendix.stats.sweep import BadInput, FloatSweep, float_sweep
 
 
 def _read_only(array: np.ndarray) -> np.ndarray:
@@ -40,9 +41,11 @@ class CellStats:
     `labels[i]` names cell i (the plan's level, in plan order). `centred_mean[i]` is
     ``mean[i] - shift`` kept at full precision: differences of means are taken from it so
     that a large common offset (NIST SmLs07-09: 13 constant leading digits) does not
-    cost digits. Empty cells have n 0, mean NaN and ssd 0. `exact` holds the exact
-    integer sums when the data were read as decimals (see `appendix.stats.exact`), else
-    None; SS within and between then come from it, rounded once.
+    cost digits. Empty cells have n 0, mean NaN and ssd 0. `arithmetic` names the path
+    that gave the numbers: "exact-decimal" (then `exact` holds the exact integer sums,
+    see `appendix.stats.exact`, and SS within and between come from it, rounded once)
+    or "float64" (`exact` None). `fallback` says why decimal data were not summed
+    exactly (float64 could not carry their digits), else None.
     """
 
     labels: tuple[str, ...]
@@ -53,7 +56,9 @@ class CellStats:
     centred_mean: np.ndarray
     n_total: int
     grand_mean: float
+    arithmetic: str = "float64"
     exact: ExactSums | None = None
+    fallback: str | None = None
 
     @property
     def k(self) -> int:
@@ -115,38 +120,118 @@ def cell_stats(
     k: int,
     labels: Sequence[str] | None = None,
     *,
-    exact: bool = True,
+    decimals: int | None = None,
 ) -> CellStats:
-    """Per-cell n, mean and sum of squared deviations in one grouped two-pass sweep.
+    """Per-cell n, mean and sum of squared deviations in one grouped sweep.
 
-    With `exact` (the default) and decimal data, means and SSDs are the correctly
-    rounded exact values (`appendix.stats.exact`); otherwise the float64 two-pass result.
+    `decimals=None`: float64 values, blocked two-pass on values centred per cell
+    (`appendix.stats.sweep`). `decimals=d`: the values are the float64 of decimal text
+    with at most d digits after the point (the data stage says so); means and SSDs are
+    then the correctly rounded exact values (`appendix.stats.exact`), or, when float64
+    cannot carry those decimals exactly, the float64 result with the reason in
+    `fallback`. `arithmetic` records which path gave the numbers.
 
     >>> c = cell_stats(np.array([1.0, 2.0, 3.0, 5.0]), np.array([0, 0, 1, 1]), 2)
-    >>> c.mean.tolist(), c.ssd.tolist()
-    ([1.5, 4.0], [0.5, 2.0])
+    >>> c.mean.tolist(), c.ssd.tolist(), c.arithmetic
+    ([1.5, 4.0], [0.5, 2.0], 'float64')
+    >>> cell_stats(np.array([0.1, 0.2, 0.4]), np.array([0, 0, 1]), 2, decimals=1).ssd.tolist()
+    [0.005, 0.0]
     """
-    values, codes = check_inputs(values, codes, k)
+    values, codes = _check_shapes(values, codes, k)
     labels = default_labels(k) if labels is None else tuple(labels)
     if len(labels) != k:
         raise InternalError(f"{len(labels)} labels given for {k} cells")
-    n = np.bincount(codes, minlength=k)
-    # Centring on the median makes each subtraction nearly exact (Sterbenz) when the
-    # data share leading digits; the median is robust to a stray extreme value.
-    shift = float(np.median(values)) if values.size else 0.0
-    mean, centred_mean, ssd = _two_pass(values, codes, n, shift)
-    digits = decimal_digits(values) if exact else None
-    sums = exact_sums(values, codes, k, digits) if digits is not None else None
-    if sums is not None:
-        for i in np.flatnonzero(n):
-            exact_mean = sums.mean(int(i))
-            mean[i] = float(exact_mean)
-            centred_mean[i] = float(exact_mean - Fraction(shift))
-            ssd[i] = float(sums.ssd[i])
-    n_total = int(values.size)
-    grand_mean = shift + weighted_centre(n, centred_mean) if n_total else float("nan")
-    if sums is not None:
-        grand_mean = float(Fraction(sum(sums.sums), n_total * 10**sums.digits))
+    fallback = None
+    try:
+        if decimals is not None:
+            try:
+                return _from_exact(labels, exact_sums(values, codes, k, decimals))
+            except NotExact as why:
+                fallback = why.reason
+        return _from_float(labels, float_sweep(values, codes, k), fallback)
+    except BadInput:
+        check_inputs(values, codes, k)  # raises the precise contract violation
+        raise InternalError("values too large to sum in float64") from None
+
+
+def cells_from_summary(summary: CellSummary, labels: Sequence[str]) -> CellStats:
+    """Cell statistics from per-level n, mean and SSD computed elsewhere (out of core).
+
+    The aggregates arrive as float64, so `arithmetic` is "float64". Empty levels must
+    have n 0; their mean is set to NaN and SSD to 0.
+
+    >>> s = CellSummary(np.array([2, 2]), np.array([1.5, 4.0]), np.array([0.5, 2.0]))
+    >>> ss_between(cells_from_summary(s, ("a", "b")))
+    6.25
+    """
+    labels = tuple(labels)
+    n = np.asarray(summary.n)
+    if not np.issubdtype(n.dtype, np.integer):
+        if not np.array_equal(n, np.round(n)):
+            raise InternalError("summary counts must be whole numbers")
+    n = n.astype(np.int64)
+    mean = np.asarray(summary.mean, dtype=np.float64).copy()
+    ssd = np.asarray(summary.ssd, dtype=np.float64).copy()
+    if not n.shape == mean.shape == ssd.shape == (len(labels),):
+        raise InternalError(f"summary arrays must have one entry per level ({len(labels)}), "
+                            f"got shapes {n.shape}, {mean.shape}, {ssd.shape}")
+    occupied = n > 0
+    if np.any(n < 0) or not np.all(np.isfinite(mean[occupied])) or np.any(ssd[occupied] < 0):
+        raise InternalError("summary needs n >= 0, finite means and SSD >= 0 for occupied levels")
+    mean[~occupied] = np.nan
+    ssd[~occupied] = 0.0
+    shift = _centre_of(mean, occupied)
+    return _assemble(labels, n, mean, ssd, shift, mean - shift, "float64")
+
+
+def _check_shapes(values: np.ndarray, codes: np.ndarray, k: int) -> tuple[np.ndarray, np.ndarray]:
+    """The contract checks that cost no pass over the data (the sweeps check the rest)."""
+    values = np.asarray(values)
+    codes = np.asarray(codes)
+    if (not isinstance(k, (int, np.integer)) or k < 1 or values.ndim != 1 or codes.ndim != 1
+            or values.shape != codes.shape or values.dtype != np.float64
+            or (codes.size and not np.issubdtype(codes.dtype, np.integer))):
+        check_inputs(values, codes, k)
+    return values, codes
+
+
+def _centre_of(means: np.ndarray, occupied: np.ndarray) -> float:
+    """One common shift: the median of the occupied cells' centres (0 if none)."""
+    return float(np.median(means[occupied])) if occupied.any() else 0.0
+
+
+def _from_float(labels: tuple[str, ...], sweep: FloatSweep, fallback: str | None) -> CellStats:
+    occupied = sweep.n > 0
+    shift = _centre_of(sweep.pivot, occupied)
+    mean = np.where(occupied, sweep.pivot + sweep.centred_mean, np.nan)
+    # (pivot - shift) is exact when the pivots share leading digits (Sterbenz); one
+    # rounding then joins it to the cell's centred mean.
+    centred_mean = np.where(occupied, (sweep.pivot - shift) + sweep.centred_mean, np.nan)
+    return _assemble(labels, sweep.n, mean, sweep.ssd, shift, centred_mean, "float64",
+                     fallback=fallback)
+
+
+def _from_exact(labels: tuple[str, ...], sums: ExactSums) -> CellStats:
+    k = len(labels)
+    mean, centred_mean, ssd = np.full(k, np.nan), np.full(k, np.nan), np.zeros(k)
+    exact_means = {i: sums.mean(i) for i in range(k) if sums.n[i] > 0}
+    for i, value in exact_means.items():
+        mean[i] = float(value)  # Fraction -> float is correctly rounded
+        ssd[i] = float(sums.ssd[i])
+    n = np.array(sums.n, dtype=np.int64)
+    shift = _centre_of(mean, n > 0)
+    for i, value in exact_means.items():
+        centred_mean[i] = float(value - Fraction(shift))
+    grand = Fraction(sum(sums.sums), sum(sums.n) * 10**sums.digits) if sum(sums.n) else None
+    return _assemble(labels, n, mean, ssd, shift, centred_mean, "exact-decimal", exact=sums,
+                     grand_mean=float(grand) if grand is not None else None)
+
+
+def _assemble(labels, n, mean, ssd, shift, centred_mean, arithmetic, *, exact=None,
+              fallback=None, grand_mean=None) -> CellStats:
+    n_total = int(n.sum())
+    if grand_mean is None:
+        grand_mean = shift + weighted_centre(n, centred_mean) if n_total else float("nan")
     return CellStats(
         labels=labels,
         n=_read_only(n.astype(np.int64)),
@@ -156,31 +241,10 @@ def cell_stats(
         centred_mean=_read_only(centred_mean),
         n_total=n_total,
         grand_mean=grand_mean,
-        exact=sums,
+        arithmetic=arithmetic,
+        exact=exact,
+        fallback=fallback,
     )
-
-
-def _two_pass(values: np.ndarray, codes: np.ndarray, n: np.ndarray, shift: float):
-    """Float64 cell means, centred means and SSDs: means of the centred data first,
-    squared deviations from them second."""
-    k = n.size
-    occupied = n > 0
-    centred = values - shift
-    centred_mean = np.full(k, np.nan)
-    centred_mean[occupied] = np.bincount(codes, weights=centred, minlength=k)[occupied] / n[occupied]
-    mean = shift + centred_mean
-    # A cell whose units are all equal must get SSD exactly 0 and its value as mean (the
-    # zero-variance checks downstream depend on it), but n copies of x need not sum to n x.
-    low = np.full(k, np.inf)
-    high = np.full(k, -np.inf)
-    np.minimum.at(low, codes, values)
-    np.maximum.at(high, codes, values)
-    constant = occupied & (low == high)
-    mean[constant] = low[constant]
-    centred_mean[constant] = low[constant] - shift
-    deviation = centred - centred_mean[codes]
-    ssd = np.bincount(codes, weights=deviation * deviation, minlength=k).astype(np.float64)
-    return mean, centred_mean, ssd
 
 
 def weighted_centre(n: np.ndarray, means: np.ndarray) -> float:

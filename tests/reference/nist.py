@@ -28,13 +28,18 @@ _NUMBER = r"[-+]?\d+(?:\.\d*)?(?:[Ee][-+]?\d+)?"
 
 @dataclass(frozen=True)
 class NistCase:
-    """One dataset: certified values and the data as (group code 0.., value float64)."""
+    """One dataset: certified values and the data as (group code 0.., value float64).
+
+    `decimals` is the most digits after the point in any value's text, counted on the
+    text itself (what the data stage reports for a CSV column).
+    """
 
     name: str
     certified: dict[str, float]
     codes: np.ndarray
     values: np.ndarray
     k: int
+    decimals: int
 
 
 def _floats(line: str) -> list[float]:
@@ -67,7 +72,8 @@ def read_case(name: str) -> NistCase:
     order = list(dict.fromkeys(labels))
     codes = np.array([order.index(label) for label in labels], dtype=np.intp)
     values = np.array([float(row[1]) for row in rows], dtype=np.float64)
-    return NistCase(name, certified, codes, values, len(order))
+    decimals = max(len(row[1].partition(".")[2]) for row in rows)
+    return NistCase(name, certified, codes, values, len(order), decimals)
 
 
 def lre(computed: float, certified: float, digits: int = CERTIFIED_DIGITS) -> float:

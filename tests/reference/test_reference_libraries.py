@@ -62,10 +62,8 @@ seeds = hs.integers(min_value=0, max_value=2**32 - 1)
 @given(seeds, hs.sampled_from([None, 0, 2, 5]))
 def test_variance_table_matches_statsmodels_anova_lm(seed: int, decimals: int | None) -> None:
     values, codes, k = _design(seed, decimals=decimals)
-    cells = cell_stats(values, codes, k)
-    # Rounded data always take the exact path (unrounded draws occasionally do too, when
-    # every value happens to round-trip with <= 15 decimals; harmless).
-    assert decimals is None or cells.exact is not None
+    cells = cell_stats(values, codes, k, decimals=decimals)
+    assert cells.arithmetic == ("float64" if decimals is None else "exact-decimal")
     table = variance_table(cells, alpha=0.05)
     if cells.ss_within == 0.0:
         # Rounding made every level constant: the F ratio is undefined (statsmodels

@@ -10,6 +10,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as hs
 
+from appendix.errors import InternalError
 from appendix.stats.cells import cell_stats, ss_between
 from appendix.stats.exact import decimal_digits, exact_sums
 
@@ -50,8 +51,8 @@ def test_cell_stats_on_decimal_data_equal_exact_decimal_arithmetic(digits, integ
     texts = [str(Decimal(i).scaleb(-digits)) for i in integers]
     values = np.array([float(t) for t in texts])
     codes = np.random.default_rng(seed).integers(0, 3, size=values.size)
-    cells = cell_stats(values, codes, 3)
-    assert cells.exact is not None
+    cells = cell_stats(values, codes, 3, decimals=digits)
+    assert cells.arithmetic == "exact-decimal" and cells.exact is not None
     groups = [[Fraction(Decimal(t)) for t, c in zip(texts, codes) if c == i] for i in range(3)]
     grand = sum((x for g in groups for x in g), Fraction(0)) / values.size
     ssb = Fraction(0)
@@ -65,7 +66,41 @@ def test_cell_stats_on_decimal_data_equal_exact_decimal_arithmetic(digits, integ
     assert ss_between(cells) == float(ssb)
 
 
-def test_non_decimal_data_take_the_float_path() -> None:
-    values = np.random.default_rng(1).normal(size=50)  # invented, seeded
-    assert cell_stats(values, np.repeat([0, 1], 25), 2).exact is None
-    assert cell_stats(np.round(values, 3), np.repeat([0, 1], 25), 2).exact is not None
+def test_the_path_follows_the_decimals_argument() -> None:
+    values = np.round(np.random.default_rng(1).normal(size=50), 3)  # invented, seeded
+    codes = np.repeat([0, 1], 25)
+    floating = cell_stats(values, codes, 2)
+    exact = cell_stats(values, codes, 2, decimals=3)
+    assert (floating.arithmetic, floating.exact, floating.fallback) == ("float64", None, None)
+    assert exact.arithmetic == "exact-decimal" and exact.exact.digits == 3 and exact.fallback is None
+
+
+def test_decimals_beyond_float64_fall_back_with_the_reason() -> None:
+    # 16 significant digits: float64 cannot hold every such decimal, so no exact path.
+    values = np.array([123456789012345.6, 123456789012345.8, 1.5])
+    cells = cell_stats(values, np.array([0, 0, 1]), 2, decimals=1)
+    assert cells.arithmetic == "float64" and cells.exact is None
+    assert "beyond the 2**50" in cells.fallback
+    assert cell_stats(values, np.array([0, 0, 1]), 2, decimals=23).fallback == (
+        "23 decimals: 10**23 is not exact in float64")
+
+
+def test_a_value_with_more_decimals_than_declared_is_a_bug() -> None:
+    with pytest.raises(InternalError, match=r"value 0\.25 has more than the 1 decimals"):
+        cell_stats(np.array([0.5, 0.25]), np.array([0, 1]), 2, decimals=1)
+
+
+@pytest.mark.parametrize("width", [0, 10, 40, 49])
+def test_wide_integers_are_summed_exactly_through_limbs(width: int) -> None:
+    # Invented, seeded: integers spanning up to 2**49 inside one cell force the limb
+    # split (a block's e**2 sums would pass 2**53); oracle: Python integers.
+    rng = np.random.default_rng(width)
+    ints = rng.integers(-(2**width), 2**width, size=40_000, endpoint=True)
+    ints[:3] = [2**width, -(2**width), 0]
+    codes = rng.integers(0, 3, size=ints.size)
+    sums = exact_sums(ints.astype(np.float64), codes, 3, 0)
+    for i in range(3):
+        cell = [int(x) for x in ints[codes == i]]
+        mean = Fraction(sum(cell), len(cell))
+        assert sums.n[i] == len(cell) and sums.sums[i] == sum(cell)
+        assert sums.ssd[i] == sum(((x - mean) ** 2 for x in cell), Fraction(0))
