@@ -1,0 +1,134 @@
+"""Out of core: a 100,000,000-row Parquet source reduced to its variance table, peak memory.
+
+The file (invented data: unit id int64, a factor of 100 levels, one float64 outcome whose
+level means differ a little) is generated once, row group by row group with pyarrow, in
+the benchmark scratch folder outside the repo, and reused when its row count is right.
+A fresh child process then runs `build_dataset_out_of_core` and the one-way variance
+table on the full-data cell summary; the child's peak resident set size
+(getrusage RUSAGE_SELF ru_maxrss, the figure the parent's RUSAGE_CHILDREN would report
+for this one child) is compared with the 1 GiB target. Wall time is printed beside it.
+
+    python benchmarks/bench_outofcore.py
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import subprocess
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+HERE = Path(__file__).resolve().parent
+sys.path.insert(0, str(HERE))
+sys.path.insert(0, str(HERE.parent))
+
+from common import Measurement  # noqa: E402
+
+ROWS = 100_000_000
+LEVELS = 100
+GROUP = 5_000_000
+GIB = 1 << 30
+
+STUDY = """\
+format: 1
+study: {id: bench-outofcore, title: Invented data for the out-of-core benchmark}
+data:
+  source: units-100m.parquet
+  unit: unit_id
+design:
+  factors:
+    - {name: arm, levels: [%s]}
+outcomes:
+  - {name: y, label: Invented outcome, role: primary}
+"""
+
+CHILD = """
+import json, resource, sys, time
+start = time.perf_counter()
+from pathlib import Path
+import numpy as np
+from appendix.plan.load import load_plan
+from appendix.data.outofcore import build_dataset_out_of_core
+from appendix.stats import cells, oneway
+loaded = load_plan(Path(sys.argv[1]))
+data = build_dataset_out_of_core(loaded).outcome("y")
+s, labels = data.summary, loaded.plan.factor.levels
+if hasattr(cells, "cells_from_summary"):
+    table = cells.cells_from_summary(s, labels)
+else:
+    n_total = int(s.n.sum())
+    grand = float(np.dot(s.n, s.mean) / n_total)
+    table = cells.CellStats(labels=tuple(labels), n=s.n, mean=s.mean, ssd=s.ssd, shift=0.0,
+                            centred_mean=s.mean, n_total=n_total, grand_mean=grand)
+part = oneway.partition(table)
+print(json.dumps({"seconds": time.perf_counter() - start, "n": int(s.n.sum()), "f": part.f,
+                  "sample": int(data.values.size),
+                  "peak_kib": resource.getrusage(resource.RUSAGE_SELF).ru_maxrss}))
+"""
+
+
+def scratch() -> Path:
+    folder = Path(os.environ.get("APPENDIX_BENCH_DIR") or Path(tempfile.gettempdir()) / "appendix-bench")
+    folder.mkdir(parents=True, exist_ok=True)
+    return folder
+
+
+def level_names() -> list[str]:
+    return [f"L{i:03d}" for i in range(LEVELS)]
+
+
+def generate(path: Path) -> float:
+    """Write the invented file in row groups of `GROUP` rows; seconds taken (0 if reused)."""
+    import numpy as np
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    if path.exists() and pq.ParquetFile(path).metadata.num_rows == ROWS:
+        return 0.0
+    start = time.perf_counter()
+    rng = np.random.default_rng(20260214)
+    names = pa.array(level_names())
+    shifts = rng.normal(0.0, 0.05, LEVELS)
+    schema = pa.schema([("unit_id", pa.int64()), ("arm", pa.dictionary(pa.int8(), pa.string())),
+                        ("y", pa.float64())])
+    partial = path.with_suffix(".partial")
+    # Sequential ids compress to almost nothing with delta encoding; y is random doubles.
+    with pq.ParquetWriter(partial, schema, compression="snappy",
+                          use_dictionary=["arm"],
+                          column_encoding={"unit_id": "DELTA_BINARY_PACKED"}) as writer:
+        for first in range(0, ROWS, GROUP):
+            codes = rng.integers(0, LEVELS, GROUP, dtype=np.int8)
+            y = 100.0 + shifts[codes] + rng.standard_normal(GROUP)
+            batch = pa.record_batch([
+                pa.array(np.arange(first, first + GROUP, dtype=np.int64)),
+                pa.DictionaryArray.from_arrays(pa.array(codes), names),
+                pa.array(y)], schema=schema)
+            writer.write_batch(batch, row_group_size=GROUP)
+    partial.replace(path)
+    return time.perf_counter() - start
+
+
+def measurements() -> list[Measurement]:
+    folder = scratch()
+    data = folder / "units-100m.parquet"
+    made = generate(data)
+    study = folder / "study-100m.yaml"
+    study.write_text(STUDY % ", ".join(level_names()), encoding="utf-8")
+    env = dict(os.environ, PYTHONPATH=str(HERE.parent))
+    done = subprocess.run([sys.executable, "-c", CHILD, str(study)], check=True,
+                          capture_output=True, text=True, env=env)
+    got = json.loads(done.stdout.strip().splitlines()[-1])
+    peak = got["peak_kib"] * 1024 / GIB
+    detail = (f"N = {got['n']:,}, F = {got['f']:.4g}, {got['seconds']:.0f} s to variance table, "
+              f"sample {got['sample']}, file {data.stat().st_size / GIB:.2f} GiB"
+              + (f", generated in {made:.0f} s" if made else ", reused"))
+    return [Measurement("out of core: 1e8-row Parquet -> variance table, peak RSS",
+                        peak, 1.0, "lower", " GiB", detail)]
+
+
+if __name__ == "__main__":
+    for row in measurements():
+        print(row.line())
