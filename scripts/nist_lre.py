@@ -2,8 +2,9 @@
 
 Usage: python scripts/nist_lre.py   (from the repository root or anywhere)
 LRE = -log10(|computed - certified| / |certified|), capped at 15 (McCullough 1998).
-Two engines: the default (decimal data summed exactly as scaled integers) and the
-float64 two-pass path (`cell_stats(..., exact=False)`), and, for the sums of squares,
+Two paths: the exact one (decimals counted on the data text, summed exactly as scaled
+integers: `cell_stats(..., decimals=d)`) and the float64 two-pass path
+(`cell_stats(...)`, decimals None), and, for the sums of squares,
 the ceiling of any float64 computation: exact rational arithmetic on the float64 data.
 """
 
@@ -26,14 +27,14 @@ COLUMNS = ("df_between", "ss_between", "ms_between", "f", "df_within", "ss_withi
 
 
 def _values(case, exact: bool) -> dict[str, float]:
-    cells = cell_stats(case.values, case.codes, case.k, exact=exact)
+    cells = cell_stats(case.values, case.codes, case.k, decimals=case.decimals if exact else None)
     return engine_values(variance_table(cells, alpha=0.05))
 
 
 def main() -> int:
     cases = [read_case(name) for name in NAMES]
-    for exact, title in ((True, "default engine (decimal data, exact integer sums)"),
-                         (False, "float64 two-pass path (exact=False)")):
+    for exact, title in ((True, "exact path (decimals from the data text, exact integer sums)"),
+                         (False, "float64 two-pass path (decimals=None)")):
         print(f"LRE, {title}")
         print(f"{'dataset':<9} {'difficulty':<10} " + " ".join(f"{c:>11}" for c in COLUMNS))
         for case in cases:
