@@ -4,6 +4,10 @@ Checks, all collected into one `DataError`: the columns the plan names exist; un
 identifiers are present and unique; every row's level is one of the plan's levels
 (exact text, spaces trimmed); every eligible outcome cell is a number or missing.
 Cells of units set aside by an exclusion rule are not checked as outcomes.
+
+A CSV/TSV file is first tried on the vectorised path (`appendix.data.vectorised`),
+which reads only the named columns and accepts the file when every check passes; any
+problem sends it down the row-by-row path here, which words every problem found.
 """
 
 from __future__ import annotations
@@ -15,6 +19,7 @@ import numpy as np
 
 from appendix.data.checksums import study_inputs
 from appendix.data.dataset import Dataset, OutcomeData, frozen_array
+from appendix.data.decimals import decimal_places
 from appendix.data.exclusions import apply_exclusions
 from appendix.data.flow import flow_findings, level_counts
 from appendix.data.readers import read_table
@@ -25,6 +30,9 @@ from appendix.plan.load import LoadedPlan
 from appendix.plan.wording import capped, did_you_mean, one_of, show
 from appendix.results import OutcomeFlow, UnitFlow
 
+#: Delimited text formats: their cells are decimal text, read exactly.
+_DELIMITERS = {".csv": ",", ".tsv": "\t"}
+
 #: At most this many offending cells are listed per column and kind of problem.
 LISTED = 20
 
@@ -32,8 +40,17 @@ LISTED = 20
 def build_dataset(loaded: LoadedPlan) -> Dataset:
     """Read the plan's data source and turn it into the analysed `Dataset`."""
     plan = loaded.plan
-    table = read_table(loaded.data_path, plan.data.sheet)
     inputs = study_inputs(loaded.path, loaded.data_path)
+    delimiter = _DELIMITERS.get(loaded.data_path.suffix.lower())
+    if delimiter is not None and loaded.data_path.is_file():
+        from appendix.data.columnar import read_columns
+        from appendix.data.vectorised import build_vectorised, needed_columns
+
+        columns = read_columns(loaded.data_path, delimiter, needed_columns(loaded))
+        built = build_vectorised(loaded, columns, inputs) if columns is not None else None
+        if built is not None:
+            return built
+    table = read_table(loaded.data_path, plan.data.sheet)
     where = str(loaded.data_path)
     _require_columns(loaded, table)
     levels = plan.factor.levels
@@ -50,12 +67,16 @@ def build_dataset(loaded: LoadedPlan) -> Dataset:
         column = outcome.data_column
         rows, missing, bad = _outcome_rows(table, column, eligible, where)
         problems += bad
+        values = frozen_array([value for _, value in rows], dtype=np.float64)
+        cells = table.column(column)
         outcomes.append(OutcomeData(
             name=outcome.name,
-            values=frozen_array([value for _, value in rows], dtype=np.float64),
+            values=values,
             codes=frozen_array([codes[i] for i, _ in rows], dtype=np.int64),
             units=tuple(str(units[i]) for i, _ in rows),
             lines=tuple(table.lines[i] for i, _ in rows),
+            decimals=(decimal_places([cells[i] for i, _ in rows], values)
+                      if delimiter is not None and not bad else None),
         ))
         flows.append(OutcomeFlow(outcome=outcome.name,
                                  missing=level_counts((codes[i] for i in missing), levels),

@@ -5,6 +5,8 @@ from __future__ import annotations
 from collections import Counter
 from collections.abc import Iterable, Sequence
 
+import numpy as np
+
 from appendix.plan.model import Plan
 from appendix.plan.wording import show
 from appendix.results import Finding, LevelCount, UnitFlow
@@ -14,6 +16,16 @@ def level_counts(codes: Iterable[int], levels: Sequence[str]) -> tuple[LevelCoun
     """How many of `codes` fall at each level, every level listed in plan order."""
     counter = Counter(codes)
     return tuple(LevelCount(level=level, n=counter.get(i, 0)) for i, level in enumerate(levels))
+
+
+def count_levels(codes: np.ndarray, levels: Sequence[str]) -> tuple[LevelCount, ...]:
+    """`level_counts` of an array of codes, counted in one pass.
+
+    >>> count_levels(np.array([0, 2, 2]), ["a", "b", "c"])[2]
+    LevelCount(level='c', n=2)
+    """
+    counts = np.bincount(codes, minlength=len(levels)) if codes.size else np.zeros(len(levels), int)
+    return tuple(LevelCount(level=level, n=int(counts[i])) for i, level in enumerate(levels))
 
 
 def flow_findings(plan: Plan, flow: UnitFlow) -> tuple[Finding, ...]:

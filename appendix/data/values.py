@@ -13,7 +13,9 @@ from decimal import Decimal
 #: Cell texts that mean "no value" (after trimming spaces). Case matters: ``na`` is text.
 MISSING_TEXTS = frozenset({"", "NA", "N/A", "NaN", "nan", "."})
 
-_DECIMAL = re.compile(r"^[+-]?(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)(?:[eE][+-]?[0-9]+)?$")
+#: Plain decimal notation, as a regular expression (Python and RE2 read it alike).
+DECIMAL_PATTERN = r"^[+-]?(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)(?:[eE][+-]?[0-9]+)?$"
+_DECIMAL = re.compile(DECIMAL_PATTERN)
 
 
 def is_missing(cell: str | None) -> bool:

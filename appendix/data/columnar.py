@@ -1,0 +1,208 @@
+"""The fast CSV/TSV path: columns read by pyarrow's CSV reader, every check vectorised.
+
+Only the columns the plan names are read, all as text, then trimmed, so each cell is the
+same text the row-by-row reader (`appendix.data.readers`) would give. The path answers
+one question cheaply: is this file clean? If any check finds a problem (a missing or
+repeated unit, an unknown level, a cell that is not a number), or the file has a layout
+this path does not vouch for, it returns None and the caller takes the row-by-row path,
+which finds the same problems and words them with file, line, column and value. So the
+messages a user sees are those of one implementation only.
+
+Line numbers: a file without quotes or blank lines has one line per row; otherwise each
+row's first line is found from the positions of newlines outside quoted cells (RFC 4180:
+a newline is a record end when an even number of quotes precede it).
+"""
+
+from __future__ import annotations
+
+import csv
+import mmap
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+
+from appendix.data.values import MISSING_TEXTS
+
+#: Unit identifiers up to this many bytes are checked for repeats through one 128-bit key.
+_KEY_BYTES = 16
+
+
+@dataclass(frozen=True)
+class Columns:
+    """Trimmed text columns (pyarrow string arrays, no nulls) of a clean delimited file.
+
+    `line_of[i]` is the 1-based line where data row i starts, or None when row i is on
+    line ``i + 2`` (header on line 1, one line per row, no blank lines).
+    """
+
+    n_rows: int
+    cells: dict[str, object]
+    line_of: np.ndarray | None
+
+
+def read_columns(path: Path, delimiter: str, names: list[str]) -> Columns | None:
+    """The named columns of a CSV/TSV file, or None where the row-by-row reader must judge.
+
+    None for: text that is not UTF-8, an unusable header (blank, repeated or missing
+    names), rows of the wrong width, irregular quoting, or lone carriage returns.
+    """
+    import pyarrow as pa
+    import pyarrow.compute as pc
+    import pyarrow.csv as pcsv
+
+    header = _header(path, delimiter)
+    if header is None:
+        return None
+    header_line, header_end, raw = header
+    stripped = [c.strip() for c in raw]
+    if "" in stripped or len(set(stripped)) != len(stripped) or not set(names) <= set(stripped):
+        return None
+    raw_of = dict(zip(stripped, raw))
+    if path.stat().st_size == 0:
+        return None
+    with path.open("rb") as handle:
+        # Not closed explicitly: the arrays read from it may still view its pages; it is
+        # released with the last of them.
+        mapped = mmap.mmap(handle.fileno(), 0, access=mmap.ACCESS_READ)
+    data = np.frombuffer(mapped, dtype=np.uint8)
+    layout = _layout(mapped, data, delimiter, header_line, header_end)
+    if layout is None:
+        return None
+    quoted, line_of = layout
+    try:
+        table = pcsv.read_csv(
+            pa.BufferReader(pa.py_buffer(mapped)),
+            parse_options=pcsv.ParseOptions(delimiter=delimiter, newlines_in_values=quoted),
+            convert_options=pcsv.ConvertOptions(
+                include_columns=[raw_of[n] for n in names],
+                column_types={raw_of[n]: pa.string() for n in names},
+                strings_can_be_null=False, quoted_strings_can_be_null=False))
+    except pa.ArrowException:
+        return None
+    if table.column_names != [raw_of[n] for n in names]:
+        return None
+    if line_of is None:
+        # One line per row unless blank lines were skipped: then newlines outnumber rows.
+        newlines = int(np.count_nonzero(data == 0x0A))
+        if newlines - (data[-1] == 0x0A) != table.num_rows:
+            line_of = _layout(mapped, data, delimiter, header_line, header_end, force=True)[1]
+    if line_of is not None and line_of.size != table.num_rows:
+        return None
+    cells = {n: table.column(raw_of[n]).combine_chunks() for n in names}
+    if _has_spaces(mapped, delimiter):
+        cells = {n: pc.utf8_trim_whitespace(c) for n, c in cells.items()}
+    return Columns(n_rows=table.num_rows, cells=cells, line_of=line_of)
+
+
+def _header(path: Path, delimiter: str) -> tuple[int, int, list[str]] | None:
+    """(first line, last line, raw cells) of the first non-blank record, read as the
+    row-by-row reader does."""
+    try:
+        with path.open("r", encoding="utf-8-sig", newline="") as handle:
+            reader = csv.reader(handle, delimiter=delimiter, strict=True)
+            start = 1
+            for row in reader:
+                if any(cell.strip() for cell in row):
+                    return start, reader.line_num, row
+                start = reader.line_num + 1
+    except (UnicodeDecodeError, csv.Error):
+        return None
+    return None
+
+
+def _layout(mapped: mmap.mmap, data: np.ndarray, delimiter: str, header_line: int,
+            header_end: int, force: bool = False) -> tuple[bool, np.ndarray | None] | None:
+    """(rows hold quotes, line of each data row or None for one line per row), or None
+    when the text is not UTF-8, has lone carriage returns, or quotes outside RFC 4180.
+    `header_end` is the header's last line; quotes in the header alone do not count."""
+    if int(data.max()) >= 0x80:
+        try:
+            str(mapped[:], "utf-8")
+        except UnicodeDecodeError:
+            return None
+    if mapped.find(b"\r") >= 0 and mapped[:].count(b"\r") != mapped[:].count(b"\r\n"):
+        return None
+    body = 0
+    for _ in range(header_end):
+        body = mapped.find(b"\n", body) + 1
+        if body == 0:
+            body = data.size
+            break
+    quoted = mapped.find(b'"', body) >= 0
+    if not quoted and header_line == 1 and not force:
+        return False, None
+    newlines = np.flatnonzero(data == 0x0A)
+    ends = newlines
+    if quoted or mapped.find(b'"', 0, body) >= 0:
+        quotes = np.flatnonzero(data == 0x22)
+        if not _plain_quotes(data, quotes, ord(delimiter)):
+            return None
+        ends = newlines[np.searchsorted(quotes, newlines) % 2 == 0]
+    starts = np.concatenate(([0], ends + 1))
+    stops = np.concatenate((ends, [data.size]))
+    length = stops - starts
+    # A blank record (empty, or a lone CR of a CRLF blank line) is skipped by both readers.
+    safe = np.minimum(starts, data.size - 1)
+    blank_record = (length == 0) | ((length == 1) & (data[safe] == 0x0D))
+    kept = starts[~blank_record]
+    lines = np.searchsorted(newlines, kept) + 1  # 1 + newlines before the record start
+    return quoted, lines[1:]  # the first kept record is the header
+
+
+def _plain_quotes(data: np.ndarray, quotes: np.ndarray, delimiter: int) -> bool:
+    """Every quote opens a cell, closes one, or is half of a doubled quote (RFC 4180)."""
+    if quotes.size == 0:
+        return True
+    bounds = np.array([delimiter, 0x0A, 0x0D, 0x22], dtype=np.uint8)
+    before = np.where(quotes > 0, data[np.maximum(quotes - 1, 0)], 0x0A)
+    after = np.where(quotes < data.size - 1, data[np.minimum(quotes + 1, data.size - 1)], 0x0A)
+    first = quotes == 0
+    return bool(np.all(first | np.isin(before, bounds) | np.isin(after, bounds)))
+
+
+#: Bytes that `str.strip` removes, besides the line ends (ASCII; other text is trimmed).
+_SPACES = (b" ", b"\t", b"\x0b", b"\x0c", b"\x1c", b"\x1d", b"\x1e", b"\x1f")
+
+
+def _has_spaces(mapped: mmap.mmap, delimiter: str) -> bool:
+    """Whether any cell might have surrounding white space to trim (a cheap byte search)."""
+    if int(np.frombuffer(mapped, dtype=np.uint8).max()) >= 0x80:
+        return True
+    return any(mapped.find(b) >= 0 for b in _SPACES if b != delimiter.encode())
+
+
+def missing_mask(column) -> np.ndarray:
+    """True where a trimmed cell is one of `appendix.data.values.MISSING_TEXTS`."""
+    import pyarrow as pa
+    import pyarrow.compute as pc
+
+    return pc.is_in(column, value_set=pa.array(sorted(MISSING_TEXTS))).to_numpy(zero_copy_only=False)
+
+
+def all_distinct(column) -> bool:
+    """True when no text occurs twice in `column` (a pyarrow string array without nulls).
+
+    Short ASCII identifiers are packed into 128-bit keys and mixed into one 64-bit hash;
+    distinct hashes prove distinct texts, and only a repeated hash (a repeat, or a rare
+    collision) costs the exact hash-table count.
+    """
+    import pyarrow.compute as pc
+
+    n = len(column)
+    if n < 2:
+        return True
+    width = pc.max(pc.binary_length(column)).as_py()
+    if width <= _KEY_BYTES and pc.all(pc.string_is_ascii(column)).as_py():
+        padded = pc.utf8_rpad(column, width=width, padding=" ") if width else column
+        offsets = np.frombuffer(padded.buffers()[1], dtype=np.int32)[padded.offset]
+        text = np.frombuffer(padded.buffers()[2], dtype=np.uint8)[offsets:offsets + n * width]
+        keys = np.zeros((n, _KEY_BYTES), dtype=np.uint8)
+        keys[:, :width] = text.reshape(n, width)
+        pair = keys.view(np.uint64)
+        with np.errstate(over="ignore"):
+            mixed = pair[:, 0] * np.uint64(0x9E3779B97F4A7C15) ^ pair[:, 1] * np.uint64(0xC2B2AE3D27D4EB4F)
+        mixed.sort()
+        if not np.any(mixed[1:] == mixed[:-1]):
+            return True
+    return pc.count_distinct(column).as_py() == n

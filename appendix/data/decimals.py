@@ -1,0 +1,61 @@
+"""How many digits after the point the analysed decimal texts need, for exact sums."""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from decimal import Decimal
+
+import numpy as np
+
+#: Plain decimal notation without an exponent (RE2 and Python read it alike).
+PLAIN_PATTERN = r"^[+-]?(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)$"
+
+#: Scaled integers must stay below this for float64 to hold them exactly (IEEE 754).
+EXACT_LIMIT = 2**53
+
+
+def decimal_places(texts, values: np.ndarray) -> int | None:
+    """The most digits after the point in `texts`, or None if exact sums are not possible.
+
+    `texts` are the trimmed cells (a pyarrow string array, or a sequence of str) that
+    `values` were parsed from, each already known to be a decimal number. None when any
+    text has an exponent (``1e3``) or when some
+    value times 10**d reaches 2**53, beyond which float64 no longer holds every integer.
+
+    >>> import numpy as np
+    >>> decimal_places(["1.5", "2.25", "3"], np.array([1.5, 2.25, 3.0]))
+    2
+    >>> decimal_places(["1e3"], np.array([1000.0])) is None
+    True
+    """
+    import pyarrow as pa
+    import pyarrow.compute as pc
+
+    if not isinstance(texts, (pa.Array, pa.ChunkedArray)):
+        texts = pa.array(list(texts), type=pa.string())
+    if len(texts) == 0:
+        return 0
+    if not pc.all(pc.match_substring_regex(texts, PLAIN_PATTERN)).as_py():
+        return None
+    return plain_places(texts, values)
+
+
+def plain_places(texts, values: np.ndarray) -> int | None:
+    """`decimal_places` of pyarrow `texts` already known to match `PLAIN_PATTERN`."""
+    import pyarrow.compute as pc
+
+    if len(texts) == 0:
+        return 0
+    point = pc.find_substring(texts, ".").to_numpy(zero_copy_only=False)
+    length = pc.binary_length(texts).to_numpy(zero_copy_only=False)
+    digits = int(np.max(np.where(point < 0, 0, length - point - 1)))
+    scaled = np.abs(values) * 10.0**digits
+    # float64 rounding is far below the factor 2 margin; near the limit, decide exactly.
+    near = np.flatnonzero(scaled >= EXACT_LIMIT / 2)
+    if near.size and not _fit_exactly(texts.take(near).to_pylist(), digits):
+        return None
+    return digits
+
+
+def _fit_exactly(texts: Sequence[str], digits: int) -> bool:
+    return all(abs(Decimal(t).scaleb(digits)) < EXACT_LIMIT for t in texts)

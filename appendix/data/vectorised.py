@@ -1,0 +1,113 @@
+"""Plan + clean columns -> `Dataset`, with array operations instead of loops over rows.
+
+The rules are those of `appendix.data.build` (unit identifiers present and unique,
+levels exact after trimming, exclusions by `appendix.data.values.match_key`, missing
+texts, plain decimal numbers); here they only decide clean or not. `build_vectorised`
+returns None at the first problem so that the row-by-row path can report every problem
+with its lines.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from appendix.data.columnar import Columns, all_distinct, missing_mask
+from appendix.data.dataset import Dataset, OutcomeData
+from appendix.data.decimals import PLAIN_PATTERN, plain_places
+from appendix.data.flow import count_levels, flow_findings
+from appendix.data.rows import LineRows, TextRows
+from appendix.data.values import DECIMAL_PATTERN, match_key
+from appendix.plan.load import LoadedPlan
+from appendix.results import ExclusionCount, InputFile, OutcomeFlow, UnitFlow
+
+
+def needed_columns(loaded: LoadedPlan) -> list[str]:
+    """The data columns the plan names, each once, in a fixed order."""
+    plan = loaded.plan
+    names = [plan.data.unit, plan.factor.name, *(r.column for r in plan.data.exclusions),
+             *(o.data_column for o in plan.outcomes)]
+    return list(dict.fromkeys(names))
+
+
+def build_vectorised(loaded: LoadedPlan, columns: Columns,
+                     inputs: tuple[InputFile, ...]) -> Dataset | None:
+    """The `Dataset` of a clean file, or None if any row breaks a data rule."""
+    import pyarrow as pa
+    import pyarrow.compute as pc
+
+    plan = loaded.plan
+    levels = plan.factor.levels
+    units = columns.cells[plan.data.unit]
+    if missing_mask(units).any() or not all_distinct(units):
+        return None
+    codes = _level_codes(columns.cells[plan.factor.name], levels)
+    if codes is None:
+        return None
+    eligible = np.ones(columns.n_rows, dtype=bool)
+    excluded = []
+    for rule in plan.data.exclusions:
+        hit = eligible & _matches(columns.cells[rule.column], match_key(rule.equals))
+        eligible &= ~hit
+        excluded.append(ExclusionCount(rule=rule.id, column=rule.column, equals=rule.equals,
+                                       reason=rule.reason, by_level=count_levels(codes[hit], levels),
+                                       total=int(hit.sum())))
+    outcomes, flows = [], []
+    for outcome in plan.outcomes:
+        texts = columns.cells[outcome.data_column]
+        missing = missing_mask(texts)
+        analysed = eligible & ~missing
+        plain = _all_where(pc.match_substring_regex(texts, PLAIN_PATTERN), analysed)
+        if not plain and not _all_where(pc.match_substring_regex(texts, DECIMAL_PATTERN), analysed):
+            return None
+        if analysed.all():
+            rows, kept, kept_codes = range(columns.n_rows), texts, codes
+        else:
+            rows = np.flatnonzero(analysed)
+            kept, kept_codes = texts.take(pa.array(rows)), codes[rows]
+        values = pc.cast(kept, pa.float64()).to_numpy(zero_copy_only=False)
+        if not np.isfinite(values).all():
+            return None
+        outcomes.append(OutcomeData(
+            name=outcome.name, values=_read_only(values), codes=_read_only(kept_codes),
+            units=TextRows(units, rows), lines=LineRows(rows, 2, columns.line_of),
+            decimals=plain_places(kept, values) if plain else None))
+        flows.append(OutcomeFlow(outcome=outcome.name,
+                                 missing=count_levels(codes[eligible & missing], levels),
+                                 analysed=count_levels(kept_codes, levels)))
+    flow = UnitFlow(read=count_levels(codes, levels), exclusions=tuple(excluded),
+                    eligible=count_levels(codes[eligible], levels), outcomes=tuple(flows))
+    return Dataset(levels=levels, inputs=inputs, unit_flow=flow, outcomes=tuple(outcomes),
+                   findings=flow_findings(plan, flow))
+
+
+def _read_only(array: np.ndarray) -> np.ndarray:
+    """`array` made read-only in place: arrays made here are not shared, so no copy is needed
+    (`frozen_array` would copy ten million values a second time)."""
+    array.flags.writeable = False
+    return array
+
+
+def _all_where(matched, mask: np.ndarray) -> bool:
+    """Whether the boolean pyarrow array `matched` is true at every row of `mask`."""
+    return bool(matched.to_numpy(zero_copy_only=False)[mask].all())
+
+
+def _level_codes(column, levels) -> np.ndarray | None:
+    """Index into `levels` of every row, or None if some cell is not a plan level."""
+    import pyarrow.compute as pc
+
+    encoded = pc.dictionary_encode(column)
+    index = {level: i for i, level in enumerate(levels)}
+    of_entry = np.array([index.get(t, -1) for t in encoded.dictionary.to_pylist()], dtype=np.int64)
+    if (of_entry < 0).any():
+        return None
+    return of_entry[encoded.indices.to_numpy(zero_copy_only=False)]
+
+
+def _matches(column, target: str) -> np.ndarray:
+    """Rows whose cell has the match key `target` (one `match_key` call per distinct text)."""
+    import pyarrow.compute as pc
+
+    encoded = pc.dictionary_encode(column)
+    hit = np.array([match_key(t) == target for t in encoded.dictionary.to_pylist()], dtype=bool)
+    return hit[encoded.indices.to_numpy(zero_copy_only=False)] if hit.size else np.zeros(len(column), bool)

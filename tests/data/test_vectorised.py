@@ -1,0 +1,136 @@
+"""The vectorised CSV/TSV path gives the same Dataset as the row-by-row path, and decimals."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+import appendix.data.columnar as columnar
+from appendix.data.build import build_dataset
+from appendix.data.columnar import all_distinct
+from appendix.data.decimals import decimal_places
+from appendix.data.rows import LineRows, TextRows
+from appendix.plan.load import load_plan
+from tests.data.helpers import invented_units, write_delimited, write_parquet, write_study
+
+HEADER = "unit_id,arm,violated,dose,pain,sleep\n"
+
+
+def _both(tmp_path, monkeypatch, text: str, name: str = "units.csv"):
+    """(vectorised dataset, row-by-row dataset) of the same file."""
+    (tmp_path / name).write_text(text, encoding="utf-8")
+    loaded = load_plan(write_study(tmp_path, name, 1))
+    fast = build_dataset(loaded)
+    with monkeypatch.context() as patch:
+        patch.setattr(columnar, "read_columns", lambda *args: None)
+        slow = build_dataset(loaded)
+    return fast, slow
+
+
+def _same(fast, slow) -> None:
+    assert fast.unit_flow == slow.unit_flow
+    assert fast.findings == slow.findings
+    for a, b in zip(fast.outcomes, slow.outcomes, strict=True):
+        np.testing.assert_array_equal(a.values, b.values)
+        np.testing.assert_array_equal(a.codes, b.codes)
+        assert (a.units, a.lines, a.decimals) == (b.units, b.lines, b.decimals)
+
+
+def test_clean_file_takes_the_vectorised_path_and_agrees(tmp_path, monkeypatch):
+    frame = invented_units(per_level=40)
+    write_delimited(frame, tmp_path / "units.csv")
+    fast, slow = _both(tmp_path, monkeypatch, (tmp_path / "units.csv").read_text())
+    assert isinstance(fast.outcome("pain").units, TextRows)
+    assert isinstance(slow.outcome("pain").units, tuple)
+    _same(fast, slow)
+    assert [o.decimals for o in fast.outcomes] == [2, 1]
+    assert fast.outcome("pain").values.flags.writeable is False
+    assert sum(c.total for c in fast.unit_flow.exclusions) > 0
+
+
+def test_tsv_with_spaces_and_numeric_exclusion_spellings(tmp_path, monkeypatch):
+    text = HEADER.replace(",", "\t") + "".join(
+        f" u{i} \tplacebo\tno\t{dose}\t {y} \t7\n"
+        for i, (dose, y) in enumerate([("5", "1.5"), ("0.0", "2"), ("-0", "3.25"), ("5.0", "NA")]))
+    fast, slow = _both(tmp_path, monkeypatch, text, "units.tsv")
+    assert isinstance(fast.outcome("pain").units, TextRows)
+    _same(fast, slow)
+    assert fast.unit_flow.exclusions[1].total == 2  # '0.0' and '-0' match 'equals: 0'
+    assert fast.outcome("pain").units == ("u0",)
+    assert fast.outcome("pain").decimals == 1
+
+
+def test_quoted_cells_spanning_lines_and_blank_lines_keep_line_numbers(tmp_path, monkeypatch):
+    text = ('"unit_id","arm","violated","dose","pain","sleep"\n\n'
+            '"u1","placebo","no","5","1.5","7"\n'
+            '"u2","low","no\nreally","5","2.5","8"\r\n\r\n'
+            'u3,high,no,5,"3",9\n\n')
+    fast, slow = _both(tmp_path, monkeypatch, text)
+    assert isinstance(fast.outcome("pain").lines, LineRows)
+    assert fast.outcome("pain").lines == (3, 4, 7)
+    _same(fast, slow)
+
+
+def test_blank_lines_without_quotes(tmp_path, monkeypatch):
+    fast, slow = _both(tmp_path, monkeypatch,
+                       HEADER + "u1,placebo,no,5,1,7\n\nu2,low,no,5,2,8\n\n\nu3,high,no,5,3,9")
+    assert fast.outcome("sleep").lines == (2, 4, 7)
+    _same(fast, slow)
+
+
+@pytest.mark.parametrize("rows", [
+    "u1,placebo,no,5,1,7\nu1,low,no,5,2,8\n",        # repeated unit
+    "u1,placebo,no,5,1,7\nu2,Low,no,5,2,8\n",        # unknown level
+    "u1,placebo,no,5,1 mg,7\n",                      # not a number
+    "u1,placebo,no,5,1e999,7\n",                     # beyond double range
+    'u1,placebo,no,5,"1"2,7\n',                      # irregular quoting
+])
+def test_problems_are_reported_by_the_row_by_row_path(tmp_path, monkeypatch, rows):
+    from appendix.errors import DataError, UserError
+
+    (tmp_path / "units.csv").write_text(HEADER + rows, encoding="utf-8")
+    loaded = load_plan(write_study(tmp_path, "units.csv", 1))
+    with pytest.raises((DataError, UserError)) as fast:
+        build_dataset(loaded)
+    monkeypatch.setattr(columnar, "read_columns", lambda *args: None)
+    with pytest.raises((DataError, UserError)) as slow:
+        build_dataset(loaded)
+    assert (type(fast.value), str(fast.value)) == (type(slow.value), str(slow.value))
+
+
+@pytest.mark.parametrize("texts, places", [
+    (["1.5", "2.25", "3"], 2), (["3", "-4", "+5"], 0), ([".5", "5."], 1), (["-0.125"], 3),
+    (["1e3"], None), (["1.5", "2E-1"], None), ([], 0),
+    # Scaled integers must stay below 2**53 = 9007199254740992 (IEEE 754 binary64).
+    (["9007199254740991"], 0), (["9007199254740992"], None),
+    (["900719925474099.1"], 1), (["-900719925474099.2"], None),
+])
+def test_decimal_places(texts, places):
+    assert decimal_places(texts, np.array([float(t) for t in texts])) == places
+
+
+def test_typed_formats_take_the_float_path(tmp_path):
+    write_parquet(invented_units(), tmp_path / "units.parquet")
+    dataset = build_dataset(load_plan(write_study(tmp_path, "units.parquet")))
+    assert [o.decimals for o in dataset.outcomes] == [None, None]
+
+
+@pytest.mark.parametrize("texts, distinct", [
+    (["a", "b", "ab"], True), (["a", "b", "a"], False),
+    (["x" * 30 + "1", "x" * 30 + "2"], True), (["x" * 30, "x" * 30], False),
+    (["é1", "é2", "é1"], False), (["abc", "abc "[:3] + "d"], True), (["u"], True),
+])
+def test_all_distinct(texts, distinct):
+    import pyarrow as pa
+
+    assert all_distinct(pa.array(texts, type=pa.string())) is distinct
+
+
+def test_row_sequences_behave_as_tuples():
+    import pyarrow as pa
+
+    units = TextRows(pa.array(["u1", "u2", "u3"]), np.array([2, 0]))
+    assert (len(units), units[0], units[-1], units[:1], list(units)) == (2, "u3", "u1", ("u3",), ["u3", "u1"])
+    assert units == ("u3", "u1") and ("u3", "u1") == units and units != ("u3",)
+    assert LineRows(range(3), first=2) == (2, 3, 4)
+    assert LineRows(np.array([1]), line_of=np.array([2, 9])) == (9,)
