@@ -192,6 +192,8 @@ def _check_shapes(values: np.ndarray, codes: np.ndarray, k: int) -> tuple[np.nda
             or values.shape != codes.shape or values.dtype != np.float64
             or (codes.size and not np.issubdtype(codes.dtype, np.integer))):
         check_inputs(values, codes, k)
+    if not np.can_cast(codes.dtype, np.intp):  # uint64: np.bincount refuses it
+        codes = codes.astype(np.intp)
     return values, codes
 
 

@@ -172,3 +172,12 @@ def test_cells_from_summary_gives_the_same_table_as_the_rows() -> None:
 def test_cells_from_summary_rejects_a_broken_summary(n, mean, ssd, message) -> None:
     with pytest.raises(InternalError, match=message):
         cells_from_summary(CellSummary(np.array(n), np.array(mean), np.array(ssd)), ("a", "b"))
+
+
+@pytest.mark.parametrize("dtype", [np.int8, np.int32, np.uint32, np.uint64])
+@pytest.mark.parametrize("decimals", [None, 1])
+def test_any_integer_code_type_gives_the_same_cells(dtype, decimals) -> None:
+    # Hand example: cells {1.5, 2.5} and {3, 5, 7}: means 2 and 5, SSD 0.5 and 8.
+    values = np.array([1.5, 3.0, 2.5, 5.0, 7.0])
+    cells = cell_stats(values, np.array([0, 1, 0, 1, 1], dtype=dtype), 2, decimals=decimals)
+    assert cells.mean.tolist() == [2.0, 5.0] and cells.ssd.tolist() == [0.5, 8.0]
