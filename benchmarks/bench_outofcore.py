@@ -65,7 +65,8 @@ else:
                             centred_mean=s.mean, n_total=n_total, grand_mean=grand)
 part = oneway.partition(table)
 print(json.dumps({"seconds": time.perf_counter() - start, "n": int(s.n.sum()), "f": part.f,
-                  "sample": int(data.values.size),
+                  "sample": int(data.values.size), "counts": s.n.tolist(),
+                  "mean": s.mean.tolist(), "ssd": s.ssd.tolist(),
                   "peak_kib": resource.getrusage(resource.RUSAGE_SELF).ru_maxrss}))
 """
 
@@ -111,6 +112,40 @@ def generate(path: Path) -> float:
     return time.perf_counter() - start
 
 
+def numpy_two_pass(path: Path):
+    """Reference per-level n, mean and SSD: numpy bincount two-pass, one row group at a time."""
+    import numpy as np
+    import pyarrow.parquet as pq
+
+    names = {name: i for i, name in enumerate(level_names())}
+
+    def groups():
+        for batch in pq.ParquetFile(path).iter_batches(batch_size=GROUP, columns=["arm", "y"]):
+            arm = batch.column(0)
+            recode = np.array([names[v] for v in arm.dictionary.to_pylist()])
+            yield recode[arm.indices.to_numpy()], batch.column(1).to_numpy()
+
+    n = np.zeros(LEVELS, dtype=np.int64)
+    total = np.zeros(LEVELS)
+    for codes, y in groups():
+        n += np.bincount(codes, minlength=LEVELS)
+        total += np.bincount(codes, weights=y, minlength=LEVELS)
+    mean = total / n
+    ssd = np.zeros(LEVELS)
+    for codes, y in groups():
+        ssd += np.bincount(codes, weights=(y - mean[codes]) ** 2, minlength=LEVELS)
+    return n, mean, ssd
+
+
+def agreeing_digits(got, reference) -> float:
+    """Log relative error (LRE), -log10 |got - ref| / |ref|, the least over levels (15 cap)."""
+    import numpy as np
+
+    got, reference = np.asarray(got), np.asarray(reference)
+    error = np.abs(got - reference) / np.abs(reference)
+    return float(min(15.0, -np.log10(max(error.max(), 1e-15))))
+
+
 def measurements() -> list[Measurement]:
     folder = scratch()
     data = folder / "units-100m.parquet"
@@ -125,8 +160,13 @@ def measurements() -> list[Measurement]:
     detail = (f"N = {got['n']:,}, F = {got['f']:.4g}, {got['seconds']:.0f} s to variance table, "
               f"sample {got['sample']}, file {data.stat().st_size / GIB:.2f} GiB"
               + (f", generated in {made:.0f} s" if made else ", reused"))
+    n, mean, ssd = numpy_two_pass(data)
+    digits = min(agreeing_digits(got["mean"], mean), agreeing_digits(got["ssd"], ssd))
     return [Measurement("out of core: 1e8-row Parquet -> variance table, peak RSS",
-                        peak, 1.0, "lower", " GiB", detail)]
+                        peak, 1.0, "lower", " GiB", detail),
+            Measurement("out of core: per-level mean and SSD vs numpy two-pass, LRE",
+                        digits, 12.0, "higher", "",
+                        f"per-level n equal: {got['counts'] == n.tolist()}; least over the levels")]
 
 
 if __name__ == "__main__":

@@ -13,8 +13,9 @@ scans the file several times and only counts and per-level sums reach Python:
 6. per outcome and level, n and mean (first pass), then the sum of squared deviations
    from that mean joined back (second pass): the two-pass algorithm (Chan, Golub &
    LeVeque 1983, Am. Stat. 37:242-247), in DOUBLE, each sum taken with DuckDB's ``fsum``
-   (Kahan compensated summation; from memory of DuckDB's aggregate-function docs), never
-   sum(y^2) - (sum y)^2/n;
+   (Kahan compensated summation, Kahan 1965, Comm. ACM 8:40; DuckDB's docs name it so,
+   from memory, and a check agrees: 1e16 plus a thousand 1.0 gives 1e16 + 1000 with
+   ``fsum``, 1e16 with ``sum``), never sum(y^2) - (sum y)^2/n;
 7. a deterministic subsample of at most `sample_size` analysed units per outcome for
    figures and row-level diagnostics (see `_sample`).
 
@@ -33,6 +34,8 @@ Differences from the in-memory stage, by design or by what SQL can do cheaply:
 - Typed floats become text with DuckDB's shortest round-trip spelling, which agrees with
   Python's ``repr`` for level names and unit ids (``0.1``, ``1e-05``, ``1e+22``).
 - The sums are float64 (the engine's float path), also for decimal text.
+- A CSV/TSV file whose layout DuckDB cannot parse (e.g. more cells than the header) is a
+  `UserError` carrying DuckDB's message, where the in-memory reader lists ragged lines.
 - Results are reproducible bit for bit because the scan runs on one thread (`threads`);
   more threads are faster but may change the last bits of a sum between runs.
 """
@@ -140,10 +143,11 @@ def _open(connection, path: Path) -> _Source:
         delimiter = _literal(_DELIMITERS[suffix])
         scan = (f"(SELECT *, row_number() OVER () + 1 AS __line FROM read_csv({quoted}, "
                 f"header = true, all_varchar = true, delim = {delimiter}, quote = '\"', "
-                f"escape = '\"', encoding = 'utf-8'))")
+                f"escape = '\"', encoding = 'utf-8', null_padding = true))")
     else:
+        allowed = one_of(sorted([*_DELIMITERS, ".parquet"]))
         raise UserError(f"cannot aggregate {path} out of core: unknown file type "
-                        f"{show(path.suffix or path.name)}; allowed: {one_of(sorted([*_DELIMITERS, '.parquet']))}")
+                        f"{show(path.suffix or path.name)}; allowed: {allowed}")
     if not path.is_file():
         raise UserError(f"data file not found: {path.resolve()}")
     described = connection.execute(f"DESCRIBE SELECT * FROM {scan}").fetchall()
@@ -299,7 +303,8 @@ def _build(connection, loaded: LoadedPlan, sample_size: int) -> Dataset:
     problems += _level_problems(connection, source, plan.factor.name, levels)
     if problems:
         raise DataError(problems)
-    code = f"(list_position([{', '.join(_literal(v) for v in levels)}], {source.text(plan.factor.name)}) - 1)"
+    listed = ", ".join(_literal(v) for v in levels)
+    code = f"(list_position([{listed}], {source.text(plan.factor.name)}) - 1)"
     rules = plan.data.exclusions
     rule_sql = " ".join(f"WHEN {_rule_match(source, r.column, r.equals)} THEN {i}"
                         for i, r in enumerate(rules))
@@ -308,9 +313,10 @@ def _build(connection, loaded: LoadedPlan, sample_size: int) -> Dataset:
     prepared = (f"(SELECT *, {code} AS __code, {rule} AS __rule FROM {source.scan})")
     counts = _first_pass(connection, prepared, outcome_sql, len(levels), len(rules))
     problems = []
-    for outcome, (missing, value, bad) in zip(plan.outcomes, outcome_sql):
-        problems += _number_problems(connection, prepared, source, outcome.data_column,
-                                     f"__rule IS NULL AND NOT {missing} AND {bad}")
+    for j, (outcome, (missing, value, bad)) in enumerate(zip(plan.outcomes, outcome_sql)):
+        if counts["bad"][j].any():
+            problems += _number_problems(connection, prepared, source, outcome.data_column,
+                                         f"__rule IS NULL AND NOT {missing} AND {bad}")
     if problems:
         raise DataError(problems)
     read, excluded = counts["read"], counts["excluded"]
@@ -322,7 +328,8 @@ def _build(connection, loaded: LoadedPlan, sample_size: int) -> Dataset:
     outcomes, flows = [], []
     for j, (outcome, (missing, value, _)) in enumerate(zip(plan.outcomes, outcome_sql)):
         analysed = f"__rule IS NULL AND NOT {missing}"
-        summary = _summary(connection, prepared, analysed, value, len(levels))
+        summary = _summary(connection, prepared, analysed, value, counts["analysed"][j],
+                           counts["sums"][j])
         outcomes.append(_sample(connection, prepared, source, plan.data.unit, outcome.name,
                                 analysed, value, summary, sample_size))
         flows.append(OutcomeFlow(outcome=outcome.name,
@@ -341,19 +348,27 @@ def _level_tuple(counts: np.ndarray, levels: Sequence[str]) -> tuple[LevelCount,
 
 def _first_pass(connection, prepared: str, outcome_sql, k: int,
                 rules: int) -> dict[str, np.ndarray]:
-    """Rows per level, per rule and level, and missing outcome cells per eligible level."""
-    missing = "".join(f", count(*) FILTER (WHERE __rule IS NULL AND {m})" for m, _, _ in outcome_sql)
+    """One scan: rows per level, per rule and level; per outcome and eligible level the
+    missing, non-numeric and analysed cells and the (Kahan) sum of the analysed values."""
+    per_outcome = "".join(
+        f", count(*) FILTER (WHERE __rule IS NULL AND {m})"
+        f", count(*) FILTER (WHERE __rule IS NULL AND NOT {m} AND {bad})"
+        f", count({value}) FILTER (WHERE __rule IS NULL AND NOT {m} AND NOT {bad})"
+        f", fsum({value}) FILTER (WHERE __rule IS NULL AND NOT {m} AND NOT {bad})"
+        for m, value, bad in outcome_sql)
     rows = connection.execute(
-        f"SELECT __code, __rule, count(*){missing} FROM {prepared} GROUP BY ALL").fetchall()
+        f"SELECT __code, __rule, count(*){per_outcome} FROM {prepared} GROUP BY ALL").fetchall()
     read = np.zeros(k, dtype=np.int64)
     excluded = np.zeros((rules, k), dtype=np.int64)
-    gone = np.zeros((len(outcome_sql), k), dtype=np.int64)
-    for code, rule, n, *missing_n in rows:
+    found = {name: np.zeros((len(outcome_sql), k), dtype=np.float64 if name == "sums" else np.int64)
+             for name in ("missing", "bad", "analysed", "sums")}
+    for code, rule, n, *per in rows:
         read[code] += n
         if rule is not None:
             excluded[rule, code] += n
-        gone[:, code] += np.array(missing_n, dtype=np.int64)
-    return {"read": read, "excluded": excluded, "missing": gone}
+        for i, name in enumerate(("missing", "bad", "analysed", "sums")):
+            found[name][:, code] += [value or 0 for value in per[i::4]]
+    return {"read": read, "excluded": excluded, **found}
 
 
 def _number_problems(connection, prepared: str, source: _Source, column: str,
@@ -361,8 +376,6 @@ def _number_problems(connection, prepared: str, source: _Source, column: str,
     """One problem per eligible non-numeric cell, the first `LISTED` by line, then a count."""
     where = str(source.path)
     total = connection.execute(f"SELECT count(*) FROM {prepared} WHERE {where_sql}").fetchone()[0]
-    if not total:
-        return []
     cells = connection.execute(f"SELECT __line, {source.text(column)} FROM {prepared} "
                                f"WHERE {where_sql} ORDER BY __line LIMIT {LISTED}").fetchall()
     problems = [Problem(where, line, column,
@@ -374,24 +387,23 @@ def _number_problems(connection, prepared: str, source: _Source, column: str,
     return problems
 
 
-def _summary(connection, prepared: str, analysed: str, value: str, k: int) -> CellSummary:
-    """Per-level n and mean (pass 1), then the sum of squared deviations from that mean
-    (pass 2, the means handed back as exact DOUBLE parameters): the two-pass algorithm."""
-    first = connection.execute(f"SELECT __code, count(*), fsum({value}) FROM {prepared} "
-                               f"WHERE {analysed} GROUP BY __code").fetchall()
-    n = np.zeros(k, dtype=np.int64)
-    mean = np.full(k, np.nan)
-    for code, count, total in first:
-        n[code] = count
-        mean[code] = total / count
-    means = [float(m) if n[i] else 0.0 for i, m in enumerate(mean)]
+def _summary(connection, prepared: str, analysed: str, value: str, n: np.ndarray,
+             sums: np.ndarray) -> CellSummary:
+    """Per-level n and mean (from the first pass), then the sum of squared deviations from
+    that mean (a second scan, the means handed in as exact DOUBLE parameters): the
+    two-pass algorithm, never sum(y^2) - (sum y)^2 / n."""
+    occupied = n > 0
+    mean = np.full(n.size, np.nan)
+    mean[occupied] = sums[occupied] / n[occupied]
+    means = np.where(occupied, mean, 0.0).tolist()
     second = connection.execute(
         f"SELECT __code, fsum(({value} - list_extract(?::DOUBLE[], __code + 1)) ** 2) "
         f"FROM {prepared} WHERE {analysed} GROUP BY __code", [means]).fetchall()
-    ssd = np.zeros(k)
+    ssd = np.zeros(n.size)
     for code, total in second:
         ssd[code] = total
-    return CellSummary(n=frozen_array(n), mean=frozen_array(mean), ssd=frozen_array(ssd))
+    return CellSummary(n=frozen_array(n, dtype=np.int64), mean=frozen_array(mean),
+                       ssd=frozen_array(ssd))
 
 
 def quotas(n: Sequence[int], size: int) -> list[int]:
@@ -422,7 +434,9 @@ def _sample(connection, prepared: str, source: _Source, unit_column: str, name: 
     depends only on the unit id, so the same units are drawn on every run and whatever
     the row order or file format, and it is unrelated to level or value. Only rows whose
     hash falls under a threshold (about twice the needed share) reach Python; the
-    threshold grows until every level has its quota.
+    threshold grows until every level has its quota. (DuckDB's hash is fixed within a
+    DuckDB version; the run records library versions, and another version may draw
+    other units.)
     """
     counts = [int(c) for c in summary.n]
     wanted = quotas(counts, size)

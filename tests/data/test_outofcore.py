@@ -219,3 +219,35 @@ def test_repeated_unit_ids_in_parquet(tmp_path, ids):
     first = str(ids[0].as_py())
     assert f"unit_id: unit {first!r} appears on lines 2, 4; each unit must appear once" in outside
     assert outside == memory
+
+
+def test_short_rows_are_padded_and_bom_skipped(tmp_path):
+    # A row with fewer cells than the header ends in empty cells, as in memory.
+    (tmp_path / "units.csv").write_bytes(b"\xef\xbb\xbf" + (
+        HEADER + "u1,placebo,no,5,1\nu2,low,no,5,2,8\nu3,high,no,5,3,9\n").encode())
+    loaded = load_plan(write_study(tmp_path, "units.csv", 1))
+    outside = build_dataset_out_of_core(loaded)
+    assert [c.n for c in outside.unit_flow.outcomes[1].missing] == [1, 0, 0]
+    assert outside.unit_flow == build_dataset(loaded).unit_flow
+
+
+def test_two_pass_keeps_digits_under_a_large_offset(tmp_path):
+    # Invented: 3 levels x 2000 units at 1e8 + N(0, 0.01): the one-pass formula would lose
+    # about 20 digits here. Reference: math.fsum (Shewchuk's exactly rounded sum), two-pass.
+    import math
+
+    rng = np.random.default_rng(11)
+    codes = np.repeat([0, 1, 2], 2000)
+    y = 1e8 + 0.001 * codes + rng.normal(0.0, 0.01, codes.size)
+    pq.write_table(pa.table({"unit_id": np.arange(codes.size), "arm": np.array(
+        ["placebo", "low", "high"])[codes], "violated": ["no"] * codes.size,
+        "dose": [5.0] * codes.size, "pain": y, "sleep": y}), tmp_path / "units.parquet")
+    summary = build_dataset_out_of_core(
+        load_plan(write_study(tmp_path, "units.parquet", 1))).outcome("pain").summary
+    for i in range(3):
+        values = y[codes == i].tolist()
+        mean = math.fsum(values) / len(values)
+        ssd = math.fsum((v - mean) ** 2 for v in values)
+        assert summary.n[i] == 2000
+        assert summary.mean[i] == pytest.approx(mean, rel=1e-15)
+        assert summary.ssd[i] == pytest.approx(ssd, rel=1e-12)
