@@ -14,6 +14,8 @@ from __future__ import annotations
 
 from collections import defaultdict
 from collections.abc import Sequence
+from concurrent.futures import ThreadPoolExecutor
+from dataclasses import replace
 
 import numpy as np
 
@@ -40,17 +42,21 @@ LISTED = 20
 def build_dataset(loaded: LoadedPlan) -> Dataset:
     """Read the plan's data source and turn it into the analysed `Dataset`."""
     plan = loaded.plan
-    inputs = study_inputs(loaded.path, loaded.data_path)
-    delimiter = _DELIMITERS.get(loaded.data_path.suffix.lower())
-    if delimiter is not None and loaded.data_path.is_file():
-        from appendix.data.columnar import read_columns
-        from appendix.data.vectorised import build_vectorised, needed_columns
+    # Hashing reads the whole file once more; it runs beside the reading (hashlib and
+    # pyarrow release the interpreter lock for large buffers).
+    with ThreadPoolExecutor(max_workers=1) as pool:
+        hashing = pool.submit(study_inputs, loaded.path, loaded.data_path)
+        delimiter = _DELIMITERS.get(loaded.data_path.suffix.lower())
+        if delimiter is not None and loaded.data_path.is_file():
+            from appendix.data.columnar import read_columns
+            from appendix.data.vectorised import build_vectorised, needed_columns
 
-        columns = read_columns(loaded.data_path, delimiter, needed_columns(loaded))
-        built = build_vectorised(loaded, columns, inputs) if columns is not None else None
-        if built is not None:
-            return built
-    table = read_table(loaded.data_path, plan.data.sheet)
+            columns = read_columns(loaded.data_path, delimiter, needed_columns(loaded))
+            built = build_vectorised(loaded, columns) if columns is not None else None
+            if built is not None:
+                return replace(built, inputs=hashing.result())
+        table = read_table(loaded.data_path, plan.data.sheet)
+        inputs = hashing.result()
     where = str(loaded.data_path)
     _require_columns(loaded, table)
     levels = plan.factor.levels

@@ -66,6 +66,14 @@ def read_columns(path: Path, delimiter: str, names: list[str]) -> Columns | None
         # released with the last of them.
         mapped = mmap.mmap(handle.fileno(), 0, access=mmap.ACCESS_READ)
     data = np.frombuffer(mapped, dtype=np.uint8)
+    ascii_text = int(data.max()) < 0x80
+    newlines = int(np.count_nonzero(data == 0x0A))
+    tabs = int(np.count_nonzero(data == 0x09)) if mapped.find(b"\t") >= 0 else 0
+    returns = int(np.count_nonzero(data == 0x0D)) if mapped.find(b"\r") >= 0 else 0
+    if int(np.count_nonzero(data < 0x20)) != newlines + tabs + returns:
+        # Other control characters (\v, \f, \x1c-\x1f) count as white space to Python's
+        # strip; the row-by-row reader handles them.
+        return None
     layout = _layout(mapped, data, delimiter, header_line, header_end)
     if layout is None:
         return None
@@ -84,13 +92,12 @@ def read_columns(path: Path, delimiter: str, names: list[str]) -> Columns | None
         return None
     if line_of is None:
         # One line per row unless blank lines were skipped: then newlines outnumber rows.
-        newlines = int(np.count_nonzero(data == 0x0A))
         if newlines - (data[-1] == 0x0A) != table.num_rows:
             line_of = _layout(mapped, data, delimiter, header_line, header_end, force=True)[1]
     if line_of is not None and line_of.size != table.num_rows:
         return None
     cells = {n: table.column(raw_of[n]).combine_chunks() for n in names}
-    if _has_spaces(mapped, delimiter):
+    if not ascii_text or mapped.find(b" ") >= 0 or (tabs and delimiter != "\t"):
         cells = {n: pc.utf8_trim_whitespace(c) for n, c in cells.items()}
     return Columns(n_rows=table.num_rows, cells=cells, line_of=line_of)
 
@@ -116,7 +123,7 @@ def _layout(mapped: mmap.mmap, data: np.ndarray, delimiter: str, header_line: in
     """(rows hold quotes, line of each data row or None for one line per row), or None
     when the text is not UTF-8, has lone carriage returns, or quotes outside RFC 4180.
     `header_end` is the header's last line; quotes in the header alone do not count."""
-    if int(data.max()) >= 0x80:
+    if int(data.max()) >= 0x80:  # not ASCII: must be UTF-8
         try:
             str(mapped[:], "utf-8")
         except UnicodeDecodeError:
@@ -161,23 +168,20 @@ def _plain_quotes(data: np.ndarray, quotes: np.ndarray, delimiter: int) -> bool:
     return bool(np.all(first | np.isin(before, bounds) | np.isin(after, bounds)))
 
 
-#: Bytes that `str.strip` removes, besides the line ends (ASCII; other text is trimmed).
-_SPACES = (b" ", b"\t", b"\x0b", b"\x0c", b"\x1c", b"\x1d", b"\x1e", b"\x1f")
-
-
-def _has_spaces(mapped: mmap.mmap, delimiter: str) -> bool:
-    """Whether any cell might have surrounding white space to trim (a cheap byte search)."""
-    if int(np.frombuffer(mapped, dtype=np.uint8).max()) >= 0x80:
-        return True
-    return any(mapped.find(b) >= 0 for b in _SPACES if b != delimiter.encode())
-
-
 def missing_mask(column) -> np.ndarray:
     """True where a trimmed cell is one of `appendix.data.values.MISSING_TEXTS`."""
     import pyarrow as pa
     import pyarrow.compute as pc
 
-    return pc.is_in(column, value_set=pa.array(sorted(MISSING_TEXTS))).to_numpy(zero_copy_only=False)
+    # Every missing text is at most this long, so only short cells need the set lookup.
+    longest = max(len(t.encode()) for t in MISSING_TEXTS)
+    short = pc.binary_length(column).to_numpy(zero_copy_only=False) <= longest
+    mask = np.zeros(len(column), dtype=bool)
+    if short.any():
+        rows = np.flatnonzero(short)
+        found = pc.is_in(column.take(pa.array(rows)), value_set=pa.array(sorted(MISSING_TEXTS)))
+        mask[rows] = found.to_numpy(zero_copy_only=False)
+    return mask
 
 
 def all_distinct(column) -> bool:
@@ -194,14 +198,16 @@ def all_distinct(column) -> bool:
         return True
     width = pc.max(pc.binary_length(column)).as_py()
     if width <= _KEY_BYTES and pc.all(pc.string_is_ascii(column)).as_py():
-        padded = pc.utf8_rpad(column, width=width, padding=" ") if width else column
-        offsets = np.frombuffer(padded.buffers()[1], dtype=np.int32)[padded.offset]
-        text = np.frombuffer(padded.buffers()[2], dtype=np.uint8)[offsets:offsets + n * width]
-        keys = np.zeros((n, _KEY_BYTES), dtype=np.uint8)
-        keys[:, :width] = text.reshape(n, width)
-        pair = keys.view(np.uint64)
+        # Padding with spaces keeps distinct texts distinct: trimmed texts end in none.
+        size = 8 if width <= 8 else _KEY_BYTES
+        padded = pc.utf8_rpad(column, width=size, padding=" ")
+        start = np.frombuffer(padded.buffers()[1], dtype=np.int32)[padded.offset]
+        words = np.frombuffer(padded.buffers()[2], dtype=np.uint8)[start:start + n * size]
+        pair = words.view(np.uint64).reshape(n, size // 8)
         with np.errstate(over="ignore"):
-            mixed = pair[:, 0] * np.uint64(0x9E3779B97F4A7C15) ^ pair[:, 1] * np.uint64(0xC2B2AE3D27D4EB4F)
+            mixed = pair[:, 0] * np.uint64(0x9E3779B97F4A7C15)
+            if size > 8:
+                mixed ^= pair[:, 1] * np.uint64(0xC2B2AE3D27D4EB4F)
         mixed.sort()
         if not np.any(mixed[1:] == mixed[:-1]):
             return True

@@ -47,13 +47,15 @@ def plain_places(texts, values: np.ndarray) -> int | None:
     if len(texts) == 0:
         return 0
     point = pc.find_substring(texts, ".").to_numpy(zero_copy_only=False)
-    length = pc.binary_length(texts).to_numpy(zero_copy_only=False)
-    digits = int(np.max(np.where(point < 0, 0, length - point - 1)))
-    scaled = np.abs(values) * 10.0**digits
+    after = pc.binary_length(texts).to_numpy(zero_copy_only=False) - point
+    after -= 1
+    after[point < 0] = 0
+    digits = int(after.max())
     # float64 rounding is far below the factor 2 margin; near the limit, decide exactly.
-    near = np.flatnonzero(scaled >= EXACT_LIMIT / 2)
-    if near.size and not _fit_exactly(texts.take(near).to_pylist(), digits):
-        return None
+    if max(values.max(), -values.min()) * 10.0**digits >= EXACT_LIMIT / 2:
+        near = np.flatnonzero(np.abs(values) * 10.0**digits >= EXACT_LIMIT / 2)
+        if not _fit_exactly(texts.take(near).to_pylist(), digits):
+            return None
     return digits
 
 

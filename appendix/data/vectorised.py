@@ -9,6 +9,8 @@ with its lines.
 
 from __future__ import annotations
 
+from concurrent.futures import ThreadPoolExecutor
+
 import numpy as np
 
 from appendix.data.columnar import Columns, all_distinct, missing_mask
@@ -18,7 +20,7 @@ from appendix.data.flow import count_levels, flow_findings
 from appendix.data.rows import LineRows, TextRows
 from appendix.data.values import DECIMAL_PATTERN, match_key
 from appendix.plan.load import LoadedPlan
-from appendix.results import ExclusionCount, InputFile, OutcomeFlow, UnitFlow
+from appendix.results import ExclusionCount, OutcomeFlow, UnitFlow
 
 
 def needed_columns(loaded: LoadedPlan) -> list[str]:
@@ -29,20 +31,29 @@ def needed_columns(loaded: LoadedPlan) -> list[str]:
     return list(dict.fromkeys(names))
 
 
-def build_vectorised(loaded: LoadedPlan, columns: Columns,
-                     inputs: tuple[InputFile, ...]) -> Dataset | None:
-    """The `Dataset` of a clean file, or None if any row breaks a data rule."""
+def build_vectorised(loaded: LoadedPlan, columns: Columns) -> Dataset | None:
+    """The `Dataset` of a clean file (its `inputs` left empty for the caller to fill),
+    or None if any row breaks a data rule."""
+    plan = loaded.plan
+    units = columns.cells[plan.data.unit]
+    if missing_mask(units).any():
+        return None
+    # The repeat check is the longest single step; it runs beside the rest.
+    with ThreadPoolExecutor(max_workers=1) as pool:
+        distinct = pool.submit(all_distinct, units)
+        built = _build(plan, columns, units)
+        return built if distinct.result() else None
+
+
+def _build(plan, columns: Columns, units) -> Dataset | None:
     import pyarrow as pa
     import pyarrow.compute as pc
 
-    plan = loaded.plan
     levels = plan.factor.levels
-    units = columns.cells[plan.data.unit]
-    if missing_mask(units).any() or not all_distinct(units):
-        return None
     codes = _level_codes(columns.cells[plan.factor.name], levels)
     if codes is None:
         return None
+    read = count_levels(codes, levels)
     eligible = np.ones(columns.n_rows, dtype=bool)
     excluded = []
     for rule in plan.data.exclusions:
@@ -51,6 +62,9 @@ def build_vectorised(loaded: LoadedPlan, columns: Columns,
         excluded.append(ExclusionCount(rule=rule.id, column=rule.column, equals=rule.equals,
                                        reason=rule.reason, by_level=count_levels(codes[hit], levels),
                                        total=int(hit.sum())))
+    # Counting is a pass over every row: reuse a count when the rows are the same.
+    everyone = bool(eligible.all())
+    counted_eligible = read if everyone else count_levels(codes[eligible], levels)
     outcomes, flows = [], []
     for outcome in plan.outcomes:
         texts = columns.cells[outcome.data_column]
@@ -59,7 +73,7 @@ def build_vectorised(loaded: LoadedPlan, columns: Columns,
         plain = _all_where(pc.match_substring_regex(texts, PLAIN_PATTERN), analysed)
         if not plain and not _all_where(pc.match_substring_regex(texts, DECIMAL_PATTERN), analysed):
             return None
-        if analysed.all():
+        if everyone and not missing.any():
             rows, kept, kept_codes = range(columns.n_rows), texts, codes
         else:
             rows = np.flatnonzero(analysed)
@@ -71,12 +85,13 @@ def build_vectorised(loaded: LoadedPlan, columns: Columns,
             name=outcome.name, values=_read_only(values), codes=_read_only(kept_codes),
             units=TextRows(units, rows), lines=LineRows(rows, 2, columns.line_of),
             decimals=plain_places(kept, values) if plain else None))
-        flows.append(OutcomeFlow(outcome=outcome.name,
-                                 missing=count_levels(codes[eligible & missing], levels),
-                                 analysed=count_levels(kept_codes, levels)))
-    flow = UnitFlow(read=count_levels(codes, levels), exclusions=tuple(excluded),
-                    eligible=count_levels(codes[eligible], levels), outcomes=tuple(flows))
-    return Dataset(levels=levels, inputs=inputs, unit_flow=flow, outcomes=tuple(outcomes),
+        gone = eligible & missing
+        flows.append(OutcomeFlow(
+            outcome=outcome.name, missing=count_levels(codes[gone], levels),
+            analysed=counted_eligible if not gone.any() else count_levels(kept_codes, levels)))
+    flow = UnitFlow(read=read, exclusions=tuple(excluded), eligible=counted_eligible,
+                    outcomes=tuple(flows))
+    return Dataset(levels=levels, inputs=(), unit_flow=flow, outcomes=tuple(outcomes),
                    findings=flow_findings(plan, flow))
 
 

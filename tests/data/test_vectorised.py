@@ -134,3 +134,14 @@ def test_row_sequences_behave_as_tuples():
     assert units == ("u3", "u1") and ("u3", "u1") == units and units != ("u3",)
     assert LineRows(range(3), first=2) == (2, 3, 4)
     assert LineRows(np.array([1]), line_of=np.array([2, 9])) == (9,)
+
+
+@pytest.mark.parametrize("rows", [
+    "u1,placebo,no,5,1.5,7\r\nu2,low,no,5,\x1c2\x1c,8\r\n",  # \x1c is white space to str.strip
+    "u1,placebo,no,5,1.5,7\r\nu2,low,no,5,2.0,8\r\n",          # CRLF line ends
+    " u1 ,placebo,no,5,\t1.5,7\nu2,low,no,5,2.0 ,8\n",         # spaces and tabs around cells
+])
+def test_white_space_and_line_ends_as_the_row_by_row_path(tmp_path, monkeypatch, rows):
+    fast, slow = _both(tmp_path, monkeypatch, HEADER + rows)
+    _same(fast, slow)
+    assert fast.outcome("pain").values.tolist() == [1.5, 2.0]
