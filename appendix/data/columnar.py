@@ -146,7 +146,8 @@ def _layout(mapped: mmap.mmap, data: np.ndarray, delimiter: str, header_line: in
         if not _plain_quotes(data, quotes, ord(delimiter)):
             return None
         ends = newlines[np.searchsorted(quotes, newlines) % 2 == 0]
-    starts = np.concatenate(([0], ends + 1))
+    bom = 3 if mapped[:3] == b"\xef\xbb\xbf" else 0  # not part of the first record
+    starts = np.concatenate(([bom], ends + 1))
     stops = np.concatenate((ends, [data.size]))
     length = stops - starts
     # A blank record (empty, or a lone CR of a CRLF blank line) is skipped by both readers.

@@ -145,3 +145,11 @@ def test_white_space_and_line_ends_as_the_row_by_row_path(tmp_path, monkeypatch,
     fast, slow = _both(tmp_path, monkeypatch, HEADER + rows)
     _same(fast, slow)
     assert fast.outcome("pain").values.tolist() == [1.5, 2.0]
+
+
+def test_leading_blank_lines_and_byte_order_mark(tmp_path, monkeypatch):
+    text = "\ufeff\n\n" + HEADER + "u1,placebo,no,5,1.5,7\nu2,low,no,5,2.0,8\n"
+    fast, slow = _both(tmp_path, monkeypatch, text)
+    assert isinstance(fast.outcome("pain").units, TextRows)
+    assert fast.outcome("pain").lines == (4, 5)
+    _same(fast, slow)
