@@ -15,6 +15,7 @@ from appendix.plan.load import LoadedPlan
 from appendix.plan.model import Outcome, Plan
 from appendix.results import (
     ContrastFamily,
+    Descriptives,
     Deviation,
     Diagnostics,
     ExploratoryAnalysis,
@@ -22,12 +23,13 @@ from appendix.results import (
     LevelCount,
     OutcomeResult,
     Software,
+    StatWarning,
     StudyInfo,
     StudyResults,
 )
-from appendix.stats.cells import cell_stats
+from appendix.stats.cells import cell_stats, cells_from_summary
 from appendix.stats.cells import residuals as stats_residuals
-from appendix.stats.descriptives import describe
+from appendix.stats.descriptives import describe, mean_interval
 from appendix.stats.diagnostics import bartlett, brown_forsythe, outlier_screen, shapiro_wilk
 from appendix.stats.effect_sizes import effect_sizes
 from appendix.stats.oneway import variance_table, welch_anova
@@ -58,6 +60,26 @@ def _diagnostics(plan: Plan, data: OutcomeData, cells, levels) -> Diagnostics:
                        assumptions=conclude.assumption_statuses(plan, normality, tests))
 
 
+def _full_data_moments(descriptives: Descriptives, cells, data: OutcomeData) -> Descriptives:
+    """Descriptives of an out-of-core outcome: n, mean, SD, SE and CI from every unit;
+    median and quartiles from the subsample; minimum and maximum not available."""
+    groups = []
+    for i, group in enumerate(descriptives.groups):
+        n, mean = int(cells.n[i]), float(cells.mean[i])
+        sd, se, low, high = mean_interval(n, mean, float(cells.ssd[i]),
+                                          descriptives.confidence_level)
+        groups.append(dataclasses.replace(
+            group, n=n, mean=mean if n else None, sd=sd, se=se, ci_low=low, ci_high=high,
+            minimum=None, maximum=None))
+    note = StatWarning(
+        "subsample-quantiles",
+        f"Medians and quartiles come from a deterministic subsample of {data.values.size} "
+        f"of the {data.sample_of} analysed units; minimum and maximum are not computed for "
+        "a source aggregated out of core.")
+    return dataclasses.replace(descriptives, groups=tuple(groups),
+                               warnings=(*descriptives.warnings, note))
+
+
 @dataclass(frozen=True)
 class _OutcomeWork:
     """One outcome's results plus what is reported elsewhere (exploratory, deviations)."""
@@ -73,15 +95,22 @@ def analyse_outcome(plan: Plan, outcome: Outcome, data: OutcomeData,
     method in force (after any registered fallback), and its exploratory analyses."""
     levels = plan.factor.levels
     k = len(levels)
-    cells = cell_stats(data.values, data.codes, k, levels)
     missing_by_level = [count.n for count in missing]
     descriptives = describe(data.values, data.codes, levels, missing_by_level,
                             DESCRIPTIVE_CONFIDENCE)
+    if data.summary is not None:
+        # Out of core: moments from every unit, row-level statistics from the subsample.
+        cells = cells_from_summary(data.summary, levels)
+        descriptives = _full_data_moments(descriptives, cells, data)
+    else:
+        cells = cell_stats(data.values, data.codes, k, levels, decimals=data.decimals)
     table = variance_table(cells, plan.alpha)
     welch = welch_anova(cells)
     kruskal = kruskal_wallis(data.values, data.codes, k, levels)
     effects = effect_sizes(table, effect_size_confidence(plan.alpha))
-    diagnostics = _diagnostics(plan, data, cells, levels)
+    row_cells = cell_stats(data.values, data.codes, k, levels) if data.summary is not None \
+        else cells
+    diagnostics = _diagnostics(plan, data, row_cells, levels)
     selected, contingencies = families.select_method(plan, diagnostics)
     sentence = conclude.conclusion(plan, outcome, table, effects, method=selected,
                                    welch=welch, kruskal=kruskal)
@@ -101,6 +130,9 @@ def analyse_outcome(plan: Plan, outcome: Outcome, data: OutcomeData,
         diagnostics=diagnostics,
         conclusion=sentence,
         selected_method=selected,
+        arithmetic=cells.arithmetic,
+        sample_of=data.sample_of,
+        sample_size=int(data.values.size) if data.sample_of is not None else None,
         contrasts=contrasts,
         contingencies=contingencies,
     )

@@ -58,11 +58,21 @@ def _summary(level: str, group: np.ndarray, mean: float, ssd: float, n_missing: 
     if n == 0:
         return GroupSummary(level, 0, n_missing, *([None] * 10))
     q1, median, q3 = (float(q) for q in np.quantile(group, [0.25, 0.5, 0.75], method="linear"))
-    sd = se = low = high = None
-    if n > 1:
-        sd = math.sqrt(ssd / (n - 1))
-        se = sd / math.sqrt(n)
-        half = float(_st.t.isf((1 - confidence) / 2, n - 1)) * se
-        low, high = float(mean) - half, float(mean) + half
+    sd, se, low, high = mean_interval(n, float(mean), float(ssd), confidence)
     return GroupSummary(level, n, n_missing, float(mean), sd, se, low, high, median, q1, q3,
                         float(group.min()), float(group.max()))
+
+
+def mean_interval(n: int, mean: float, ssd: float, confidence: float):
+    """(SD, SE, CI low, CI high) of a mean from n, mean and the sum of squared deviations;
+    all None for n < 2. The CI is mean +/- t_{1-(1-confidence)/2, n-1} SE (Student 1908).
+
+    >>> [round(x, 4) for x in mean_interval(4, 10.0, 12.0, 0.95)]
+    [2.0, 1.0, 6.8176, 13.1824]
+    """
+    if n < 2:
+        return None, None, None, None
+    sd = math.sqrt(ssd / (n - 1))
+    se = sd / math.sqrt(n)
+    half = float(_st.t.isf((1 - confidence) / 2, n - 1)) * se
+    return sd, se, mean - half, mean + half
