@@ -52,8 +52,19 @@ class RunRecord:
     files: tuple[str, ...]
 
 
-def load_data(loaded: LoadedPlan) -> Dataset:
-    """Read, check and exclude: the dataset stage."""
+def load_data(loaded: LoadedPlan, *, out_of_core: bool | None = None) -> Dataset:
+    """Read, check and exclude: the dataset stage.
+
+    A source with more rows than fit comfortably in memory (Parquet by its metadata,
+    CSV/TSV by an estimate; see `appendix.data.outofcore.should_go_out_of_core`) is
+    aggregated out of core by DuckDB; `out_of_core` forces either way.
+    """
+    from appendix.data import outofcore
+
+    if out_of_core is None:
+        out_of_core = outofcore.should_go_out_of_core(loaded.data_path)
+    if out_of_core:
+        return outofcore.build_dataset_out_of_core(loaded)
     return build_dataset(loaded)
 
 
@@ -62,10 +73,10 @@ def analyse(loaded: LoadedPlan, dataset: Dataset) -> StudyResults:
     return _analyse(loaded, dataset, software_versions())
 
 
-def compute(study: str | Path) -> Computed:
+def compute(study: str | Path, *, out_of_core: bool | None = None) -> Computed:
     """Plan, data and results for a study file; raises `appendix.errors.UserError`."""
     loaded = load_plan(Path(study))
-    dataset = load_data(loaded)
+    dataset = load_data(loaded, out_of_core=out_of_core)
     return Computed(loaded, dataset, analyse(loaded, dataset))
 
 
@@ -91,14 +102,15 @@ def render(computed: Computed, options=None) -> Rendered:
 def run(study: str | Path, out_dir: str | Path | None = None, *,
         out_root: str | Path = "out", options=None,
         pdf: bool = True, clock: Callable[[], _dt.datetime] | None = None,
-        progress: Callable[[str], None] | None = None) -> RunRecord:
+        progress: Callable[[str], None] | None = None,
+        out_of_core: bool | None = None) -> RunRecord:
     """Compute and render a study into its run folder (`out_dir`, by default
     ``<out_root>/<study id>/``), replacing the folder only once everything is written."""
     from appendix import publish, render as html
 
     say = progress or (lambda _message: None)
     say("reading plan and data")
-    computed = compute(study)
+    computed = compute(study, out_of_core=out_of_core)
     say("computing figures and HTML")
     options = options or html.RenderOptions()
     rendered = render(computed, options)

@@ -45,3 +45,20 @@ def test_load_plan_raises_plan_error_with_every_problem(tmp_path: Path):
         api.load_plan(bad)
     paths = [problem.path for problem in caught.value.problems]
     assert {"format", "alpha", "study", "data", "design", "outcomes"} <= set(paths)
+
+
+def test_out_of_core_run_matches_the_in_memory_run(demo_study: Path, tmp_path: Path):
+    memory = api.run(demo_study, tmp_path / "memory", pdf=False, out_of_core=False).results
+    duck = api.run(demo_study, tmp_path / "duck", pdf=False, out_of_core=True).results
+    for a, b in zip(memory.outcomes, duck.outcomes):
+        assert b.sample_of == a.n_analysed and b.sample_size == a.n_analysed
+        assert b.arithmetic == "float64" and a.arithmetic == "exact-decimal"
+        for row_a, row_b in zip(a.table.rows, b.table.rows):
+            assert row_b.sum_of_squares == pytest.approx(row_a.sum_of_squares, rel=1e-12)
+        assert b.table.p == pytest.approx(a.table.p, rel=1e-10)
+        assert b.conclusion.decision == a.conclusion.decision
+        # the whole demo fits in the subsample, so row-level statistics agree too
+        assert b.kruskal.h == pytest.approx(a.kruskal.h, rel=1e-12)
+    assert duck.unit_flow == memory.unit_flow
+    html = (tmp_path / "duck" / "appendix.html").read_text(encoding="utf-8")
+    assert "aggregated out of core" in html
