@@ -72,7 +72,8 @@ print(json.dumps({"seconds": time.perf_counter() - start, "n": int(s.n.sum()), "
 
 
 def scratch() -> Path:
-    folder = Path(os.environ.get("APPENDIX_BENCH_DIR") or Path(tempfile.gettempdir()) / "appendix-bench")
+    default = Path(tempfile.gettempdir()) / "appendix-bench"
+    folder = Path(os.environ.get("APPENDIX_BENCH_DIR") or default)
     folder.mkdir(parents=True, exist_ok=True)
     return folder
 
@@ -157,7 +158,10 @@ def measurements() -> list[Measurement]:
                           capture_output=True, text=True, env=env)
     got = json.loads(done.stdout.strip().splitlines()[-1])
     peak = got["peak_kib"] * 1024 / GIB
+    from appendix.data.outofcore import should_go_out_of_core
+
     detail = (f"N = {got['n']:,}, F = {got['f']:.4g}, {got['seconds']:.0f} s to variance table, "
+              f"out of core chosen: {should_go_out_of_core(data)}, "
               f"sample {got['sample']}, file {data.stat().st_size / GIB:.2f} GiB"
               + (f", generated in {made:.0f} s" if made else ", reused"))
     n, mean, ssd = numpy_two_pass(data)

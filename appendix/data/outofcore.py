@@ -58,7 +58,7 @@ from appendix.data.table import Table
 from appendix.data.values import MISSING_TEXTS, match_key
 from appendix.errors import DataError, Problem, UserError
 from appendix.plan.load import LoadedPlan
-from appendix.plan.wording import capped, did_you_mean, one_of, show
+from appendix.plan.wording import did_you_mean, one_of, show
 from appendix.results import ExclusionCount, LevelCount, OutcomeFlow, UnitFlow
 
 #: The decimal-number pattern of `appendix.data.values.parse_number`, for RE2.
@@ -151,7 +151,8 @@ def _open(connection, path: Path) -> _Source:
     if not path.is_file():
         raise UserError(f"data file not found: {path.resolve()}")
     described = connection.execute(f"DESCRIBE SELECT * FROM {scan}").fetchall()
-    types = {row[0]: str(row[1]) for row in described if row[0] not in ("__line", "file_row_number")}
+    added = ("__line", "file_row_number")
+    types = {row[0]: str(row[1]) for row in described if row[0] not in added}
     return _Source(path=path, scan=scan, types=types)
 
 
@@ -278,8 +279,9 @@ def build_dataset_out_of_core(loaded: LoadedPlan, *, sample_size: int = 5000,
     (`OutcomeData.sample_of` = number analysed). See the module notes for the few
     differences from the in-memory stage.
 
-    >>> build_dataset_out_of_core(load_plan(Path("study.yaml"))).outcome("pain").sample_of  # doctest: +SKIP
-    120000000
+    >>> dataset = build_dataset_out_of_core(load_plan(Path("study.yaml")))  # doctest: +SKIP
+    >>> dataset.outcome("pain").sample_of, dataset.outcome("pain").values.size  # doctest: +SKIP
+    (120000000, 5000)
     """
     import duckdb
 

@@ -251,3 +251,14 @@ def test_two_pass_keeps_digits_under_a_large_offset(tmp_path):
         assert summary.n[i] == 2000
         assert summary.mean[i] == pytest.approx(mean, rel=1e-15)
         assert summary.ssd[i] == pytest.approx(ssd, rel=1e-12)
+
+
+@pytest.mark.parametrize("threads", [1, 2])
+def test_csv_lines_follow_the_file_over_many_scan_chunks(tmp_path, threads):
+    # Invented 3 x 10,000 rows: many DuckDB vectors (2,048 rows each) per scan.
+    loaded = _loaded(tmp_path, "units.csv", seed=5, per_level=10_000)
+    memory = build_dataset(loaded).outcome("pain")
+    outside = build_dataset_out_of_core(loaded, sample_size=10**6, threads=threads).outcome("pain")
+    assert outside.sample_of == memory.values.size > 15_000
+    assert (outside.units, outside.lines) == (memory.units, memory.lines)
+    np.testing.assert_array_equal(outside.values, memory.values)
