@@ -67,13 +67,9 @@ def read_columns(path: Path, delimiter: str, names: list[str]) -> Columns | None
         mapped = mmap.mmap(handle.fileno(), 0, access=mmap.ACCESS_READ)
     data = np.frombuffer(mapped, dtype=np.uint8)
     ascii_text = int(data.max()) < 0x80
-    newlines = int(np.count_nonzero(data == 0x0A))
     tabs = int(np.count_nonzero(data == 0x09)) if mapped.find(b"\t") >= 0 else 0
     returns = int(np.count_nonzero(data == 0x0D)) if mapped.find(b"\r") >= 0 else 0
-    if int(np.count_nonzero(data < 0x20)) != newlines + tabs + returns:
-        # Other control characters (\v, \f, \x1c-\x1f) count as white space to Python's
-        # strip; the row-by-row reader handles them.
-        return None
+    controls = int(np.count_nonzero(data < 0x20)) - tabs - returns  # newlines and others
     layout = _layout(mapped, data, delimiter, header_line, header_end)
     if layout is None:
         return None
@@ -90,10 +86,16 @@ def read_columns(path: Path, delimiter: str, names: list[str]) -> Columns | None
         return None
     if table.column_names != [raw_of[n] for n in names]:
         return None
-    if line_of is None:
-        # One line per row unless blank lines were skipped: then newlines outnumber rows.
-        if newlines - (data[-1] == 0x0A) != table.num_rows:
-            line_of = _layout(mapped, data, delimiter, header_line, header_end, force=True)[1]
+    # Control bytes besides tab, CR and LF (\v, \f, \x1c-\x1f) are white space to Python's
+    # strip: the row-by-row reader handles them. With one line per row the newlines are
+    # known from the row count, which saves counting them.
+    one_line_each = table.num_rows + int(data[-1] == 0x0A)
+    if line_of is None and controls == one_line_each:
+        pass
+    elif controls != int(np.count_nonzero(data == 0x0A)):
+        return None
+    elif line_of is None:  # blank lines were skipped: map rows to lines
+        line_of = _layout(mapped, data, delimiter, header_line, header_end, force=True)[1]
     if line_of is not None and line_of.size != table.num_rows:
         return None
     cells = {n: table.column(raw_of[n]).combine_chunks() for n in names}
