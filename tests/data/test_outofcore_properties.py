@@ -54,3 +54,32 @@ def test_out_of_core_agrees_with_in_memory(rows, sample):
                 np.testing.assert_allclose(part.summary.mean[i], mean, rtol=1e-12, atol=1e-15)
                 np.testing.assert_allclose(part.summary.ssd[i], ((values - mean) ** 2).sum(),
                                            rtol=1e-12, atol=1e-12)
+
+
+FLOATS = st.one_of(st.none(), st.just(float("nan")),
+                   st.floats(-1e6, 1e6, allow_nan=False).map(lambda v: round(v, 3)))
+
+
+@settings(max_examples=30, deadline=None)
+@given(rows=st.lists(st.tuples(st.sampled_from(["placebo", "low", "high"]),
+                               st.sampled_from(["no", "yes", None]),
+                               st.sampled_from([5.0, 0.0, -0.0, None, float("nan"), 2.5]),
+                               FLOATS, FLOATS), min_size=1, max_size=30))
+def test_typed_parquet_agrees_with_in_memory(rows):
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    names = ["arm", "violated", "dose", "pain", "sleep"]
+    columns = {name: [row[j] for row in rows] for j, name in enumerate(names)}
+    with tempfile.TemporaryDirectory() as folder:
+        table = pa.table({"unit_id": pa.array(range(len(rows)), pa.int64()),
+                          **{name: pa.array(values, pa.float64() if j > 1 else pa.string())
+                             for j, (name, values) in enumerate(columns.items())}})
+        pq.write_table(table, Path(folder) / "units.parquet")
+        loaded = load_plan(write_study(Path(folder), "units.parquet", planned=3))
+        memory = build_dataset(loaded)
+        outside = build_dataset_out_of_core(loaded, sample_size=len(rows))
+    assert (outside.unit_flow, outside.findings) == (memory.unit_flow, memory.findings)
+    for got, reference in zip(outside.outcomes, memory.outcomes):
+        assert (got.units, got.lines) == (reference.units, reference.lines)
+        np.testing.assert_array_equal(got.values, reference.values)
