@@ -11,7 +11,7 @@ scans the file several times and only counts and per-level sums reach Python:
 4. exclusion rules in plan order, counted per rule and level (a unit under its first rule);
 5. per outcome, missing cells counted per level, non-numeric cells reported (20 at most);
 6. per outcome and level, n and mean (first pass), then the sum of squared deviations
-   from that mean joined back (second pass): the two-pass algorithm (Chan, Golub &
+   from that mean, handed back to a second scan: the two-pass algorithm (Chan, Golub &
    LeVeque 1983, Am. Stat. 37:242-247), in DOUBLE, each sum taken with DuckDB's ``fsum``
    (Kahan compensated summation, Kahan 1965, Comm. ACM 8:40; DuckDB's docs name it so,
    from memory, and a check agrees: 1e16 plus a thousand 1.0 gives 1e16 + 1000 with
@@ -24,9 +24,10 @@ Unit flow and findings come from the in-memory stage's own functions, fed with c
 Differences from the in-memory stage, by design or by what SQL can do cheaply:
 
 - Row numbers: Parquet rows are numbered by DuckDB's ``file_row_number`` (row i is line
-  i + 2, as in memory). CSV/TSV rows are numbered in scan order (one thread, so file
-  order): line = data row + 1, which is the physical line when the file has no blank
-  line and no quoted cell spanning lines.
+  i + 2, as in memory). CSV/TSV rows are numbered in scan order, which DuckDB keeps as
+  file order (``preserve_insertion_order``; tested on 1 and 2 threads): line = data
+  row + 1, the physical line when the file has no blank line and no quoted cell
+  spanning lines.
 - Text is trimmed of spaces, tabs and line breaks (Python's ``str.strip`` also trims
   other Unicode white space).
 - Exclusion values that are numbers are compared as DOUBLE, not as exact decimals, so
@@ -35,7 +36,8 @@ Differences from the in-memory stage, by design or by what SQL can do cheaply:
   Python's ``repr`` for level names and unit ids (``0.1``, ``1e-05``, ``1e+22``).
 - The sums are float64 (the engine's float path), also for decimal text.
 - A CSV/TSV file whose layout DuckDB cannot parse (e.g. more cells than the header) is a
-  `UserError` carrying DuckDB's message, where the in-memory reader lists ragged lines.
+  `UserError` carrying DuckDB's message, where the in-memory reader lists ragged lines;
+  a repeated CSV column name is renamed by DuckDB (``a_1``) rather than reported.
 - Results are reproducible bit for bit because the scan runs on one thread (`threads`);
   more threads are faster but may change the last bits of a sum between runs.
 """
