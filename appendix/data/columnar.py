@@ -171,19 +171,73 @@ def _plain_quotes(data: np.ndarray, quotes: np.ndarray, delimiter: int) -> bool:
     return bool(np.all(first | np.isin(before, bounds) | np.isin(after, bounds)))
 
 
+#: pyarrow type names and the numpy dtypes of the same bytes.
+_NUMPY_TYPES = {"int8": "<i1", "int16": "<i2", "int32": "<i4", "int64": "<i8", "uint8": "<u1",
+                "uint16": "<u2", "uint32": "<u4", "uint64": "<u8", "float": "<f4", "double": "<f8"}
+
+
+def numpy_of(array) -> np.ndarray:
+    """A pyarrow array without nulls (numbers or booleans) as a numpy array, read from its
+    buffers: pyarrow's own `to_numpy` imports pandas, a quarter second at start-up.
+
+    >>> import pyarrow as pa
+    >>> numpy_of(pa.array([True, False, True])).tolist(), numpy_of(pa.array([1.5, 2.0])).tolist()
+    ([True, False, True], [1.5, 2.0])
+    """
+    import pyarrow as pa
+
+    if isinstance(array, pa.ChunkedArray):
+        array = array.combine_chunks()
+    if array.null_count:
+        raise ValueError("numpy_of needs an array without nulls")
+    data = array.buffers()[1]
+    n, start = len(array), array.offset
+    if pa.types.is_boolean(array.type):
+        bits = np.frombuffer(data, dtype=np.uint8) if data is not None else np.zeros(0, np.uint8)
+        return np.unpackbits(bits, bitorder="little")[start:start + n].astype(bool)
+    dtype = np.dtype(_NUMPY_TYPES[str(array.type)])
+    if data is None:
+        return np.zeros(0, dtype)
+    return np.frombuffer(data, dtype=dtype)[start:start + n]
+
+
+def arrow_indices(rows: np.ndarray):
+    """Row indices (int64, numpy) as a pyarrow array over the same memory; `pa.array` of a
+    numpy array would import pandas to check for pandas objects first."""
+    import pyarrow as pa
+
+    rows = np.ascontiguousarray(rows, dtype=np.int64)
+    return pa.Array.from_buffers(pa.int64(), rows.size, [None, pa.py_buffer(rows)])
+
+
+def text_array(texts) -> object:
+    """A pyarrow string array of `texts` built from its buffers (`pa.array` would import
+    pandas first).
+
+    >>> text_array(["NA", "", "é"]).to_pylist()
+    ['NA', '', 'é']
+    """
+    import pyarrow as pa
+
+    encoded = [t.encode("utf-8") for t in texts]
+    offsets = np.zeros(len(encoded) + 1, dtype=np.int32)
+    np.cumsum([len(b) for b in encoded], out=offsets[1:])
+    return pa.Array.from_buffers(pa.string(), len(encoded),
+                                 [None, pa.py_buffer(offsets), pa.py_buffer(b"".join(encoded))])
+
+
 def missing_mask(column) -> np.ndarray:
     """True where a trimmed cell is one of `appendix.data.values.MISSING_TEXTS`."""
-    import pyarrow as pa
     import pyarrow.compute as pc
 
     # Every missing text is at most this long, so only short cells need the set lookup.
     longest = max(len(t.encode()) for t in MISSING_TEXTS)
-    short = pc.binary_length(column).to_numpy(zero_copy_only=False) <= longest
+    short = numpy_of(pc.binary_length(column)) <= longest
     mask = np.zeros(len(column), dtype=bool)
     if short.any():
         rows = np.flatnonzero(short)
-        found = pc.is_in(column.take(pa.array(rows)), value_set=pa.array(sorted(MISSING_TEXTS)))
-        mask[rows] = found.to_numpy(zero_copy_only=False)
+        found = pc.is_in(column.take(arrow_indices(rows)), value_set=text_array(sorted(MISSING_TEXTS)))
+        mask[rows] = numpy_of(found)
     return mask
 
 

@@ -32,7 +32,9 @@ def decimal_places(texts, values: np.ndarray) -> int | None:
     import pyarrow.compute as pc
 
     if not isinstance(texts, (pa.Array, pa.ChunkedArray)):
-        texts = pa.array(list(texts), type=pa.string())
+        from appendix.data.columnar import text_array
+
+        texts = text_array(list(texts))
     if len(texts) == 0:
         return 0
     if not pc.all(pc.match_substring_regex(texts, PLAIN_PATTERN)).as_py():
@@ -44,17 +46,19 @@ def plain_places(texts, values: np.ndarray) -> int | None:
     """`decimal_places` of pyarrow `texts` already known to match `PLAIN_PATTERN`."""
     import pyarrow.compute as pc
 
+    from appendix.data.columnar import arrow_indices, numpy_of
+
     if len(texts) == 0:
         return 0
-    point = pc.find_substring(texts, ".").to_numpy(zero_copy_only=False)
-    after = pc.binary_length(texts).to_numpy(zero_copy_only=False) - point
+    point = numpy_of(pc.find_substring(texts, "."))
+    after = numpy_of(pc.binary_length(texts)) - point
     after -= 1
     after[point < 0] = 0
     digits = int(after.max())
     # float64 rounding is far below the factor 2 margin; near the limit, decide exactly.
     if max(values.max(), -values.min()) * 10.0**digits >= EXACT_LIMIT / 2:
         near = np.flatnonzero(np.abs(values) * 10.0**digits >= EXACT_LIMIT / 2)
-        if not _fit_exactly(texts.take(near).to_pylist(), digits):
+        if not _fit_exactly(texts.take(arrow_indices(near)).to_pylist(), digits):
             return None
     return digits
 

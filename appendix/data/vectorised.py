@@ -13,7 +13,7 @@ from concurrent.futures import ThreadPoolExecutor
 
 import numpy as np
 
-from appendix.data.columnar import Columns, all_distinct, missing_mask
+from appendix.data.columnar import Columns, all_distinct, arrow_indices, missing_mask, numpy_of
 from appendix.data.dataset import Dataset, OutcomeData
 from appendix.data.decimals import PLAIN_PATTERN, plain_places
 from appendix.data.flow import count_levels, flow_findings
@@ -77,8 +77,8 @@ def _build(plan, columns: Columns, units) -> Dataset | None:
             rows, kept, kept_codes = range(columns.n_rows), texts, codes
         else:
             rows = np.flatnonzero(analysed)
-            kept, kept_codes = texts.take(pa.array(rows)), codes[rows]
-        values = pc.cast(kept, pa.float64()).to_numpy(zero_copy_only=False)
+            kept, kept_codes = texts.take(arrow_indices(rows)), codes[rows]
+        values = numpy_of(pc.cast(kept, pa.float64()))
         if not np.isfinite(values).all():
             return None
         outcomes.append(OutcomeData(
@@ -104,7 +104,7 @@ def _read_only(array: np.ndarray) -> np.ndarray:
 
 def _all_where(matched, mask: np.ndarray) -> bool:
     """Whether the boolean pyarrow array `matched` is true at every row of `mask`."""
-    return bool(matched.to_numpy(zero_copy_only=False)[mask].all())
+    return bool(numpy_of(matched)[mask].all())
 
 
 def _level_codes(column, levels) -> np.ndarray | None:
@@ -116,7 +116,7 @@ def _level_codes(column, levels) -> np.ndarray | None:
     of_entry = np.array([index.get(t, -1) for t in encoded.dictionary.to_pylist()], dtype=np.int64)
     if (of_entry < 0).any():
         return None
-    return of_entry[encoded.indices.to_numpy(zero_copy_only=False)]
+    return of_entry[numpy_of(encoded.indices)]
 
 
 def _matches(column, target: str) -> np.ndarray:
@@ -125,4 +125,4 @@ def _matches(column, target: str) -> np.ndarray:
 
     encoded = pc.dictionary_encode(column)
     hit = np.array([match_key(t) == target for t in encoded.dictionary.to_pylist()], dtype=bool)
-    return hit[encoded.indices.to_numpy(zero_copy_only=False)] if hit.size else np.zeros(len(column), bool)
+    return hit[numpy_of(encoded.indices)] if hit.size else np.zeros(len(column), bool)
