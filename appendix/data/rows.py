@@ -49,7 +49,7 @@ class _Rows(Sequence):
 
     def __repr__(self) -> str:
         shown = ", ".join(repr(x) for x in self[:5])
-        return f"({shown}{', ...' if len(self) > 5 else ''})  # {len(self)} rows"
+        return f"{type(self).__name__}({shown}{', ...' if len(self) > 5 else ''}; {len(self)} rows)"
 
 
 class TextRows(_Rows):

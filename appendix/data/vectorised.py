@@ -15,7 +15,7 @@ import numpy as np
 
 from appendix.data.columnar import Columns, all_distinct, arrow_indices, missing_mask, numpy_of
 from appendix.data.dataset import Dataset, OutcomeData
-from appendix.data.decimals import PLAIN_PATTERN, plain_places
+from appendix.data.decimals import PLAIN_PATTERN, all_plain, plain_places
 from appendix.data.flow import count_levels, flow_findings
 from appendix.data.rows import LineRows, TextRows
 from appendix.data.values import DECIMAL_PATTERN, match_key
@@ -70,7 +70,8 @@ def _build(plan, columns: Columns, units) -> Dataset | None:
         texts = columns.cells[outcome.data_column]
         missing = missing_mask(texts)
         analysed = eligible & ~missing
-        plain = _all_where(pc.match_substring_regex(texts, PLAIN_PATTERN), analysed)
+        plain = all_plain(texts) or _all_where(pc.match_substring_regex(texts, PLAIN_PATTERN),
+                                               analysed)
         if not plain and not _all_where(pc.match_substring_regex(texts, DECIMAL_PATTERN), analysed):
             return None
         if everyone and not missing.any():

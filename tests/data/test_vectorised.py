@@ -153,3 +153,16 @@ def test_leading_blank_lines_and_byte_order_mark(tmp_path, monkeypatch):
     assert isinstance(fast.outcome("pain").units, TextRows)
     assert fast.outcome("pain").lines == (4, 5)
     _same(fast, slow)
+
+
+@pytest.mark.parametrize("text", ["1", "-1.5", "+.5", "5.", "007", "1.5.1", "1-2", "+-1", "-", ".",
+                                  "+.", "1e3", "1,5", " 1", "", "١"])
+def test_plain_bytes_check_agrees_with_the_pattern(text):
+    import re
+
+    from appendix.data.columnar import text_array
+    from appendix.data.decimals import PLAIN_PATTERN, all_plain
+
+    # Reference: Python's re on the same pattern (the row-by-row rule).
+    assert all_plain(text_array([text])) is bool(re.match(PLAIN_PATTERN, text))
+    assert all_plain(text_array(["2", text, "3"])) is bool(re.match(PLAIN_PATTERN, text))
