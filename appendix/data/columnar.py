@@ -257,7 +257,7 @@ def all_distinct(column) -> bool:
     if width <= _KEY_BYTES and pc.all(pc.string_is_ascii(column)).as_py():
         # Padding with spaces keeps distinct texts distinct: trimmed texts end in none.
         size = 8 if width <= 8 else _KEY_BYTES
-        padded = pc.utf8_rpad(column, width=size, padding=" ")
+        padded = pc.ascii_rpad(column, width=size, padding=" ")
         start = np.frombuffer(padded.buffers()[1], dtype=np.int32)[padded.offset]
         words = np.frombuffer(padded.buffers()[2], dtype=np.uint8)[start:start + n * size]
         pair = words.view(np.uint64).reshape(n, size // 8)

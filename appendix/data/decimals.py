@@ -10,11 +10,6 @@ import numpy as np
 #: Plain decimal notation without an exponent (RE2 and Python read it alike).
 PLAIN_PATTERN = r"^[+-]?(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)$"
 
-#: The bytes plain decimal text may hold: digits, point, plus and minus.
-_PLAIN_BYTES = np.zeros(256, dtype=bool)
-_PLAIN_BYTES[[*range(0x30, 0x3A), 0x2E, 0x2B, 0x2D]] = True
-_PLAIN_BYTES.flags.writeable = False
-
 #: Scaled integers must stay below this for float64 to hold them exactly (IEEE 754).
 EXACT_LIMIT = 2**53
 
@@ -71,14 +66,17 @@ def all_plain(texts) -> bool:
     if length.min() < 1:
         return False
     data = np.frombuffer(texts.buffers()[2], dtype=np.uint8)[offsets[0]:offsets[-1]]
-    if not _PLAIN_BYTES[data].all():
+    # Digits are 0x30-0x39; point, plus and minus are the only bytes allowed below them.
+    points = np.count_nonzero(data == 0x2E)
+    signs = np.count_nonzero(data == 0x2B) + np.count_nonzero(data == 0x2D)
+    if data.max() > 0x39 or np.count_nonzero(data < 0x30) != points + signs:
         return False
     first = data[offsets[:-1] - offsets[0]]
     signed = (first == 0x2B) | (first == 0x2D)
-    if np.count_nonzero(data == 0x2B) + np.count_nonzero(data == 0x2D) != np.count_nonzero(signed):
+    if signs != np.count_nonzero(signed):
         return False
     pointed = numpy_of(pc.find_substring(texts, ".")) >= 0
-    if np.count_nonzero(data == 0x2E) != np.count_nonzero(pointed):
+    if points != np.count_nonzero(pointed):
         return False
     return bool(np.all(length - signed - pointed >= 1))
 
