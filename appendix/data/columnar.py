@@ -89,13 +89,12 @@ def read_columns(path: Path, delimiter: str, names: list[str]) -> Columns | None
     # Control bytes besides tab, CR and LF (\v, \f, \x1c-\x1f) are white space to Python's
     # strip: the row-by-row reader handles them. With one line per row the newlines are
     # known from the row count, which saves counting them.
-    one_line_each = table.num_rows + int(data[-1] == 0x0A)
-    if line_of is None and controls == one_line_each:
-        pass
-    elif controls != int(np.count_nonzero(data == 0x0A)):
-        return None
-    elif line_of is None:  # blank lines were skipped: map rows to lines
-        line_of = _layout(mapped, data, delimiter, header_line, header_end, force=True)[1]
+    one_line_each = line_of is None and controls == table.num_rows + int(data[-1] == 0x0A)
+    if not one_line_each:
+        if controls != int(np.count_nonzero(data == 0x0A)):
+            return None
+        if line_of is None:  # blank lines were skipped: map rows to lines
+            line_of = _layout(mapped, data, delimiter, header_line, header_end, force=True)[1]
     if line_of is not None and line_of.size != table.num_rows:
         return None
     cells = {n: table.column(raw_of[n]).combine_chunks() for n in names}
