@@ -268,6 +268,10 @@ def _connect(memory_limit: str, threads: int):
     connection.execute(f"SET threads = {int(threads)}")
     connection.execute(f"SET temp_directory = {_literal(str(spill))}")
     connection.execute("SET preserve_insertion_order = true")
+    # Parquet min/max statistics leave NaN out, and DuckDB's statistics propagation then
+    # folds isnan() on such a column to false (seen with DuckDB 2.0.1 on a column holding
+    # NaN, NaN, 0.0), so NaN cells would count as values. Correctness first.
+    connection.execute("SET disabled_optimizers = 'statistics_propagation'")
     return connection
 
 
