@@ -32,6 +32,7 @@ from scipy import stats
 from appendix import numbers
 from appendix.data.dataset import Dataset, OutcomeData
 from appendix.results import ContrastFamily, HypothesisResult, OutcomeResult, StudyResults
+from appendix.stats.sampling import subsample_indices
 
 #: Level colours, in level order (cycled beyond eight levels).
 PALETTE: tuple[str, ...] = (
@@ -47,6 +48,9 @@ PALETTE: tuple[str, ...] = (
 
 #: Beyond this many points in a figure its scatters are rasterised inside the SVG to keep files light.
 DENSE_POINTS = 5000
+#: Point clouds larger than this are drawn from a deterministic subsample of this size
+#: (appendix.stats.sampling); boxes, means and lines still use every unit.
+PLOT_POINTS = 20_000
 
 _WIDTH_IN = 6.0
 _HEIGHT_IN = 2.9
@@ -148,7 +152,7 @@ def _new_figure(height: float = _HEIGHT_IN) -> tuple[Figure, object]:
 def _scatter(ax, panel: _Panel, x, y, colour: str, **kwargs) -> None:
     # the whole cloud decides, not one group's share of it: all groups' points weigh
     ax.scatter(x, y, s=16, color=colour, edgecolors="#000000", linewidths=0.3, alpha=0.9,
-               rasterized=len(panel.data.values) > DENSE_POINTS, **kwargs)
+               rasterized=min(len(panel.data.values), PLOT_POINTS) > DENSE_POINTS, **kwargs)
 
 
 def _distribution(panel: _Panel) -> Figure | None:
@@ -164,9 +168,12 @@ def _distribution(panel: _Panel) -> Figure | None:
                medianprops={"color": "#000000", "linewidth": 1.2},
                boxprops={"linewidth": 0.8}, whiskerprops={"linewidth": 0.8},
                capprops={"linewidth": 0.8})
+    shown = _thin(len(values))
+    points, point_codes = values[shown], codes[shown]
     for i in drawn:
-        jitter = rng.uniform(-0.17, 0.17, size=len(groups[i]))
-        _scatter(ax, panel, i + jitter, groups[i], level_colour(i), zorder=3)
+        mine = points[point_codes == i]
+        jitter = rng.uniform(-0.17, 0.17, size=len(mine))
+        _scatter(ax, panel, i + jitter, mine, level_colour(i), zorder=3)
     _level_axis(ax, panel.levels)
     ax.set_ylabel(panel.axis_label)
     return figure
@@ -194,10 +201,18 @@ def _means(panel: _Panel) -> Figure | None:
     return figure
 
 
+def _thin(n: int) -> np.ndarray:
+    """Indices of the points to draw: all of them up to `PLOT_POINTS`, else a
+    deterministic subsample (the captions say so)."""
+    return subsample_indices(n, PLOT_POINTS)
+
+
 def _residuals(panel: _Panel) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Residuals, fitted values and level codes of the units with a fitted value."""
+    """Residuals, fitted values and level codes of the units with a fitted value (of the
+    deterministic subsample when there are more than `PLOT_POINTS`)."""
     fitted = panel.fitted()
-    keep = np.isfinite(fitted)
+    keep = np.flatnonzero(np.isfinite(fitted))
+    keep = keep[_thin(keep.size)]
     return panel.data.values[keep] - fitted[keep], fitted[keep], panel.data.codes[keep]
 
 

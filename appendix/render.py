@@ -25,7 +25,7 @@ import jinja2
 from markupsafe import Markup
 
 from appendix import numbers
-from appendix.figures import FIGURE_KINDS
+from appendix.figures import FIGURE_KINDS, PLOT_POINTS
 from appendix.methods import methods_used, multiplicity_method, references_for
 
 PAPER_SIZES = ("A4", "Letter")
@@ -220,6 +220,7 @@ def render_html(results: dict, figures: dict[str, str], options: RenderOptions) 
         outcomes=_ordered_outcomes(results),
         figures={key: _inline_svg(svg) for key, svg in figures.items()},
         figure_kinds=FIGURE_KINDS,
+        plot_points=PLOT_POINTS,
         words=WORDS,
         options=options,
         methods=methods,
