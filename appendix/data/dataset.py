@@ -6,6 +6,7 @@ read-only so that nothing downstream can alter the data it was given.
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
@@ -37,7 +38,8 @@ class OutcomeData:
 
     `codes[i]` is the index into `Dataset.levels` of unit `units[i]`, whose value is
     `values[i]` (float64). `lines[i]` is its 1-based line in the data file (header = 1)
-    where the format has lines, else its 1-based row number.
+    where the format has lines, else its 1-based row number. `units` and `lines` are
+    read-only sequences (tuples, or lazy views of the columns for large files).
 
     `decimals` is set when every analysed value was written as plain decimal text with
     at most that many digits after the point (CSV/TSV): the engine then sums them
@@ -45,15 +47,16 @@ class OutcomeData:
 
     `summary` and `sample_of` are set together for a source aggregated out of core:
     `summary` holds the full-data cell statistics (the variance table and every test
-    built on cell statistics use it), and the arrays hold a deterministic subsample of
-    `sample_of` analysed units, used only for figures and row-level diagnostics.
+    built on cell statistics use it), `sample_of` is the number of analysed units, and
+    the arrays hold a deterministic subsample of them, used only for figures and
+    row-level diagnostics.
     """
 
     name: str
     values: np.ndarray
     codes: np.ndarray
-    units: tuple[str, ...]
-    lines: tuple[int, ...]
+    units: Sequence[str]
+    lines: Sequence[int]
     decimals: int | None = None
     summary: CellSummary | None = None
     sample_of: int | None = None
