@@ -14,23 +14,29 @@ from dataclasses import dataclass
 
 @dataclass(frozen=True)
 class Measurement:
-    """One printed line: `value` compared with `target` (`better` says which way wins)."""
+    """One printed line: `value` compared with `target` (`better` says which way wins);
+    a `target` of None marks a row printed for comparison only."""
 
     name: str
     value: float
-    target: float
+    target: float | None
     better: str  # "lower" or "higher"
     unit: str = "x"
     detail: str = ""
 
     @property
     def met(self) -> bool:
+        if self.target is None:
+            return True
         return self.value <= self.target if self.better == "lower" else self.value >= self.target
 
     def line(self) -> str:
-        sign = "<=" if self.better == "lower" else ">="
-        verdict = "met" if self.met else "MISSED"
-        text = f"{self.name:<58} {self.value:>10.2f}{self.unit}  target {sign} {self.target:g}{self.unit}  {verdict}"
+        if self.target is None:
+            goal = "for comparison"
+        else:
+            sign = "<=" if self.better == "lower" else ">="
+            goal = f"target {sign} {self.target:g}{self.unit}  {'met' if self.met else 'MISSED'}"
+        text = f"{self.name:<58} {self.value:>10.2f}{self.unit}  {goal}"
         return text + (f"  ({self.detail})" if self.detail else "")
 
 
