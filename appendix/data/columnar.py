@@ -66,21 +66,25 @@ def read_columns(path: Path, delimiter: str, names: list[str]) -> Columns | None
         # released with the last of them.
         mapped = mmap.mmap(handle.fileno(), 0, access=mmap.ACCESS_READ)
     data = np.frombuffer(mapped, dtype=np.uint8)
-    ascii_text = int(data.max()) < 0x80
+    top, controls = _byte_summary(data)  # controls: bytes below 0x20, newlines included
+    ascii_text = top < 0x80
     tabs = int(np.count_nonzero(data == 0x09)) if mapped.find(b"\t") >= 0 else 0
     returns = int(np.count_nonzero(data == 0x0D)) if mapped.find(b"\r") >= 0 else 0
-    controls = int(np.count_nonzero(data < 0x20)) - tabs - returns  # newlines and others
-    layout = _layout(mapped, data, delimiter, header_line, header_end)
+    controls -= tabs + returns  # newlines and others
+    layout = _layout(mapped, data, delimiter, header_line, header_end, ascii_text=ascii_text)
     if layout is None:
         return None
     quoted, line_of = layout
+    # ASCII text is valid UTF-8: read as bytes (no validation pass) and view them as text.
+    kind = pa.binary() if ascii_text else pa.string()
     try:
         table = pcsv.read_csv(
             pa.BufferReader(pa.py_buffer(mapped)),
+            read_options=pcsv.ReadOptions(use_threads=True),
             parse_options=pcsv.ParseOptions(delimiter=delimiter, newlines_in_values=quoted),
             convert_options=pcsv.ConvertOptions(
                 include_columns=[raw_of[n] for n in names],
-                column_types={raw_of[n]: pa.string() for n in names},
+                column_types={raw_of[n]: kind for n in names},
                 strings_can_be_null=False, quoted_strings_can_be_null=False))
     except pa.ArrowException:
         return None
@@ -94,13 +98,48 @@ def read_columns(path: Path, delimiter: str, names: list[str]) -> Columns | None
         if controls != int(np.count_nonzero(data == 0x0A)):
             return None
         if line_of is None:  # blank lines were skipped: map rows to lines
-            line_of = _layout(mapped, data, delimiter, header_line, header_end, force=True)[1]
+            line_of = _layout(mapped, data, delimiter, header_line, header_end, force=True,
+                              ascii_text=ascii_text)[1]
     if line_of is not None and line_of.size != table.num_rows:
         return None
-    cells = {n: table.column(raw_of[n]).combine_chunks() for n in names}
+    # The columns stay in the reader's chunks (no copy); the chunks of all columns align.
+    cells = {n: _as_text(table.column(raw_of[n])) for n in names}
     if not ascii_text or mapped.find(b" ") >= 0 or (tabs and delimiter != "\t"):
         cells = {n: pc.utf8_trim_whitespace(c) for n, c in cells.items()}
     return Columns(n_rows=table.num_rows, cells=cells, line_of=line_of)
+
+
+#: Bytes per block of the one pass over the file: small enough to stay in the CPU cache.
+_BLOCK = 1 << 18
+
+
+def _byte_summary(data: np.ndarray) -> tuple[int, int]:
+    """(largest byte, number of bytes below 0x20) of `data`, in one blocked pass
+    (whole-array comparisons would write a 0.2 GB temporary for a 10M-row file).
+
+    >>> _byte_summary(np.frombuffer(b"a,b\\n1,\\x012\\n", dtype=np.uint8))
+    (98, 3)
+    """
+    if data.size == 0:
+        return 0, 0
+    below = np.empty(min(_BLOCK, data.size), dtype=bool)
+    top, controls = 0, 0
+    for start in range(0, data.size, _BLOCK):
+        block = data[start:start + _BLOCK]
+        hit = below[:block.size]
+        np.less(block, 0x20, out=hit)
+        controls += int(np.count_nonzero(hit))
+        top = max(top, int(block.max()))
+    return top, controls
+
+
+def _as_text(column):
+    """A column read as bytes (ASCII text) viewed as strings, chunk by chunk, without a copy."""
+    import pyarrow as pa
+
+    if column.type == pa.string():
+        return column
+    return pa.chunked_array([chunk.view(pa.string()) for chunk in column.chunks], type=pa.string())
 
 
 def _header(path: Path, delimiter: str) -> tuple[int, int, list[str]] | None:
@@ -120,11 +159,15 @@ def _header(path: Path, delimiter: str) -> tuple[int, int, list[str]] | None:
 
 
 def _layout(mapped: mmap.mmap, data: np.ndarray, delimiter: str, header_line: int,
-            header_end: int, force: bool = False) -> tuple[bool, np.ndarray | None] | None:
+            header_end: int, force: bool = False, ascii_text: bool | None = None
+            ) -> tuple[bool, np.ndarray | None] | None:
     """(rows hold quotes, line of each data row or None for one line per row), or None
     when the text is not UTF-8, has lone carriage returns, or quotes outside RFC 4180.
-    `header_end` is the header's last line; quotes in the header alone do not count."""
-    if int(data.max()) >= 0x80:  # not ASCII: must be UTF-8
+    `header_end` is the header's last line; quotes in the header alone do not count.
+    `ascii_text`: whether every byte is below 0x80, when already known."""
+    if ascii_text is None:
+        ascii_text = int(data.max()) < 0x80
+    if not ascii_text:  # must be UTF-8
         try:
             str(mapped[:], "utf-8")
         except UnicodeDecodeError:
@@ -240,31 +283,103 @@ def missing_mask(column) -> np.ndarray:
     return mask
 
 
+def chunks_of(column) -> list:
+    """The chunks of a pyarrow ChunkedArray, [array] for a plain array; a list stays itself."""
+    import pyarrow as pa
+
+    if isinstance(column, list):
+        return column
+    return list(column.chunks) if isinstance(column, pa.ChunkedArray) else [column]
+
+
+def map_chunks(function, *columns) -> list:
+    """`function` of the aligned chunks of `columns` (one per chunk index), in chunk order,
+    on two threads: pyarrow kernels and numpy release the interpreter lock."""
+    from concurrent.futures import ThreadPoolExecutor
+
+    parts = list(zip(*(chunks_of(c) for c in columns), strict=True))
+    if len(parts) < 2:
+        return [function(*p) for p in parts]
+    with ThreadPoolExecutor(max_workers=2) as pool:
+        return list(pool.map(lambda p: function(*p), parts))
+
+
+def text_parts(array) -> tuple[np.ndarray, np.ndarray]:
+    """(offsets, bytes) of a pyarrow string or binary array without nulls: cell i is
+    ``data[offsets[i]:offsets[i + 1]]``; both are views of the array's buffers."""
+    n = len(array)
+    buffers = array.buffers()
+    offsets = np.frombuffer(buffers[1], dtype=np.int32)[array.offset:array.offset + n + 1] \
+        if buffers[1] is not None else np.zeros(1, np.int32)
+    data = np.frombuffer(buffers[2], dtype=np.uint8) if buffers[2] is not None else np.zeros(0, np.uint8)
+    return offsets, data
+
+
+#: Masks of the low k bytes of a 64-bit word, k = 0..8.
+_LOW_BYTES = np.array([(1 << (8 * k)) - 1 for k in range(9)], dtype=np.uint64)
+
+
+def _key_hashes(array) -> np.ndarray | None:
+    """A 64-bit hash of every text of `array` (string, no nulls) from its bytes and length,
+    or None if some text is longer than `_KEY_BYTES`. Equal texts have equal hashes.
+
+    Each text's bytes are loaded as two little-endian words straight from the data buffer
+    (an unaligned view with a stride of one byte), masked to the text's length: no padded
+    copy of the column.
+    """
+    offsets, data = text_parts(array)
+    n = offsets.size - 1
+    if n == 0:
+        return np.zeros(0, np.uint64)
+    starts = offsets[:-1].astype(np.int64)
+    length = np.diff(offsets)
+    width = int(length.max())
+    if width > _KEY_BYTES:
+        return None
+    # Rows whose 16 bytes from the start overrun the buffer are read from a padded copy
+    # of the buffer's tail (a few rows at most).
+    safe = int(np.searchsorted(starts, data.size - _KEY_BYTES, side="right"))
+    tail_from = int(starts[safe]) if safe < n else data.size
+    tail = np.zeros(data.size - tail_from + _KEY_BYTES + 8, dtype=np.uint8)
+    tail[:data.size - tail_from] = data[tail_from:]
+    hashes = np.empty(n, dtype=np.uint64)
+    for rows, source, base in ((slice(0, safe), data, 0), (slice(safe, n), tail, tail_from)):
+        at = starts[rows] - base
+        if at.size == 0:
+            continue
+        words = np.ndarray(shape=(source.size - 7,), dtype="<u8", buffer=source, strides=(1,))
+        size = length[rows]
+        with np.errstate(over="ignore"):
+            mixed = (words[at] & _LOW_BYTES[np.minimum(size, 8)]) * np.uint64(0x9E3779B97F4A7C15)
+            mixed ^= size.astype(np.uint64) * np.uint64(0xD6E8FEB86659FD93)
+            if width > 8:
+                high = words[at + 8] & _LOW_BYTES[np.clip(size - 8, 0, 8)]
+                mixed ^= (high + np.uint64(1)) * np.uint64(0xC2B2AE3D27D4EB4F)
+            mixed ^= mixed >> np.uint64(31)
+        hashes[rows] = mixed
+    return hashes
+
+
 def all_distinct(column) -> bool:
     """True when no text occurs twice in `column` (a pyarrow string array without nulls).
 
-    Short ASCII identifiers are packed into 128-bit keys and mixed into one 64-bit hash;
-    distinct hashes prove distinct texts, and only a repeated hash (a repeat, or a rare
-    collision) costs the exact hash-table count.
+    Identifiers up to `_KEY_BYTES` bytes are hashed to 64 bits from their bytes (chunks on
+    two threads) and the hashes sorted: distinct hashes prove distinct texts, and only the
+    rows of a repeated hash (a repeat, or a rare collision) are compared as texts.
     """
     import pyarrow.compute as pc
 
     n = len(column)
     if n < 2:
         return True
-    width = pc.max(pc.binary_length(column)).as_py()
-    if width <= _KEY_BYTES and pc.all(pc.string_is_ascii(column)).as_py():
-        # Padding with spaces keeps distinct texts distinct: trimmed texts end in none.
-        size = 8 if width <= 8 else _KEY_BYTES
-        padded = pc.ascii_rpad(column, width=size, padding=" ")
-        start = np.frombuffer(padded.buffers()[1], dtype=np.int32)[padded.offset]
-        words = np.frombuffer(padded.buffers()[2], dtype=np.uint8)[start:start + n * size]
-        pair = words.view(np.uint64).reshape(n, size // 8)
-        with np.errstate(over="ignore"):
-            mixed = pair[:, 0] * np.uint64(0x9E3779B97F4A7C15)
-            if size > 8:
-                mixed ^= pair[:, 1] * np.uint64(0xC2B2AE3D27D4EB4F)
-        mixed.sort()
-        if not np.any(mixed[1:] == mixed[:-1]):
-            return True
-    return pc.count_distinct(column).as_py() == n
+    parts = map_chunks(_key_hashes, column)
+    if any(p is None for p in parts):
+        return pc.count_distinct(column).as_py() == n
+    hashes = np.concatenate(parts)
+    ordered = np.sort(hashes)
+    same = ordered[1:] == ordered[:-1]
+    if not same.any():
+        return True
+    rows = np.flatnonzero(np.isin(hashes, np.unique(ordered[1:][same])))
+    texts = column.take(arrow_indices(rows)).to_pylist()
+    return len(set(texts)) == len(texts)
