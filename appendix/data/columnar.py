@@ -337,63 +337,90 @@ def text_parts(array) -> tuple[np.ndarray, np.ndarray]:
 _LOW_BYTES = np.array([(1 << (8 * k)) - 1 for k in range(9)], dtype=np.uint64)
 
 
-def _key_hashes(array) -> np.ndarray | None:
-    """A 64-bit hash of every text of `array` (string, no nulls) from its bytes and length,
-    or None if some text is longer than `_KEY_BYTES`. Equal texts have equal hashes.
+def _key_words(array) -> tuple[np.ndarray, np.ndarray, np.ndarray] | None:
+    """(length, first 8 bytes, next 8 bytes) of every text of `array` (string, no nulls),
+    the words little-endian and zero beyond the text's end; None if some text is longer
+    than `_KEY_BYTES`. Texts are equal exactly when all three are.
 
-    Each text's bytes are loaded as two little-endian words straight from the data buffer
-    (an unaligned view with a stride of one byte), masked to the text's length: no padded
-    copy of the column.
+    The words are loaded straight from the data buffer (an unaligned view with a stride of
+    one byte): no padded copy of the column.
     """
     offsets, data = text_parts(array)
     n = offsets.size - 1
-    if n == 0:
-        return np.zeros(0, np.uint64)
     starts = offsets[:-1].astype(np.int64)
     length = np.diff(offsets)
-    width = int(length.max())
-    if width > _KEY_BYTES:
-        return None
+    if n == 0 or int(length.max()) > _KEY_BYTES:
+        return None if n else (length, np.zeros(0, np.uint64), np.zeros(0, np.uint64))
     # Rows whose 16 bytes from the start overrun the buffer are read from a padded copy
     # of the buffer's tail (a few rows at most).
     safe = int(np.searchsorted(starts, data.size - _KEY_BYTES, side="right"))
     tail_from = int(starts[safe]) if safe < n else data.size
     tail = np.zeros(data.size - tail_from + _KEY_BYTES + 8, dtype=np.uint8)
     tail[:data.size - tail_from] = data[tail_from:]
-    hashes = np.empty(n, dtype=np.uint64)
+    low, high = np.empty(n, dtype=np.uint64), np.zeros(n, dtype=np.uint64)
+    wide = int(length.max()) > 8
     for rows, source, base in ((slice(0, safe), data, 0), (slice(safe, n), tail, tail_from)):
         at = starts[rows] - base
         if at.size == 0:
             continue
         words = np.ndarray(shape=(source.size - 7,), dtype="<u8", buffer=source, strides=(1,))
         size = length[rows]
-        with np.errstate(over="ignore"):
-            mixed = (words[at] & _LOW_BYTES[np.minimum(size, 8)]) * np.uint64(0x9E3779B97F4A7C15)
-            mixed ^= size.astype(np.uint64) * np.uint64(0xD6E8FEB86659FD93)
-            if width > 8:
-                high = words[at + 8] & _LOW_BYTES[np.clip(size - 8, 0, 8)]
-                mixed ^= (high + np.uint64(1)) * np.uint64(0xC2B2AE3D27D4EB4F)
-            mixed ^= mixed >> np.uint64(31)
-        hashes[rows] = mixed
-    return hashes
+        low[rows] = words[at] & _LOW_BYTES[np.minimum(size, 8)]
+        if wide:
+            high[rows] = words[at + 8] & _LOW_BYTES[np.clip(size - 8, 0, 8)]
+    return length, low, high
+
+
+def _mixed(length: np.ndarray, low: np.ndarray, high: np.ndarray) -> np.ndarray:
+    """A 64-bit hash of each (length, low, high) key."""
+    with np.errstate(over="ignore"):
+        mixed = low * np.uint64(0x9E3779B97F4A7C15)
+        mixed ^= length.astype(np.uint64) * np.uint64(0xD6E8FEB86659FD93)
+        mixed ^= (high + np.uint64(1)) * np.uint64(0xC2B2AE3D27D4EB4F)
+        mixed ^= mixed >> np.uint64(31)
+    return mixed
+
+
+def _increasing(length: np.ndarray, low: np.ndarray, high: np.ndarray) -> bool:
+    """Whether the keys rise strictly in shortlex order (shorter first, then bytewise):
+    `U1, U2, ..., U10` or `P001, P002` do, and rising keys are distinct."""
+    grows = np.diff(length)
+    if grows.size == 0:
+        return True
+    if grows.min() < 0:
+        return False
+    first, second = low.byteswap(), high.byteswap()  # bytewise order = big-endian order
+    later = (grows > 0) | (first[1:] > first[:-1])
+    if not later.all():
+        later |= (first[1:] == first[:-1]) & (second[1:] > second[:-1])
+    return bool(later.all())
 
 
 def all_distinct(column) -> bool:
     """True when no text occurs twice in `column` (a pyarrow string array without nulls).
 
-    Identifiers up to `_KEY_BYTES` bytes are hashed to 64 bits from their bytes (chunks on
-    two threads) and the hashes sorted: distinct hashes prove distinct texts, and only the
-    rows of a repeated hash (a repeat, or a rare collision) are compared as texts.
+    Identifiers up to `_KEY_BYTES` bytes become (length, two words) keys, chunk by chunk
+    on two threads. Keys that already rise (identifiers in order) are distinct with no
+    sort; otherwise the keys are hashed to 64 bits and sorted: distinct hashes prove
+    distinct texts, and only the rows of a repeated hash (a repeat, or a rare collision)
+    are compared as texts.
     """
     import pyarrow.compute as pc
 
     n = len(column)
     if n < 2:
         return True
-    parts = map_chunks(_key_hashes, column)
-    if any(p is None for p in parts):
+    keys = map_chunks(_key_words, column)
+    if any(k is None for k in keys):
         return pc.count_distinct(column).as_py() == n
-    hashes = np.concatenate(parts)
+    keys = [k for k in keys if k[0].size]
+    # Each chunk's first and last key, in shortlex order: last of one < first of the next.
+    ends = [(int(size[i]), int(low[i].byteswap()), int(high[i].byteswap()))
+            for size, low, high in keys for i in (0, -1)]
+    if all(a < b for a, b in zip(ends[1:-1:2], ends[2::2])):
+        if all(map_chunks(lambda k: _increasing(*k), keys)):
+            return True
+    hashes = np.concatenate(map_chunks(lambda k: _mixed(*k), keys))
     ordered = np.sort(hashes)
     same = ordered[1:] == ordered[:-1]
     if not same.any():
