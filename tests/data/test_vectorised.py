@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 import appendix.data.columnar as columnar
 from appendix.data.build import build_dataset
@@ -166,3 +168,117 @@ def test_plain_bytes_check_agrees_with_the_pattern(text):
     # Reference: Python's re on the same pattern (the row-by-row rule).
     assert all_plain(text_array([text])) is bool(re.match(PLAIN_PATTERN, text))
     assert all_plain(text_array(["2", text, "3"])) is bool(re.match(PLAIN_PATTERN, text))
+
+
+def _clean_rows(n: int, start: int = 1, pain=lambda i: f"{i % 7}.{i % 100:02d}") -> str:
+    arms = ["placebo", "low", "high"]
+    return "".join(f"U{i},{arms[i % 3]},no,5,{pain(i)},{i % 9}\n" for i in range(start, start + n))
+
+
+@pytest.mark.parametrize("pain", [
+    lambda i: f"{i % 7}.{i % 100:02d}",                       # every row plain: read by chunks
+    lambda i: f"-{i % 7}.{i % 10}" if i % 5 else f"+{i}",     # signs, mixed digits after the point
+    lambda i: "NA" if i % 11 == 0 else f"{i}.5",              # missing cells: the general path
+    lambda i: f"{i}e-1" if i % 13 == 0 else f"{i}",            # an exponent: no exact decimals
+])
+def test_many_reader_chunks_agree_with_the_row_by_row_path(tmp_path, monkeypatch, pain):
+    monkeypatch.setattr(columnar, "_READ_BLOCK", 1024)  # ~40 rows per chunk
+    text = HEADER + _clean_rows(600, pain=pain)
+    fast, slow = _both(tmp_path, monkeypatch, text)
+    columns = columnar.read_columns(tmp_path / "units.csv", ",", ["unit_id", "pain"])
+    assert columns.cells["pain"].num_chunks > 10
+    assert isinstance(fast.outcome("pain").units, TextRows)
+    _same(fast, slow)
+    expected = slow.outcome("pain").decimals
+    assert fast.outcome("pain").decimals == expected
+    assert fast.outcome("pain").values.size == slow.outcome("pain").values.size > 500
+
+
+def test_many_reader_chunks_repeated_unit_across_chunks_goes_row_by_row(tmp_path, monkeypatch):
+    from appendix.errors import DataError
+
+    monkeypatch.setattr(columnar, "_READ_BLOCK", 1024)
+    text = HEADER + _clean_rows(300) + _clean_rows(1, start=17)  # U17 again, chunks apart
+    (tmp_path / "units.csv").write_text(text, encoding="utf-8")
+    loaded = load_plan(write_study(tmp_path, "units.csv", 1))
+    with pytest.raises(DataError) as caught:
+        build_dataset(loaded)
+    assert str(caught.value).endswith(
+        "units.csv:302: unit_id: unit 'U17' appears on lines 18, 302; each unit must appear once")
+    assert str(caught.value).startswith("1 problem in the data:")
+
+
+def _chunked(texts, cuts):
+    import pyarrow as pa
+
+    bounds = [0, *sorted(set(c for c in cuts if 0 < c < len(texts))), len(texts)]
+    return pa.chunked_array([pa.array(texts[a:b], type=pa.string())
+                             for a, b in zip(bounds, bounds[1:])], type=pa.string())
+
+
+@pytest.mark.parametrize("texts, cuts, distinct", [
+    ([f"U{i}" for i in range(1, 40)], [9, 10, 25], True),             # rising: no sort needed
+    ([f"U{i}" for i in range(1, 40)] + ["U9"], [9, 30], False),        # rising, then a repeat
+    ([f"U{i}" for i in range(40, 0, -1)], [12], True),                 # falling: hashed
+    ([f"P{i:015d}" for i in range(30)], [7], True),                    # 16 bytes: two words
+    ([f"P{i:015d}" for i in (3, 1, 2, 1)], [2], False),                # repeat across chunks
+    ([f"P{i:016d}" for i in (3, 1, 2, 1)], [2], False),                # 17 bytes: exact count
+    (["b", "a", "ab", "ba", ""], [1, 3], True),
+    (["x\x00", "x"], [], True),                                        # zero bytes vs the end
+])
+def test_all_distinct_on_chunks(texts, cuts, distinct):
+    assert all_distinct(_chunked(texts, cuts)) is distinct
+
+
+def test_all_distinct_compares_texts_when_hashes_collide(monkeypatch):
+    # Every key hashed alike: only the comparison of the texts themselves decides.
+    monkeypatch.setattr(columnar, "_mixed", lambda length, low, high: np.zeros(length.size, np.uint64))
+    assert all_distinct(_chunked(["b", "a", "c"], [1])) is True
+    assert all_distinct(_chunked(["b", "a", "b"], [1])) is False
+
+
+def test_increasing_is_shortlex_order():
+    from appendix.data.columnar import _increasing, _key_words
+
+    def rises(texts):
+        return _increasing(*_key_words(_chunked(texts, []).chunk(0)))
+
+    assert rises(["U9", "V1", "U10", "U11", "A100"]) is True
+    assert rises(["U10", "U9"]) is False and rises(["U1", "U1"]) is False
+    assert rises(["P" + "0" * 10 + "1", "P" + "0" * 9 + "10"]) is True   # 12 bytes each
+    assert rises(["P" + "0" * 9 + "10", "P" + "0" * 10 + "1"]) is False
+
+
+def test_byte_summary_of_a_file_larger_than_a_block(monkeypatch):
+    from appendix.data.columnar import _byte_summary
+
+    monkeypatch.setattr(columnar, "_BLOCK", 7)
+    text = b"unit,y\nu1,2\r\nu2,\x013\n" + b"a" * 20 + b'"\t'
+    top, controls, present = _byte_summary(np.frombuffer(text, dtype=np.uint8), text)
+    assert (top, controls, present) == (ord("y"), 6, frozenset({b"\r", b'"', b"\t"}))
+
+
+plain_texts = st.text(alphabet="0123456789.+-e", max_size=6)
+
+
+@settings(max_examples=300, deadline=None)
+@given(st.lists(plain_texts, min_size=1, max_size=12), st.lists(st.integers(0, 12), max_size=3))
+def test_plain_digits_agree_with_the_pattern(texts, cuts):
+    import re
+
+    from appendix.data.decimals import PLAIN_PATTERN, plain_digits
+
+    plain = all(re.match(PLAIN_PATTERN, t) for t in texts)
+    found = [plain_digits(c) for c in _chunked(texts, cuts).chunks]
+    assert (None not in found) is plain
+    if plain:
+        assert max(found) == max(len(t) - t.index(".") - 1 if "." in t else 0 for t in texts)
+
+
+@settings(max_examples=300, deadline=None)
+@given(st.lists(st.text(alphabet="Ua0\x001", max_size=18), max_size=15),
+       st.lists(st.integers(0, 15), max_size=3), st.booleans())
+def test_all_distinct_agrees_with_a_set(texts, cuts, in_order):
+    if in_order:
+        texts = sorted(set(texts), key=lambda t: (len(t.encode()), t.encode()))
+    assert all_distinct(_chunked(texts, cuts)) is (len(set(texts)) == len(texts))
