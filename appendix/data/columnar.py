@@ -67,7 +67,7 @@ def read_columns(path: Path, delimiter: str, names: list[str]) -> Columns | None
         mapped = mmap.mmap(handle.fileno(), 0, access=mmap.ACCESS_READ)
     data = np.frombuffer(mapped, dtype=np.uint8)
     # controls: bytes below 0x20, newlines included; present: which of _SOUGHT occur
-    top, controls, present = _byte_summary(data, mapped)
+    top, controls, present = _byte_summary(data, mapped, _body_start(mapped, header_end))
     ascii_text = top < 0x80
     tabs = int(np.count_nonzero(data == 0x09)) if b"\t" in present else 0
     returns = int(np.count_nonzero(data == 0x0D)) if b"\r" in present else 0
@@ -124,9 +124,20 @@ _BLOCK = 1 << 18
 _SOUGHT = (b"\t", b"\r", b'"', b" ")
 
 
-def _byte_summary(data: np.ndarray, text) -> tuple[int, int, frozenset[bytes]]:
-    """(largest byte, number of bytes below 0x20, which of `_SOUGHT` occur) of `data`,
-    whose bytes `text` also holds (bytes or mmap, for its `find`), in one blocked sweep:
+def _body_start(mapped, header_end: int) -> int:
+    """Offset of the first byte after line `header_end` (the header's last line)."""
+    body = 0
+    for _ in range(header_end):
+        body = mapped.find(b"\n", body) + 1
+        if body == 0:
+            return len(mapped)
+    return body
+
+
+def _byte_summary(data: np.ndarray, text, body: int = 0) -> tuple[int, int, frozenset[bytes]]:
+    """(largest byte, number of bytes below 0x20, which of `_SOUGHT` occur, a quote only
+    counted from offset `body` on) of `data`, whose bytes `text` also holds (bytes or mmap,
+    for its `find`), in one blocked sweep:
     each block is scanned while it is in the CPU cache (whole-array comparisons would
     write a 0.2 GB temporary for a 10M-row file, and each search would be one more pass).
 
@@ -143,8 +154,9 @@ def _byte_summary(data: np.ndarray, text) -> tuple[int, int, frozenset[bytes]]:
         np.less(block, 0x20, out=hit)
         controls += int(np.count_nonzero(hit))
         top = max(top, int(block.max()))
-        present.update(b for b in _SOUGHT
-                       if b not in present and text.find(b, start, start + block.size) >= 0)
+        present.update(b for b in _SOUGHT if b not in present
+                       and text.find(b, max(start, body) if b == b'"' else start,
+                                     start + block.size) >= 0)
     return top, controls, frozenset(present)
 
 
@@ -179,10 +191,11 @@ def _layout(mapped: mmap.mmap, data: np.ndarray, delimiter: str, header_line: in
     """(rows hold quotes, line of each data row or None for one line per row), or None
     when the text is not UTF-8, has lone carriage returns, or quotes outside RFC 4180.
     `header_end` is the header's last line; quotes in the header alone do not count.
-    `ascii_text` (every byte below 0x80) and `present` (which of `_SOUGHT` occur): when
-    already known from `_byte_summary`."""
+    `ascii_text` (every byte below 0x80) and `present` (which of `_SOUGHT` occur, a quote
+    only after the header): when already known from `_byte_summary`."""
+    body = _body_start(mapped, header_end)
     if present is None:
-        present = frozenset(b for b in _SOUGHT if mapped.find(b) >= 0)
+        present = frozenset(b for b in _SOUGHT if mapped.find(b, body if b == b'"' else 0) >= 0)
     if ascii_text is None:
         ascii_text = int(data.max()) < 0x80
     if not ascii_text:  # must be UTF-8
@@ -192,13 +205,7 @@ def _layout(mapped: mmap.mmap, data: np.ndarray, delimiter: str, header_line: in
             return None
     if b"\r" in present and mapped[:].count(b"\r") != mapped[:].count(b"\r\n"):
         return None
-    body = 0
-    for _ in range(header_end):
-        body = mapped.find(b"\n", body) + 1
-        if body == 0:
-            body = data.size
-            break
-    quoted = b'"' in present and mapped.find(b'"', body) >= 0
+    quoted = b'"' in present
     if not quoted and header_line == 1 and not force:
         return False, None
     newlines = np.flatnonzero(data == 0x0A)
@@ -396,6 +403,13 @@ def _increasing(length: np.ndarray, low: np.ndarray, high: np.ndarray) -> bool:
     return bool(later.all())
 
 
+def unit_keys(array) -> tuple[tuple | None, bool]:
+    """(`_key_words` of one chunk, whether those keys rise): the per-chunk half of
+    `all_distinct`, which `distinct_from_keys` completes."""
+    keys = _key_words(array)
+    return keys, keys is not None and _increasing(*keys)
+
+
 def all_distinct(column) -> bool:
     """True when no text occurs twice in `column` (a pyarrow string array without nulls).
 
@@ -405,21 +419,27 @@ def all_distinct(column) -> bool:
     distinct texts, and only the rows of a repeated hash (a repeat, or a rare collision)
     are compared as texts.
     """
+    if len(column) < 2:
+        return True
+    keys, rising = zip(*map_chunks(unit_keys, column))
+    return distinct_from_keys(column, list(keys), list(rising))
+
+
+def distinct_from_keys(column, keys: list, rising: list[bool]) -> bool:
+    """`all_distinct` of `column` given `unit_keys` of each of its chunks."""
     import pyarrow.compute as pc
 
     n = len(column)
     if n < 2:
         return True
-    keys = map_chunks(_key_words, column)
     if any(k is None for k in keys):
         return pc.count_distinct(column).as_py() == n
     keys = [k for k in keys if k[0].size]
     # Each chunk's first and last key, in shortlex order: last of one < first of the next.
     ends = [(int(size[i]), int(low[i].byteswap()), int(high[i].byteswap()))
             for size, low, high in keys for i in (0, -1)]
-    if all(a < b for a, b in zip(ends[1:-1:2], ends[2::2])):
-        if all(map_chunks(lambda k: _increasing(*k), keys)):
-            return True
+    if all(rising) and all(a < b for a, b in zip(ends[1:-1:2], ends[2::2])):
+        return True
     hashes = np.concatenate(map_chunks(lambda k: _mixed(*k), keys))
     ordered = np.sort(hashes)
     same = ordered[1:] == ordered[:-1]

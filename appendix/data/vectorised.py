@@ -9,12 +9,10 @@ with its lines.
 
 from __future__ import annotations
 
-from concurrent.futures import ThreadPoolExecutor
-
 import numpy as np
 
-from appendix.data.columnar import (Columns, all_distinct, arrow_indices, chunks_of, map_chunks,
-                                    missing_mask, numpy_of)
+from appendix.data.columnar import (Columns, arrow_indices, chunks_of, distinct_from_keys,
+                                    map_chunks, missing_mask, numpy_of, unit_keys)
 from appendix.data.dataset import Dataset, OutcomeData
 from appendix.data.decimals import PLAIN_PATTERN, all_plain, exact_places, plain_digits, plain_places
 from appendix.data.flow import count_levels, flow_findings
@@ -36,22 +34,76 @@ def build_vectorised(loaded: LoadedPlan, columns: Columns) -> Dataset | None:
     """The `Dataset` of a clean file (its `inputs` left empty for the caller to fill),
     or None if any row breaks a data rule."""
     plan = loaded.plan
+    levels = plan.factor.levels
     units = columns.cells[plan.data.unit]
-    # The unit checks (none missing, none repeated) run beside the rest.
-    with ThreadPoolExecutor(max_workers=1) as pool:
-        distinct = pool.submit(lambda: not missing_mask(units).any() and all_distinct(units))
-        built = _build(plan, columns, units)
-        return built if distinct.result() else None
+    texts = [columns.cells[o.data_column] for o in plan.outcomes]
+    # One pass over the reader's chunks on two threads does every per-row step: unit keys,
+    # level codes, and each outcome's plain-decimal check and float parse.
+    sweep = _sweep(units, columns.cells[plan.factor.name], texts, levels)
+    if sweep is None:
+        return None
+    codes, keys, rising, plain_reads = sweep
+    if not distinct_from_keys(units, keys, rising):
+        return None
+    return _build(plan, columns, codes, plain_reads)
 
 
-def _build(plan, columns: Columns, units) -> Dataset | None:
-    import pyarrow as pa
+def _sweep(units, factor, texts: list, levels):
+    """(level codes, unit keys and whether they rise per chunk, per outcome (values, most
+    digits after the point) or None where some cell is not plain decimal text), or None
+    when a unit is missing or a level unknown."""
+    index = {level: i for i, level in enumerate(levels)}
+    starts = np.cumsum([0] + [len(c) for c in chunks_of(units)])
+    codes = np.empty(int(starts[-1]), dtype=np.int64)
+    values = [np.empty(int(starts[-1]), dtype=np.float64) for _ in texts]
+
+    def work(start, unit, level, *cells):
+        if missing_mask(unit).any() or not _codes_into(codes[start:start + len(unit)], level, index):
+            return None
+        return (*unit_keys(unit), [_plain_into(v[start:start + len(c)], c)
+                                   for v, c in zip(values, cells)])
+
+    found = map_chunks(work, list(starts[:-1]), units, factor, *texts)
+    if any(f is None for f in found):
+        return None
+    keys = [f[0] for f in found]
+    rising = [f[1] for f in found]
+    reads = []
+    for k, v in enumerate(values):
+        digits = [f[2][k] for f in found]
+        reads.append(None if None in digits else (v, max(digits, default=0)))
+    return codes, keys, rising, reads
+
+
+def _codes_into(out: np.ndarray, chunk, index: dict) -> bool:
+    """Write the level code of every cell of `chunk` into `out`; False if one is unknown."""
+    import pyarrow.compute as pc
+
+    encoded = pc.dictionary_encode(chunk)
+    of_entry = np.array([index.get(t, -1) for t in encoded.dictionary.to_pylist()], dtype=np.int64)
+    if (of_entry < 0).any():
+        return False
+    np.take(of_entry, numpy_of(encoded.indices), out=out)
+    return True
+
+
+def _plain_into(out: np.ndarray, chunk) -> int | None:
+    """Most digits after the point of `chunk`, its values written into `out`; None if
+    some cell is not plain decimal text or not a finite double."""
+    digits = plain_digits(chunk)
+    if digits is None or len(chunk) == 0:
+        return digits
+    part = _floats(chunk)
+    if part is None:
+        return None
+    out[:] = part
+    return digits
+
+
+def _build(plan, columns: Columns, codes: np.ndarray, plain_reads: list) -> Dataset | None:
     import pyarrow.compute as pc
 
     levels = plan.factor.levels
-    codes = _level_codes(columns.cells[plan.factor.name], levels)
-    if codes is None:
-        return None
     read = count_levels(codes, levels)
     eligible = np.ones(columns.n_rows, dtype=bool)
     excluded = []
@@ -65,15 +117,19 @@ def _build(plan, columns: Columns, units) -> Dataset | None:
     everyone = bool(eligible.all())
     counted_eligible = read if everyone else count_levels(codes[eligible], levels)
     outcomes, flows = [], []
-    for outcome in plan.outcomes:
+    units = columns.cells[plan.data.unit]
+    for outcome, read_plain in zip(plan.outcomes, plain_reads):
         texts = columns.cells[outcome.data_column]
-        # Common case first: every row eligible and every cell plain decimal text (then
-        # none is missing: no missing text is plain), checked and read chunk by chunk.
-        read_plain = _plain_values(texts) if everyone else None
+        # Common case first: every cell plain decimal text (then none is missing: no
+        # missing text is plain), checked and read by the sweep over the chunks.
         if read_plain is not None:
             values, digits = read_plain
-            missing = np.zeros(columns.n_rows, dtype=bool)
+            missing = None
             rows, kept, kept_codes, plain = range(columns.n_rows), texts, codes, True
+            if not everyone:  # digits are counted over the analysed cells only
+                rows = np.flatnonzero(eligible)
+                kept, kept_codes, values, digits = (texts.take(arrow_indices(rows)), codes[rows],
+                                                    values[rows], None)
         else:
             missing = missing_mask(texts)
             analysed = eligible & ~missing
@@ -95,10 +151,14 @@ def _build(plan, columns: Columns, units) -> Dataset | None:
             units=TextRows(units, rows), lines=LineRows(rows, 2, columns.line_of),
             decimals=(None if not plain else plain_places(kept, values) if digits is None
                       else exact_places(kept, values, digits))))
-        gone = eligible & missing
-        flows.append(OutcomeFlow(
-            outcome=outcome.name, missing=count_levels(codes[gone], levels),
-            analysed=counted_eligible if not gone.any() else count_levels(kept_codes, levels)))
+        gone = eligible & missing if missing is not None else None
+        if gone is None or not gone.any():  # every eligible row analysed: counts known
+            missing_counts, analysed_counts = count_levels(codes[:0], levels), counted_eligible
+        else:
+            missing_counts, analysed_counts = (count_levels(codes[gone], levels),
+                                               count_levels(kept_codes, levels))
+        flows.append(OutcomeFlow(outcome=outcome.name, missing=missing_counts,
+                                 analysed=analysed_counts))
     flow = UnitFlow(read=read, exclusions=tuple(excluded), eligible=counted_eligible,
                     outcomes=tuple(flows))
     return Dataset(levels=levels, inputs=(), unit_flow=flow, outcomes=tuple(outcomes),
@@ -117,33 +177,6 @@ def _all_where(matched, mask: np.ndarray) -> bool:
     return bool(numpy_of(matched)[mask].all())
 
 
-def _plain_values(texts) -> tuple[np.ndarray, int] | None:
-    """(float64 values, most digits after the point) of a column whose every cell is plain
-    decimal text (`appendix.data.decimals.plain_digits`), else None. Chunks are checked and
-    parsed on two threads, each into its part of one array."""
-    import pyarrow as pa
-    import pyarrow.compute as pc
-
-    chunks = chunks_of(texts)
-    starts = np.cumsum([0] + [len(c) for c in chunks])
-    values = np.empty(int(starts[-1]), dtype=np.float64)
-
-    def read(chunk, start: int) -> int | None:
-        digits = plain_digits(chunk)
-        if digits is None or len(chunk) == 0:
-            return digits
-        part = _floats(chunk)
-        if part is None:
-            return None
-        values[start:start + part.size] = part
-        return digits
-
-    found = map_chunks(read, texts, list(starts[:-1]))
-    if any(d is None for d in found):
-        return None
-    return values, max(found, default=0)
-
-
 def _floats(texts) -> np.ndarray | None:
     """float64 of number texts (pyarrow), or None if one is unreadable or beyond range."""
     import pyarrow as pa
@@ -154,26 +187,6 @@ def _floats(texts) -> np.ndarray | None:
     except pa.ArrowInvalid:
         return None
     return values if np.isfinite(values).all() else None
-
-
-def _level_codes(column, levels) -> np.ndarray | None:
-    """Index into `levels` of every row, or None if some cell is not a plan level."""
-    index = {level: i for i, level in enumerate(levels)}
-
-    def codes_of(chunk) -> np.ndarray | None:
-        import pyarrow.compute as pc
-
-        encoded = pc.dictionary_encode(chunk)
-        of_entry = np.array([index.get(t, -1) for t in encoded.dictionary.to_pylist()],
-                            dtype=np.int64)
-        if (of_entry < 0).any():
-            return None
-        return of_entry[numpy_of(encoded.indices)]
-
-    parts = map_chunks(codes_of, column)
-    if any(p is None for p in parts):
-        return None
-    return np.concatenate(parts) if parts else np.zeros(0, np.int64)
 
 
 def _matches(column, target: str) -> np.ndarray:

@@ -256,6 +256,10 @@ def test_byte_summary_of_a_file_larger_than_a_block(monkeypatch):
     text = b"unit,y\nu1,2\r\nu2,\x013\n" + b"a" * 20 + b'"\t'
     top, controls, present = _byte_summary(np.frombuffer(text, dtype=np.uint8), text)
     assert (top, controls, present) == (ord("y"), 6, frozenset({b"\r", b'"', b"\t"}))
+    # Quotes count only from the body on (after a quoted header).
+    quoted = b'"unit","y"\nu1,2\n'
+    assert _byte_summary(np.frombuffer(quoted, dtype=np.uint8), quoted, 11)[2] == frozenset()
+    assert _byte_summary(np.frombuffer(quoted, dtype=np.uint8), quoted, 9)[2] == {b'"'}
 
 
 plain_texts = st.text(alphabet="0123456789.+-e", max_size=6)
