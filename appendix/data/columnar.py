@@ -358,6 +358,16 @@ def _key_words(array) -> tuple[np.ndarray, np.ndarray, np.ndarray] | None:
     length = np.diff(offsets)
     if n == 0 or int(length.max()) > _KEY_BYTES:
         return None if n else (length, np.zeros(0, np.uint64), np.zeros(0, np.uint64))
+    width = int(length.max())
+    if int(length.min()) == width:  # texts of one width (P0001, ...): a byte matrix, no gather
+        matrix = data[offsets[0]:offsets[0] + n * width].reshape(n, width)
+        if width not in (8, _KEY_BYTES):
+            padded = np.zeros((n, 8 if width < 8 else _KEY_BYTES), dtype=np.uint8)
+            padded[:, :width] = matrix
+            matrix = padded
+        words = matrix.view("<u8")
+        high = words[:, 1] if width > 8 else np.zeros(n, dtype=np.uint64)
+        return length, words[:, 0], high
     # Rows whose 16 bytes from the start overrun the buffer are read from a padded copy
     # of the buffer's tail (a few rows at most).
     safe = int(np.searchsorted(starts, data.size - _KEY_BYTES, side="right"))
@@ -365,7 +375,7 @@ def _key_words(array) -> tuple[np.ndarray, np.ndarray, np.ndarray] | None:
     tail = np.zeros(data.size - tail_from + _KEY_BYTES + 8, dtype=np.uint8)
     tail[:data.size - tail_from] = data[tail_from:]
     low, high = np.empty(n, dtype=np.uint64), np.zeros(n, dtype=np.uint64)
-    wide = int(length.max()) > 8
+    wide = width > 8
     for rows, source, base in ((slice(0, safe), data, 0), (slice(safe, n), tail, tail_from)):
         at = starts[rows] - base
         if at.size == 0:
@@ -396,9 +406,10 @@ def _increasing(length: np.ndarray, low: np.ndarray, high: np.ndarray) -> bool:
         return True
     if grows.min() < 0:
         return False
-    first, second = low.byteswap(), high.byteswap()  # bytewise order = big-endian order
+    first = low.byteswap()  # bytewise order = big-endian order
     later = (grows > 0) | (first[1:] > first[:-1])
     if not later.all():
+        second = high.byteswap()
         later |= (first[1:] == first[:-1]) & (second[1:] > second[:-1])
     return bool(later.all())
 

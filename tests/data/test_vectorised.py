@@ -225,6 +225,10 @@ def _chunked(texts, cuts):
     ([f"P{i:016d}" for i in (3, 1, 2, 1)], [2], False),                # 17 bytes: exact count
     (["b", "a", "ab", "ba", ""], [1, 3], True),
     (["x\x00", "x"], [], True),                                        # zero bytes vs the end
+    ([f"ABCD{i:04d}" for i in range(30)], [10], True),                 # one width (8): no gather
+    ([f"AB{i}" for i in (1, 2, 3)] + ["X", "AB2"], [3], False),         # one width, then mixed
+    ([f"Q{i:011d}" for i in (5, 9, 2, 9)], [2], False),                 # one width (12), repeat
+    (["ab", "cd", "ef", "cd"], [], False),
 ])
 def test_all_distinct_on_chunks(texts, cuts, distinct):
     assert all_distinct(_chunked(texts, cuts)) is distinct
