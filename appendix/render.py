@@ -118,6 +118,10 @@ WORDS: Mapping[str, Mapping[str, str]] = MappingProxyType({
     "decisions": MappingProxyType({
         "reject": "rejected", "retain": "not rejected",
         "not-tested": "not tested under the plan", "unavailable": "unavailable"}),
+    # exploratory analyses test nothing that was registered: only a nominal reading
+    "exploratory_decisions": MappingProxyType({
+        "reject": "p < α (nominal)", "retain": "p ≥ α (nominal)",
+        "not-tested": "not tested", "unavailable": "unavailable"}),
     "multiplicity": MappingProxyType({  # keys of appendix.methods.multiplicity_method
         "tukey": "Tukey\u2013Kramer single-step", "games-howell": "Games\u2013Howell single-step",
         "dunnett": "Dunnett's many-to-one single-step", "bonferroni": "Bonferroni",

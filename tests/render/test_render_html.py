@@ -293,3 +293,10 @@ def test_installed_templates_win_over_the_repository(tmp_path, monkeypatch):
     assert render.template_root() == tmp_path / "templates"
     (tmp_path / "templates").rmdir()
     assert render.template_root() == Path(render.__file__).resolve().parents[1] / "templates"
+
+
+def test_exploratory_decisions_read_as_nominal(html):
+    exploratory = html[html.index('id="exploratory"'):]
+    assert "(nominal)" in exploratory
+    planned = html[:html.index('id="exploratory"')]
+    assert "(nominal)" not in planned
