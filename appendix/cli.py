@@ -40,6 +40,8 @@ def _parser() -> argparse.ArgumentParser:
     run.add_argument("--out", type=Path, help="run folder (default: out/<study id>/)")
     run.add_argument("--no-pdf", action="store_true", help="write the HTML only")
     run.add_argument("--paper", choices=["A4", "Letter"], default="A4", help="PDF page size")
+    commands.add_parser("selftest", help="run the published reference checks on this "
+                        "installation and report")
     return parser
 
 
@@ -49,6 +51,15 @@ def _check(args, out: TextIO) -> int:
     for line in api.check(args.study):
         print(line, file=out)
     return EXIT_OK
+
+
+def _selftest(out: TextIO) -> int:
+    from appendix import selftest
+
+    results = selftest.nist_checks()
+    for line in selftest.report(results):
+        print(line, file=out)
+    return EXIT_OK if results and all(r.passed for r in results) else EXIT_ATTENTION
 
 
 def _run(args, cwd: Path, out: TextIO, err: TextIO, clock) -> int:
@@ -93,6 +104,8 @@ def main(argv: Sequence[str] | None = None, *, stdout: TextIO | None = None,
         if args.command is None:
             print(_parser().format_help(), file=err)
             return EXIT_USAGE
+        if args.command == "selftest":
+            return _selftest(out)
         args.study = cwd / args.study
         if args.command == "check":
             return _check(args, out)

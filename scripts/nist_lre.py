@@ -14,13 +14,12 @@ import sys
 from pathlib import Path
 
 REPO = Path(__file__).resolve().parent.parent
-sys.path.insert(0, str(REPO / "tests" / "reference"))
 sys.path.insert(0, str(REPO))
 
+from appendix.nist import (  # noqa: E402
+    HIGHER_DIFFICULTY, NAMES, engine_values, exact_sums_of_squares, lre, read_case)
 from appendix.stats.cells import cell_stats  # noqa: E402
 from appendix.stats.oneway import variance_table  # noqa: E402
-from nist import (  # noqa: E402
-    HIGHER_DIFFICULTY, NAMES, engine_values, exact_sums_of_squares, lre, read_case)
 
 COLUMNS = ("df_between", "ss_between", "ms_between", "f", "df_within", "ss_within",
            "ms_within", "r_squared", "residual_sd")

@@ -112,3 +112,25 @@ def test_failed_run_leaves_previous_appendix_untouched(demo_study: Path, monkeyp
     assert code == 3 and "simulated crash" in err
     assert tree(root / "run") == before
     assert sorted(p.name for p in root.iterdir() if p.name.startswith(".")) == []
+
+
+def test_selftest_reproduces_the_nist_certified_values(tmp_path: Path):
+    # NIST StRD ANOVA certified values, read from scipy's installed nist_anova files
+    code, out, err = run_cli(["selftest"], tmp_path)
+    lines = out.splitlines()
+    assert (code, err) == (0, "")
+    assert lines[-1] == "11 passed, 0 failed"
+    assert "  SmLs09   lowest LRE 15.0 (every value)  pass" in lines
+
+
+def test_selftest_reports_a_missing_or_failing_check(tmp_path: Path, monkeypatch):
+    from appendix import nist
+
+    monkeypatch.setattr(nist, "SELFTEST_FLOOR", 15.5)  # beyond the 15 certified digits
+    code, out, _ = run_cli(["selftest"], tmp_path)
+    assert code == 1 and out.splitlines()[-1] == "0 passed, 11 failed"
+    monkeypatch.setattr(nist, "NIST_DIR", tmp_path / "absent")
+    code, out, _ = run_cli(["selftest"], tmp_path)
+    assert code == 1
+    assert out.strip() == (f"NIST StRD ANOVA data not found under {tmp_path / 'absent'}; "
+                           "nothing was checked")

@@ -12,7 +12,7 @@ import pytest
 
 from appendix.stats.cells import cell_stats
 from appendix.stats.oneway import variance_table
-from nist import HIGHER_DIFFICULTY, NAMES, engine_values, exact_sums_of_squares, lre, read_case
+from appendix.nist import HIGHER_DIFFICULTY, NAMES, engine_values, exact_sums_of_squares, lre, read_case
 
 # Exact path (decimals counted on the data text, exact integer sums): every value to the
 # certified 15 digits, up to the rounding of the certified value itself (AtmWtAg: 14.5).
