@@ -290,3 +290,15 @@ def test_all_distinct_agrees_with_a_set(texts, cuts, in_order):
     if in_order:
         texts = sorted(set(texts), key=lambda t: (len(t.encode()), t.encode()))
     assert all_distinct(_chunked(texts, cuts)) is (len(set(texts)) == len(texts))
+
+
+@pytest.mark.parametrize("head", [
+    "\ufeff" + HEADER,                                   # byte order mark, header on line 1
+    '"unit_id","arm","violated","dose","pain","sleep"\r\n',  # quoted header, body without quotes
+])
+def test_header_given_to_the_reader_when_the_body_has_no_quotes(tmp_path, monkeypatch, head):
+    fast, slow = _both(tmp_path, monkeypatch, head + "u1,placebo,no,5,1.5,7\r\nu2,low,no,5,2.25,8\r\n")
+    assert isinstance(fast.outcome("pain").units, TextRows)
+    assert fast.outcome("pain").units == ("u1", "u2") and fast.outcome("pain").lines == (2, 3)
+    assert fast.outcome("pain").values.tolist() == [1.5, 2.25]
+    _same(fast, slow)
