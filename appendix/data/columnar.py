@@ -11,6 +11,10 @@ messages a user sees are those of one implementation only.
 Line numbers: a file without quotes or blank lines has one line per row; otherwise each
 row's first line is found from the positions of newlines outside quoted cells (RFC 4180:
 a newline is a record end when an even number of quotes precede it).
+
+Cost: the file's bytes are swept once (blocked, cache-sized) for everything the layout
+checks need; the columns stay in the reader's chunks, which the checks in
+`appendix.data.vectorised` go through chunk by chunk on two threads.
 """
 
 from __future__ import annotations
@@ -30,7 +34,8 @@ _KEY_BYTES = 16
 
 @dataclass(frozen=True)
 class Columns:
-    """Trimmed text columns (pyarrow string arrays, no nulls) of a clean delimited file.
+    """Trimmed text columns (pyarrow string ChunkedArrays, no nulls, the chunks of all
+    columns aligned: one per reader block) of a clean delimited file.
 
     `line_of[i]` is the 1-based line where data row i starts, or None when row i is on
     line ``i + 2`` (header on line 1, one line per row, no blank lines).
