@@ -400,6 +400,48 @@ def _key_words(array) -> tuple[np.ndarray, np.ndarray, np.ndarray] | None:
     return length, low, high
 
 
+def first_words(array) -> tuple[np.ndarray, np.ndarray]:
+    """(length, first 8 bytes) of every text of `array` (string or binary, no nulls), the
+    word little-endian and zero beyond the text's end (texts longer than 8 bytes keep
+    their first 8). Loaded straight from the data buffer: a strided view when every text
+    has one width (no gather), else an unaligned gather at the offsets.
+
+    >>> import pyarrow as pa
+    >>> length, word = first_words(pa.array(["ab", "", "abcdefghij"]))
+    >>> length.tolist(), [int(w).to_bytes(8, "little") for w in word]
+    ([2, 0, 10], [b'ab\\x00\\x00\\x00\\x00\\x00\\x00', b'\\x00\\x00\\x00\\x00\\x00\\x00\\x00\\x00', b'abcdefgh'])
+    """
+    offsets, data = text_parts(array)
+    n = offsets.size - 1
+    length = np.diff(offsets)
+    if n == 0:
+        return length, np.zeros(0, np.uint64)
+    starts = offsets[:-1]
+    width = int(length.max())
+    # Rows whose 8 bytes from the start overrun the buffer are read from a padded copy of
+    # the buffer's tail (a few rows at most).
+    safe = int(np.searchsorted(starts, data.size - 8, side="right"))
+    tail_from = int(starts[safe]) if safe < n else data.size
+    tail = np.zeros(data.size - tail_from + 16, dtype=np.uint8)
+    tail[:data.size - tail_from] = data[tail_from:]
+    word = np.empty(n, dtype=np.uint64)
+    same = int(length.min()) == width
+    for rows, source, base in ((slice(0, safe), data, 0), (slice(safe, n), tail, tail_from)):
+        count = rows.stop - rows.start
+        if count == 0:
+            continue
+        first = int(starts[rows.start]) - base
+        if same and width:  # texts of one width: every width-th byte starts one
+            words = np.ndarray(shape=(count,), dtype="<u8", buffer=source, offset=first,
+                               strides=(width,))
+            np.bitwise_and(words, _LOW_BYTES[min(width, 8)], out=word[rows])
+        else:
+            words = np.ndarray(shape=(source.size - 7,), dtype="<u8", buffer=source, strides=(1,))
+            np.bitwise_and(words[starts[rows] - base], _LOW_BYTES[np.minimum(length[rows], 8)],
+                           out=word[rows])
+    return length, word
+
+
 def _mixed(length: np.ndarray, low: np.ndarray, high: np.ndarray) -> np.ndarray:
     """A 64-bit hash of each (length, low, high) key."""
     with np.errstate(over="ignore"):

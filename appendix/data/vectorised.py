@@ -12,7 +12,7 @@ from __future__ import annotations
 import numpy as np
 
 from appendix.data.columnar import (Columns, arrow_indices, chunks_of, distinct_from_keys,
-                                    map_chunks, missing_mask, numpy_of, unit_keys)
+                                    first_words, map_chunks, missing_mask, numpy_of, unit_keys)
 from appendix.data.dataset import Dataset, OutcomeData
 from appendix.data.decimals import PLAIN_PATTERN, all_plain, exact_places, plain_digits, plain_places
 from appendix.data.flow import count_levels, flow_findings
@@ -53,12 +53,13 @@ def _sweep(units, factor, texts: list, levels):
     digits after the point) or None where some cell is not plain decimal text), or None
     when a unit is missing or a level unknown."""
     index = {level: i for i, level in enumerate(levels)}
+    table = _level_table(levels)
     starts = np.cumsum([0] + [len(c) for c in chunks_of(units)])
     codes = np.empty(int(starts[-1]), dtype=np.int64)
     values = [np.empty(int(starts[-1]), dtype=np.float64) for _ in texts]
 
     def work(start, unit, level, *cells):
-        if missing_mask(unit).any() or not _codes_into(codes[start:start + len(unit)], level, index):
+        if missing_mask(unit).any() or not _codes_into(codes[start:start + len(unit)], level, index, table):
             return None
         return (*unit_keys(unit), [_plain_into(v[start:start + len(c)], c)
                                    for v, c in zip(values, cells)])
@@ -75,16 +76,86 @@ def _sweep(units, factor, texts: list, levels):
     return codes, keys, rising, reads
 
 
-def _codes_into(out: np.ndarray, chunk, index: dict) -> bool:
-    """Write the level code of every cell of `chunk` into `out`; False if one is unknown."""
+def _codes_into(out: np.ndarray, chunk, index: dict, table=None) -> bool:
+    """Write the level code of every cell of `chunk` into `out`; False if one is unknown.
+    With a `_level_table`, each cell's first 8 bytes and length are looked up in it (no
+    hashing of the texts by pyarrow)."""
     import pyarrow.compute as pc
 
+    if table is not None:
+        return _table_codes_into(out, chunk, *table)
     encoded = pc.dictionary_encode(chunk)
     of_entry = np.array([index.get(t, -1) for t in encoded.dictionary.to_pylist()], dtype=np.int64)
     if (of_entry < 0).any():
         return False
     np.take(of_entry, numpy_of(encoded.indices), out=out)
     return True
+
+
+#: Multipliers tried for the level table's hash (odd 64-bit constants), in this order.
+_MULTIPLIERS = tuple(np.uint64(m) for m in (0x9E3779B97F4A7C15, 0xC2B2AE3D27D4EB4F,
+                                            0xD6E8FEB86659FD93, 0x94D049BB133111EB,
+                                            0xBF58476D1CE4E5B9, 0xFF51AFD7ED558CCD))
+
+
+def _level_table(levels) -> tuple | None:
+    """(multiplier, shift, slot -> level code or the sentinel len(levels), each code's word,
+    each code's length) of a collision-free multiplicative hash of the levels' first 8
+    bytes, or None when some level is longer than 8 bytes or no multiplier separates them.
+    A text is level c exactly when its 8-byte word and length are those of level c (the
+    word zero-padded beyond the length); the sentinel's length (-1) matches no text.
+
+    >>> multiplier, shift, slots, words, lengths = _level_table(["a", "b", "ab"])
+    >>> sorted(int(c) for c in slots if c < 3), lengths.tolist()
+    ([0, 1, 2], [1, 1, 2, -1])
+    >>> _level_table(["a" * 9]) is None
+    True
+    """
+    encoded = [level.encode("utf-8") for level in levels]
+    if not encoded or max(len(e) for e in encoded) > 8:
+        return None
+    words = np.array([int.from_bytes(e, "little") for e in encoded] + [0], dtype=np.uint64)
+    lengths = np.array([len(e) for e in encoded] + [-1], dtype=np.int32)
+    if np.unique(words[:-1]).size != len(levels):
+        return None  # levels differing only by trailing zero bytes share a word
+    bits = max((len(levels) - 1).bit_length() + 1, 4)
+    for extra in range(6):
+        shift = np.uint64(64 - bits - extra)
+        for multiplier in _MULTIPLIERS:
+            with np.errstate(over="ignore"):
+                slot = (words[:-1] * multiplier) >> shift
+            if np.unique(slot).size == len(levels):
+                slots = np.full(1 << (bits + extra), len(levels), dtype=np.intp)
+                slots[slot] = np.arange(len(levels))
+                return multiplier, shift, slots, words, lengths
+    return None
+
+
+#: Rows per block of the level lookup: its few temporaries stay in the CPU cache.
+_CODES_BLOCK = 1 << 15
+
+
+def _table_codes_into(out: np.ndarray, chunk, *table) -> bool:
+    """`_codes_into` through a `_level_table`, block by block."""
+    return all(_block_codes_into(out[at:at + _CODES_BLOCK], chunk.slice(at, _CODES_BLOCK), *table)
+               for at in range(0, len(chunk), _CODES_BLOCK))
+
+
+def _block_codes_into(out: np.ndarray, chunk, multiplier, shift, slots, words, lengths) -> bool:
+    length, word = first_words(chunk)
+    if length.size == 0:
+        return True
+    width = int(length.max())
+    one_width = int(length.min()) == width
+    if one_width:  # only the levels of that width can match: the others' slots emptied
+        slots = np.where(lengths[slots] == width, slots, lengths.size - 1)
+    with np.errstate(over="ignore"):
+        slot = word * multiplier
+    slot >>= shift
+    code = np.take(slots, slot, out=out)  # when False, out is dropped by the caller
+    if not np.array_equal(words[code], word):
+        return False
+    return one_width or bool(np.array_equal(lengths[code], length))
 
 
 def _plain_into(out: np.ndarray, chunk) -> int | None:

@@ -302,3 +302,50 @@ def test_header_given_to_the_reader_when_the_body_has_no_quotes(tmp_path, monkey
     assert fast.outcome("pain").units == ("u1", "u2") and fast.outcome("pain").lines == (2, 3)
     assert fast.outcome("pain").values.tolist() == [1.5, 2.25]
     _same(fast, slow)
+
+
+@pytest.mark.parametrize("levels, cells, known", [
+    (["g00", "g01", "g99"], ["g01", "g99", "g00", "g01"], True),               # one width
+    (["a", "ab", "abc", ""], ["abc", "", "a", "ab", "a"], True),               # mixed widths
+    (["é", "ü1", "12345678"], ["12345678", "é", "ü1"], True),                  # 8 bytes, UTF-8
+    (["g00", "g01"], ["g00", "g02"], False),                                   # unknown level
+    (["a", "ab"], ["a", "abc"], False),                                        # longer text
+    (["a", "ab"], ["a", "b"], False),                                          # one width, no match
+    (["12345678"], ["123456789"], False),                                      # first 8 bytes match
+    (["ab", "abc"], ["ab", "ab\x00"], False),                                  # zero byte at the end
+])
+def test_level_codes_by_first_words_agree_with_the_dictionary_path(levels, cells, known):
+    import pyarrow as pa
+
+    from appendix.data.vectorised import _codes_into, _level_table
+
+    index = {level: i for i, level in enumerate(levels)}
+    table = _level_table(levels)
+    assert table is not None
+    chunk = pa.array(["pad", *cells], type=pa.string()).slice(1)  # an offset into the buffers
+    by_table, by_dictionary = np.full(len(cells), -9), np.full(len(cells), -9)
+    assert _codes_into(by_table, chunk, index, table) is known
+    assert _codes_into(by_dictionary, chunk, index) is known
+    if known:
+        assert by_table.tolist() == by_dictionary.tolist() == [index[c] for c in cells]
+
+
+def test_level_table_needs_short_distinct_words():
+    from appendix.data.vectorised import _level_table
+
+    assert _level_table(["123456789", "a"]) is None      # a level beyond 8 bytes
+    assert _level_table(["a", "a\x00"]) is None          # one word for two levels
+    multiplier, shift, slots, words, lengths = _level_table([f"L{i}" for i in range(300)])
+    assert sorted(int(c) for c in slots if c < 300) == list(range(300))
+
+
+def test_first_words_near_the_end_of_the_buffer():
+    import pyarrow as pa
+
+    from appendix.data.columnar import first_words
+
+    for texts in (["abc", "de", "f"], ["xyz"] * 5, ["abcdefghijk", "z"], [""]):
+        length, word = first_words(pa.array(texts, type=pa.string()))
+        assert length.tolist() == [len(t) for t in texts]
+        assert [int(w).to_bytes(8, "little") for w in word] == [t.encode()[:8].ljust(8, b"\0")
+                                                                for t in texts]
