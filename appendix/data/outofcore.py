@@ -270,9 +270,23 @@ def _connect(memory_limit: str, threads: int):
     connection.execute("SET preserve_insertion_order = true")
     # Parquet min/max statistics leave NaN out, and DuckDB's statistics propagation then
     # folds isnan() on such a column to false (seen with DuckDB 2.0.1 on a column holding
-    # NaN, NaN, 0.0), so NaN cells would count as values. Correctness first.
+    # NaN, NaN, 0.0), so NaN cells would count as values. Off until `_allow_statistics`
+    # has shown that no numeric outcome column holds a NaN.
     connection.execute("SET disabled_optimizers = 'statistics_propagation'")
     return connection
+
+
+def _allow_statistics(connection, source: _Source, columns: Sequence[str]) -> None:
+    """Turn DuckDB's statistics propagation back on (it halves the time of the scans)
+    when a probe, made with it off, finds no NaN in the numeric outcome columns: then
+    folding isnan() to false is right."""
+    typed = [c for c in dict.fromkeys(columns) if source.is_number_typed(c)]
+    if typed:
+        probes = ", ".join(f"count(*) FILTER (WHERE isnan(CAST({_ident(c)} AS DOUBLE)))"
+                           for c in typed)
+        if any(connection.execute(f"SELECT {probes} FROM {source.scan}").fetchone()):
+            return
+    connection.execute("SET disabled_optimizers = ''")
 
 
 def build_dataset_out_of_core(loaded: LoadedPlan, *, sample_size: int = 5000,
@@ -306,6 +320,7 @@ def _build(connection, loaded: LoadedPlan, sample_size: int) -> Dataset:
     columns = tuple(source.types)
     _require_columns(loaded, Table(path=source.path, columns=columns,
                                    cells={c: () for c in columns}, lines=()))
+    _allow_statistics(connection, source, [o.data_column for o in plan.outcomes])
     levels = plan.factor.levels
     problems = _unit_problems(connection, source, plan.data.unit)
     problems += _level_problems(connection, source, plan.factor.name, levels)
