@@ -67,7 +67,8 @@ def _diagnostics(plan: Plan, data: OutcomeData, cells, levels) -> Diagnostics:
     tests = []
     for method in settings.equal_variance:
         if method == "brown-forsythe":
-            tests.append(brown_forsythe(data.values, data.codes, len(levels), levels))
+            tests.append(brown_forsythe(data.values, data.codes, len(levels), levels,
+                                        decimals=data.decimals))
         else:
             tests.append(bartlett(cells))
     outliers = outlier_screen(data.values, data.codes, cells, data.units, levels,

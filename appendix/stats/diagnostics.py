@@ -14,7 +14,6 @@ from appendix.results import FlaggedUnit, NormalityTest, OutlierScreen, StatWarn
 from appendix.stats.cells import (
     CellStats, cell_stats, check_inputs, layout_warnings, residuals, single_group_warning)
 from appendix.stats.descriptives import split_by_code
-from appendix.stats.exact import decimal_digits
 from appendix.stats.oneway import partition
 
 _SHAPIRO_MAX_N = 5000  # upper end of the range scipy states for its p-value
@@ -50,15 +49,19 @@ def shapiro_wilk(residuals: np.ndarray) -> NormalityTest:
 
 
 def brown_forsythe(
-    values: np.ndarray, codes: np.ndarray, k: int, levels: Sequence[str] | None = None
+    values: np.ndarray, codes: np.ndarray, k: int, levels: Sequence[str] | None = None,
+    *, decimals: int | None = None,
 ) -> VarianceTest:
     """Brown & Forsythe (1974, JASA 69:364-367) test of equal variances.
 
-    Levene's (1960) one-way F test applied to |y - median of the unit's level|.
+    Levene's (1960) one-way F test applied to |y - median of the unit's level|. With
+    `decimals` (the data stage's count for decimal text) the deviations are exact
+    decimals with one more digit, and their F test takes the engine's exact path.
     """
     values, codes = check_inputs(values, codes, k)
-    spread = _median_deviations(values, codes, k)
-    part = partition(cell_stats(spread, codes, k, levels))
+    spread = _median_deviations(values, codes, k, decimals)
+    part = partition(cell_stats(spread, codes, k, levels,
+                                decimals=None if decimals is None else decimals + 1))
     if part.f is None:
         # Keep the layout warnings; restate the F failure in terms of this test.
         kept = tuple(w for w in part.warnings if w.code in _LAYOUT_CODES)
@@ -71,14 +74,14 @@ def brown_forsythe(
                         part.p, part.warnings)
 
 
-def _median_deviations(values: np.ndarray, codes: np.ndarray, k: int) -> np.ndarray:
+def _median_deviations(values: np.ndarray, codes: np.ndarray, k: int,
+                       digits: int | None) -> np.ndarray:
     """|y - median of the unit's level|, as exact decimals when the data are decimals.
 
-    For decimal data the deviations are formed on the scaled integers (a median of
-    integers is an integer or a half), so that they too are decimals and the F test on
-    them takes the exact path of `cell_stats`.
+    For decimal data (`digits` places) the deviations are formed on the scaled integers
+    (a median of integers is an integer or a half), so that they are decimals with
+    `digits + 1` places.
     """
-    digits = decimal_digits(values)
     power = 10.0**digits if digits is not None else 1.0
     scaled = np.round(values * power) if digits is not None else values
     medians = np.array([np.median(g) if g.size else np.nan for g in split_by_code(scaled, codes, k)])
