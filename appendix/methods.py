@@ -245,6 +245,13 @@ METHODS: Mapping[str, Method] = MappingProxyType({m.key: m for m in (
            "plan's threshold in absolute value are listed. They are reported, not removed: "
            "only registered exclusion rules remove units.",
            ("cook1982",)),
+    Method("custom", "Custom contrast weights",
+           "Custom weights are rescaled so that the positive weights sum to 1 and the "
+           "negative ones to \u22121, so that the estimate is a difference between two "
+           "weighted means of levels in the outcome's unit (weights \u22123, 1, 1, 1 estimate "
+           "the mean of the last three levels minus the first). The hypothesis is the same "
+           "at any scale.",
+           ()),
     Method("contrasts-classical", "Planned contrasts, pooled variance",
            "Each planned contrast tests H0: \u03a3 w\u1d62\u03bc\u1d62 = 0 for its weights w "
            "over the groups. The estimate is \u03a3 w\u1d62\u0233\u1d62, its standard error "
@@ -343,7 +350,7 @@ METHODS: Mapping[str, Method] = MappingProxyType({m.key: m for m in (
            "threshold puts another analysis in force, evaluated in plan order, the first that "
            "fires winning. Such two-stage rules distort the error rates of the final test "
            "(Zimmerman, 2004; Rochon et al., 2012); the appendix therefore shows every rule, "
-           "whether it fired, and the analyses both with and without it.",
+           "whether it fired, and, when one fired, the analyses both with and without it.",
            ("zimmerman2004", "rochon2012")),
     Method("pretest", "Diagnostics are shown, not used to choose the test",
            "Choosing a test by the outcome of a preliminary test of an assumption distorts "
@@ -417,7 +424,7 @@ def _contrast_methods(results: Mapping[str, Any]) -> list[str]:
 
 
 _CONTRAST_ORDER = (
-    "contrasts-classical", "contrasts-welch", "contrasts-rank", "trend", "helmert", "tukey",
+    "contrasts-classical", "contrasts-welch", "contrasts-rank", "custom", "trend", "helmert", "tukey",
     "games-howell", "dunnett", "bonferroni", "sidak", "holm", "hochberg", "benjamini-hochberg",
     "fixed-sequence", "unadjusted", "hedges", "one-sided")
 

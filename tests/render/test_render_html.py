@@ -181,7 +181,7 @@ def test_methods_follow_what_was_run(plain_results):
     names = [m.key for m in methods_used(plain_results)]
     assert names == ["descriptives", "anova", "welch", "kruskal", "effect_sizes", "shapiro",
                      "brown-forsythe", "bartlett", "outliers", "float64", "contrasts-classical",
-                     "contrasts-welch", "trend", "fixed-sequence", "unadjusted", "hedges",
+                     "contrasts-welch", "custom", "trend", "fixed-sequence", "unadjusted", "hedges",
                      "one-sided", "contingency", "reporting"]
     stripped = copy.deepcopy(plain_results)
     for outcome in stripped["outcomes"]:
