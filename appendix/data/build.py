@@ -49,10 +49,15 @@ def build_dataset(loaded: LoadedPlan) -> Dataset:
         delimiter = _DELIMITERS.get(loaded.data_path.suffix.lower())
         if delimiter is not None and loaded.data_path.is_file():
             from appendix.data.columnar import read_columns
-            from appendix.data.vectorised import build_vectorised, needed_columns
+            from appendix.data.scan import SCAN_MIN_BYTES
+            from appendix.data.vectorised import build_scanned, build_vectorised, needed_columns
 
-            columns = read_columns(loaded.data_path, delimiter, needed_columns(loaded))
-            built = build_vectorised(loaded, columns) if columns is not None else None
+            built = None
+            if loaded.data_path.stat().st_size >= SCAN_MIN_BYTES:
+                built = build_scanned(loaded, loaded.data_path, delimiter)
+            if built is None:
+                columns = read_columns(loaded.data_path, delimiter, needed_columns(loaded))
+                built = build_vectorised(loaded, columns) if columns is not None else None
             if built is not None:
                 return replace(built, inputs=hashing.result())
         table = read_table(loaded.data_path, plan.data.sheet)

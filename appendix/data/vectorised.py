@@ -19,7 +19,7 @@ from appendix.data.flow import count_levels, flow_findings
 from appendix.data.rows import LineRows, TextRows
 from appendix.data.values import DECIMAL_PATTERN, match_key
 from appendix.plan.load import LoadedPlan
-from appendix.results import ExclusionCount, OutcomeFlow, UnitFlow
+from appendix.results import ExclusionCount, LevelCount, OutcomeFlow, UnitFlow
 
 
 def needed_columns(loaded: LoadedPlan) -> list[str]:
@@ -46,6 +46,42 @@ def build_vectorised(loaded: LoadedPlan, columns: Columns) -> Dataset | None:
     if not distinct_from_keys(units, keys, rising):
         return None
     return _build(plan, columns, codes, plain_reads)
+
+
+def build_scanned(loaded: LoadedPlan, path, delimiter: str) -> Dataset | None:
+    """The `Dataset` of a plain file read by the compiled pass (`appendix.data.scan`),
+    its `inputs` left empty, or None when the pass does not apply or stops."""
+    from appendix.data.columnar import _header
+    from appendix.data.decimals import EXACT_LIMIT
+    from appendix.data.scan import FACTOR, TEXT, UNIT, scan_plain
+
+    plan = loaded.plan
+    table = _level_table(plan.factor.levels)
+    header = _header(path, delimiter)
+    outcomes = [o.data_column for o in plan.outcomes]
+    roles = {plan.data.unit: UNIT, plan.factor.name: FACTOR}
+    roles |= {rule.column: TEXT for rule in plan.data.exclusions}
+    if table is None or header is None or header[:2] != (1, 1):
+        return None
+    stripped = [c.strip() for c in header[2]]
+    named = [plan.data.unit, plan.factor.name, *dict.fromkeys(r.column for r in plan.data.exclusions),
+             *outcomes]
+    if (len(set(named)) != len(named) or len(set(stripped)) != len(stripped)
+            or not set(named) <= set(stripped) or "" in stripped):
+        return None  # one column in two roles, or a header the pyarrow path judges
+    scanned = scan_plain(path, delimiter, header[2], roles, outcomes, table)
+    if isinstance(scanned, int):
+        return None
+    for values, places in zip(scanned.values, scanned.places):
+        if values.size and max(values.max(), -values.min()) * 10.0**int(places.max()) >= EXACT_LIMIT / 2:
+            return None  # near the exact limit: the pyarrow path decides from the texts
+    if not scanned.distinct_units:
+        return None
+    cells = {name: spans if name == plan.data.unit else spans.arrow()
+             for name, spans in scanned.texts.items()}  # exclusion columns as pyarrow arrays
+    columns = Columns(n_rows=scanned.n_rows, cells=cells, line_of=None)
+    return _build(plan, columns, scanned.codes, list(zip(scanned.values, scanned.places)),
+                  level_n=scanned.level_n)
 
 
 def _sweep(units, factor, texts: list, levels):
@@ -171,11 +207,14 @@ def _plain_into(out: np.ndarray, chunk) -> int | None:
     return digits
 
 
-def _build(plan, columns: Columns, codes: np.ndarray, plain_reads: list) -> Dataset | None:
+def _build(plan, columns: Columns, codes: np.ndarray, plain_reads: list,
+           level_n: np.ndarray | None = None) -> Dataset | None:
+    """`level_n`: the rows at each level, when already counted."""
     import pyarrow.compute as pc
 
     levels = plan.factor.levels
-    read = count_levels(codes, levels)
+    read = (count_levels(codes, levels) if level_n is None
+            else tuple(LevelCount(level=level, n=int(m)) for level, m in zip(levels, level_n)))
     eligible = np.ones(columns.n_rows, dtype=bool)
     excluded = []
     for rule in plan.data.exclusions:
@@ -190,17 +229,24 @@ def _build(plan, columns: Columns, codes: np.ndarray, plain_reads: list) -> Data
     outcomes, flows = [], []
     units = columns.cells[plan.data.unit]
     for outcome, read_plain in zip(plan.outcomes, plain_reads):
-        texts = columns.cells[outcome.data_column]
+        texts = columns.cells.get(outcome.data_column)
         # Common case first: every cell plain decimal text (then none is missing: no
-        # missing text is plain), checked and read by the sweep over the chunks.
+        # missing text is plain), checked and read by the sweep over the chunks. Digits
+        # after the point come as the most of all rows, or per row (the compiled pass,
+        # which keeps no outcome texts and has ruled out values near the exact limit).
         if read_plain is not None:
             values, digits = read_plain
             missing = None
             rows, kept, kept_codes, plain = range(columns.n_rows), texts, codes, True
             if not everyone:  # digits are counted over the analysed cells only
                 rows = np.flatnonzero(eligible)
-                kept, kept_codes, values, digits = (texts.take(arrow_indices(rows)), codes[rows],
-                                                    values[rows], None)
+                kept_codes, values = codes[rows], values[rows]
+                if isinstance(digits, np.ndarray):
+                    digits = digits[rows]
+                else:
+                    kept, digits = texts.take(arrow_indices(rows)), None
+            if isinstance(digits, np.ndarray):
+                digits = int(digits.max(initial=0))
         else:
             missing = missing_mask(texts)
             analysed = eligible & ~missing
