@@ -6,6 +6,10 @@ and the reference F distribution with the observed F; and, when the outcome has 
 contrasts, a forest plot of the registered family (``{outcome}-contrasts``). A figure
 whose statistic is missing is left out; the appendix then says why.
 
+For designs beyond one factor, `interaction_plot`, `profile_plot` (repeated measures) and
+`covariate_scatter` draw from plain sequences; they use the same palette, add a marker
+and a line style per level (colour is never the only cue) and carry a <title> and <desc>.
+
 Palette: eight colours of our own, chosen so that levels differ in lightness as well as
 hue. Red-green colour vision deficiencies collapse hue differences along the red-green
 axis; lightness and the blue-yellow contrast survive, so the first six colours stay at
@@ -403,3 +407,264 @@ def _to_svg(figure: Figure, stem: str) -> str:
     # one HTML page need distinct ids, so every id and reference gets the stem as prefix
     text = _ID.sub(lambda m: f'id="{stem}-{m.group(1)}"', text)
     return _REF.sub(lambda m: f"{m.group(1)}{stem}-{m.group(2)}", text)
+
+
+# --- figures of designs beyond one factor ----------------------------------------------
+# Drawn from plain sequences (no engine types), so that any engine's marginal means,
+# covariate fits or repeated-measures means can be shown. Each returns SVG text with an
+# accessible <title> and <desc>, or None when nothing can be drawn.
+
+#: Marker per line or group (in level order, cycled): colour is never the only cue.
+MARKERS: tuple[str, ...] = ("o", "s", "^", "D", "v", "P", "X", "h")
+#: Line style per line or group (in level order, cycled), a third cue beside colour and marker.
+LINE_STYLES: tuple[str, ...] = ("-", "--", "-.", ":")
+
+
+def level_marker(index: int) -> str:
+    """The marker of the level at `index` in registered order."""
+    return MARKERS[index % len(MARKERS)]
+
+
+def level_line_style(index: int) -> str:
+    """The line style of the level at `index` in registered order."""
+    return LINE_STYLES[index % len(LINE_STYLES)]
+
+
+def _number_or_nan(value: object) -> float:
+    return np.nan if value is None else float(value)
+
+
+def _grid(values, rows: int, columns: int, name: str) -> np.ndarray:
+    """`values` as a float array of shape (rows, columns), None read as NaN."""
+    table = np.array([[_number_or_nan(v) for v in row] for row in values], dtype=float)
+    if table.shape != (rows, columns):
+        raise ValueError(f"{name}: expected {rows} rows of {columns} values (one row per "
+                         f"line, one value per x level), got shape {table.shape}")
+    return table
+
+
+def _dodge(lines: int) -> np.ndarray:
+    """Sideways offsets of each line's points, so that their intervals do not overlap."""
+    step = min(0.15, 0.5 / max(lines - 1, 1))
+    return (np.arange(lines) - (lines - 1) / 2) * step
+
+
+@dataclass(frozen=True)
+class _LinesOfMeans:
+    """Estimates with intervals: one line per `lines` level across the `x_levels`."""
+
+    x_levels: tuple[str, ...]
+    lines: tuple[str, ...]
+    estimates: np.ndarray  # (lines, x levels), NaN where missing
+    ci_low: np.ndarray
+    ci_high: np.ndarray
+    x_label: str
+    lines_label: str
+    y_label: str
+
+    @classmethod
+    def of(cls, x_levels, lines, estimates, ci_low, ci_high, x_label: str,
+           lines_label: str, y_label: str) -> _LinesOfMeans:
+        shape = (len(lines), len(x_levels))
+        return cls(tuple(str(x) for x in x_levels), tuple(str(t) for t in lines),
+                   _grid(estimates, *shape, "estimates"), _grid(ci_low, *shape, "ci_low"),
+                   _grid(ci_high, *shape, "ci_high"), x_label, lines_label, y_label)
+
+    def has_interval(self) -> np.ndarray:
+        return (np.isfinite(self.estimates) & np.isfinite(self.ci_low)
+                & np.isfinite(self.ci_high))
+
+    def describe(self, what: str) -> str:
+        drawn = int(np.isfinite(self.estimates).sum())
+        bars = int(self.has_interval().sum())
+        return (f"{what} of {self.y_label} at each level of {self.x_label} "
+                f"({', '.join(self.x_levels)}), one line per level of {self.lines_label} "
+                f"({', '.join(self.lines)}), each with its own colour, marker and line "
+                f"style. {drawn} of {self.estimates.size} estimates drawn; {bars} with a "
+                "confidence interval as a vertical bar.")
+
+
+def _draw_lines_of_means(spec: _LinesOfMeans) -> Figure | None:
+    if not np.isfinite(spec.estimates).any():
+        return None
+    figure, ax = _new_figure()
+    offsets = _dodge(len(spec.lines))
+    with_bar = spec.has_interval()
+    for j, name in enumerate(spec.lines):
+        x = np.arange(len(spec.x_levels)) + offsets[j]
+        y = spec.estimates[j]
+        if not np.isfinite(y).any():
+            continue
+        colour = level_colour(j)
+        bar = with_bar[j]
+        if bar.any():
+            # only complete intervals get a bar: a missing bound draws nothing
+            _, caps, bars = ax.errorbar(
+                x[bar], y[bar], yerr=[y[bar] - spec.ci_low[j][bar], spec.ci_high[j][bar] - y[bar]],
+                fmt="none", color=colour, ecolor=colour, elinewidth=1.3, capsize=3)
+            bars[0].set_gid(f"line-{j}-ci")
+            for k, cap in enumerate(caps):
+                cap.set_gid(f"line-{j}-cap-{k}")
+        # NaN breaks the line where an estimate is missing
+        (line,) = ax.plot(x, y, color=colour, linestyle=level_line_style(j),
+                          marker=level_marker(j), markersize=6, markeredgecolor="#000000",
+                          markeredgewidth=0.6, label=_wrap(name, 24), zorder=3)
+        line.set_gid(f"line-{j}-means")
+    _level_axis(ax, spec.x_levels)
+    ax.set_xlim(-0.6, len(spec.x_levels) - 0.4)
+    ax.set_xlabel(_wrap(spec.x_label, 60))
+    ax.set_ylabel(_wrap(spec.y_label))
+    ax.legend(frameon=False, loc="upper left", bbox_to_anchor=(1.01, 1.0), borderaxespad=0,
+              title=_wrap(spec.lines_label, 24), alignment="left")
+    return figure
+
+
+def interaction_plot(x_levels, trace_levels, estimates, ci_low, ci_high, *, x_label: str,
+                     trace_label: str, y_label: str, title: str | None = None,
+                     stem: str = "interaction") -> str | None:
+    """Marginal means with confidence intervals across the levels of one factor, one line
+    per level of another (the usual interaction plot; lines that are not parallel suggest
+    an interaction).
+
+    `estimates`, `ci_low` and `ci_high` hold one row per trace level (in `trace_levels`
+    order) of one value per x level; None or NaN leaves a point or a bar out (a bar needs
+    both bounds). Points are dodged sideways so that bars do not overlap. `stem` prefixes
+    every id in the SVG (figures shown on one page need distinct stems). None when no
+    estimate is finite.
+    """
+    spec = _LinesOfMeans.of(x_levels, trace_levels, estimates, ci_low, ci_high,
+                            x_label, trace_label, y_label)
+    return _lines_figure(spec, stem, title or f"{y_label} by {x_label} and {trace_label}",
+                         "Interaction plot: marginal means")
+
+
+def profile_plot(levels, group_labels, means, ci_low, ci_high, *, x_label: str,
+                 y_label: str, title: str | None = None, group_label: str = "Group",
+                 stem: str = "profile") -> str | None:
+    """Repeated-measures profiles: the mean at each within-unit level (`levels`, in
+    registered order along the axis) for each group, with confidence intervals.
+
+    `means`, `ci_low` and `ci_high` hold one row per group (in `group_labels` order) of
+    one value per within level; None or NaN leaves a point or bar out. None when no mean
+    is finite.
+    """
+    spec = _LinesOfMeans.of(levels, group_labels, means, ci_low, ci_high,
+                            x_label, group_label, y_label)
+    return _lines_figure(spec, stem,
+                         title or f"{y_label} across {x_label} by {group_label.lower()}",
+                         "Profile plot: means")
+
+
+def _lines_figure(spec: _LinesOfMeans, stem: str, title: str, what: str) -> str | None:
+    return _accessible_figure(stem, lambda: _draw_lines_of_means(spec), title,
+                              spec.describe(what))
+
+
+@dataclass(frozen=True)
+class _CovariateFit:
+    """Units' covariate and outcome values by group, and the parallel-lines fit."""
+
+    x: np.ndarray
+    y: np.ndarray
+    codes: np.ndarray
+    group_labels: tuple[str, ...]
+    slope: float
+    intercepts: np.ndarray  # fitted value of each group at x = centre; NaN where missing
+    centre: float
+    x_label: str
+    y_label: str
+
+
+def _draw_covariate(fit: _CovariateFit) -> Figure | None:
+    if fit.x.size == 0:
+        return None
+    figure, ax = _new_figure()
+    shown = _thin(fit.x.size)
+    px, py, pcodes = fit.x[shown], fit.y[shown], fit.codes[shown]
+    dense = shown.size > DENSE_POINTS
+    for g, name in enumerate(fit.group_labels):
+        mine = pcodes == g
+        if mine.any():
+            points = ax.scatter(px[mine], py[mine], s=16, color=level_colour(g),
+                                marker=level_marker(g), edgecolors="#000000",
+                                linewidths=0.3, alpha=0.9, rasterized=dense,
+                                label=_wrap(name, 24), zorder=3)
+            points.set_gid(f"group-{g}-points")
+    for g in range(len(fit.group_labels)):
+        if not (np.isfinite(fit.slope) and np.isfinite(fit.intercepts[g])):
+            continue
+        # each line spans its own group's covariate range (no extrapolation)
+        own = fit.x[fit.codes == g]
+        span = np.array([own.min(), own.max()] if own.size else [fit.x.min(), fit.x.max()])
+        (line,) = ax.plot(span, fit.intercepts[g] + fit.slope * (span - fit.centre),
+                          color=level_colour(g), linestyle=level_line_style(g),
+                          linewidth=1.4, zorder=4)
+        line.set_gid(f"group-{g}-fit")
+    mean = float(fit.x.mean())
+    marker = ax.axvline(mean, color="#000000", linewidth=0.8, linestyle=":",
+                        label=f"Covariate mean = {mean:.4g}")
+    marker.set_gid("covariate-mean")
+    ax.set_xlabel(_wrap(fit.x_label, 60))
+    ax.set_ylabel(_wrap(fit.y_label))
+    _legend_outside(ax)
+    return figure
+
+
+def covariate_scatter(x, y, groups, group_labels, slope, intercepts, *, x_label: str,
+                      y_label: str, title: str | None = None, centre: float | None = None,
+                      stem: str = "covariate") -> str | None:
+    """Outcome against covariate, one colour and marker per group, with the fitted
+    parallel lines of the analysis of covariance (one common `slope`, one intercept per
+    group) and the covariate mean marked by a dotted line.
+
+    `groups` holds each unit's group code (an index into `group_labels`). `intercepts`
+    are each group's fitted value at the covariate value `centre` (default: the mean of
+    `x` over the units with both values, so that intercepts are the adjusted means of a
+    centred covariate); None or NaN draws no line
+    for that group, as does a None `slope`. Units with a missing x or y are left out.
+    Beyond `PLOT_POINTS` units the points are a deterministic subsample; the lines and the
+    mean use every unit. None when no unit has both values.
+    """
+    x = np.array([_number_or_nan(v) for v in x], dtype=float)
+    y = np.array([_number_or_nan(v) for v in y], dtype=float)
+    codes = np.asarray(groups, dtype=int)
+    labels = tuple(str(g) for g in group_labels)
+    cuts = np.array([_number_or_nan(v) for v in intercepts], dtype=float)
+    if not (x.shape == y.shape == codes.shape) or cuts.shape != (len(labels),):
+        raise ValueError(f"x, y and groups need one value per unit (got {x.size}, {y.size}, "
+                         f"{codes.size}) and intercepts one per group label (got "
+                         f"{cuts.size} for {len(labels)})")
+    if codes.size and (codes.min() < 0 or codes.max() >= len(labels)):
+        raise ValueError(f"groups: codes must index group_labels (0 to {len(labels) - 1})")
+    keep = np.isfinite(x) & np.isfinite(y)
+    x, y, codes = x[keep], y[keep], codes[keep]
+    at = centre if centre is not None else (float(x.mean()) if x.size else 0.0)
+    fit = _CovariateFit(x, y, codes, labels, _number_or_nan(slope), cuts, float(at),
+                        x_label, y_label)
+    lines = int((np.isfinite(cuts) & np.isfinite(fit.slope)).sum())
+    desc = (f"Scatter plot of {y_label} against {x_label}, {x.size} units in "
+            f"{len(labels)} groups ({', '.join(labels)}), each with its own colour and "
+            f"marker; {lines} fitted parallel lines (common slope) and a dotted line at the "
+            "covariate mean.")
+    return _accessible_figure(stem, lambda: _draw_covariate(fit),
+                              title or f"{y_label} against {x_label} by group", desc)
+
+
+def _accessible_figure(stem: str, draw: Callable[[], Figure | None], title: str,
+                       desc: str) -> str | None:
+    """Draw under the figure settings and give the SVG a <title> and <desc> (read by
+    screen readers; the ids carry `stem` like every other id)."""
+    with matplotlib.rc_context({**_RC, "svg.hashsalt": stem}):
+        figure = draw()
+        if figure is None:
+            return None
+        svg = _to_svg(figure, stem)
+    root = re.search(r"<svg\b[^>]*?(/?)>", svg)
+    labels = (f' role="img" aria-labelledby="{stem}-title {stem}-desc">'
+              f'<title id="{stem}-title">{_xml_text(title)}</title>'
+              f'<desc id="{stem}-desc">{_xml_text(desc)}</desc>')
+    return svg[:root.end() - 1] + labels + svg[root.end():]
+
+
+def _xml_text(text: str) -> str:
+    return text.replace("&", "&amp;").replace("<", "&lt;").replace(">", "&gt;")
