@@ -126,7 +126,50 @@ def make_figures(dataset: Dataset, results: StudyResults) -> dict[str, str]:
         if family is not None and family.hypotheses:
             _draw(figures, f"{outcome.name}-{CONTRASTS_KIND}",
                   lambda f: _forest(outcome, f), family)
+    for model in results.models:
+        figures.update(_model_figures(results, model))
     return figures
+
+
+def _model_figures(results: StudyResults, model) -> dict[str, str]:
+    """Interaction plots of every two-factor table of marginal means, and the profile
+    plot of a repeated-measures outcome, keyed ``f"{outcome}-interaction-{i}"`` (i counts
+    the outcome's marginal-means tables from 1) and ``f"{outcome}-profile"``."""
+    labels = {f.name: f.label for f in results.factors}
+    levels = {f.name: f.levels for f in results.factors}
+    y_label = f"{model.label} ({model.unit})" if model.unit else model.label
+    out: dict[str, str] = {}
+    for i, group in enumerate(model.marginal_means, 1):
+        if len(group.factors) != 2:
+            continue
+        a, b = group.factors
+        by_levels = {m.levels: m for m in group.means}
+
+        def grid(field):
+            return [[getattr(by_levels.get((x, t)), field, None) for x in levels[a]] for t in levels[b]]
+
+        stem = f"{model.name}-interaction-{i}"
+        svg = interaction_plot(levels[a], levels[b], grid("estimate"), grid("ci_low"), grid("ci_high"),
+                               x_label=labels[a], trace_label=labels[b], y_label=y_label, stem=stem)
+        if svg is not None:
+            out[stem] = svg
+    within = next((f for f in results.factors if f.role == "within"), None)
+    if model.sphericity is not None and within is not None:
+        cells = [c.level for c in results.unit_flow.read]
+        m = len(within.levels)
+        groups = model.descriptives.groups
+
+        def rows(field):
+            return [[getattr(groups[g * m + w], field) for w in range(m)] for g in range(len(cells))]
+
+        stem = f"{model.name}-profile"
+        svg = profile_plot(within.levels, cells, rows("mean"), rows("ci_low"), rows("ci_high"),
+                           x_label=within.label, y_label=y_label,
+                           group_label=" \u00d7 ".join(f.label for f in results.factors
+                                                        if f.role == "treatment"), stem=stem)
+        if svg is not None:
+            out[stem] = svg
+    return out
 
 
 def _draw(figures: dict[str, str], stem: str, draw: Callable, source) -> None:
@@ -551,7 +594,7 @@ def profile_plot(levels, group_labels, means, ci_low, ci_high, *, x_label: str,
     spec = _LinesOfMeans.of(levels, group_labels, means, ci_low, ci_high,
                             x_label, group_label, y_label)
     return _lines_figure(spec, stem,
-                         title or f"{y_label} across {x_label} by {group_label.lower()}",
+                         title or f"{y_label} across {x_label} by {group_label}",
                          "Profile plot: means")
 
 
@@ -644,8 +687,8 @@ def covariate_scatter(x, y, groups, group_labels, slope, intercepts, *, x_label:
     lines = int((np.isfinite(cuts) & np.isfinite(fit.slope)).sum())
     desc = (f"Scatter plot of {y_label} against {x_label}, {x.size} units in "
             f"{len(labels)} groups ({', '.join(labels)}), each with its own colour and "
-            f"marker; {lines} fitted parallel lines (common slope) and a dotted line at the "
-            "covariate mean.")
+            f"marker; fitted parallel lines (common slope): {lines} of {len(labels)}; a "
+            "dotted line at the covariate mean.")
     return _accessible_figure(stem, lambda: _draw_covariate(fit),
                               title or f"{y_label} against {x_label} by group", desc)
 
@@ -659,7 +702,7 @@ def _accessible_figure(stem: str, draw: Callable[[], Figure | None], title: str,
         if figure is None:
             return None
         svg = _to_svg(figure, stem)
-    root = re.search(r"<svg\b[^>]*?(/?)>", svg)
+    root = re.search(r"<svg\b[^>]*>", svg)
     labels = (f' role="img" aria-labelledby="{stem}-title {stem}-desc">'
               f'<title id="{stem}-title">{_xml_text(title)}</title>'
               f'<desc id="{stem}-desc">{_xml_text(desc)}</desc>')

@@ -154,7 +154,7 @@ def test_title_and_desc_come_first_and_stay_plain_text():
 def test_default_titles_name_the_labels():
     assert _root(_interaction())[0].text == \
         "Chlorophyll index (units) by Seed coating and Irrigation"
-    assert _root(_profile())[0].text == "Chlorophyll index (units) across Visit by group"
+    assert _root(_profile())[0].text == "Chlorophyll index (units) across Visit by Group"
     assert _root(_covariate())[0].text == "Dry mass (g) against Baseline height (mm) by group"
 
 
@@ -316,7 +316,7 @@ def test_covariate_scatter_skips_missing_values_and_lines():
     svg = _covariate(x, y, codes, intercepts=[10.0, None, float("nan")])
     assert len(_markers(_group(svg, "covariate-group-0-points"))) == 18
     assert _ids(svg, r"covariate-group-\d+-fit") == ["covariate-group-0-fit"]
-    assert "58 units in 3 groups" in svg and "1 fitted parallel lines" in svg
+    assert "58 units in 3 groups" in svg and "fitted parallel lines (common slope): 1 of 3" in svg
     assert _ids(_covariate(x, y, codes, slope=None), r"covariate-group-\d+-fit") == []
     assert _covariate(np.full(3, np.nan), np.ones(3), np.zeros(3, int)) is None
     with pytest.raises(ValueError, match="intercepts one per group label"):
