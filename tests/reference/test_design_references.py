@@ -29,6 +29,7 @@ import pandas as pd
 import pingouin
 import pytest
 import scipy.stats as st
+from scipy.optimize import brentq
 import statsmodels.formula.api as smf
 from statsmodels.stats.anova import anova_lm
 
@@ -295,7 +296,7 @@ def test_engine_matches_printed_table(engine, printed: PrintedTable) -> None:
 def test_engine_matches_statsmodels(engine, name: str, terms: tuple[Term, ...], ss_type: int) -> None:
     # Reference: statsmodels 0.15.0 ols(...).fit() + anova_lm(typ=ss_type), sum-to-zero coding;
     # partial eta squared SS/(SS + SS_res); partial omega squared
-    # (SS - df MS_res) / (SS + (N - df) MS_res) (Olejnik & Algina 2003, fixed effects).
+    # (SS - df MS_res) / (SS + (N - df) MS_res) (Olejnik & Algina 2003, fixed effects; from memory).
     design = DESIGNS[name]
     fit = _engine_fit(engine, design, terms, ss_type)
     reference = _statsmodels_table(design, terms, ss_type)
@@ -393,3 +394,25 @@ def test_engine_unbalanced_means_are_unweighted_cell_means(engine) -> None:
         unweighted = cell_means.loc[diet].mean()
         assert means[(diet,)].estimate == pytest.approx(unweighted, rel=REL)
         assert means[(diet,)].estimate != pytest.approx(frame.loc[frame["Diet"] == diet, "y"].mean(), rel=1e-3)
+
+
+def _scipy_noncentrality_bound(f: float, df1: int, df2: int, upper_tail: float) -> float:
+    """The lambda at which scipy's noncentral F puts `upper_tail` above f; 0 if none."""
+    if st.f.sf(f, df1, df2) >= upper_tail:
+        return 0.0
+    return brentq(lambda lam: st.ncf.sf(f, df1, df2, lam) - upper_tail, 1e-12, 1e4, xtol=1e-13)
+
+
+@pytest.mark.parametrize(("name", "terms", "ss_type"), [
+    ("kidney-less-3", KIDNEY_TERMS, 3), ("anova3_unbalanced", THREE_WAY_TERMS, 2),
+    ("ancova", (("Income",), ("Method",)), 2),
+])
+def test_engine_partial_eta_interval_inverts_scipy_noncentral_f(engine, name, terms, ss_type) -> None:
+    # Reference: scipy 1.17 stats.ncf inverted here with brentq; interval at 1 - 2 alpha = 90 %
+    # and partial eta = lambda / (lambda + df1 + df2 + 1) (Steiger 2004, Psychological Methods
+    # 9:164-182, from memory). Tolerance 1e-7 absolute: two root finders' stopping rules.
+    fit = _engine_fit(engine, DESIGNS[name], terms, ss_type)
+    for row in fit.terms:
+        bounds = [_scipy_noncentrality_bound(row.f, row.df, fit.residual_df, tail) for tail in (0.05, 0.95)]
+        expected = [lam / (lam + row.df + fit.residual_df + 1) for lam in bounds]
+        assert row.partial_eta_ci == pytest.approx(expected, abs=1e-7), row.term
