@@ -31,6 +31,7 @@ from types import MappingProxyType
 import matplotlib
 import numpy as np
 from matplotlib.figure import Figure
+from matplotlib.lines import Line2D
 from scipy import stats
 
 from appendix import numbers
@@ -126,50 +127,7 @@ def make_figures(dataset: Dataset, results: StudyResults) -> dict[str, str]:
         if family is not None and family.hypotheses:
             _draw(figures, f"{outcome.name}-{CONTRASTS_KIND}",
                   lambda f: _forest(outcome, f), family)
-    for model in results.models:
-        figures.update(_model_figures(results, model))
     return figures
-
-
-def _model_figures(results: StudyResults, model) -> dict[str, str]:
-    """Interaction plots of every two-factor table of marginal means, and the profile
-    plot of a repeated-measures outcome, keyed ``f"{outcome}-interaction-{i}"`` (i counts
-    the outcome's marginal-means tables from 1) and ``f"{outcome}-profile"``."""
-    labels = {f.name: f.label for f in results.factors}
-    levels = {f.name: f.levels for f in results.factors}
-    y_label = f"{model.label} ({model.unit})" if model.unit else model.label
-    out: dict[str, str] = {}
-    for i, group in enumerate(model.marginal_means, 1):
-        if len(group.factors) != 2:
-            continue
-        a, b = group.factors
-        by_levels = {m.levels: m for m in group.means}
-
-        def grid(field):
-            return [[getattr(by_levels.get((x, t)), field, None) for x in levels[a]] for t in levels[b]]
-
-        stem = f"{model.name}-interaction-{i}"
-        svg = interaction_plot(levels[a], levels[b], grid("estimate"), grid("ci_low"), grid("ci_high"),
-                               x_label=labels[a], trace_label=labels[b], y_label=y_label, stem=stem)
-        if svg is not None:
-            out[stem] = svg
-    within = next((f for f in results.factors if f.role == "within"), None)
-    if model.sphericity is not None and within is not None:
-        cells = [c.level for c in results.unit_flow.read]
-        m = len(within.levels)
-        groups = model.descriptives.groups
-
-        def rows(field):
-            return [[getattr(groups[g * m + w], field) for w in range(m)] for g in range(len(cells))]
-
-        stem = f"{model.name}-profile"
-        svg = profile_plot(within.levels, cells, rows("mean"), rows("ci_low"), rows("ci_high"),
-                           x_label=within.label, y_label=y_label,
-                           group_label=" \u00d7 ".join(f.label for f in results.factors
-                                                        if f.role == "treatment"), stem=stem)
-        if svg is not None:
-            out[stem] = svg
-    return out
 
 
 def _draw(figures: dict[str, str], stem: str, draw: Callable, source) -> None:
@@ -625,16 +583,21 @@ def _draw_covariate(fit: _CovariateFit) -> Figure | None:
     shown = _thin(fit.x.size)
     px, py, pcodes = fit.x[shown], fit.y[shown], fit.codes[shown]
     dense = shown.size > DENSE_POINTS
+    keys = []  # legend entries: a group's marker and its line's style together
     for g, name in enumerate(fit.group_labels):
         mine = pcodes == g
         if mine.any():
             points = ax.scatter(px[mine], py[mine], s=16, color=level_colour(g),
                                 marker=level_marker(g), edgecolors="#000000",
-                                linewidths=0.3, alpha=0.9, rasterized=dense,
-                                label=_wrap(name, 24), zorder=3)
+                                linewidths=0.3, alpha=0.9, rasterized=dense, zorder=3)
             points.set_gid(f"group-{g}-points")
-    for g in range(len(fit.group_labels)):
-        if not (np.isfinite(fit.slope) and np.isfinite(fit.intercepts[g])):
+        has_line = bool(np.isfinite(fit.slope) and np.isfinite(fit.intercepts[g]))
+        if mine.any() or has_line:
+            keys.append(Line2D([], [], color=level_colour(g), marker=level_marker(g),
+                               markersize=5, markeredgecolor="#000000", markeredgewidth=0.3,
+                               linestyle=level_line_style(g) if has_line else "none",
+                               label=_wrap(name, 24)))
+        if not has_line:
             continue
         # each line spans its own group's covariate range (no extrapolation)
         own = fit.x[fit.codes == g]
@@ -649,7 +612,8 @@ def _draw_covariate(fit: _CovariateFit) -> Figure | None:
     marker.set_gid("covariate-mean")
     ax.set_xlabel(_wrap(fit.x_label, 60))
     ax.set_ylabel(_wrap(fit.y_label))
-    _legend_outside(ax)
+    ax.legend(handles=[*keys, marker], frameon=False, loc="upper left",
+              bbox_to_anchor=(1.01, 1.0), borderaxespad=0)
     return figure
 
 
@@ -663,10 +627,10 @@ def covariate_scatter(x, y, groups, group_labels, slope, intercepts, *, x_label:
     `groups` holds each unit's group code (an index into `group_labels`). `intercepts`
     are each group's fitted value at the covariate value `centre` (default: the mean of
     `x` over the units with both values, so that intercepts are the adjusted means of a
-    centred covariate); None or NaN draws no line
-    for that group, as does a None `slope`. Units with a missing x or y are left out.
-    Beyond `PLOT_POINTS` units the points are a deterministic subsample; the lines and the
-    mean use every unit. None when no unit has both values.
+    centred covariate); None or NaN draws no line for that group, as does a None `slope`.
+    Units with a missing x or y are left out. Beyond `PLOT_POINTS` units the points are a
+    deterministic subsample; the lines and the mean use every unit. None when no unit has
+    both values.
     """
     x = np.array([_number_or_nan(v) for v in x], dtype=float)
     y = np.array([_number_or_nan(v) for v in y], dtype=float)

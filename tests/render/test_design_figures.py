@@ -291,7 +291,9 @@ def test_covariate_scatter_draws_every_unit_and_parallel_lines():
         own = x[codes == g]
         assert (fits[g][1][0] - fits[g][0][0]) / scale == pytest.approx(own.max() - own.min(),
                                                                        rel=1e-4)
-    assert f"Covariate mean = {x.mean():.4g}" in _texts(svg)
+    texts = _texts(svg)
+    assert f"Covariate mean = {x.mean():.4g}" in texts
+    assert {"none", "thin", "thick", "Baseline height (mm)", "Dry mass (g)"} <= set(texts)
     (mean_line,) = _segments(_group(svg, "covariate-covariate-mean"))
     at = mean_line[0][0]
     # at the covariate mean the lines sit at the intercepts 10 < 12 < 14 (y grows downwards)
