@@ -13,8 +13,8 @@ Sources, each named again beside its check (data and printed values: design_case
 Tolerances: a printed value is met to half a unit in its last printed digit
 (`printed_tolerance`); a library value to relative 1e-9.
 
-Every check that a reference library reproduces the printed values runs without the engine,
-so the expected values are checked even before the engine is installed.
+The checks that a reference library reproduces the printed values call no engine code, so
+a failure there points at the expected values or the data copies, not at the engine.
 """
 
 from __future__ import annotations
@@ -32,6 +32,10 @@ import scipy.stats as st
 from scipy.optimize import brentq
 import statsmodels.formula.api as smf
 from statsmodels.stats.anova import anova_lm
+
+from appendix.stats.design import Grid, design_cells
+from appendix.stats.linear import fit_linear
+from appendix.stats.marginal import marginal_means
 
 from tests.reference.design_cases import (
     BLOCK_MEANS,
@@ -254,18 +258,11 @@ def test_unbalanced_two_way_printed_type_1_differs() -> None:
 
 # --- the engine ---------------------------------------------------------------------------
 
-@pytest.fixture(scope="module")
-def engine():
-    """The engine's modules; the engine tests skip until `appendix.stats.linear` exists."""
-    return tuple(pytest.importorskip(f"appendix.stats.{name}") for name in ("design", "linear", "marginal"))
-
-
-def _engine_fit(engine, design: Design, terms: tuple[Term, ...], ss_type: int):
-    design_module, linear, _ = engine
-    grid = design_module.Grid(design.factors, design.levels)
-    cells = design_module.design_cells(grid, design.codes, design.y,
-                                       covariates=design.covariates or None, decimals=design.decimals)
-    return linear.fit_linear(cells, list(terms), ss_type, 0.05)
+def _engine_fit(design: Design, terms: tuple[Term, ...], ss_type: int):
+    grid = Grid(design.factors, design.levels)
+    cells = design_cells(grid, design.codes, design.y, covariates=design.covariates or None,
+                         decimals=design.decimals)
+    return fit_linear(cells, list(terms), ss_type, 0.05)
 
 
 def _row(fit, term: Term):
@@ -275,9 +272,9 @@ def _row(fit, term: Term):
 
 
 @pytest.mark.parametrize("printed", PRINTED_TABLES, ids=_id)
-def test_engine_matches_printed_table(engine, printed: PrintedTable) -> None:
+def test_engine_matches_printed_table(printed: PrintedTable) -> None:
     # Sources: the `source` of each table in design_cases.py; to the printed precision.
-    fit = _engine_fit(engine, DESIGNS[printed.design], printed.terms, printed.ss_type)
+    fit = _engine_fit(DESIGNS[printed.design], printed.terms, printed.ss_type)
     assert fit.ss_type == printed.ss_type
     for expected in printed.rows:
         row = _row(fit, expected.term)
@@ -293,12 +290,12 @@ def test_engine_matches_printed_table(engine, printed: PrintedTable) -> None:
 
 @pytest.mark.parametrize("ss_type", [1, 2, 3])
 @pytest.mark.parametrize(("name", "terms"), MODELS, ids=[f"{n}-{len(t)}terms-{i}" for i, (n, t) in enumerate(MODELS)])
-def test_engine_matches_statsmodels(engine, name: str, terms: tuple[Term, ...], ss_type: int) -> None:
+def test_engine_matches_statsmodels(name: str, terms: tuple[Term, ...], ss_type: int) -> None:
     # Reference: statsmodels 0.15.0 ols(...).fit() + anova_lm(typ=ss_type), sum-to-zero coding;
     # partial eta squared SS/(SS + SS_res); partial omega squared
     # (SS - df MS_res) / (SS + (N - df) MS_res) (Olejnik & Algina 2003, fixed effects; from memory).
     design = DESIGNS[name]
-    fit = _engine_fit(engine, design, terms, ss_type)
+    fit = _engine_fit(design, terms, ss_type)
     reference = _statsmodels_table(design, terms, ss_type)
     residual = reference.loc[[("Residual",)]].iloc[0]
     ms_res = residual["sum_sq"] / residual["df"]
@@ -327,12 +324,12 @@ def test_engine_matches_statsmodels(engine, name: str, terms: tuple[Term, ...], 
 # warning from inside pingouin is ignored here.
 @pytest.mark.filterwarnings("ignore:The inplace keyword in DataFrame.dropna is deprecated:Warning")
 @pytest.mark.parametrize("ss_type", [1, 2, 3])
-def test_engine_balanced_two_way_matches_pingouin(engine, ss_type: int) -> None:
+def test_engine_balanced_two_way_matches_pingouin(ss_type: int) -> None:
     # Reference: pingouin 0.7.0 pingouin.anova on its "anova2" dataset; balanced two-way
     # designs take pingouin's own pandas code (not statsmodels), a second library.
     design = DESIGNS["anova2"]
     reference = pingouin.anova(data=design.frame(), dv="y", between=["Blend", "Crop"], ss_type=ss_type)
-    fit = _engine_fit(engine, design, TWO_WAY_TERMS["anova2"], ss_type)
+    fit = _engine_fit(design, TWO_WAY_TERMS["anova2"], ss_type)
     sources = {"Blend": ("Blend",), "Crop": ("Crop",), "Blend * Crop": ("Blend", "Crop")}
     for _, ref in reference.iterrows():
         if ref["Source"] == "Residual":
@@ -347,22 +344,21 @@ def test_engine_balanced_two_way_matches_pingouin(engine, ss_type: int) -> None:
         assert row.partial_eta_squared == pytest.approx(ref["np2"], rel=REL)
 
 
-def _engine_means(engine, design: Design, terms: tuple[Term, ...], factors: Term) -> dict:
-    _, _, marginal = engine
-    fit = _engine_fit(engine, design, terms, 3)
-    means = marginal.marginal_means(fit, factors, CONFIDENCE)
+def _engine_means(design: Design, terms: tuple[Term, ...], factors: Term) -> dict:
+    fit = _engine_fit(design, terms, 3)
+    means = marginal_means(fit, factors, CONFIDENCE)
     return {tuple(m.levels): m for m in means}
 
 
 @pytest.mark.parametrize(("name", "terms", "factors"), MEANS,
                          ids=[f"{n}-{'x'.join(f)}-{i}" for i, (n, _, f) in enumerate(MEANS)])
-def test_engine_marginal_means_match_statsmodels(engine, name: str, terms: tuple[Term, ...],
+def test_engine_marginal_means_match_statsmodels(name: str, terms: tuple[Term, ...],
                                                  factors: Term) -> None:
     # Reference: statsmodels 0.15.0 params and cov_params with L built by hand
     # (`_statsmodels_marginal_means`); t quantile from scipy.
     design = DESIGNS[name]
     reference = _statsmodels_marginal_means(design, terms, factors)
-    means = _engine_means(engine, design, terms, factors)
+    means = _engine_means(design, terms, factors)
     assert set(means) == set(reference)
     for levels, (estimate, se, low, high) in reference.items():
         m = means[levels]
@@ -374,14 +370,14 @@ def test_engine_marginal_means_match_statsmodels(engine, name: str, terms: tuple
 
 
 @pytest.mark.parametrize("printed", PRINTED_MEANS, ids=_id)
-def test_engine_marginal_means_match_printed(engine, printed: PrintedMeans) -> None:
+def test_engine_marginal_means_match_printed(printed: PrintedMeans) -> None:
     # Sources: Montgomery (from memory), named in design_cases.py; to the printed precision.
-    means = _engine_means(engine, DESIGNS[printed.design], printed.terms, printed.factors)
+    means = _engine_means(DESIGNS[printed.design], printed.terms, printed.factors)
     for levels, text in printed.means.items():
         assert _within_print(means[levels].estimate, text), (levels, means[levels].estimate, text)
 
 
-def test_engine_unbalanced_means_are_unweighted_cell_means(engine) -> None:
+def test_engine_unbalanced_means_are_unweighted_cell_means() -> None:
     # Reference: pandas 3 cell means of pingouin's "anova2_unbalanced"; with the interaction in
     # the model the marginal mean of a Diet level is the plain average of its two cell means
     # (the "unweighted means" of the dataset's origin, onlinestatbook.com "unequal" chapter),
@@ -389,7 +385,7 @@ def test_engine_unbalanced_means_are_unweighted_cell_means(engine) -> None:
     design = DESIGNS["anova2_unbalanced"]
     frame = design.frame()
     cell_means = frame.groupby(["Diet", "Exercise"])["y"].mean()
-    means = _engine_means(engine, design, TWO_WAY_TERMS["anova2_unbalanced"], ("Diet",))
+    means = _engine_means(design, TWO_WAY_TERMS["anova2_unbalanced"], ("Diet",))
     for diet in design.levels[0]:
         unweighted = cell_means.loc[diet].mean()
         assert means[(diet,)].estimate == pytest.approx(unweighted, rel=REL)
@@ -407,11 +403,11 @@ def _scipy_noncentrality_bound(f: float, df1: int, df2: int, upper_tail: float) 
     ("kidney-less-3", KIDNEY_TERMS, 3), ("anova3_unbalanced", THREE_WAY_TERMS, 2),
     ("ancova", (("Income",), ("Method",)), 2),
 ])
-def test_engine_partial_eta_interval_inverts_scipy_noncentral_f(engine, name, terms, ss_type) -> None:
+def test_engine_partial_eta_interval_inverts_scipy_noncentral_f(name, terms, ss_type) -> None:
     # Reference: scipy 1.17 stats.ncf inverted here with brentq; interval at 1 - 2 alpha = 90 %
     # and partial eta = lambda / (lambda + df1 + df2 + 1) (Steiger 2004, Psychological Methods
     # 9:164-182, from memory). Tolerance 1e-7 absolute: two root finders' stopping rules.
-    fit = _engine_fit(engine, DESIGNS[name], terms, ss_type)
+    fit = _engine_fit(DESIGNS[name], terms, ss_type)
     for row in fit.terms:
         bounds = [_scipy_noncentrality_bound(row.f, row.df, fit.residual_df, tail) for tail in (0.05, 0.95)]
         expected = [lam / (lam + row.df + fit.residual_df + 1) for lam in bounds]
