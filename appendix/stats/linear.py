@@ -67,6 +67,9 @@ ESTIMABLE_TOLERANCE = 1e-8
 """A linear function is estimable when its part outside the row space is below this
 fraction of its length (in the scaled coordinates)."""
 
+ZERO_RESIDUAL = 1e-13
+"""A residual SS at or below this fraction of the total SS is rounding: no variation."""
+
 SS_TYPES = (1, 2, 3)
 
 
@@ -404,12 +407,12 @@ def _residual(problem: _Problem, full: _Space, n: int) -> tuple[_Residual, list[
             "no-residual-df",
             "The model leaves no residual degrees of freedom, so no F test, p-value or "
             "standard error can be computed."))
-    elif ss <= 0.0:
+    elif ss <= ZERO_RESIDUAL * problem.total_ss:
         ms = 0.0
         warnings.append(StatWarning(
             "zero-residual-variance",
-            "The residuals are all zero (no variation within the model), so the F ratios "
-            "are undefined."))
+            "The residual sum of squares is zero up to rounding (the model leaves no "
+            "variation), so the F ratios are undefined."))
     else:
         ms = ss / df
     return _Residual(df, ss, ms, n), warnings
