@@ -34,7 +34,7 @@ import statsmodels.formula.api as smf
 from statsmodels.stats.anova import anova_lm
 
 from appendix.stats.design import Grid, design_cells
-from appendix.stats.linear import fit_linear
+from appendix.stats.linear import fit_linear, slopes_homogeneity
 from appendix.stats.marginal import marginal_means
 
 from tests.reference.design_cases import (
@@ -258,11 +258,13 @@ def test_unbalanced_two_way_printed_type_1_differs() -> None:
 
 # --- the engine ---------------------------------------------------------------------------
 
+def _engine_cells(design: Design):
+    return design_cells(Grid(design.factors, design.levels), design.codes, design.y,
+                        covariates=design.covariates or None, decimals=design.decimals)
+
+
 def _engine_fit(design: Design, terms: tuple[Term, ...], ss_type: int):
-    grid = Grid(design.factors, design.levels)
-    cells = design_cells(grid, design.codes, design.y, covariates=design.covariates or None,
-                         decimals=design.decimals)
-    return fit_linear(cells, list(terms), ss_type, 0.05)
+    return fit_linear(_engine_cells(design), list(terms), ss_type, 0.05)
 
 
 def _row(fit, term: Term):
@@ -412,3 +414,22 @@ def test_engine_partial_eta_interval_inverts_scipy_noncentral_f(name, terms, ss_
         bounds = [_scipy_noncentrality_bound(row.f, row.df, fit.residual_df, tail) for tail in (0.05, 0.95)]
         expected = [lam / (lam + row.df + fit.residual_df + 1) for lam in bounds]
         assert row.partial_eta_ci == pytest.approx(expected, abs=1e-7), row.term
+
+
+@pytest.mark.parametrize(("name", "terms", "covariate", "factor"), [
+    ("fiber", (("Diameter",), ("Machine",)), "Diameter", "Machine"),
+    ("ancova", (("Income",), ("Method",)), "Income", "Method"),
+    ("ancova", (("Income",), ("BMI",), ("Method",)), "BMI", "Method"),
+])
+def test_engine_slopes_homogeneity_matches_statsmodels(name, terms, covariate, factor) -> None:
+    # Reference: statsmodels 0.15.0 anova_lm(equal-slopes model, model + covariate x factor),
+    # the extra-sum-of-squares F test of parallel slopes.
+    design = DESIGNS[name]
+    row = slopes_homogeneity(_engine_cells(design), list(terms), covariate, (factor,), 0.05)
+    equal = _statsmodels_fit(design, terms)
+    separate = _statsmodels_fit(design, (*terms, (factor, covariate)))
+    step = anova_lm(equal, separate).iloc[1]
+    assert row.df == step["df_diff"]
+    assert row.ss == pytest.approx(step["ss_diff"], rel=REL)
+    assert row.f == pytest.approx(step["F"], rel=REL)
+    assert row.p == pytest.approx(step["Pr(>F)"], rel=REL)
