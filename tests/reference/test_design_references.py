@@ -8,10 +8,16 @@ Sources, each named again beside its check (data and printed values: design_case
   randomized complete block examples and one covariance example, from memory.
 - Reference libraries at full precision: statsmodels 0.15.0 (ols + anova_lm, and estimated
   marginal means built here from its params and cov_params), pingouin 0.7.0's own balanced
-  two-way code, pandas 3 (cell and level means).
+  two-way code, pandas 3 (cell and level means), scipy 1.17 (noncentral F inverted here for
+  the partial eta squared intervals).
 
 Tolerances: a printed value is met to half a unit in its last printed digit
-(`printed_tolerance`); a library value to relative 1e-9.
+(`printed_tolerance`); a library value to relative 1e-9 (the interval bounds, found by two
+different root finders, to 1e-7 absolute).
+
+These checks concern software only: statistical output is not a clinical or regulatory
+decision; defer to local regulations, a qualified, licensed statistician and the study's
+own governance.
 
 The checks that a reference library reproduces the printed values call no engine code, so
 a failure there points at the expected values or the data copies, not at the engine.
