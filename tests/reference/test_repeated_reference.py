@@ -102,6 +102,20 @@ def _check_mixed(fit, aov: pd.DataFrame) -> None:
     assert _error(fit, "between").df == aov.iloc[0]["DF2"]
     assert _error(fit, "within").df == aov.iloc[1]["DF2"]
     _close(fit.sphericity.greenhouse_geisser, aov.iloc[1]["eps"])
+    if "W_spher" in aov and fit.sphericity.mauchly_w is not None:
+        _close(fit.sphericity.mauchly_w, aov.iloc[1]["W_spher"])
+        _check_mauchly_p(fit.sphericity, aov.iloc[1]["p_spher"], _error(fit, "between").df)
+
+
+def _mixed_against_pingouin(frame: pd.DataFrame, dv: str, within: str, subject: str,
+                            between: str):
+    """Our fit and pingouin.mixed_anova(correction=True) on one frame, compared."""
+    data, fit = _fit(frame, dv, within, subject, between)
+    aov = pg.mixed_anova(frame, dv=dv, within=within, between=between, subject=subject,
+                         correction=True)
+    _check_mixed(fit, aov)
+    assert (fit.sphericity.mauchly_w is None) == (len(fit.within_levels) == 2)
+    return data, fit, aov
 
 
 # --- pingouin's shipped datasets --------------------------------------------------------
@@ -109,13 +123,8 @@ def _check_mixed(fit, aov: pd.DataFrame) -> None:
 
 def test_mixed_dataset_against_pingouin_mixed_anova():
     # pingouin dataset mixed_anova (2 groups x 30 units, 3 time points), pingouin.mixed_anova.
-    frame = pg.read_dataset("mixed_anova")
-    data, fit = _fit(frame, "Scores", "Time", "Subject", "Group")
-    aov = pg.mixed_anova(frame, dv="Scores", within="Time", between="Group", subject="Subject",
-                         correction=True)
-    _check_mixed(fit, aov)
-    _close(fit.sphericity.mauchly_w, aov.iloc[1]["W_spher"])
-    _close(fit.sphericity.p, aov.iloc[1]["p_spher"])  # d = 2: no second-order term at all
+    data, fit, _ = _mixed_against_pingouin(pg.read_dataset("mixed_anova"), "Scores", "Time",
+                                        "Subject", "Group")
     assert fit.n_units == 60 and data.dropped == ()
 
 
@@ -135,13 +144,10 @@ def test_mixed_dataset_rounded_values_in_pingouin_docstring():
 
 def test_unbalanced_mixed_dataset_against_pingouin():
     # pingouin dataset mixed_anova_unbalanced (groups of 7, 10 and 9 units, 4 time points).
-    frame = pg.read_dataset("mixed_anova_unbalanced")
-    _, fit = _fit(frame, "Scores", "Time", "Subject", "Group")
-    aov = pg.mixed_anova(frame, dv="Scores", within="Time", between="Group", subject="Subject",
-                         correction=True)
-    _check_mixed(fit, aov)
-    _close(fit.sphericity.mauchly_w, aov.iloc[1]["W_spher"])
-    _check_mauchly_p(fit.sphericity, aov.iloc[1]["p_spher"], fit.n_units - 3)
+    # Unequal group sizes: the within factor is averaged over all units, as pingouin does.
+    _, fit, _ = _mixed_against_pingouin(pg.read_dataset("mixed_anova_unbalanced"), "Scores",
+                                     "Time", "Subject", "Group")
+    assert [len(r.term) for r in fit.rows] == [1, 1, 1, 2, 2]
 
 
 def _insect_frame() -> pd.DataFrame:
@@ -195,13 +201,8 @@ def test_insect_dataset_sphericity_and_epsilons():
 
 def test_insect_dataset_mixed_by_gender_against_pingouin():
     # The same four cells with Gender between (4 subjects have no Gender and are dropped).
-    frame = _insect_frame()
-    data, fit = _fit(frame, "DesireToKill", "cell", "Subject", "Gender")
-    aov = pg.mixed_anova(frame, dv="DesireToKill", within="cell", between="Gender",
-                         subject="Subject", correction=True)
-    _check_mixed(fit, aov)
-    _close(fit.sphericity.mauchly_w, aov.iloc[1]["W_spher"])
-    _check_mauchly_p(fit.sphericity, aov.iloc[1]["p_spher"], fit.n_units - 2)
+    data, fit, _ = _mixed_against_pingouin(_insect_frame(), "DesireToKill", "cell", "Subject",
+                                        "Gender")
     assert any(reason.startswith("no group") for _, reason in data.dropped)
 
 
@@ -335,25 +336,16 @@ def test_random_designs_against_pingouin_and_statsmodels(seed):
             ref = pg.sphericity(frame, dv="y", within="level", subject="unit")
             mauchly = (ref.W, ref.pval)
     else:
-        data, fit = _fit(frame, "y", "level", "unit", "group")
-        aov = pg.mixed_anova(frame, dv="y", within="level", between="group", subject="unit",
-                             correction=True)
-        _check_mixed(fit, aov)
-        eps = {"gg": aov.iloc[1]["eps"], "lb": 1 / d,
+        data, fit, aov = _mixed_against_pingouin(frame, "y", "level", "unit", "group")
+        eps = {"gg": aov.iloc[1]["eps"] if d > 1 else 1.0, "lb": 1 / d,
                "hf": _lecoutre_reference(data) if d > 1 else 1.0}
-        if d > 1:
-            mauchly = (aov.iloc[1]["W_spher"], aov.iloc[1]["p_spher"])
     s = fit.sphericity
     _close(s.greenhouse_geisser, eps["gg"])
     _close(s.lower_bound, eps["lb"])
-    if s.huynh_feldt is not None:
-        _close(s.huynh_feldt, eps["hf"])
-    nu = fit.n_units - n_groups
-    if d > 1 and nu >= d:
+    _close(s.huynh_feldt, eps["hf"])
+    if n_groups == 1 and d > 1:
         _close(s.mauchly_w, mauchly[0])
-        _check_mauchly_p(s, mauchly[1], nu)
-    elif d > 1:
-        assert s.mauchly_w is None and s.p is None
+        _check_mauchly_p(s, mauchly[1], fit.n_units - 1)
     between_error, within_error = _error(fit, "between").df, _error(fit, "within").df
     for row in fit.rows:
         if row.kind != "error" and row.f is not None:
