@@ -28,7 +28,7 @@ from appendix.results import StatWarning
 from appendix.stats.contrasts import ALTERNATIVES, critical_value, interval, p_value
 from appendix.stats.descriptives import check_confidence
 from appendix.stats.effect_sizes import noncentrality_interval
-from appendix.stats.sphericity import Sphericity, sphericity
+from appendix.stats.sphericity import Sphericity, centred, sphericity
 
 __all__ = [
     "CompleteUnits", "LevelMean", "RepeatedFit", "RepeatedRow", "Sphericity", "WithinContrast",
@@ -233,6 +233,8 @@ def _strata(y: np.ndarray, codes: np.ndarray) -> _Strata:
     n_units, levels = y.shape
     if n_units == 0:
         return _Strata(0.0, 0.0, 0.0, 0.0, 0.0, 0, 0, levels, 0.0)
+    scale = float(np.max(np.abs(y)))
+    y, _ = centred(y)
     unit_mean = y.mean(axis=1)
     grand = unit_mean.mean()
     r = y - unit_mean[:, None]
@@ -249,7 +251,6 @@ def _strata(y: np.ndarray, codes: np.ndarray) -> _Strata:
         ss_interaction += n_j * float(np.sum((cell_dev - level_dev) ** 2))
         ss_error += float(np.sum((r[rows] - cell_dev) ** 2))
     ss_within = n_units * float(np.sum(level_dev**2))
-    scale = float(np.max(np.abs(y)))
     noise = y.size * (64.0 * np.finfo(float).eps * scale) ** 2
     return _Strata(float(ss_between), ss_units, ss_within, ss_interaction, ss_error,
                    n_units, int(occupied.size), levels, noise)
@@ -469,8 +470,10 @@ def _scores(data: CompleteUnits, group: int | None) -> tuple[np.ndarray, np.ndar
     return y[rows], np.zeros(int(rows.sum()), dtype=np.intp)
 
 
-def _summarise(scores: np.ndarray, codes: np.ndarray, scale: float) -> _ScoreSummary:
-    """Mean of `scores` and its SE from their variance pooled within groups, df n - g.
+def _summarise(scores: np.ndarray, codes: np.ndarray, scale: float,
+               offset: float) -> _ScoreSummary:
+    """Mean of `scores` + `offset` and its SE from their variance pooled within groups,
+    df n - g (`scores` come from centred data; `offset` puts the shift back).
 
     With group sizes n_j the mean over all units is sum_j n_j m_j / n, whose variance is
     sigma^2 / n when the group means are fixed effects (the groups are part of the
@@ -486,7 +489,7 @@ def _summarise(scores: np.ndarray, codes: np.ndarray, scale: float) -> _ScoreSum
         part = scores[codes == code]
         ssd += float(np.sum((part - part.mean()) ** 2))
     df = n - int(occupied.size)
-    mean = float(scores.mean())
+    mean = float(scores.mean()) + offset
     if df <= 0:
         return _ScoreSummary(n, mean, None, 0, StatWarning(
             "single-unit", "A single unit (per group) gives no estimate of variation, so "
@@ -520,7 +523,8 @@ def within_contrast(data: CompleteUnits, weights: Sequence[float], *, group: int
         raise InternalError("a within contrast needs at least one nonzero weight")
     y, codes = _scores(data, group)
     scale = float(np.max(np.abs(y))) * float(np.sum(np.abs(w))) if y.size else 0.0
-    s = _summarise(y @ w, codes, scale)
+    y, shift = centred(y)
+    s = _summarise(y @ w, codes, scale, shift * float(w.sum()))
     weights_out = tuple(float(v) for v in w)
     if s.se is None:
         return WithinContrast(weights_out, s.mean, None, s.df, None, None, alternative, None,
@@ -547,9 +551,10 @@ def within_means(data: CompleteUnits, confidence: float,
     confidence = check_confidence(confidence)
     y, codes = _scores(data, group)
     scale = float(np.max(np.abs(y))) if y.size else 0.0
+    y, shift = centred(y)
     means = []
     for level in range(y.shape[1]):
-        s = _summarise(y[:, level], codes, scale)
+        s = _summarise(y[:, level], codes, scale, shift)
         low = high = None
         if s.se is not None:
             low, high = interval(s.mean, s.se,

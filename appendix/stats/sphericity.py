@@ -16,7 +16,7 @@ from scipy import stats as _st
 
 from appendix.results import StatWarning
 
-__all__ = ["Sphericity", "helmert_contrasts", "sphericity"]
+__all__ = ["Sphericity", "centred", "helmert_contrasts", "sphericity"]
 
 
 @dataclass(frozen=True)
@@ -37,6 +37,17 @@ class Sphericity:
     huynh_feldt: float | None
     lower_bound: float
     warnings: tuple[StatWarning, ...] = ()
+
+
+def centred(y: np.ndarray) -> tuple[np.ndarray, float]:
+    """`y` minus its overall mean, and that mean.
+
+    Every later mean and deviation is then taken on values near zero, so a large common
+    offset costs no digits (values within a factor of two of the shift are subtracted
+    exactly, Sterbenz 1974).
+    """
+    shift = float(np.mean(y)) if y.size else 0.0
+    return y - shift, shift
 
 
 def helmert_contrasts(levels: int) -> np.ndarray:
@@ -66,6 +77,7 @@ def contrast_eigenvalues(y: np.ndarray,
     df = y.shape[0] - occupied.size
     if df <= 0:
         return np.zeros(0), max(df, 0), occupied.size
+    y, _ = centred(y)
     residual = np.empty_like(y)
     for code in occupied:
         rows = codes == code

@@ -124,7 +124,7 @@ def _mixed_against_pingouin(frame: pd.DataFrame, dv: str, within: str, subject: 
 def test_mixed_dataset_against_pingouin_mixed_anova():
     # pingouin dataset mixed_anova (2 groups x 30 units, 3 time points), pingouin.mixed_anova.
     data, fit, _ = _mixed_against_pingouin(pg.read_dataset("mixed_anova"), "Scores", "Time",
-                                        "Subject", "Group")
+                                           "Subject", "Group")
     assert fit.n_units == 60 and data.dropped == ()
 
 
@@ -146,7 +146,7 @@ def test_unbalanced_mixed_dataset_against_pingouin():
     # pingouin dataset mixed_anova_unbalanced (groups of 7, 10 and 9 units, 4 time points).
     # Unequal group sizes: the within factor is averaged over all units, as pingouin does.
     _, fit, _ = _mixed_against_pingouin(pg.read_dataset("mixed_anova_unbalanced"), "Scores",
-                                     "Time", "Subject", "Group")
+                                        "Time", "Subject", "Group")
     assert [len(r.term) for r in fit.rows] == [1, 1, 1, 2, 2]
 
 
@@ -202,7 +202,7 @@ def test_insect_dataset_sphericity_and_epsilons():
 def test_insect_dataset_mixed_by_gender_against_pingouin():
     # The same four cells with Gender between (4 subjects have no Gender and are dropped).
     data, fit, _ = _mixed_against_pingouin(_insect_frame(), "DesireToKill", "cell", "Subject",
-                                        "Gender")
+                                           "Gender")
     assert any(reason.startswith("no group") for _, reason in data.dropped)
 
 
