@@ -290,11 +290,12 @@ def repeated_measures(data: CompleteUnits, within: str, within_levels: Sequence[
     spher = sphericity(y, codes)
     d = strata.levels - 1
     df_units = max(strata.n_units - strata.n_groups, 0)
+    df_groups = max(strata.n_groups - 1, 0)
     within_error = (strata.ss_error, d * df_units)
     rows = []
     if between is not None:
         rows.append(_effect_row((between,), between, "between", strata.ss_between,
-                                strata.n_groups - 1, (strata.ss_units, df_units), strata,
+                                df_groups, (strata.ss_units, df_units), strata,
                                 None, confidence))
     rows.append(_error_row(("units",), "Error between units", strata.ss_units, df_units,
                            confidence))
@@ -302,7 +303,7 @@ def repeated_measures(data: CompleteUnits, within: str, within_levels: Sequence[
                             strata, spher, confidence))
     if between is not None:
         rows.append(_effect_row((within, between), f"{within} x {between}", "within",
-                                strata.ss_interaction, d * (strata.n_groups - 1), within_error,
+                                strata.ss_interaction, d * df_groups, within_error,
                                 strata, spher, confidence))
     rows.append(_error_row((within, "units"), "Error within units", strata.ss_error,
                            d * df_units, confidence))
@@ -506,8 +507,8 @@ def within_contrast(data: CompleteUnits, weights: Sequence[float], *, group: int
     """One-sample t test of the units' contrast scores s_i = sum_l w_l y_il.
 
     Each unit's own score carries its own error, so the test needs no sphericity
-    (Maxwell & Delaney 2004, *Designing Experiments and Analyzing Data*, 2nd ed., chs. 11
-    and 13: the separate-variance test of a within contrast). Without groups: t on n - 1
+    (Maxwell & Delaney 2004, *Designing Experiments and Analyzing Data*, 2nd ed., chs.
+    11-14: the separate-variance test of a within contrast). Without groups: t on n - 1
     df. In a mixed design the mean over all units is tested with the scores' variance
     pooled within groups, on N - g df. `group` restricts the data to that group's units
     (a simple effect), then t on n_group - 1 df from that group's scores alone, with no

@@ -4,6 +4,11 @@ Everything is computed from the pooled within-group covariance of orthonormal co
 among the m within levels, M = C' S C (C is m x d, d = m - 1, C'C = I, C'1 = 0): each
 unit's row minus its group's mean row, projected on C. M's eigenvalues do not depend on
 which orthonormal C is used; normalised Helmert contrasts are used here.
+
+Sources: Mauchly (1940, Ann Math Stat 11:204-209); Box (1949, Biometrika 36:317-346;
+1954, Ann Math Stat 25:290-302); Greenhouse & Geisser (1959, Psychometrika 24:95-112);
+Huynh & Feldt (1976, J Educ Stat 1:69-82); Lecoutre (1991, J Educ Stat 16:371-372);
+Anderson (2003, *An Introduction to Multivariate Statistical Analysis*, 3rd ed.).
 """
 
 from __future__ import annotations

@@ -259,6 +259,18 @@ def test_fewer_units_than_levels_leave_mauchly_undefined(strict):
     assert fit.rows[1].f is not None
 
 
+def test_two_units_at_three_levels_leave_huynh_feldt_undefined(strict):
+    # N - 1 = 1 residual df, d = 2: d (N - 1 - d eps_GG) <= 0 since eps_GG >= 1/2.
+    fit = repeated_measures(_units(np.array([[1.0, 4.0, 2.0], [2.0, 3.5, 5.0]])), "t",
+                            ["a", "b", "c"])
+    s = fit.sphericity
+    assert s.huynh_feldt is None and s.mauchly_w is None
+    assert [w.code for w in s.warnings] == ["huynh-feldt-undefined", "mauchly-too-few-units"]
+    within = fit.rows[1]
+    assert within.hf_df is None and within.hf_p is None
+    assert within.gg_p is not None and within.f is not None
+
+
 def test_singular_contrast_covariance_gives_w_zero(strict):
     # The quadratic contrast y0 - 2 y1 + y2 is 0 for every unit: M is singular.
     rng = np.random.default_rng(8)
