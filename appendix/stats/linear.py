@@ -44,6 +44,10 @@ of F(df_t, df_res) at confidence 1 - 2 alpha (Steiger 2004, Psychological Method
 omega^2 are two estimates of one population quantity, the proportion
 sigma^2_t / (sigma^2_t + sigma^2_error), and Steiger's interval covers that quantity,
 so both report the same interval.
+
+Output of this module is statistical evidence, not a clinical or regulatory decision;
+the study's own governance, local regulations and a qualified, licensed statistician
+decide how it is used.
 """
 
 from __future__ import annotations
@@ -375,6 +379,9 @@ def _term_row(term: Term, kind: str, df: int, ss: float, full_df: int, residual:
         return empty
     ms = ss / df
     if residual.ms is None or residual.ms == 0.0:
+        why = "no residual degrees of freedom" if residual.ms is None else "no residual variation"
+        warnings.append(StatWarning(
+            "f-undefined", f"The F ratio of {label} is undefined: the model leaves {why}."))
         return TermRow(term, label, kind, df, ss, ms, None, None, None, None, None, None,
                        confidence, full_df, tuple(warnings))
     f = ms / residual.ms

@@ -237,6 +237,8 @@ def test_a_saturated_model_with_one_unit_per_cell_has_no_residual_df() -> None:
     assert fit.residual_df == 0 and fit.residual_ms is None
     assert [r.df for r in fit.terms] == [1, 2, 2]
     assert all(r.f is None and r.p is None and r.partial_eta_squared is None for r in fit.terms)
+    assert all(r.warnings[-1].message == f"The F ratio of {r.label} is undefined: the model "
+               "leaves no residual degrees of freedom." for r in fit.terms)
     assert any(w.code == "no-residual-df" for w in fit.warnings)
     # Without the interaction the same rows leave 2 residual df (6 cells - 4 columns).
     additive = fit_linear(design_cells(grid_of(2, 3), codes, y), [A, B], 3, 0.05)
@@ -250,6 +252,7 @@ def test_zero_within_cell_variation_gives_no_f() -> None:
     fit = fit_linear(design_cells(grid_of(2, 2), codes, y), [A, B, AB], 2, 0.05)
     assert fit.residual_ss == pytest.approx(0.0, abs=1e-20) and fit.residual_ms == 0.0
     assert all(r.ss is not None and r.f is None and r.p is None for r in fit.terms)
+    assert all(r.warnings[-1].code == "f-undefined" for r in fit.terms)
     assert any(w.code == "zero-residual-variance" for w in fit.warnings)
 
 
