@@ -286,3 +286,19 @@ def test_ss_type_and_alpha_are_checked() -> None:
         fit_linear(cells, [A], 4, 0.05)
     with pytest.raises(ValueError, match="alpha must lie strictly between 0 and 0.5"):
         fit_linear(cells, [A], 1, 0.5)
+
+
+def test_a_large_common_offset_costs_no_digits() -> None:
+    # Invented dyadic values (integers / 64) on offsets of 1e9 (y) and 1e6 (x): the offsets
+    # subtract exactly, so statsmodels on the shifted rows is the reference for our fit on
+    # the raw ones (the difficulty NIST StRD's SmLs07-09 pose, from memory).
+    rng = np.random.default_rng(15)
+    codes, _, _, frame = invented((3, 2), seed=15)
+    small_y = rng.integers(0, 640, size=len(frame)) / 64.0 + 2.0 * codes[0]
+    small_x = rng.integers(0, 320, size=len(frame)) / 64.0
+    frame["y"], frame["x"] = small_y, small_x
+    cells = design_cells(grid_of(3, 2), codes, small_y + 1e9, {"x": small_x + 1e6})
+    fit = fit_linear(cells, [A, B, AB, ("x",)], 3, 0.05)
+    table = anova_lm(smf.ols("y ~ C(A, Sum) * C(B, Sum) + x", data=frame).fit(), typ=3)
+    assert [r.ss for r in fit.terms] == pytest.approx(table["sum_sq"].iloc[1:5].tolist(), rel=RELATIVE)
+    assert fit.residual_ss == pytest.approx(table.loc["Residual", "sum_sq"], rel=RELATIVE)
