@@ -235,8 +235,9 @@ def test_wide_dataset_value_in_pingouin_docstring():
 
 def test_epsilon_values_in_pingouin_docstring():
     # pingouin/distribution.py epsilon docstring: columns A, B, C give lb 0.50, gg 0.56,
-    # hf 0.62 (2 decimals); the docstring's rm_anova2 example: Metric epsilon 0.969 (3
-    # decimals; pingouin first averages each subject's two Time values per Metric).
+    # hf 0.62 (2 decimals); its sphericity docstring, same data: W 0.21, chi-square 4.677,
+    # df 2, p 0.096 (3 decimals); the epsilon docstring's rm_anova2 example: Metric
+    # epsilon 0.969 (pingouin first averages each subject's two Time values per Metric).
     wide = pd.DataFrame({"A": [2.2, 3.1, 4.3, 4.1, 7.2], "B": [1.1, 2.5, 4.1, 5.2, 6.4],
                          "C": [8.2, 4.5, 3.4, 6.2, 7.2]})
     long = wide.reset_index(names="unit").melt(id_vars="unit", var_name="c", value_name="y")
@@ -244,6 +245,8 @@ def test_epsilon_values_in_pingouin_docstring():
     s = fit.sphericity
     assert [f"{v:.2f}" for v in (s.lower_bound, s.greenhouse_geisser, s.huynh_feldt)] == [
         "0.50", "0.56", "0.62"]
+    assert (round(s.mauchly_w, 3), round(s.chi_square, 3), s.df, round(s.p, 3)) == (
+        0.21, 4.677, 2, 0.096)
     perf = pg.read_dataset("rm_anova2").groupby(["Subject", "Metric"], as_index=False)[
         "Performance"].mean()
     _, fit = _fit(perf, "Performance", "Metric", "Subject")
@@ -269,6 +272,33 @@ def test_statsmodels_published_single_factor_value():
 
 
 # --- invented random designs ------------------------------------------------------------
+
+
+@settings(max_examples=60, deadline=None)
+@given(hs.integers(min_value=0, max_value=2**32 - 1))
+def test_random_long_data_against_a_pandas_pivot(seed):
+    # pandas pivot (one column per level) then dropna is the complete-units rule.
+    rng = np.random.default_rng(seed)
+    levels, n_units = int(rng.integers(2, 6)), int(rng.integers(1, 15))
+    frame = pd.DataFrame({"unit": np.repeat([f"p{i:02d}" for i in rng.permutation(n_units)],
+                                            levels),
+                          "level": np.tile(np.arange(levels), n_units),
+                          "y": rng.normal(size=n_units * levels)})
+    frame.loc[rng.random(len(frame)) < 0.15, "y"] = np.nan
+    frame = frame.drop(index=frame.index[rng.random(len(frame)) < 0.1])
+    frame = frame.sample(frac=1.0, random_state=int(rng.integers(2**31)))
+    data = complete_units(frame["unit"].tolist(), frame["level"].to_numpy(),
+                          frame["y"].to_numpy(), levels)
+    wide = frame.pivot(index="unit", columns="level", values="y").reindex(
+        columns=range(levels))
+    complete = wide.dropna()
+    first_seen = list(dict.fromkeys(frame["unit"]))
+    assert data.units == tuple(u for u in first_seen if u in complete.index)
+    np.testing.assert_array_equal(data.y, complete.loc[list(data.units)].to_numpy())
+    assert [u for u, _ in data.dropped] == [u for u in first_seen if u not in complete.index]
+    for unit, reason in data.dropped:
+        absent = [f"level {c + 1}" for c in range(levels) if pd.isna(wide.loc[unit, c])]
+        assert reason == "no value at " + ", ".join(absent)
 
 
 def _design(seed: int):
