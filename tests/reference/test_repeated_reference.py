@@ -73,7 +73,8 @@ def _w2(d: int, nu: int, k: int) -> float:
     by (w2(d) - w2(d + 1)) (P(chi2_{f+4} > x) - P(chi2_f > x)); zero when d = 2.
     """
     rho = 1 - (2 * d**2 + d + 2) / (6 * d * nu)
-    return (d + 2) * (d - 1) * (d - 2) * (2 * d**3 + 6 * d**2 + 3 * k + 2) / (288 * (nu * d * rho) ** 2)
+    return ((d + 2) * (d - 1) * (d - 2) * (2 * d**3 + 6 * d**2 + 3 * k + 2)
+            / (288 * (nu * d * rho) ** 2))
 
 
 def _check_mauchly_p(spher, pg_p: float, nu: int) -> None:
