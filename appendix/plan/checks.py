@@ -10,6 +10,7 @@ from __future__ import annotations
 from collections.abc import Iterator, Mapping
 
 from appendix.plan.contrast_checks import contrast_problems
+from appendix.plan.design_checks import design_problems
 from appendix.plan.raw import Found, items as _items, mapping as _mapping, repeats
 from appendix.plan.raw import text as _text, texts, unique
 from appendix.plan.wording import Loc, did_you_mean, one_of, show
@@ -30,6 +31,7 @@ def consistency_problems(raw: object) -> list[Found]:
         found += _factor_levels(("design", "factors", i), factor)
     found += unique([(("outcomes",), raw.get("outcomes"))], "name", "outcome names")
     found += unique([(("data", "exclusions"), data.get("exclusions"))], "id", "exclusion ids")
+    found += design_problems(raw)
     found += _column_roles(raw, data, factors)
     found += contrast_problems(raw)
     return found
@@ -56,6 +58,8 @@ def _factor_levels(loc: Loc, factor: Mapping) -> list[Found]:
     found = repeats((*loc, "levels"), levels, "each level must be named once")
     names = list(dict.fromkeys(texts(levels)))
     control = _text(factor.get("control"))
+    if factor.get("role") == "block":
+        return found  # a control on a block is itself the problem (design_checks)
     if control is not None and names and control not in names:
         found.append(((*loc, "control"),
                       f"got {show(control)}; allowed: one of the levels {one_of(names)}"
@@ -63,16 +67,17 @@ def _factor_levels(loc: Loc, factor: Mapping) -> list[Found]:
     return found
 
 
-def _outcome_columns(raw: Mapping) -> Iterator[tuple[Loc, str]]:
-    for i, outcome in _items(raw.get("outcomes")):
-        key = "column" if outcome.get("column") is not None else "name"
-        column = outcome.get(key)
+def _measure_columns(loc: Loc, entries: object) -> Iterator[tuple[Loc, str]]:
+    """The data column of each outcome or covariate: `column`, else `name`."""
+    for i, entry in _items(entries):
+        key = "column" if entry.get("column") is not None else "name"
+        column = entry.get(key)
         if isinstance(column, str):
-            yield ("outcomes", i, key), column
+            yield (*loc, i, key), column
 
 
 def _column_roles(raw: Mapping, data: Mapping, factors: list[tuple[int, Mapping]]) -> list[Found]:
-    """A column plays one role: the unit identifier, a factor or an outcome."""
+    """A column plays one role: the unit identifier, a factor, an outcome or a covariate."""
     roles: dict[str, str] = {}
     unit = data.get("unit")
     if isinstance(unit, str):
@@ -82,14 +87,24 @@ def _column_roles(raw: Mapping, data: Mapping, factors: list[tuple[int, Mapping]
         name = factor.get("name")
         if not isinstance(name, str):
             continue
+        if roles.get(name) == "a factor column":
+            continue  # a repeated factor name is reported as such (design_checks)
         if name in roles:
             found.append((("design", "factors", i, "name"),
                           f"got {show(name)}, which is {roles[name]}; "
                           "a factor must be a column of its own"))
         else:
             roles[name] = "a factor column"
-    for loc, column in _outcome_columns(raw):
+    for loc, column in _measure_columns(("outcomes",), raw.get("outcomes")):
         if column in roles and roles[column] != "an outcome column":
             found.append((loc, f"got {show(column)}, which is {roles[column]}; "
                                "an outcome must be a column of its own"))
+        roles.setdefault(column, "an outcome column")
+    covariates = _mapping(raw.get("design")).get("covariates")
+    for loc, column in _measure_columns(("design", "covariates"), covariates):
+        if column in roles:
+            found.append((loc, f"got {show(column)}, which is {roles[column]}; "
+                               "a covariate must be a column of its own"))
+        else:
+            roles[column] = "a covariate column"
     return found

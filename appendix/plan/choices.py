@@ -4,9 +4,11 @@ from __future__ import annotations
 
 from typing import Literal, get_args
 
+FactorRole = Literal["treatment", "block", "within"]
 ContrastKind = Literal["custom", "pairwise", "versus-control", "trend", "helmert"]
 MultiplicityMethod = Literal["none", "bonferroni", "holm", "hochberg", "sidak",
                              "benjamini-hochberg", "tukey", "dunnett", "fixed-sequence"]
 
+ROLES: tuple[str, ...] = get_args(FactorRole)
 KINDS: tuple[str, ...] = get_args(ContrastKind)
 METHODS: tuple[str, ...] = get_args(MultiplicityMethod)

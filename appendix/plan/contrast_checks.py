@@ -12,7 +12,8 @@ from collections.abc import Mapping
 from dataclasses import dataclass
 
 from appendix.plan.choices import KINDS, METHODS
-from appendix.plan.raw import Found, items, mapping, number, repeats, text, texts, unique
+from appendix.plan.raw import Found, items, mapping, number, repeats, text, unique
+from appendix.plan.raw_design import RawDesign, RawFactor
 from appendix.plan.wording import Loc, did_you_mean, one_of, show
 
 
@@ -32,21 +33,17 @@ _REGISTERED_IN = {"unequal-variance": "equal_variance", "non-normal": "normality
 class _Design:
     """What the contrast checks need to know of the design and outcomes."""
 
-    factor: str | None
-    levels: tuple[str, ...]
-    ordered: object
-    control: object
+    design: RawDesign
     outcomes: tuple[str, ...]
 
     @classmethod
     def of(cls, raw: Mapping) -> _Design:
-        factors = items(mapping(raw.get("design")).get("factors"))
-        factor = factors[0][1] if factors else {}
         names = tuple(o["name"] for _, o in items(raw.get("outcomes")) if isinstance(o.get("name"), str))
-        return cls(factor=text(factor.get("name")),
-                   levels=tuple(dict.fromkeys(texts(factor.get("levels")))),
-                   ordered=factor.get("ordered", False), control=factor.get("control"),
-                   outcomes=names)
+        return cls(design=RawDesign.of(raw), outcomes=names)
+
+
+#: Stands for the factor when the contrast's factor is unknown: no level checks.
+_UNKNOWN = RawFactor(index=0, name="", role=None, levels=(), ordered=None, control=None)
 
 
 def contrast_problems(raw: Mapping) -> list[Found]:
@@ -64,19 +61,82 @@ def contrast_problems(raw: Mapping) -> list[Found]:
 
 
 def _entry(loc: Loc, entry: Mapping, design: _Design) -> list[Found]:
+    factor, found = _factor(loc, entry, design.design)
+    found += _by(loc, entry, design.design, factor)
     kind = entry.get("kind")
     if kind not in KINDS:
-        return _common(loc, entry, design)
-    found = _kind_keys(loc, entry, kind)
+        return found + _common(loc, entry, design)
+    found += _kind_keys(loc, entry, kind)
     if kind == "custom":
-        found += _weights(loc, entry, design)
+        found += _weights(loc, entry, factor)
     elif kind == "trend":
-        found += _trend(loc, entry, design)
-    elif kind == "versus-control" and design.control is None:
+        found += _trend(loc, entry, factor)
+    elif kind == "versus-control" and factor is not _UNKNOWN and factor.control is None:
         found.append(((*loc, "kind"),
-                      f"got 'versus-control', but the factor {show(design.factor)} has no control "
-                      "level; allowed: 'versus-control' only when design.factors[0].control names one"))
+                      f"got 'versus-control', but the factor {show(factor.name)} has no control "
+                      f"level; allowed: 'versus-control' only when design.factors[{factor.index}]"
+                      ".control names one"))
     return found + _common(loc, entry, design)
+
+
+def _factor(loc: Loc, entry: Mapping, design: RawDesign) -> tuple[RawFactor, list[Found]]:
+    """The factor whose levels the contrast compares, and the problems of its `factor` key."""
+    name = entry.get("factor")
+    eligible = design.contrastable
+    names = [f.name for f in eligible]
+    if name is None:
+        if len(eligible) == 1:
+            return eligible[0], []
+        if len(eligible) > 1 and design.roles_valid:
+            return _UNKNOWN, [((*loc, "factor"),
+                               "required key is missing for a design with more than one "
+                               f"treatment or within factor; allowed: {one_of(names)}")]
+        return _UNKNOWN, []
+    if not isinstance(name, str):
+        return _UNKNOWN, []
+    factor = design.named(name)
+    if factor is not None and factor in eligible:
+        return factor, []
+    if factor is None and len(design.factors) == 1 and len(eligible) == 1:
+        allowed = f"{show(names[0])}, the factor of the design"
+    elif len(eligible) == 1:
+        allowed = f"{show(names[0])}, the design's only treatment or within factor"
+    else:
+        allowed = f"one of the treatment or within factors {one_of(names)}"
+    if factor is not None and factor.role == "block":
+        return _UNKNOWN, [((*loc, "factor"), f"got {show(name)}, a block; allowed: {allowed} "
+                                             "(blocks have no contrasts)")]
+    if factor is not None or not names:
+        return _UNKNOWN, []  # a factor whose role is itself a field error
+    return _UNKNOWN, [((*loc, "factor"), f"got {show(name)}; allowed: {allowed}"
+                                         f"{did_you_mean(name, names)}")]
+
+
+def _by(loc: Loc, entry: Mapping, design: RawDesign, factor: RawFactor) -> list[Found]:
+    """`by` names another treatment or within factor than the contrast's own."""
+    name = entry.get("by")
+    if not isinstance(name, str):
+        return []
+    by = design.named(name)
+    others = [f.name for f in design.contrastable if f is not factor]
+    if by is not None and by.role in ("treatment", "within") and by is not factor:
+        return []
+    if by is not None and by.role not in ("treatment", "within", "block"):
+        return []  # its role is itself a field error
+    if not others:
+        allowed = "no 'by' in a design without a second treatment or within factor (remove it)"
+    elif factor is _UNKNOWN:
+        allowed = f"one of the treatment or within factors {one_of(others)}"
+    else:
+        allowed = f"a treatment or within factor other than {show(factor.name)}: {one_of(others)}"
+    if by is None:
+        got = f"got {show(name)}"
+        allowed += did_you_mean(name, others)
+    elif by is factor:
+        got = f"got {show(name)}, the contrast's own factor"
+    else:
+        got = f"got {show(name)}, a block (blocks have no simple effects)"
+    return [((*loc, "by"), f"{got}; allowed: {allowed}")]
 
 
 def _kind_keys(loc: Loc, entry: Mapping, kind: str) -> list[Found]:
@@ -86,7 +146,7 @@ def _kind_keys(loc: Loc, entry: Mapping, kind: str) -> list[Found]:
             if entry.get(key) is not None and kind not in kinds]
 
 
-def _weights(loc: Loc, entry: Mapping, design: _Design) -> list[Found]:
+def _weights(loc: Loc, entry: Mapping, factor: RawFactor) -> list[Found]:
     weights = entry.get("weights")
     if weights is None:
         return [((*loc, "weights"), "required key is missing for kind 'custom' "
@@ -96,10 +156,10 @@ def _weights(loc: Loc, entry: Mapping, design: _Design) -> list[Found]:
     found: list[Found] = []
     for key in weights:
         name = text(key)
-        if design.levels and name not in design.levels:
+        if factor.levels and name not in factor.levels:
             found.append(((*loc, "weights", key),
-                          f"got {show(name)}; allowed: one of the levels {one_of(design.levels)}"
-                          f"{did_you_mean(name, design.levels)}"))
+                          f"got {show(name)}; allowed: one of the levels {one_of(factor.levels)}"
+                          f"{did_you_mean(name, factor.levels)}"))
     values = [number(value) for value in weights.values()]
     if None in values or not all(math.isfinite(v) for v in values):
         return found  # each non-number is a field error; a sum of them says nothing
@@ -114,12 +174,12 @@ def _weights(loc: Loc, entry: Mapping, design: _Design) -> list[Found]:
     return found
 
 
-def _trend(loc: Loc, entry: Mapping, design: _Design) -> list[Found]:
+def _trend(loc: Loc, entry: Mapping, factor: RawFactor) -> list[Found]:
     found: list[Found] = []
-    k = len(design.levels)
-    if design.ordered is False:
+    k = len(factor.levels)
+    if factor.ordered is False:
         found.append(((*loc, "kind"),
-                      f"got 'trend', but the factor {show(design.factor)} is not ordered; allowed: "
+                      f"got 'trend', but the factor {show(factor.name)} is not ordered; allowed: "
                       "a trend only over a factor with 'ordered: true'"))
     degree = entry.get("degree")
     if isinstance(degree, int) and not isinstance(degree, bool) and k >= 2 and degree > k - 1:
@@ -142,7 +202,7 @@ def _trend(loc: Loc, entry: Mapping, design: _Design) -> list[Found]:
 
 
 def _common(loc: Loc, entry: Mapping, design: _Design) -> list[Found]:
-    """Checks that hold for every kind: one-sided justification, outcomes, factor."""
+    """Checks that hold for every kind: one-sided justification, outcomes."""
     found: list[Found] = []
     alternative = entry.get("alternative")
     if alternative in ("greater", "less") and entry.get("justification") is None:
@@ -157,10 +217,6 @@ def _common(loc: Loc, entry: Mapping, design: _Design) -> list[Found]:
                               f"got {show(name)}; allowed: one of the outcomes {one_of(design.outcomes)}"
                               f"{did_you_mean(name, design.outcomes)}"))
         found += repeats((*loc, "outcomes"), outcomes, "each outcome must be named once")
-    factor = entry.get("factor")
-    if isinstance(factor, str) and design.factor is not None and factor != design.factor:
-        found.append(((*loc, "factor"), f"got {show(factor)}; allowed: {show(design.factor)}, "
-                                        "the factor of the design"))
     return found
 
 

@@ -24,6 +24,10 @@ DELACRE_2019 = "Delacre, Leys, Mora & Lakens 2019, Int Rev Soc Psychol 32(1):13"
 ICH_E9_MULTIPLICITY = ("ICH E9 1998, section 5.6; EMA 2017, guideline on multiplicity issues "
                        "in clinical trials, EMA/CHMP/44762/2017")
 ICH_E9_ONE_SIDED = "ICH E9 1998, section 5.5"
+# From memory, not checked against the texts here.
+LANGSRUD_2003 = "Langsrud 2003, Stat Comput 13:163-167"
+FOX_2016 = "Fox 2016, Applied Regression Analysis and Generalized Linear Models, 3rd ed., Sage"
+HUITEMA_2011 = "Huitema 2011, The Analysis of Covariance and Alternatives, 2nd ed., Wiley"
 
 
 @dataclass(frozen=True)
@@ -41,7 +45,38 @@ class Note:
 
 def lint(plan: Plan) -> tuple[Note, ...]:
     """Every note on the plan, in the order of the study file's sections."""
-    return (*_pre_tests(plan), *_unadjusted(plan), *_one_sided(plan))
+    return (*_sequential(plan), *_slopes(plan), *_pre_tests(plan), *_unadjusted(plan),
+            *_one_sided(plan))
+
+
+def _term(names: tuple[str, ...]) -> str:
+    return " x ".join(names)
+
+
+def _sequential(plan: Plan) -> list[Note]:
+    """Type 1 sums of squares of a model with several terms depend on their order."""
+    terms = plan.model_terms
+    if plan.design.sums_of_squares != 1 or len(terms) < 2:
+        return []
+    return [Note(
+        "sequential-sums-of-squares", "design.sums_of_squares",
+        "type 1 sums of squares depend on the order of the terms: each term is adjusted for "
+        f"the terms before it only; the order used is {', '.join(map(_term, terms))} "
+        "(covariates, blocks, treatment factors, then interactions); register type 2 or 3 "
+        "unless this order is itself part of the hypotheses",
+        f"{LANGSRUD_2003}; {FOX_2016}")]
+
+
+def _slopes(plan: Plan) -> list[Note]:
+    """A covariate is adjusted for with one common slope; its homogeneity is only checked."""
+    return [Note(
+        "covariate-common-slope", key_path(("design", "covariates", i)),
+        f"{covariate.name} is adjusted for with one slope common to every treatment cell (the "
+        "model has no covariate x treatment term); the homogeneity-of-slopes check (the "
+        "covariate x treatment interaction, as a diagnostic) is always run and reported, "
+        "and clearly different slopes make the adjusted differences depend on the covariate value",
+        HUITEMA_2011)
+        for i, covariate in enumerate(plan.design.covariates)]
 
 
 def _pre_tests(plan: Plan) -> list[Note]:

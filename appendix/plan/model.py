@@ -4,10 +4,11 @@ These models are the single source of the study-file schema: validation, the pub
 JSON Schema (`schema/study.schema.json`) and the frozen plan that the pipeline passes on
 are all derived from them. Unknown keys are errors (``extra="forbid"``).
 
-Format 1 holds one treatment factor; the lists (`design.factors`, `outcomes`) leave
-room for the factorial, blocked and covariate designs of later formats. Planned
-contrasts, their multiplicity control, registered fallbacks and exploratory analyses
-are optional keys of format 1.
+Format 1 holds one or more crossed factors (treatments, blocks, at most one within-unit
+factor), explicit interactions and covariates; a plan written for one treatment factor
+keeps its meaning and its canonical JSON, because every key added since is left out of
+the dump while it holds its default. Planned contrasts, their multiplicity control,
+registered fallbacks and exploratory analyses are optional keys.
 """
 
 from __future__ import annotations
@@ -29,7 +30,7 @@ from pydantic import (
 from pydantic_core import PydanticCustomError
 
 from appendix.plan.checks import DATA_FORMATS, consistency_problems
-from appendix.plan.choices import ContrastKind, MultiplicityMethod
+from appendix.plan.choices import ContrastKind, FactorRole, MultiplicityMethod
 from appendix.plan.scalars import scalar_text
 from appendix.plan.wording import key_path
 
@@ -71,16 +72,38 @@ Number = Annotated[float, Strict(), AllowInfNan(False)]
 ContrastId = Annotated[str, StringConstraints(pattern=r"^[A-Za-z][A-Za-z0-9_.-]{0,31}$")]
 
 
-def _only_whole_numbers(value: object) -> object:
-    # Literal[1] would accept True and 1.0 (both == 1 in Python); a format number is
-    # written as the whole number itself.
-    if isinstance(value, (bool, float)):
-        raise PydanticCustomError("literal_error", "Input should be 1", {"expected": "1"})
-    return value
+def _whole_number_of(expected: str):
+    """A check that refuses what a whole-number Literal would take as equal (True, 1.0)."""
+
+    def check(value: object) -> object:
+        # Literal[1] would accept True and 1.0 (both == 1 in Python); the number is
+        # written as the whole number itself.
+        if isinstance(value, (bool, float)):
+            raise PydanticCustomError("literal_error", "Input should be {expected}",
+                                      {"expected": expected})
+        return value
+
+    return check
 
 
 #: The study-file format number (this version reads 1).
-FormatNumber = Annotated[Literal[1], BeforeValidator(_only_whole_numbers)]
+FormatNumber = Annotated[Literal[1], BeforeValidator(_whole_number_of("1"))]
+
+#: The registered type of sums of squares: 1 (sequential), 2 or 3.
+SumsOfSquaresType = Annotated[Literal[1, 2, 3],
+                              BeforeValidator(_whole_number_of("1, 2 or 3"))]
+
+#: A term's factor names: an interaction of two or more factors.
+Interaction = Annotated[tuple[str, ...], Field(min_length=2)]
+
+#: Pattern of the names that identify outcomes and covariates in results and figures.
+MEASURE_NAME = r"^[A-Za-z][A-Za-z0-9_]{0,62}$"
+
+
+def _is(default: object):
+    """`exclude_if` for keys added after the first release: left out of the dump at their
+    default, so that older plans keep their canonical JSON and hash."""
+    return lambda value: value == default
 
 
 class _Frozen(BaseModel):
@@ -119,7 +142,9 @@ class Exclusion(_Frozen):
 class PlannedN(_Frozen):
     """Planned numbers of analysed units (reported against the numbers achieved)."""
 
-    per_group: int | None = Field(default=None, ge=1, strict=True)
+    per_group: int | None = Field(
+        default=None, ge=1, strict=True,
+        description="Units per cell of the crossed treatment factors (per group of a one-way design).")
     total: int | None = Field(default=None, ge=1, strict=True)
 
 
@@ -137,38 +162,66 @@ class Data(_Frozen):
 
 
 class Factor(_Frozen):
-    """A treatment factor: a data column and its levels in the registered order."""
+    """A factor: a data column, its levels in the registered order and its role.
+
+    role treatment (the default) is a factor the study compares; block a fixed nuisance
+    factor (no control, not ordered); within a repeated-measures factor whose levels are
+    observed on every unit (one data row per unit and level).
+    """
 
     name: str = Field(min_length=1, description="Data column holding the level of each unit.")
     label: str | None = Field(default=None, description="Name of the factor in prose.")
     levels: tuple[LevelText, ...] = Field(min_length=2, description="Levels in registered order.")
     control: LevelText | None = Field(default=None, description="The control level, if any.")
     ordered: bool = Field(default=False, strict=True, description="Whether the levels are ordered.")
+    role: FactorRole = Field(default="treatment", exclude_if=_is("treatment"),
+                             description="treatment (default), block or within.")
 
 
-class Design(_Frozen):
-    """The model's terms. Format 1: exactly one treatment factor."""
+class _Measured(_Frozen):
+    """A named measurement taken from a data column: an outcome or a covariate."""
 
-    factors: tuple[Factor, ...] = Field(
-        min_length=1, max_length=1, description="The treatment factor (format 1: exactly one)."
-    )
-
-
-class Outcome(_Frozen):
-    """A registered outcome (response variable)."""
-
-    name: str = Field(
-        pattern=r"^[A-Za-z][A-Za-z0-9_]{0,62}$",
-        description="Identifier used in results and figures.",
-    )
+    name: str = Field(pattern=MEASURE_NAME, description="Identifier used in results and figures.")
     column: str | None = Field(default=None, description="Data column; defaults to `name`.")
-    label: str = Field(min_length=1, description="Name of the outcome in prose.")
+    label: str = Field(min_length=1, description="Name of the measurement in prose.")
     unit: str | None = Field(default=None, description="Measurement unit, e.g. 'mg'.")
-    role: Literal["primary", "secondary"]
 
     @property
     def data_column(self) -> str:
         return self.column or self.name
+
+
+class Covariate(_Measured):
+    """A registered covariate: adjusted for at its mean, one common slope across cells."""
+
+
+class Design(_Frozen):
+    """The model's terms: factors in plan order, listed interactions, covariates."""
+
+    factors: tuple[Factor, ...] = Field(
+        min_length=1, description="The factors; within each role, plan order is the order of terms and tables.")
+    interactions: tuple[Interaction, ...] = Field(
+        default=(), exclude_if=_is(()),
+        description="Interactions, each a list of 2 or more factor names; none unless listed.")
+    covariates: tuple[Covariate, ...] = Field(
+        default=(), exclude_if=_is(()), description="Covariates, centred at their mean.")
+    sums_of_squares: SumsOfSquaresType | None = Field(
+        default=None, exclude_if=_is(None),
+        description="1, 2 or 3; required for a design with more than one term.")
+
+
+class Outcome(_Measured):
+    """A registered outcome (response variable)."""
+
+    role: Literal["primary", "secondary"]
+
+
+class Repeated(_Frozen):
+    """The registered rule for missing repeated observations of a within factor."""
+
+    missing: Literal["complete-units"] = Field(
+        default="complete-units",
+        description="complete-units: a unit missing any level of the within factor is left out.")
 
 
 class Outliers(_Frozen):
@@ -248,7 +301,12 @@ class Contrast(_Frozen):
         default=None, min_length=1, description="Why a one-sided test; required when one-sided.")
     outcomes: tuple[str, ...] | None = Field(
         default=None, min_length=1, description="Outcome names it applies to (default: all).")
-    factor: str | None = Field(default=None, description="The factor's name (optional).")
+    factor: str | None = Field(
+        default=None,
+        description="The treatment or within factor; required with more than one of them.")
+    by: str | None = Field(
+        default=None, exclude_if=_is(None),
+        description="Another treatment or within factor: tested within each of its levels.")
     degree: int | None = Field(
         default=None, ge=1, strict=True,
         description="trend only: highest polynomial degree, 1 to k - 1 (default 1).")
@@ -301,7 +359,7 @@ class Plan(_Frozen):
     study: Study = Field(description="The study's identifier and title.")
     data: Data = Field(description="Where the data are, how units are identified, exclusions.")
     alpha: float = Field(default=0.05, gt=0, lt=0.5, strict=True, description="Significance level.")
-    design: Design = Field(description="The treatment factor and its levels.")
+    design: Design = Field(description="The factors and their levels, interactions, covariates.")
     outcomes: tuple[Outcome, ...] = Field(min_length=1, description="The registered outcomes.")
     assumptions: Assumptions = Field(default=Assumptions(),
                                      description="Diagnostics to compute and registered fallbacks.")
@@ -311,6 +369,22 @@ class Plan(_Frozen):
                                        description="Multiplicity control of the registered contrasts.")
     exploratory: tuple[ExploratoryContrast, ...] = Field(
         default=(), description="Analyses not in the plan: reported apart, never in conclusions.")
+    repeated: Repeated | None = Field(
+        default=None, exclude_if=_is(None),
+        description="With a within factor only: the rule for missing repeated observations.")
+
+    @model_validator(mode="before")
+    @classmethod
+    def _repeated_default(cls, data: object) -> object:
+        # A within factor without `repeated` means the default rule; filling it in here
+        # gives the written and the implied rule one canonical plan (and one hash).
+        if not isinstance(data, dict) or data.get("repeated") is not None:
+            return data
+        factors = data.get("design", {}).get("factors") if isinstance(data.get("design"), dict) else None
+        if isinstance(factors, (list, tuple)) and any(
+                isinstance(f, dict) and f.get("role") == "within" for f in factors):
+            return {**data, "repeated": {"missing": "complete-units"}}
+        return data
 
     @model_validator(mode="after")
     def _consistent(self) -> Plan:
@@ -324,8 +398,65 @@ class Plan(_Frozen):
 
     @property
     def factor(self) -> Factor:
-        """The single treatment factor of a format-1 plan."""
-        return self.design.factors[0]
+        """The single treatment factor of a one-way plan; otherwise the first treatment factor."""
+        return self.treatments[0]
+
+    @property
+    def treatments(self) -> tuple[Factor, ...]:
+        """The treatment factors, in plan order."""
+        return tuple(f for f in self.design.factors if f.role == "treatment")
+
+    @property
+    def blocks(self) -> tuple[Factor, ...]:
+        """The block factors, in plan order."""
+        return tuple(f for f in self.design.factors if f.role == "block")
+
+    @property
+    def within(self) -> Factor | None:
+        """The within-unit (repeated-measures) factor, if any."""
+        return next((f for f in self.design.factors if f.role == "within"), None)
+
+    @property
+    def between(self) -> tuple[Factor, ...]:
+        """The between-unit factors (treatments and blocks), in plan order."""
+        return tuple(f for f in self.design.factors if f.role != "within")
+
+    def factor_named(self, name: str) -> Factor:
+        """The factor called `name`; KeyError when the design has none."""
+        for factor in self.design.factors:
+            if factor.name == name:
+                return factor
+        raise KeyError(name)
+
+    @property
+    def is_one_way(self) -> bool:
+        """Exactly one factor (a treatment factor), no covariate and no interaction."""
+        design = self.design
+        return len(design.factors) == 1 and not design.covariates and not design.interactions
+
+    @property
+    def model_terms(self) -> tuple[tuple[str, ...], ...]:
+        """The between-unit model's terms in type 1 order.
+
+        Covariates first, then blocks, then treatment factors (each in plan order), then
+        the listed interactions among between-unit factors, lower orders first and in
+        listed order within an order; the names of an interaction are put in plan order.
+        """
+        between = [f.name for f in self.between]
+        interactions = [tuple(n for n in between if n in term) for term in self.design.interactions
+                        if set(term) <= set(between)]
+        return (*((c.name,) for c in self.design.covariates),
+                *((f.name,) for f in self.blocks), *((f.name,) for f in self.treatments),
+                *sorted(interactions, key=len))
+
+    def factor_of(self, contrast: Contrast) -> Factor:
+        """The factor a contrast compares the levels of: its `factor`, else `Plan.factor`."""
+        return self.factor if contrast.factor is None else self.factor_named(contrast.factor)
+
+    def hypotheses_of(self, contrast: Contrast) -> int:
+        """How many hypotheses a contrast expands into: per level of `by`, times those levels."""
+        per_level = contrast.hypothesis_count(len(self.factor_of(contrast).levels))
+        return per_level * (1 if contrast.by is None else len(self.factor_named(contrast.by).levels))
 
     def contrasts_for(self, outcome: str) -> tuple[Contrast, ...]:
         """The registered contrasts that apply to the outcome named `outcome`, in plan order."""
@@ -337,5 +468,4 @@ class Plan(_Frozen):
 
     def hypothesis_count(self, outcome: str) -> int:
         """How many registered hypotheses the outcome named `outcome` is tested for."""
-        k = len(self.factor.levels)
-        return sum(c.hypothesis_count(k) for c in self.contrasts_for(outcome))
+        return sum(self.hypotheses_of(c) for c in self.contrasts_for(outcome))

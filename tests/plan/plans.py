@@ -67,6 +67,42 @@ assumptions:
 """
 
 
+#: BASE with a block factor (and so a sums-of-squares type); every line from 16 on moves
+#: down two, appended lines start at 21.
+BLOCKED = variant("      control: placebo\n", "      control: placebo\n"
+                  "    - {name: site, role: block, levels: [north, south]}\n  sums_of_squares: 2\n")
+
+#: An invented crossed design with every new design key; appended lines start at 23.
+FACTORIAL = """\
+format: 1
+study:
+  id: field-03
+  title: Invented factorial study for tests
+data:
+  source: plots.csv
+  unit: plot
+design:
+  factors:
+    - {name: coating, levels: [none, thin, thick], control: none}
+    - {name: variety, levels: [early, late]}
+    - {name: field_block, role: block, levels: [B1, B2, B3, B4]}
+    - {name: visit, role: within, levels: [day7, day14, day21], ordered: true}
+  interactions:
+    - [coating, variety]
+    - [coating, visit]
+  covariates:
+    - {name: baseline, column: baseline_mass, label: Baseline dry mass, unit: g}
+  sums_of_squares: 2
+outcomes:
+  - {name: mass, label: Shoot dry mass, unit: g, role: primary}
+  - {name: height, label: Shoot height, unit: cm, role: secondary}
+"""
+
+#: FACTORIAL's factors in words, as messages list them.
+FACTORIAL_EXTENT = ("2 treatment factors, a block factor, a within factor, a covariate "
+                    "and 2 interactions")
+
+
 def expected_message(path: Path, lines: list[str]) -> str:
     """The PlanError text for problem lines written "line: path: message"."""
     head = f"{len(lines)} problem{'s' if len(lines) != 1 else ''} in the study file:"

@@ -47,3 +47,17 @@ def test_every_key_is_documented():
     missing = sorted({f"{model.__name__}.{key}" for model in _models(Plan)
                       for key in model.model_fields if not re.search(rf"\b{key}\b", text)})
     assert missing == []
+
+
+def test_documented_design_example_loads(tmp_path):
+    examples = re.findall(r"```yaml\n(.*?)```", DOC.read_text(encoding="utf-8"), re.S)
+    study = tmp_path / "study.yaml"
+    study.write_text(examples[1], encoding="utf-8")
+    plan = load_plan(study).plan
+    assert [f.role for f in plan.design.factors] == ["treatment", "treatment", "block", "within"]
+    assert plan.model_terms == (("seed_mass",), ("field_block",), ("coating",), ("variety",),
+                                ("coating", "variety"))
+    # The documented count: C1 2 versus uncoated, C2 3 pairs x 2 varieties, C3 1 linear trend.
+    assert [plan.hypotheses_of(c) for c in plan.contrasts] == [2, 6, 1]
+    assert plan.hypothesis_count("height") == 9
+    assert plan.repeated.missing == "complete-units"

@@ -6,7 +6,7 @@ import pytest
 
 from appendix.plan.lints import Note, lint
 from appendix.plan.load import load_plan
-from tests.plan.plans import BASE
+from tests.plan.plans import BASE, variant
 
 # The references are the ones the contract names (recalled, not read, here).
 PRE_TEST_VARIANCE = Note(
@@ -107,3 +107,49 @@ def test_notes_in_file_order_and_as_text(write_study):
         "contrasts[0].alternative: C1 is tested one-sided (less) at the registered alpha 0.05; "
         "the regulatory convention is a one-sided level of half the two-sided alpha (0.025); "
         "the appendix states the level used (see ICH E9 1998, section 5.5)")
+
+
+# Larger designs. The references are recalled from memory, not read here.
+SEQUENTIAL = Note(
+    "sequential-sums-of-squares", "design.sums_of_squares",
+    "type 1 sums of squares depend on the order of the terms: each term is adjusted for the "
+    "terms before it only; the order used is baseline, field_block, coating, variety, "
+    "coating x variety (covariates, blocks, treatment factors, then interactions); register "
+    "type 2 or 3 unless this order is itself part of the hypotheses",
+    "Langsrud 2003, Stat Comput 13:163-167; Fox 2016, Applied Regression Analysis and "
+    "Generalized Linear Models, 3rd ed., Sage")
+COMMON_SLOPE = Note(
+    "covariate-common-slope", "design.covariates[0]",
+    "baseline is adjusted for with one slope common to every treatment cell (the model has no "
+    "covariate x treatment term); the homogeneity-of-slopes check (the covariate x treatment "
+    "interaction, as a diagnostic) is always run and reported, and clearly different slopes "
+    "make the adjusted differences depend on the covariate value",
+    "Huitema 2011, The Analysis of Covariance and Alternatives, 2nd ed., Wiley")
+
+
+def test_type_1_and_a_covariate_are_noted(write_study):
+    from tests.plan.plans import FACTORIAL
+
+    text = FACTORIAL.replace("sums_of_squares: 2", "sums_of_squares: 1")
+    assert lint(load_plan(write_study(text)).plan) == (SEQUENTIAL, COMMON_SLOPE)
+    assert lint(load_plan(write_study(FACTORIAL, "b.yaml")).plan) == (COMMON_SLOPE,)
+
+
+def _design_texts() -> list[str]:
+    from tests.plan.plans import BLOCKED
+
+    within = ("      control: placebo\n"
+              "    - {name: week, role: within, levels: [w1, w2, w3]}\n  sums_of_squares: 1\n")
+    return [
+        # Type 1 in a one-way design: one term, nothing is order dependent.
+        variant("      control: placebo\n", "      control: placebo\n  sums_of_squares: 1\n"),
+        # Type 1 with one between-unit term and a within factor: still one between term.
+        variant("      control: placebo\n", within),
+        # A treatment factor crossed with a block, even without replication, needs no note.
+        BLOCKED.replace("sums_of_squares: 2", "sums_of_squares: 3"),
+    ]
+
+
+@pytest.mark.parametrize("text", _design_texts(), ids=["one-way type 1", "within type 1", "blocked"])
+def test_no_design_note_when_not_needed(write_study, text):
+    assert lint(load_plan(write_study(text)).plan) == ()

@@ -9,7 +9,7 @@ from appendix.plan.load import MAX_BYTES, load_plan
 from tests.plan.plans import BASE, assert_refused, expected_message as _expected, variant
 
 TOP_KEYS = ("'format', 'study', 'data', 'alpha', 'design', 'outcomes', 'assumptions', "
-            "'analysis', 'contrasts', 'multiplicity' or 'exploratory'")
+            "'analysis', 'contrasts', 'multiplicity', 'exploratory' or 'repeated'")
 
 # (case id, study file text, expected problem lines as "line: path: message").
 CASES = [
@@ -64,7 +64,8 @@ CASES = [
     ("anchor and alias",
      variant("      control: placebo", "      control: &c placebo\n"
                                         "    - {name: dose, levels: [a, b], control: *c}"),
-     ["12: design.factors: got 2 items; allowed: at most 1 item",
+     ["11: design.sums_of_squares: required key is missing for a design with 2 treatment "
+      "factors; allowed: 1, 2 or 3 (the types differ once there is more than one term)",
       "15: design.factors[0].control: anchor '&c' is not allowed; write the value out in full",
       "16: design.factors[1].control: alias '*c' is not allowed; write the value out in full"]),
     ("not a mapping at top", "- format\n- 1\n",

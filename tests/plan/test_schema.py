@@ -7,7 +7,7 @@ import pytest
 
 from appendix.plan.schema import SCHEMA_FILE, main, schema_text, study_schema
 from appendix.plan.yamltree import read_tree
-from tests.plan.plans import BASE, variant
+from tests.plan.plans import BASE, FACTORIAL, variant
 
 
 def test_committed_schema_is_current():
@@ -31,16 +31,23 @@ def test_valid_plan_passes():
     jsonschema.validate(read_tree(BASE).value, study_schema())
 
 
-@pytest.mark.parametrize("old, new", [
-    ("role: primary", "role: main"),
-    ("      levels:", "      levls:"),
-    ("format: 1", "format: 2"),
-    ("alpha: 0.05", "alpha: 0.5"),
-    ("id: trial-07", "id: trial 07"),
+@pytest.mark.parametrize("base, old, new", [
+    (BASE, "role: primary", "role: main"),
+    (BASE, "      levels:", "      levls:"),
+    (BASE, "format: 1", "format: 2"),
+    (BASE, "alpha: 0.05", "alpha: 0.5"),
+    (BASE, "id: trial-07", "id: trial 07"),
+    (FACTORIAL, "role: block", "role: nuisance"),
+    (FACTORIAL, "[coating, variety]", "[coating]"),
+    (FACTORIAL, "sums_of_squares: 2", "sums_of_squares: 4"),
+    (FACTORIAL, "sums_of_squares: 2", "sums_of_squares: '2'"),
+    (FACTORIAL, "label: Baseline dry mass, ", ""),
+    (FACTORIAL, "{name: baseline,", "{name: 2nd,"),
+    (FACTORIAL, "  sums_of_squares: 2\n", "  sums_of_squares: 2\nrepeated: {missing: carried-forward}\n"),
 ])
-def test_bad_plan_fails(old, new):
+def test_bad_plan_fails(base, old, new):
     with pytest.raises(jsonschema.ValidationError):
-        jsonschema.validate(read_tree(variant(old, new)).value, study_schema())
+        jsonschema.validate(read_tree(variant(old, new, base)).value, study_schema())
 
 
 def test_plan_with_every_contrast_kind_passes():
@@ -62,3 +69,10 @@ def test_plan_with_every_contrast_kind_passes():
 def test_bad_contrast_keys_fail(addition):
     with pytest.raises(jsonschema.ValidationError):
         jsonschema.validate(read_tree(BASE + addition).value, study_schema())
+
+
+def test_factorial_plan_passes():
+    jsonschema.validate(read_tree(FACTORIAL + "repeated: {missing: complete-units}\n"
+                                  "contrasts: [{id: C1, kind: pairwise, label: x, factor: coating, "
+                                  "by: variety}]\n").value, study_schema())
+
