@@ -284,7 +284,9 @@ def _compress(cells: DesignCells, columns: _Columns) -> _Problem:
     occupied = np.flatnonzero(cells.n > 0)
     n = cells.n[occupied].astype(np.float64)
     shift, centred = cells.centred()
-    centre = n @ centred[occupied] / n.sum()          # overall means, centred coordinates
+    width = centred.shape[1]
+    # overall means, in centred coordinates (0 when no cell has units)
+    centre = n @ centred[occupied] / n.sum() if occupied.size else np.zeros(width)
     gaps = centred[occupied] - centre                 # (occ, 1 + q)
     design = columns.design[occupied]
     p = design.shape[1]
@@ -294,7 +296,6 @@ def _compress(cells: DesignCells, columns: _Columns) -> _Problem:
     factor_of = np.where(which[None, :] == 0, 1.0, gaps[:, which])
     means = np.hstack([design * factor_of, gaps[:, :1]]) * np.sqrt(n)[:, None]
     # Within-cell rows: the deviations enter slope columns and y.
-    width = gaps.shape[1]
     on = which > 0
     slot = np.append(on, False)  # the same columns of [X | y]
     varying = on.any() and not np.allclose(design[:, on], design[:1, on])
@@ -309,7 +310,7 @@ def _compress(cells: DesignCells, columns: _Columns) -> _Problem:
         within = np.zeros((width, p + 1))
         within[:, p] = f[0, :]
         if on.any():
-            within[:, slot] = design[0, on][None, :] * f.T[:, which[on]]
+            within[:, slot] = columns.design[0, on][None, :] * f.T[:, which[on]]
     z = np.vstack([means, within])
     r = np.linalg.qr(z, mode="r")
     if r.shape[0] < p + 1:

@@ -302,3 +302,14 @@ def test_a_large_common_offset_costs_no_digits() -> None:
     table = anova_lm(smf.ols("y ~ C(A, Sum) * C(B, Sum) + x", data=frame).fit(), typ=3)
     assert [r.ss for r in fit.terms] == pytest.approx(table["sum_sq"].iloc[1:5].tolist(), rel=RELATIVE)
     assert fit.residual_ss == pytest.approx(table.loc["Residual", "sum_sq"], rel=RELATIVE)
+
+
+def test_no_units_at_all_gives_an_empty_table_not_a_crash() -> None:
+    # Degenerate data give None plus warnings (project rule); no reference value needed.
+    empty = np.zeros(0, dtype=np.int64)
+    cells = design_cells(grid_of(2, 2), [empty, empty], np.zeros(0), {"x": np.zeros(0)})
+    fit = fit_linear(cells, [A, B, ("x",)], 2, 0.05)
+    assert fit.n == 0 and fit.residual_df == 0 and fit.r_squared is None
+    assert all(r.df == 0 and r.ss is None for r in fit.terms)
+    assert [w.code for w in fit.warnings] == ["no-residual-df"]
+    assert fit.estimability.startswith("4 of the 4 cells have no units")
