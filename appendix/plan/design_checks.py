@@ -41,10 +41,11 @@ def _roles(design: RawDesign) -> list[Found]:
     for factor in design.with_role("block"):
         found += _block(factor)
     if design.roles_valid and design.factors and not design.with_role("treatment"):
-        roles = one_of(dict.fromkeys(str(f.role) for f in design.factors), "and")
+        roles = list(dict.fromkeys(str(f.role) for f in design.factors))
         found.append((("design", "factors"),
-                      f"got no treatment factor (roles {roles}); allowed: at least one factor "
-                      "with role 'treatment' (the default)"))
+                      f"got only factors with role{'s' if len(roles) > 1 else ''} "
+                      f"{one_of(roles, 'and')}; allowed: at least one factor with role "
+                      "'treatment' (the default)"))
     return found
 
 

@@ -449,6 +449,17 @@ class Plan(_Frozen):
                 *((f.name,) for f in self.blocks), *((f.name,) for f in self.treatments),
                 *sorted(interactions, key=len))
 
+    @property
+    def within_terms(self) -> tuple[tuple[str, ...], ...]:
+        """The within-unit terms: the within factor, then the listed interactions that contain
+        it (lower orders first, names in plan order); empty without a within factor."""
+        if self.within is None:
+            return ()
+        names = [f.name for f in self.design.factors]
+        interactions = [tuple(n for n in names if n in term) for term in self.design.interactions
+                        if self.within.name in term]
+        return ((self.within.name,), *sorted(interactions, key=len))
+
     def factor_of(self, contrast: Contrast) -> Factor:
         """The factor a contrast compares the levels of: its `factor`, else `Plan.factor`."""
         return self.factor if contrast.factor is None else self.factor_named(contrast.factor)

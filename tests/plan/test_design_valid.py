@@ -39,6 +39,7 @@ def test_factorial_accessors(write_study):
     # The interaction with the within factor is not a term of the between-unit model.
     assert plan.model_terms == (("baseline",), ("field_block",), ("coating",), ("variety",),
                                 ("coating", "variety"))
+    assert plan.within_terms == (("visit",), ("coating", "visit"))
     # No `repeated` written: a within factor means the complete-units rule.
     assert plan.repeated == Repeated(missing="complete-units")
     with pytest.raises(KeyError):
@@ -78,7 +79,7 @@ def test_one_way_plan_keeps_its_meaning_and_canonical_json(write_study):
     assert plan.is_one_way and plan.factor.role == "treatment"
     assert (plan.treatments, plan.blocks, plan.within, plan.between) == (
         (plan.factor,), (), None, (plan.factor,))
-    assert plan.model_terms == (("arm",),)
+    assert plan.model_terms == (("arm",),) and plan.within_terms == ()
     assert (plan.design.interactions, plan.design.covariates, plan.design.sums_of_squares,
             plan.repeated) == ((), (), None, None)
     # Keys added for larger designs stay out of the dump at their defaults, so the hash of a
@@ -106,6 +107,7 @@ def test_model_terms_put_lower_orders_first_and_names_in_plan_order(write_study)
         ("baseline",), ("field_block",), ("coating",), ("variety",),
         ("coating", "variety"), ("coating", "field_block"), ("variety", "field_block"),
         ("coating", "variety", "field_block"))
+    assert plan.within_terms == (("visit",), ("variety", "visit"))
 
 
 def test_covariate_column_defaults_to_its_name(write_study):
