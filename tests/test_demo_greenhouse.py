@@ -8,16 +8,22 @@ from __future__ import annotations
 
 import csv
 import importlib.util
+import json
 import os
 import subprocess
 import sys
 from collections import Counter
 from pathlib import Path
 
+import jsonschema
 import numpy as np
 import pytest
 
-DEMO = Path(__file__).resolve().parent.parent / "studies" / "greenhouse-split"
+from appendix.plan.load import load_plan
+from appendix.plan.yamltree import read_tree
+
+REPO = Path(__file__).resolve().parent.parent
+DEMO = REPO / "studies" / "greenhouse-split"
 
 
 def _generator():
@@ -126,3 +132,36 @@ def test_readme_says_the_data_are_invented_and_carries_the_caution():
     assert "qualified, licensed statistician and the study's own governance" in text
     assert "regulations that apply locally" in text
     assert (DEMO / "study.yaml").read_text(encoding="utf-8").startswith("# Invented demo study")
+
+
+def test_study_file_registers_the_design_and_matches_the_data(rows):
+    plan = load_plan(DEMO / "study.yaml").plan
+    assert [f.name for f in plan.treatments] == ["coating", "irrigation"]
+    assert [f.name for f in plan.blocks] == ["bench"]
+    assert plan.within.name == "visit" and plan.repeated.missing == "complete-units"
+    assert plan.design.interactions == (("coating", "irrigation"), ("coating", "visit"))
+    assert [c.data_column for c in plan.design.covariates] == ["baseline_height_mm"]
+    assert plan.design.sums_of_squares == 3
+    assert plan.model_terms == (("baseline",), ("bench",), ("coating",), ("irrigation",),
+                                ("coating", "irrigation"))
+    c1, c2 = plan.contrasts
+    assert (c1.id, c1.factor, c1.kind, c1.by) == ("C1", "coating", "versus-control", None)
+    assert (c2.id, c2.factor, c2.kind, c2.by) == ("C2", "coating", "pairwise", "irrigation")
+    assert plan.multiplicity.method == "holm"
+    # 2 comparisons with the control; 3 pairs in each of the 2 irrigation regimes
+    assert [plan.hypotheses_of(c) for c in plan.contrasts] == [2, 6]
+    for factor in plan.design.factors:
+        in_data = {r[factor.name] for r in rows}
+        assert in_data == set(factor.levels), factor.name
+    assert plan.data.planned_n.per_group == 12
+
+
+def test_study_file_passes_the_published_json_schema():
+    # the committed JSON Schema (draft 2020-12), checked by the jsonschema library
+    schema = json.loads((REPO / "schema" / "study.schema.json").read_text(encoding="utf-8"))
+    # as the loader reads YAML (core schema: dates and yes/no stay text)
+    plan = read_tree((DEMO / "study.yaml").read_text(encoding="utf-8")).value
+    jsonschema.Draft202012Validator(schema).validate(plan)
+    wrong = {**plan, "design": {**plan["design"], "sums_of_squares": 4}}
+    with pytest.raises(jsonschema.ValidationError):
+        jsonschema.Draft202012Validator(schema).validate(wrong)
