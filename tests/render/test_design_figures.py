@@ -356,9 +356,11 @@ def _line_colours(svg: str) -> set[str]:
 def test_colours_of_the_new_figures_stay_apart(vision):
     # Machado, Oliveira & Fernandes (2009) simulation, as in test_render_figures.py
     neutral = {"#000000", "#FFFFFF"}
-    used = set().union(*(_line_colours(s) for s in (_interaction(), _covariate(), _profile())))
-    assert used - neutral <= set(PALETTE[:6])  # no colour outside the checked palette
+    six = [[20.0 + g, 24.0 + g, 27.0 + g] for g in range(6)]  # a profile of six groups
+    wide = _profile(group_labels=tuple(f"g{g}" for g in range(6)), means=six,
+                    ci_low=[[m - 1 for m in r] for r in six], ci_high=[[m + 1 for m in r] for r in six])
+    used = set().union(*(_line_colours(s) for s in (_interaction(), _covariate(), wide)))
+    assert used - neutral == set(PALETTE[:6])  # no colour outside the checked palette
     seen = [_lab(_linear(c) if vision is None else vision @ _linear(c))
             for c in sorted(used - neutral)]
-    assert len(seen) == 3
     assert min(np.linalg.norm(a - b) for a, b in itertools.combinations(seen, 2)) >= 15.0
