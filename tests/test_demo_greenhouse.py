@@ -47,7 +47,8 @@ def test_generator_rewrites_the_committed_file_byte_for_byte(tmp_path):
     assert gen.write(tmp_path / "a.csv") == 216
     assert (tmp_path / "a.csv").read_bytes() == committed
     # a fresh interpreter with another hash seed writes the same bytes
-    code = (f"import importlib.util as u; s = u.spec_from_file_location('g', {str(DEMO / 'generate.py')!r}); "
+    script = str(DEMO / "generate.py")
+    code = (f"import importlib.util as u; s = u.spec_from_file_location('g', {script!r}); "
             f"m = u.module_from_spec(s); s.loader.exec_module(m); "
             f"from pathlib import Path; m.write(Path({str(tmp_path / 'b.csv')!r}))")
     subprocess.run([sys.executable, "-c", code], check=True,
@@ -92,7 +93,8 @@ def test_five_missed_visits_on_five_pots_and_nothing_else_missing(rows):
 
 
 def _pot_table(rows):
-    complete = {r["pot_id"] for r in rows} - {r["pot_id"] for r in rows if not r["chlorophyll_index"]}
+    incomplete = {r["pot_id"] for r in rows if not r["chlorophyll_index"]}
+    complete = {r["pot_id"] for r in rows} - incomplete
     return [r for r in rows if r["pot_id"] in complete]
 
 
@@ -112,7 +114,8 @@ def test_the_effects_the_readme_names_are_in_the_data(rows):
                *(c * v for c in coating for v in visit), *(c * pulsed[0] for c in coating)]
     beta, *_ = np.linalg.lstsq(np.column_stack(columns), y, rcond=None)
     names = ["1", "day14", "day21", "thin", "thick", "pulsed", "B2", "B3", "B4", "baseline",
-             "thin:day14", "thin:day21", "thick:day14", "thick:day21", "thin:pulsed", "thick:pulsed"]
+             "thin:day14", "thin:day21", "thick:day14", "thick:day21",
+             "thin:pulsed", "thick:pulsed"]
     fit = dict(zip(names, beta))
     # true values from generate.py; tolerances two to three standard errors for 67 pots
     # (common practice, no source)

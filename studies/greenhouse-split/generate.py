@@ -1,7 +1,8 @@
 """Generate the invented data of the greenhouse-split demo study.
 
 Every value is invented: drawn from a seeded random generator with the effects written
-below, then a few chlorophyll readings are blanked (missed visits). Rerunning this script rewrites data/pots.csv byte for byte.
+below, then a few chlorophyll readings are blanked (missed visits). Rerunning this
+script rewrites data/pots.csv byte for byte.
 
     python studies/greenhouse-split/generate.py
 

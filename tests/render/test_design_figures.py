@@ -94,7 +94,8 @@ def _segments(group: ET.Element) -> list[list[tuple[float, float]]]:
 
 
 def _ids(svg: str, pattern: str) -> list[str]:
-    return [g.get("id") for g in _root(svg).iter(f"{NS}g") if re.fullmatch(pattern, g.get("id", ""))]
+    groups = _root(svg).iter(f"{NS}g")
+    return [g.get("id") for g in groups if re.fullmatch(pattern, g.get("id", ""))]
 
 
 def _texts(svg: str) -> list[str]:
@@ -205,7 +206,8 @@ def test_missing_intervals_draw_no_bar_and_missing_estimates_no_point():
     means = [[31.0, 33.5, 35.0], [31.8, 34.9, None]]
     svg = _interaction(estimates=means, ci_low=low, ci_high=high)
     assert len(_segments(_group(svg, "interaction-line-0-ci"))) == 1  # only 'none' complete
-    assert len(_segments(_group(svg, "interaction-line-1-ci"))) == 1  # only 'thin': 'thick' has no mean
+    # only 'thin': 'thick' has no mean
+    assert len(_segments(_group(svg, "interaction-line-1-ci"))) == 1
     assert len(_markers(_group(svg, "interaction-line-0-means"))) == 3
     assert len(_markers(_group(svg, "interaction-line-1-means"))) == 2
     assert "5 of 6 estimates drawn; 2 with a confidence interval" in svg
@@ -218,7 +220,8 @@ def test_missing_intervals_draw_no_bar_and_missing_estimates_no_point():
 def test_nothing_to_draw_gives_none_and_wrong_shapes_are_refused():
     empty = [[None, float("nan"), None]] * 2
     assert _interaction(estimates=empty) is None
-    with pytest.raises(ValueError, match=r"ci_low: expected 2 rows of 3 values .* got shape \(2, 2\)"):
+    with pytest.raises(ValueError,
+                       match=r"ci_low: expected 2 rows of 3 values .* got shape \(2, 2\)"):
         _interaction(ci_low=[[1.0, 2.0], [1.0, 2.0]])
 
 
@@ -358,7 +361,8 @@ def test_colours_of_the_new_figures_stay_apart(vision):
     neutral = {"#000000", "#FFFFFF"}
     six = [[20.0 + g, 24.0 + g, 27.0 + g] for g in range(6)]  # a profile of six groups
     wide = _profile(group_labels=tuple(f"g{g}" for g in range(6)), means=six,
-                    ci_low=[[m - 1 for m in r] for r in six], ci_high=[[m + 1 for m in r] for r in six])
+                    ci_low=[[m - 1 for m in r] for r in six],
+                    ci_high=[[m + 1 for m in r] for r in six])
     used = set().union(*(_line_colours(s) for s in (_interaction(), _covariate(), wide)))
     assert used - neutral == set(PALETTE[:6])  # no colour outside the checked palette
     seen = [_lab(_linear(c) if vision is None else vision @ _linear(c))
