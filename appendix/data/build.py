@@ -47,6 +47,11 @@ def build_dataset(loaded: LoadedPlan) -> Dataset:
     with ThreadPoolExecutor(max_workers=1) as pool:
         hashing = pool.submit(study_inputs, loaded.path, loaded.data_path)
         delimiter = _DELIMITERS.get(loaded.data_path.suffix.lower())
+        if not plan.is_one_way:  # several factors, covariates or a within factor
+            from appendix.data.design_build import build_design_dataset
+
+            table = read_table(loaded.data_path, plan.data.sheet)
+            return build_design_dataset(loaded, table, hashing.result(), delimiter is not None)
         if delimiter is not None and loaded.data_path.is_file():
             from appendix.data.columnar import read_columns
             from appendix.data.scan import SCAN_MIN_BYTES

@@ -50,6 +50,11 @@ class OutcomeData:
     built on cell statistics use it), `sample_of` is the number of analysed units, and
     the arrays hold a deterministic subsample of them, used only for figures and
     row-level diagnostics.
+
+    For designs beyond one factor, `factors[j]` holds each row's level code of the plan's
+    j-th factor (`codes` is then that of `Plan.factor`) and `covariates[j]` each row's
+    value of the j-th covariate; with a within factor a row is one (unit, within level)
+    observation, rows unit by unit, and `units` repeats a unit's id on each of its rows.
     """
 
     name: str
@@ -60,6 +65,8 @@ class OutcomeData:
     decimals: int | None = None
     summary: CellSummary | None = None
     sample_of: int | None = None
+    factors: tuple[np.ndarray, ...] = ()
+    covariates: tuple[np.ndarray, ...] = ()
 
 
 @dataclass(frozen=True)

@@ -28,8 +28,11 @@ def count_levels(codes: np.ndarray, levels: Sequence[str]) -> tuple[LevelCount, 
     return tuple(LevelCount(level=level, n=int(counts[i])) for i, level in enumerate(levels))
 
 
-def flow_findings(plan: Plan, flow: UnitFlow) -> tuple[Finding, ...]:
+def flow_findings(plan: Plan, flow: UnitFlow, grouping: str | None = None) -> tuple[Finding, ...]:
     """What the reader must see about plan versus data.
+
+    The flow counts units per level of the treatment factor, or, given `grouping` (the
+    crossed treatment factors in words), per cell of that crossing.
 
     ``level-without-units``: a plan level with no eligible unit. ``level-without-values``:
     an outcome with no analysed value at a level that does have eligible units (a level
@@ -37,7 +40,8 @@ def flow_findings(plan: Plan, flow: UnitFlow) -> tuple[Finding, ...]:
     eligible units (after exclusions, before missing values) than ``data.planned_n``
     states, in all (``total``) or at a level that has units (``per_group``).
     """
-    factor = plan.factor.label or plan.factor.name
+    factor = grouping or plan.factor.label or plan.factor.name
+    level = "cell" if grouping else "level"
     found: list[Finding] = []
     read = {c.level: c.n for c in flow.read}
     empty = set()
@@ -47,7 +51,7 @@ def flow_findings(plan: Plan, flow: UnitFlow) -> tuple[Finding, ...]:
             n_read = read[count.level]
             why = "none in the data" if n_read == 0 else f"all {n_read} excluded"
             found.append(Finding("level-without-units",
-                                 f"No eligible units at level {show(count.level)} of {factor} "
+                                 f"No eligible units at {level} {show(count.level)} of {factor} "
                                  f"({why})."))
     planned_n = plan.data.planned_n
     planned = planned_n.per_group if planned_n else None
@@ -59,14 +63,14 @@ def flow_findings(plan: Plan, flow: UnitFlow) -> tuple[Finding, ...]:
         for count in flow.eligible:
             if 0 < count.n < planned:
                 found.append(Finding("below-planned-n",
-                                     f"Level {show(count.level)} of {factor}: {count.n} eligible "
+                                     f"{level.capitalize()} {show(count.level)} of {factor}: {count.n} eligible "
                                      f"unit{'s' if count.n != 1 else ''}, {planned} planned."))
     for outcome in flow.outcomes:
         missing = {c.level: c.n for c in outcome.missing}
         for count in outcome.analysed:
             if count.n == 0 and count.level not in empty:
                 found.append(Finding("level-without-values",
-                                     f"Outcome {outcome.outcome}: no analysed values at level "
+                                     f"Outcome {outcome.outcome}: no analysed values at {level} "
                                      f"{show(count.level)} ({missing[count.level]} eligible "
                                      "units, all missing)."))
     return tuple(found)

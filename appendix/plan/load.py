@@ -66,12 +66,13 @@ def plan_sha256(plan: Plan) -> str:
     return hashlib.sha256(canonical_json(plan).encode("utf-8")).hexdigest()
 
 
-def load_plan(path: Path) -> LoadedPlan:
-    """Read, parse and validate a study file.
+def load_plan(path: Path | str) -> LoadedPlan:
+    """Read, parse and validate a study file (a path, as `Path` or text).
 
     Raises `PlanError` listing every problem found (file:line, key path, message), or
     `UserError` when the file cannot be read at all.
     """
+    path = Path(path)
     where = str(path)
     content = _read_bounded(path)
     try:
