@@ -323,6 +323,147 @@ class OutcomeResult:
     warnings: Warnings = ()
 
 
+# --- designs beyond one factor ----------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class ModelRow:
+    """One term of a variance table of a linear model (factor, interaction, covariate) or
+    of a repeated-measures table (``kind`` ``between``, ``within`` or ``error``).
+
+    Partial eta squared = SS / (SS + SS_error); partial omega squared as in Olejnik &
+    Algina (2003); CIs by inverting the noncentral F (Steiger 2004) at
+    `confidence_level` = 1 - 2 alpha. `full_df` is the df the term would have with every
+    cell filled (smaller `df`: some of its contrasts are not estimable). For within-unit
+    terms `gg_*` and `hf_*` give the Greenhouse-Geisser and Huynh-Feldt corrected df and p.
+    """
+
+    term: tuple[str, ...]
+    label: str
+    kind: str
+    df: float
+    sum_of_squares: float | None
+    mean_square: float | None
+    f: float | None
+    p: float | None
+    partial_eta_squared: float | None
+    partial_eta_ci: tuple[float, float] | None
+    partial_omega_squared: float | None
+    partial_omega_ci: tuple[float, float] | None
+    confidence_level: float
+    full_df: float | None = None
+    gg_df: tuple[float, float] | None = None
+    gg_p: float | None = None
+    hf_df: tuple[float, float] | None = None
+    hf_p: float | None = None
+    warnings: Warnings = ()
+
+
+@dataclass(frozen=True)
+class ModelTable:
+    """A variance table of a linear model with its sums-of-squares type (1 sequential,
+    2 marginal-hierarchical, 3 each term adjusted for all others under sum-to-zero coding)."""
+
+    ss_type: int
+    rows: tuple[ModelRow, ...]
+    residual_df: float
+    residual_ss: float
+    residual_ms: float | None
+    total_df: float
+    total_ss: float
+    r_squared: float | None
+    estimability: str
+    empty_cells: tuple[str, ...] = ()
+    stratum: str = "units"
+    warnings: Warnings = ()
+
+
+@dataclass(frozen=True)
+class MarginalMean:
+    """An estimated marginal mean (predicted cell means averaged with equal weights over
+    the other factors' levels, covariates at their mean) with its t interval."""
+
+    levels: tuple[str, ...]
+    estimate: float | None
+    se: float | None
+    df: float | None
+    ci_low: float | None
+    ci_high: float | None
+    warnings: Warnings = ()
+
+
+@dataclass(frozen=True)
+class MarginalMeans:
+    factors: tuple[str, ...]
+    label: str
+    confidence_level: float
+    means: tuple[MarginalMean, ...]
+    basis: str
+
+
+@dataclass(frozen=True)
+class SlopesCheck:
+    """Homogeneity of regression slopes: the covariate by treatment-cell interaction added
+    to the model, F test."""
+
+    covariate: str
+    by: tuple[str, ...]
+    df: float
+    df_residual: float
+    f: float | None
+    p: float | None
+    warnings: Warnings = ()
+
+
+@dataclass(frozen=True)
+class Sphericity:
+    """Mauchly's (1940) test and the epsilon estimates for one within factor.
+
+    `df` is the df of Mauchly's chi-square, d(d + 1)/2 - 1. `lower_bound` is 1/d
+    (Greenhouse & Geisser 1959). `huynh_feldt` (Huynh & Feldt 1976, with Lecoutre's 1991
+    correction for groups) is capped at 1; `greenhouse_geisser` never exceeds 1. With two
+    levels sphericity holds by construction: both epsilons are 1 and Mauchly's W is None,
+    with a warning saying why.
+    """
+
+    mauchly_w: float | None
+    chi_square: float | None
+    df: int
+    p: float | None
+    greenhouse_geisser: float | None
+    huynh_feldt: float | None
+    lower_bound: float
+    warnings: Warnings = ()
+
+
+@dataclass(frozen=True)
+class ModelOutcome:
+    """Everything computed for one registered outcome of a design beyond one factor.
+
+    `tables` holds the between-unit variance table and, with a within factor, the
+    repeated-measures table; `conclusions` one sentence per tested term, in table order.
+    """
+
+    name: str
+    label: str
+    unit: str | None
+    role: str
+    design: str
+    n_units: int
+    n_observations: int
+    arithmetic: str
+    descriptives: Descriptives
+    tables: tuple[ModelTable, ...]
+    marginal_means: tuple[MarginalMeans, ...]
+    slopes: tuple[SlopesCheck, ...]
+    sphericity: Sphericity | None
+    diagnostics: Diagnostics
+    conclusions: tuple[Conclusion, ...]
+    contrasts: tuple[ContrastFamily, ...] = ()
+    hypothesis_conclusions: tuple[Conclusion, ...] = ()
+    warnings: Warnings = ()
+
+
 # --- data provenance --------------------------------------------------------------------
 
 
@@ -422,6 +563,7 @@ class FactorInfo:
     levels: tuple[str, ...]
     control: str | None
     ordered: bool
+    role: str = "treatment"
 
 
 @dataclass(frozen=True)
@@ -447,6 +589,8 @@ class StudyResults:
     deviations: tuple[Deviation, ...] = ()
     multiplicity: str | None = None
     multiplicity_scope: str | None = None
+    factors: tuple[FactorInfo, ...] = ()
+    models: tuple[ModelOutcome, ...] = ()
     format_version: int = field(default=FORMAT_VERSION)
 
 

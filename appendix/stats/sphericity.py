@@ -14,34 +14,16 @@ Anderson (2003, *An Introduction to Multivariate Statistical Analysis*, 3rd ed.)
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
 
 import numpy as np
 from scipy import stats as _st
 
-from appendix.results import StatWarning
+from appendix.results import Sphericity, StatWarning
 
 __all__ = ["Sphericity", "centred", "helmert_contrasts", "sphericity"]
 
 
-@dataclass(frozen=True)
-class Sphericity:
-    """Mauchly's test and the epsilon estimates for one within factor.
-
-    `df` is the df of Mauchly's chi-square, d(d + 1)/2 - 1. `lower_bound` is 1/d
-    (Greenhouse & Geisser 1959). `huynh_feldt` is capped at 1; `greenhouse_geisser` never
-    exceeds 1. With two levels sphericity holds by construction: both epsilons are 1 and
-    Mauchly's W is None, with a warning saying why.
-    """
-
-    mauchly_w: float | None
-    chi_square: float | None
-    df: int
-    p: float | None
-    greenhouse_geisser: float | None
-    huynh_feldt: float | None
-    lower_bound: float
-    warnings: tuple[StatWarning, ...] = ()
+# Sphericity (the result type) lives with the other result types in appendix.results.
 
 
 def centred(y: np.ndarray) -> tuple[np.ndarray, float]:
