@@ -19,6 +19,7 @@ from pathlib import Path
 
 from appendix.data.build import build_dataset
 from appendix.data.dataset import Dataset
+from appendix.errors import UserError
 from appendix.plan.load import LoadedPlan, load_plan
 from appendix.results import StudyResults, to_json, to_plain
 from appendix.runner import analyse as _analyse
@@ -62,8 +63,11 @@ def load_data(loaded: LoadedPlan, *, out_of_core: bool | None = None) -> Dataset
     from appendix.data import outofcore
 
     if out_of_core is None:
-        out_of_core = outofcore.should_go_out_of_core(loaded.data_path)
+        out_of_core = loaded.plan.is_one_way and outofcore.should_go_out_of_core(loaded.data_path)
     if out_of_core:
+        if not loaded.plan.is_one_way:
+            raise UserError("out-of-core aggregation handles one-factor designs only in this "
+                            "version; this plan has several factors, covariates or a within factor")
         return outofcore.build_dataset_out_of_core(loaded)
     return build_dataset(loaded)
 
@@ -95,6 +99,10 @@ def render(computed: Computed, options=None) -> Rendered:
     options = options or html.RenderOptions()
     text = to_json(computed.results)
     svgs = figures.make_figures(computed.dataset, computed.results)
+    if computed.results.models:
+        from appendix.model_figures import model_figures
+
+        svgs.update(model_figures(computed.results))
     page = html.render_html(to_plain(computed.results), svgs, options)
     return Rendered(results_json=text, figures=svgs, html=page)
 

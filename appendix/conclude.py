@@ -189,7 +189,8 @@ def hypothesis_conclusion(plan: Plan, outcome: Outcome, h: HypothesisResult,
                 if h.p_adjusted is not None and multiplicity != "none" else fmt.p_clause(h.p))
     how = _MULTIPLICITY_NAMES.get(multiplicity, multiplicity)
     evidence = f"{_interval_words(h, unit)}, {adjusted}, {how}"
-    pair = _levels_compared(h, plan.factor.levels)
+    factor = plan.factor_named(_contrast_factor(plan, h))
+    pair = _levels_compared(h, factor.levels)
     size = abs(h.estimate)
     measure = "mean rank" if h.method == "rank-based" else f"mean {outcome.label}"
     if pair is not None:
@@ -201,6 +202,9 @@ def hypothesis_conclusion(plan: Plan, outcome: Outcome, h: HypothesisResult,
         first = (f"The contrast {ref} of {measure} was estimated at "
                  f"{fmt.fixed(h.estimate, 2)}{unit} ({evidence})")
         null = "a zero contrast"
+    if "@" in h.id:  # a simple effect: the comparison within one level of another factor
+        by = plan.factor_named(_contrast_of(plan, h).by)
+        first = f"Within {by.label or by.name} {h.id.split('@', 1)[1]}, {first[:1].lower()}{first[1:]}"
     if h.alternative != "two-sided":
         null += f" against the one-sided alternative '{h.alternative}'"
     if h.decision == "reject":
@@ -212,6 +216,17 @@ def hypothesis_conclusion(plan: Plan, outcome: Outcome, h: HypothesisResult,
         decision = "retain"
     return Conclusion(sentence=f"{first}; {rest}", decision=decision,
                       p=h.p_adjusted if h.p_adjusted is not None else h.p, alpha=alpha)
+
+
+def _contrast_of(plan: Plan, h: HypothesisResult):
+    """The registered (or exploratory) contrast hypothesis `h` belongs to, or None."""
+    return next((c for c in (*plan.contrasts, *plan.exploratory) if c.id == h.contrast), None)
+
+
+def _contrast_factor(plan: Plan, h: HypothesisResult) -> str:
+    """The factor whose levels hypothesis `h` compares (its contrast's, else the plan's)."""
+    contrast = _contrast_of(plan, h)
+    return contrast.factor if contrast is not None and contrast.factor else plan.factor.name
 
 
 def _variance_detail(test: VarianceTest) -> str:
@@ -274,3 +289,41 @@ def assumption_statuses(plan: Plan, normality: NormalityTest | None,
         normal,
         spread,
     )
+
+
+_SS_TYPES = {1: "sequential (type 1) sums of squares in the registered order",
+             2: "type 2 sums of squares", 3: "type 3 sums of squares under sum-to-zero coding"}
+
+
+def term_conclusion(plan: Plan, outcome: Outcome, row, ss_type: int, df_error: float) -> Conclusion:
+    """One model term's F test in plain words, e.g. "Coating × Irrigation: F(2, 60) = 4.10,
+    p = .021, partial η² = .12 (90% CI [.01, .24]); the hypothesis of no interaction is
+    rejected at α = .05 (type 3 sums of squares)." Within-unit terms name the corrected test
+    in force: Greenhouse-Geisser when its df are given."""
+    alpha = plan.alpha
+    what = {"interaction": "no interaction", "covariate": "no association with the covariate"}.get(
+        row.kind, "equal marginal means")
+    how = _SS_TYPES.get(ss_type, f"type {ss_type} sums of squares")
+    if row.f is None or row.p is None:
+        reasons = " ".join(w.message for w in row.warnings) or "See the warnings."
+        return Conclusion(sentence=f"The test of {row.label} for {outcome.label} could not be computed. "
+                                   f"{reasons}", decision="unavailable", p=None, alpha=alpha)
+    df1, df2, p, corrected = row.df, df_error, row.p, ""
+    if row.gg_df is not None and row.gg_p is not None:
+        (df1, df2), p, corrected = row.gg_df, row.gg_p, ", Greenhouse-Geisser corrected"
+    clause = f"F({fmt.df_value(df1)}, {fmt.df_value(df2)}) = {fmt.fixed(row.f, 2)}, {fmt.p_clause(p)}"
+    if row.partial_eta_squared is not None:
+        ci = ""
+        if row.partial_eta_ci is not None:
+            ci = (f" ({fmt.percent(row.confidence_level)} CI "
+                  f"{fmt.interval(*row.partial_eta_ci, 2, bounded=True)})")
+        clause += f", partial \u03b7\u00b2 = {fmt.proportion(row.partial_eta_squared)}{ci}"
+    if p < alpha:
+        rest = f"the hypothesis of {what} is rejected at {_alpha(alpha)}"
+        decision = "reject"
+    else:
+        rest = (f"the hypothesis of {what} is not rejected at {_alpha(alpha)}, which is not "
+                "evidence that there is no effect")
+        decision = "retain"
+    sentence = f"{upper_first(row.label)} ({outcome.label}): {clause}{corrected}; {rest}; {how}."
+    return Conclusion(sentence=sentence, decision=decision, p=p, alpha=alpha)

@@ -149,6 +149,21 @@ REFERENCES: Mapping[str, Reference] = MappingProxyType({r.key: r for r in (
     _article("mccullough1998", "McCullough, B. D.", 1998, "Assessing the reliability of "
              "statistical software: Part I", "The American Statistician", "52", "4",
              "358\u2013366", "10.1080/00031305.1998.10480586"),
+    _article("greenhouse1959", "Greenhouse, S. W., & Geisser, S.", 1959, "On methods in the "
+             "analysis of profile data", "Psychometrika", "24", "2", "95\u2013112",
+             "10.1007/BF02289823"),
+    _article("huynh1976", "Huynh, H., & Feldt, L. S.", 1976, "Estimation of the Box correction "
+             "for degrees of freedom from sample data in randomized block and split-plot designs",
+             "Journal of Educational Statistics", "1", "1", "69\u201382", "10.3102/10769986001001069"),
+    _article("mauchly1940", "Mauchly, J. W.", 1940, "Significance test for sphericity of a normal "
+             "n-variate distribution", "The Annals of Mathematical Statistics", "11", "2",
+             "204\u2013209", "10.1214/aoms/1177731915"),
+    _article("searle1980", "Searle, S. R., Speed, F. M., & Milliken, G. A.", 1980, "Population "
+             "marginal means in the linear model: An alternative to least squares means",
+             "The American Statistician", "34", "4", "216\u2013221", "10.1080/00031305.1980.10483031"),
+    _article("langsrud2003", "Langsrud, \u00d8.", 2003, "ANOVA for unbalanced data: Use Type II "
+             "instead of Type III sums of squares", "Statistics and Computing", "13", "2",
+             "163\u2013167", "10.1023/A:1023260610025"),
     _article("olejnik2003", "Olejnik, S., & Algina, J.", 2003, "Generalized eta and omega "
              "squared statistics: Measures of effect size for some common research designs",
              "Psychological Methods", "8", "4", "434\u2013447", "10.1037/1082-989X.8.4.434"),
@@ -205,6 +220,49 @@ METHODS: Mapping[str, Method] = MappingProxyType({m.key: m for m in (
            "degrees of freedom; the p value is the right-tail probability. The test assumes "
            "independent units, normally distributed errors and equal group variances.",
            ("fisher1925",)),
+    Method("model-descriptives", "Descriptive statistics by cell",
+           "Per cell of the crossed treatment factors: the number of units analysed and "
+           "missing, the mean with its standard deviation (n \u2212 1 divisor) and a "
+           "confidence interval from Student's t on n \u2212 1 degrees of freedom, and the "
+           "median (Hyndman & Fan, 1996, definition 7), before any adjustment by the model.",
+           ("hyndman1996",)),
+    Method("linear-model", "Linear model fitted from cell statistics",
+           "The registered model (treatment factors, blocks, the listed interactions and "
+           "covariates) is fitted by least squares from the cells' sufficient statistics: the "
+           "number of units, the means and the centred within-cell cross-products, computed "
+           "in one stable pass over the rows, so that the fit itself costs no more with more "
+           "rows. Each term's sum of squares is the increase in residual sum of squares when "
+           "the term leaves the model: in the order listed for type 1; adjusted for every "
+           "term that does not contain it for type 2; adjusted for all other terms, with "
+           "sum-to-zero coding, for type 3 (Langsrud, 2003, on the choice). The F ratio of "
+           "each term's mean square to the residual mean square is referred to the F "
+           "distribution. Partial eta squared and partial omega squared (Olejnik & Algina, "
+           "2003) have confidence intervals from inverting the noncentral F distribution "
+           "(Steiger, 2004).",
+           ("langsrud2003", "olejnik2003", "steiger2004")),
+    Method("marginal-means", "Estimated marginal means and their contrasts",
+           "Estimated marginal means are the model's predicted cell means averaged with equal "
+           "weights over the levels of the other factors, covariates held at their overall "
+           "mean (Searle, Speed & Milliken, 1980). Their standard errors and those of the "
+           "planned contrasts among them come from the covariance matrix of the fitted "
+           "coefficients; t on the residual degrees of freedom. Simple effects compare a "
+           "factor's levels within one level of another factor.",
+           ("searle1980",)),
+    Method("slopes", "Homogeneity of regression slopes",
+           "For each covariate the interaction of the covariate with the cells of the "
+           "treatment factors is added to the model and tested with an F test; adjusted means "
+           "assume a common slope.",
+           ()),
+    Method("repeated", "Repeated-measures analysis of variance",
+           "With a within-unit factor, the univariate repeated-measures analysis of variance "
+           "uses complete units only (as registered): the between-unit stratum tests the "
+           "treatment cells against the variation between units, the within-unit stratum the "
+           "within factor and its interaction with the treatment cells against the residual "
+           "within units. Sphericity is tested with Mauchly's (1940) test; within-unit tests "
+           "are also given with the degrees of freedom multiplied by the Greenhouse\u2013"
+           "Geisser (1959) and Huynh\u2013Feldt (1976) epsilons, and the conclusions use the "
+           "Greenhouse\u2013Geisser corrected test.",
+           ("mauchly1940", "greenhouse1959", "huynh1976")),
     Method("welch", "Welch's heteroscedastic F test",
            "Welch's (1951) test compares the group means without assuming equal variances; "
            "groups are weighted by n/s\u00b2 and the denominator degrees of freedom are "
@@ -429,8 +487,29 @@ _CONTRAST_ORDER = (
     "fixed-sequence", "unadjusted", "hedges", "one-sided")
 
 
+def _model_methods(results: Mapping[str, Any]) -> tuple[Method, ...]:
+    """The methods of a run of a design beyond one factor."""
+    models = list(results["models"])
+    chosen = ["model-descriptives"]
+    chosen += ["linear-model"] if _ran(models, lambda m: m["marginal_means"] or not m["sphericity"]) else []
+    chosen += ["marginal-means"] if _ran(models, lambda m: m["marginal_means"]) else []
+    chosen += ["slopes"] if _ran(models, lambda m: m["slopes"]) else []
+    chosen += ["repeated"] if _ran(models, lambda m: m["sphericity"]) else []
+    chosen += ["shapiro"] if _ran(models, lambda m: m["diagnostics"]["normality"]) else []
+    chosen += ["brown-forsythe"] if _ran(models, lambda m: m["diagnostics"]["equal_variance"]) else []
+    arithmetic = {m["arithmetic"] for m in models}
+    chosen += [m for m in ("exact-decimal", "float64") if m in arithmetic]
+    families = [f for m in models for f in m["contrasts"] if f["hypotheses"]]
+    used = {multiplicity_method(f) for f in families} | {h["kind"] for f in families for h in f["hypotheses"]}
+    chosen += [key for key in _CONTRAST_ORDER if key in used]
+    chosen += ["reporting"]
+    return tuple(METHODS[key] for key in chosen)
+
+
 def methods_used(results: Mapping[str, Any]) -> tuple[Method, ...]:
     """The methods that `results` (parsed results.json) show were run, in appendix order."""
+    if results.get("models"):
+        return _model_methods(results)
     outcomes = list(results["outcomes"])
     variance_methods = {t["method"] for o in outcomes for t in o["diagnostics"]["equal_variance"]}
     chosen = ["descriptives", "anova"]

@@ -17,22 +17,23 @@ def _hypotheses(n: int) -> str:
     return f"{n} hypothes{'is' if n == 1 else 'es'}"
 
 
-def _contrast(word: str, contrast: Contrast, k: int) -> str:
+def _contrast(word: str, contrast: Contrast, plan: Plan) -> str:
     outcomes = ", ".join(contrast.outcomes) if contrast.outcomes else "every outcome"
-    return (f"{word} {contrast.id} ({contrast.kind}): {contrast.label}; "
-            f"{_hypotheses(contrast.hypothesis_count(k))}, {contrast.alternative}; "
+    where = "" if plan.is_one_way else (f" of {plan.factor_of(contrast).name}"
+                                        + (f" within each level of {contrast.by}" if contrast.by else ""))
+    return (f"{word} {contrast.id} ({contrast.kind}{where}): {contrast.label}; "
+            f"{_hypotheses(plan.hypotheses_of(contrast))}, {contrast.alternative}; "
             f"outcomes: {outcomes}")
 
 
 def describe_contrasts(plan: Plan) -> list[str]:
     """The registered analysis, fallbacks, contrasts with their hypothesis counts, the
     multiplicity control and the exploratory analyses, one line each."""
-    k = len(plan.factor.levels)
     lines = [f"registered analysis: {plan.analysis.method}"]
     lines += [f"registered fallback {i}: if {rule.test} gives p < {rule.threshold:g} "
               f"({rule.when}), use {rule.use}"
               for i, rule in enumerate(plan.assumptions.fallbacks, start=1)]
-    lines += [_contrast("contrast", c, k) for c in plan.contrasts]
+    lines += [_contrast("contrast", c, plan) for c in plan.contrasts]
     if plan.contrasts:
         settings = plan.multiplicity
         order = f" in the order {', '.join(settings.order)}" if settings.order else ""
@@ -41,7 +42,7 @@ def describe_contrasts(plan: Plan) -> list[str]:
         family = f"; primary family {primary}" if settings.scope == "primary-family" else ""
         lines.append(f"multiplicity: {settings.method}{order}, {settings.scope}; "
                      f"hypotheses per outcome: {counts}{family}")
-    lines += [_contrast("exploratory", c, k) + f"; not adjusted; reason: {c.reason}"
+    lines += [_contrast("exploratory", c, plan) + f"; not adjusted; reason: {c.reason}"
               for c in plan.exploratory]
     return lines
 
@@ -50,16 +51,19 @@ def describe_run(loaded: LoadedPlan, dataset: Dataset) -> list[str]:
     """Lines of text: the plan, the data and its unit flow, every analysis a run makes, and
     notes on plan choices the literature warns against."""
     plan = loaded.plan
-    factor = plan.factor
     flow = dataset.unit_flow
     lines = [
         f"study {plan.study.id}: {plan.study.title}",
         f"plan SHA-256 {loaded.sha256}",
     ]
     lines += [f"{item.role} {item.path}  SHA-256 {item.sha256}" for item in dataset.inputs]
-    lines.append(f"factor {factor.name}: {len(factor.levels)} levels "
-                 f"({', '.join(factor.levels)})"
-                 + (f", control {factor.control}" if factor.control else ""))
+    for factor in plan.design.factors:
+        role = "" if plan.is_one_way else f" ({factor.role})"
+        lines.append(f"factor {factor.name}{role}: {len(factor.levels)} levels "
+                     f"({', '.join(factor.levels)})"
+                     + (f", control {factor.control}" if factor.control else ""))
+    for covariate in plan.design.covariates:
+        lines.append(f"covariate {covariate.name}: column {covariate.data_column}")
     lines.append(f"units read: {_counts(flow.read)}")
     for rule in flow.exclusions:
         lines.append(f"excluded by {rule.rule} ({rule.reason}): {rule.total}")
@@ -73,10 +77,22 @@ def describe_run(loaded: LoadedPlan, dataset: Dataset) -> list[str]:
     checks = [settings.normality] if settings.normality != "none" else []
     checks += list(settings.equal_variance)
     checks.append(f"studentized residuals beyond {settings.outliers.threshold:g}")
-    lines.append(
-        f"per outcome, at alpha {plan.alpha:g}: descriptives; one-way variance table (F test); "
-        f"Welch's ANOVA; Kruskal-Wallis; eta squared, omega squared and Cohen's f with CIs; "
-        f"diagnostics: {', '.join(checks)}")
+    if plan.is_one_way:
+        lines.append(
+            f"per outcome, at alpha {plan.alpha:g}: descriptives; one-way variance table (F test); "
+            f"Welch's ANOVA; Kruskal-Wallis; eta squared, omega squared and Cohen's f with CIs; "
+            f"diagnostics: {', '.join(checks)}")
+    else:
+        terms = ", ".join(" x ".join(t) for t in plan.model_terms)
+        within = (f"; within units over {plan.within.name} (complete units): "
+                  + ", ".join(" x ".join(t) for t in plan.within_terms)
+                  + ", with Mauchly's test and Greenhouse-Geisser / Huynh-Feldt corrections"
+                  if plan.within else "")
+        lines.append(
+            f"per outcome, at alpha {plan.alpha:g}: descriptives by cell; variance table with "
+            f"type {plan.design.sums_of_squares or 2} sums of squares of {terms}{within}; "
+            "partial eta and omega squared with CIs; estimated marginal means"
+            + ("; homogeneity of slopes" if plan.design.covariates else ""))
     lines += describe_contrasts(plan)
     lines += [f"finding: {finding.message}" for finding in dataset.findings]
     lines += [f"note: {note}" for note in lint(plan)]

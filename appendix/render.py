@@ -101,7 +101,7 @@ def _filters(options: RenderOptions) -> dict[str, Any]:
 WORDS: Mapping[str, Mapping[str, str]] = MappingProxyType({
     "analyses": MappingProxyType({
         "classical": "classical (pooled variance)", "welch": "Welch (unequal variances)",
-        "rank-based": "rank-based (Dunn)"}),
+        "rank-based": "rank-based (Dunn)", "marginal-means": "estimated marginal means"}),
     "analysis_notes": MappingProxyType({
         # our own markup (italic test statistics), so marked safe for the autoescaping templates
         "classical": Markup("Estimates are weighted sums of the group means; <i>t</i> on the "
@@ -110,7 +110,12 @@ WORDS: Mapping[str, Mapping[str, str]] = MappingProxyType({
                         "Welch\u2013Satterthwaite degrees of freedom (group variances not "
                         "pooled)."),
         "rank-based": Markup("Estimates are contrasts of the groups' mean ranks; <i>z</i> from "
-                             "Dunn's (1964) rank test, corrected for ties.")}),
+                             "Dunn's (1964) rank test, corrected for ties."),
+        "marginal-means": Markup("Estimates are weighted sums of the model's estimated marginal "
+                                 "means (within one level of another factor for a simple "
+                                 "effect); <i>t</i> on the model's residual degrees of freedom. "
+                                 "Contrasts of a within-unit factor are tested on the units' own "
+                                 "contrast scores, which needs no sphericity.")}),
     "scopes": MappingProxyType({
         "per-outcome": "across this outcome's hypotheses",
         "primary-family": "across the hypotheses of every primary outcome",
@@ -222,6 +227,7 @@ def render_html(results: dict, figures: dict[str, str], options: RenderOptions) 
     return env.get_template("appendix.html.j2").render(
         r=results,
         outcomes=_ordered_outcomes(results),
+        models=sorted(results.get("models", []), key=lambda m: m["role"] != "primary"),
         figures={key: _inline_svg(svg) for key, svg in figures.items()},
         figure_kinds=FIGURE_KINDS,
         plot_points=PLOT_POINTS,

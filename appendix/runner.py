@@ -11,6 +11,7 @@ from dataclasses import dataclass
 
 from appendix import conclude, families
 from appendix.data.dataset import Dataset, OutcomeData
+from appendix.models import analyse_model_outcome
 from appendix.plan.load import LoadedPlan
 from appendix.plan.model import Outcome, Plan
 from appendix.results import (
@@ -183,9 +184,16 @@ def analyse(loaded: LoadedPlan, dataset: Dataset,
     plan = loaded.plan
     flows = {flow.outcome: flow for flow in dataset.unit_flow.outcomes}
     ordered = sorted(plan.outcomes, key=lambda o: o.role != "primary")
-    work = [analyse_outcome(plan, outcome, dataset.outcome(outcome.name),
-                            flows[outcome.name].missing)
-            for outcome in ordered]
+    work, models = [], ()
+    if plan.is_one_way:
+        work = [analyse_outcome(plan, outcome, dataset.outcome(outcome.name),
+                                flows[outcome.name].missing)
+                for outcome in ordered]
+    else:
+        models = tuple(analyse_model_outcome(plan, outcome, dataset.outcome(outcome.name),
+                                             [c.n for c in flows[outcome.name].missing],
+                                             dataset.levels)
+                       for outcome in ordered)
     outcomes = tuple(w.result for w in work)
     if plan.contrasts and plan.multiplicity.scope == "primary-family":
         outcomes = families.adjust_primary_family(plan, outcomes)
@@ -217,4 +225,11 @@ def analyse(loaded: LoadedPlan, dataset: Dataset,
         deviations=tuple(d for w in work for d in w.deviations),
         multiplicity=plan.multiplicity.method if plan.contrasts else None,
         multiplicity_scope=plan.multiplicity.scope if plan.contrasts else None,
+        factors=tuple(_factor_info(f) for f in plan.design.factors),
+        models=models,
     )
+
+
+def _factor_info(factor) -> FactorInfo:
+    return FactorInfo(name=factor.name, label=factor.label or factor.name, levels=factor.levels,
+                      control=factor.control, ordered=factor.ordered, role=factor.role)
