@@ -102,7 +102,7 @@ def render(computed: Computed, options=None) -> Rendered:
     if computed.results.models:
         from appendix.model_figures import model_figures
 
-        svgs.update(model_figures(computed.results))
+        svgs.update(model_figures(computed.dataset, computed.results))
     page = html.render_html(to_plain(computed.results), svgs, options)
     return Rendered(results_json=text, figures=svgs, html=page)
 

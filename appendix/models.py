@@ -27,6 +27,7 @@ from appendix.errors import PlanError, Problem
 from appendix.plan.model import Outcome, Plan
 from appendix.results import (
     ContrastFamily,
+    CovariateSlope,
     Diagnostics,
     HypothesisResult,
     MarginalMean,
@@ -63,7 +64,7 @@ def design_words(plan: Plan) -> str:
     """The design in words, e.g. 'two crossed treatment factors in blocks, covariate-adjusted,
     with repeated measures'."""
     count = len(plan.treatments)
-    words = {1: "one treatment factor", 2: "two crossed treatment factors",
+    words = {0: "no treatment factor", 1: "one treatment factor", 2: "two crossed treatment factors",
              3: "three crossed treatment factors"}.get(count, f"{count} crossed treatment factors")
     parts = [words]
     if plan.blocks:
@@ -125,7 +126,7 @@ def _between_outcome(plan, outcome, data, missing_by_cell, cell_labels) -> Model
         conclusions=tuple(conclude.term_conclusion(plan, outcome, row, table.ss_type, table.residual_df)
                           for row in table.rows if _concluded(plan, row.term)),
         contrasts=families, hypothesis_conclusions=hypothesis_sentences,
-        warnings=tuple(fit.warnings))
+        covariate_slopes=_covariate_slopes(plan, fit), warnings=tuple(fit.warnings))
 
 
 def _concluded(plan: Plan, term: tuple[str, ...]) -> bool:
@@ -170,6 +171,30 @@ def _slopes_checks(plan: Plan, cells, fit) -> tuple[SlopesCheck, ...]:
                                   df=row.df, df_residual=fit.residual_df - row.df, f=row.f, p=row.p,
                                   warnings=tuple(row.warnings)))
     return tuple(checks)
+
+
+def _covariate_slopes(plan: Plan, fit, confidence: float = 0.95) -> tuple[CovariateSlope, ...]:
+    """Each covariate's common slope (its coefficient; covariates are centred) with a t
+    interval on the residual df."""
+    from appendix.stats.contrasts import critical_value, interval
+
+    means = dict(fit.covariate_means)
+    out = []
+    for covariate in plan.design.covariates:
+        j = next(k for k, t in enumerate(fit.column_terms)
+                 if t == (covariate.name,) and fit.column_covariate[k] == covariate.name)
+        estimate = float(fit.coefficients[j])
+        variance = float(fit.covariance[j, j])
+        se = math.sqrt(variance) if math.isfinite(variance) and variance >= 0 else None
+        low = high = None
+        if se is not None and fit.residual_df > 0:
+            low, high = interval(estimate, se, critical_value(fit.residual_df, "two-sided", confidence),
+                                 "two-sided")
+        out.append(CovariateSlope(covariate=covariate.name, label=covariate.label,
+                                  mean=float(means[covariate.name]), estimate=estimate, se=se,
+                                  df=fit.residual_df, ci_low=low, ci_high=high,
+                                  confidence_level=confidence))
+    return tuple(out)
 
 
 def _marginal(plan: Plan, fit, over: str | None = None) -> tuple[MarginalMeans, ...]:
@@ -340,8 +365,11 @@ def _repeated_outcome(plan, outcome, data, missing_by_cell, cell_labels) -> Mode
     for row, unit in enumerate(data.units):
         first.setdefault(unit, row)
     rows_of_units = np.array([first[u] for u in complete.units], dtype=np.int64)
-    grid = Grid(names=tuple(f.name for f in plan.between), levels=tuple(f.levels for f in plan.between))
-    codes = [data.factors[index[f.name]][rows_of_units] for f in plan.between]
+    if plan.between:
+        grid = Grid(names=tuple(f.name for f in plan.between), levels=tuple(f.levels for f in plan.between))
+        codes = [data.factors[index[f.name]][rows_of_units] for f in plan.between]
+    else:  # repeated measures alone: one between-unit cell
+        grid, codes = Grid(names=("all",), levels=(tuple(cell_labels),)), [np.zeros(rows_of_units.size, np.int64)]
     covariates = {c.name: data.covariates[j][rows_of_units] for j, c in enumerate(plan.design.covariates)}
     interacting = _interacting(plan)
     fit = split_plot(grid, codes, complete.y, covariates or None, plan.model_terms, interacting,
@@ -383,7 +411,8 @@ def _repeated_outcome(plan, outcome, data, missing_by_cell, cell_labels) -> Mode
         arithmetic="float64", descriptives=descriptives, tables=(between, within_table),
         marginal_means=_marginal(plan, fit.between, over=within.label or within.name),
         slopes=slopes, sphericity=sphericity, diagnostics=diagnostics, conclusions=conclusions,
-        contrasts=families, hypothesis_conclusions=sentences, warnings=notes)
+        contrasts=families, hypothesis_conclusions=sentences,
+        covariate_slopes=_covariate_slopes(plan, fit.between), warnings=notes)
 
 
 def _interacting(plan: Plan) -> tuple[tuple[str, ...], ...]:

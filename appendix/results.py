@@ -416,6 +416,23 @@ class SlopesCheck:
 
 
 @dataclass(frozen=True)
+class CovariateSlope:
+    """The common within-cell regression slope of the outcome on a covariate, with its t
+    interval on the residual df (the covariate is centred at `mean`, where the adjusted
+    means are taken)."""
+
+    covariate: str
+    label: str
+    mean: float
+    estimate: float | None
+    se: float | None
+    df: float
+    ci_low: float | None
+    ci_high: float | None
+    confidence_level: float
+
+
+@dataclass(frozen=True)
 class Sphericity:
     """Mauchly's (1940) test and the epsilon estimates for one within factor.
 
@@ -461,6 +478,7 @@ class ModelOutcome:
     conclusions: tuple[Conclusion, ...]
     contrasts: tuple[ContrastFamily, ...] = ()
     hypothesis_conclusions: tuple[Conclusion, ...] = ()
+    covariate_slopes: tuple[CovariateSlope, ...] = ()
     warnings: Warnings = ()
 
 

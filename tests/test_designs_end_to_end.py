@@ -131,7 +131,7 @@ def test_the_appendix_names_the_design_and_the_sums_of_squares(tmp_path):
     html = render(compute(tmp_path / "study.yaml")).html
     assert "type 3 (each term adjusted for all others, sum-to-zero coding)" in html
     assert "Estimated marginal means of dry mass by coating" in html.replace("Dry", "dry")
-    assert "Homogeneity of regression slopes" in html
+    assert "Covariate adjustment" in html and "Common slope of Dry mass on Baseline height" in html
     assert "statistical output informs, but is not, a clinical or regulatory decision" in " ".join(html.split())
 
 
@@ -231,3 +231,45 @@ multiplicity: {method: dunnett}
                                                               random_state=1)
         assert h.p_adjusted == pytest.approx(1.0 - inside, abs=2e-4)
         assert h.p_adjusted >= h.p
+
+
+def test_repeated_measures_alone_match_pingouin_rm_anova(tmp_path):
+    """A within factor and nothing else (one group of units measured at every level)."""
+    pingouin = pytest.importorskip("pingouin")
+    rng = np.random.default_rng(8)
+    rows = [(f"U{u:02d}", visit, f"{30 + u % 5 + 1.5 * v + rng.normal(0, 1):.2f}")
+            for u in range(1, 16) for v, visit in enumerate(["day7", "day14", "day21", "day28"])]
+    frame = pd.DataFrame(rows, columns=["unit_id", "visit", "index"])
+    frame.to_csv(tmp_path / "visits.csv", index=False)
+    (tmp_path / "study.yaml").write_text("""\
+format: 1
+study: {id: invented-within, title: Invented repeated measures alone}
+data: {source: visits.csv, unit: unit_id}
+design:
+  factors:
+    - {name: visit, role: within, levels: [day7, day14, day21, day28], ordered: true}
+  sums_of_squares: 2
+outcomes:
+  - {name: index, label: Leaf index, role: primary}
+contrasts:
+  - {id: T1, factor: visit, kind: trend, label: Linear trend over visits}
+multiplicity: {method: none}
+""", encoding="utf-8")
+    computed = compute(tmp_path / "study.yaml")
+    (model,) = computed.results.models
+    frame["index"] = frame["index"].astype(float)
+    reference = pingouin.rm_anova(data=frame, dv="index", within="visit", subject="unit_id",
+                                  correction=True).iloc[0]
+    visit = next(r for r in model.tables[1].rows if r.term == ("visit",))
+    assert visit.f == pytest.approx(reference["F"], rel=1e-9)
+    assert (visit.df, model.tables[1].residual_df) == (reference["ddof1"], reference["ddof2"])
+    assert model.sphericity.greenhouse_geisser == pytest.approx(reference["eps"], rel=1e-9)
+    # The linear trend is a one-sample t test of each unit's trend score (scipy as reference).
+    from scipy import stats
+
+    (family,) = model.contrasts
+    (trend,) = family.hypotheses
+    wide = frame.pivot(index="unit_id", columns="visit", values="index")[["day7", "day14", "day21", "day28"]]
+    scores = wide.to_numpy() @ np.array(trend.weights)
+    assert trend.p == pytest.approx(stats.ttest_1samp(scores, 0.0).pvalue, rel=1e-9)
+    assert "all units" in render(computed).html

@@ -38,8 +38,14 @@ from appendix.results import ExclusionCount, Finding, OutcomeFlow, UnitFlow
 CROSS = " × "
 
 
+#: The one cell of a design without treatment factors (repeated measures alone).
+ALL_UNITS = "all units"
+
+
 def cell_labels(plan) -> tuple[str, ...]:
     """The cells of the crossed treatment factors, first factor slowest."""
+    if not plan.treatments:
+        return (ALL_UNITS,)
     return tuple(CROSS.join(levels) for levels in itertools.product(*(f.levels for f in plan.treatments)))
 
 
@@ -83,7 +89,8 @@ def build_design_dataset(loaded: LoadedPlan, table: Table, inputs: tuple, delimi
     flow = UnitFlow(read=level_counts(cell.values(), labels), exclusions=exclusions,
                     eligible=level_counts((cell[u] for u in eligible), labels),
                     outcomes=tuple(flows))
-    findings = flow_findings(plan, flow, grouping=CROSS.join(f.label or f.name for f in plan.treatments))
+    findings = flow_findings(plan, flow, grouping=CROSS.join(f.label or f.name for f in plan.treatments)
+                             or ALL_UNITS)
     findings += _lacking_covariates(plan, eligible, covariates)
     if within is not None:
         findings += _incomplete(plan, flows, eligible, covariates)

@@ -40,12 +40,13 @@ def _roles(design: RawDesign) -> list[Found]:
                       f"(first at factors[{within[0].index}])"))
     for factor in design.with_role("block"):
         found += _block(factor)
-    if design.roles_valid and design.factors and not design.with_role("treatment"):
+    if (design.roles_valid and design.factors and not design.with_role("treatment")
+            and not design.with_role("within")):
         roles = list(dict.fromkeys(str(f.role) for f in design.factors))
         found.append((("design", "factors"),
                       f"got only factors with role{'s' if len(roles) > 1 else ''} "
                       f"{one_of(roles, 'and')}; allowed: at least one factor with role "
-                      "'treatment' (the default)"))
+                      "'treatment' (the default) or 'within'"))
     return found
 
 

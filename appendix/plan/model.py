@@ -398,8 +398,9 @@ class Plan(_Frozen):
 
     @property
     def factor(self) -> Factor:
-        """The single treatment factor of a one-way plan; otherwise the first treatment factor."""
-        return self.treatments[0]
+        """The single treatment factor of a one-way plan; otherwise the first treatment
+        factor, or, in a design of repeated measures alone, the within factor."""
+        return (self.treatments or (self.within,))[0]
 
     @property
     def treatments(self) -> tuple[Factor, ...]:
@@ -432,7 +433,8 @@ class Plan(_Frozen):
     def is_one_way(self) -> bool:
         """Exactly one factor (a treatment factor), no covariate and no interaction."""
         design = self.design
-        return len(design.factors) == 1 and not design.covariates and not design.interactions
+        return (len(design.factors) == 1 and design.factors[0].role == "treatment"
+                and not design.covariates and not design.interactions)
 
     @property
     def model_terms(self) -> tuple[tuple[str, ...], ...]:

@@ -41,13 +41,7 @@ CASES = [
       "block's levels are not ordered; remove it)"]),
     ("no treatment factor", variant("      control: placebo\n", "      role: block\n"),
      ["12: design.factors: got only factors with role 'block'; allowed: at least one factor "
-      "with role 'treatment' (the default)"]),
-    ("only a block and a within factor",
-     variant("      control: placebo\n",
-             "      role: block\n    - {name: week, role: within, levels: [w1, w2]}\n"
-             "  sums_of_squares: 2\n"),
-     ["12: design.factors: got only factors with roles 'block' and 'within'; allowed: at least "
-      "one factor with role 'treatment' (the default)"]),
+      "with role 'treatment' (the default) or 'within'"]),
     ("factor names repeated",
      factorial("{name: field_block,", "{name: variety,"),
      ["12: design.factors[2].name: got 'variety' again; factor names must be unique (first at "
