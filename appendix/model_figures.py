@@ -68,9 +68,10 @@ def _model_figures(results: StudyResults, model) -> dict[str, str]:
     levels = {f.name: f.levels for f in results.factors}
     y_label = f"{model.label} ({model.unit})" if model.unit else model.label
     out: dict[str, str] = {}
+    within = next((f for f in results.factors if f.role == "within"), None)
     for i, group in enumerate(model.marginal_means, 1):
-        if len(group.factors) != 2:
-            continue
+        if len(group.factors) != 2 or (within is not None and within.name in group.factors):
+            continue  # the profile plot shows the within factor
         a, b = group.factors
         by_levels = {m.levels: m for m in group.means}
 
@@ -82,7 +83,6 @@ def _model_figures(results: StudyResults, model) -> dict[str, str]:
                                x_label=labels[a], trace_label=labels[b], y_label=y_label, stem=stem)
         if svg is not None:
             out[stem] = svg
-    within = next((f for f in results.factors if f.role == "within"), None)
     if model.sphericity is not None and within is not None:
         cells = [c.level for c in results.unit_flow.read]
         m = len(within.levels)

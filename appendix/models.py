@@ -77,8 +77,10 @@ def design_words(plan: Plan) -> str:
 
 
 def analyse_model_outcome(plan: Plan, outcome: Outcome, data: OutcomeData, missing_by_cell,
-                          cell_labels) -> ModelOutcome:
-    """Every registered analysis of one outcome of a design beyond one factor."""
+                          cell_labels) -> tuple[ModelOutcome, dict[str, ContrastFamily]]:
+    """Every registered analysis of one outcome of a design beyond one factor, and its
+    exploratory families by id (the caller reports them apart; hypothesis sentences are
+    added once any primary-family adjustment is done)."""
     if plan.within is not None:
         return _repeated_outcome(plan, outcome, data, missing_by_cell, cell_labels)
     return _between_outcome(plan, outcome, data, missing_by_cell, cell_labels)
@@ -114,7 +116,7 @@ def _between_outcome(plan, outcome, data, missing_by_cell, cell_labels) -> Model
     means = _marginal(plan, fit)
     residuals = data.values - fitted_values(fit, grid.cell_codes(codes), covariates or None)
     diagnostics = _diagnostics(plan, data, residuals, cell_labels)
-    families, hypothesis_sentences = _contrast_families(plan, outcome, fit=fit)
+    families, exploratory = _contrast_families(plan, outcome, fit=fit)
     descriptives = describe(data.values, _treatment_cells(plan, data), cell_labels,
                             missing_by_cell, 0.95)
     return ModelOutcome(
@@ -125,8 +127,8 @@ def _between_outcome(plan, outcome, data, missing_by_cell, cell_labels) -> Model
         sphericity=None, diagnostics=diagnostics,
         conclusions=tuple(conclude.term_conclusion(plan, outcome, row, table.ss_type, table.residual_df)
                           for row in table.rows if _concluded(plan, row.term)),
-        contrasts=families, hypothesis_conclusions=hypothesis_sentences,
-        covariate_slopes=_covariate_slopes(plan, fit), warnings=tuple(fit.warnings))
+        contrasts=families, covariate_slopes=_covariate_slopes(plan, fit),
+        warnings=tuple(fit.warnings)), exploratory
 
 
 def _concluded(plan: Plan, term: tuple[str, ...]) -> bool:
@@ -261,17 +263,9 @@ def _raw_result(h, contrast, estimate, by=None, level: str | None = None) -> Hyp
         warnings=tuple(estimate.warnings))
 
 
-def _contrast_families(plan: Plan, outcome: Outcome, *, fit=None, complete=None):
-    """The registered family of one outcome (all its contrasts' hypotheses, simple effects
-    expanded over the `by` levels) under the registered multiplicity control.
-
-    Contrasts of between-unit factors are taken on the model's marginal means (`fit`);
-    contrasts of the within factor on the complete units' own contrast scores
-    (`appendix.stats.repeated.within_contrast`, which needs no sphericity), a simple
-    effect within one treatment level on that level's units only."""
-    contrasts = plan.contrasts_for(outcome.name)
-    if not contrasts:
-        return (), ()
+def _raw_results(plan: Plan, contrasts, fit, complete) -> list[HypothesisResult]:
+    """Every hypothesis of `contrasts` (simple effects expanded over the `by` levels),
+    estimated and tested unadjusted."""
     confidence = 1.0 - plan.alpha
     raw: list[HypothesisResult] = []
     for contrast in contrasts:
@@ -283,6 +277,27 @@ def _contrast_families(plan: Plan, outcome: Outcome, *, fit=None, complete=None)
                 estimate = _estimate(plan, contrast, factor, h.weights, by, level, fit, complete,
                                      confidence)
                 raw.append(_raw_result(h, contrast, estimate, by, level))
+    return raw
+
+
+def _contrast_families(plan: Plan, outcome: Outcome, *, fit=None, complete=None):
+    """The registered family of one outcome (all its contrasts' hypotheses) under the
+    registered multiplicity control, and its exploratory families by id (unadjusted).
+
+    Contrasts of between-unit factors are taken on the model's marginal means (`fit`);
+    contrasts of the within factor on the complete units' own contrast scores
+    (`appendix.stats.repeated.within_contrast`, which needs no sphericity), a simple
+    effect within one treatment level on that level's units only."""
+    exploratory = {}
+    for entry in plan.exploratory_for(outcome.name):
+        tested = apply_multiplicity(_raw_results(plan, (entry,), fit, complete), "none", plan.alpha)
+        exploratory[entry.id] = ContrastFamily(
+            outcome=outcome.name, scope="exploratory", multiplicity="none", method="marginal-means",
+            alpha=plan.alpha, registered=False, hypotheses=tuple(tested))
+    contrasts = plan.contrasts_for(outcome.name)
+    if not contrasts:
+        return (), exploratory
+    raw = _raw_results(plan, contrasts, fit, complete)
     method = plan.multiplicity.method
     if method == "tukey":
         tested = tukey_results(raw, plan.alpha)
@@ -293,8 +308,7 @@ def _contrast_families(plan: Plan, outcome: Outcome, *, fit=None, complete=None)
     family = ContrastFamily(outcome=outcome.name, scope=plan.multiplicity.scope, multiplicity=method,
                             method="marginal-means", alpha=plan.alpha, registered=True,
                             hypotheses=tuple(tested))
-    sentences = tuple(conclude.hypothesis_conclusion(plan, outcome, h, method) for h in tested)
-    return (family,), sentences
+    return (family,), exploratory
 
 
 def _estimate(plan: Plan, contrast, factor, weights, by, level, fit, complete, confidence):
@@ -396,7 +410,7 @@ def _repeated_outcome(plan, outcome, data, missing_by_cell, cell_labels) -> Mode
         slopes = _slopes_checks(plan, design_cells(grid, codes, unit_means, covariates), fit.between)
     residuals = unit_means - fitted_values(fit.between, grid.cell_codes(codes), covariates or None)
     diagnostics = _diagnostics(plan, None, residuals, cell_labels)
-    families, sentences = _contrast_families(plan, outcome, fit=fit.between, complete=complete)
+    families, exploratory = _contrast_families(plan, outcome, fit=fit.between, complete=complete)
     conclusions = tuple(conclude.term_conclusion(plan, outcome, row, between.ss_type, between.residual_df)
                         for row in between.rows if _concluded(plan, row.term))
     conclusions += tuple(conclude.term_conclusion(plan, outcome, row, between.ss_type, error.df)
@@ -409,10 +423,40 @@ def _repeated_outcome(plan, outcome, data, missing_by_cell, cell_labels) -> Mode
         name=outcome.name, label=outcome.label, unit=outcome.unit, role=outcome.role,
         design=design_words(plan), n_units=fit.n_units, n_observations=int(complete.y.size),
         arithmetic="float64", descriptives=descriptives, tables=(between, within_table),
-        marginal_means=_marginal(plan, fit.between, over=within.label or within.name),
+        marginal_means=(_marginal(plan, fit.between, over=within.label or within.name)
+                        + _occasion_means(plan, complete, cell_labels)),
         slopes=slopes, sphericity=sphericity, diagnostics=diagnostics, conclusions=conclusions,
-        contrasts=families, hypothesis_conclusions=sentences,
-        covariate_slopes=_covariate_slopes(plan, fit.between), warnings=notes)
+        contrasts=families, covariate_slopes=_covariate_slopes(plan, fit.between),
+        warnings=notes), exploratory
+
+
+def _occasion_means(plan: Plan, complete, cell_labels) -> tuple[MarginalMeans, ...]:
+    """Means at each level of the within factor over the complete units, and per cell of
+    the treatment factors; each mean's interval uses its own spread across units
+    (`appendix.stats.repeated.within_means`), not the within-units error term."""
+    from appendix.stats.repeated import within_means
+
+    within = plan.within
+    basis = ("the mean of the complete units at each level, with an interval from their "
+             "spread at that level (pooled within the treatment cells)")
+
+    def group(means, prefix=()):
+        return tuple(MarginalMean(levels=(*prefix, within.levels[m.level]), estimate=m.mean, se=m.se,
+                                  df=m.df, ci_low=m.ci_low, ci_high=m.ci_high,
+                                  warnings=tuple(m.warnings)) for m in means.means)
+
+    overall = within_means(complete, 0.95)
+    out = [MarginalMeans(factors=(within.name,), label=within.label or within.name,
+                         confidence_level=overall.confidence_level, means=group(overall), basis=basis)]
+    if plan.treatments:
+        rows = tuple(m for g, label in enumerate(cell_labels)
+                     for m in group(within_means(complete, 0.95, group=g), (label,)))
+        names = tuple(f.name for f in plan.treatments) + (within.name,)
+        out.append(MarginalMeans(factors=names, label=_label(plan, names),
+                                 confidence_level=overall.confidence_level, means=rows,
+                                 basis="the mean of each cell's complete units at each level, with "
+                                       "an interval from that cell's own units"))
+    return tuple(out)
 
 
 def _interacting(plan: Plan) -> tuple[tuple[str, ...], ...]:

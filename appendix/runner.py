@@ -170,11 +170,11 @@ def _with_hypothesis_conclusions(plan: Plan, result: OutcomeResult) -> OutcomeRe
     return dataclasses.replace(result, hypothesis_conclusions=sentences)
 
 
-def _exploratory(plan: Plan, work: list[_OutcomeWork]) -> tuple[ExploratoryAnalysis, ...]:
+def _exploratory(plan: Plan, found: list[dict[str, ContrastFamily]]) -> tuple[ExploratoryAnalysis, ...]:
+    """Each exploratory entry with its family from every outcome it applies to."""
     return tuple(
         ExploratoryAnalysis(id=entry.id, label=entry.label, reason=entry.reason,
-                            families=tuple(w.exploratory[entry.id] for w in work
-                                           if entry.id in w.exploratory))
+                            families=tuple(f[entry.id] for f in found if entry.id in f))
         for entry in plan.exploratory)
 
 
@@ -184,20 +184,25 @@ def analyse(loaded: LoadedPlan, dataset: Dataset,
     plan = loaded.plan
     flows = {flow.outcome: flow for flow in dataset.unit_flow.outcomes}
     ordered = sorted(plan.outcomes, key=lambda o: o.role != "primary")
-    work, models = [], ()
+    work, models, model_exploratory = [], (), []
     if plan.is_one_way:
         work = [analyse_outcome(plan, outcome, dataset.outcome(outcome.name),
                                 flows[outcome.name].missing)
                 for outcome in ordered]
     else:
-        models = tuple(analyse_model_outcome(plan, outcome, dataset.outcome(outcome.name),
-                                             [c.n for c in flows[outcome.name].missing],
-                                             dataset.levels)
-                       for outcome in ordered)
+        pairs = [analyse_model_outcome(plan, outcome, dataset.outcome(outcome.name),
+                                       [c.n for c in flows[outcome.name].missing], dataset.levels)
+                 for outcome in ordered]
+        models = tuple(result for result, _ in pairs)
+        model_exploratory = [found for _, found in pairs]
     outcomes = tuple(w.result for w in work)
     if plan.contrasts and plan.multiplicity.scope == "primary-family":
         outcomes = families.adjust_primary_family(plan, outcomes)
+        models = families.adjust_primary_family(plan, models)
     outcomes = tuple(_with_hypothesis_conclusions(plan, o) for o in outcomes)
+    models = tuple(_with_hypothesis_conclusions(plan, m) for m in models)
+    exploratory = (_exploratory(plan, [w.exploratory for w in work]) if plan.is_one_way
+                   else _exploratory(plan, model_exploratory))
     factor = plan.factor
     study = plan.study
     return StudyResults(
@@ -221,7 +226,7 @@ def analyse(loaded: LoadedPlan, dataset: Dataset,
         outcomes=outcomes,
         findings=dataset.findings,
         software=software,
-        exploratory=_exploratory(plan, work),
+        exploratory=exploratory,
         deviations=tuple(d for w in work for d in w.deviations),
         multiplicity=plan.multiplicity.method if plan.contrasts else None,
         multiplicity_scope=plan.multiplicity.scope if plan.contrasts else None,

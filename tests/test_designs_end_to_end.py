@@ -273,3 +273,35 @@ multiplicity: {method: none}
     scores = wide.to_numpy() @ np.array(trend.weights)
     assert trend.p == pytest.approx(stats.ttest_1samp(scores, 0.0).pvalue, rel=1e-9)
     assert "all units" in render(computed).html
+
+
+def test_primary_family_and_exploratory_entries_for_designs(tmp_path):
+    """Two primary outcomes adjusted as one Holm family (checked against statsmodels'
+    multipletests on the raw p of every hypothesis), and an exploratory entry reported
+    apart, unadjusted."""
+    from statsmodels.stats.multitest import multipletests
+
+    frame = _factorial(tmp_path, ss=2, covariate=False, interaction=False)
+    frame["height"] = (frame["mass"].astype(float) * 0.3 + np.arange(len(frame)) % 5).round(2)
+    frame.to_csv(tmp_path / "units.csv", index=False)
+    study = (tmp_path / "study.yaml").read_text()
+    study = study.replace("  - {name: mass, label: Dry mass, unit: g, role: primary}\n",
+                          "  - {name: mass, label: Dry mass, unit: g, role: primary}\n"
+                          "  - {name: height, label: Height, role: primary}\n")
+    study = study.replace("multiplicity: {method: holm}",
+                          "multiplicity: {method: holm, scope: primary-family}\n"
+                          "exploratory:\n  - {id: E1, factor: water, kind: pairwise, label: Regimes,"
+                          " reason: Asked by the steering group}")
+    (tmp_path / "study.yaml").write_text(study)
+    results = compute(tmp_path / "study.yaml").results
+    hypotheses = [h for m in results.models for f in m.contrasts for h in f.hypotheses]
+    assert len(hypotheses) == 2 * 8
+    assert {f.scope for m in results.models for f in m.contrasts} == {"primary-family"}
+    expected = multipletests([h.p for h in hypotheses], method="holm")[1]
+    np.testing.assert_allclose([h.p_adjusted for h in hypotheses], expected, rtol=1e-12)
+    assert all(len(m.hypothesis_conclusions) == 8 for m in results.models)
+    (entry,) = results.exploratory
+    assert entry.id == "E1" and [f.outcome for f in entry.families] == ["mass", "height"]
+    assert all(h.p_adjusted == h.p for f in entry.families for h in f.hypotheses)
+    html = render(compute(tmp_path / "study.yaml")).html
+    assert "E1: Regimes" in html and "Asked by the steering group" in html
