@@ -155,6 +155,13 @@ REFERENCES: Mapping[str, Reference] = MappingProxyType({r.key: r for r in (
     _article("huynh1976", "Huynh, H., & Feldt, L. S.", 1976, "Estimation of the Box correction "
              "for degrees of freedom from sample data in randomized block and split-plot designs",
              "Journal of Educational Statistics", "1", "1", "69\u201382", "10.3102/10769986001001069"),
+    _article("lecoutre1991", "Lecoutre, B.", 1991, "A correction for the \u03b5\u0303 "
+             "approximate test in repeated measures designs with two or more independent groups",
+             "Journal of Educational Statistics", "16", "4", "371\u2013372",
+             "10.3102/10769986016004371"),
+    _article("obrien1985", "O'Brien, R. G., & Kaiser, M. K.", 1985, "MANOVA method for analyzing "
+             "repeated measures designs: An extensive primer", "Psychological Bulletin", "97",
+             "2", "316\u2013333", "10.1037/0033-2909.97.2.316"),
     _article("mauchly1940", "Mauchly, J. W.", 1940, "Significance test for sphericity of a normal "
              "n-variate distribution", "The Annals of Mathematical Statistics", "11", "2",
              "204\u2013209", "10.1214/aoms/1177731915"),
@@ -254,15 +261,22 @@ METHODS: Mapping[str, Method] = MappingProxyType({m.key: m for m in (
            "assume a common slope.",
            ()),
     Method("repeated", "Repeated-measures analysis of variance",
-           "With a within-unit factor, the univariate repeated-measures analysis of variance "
-           "uses complete units only (as registered): the between-unit stratum tests the "
-           "treatment cells against the variation between units, the within-unit stratum the "
-           "within factor and its interaction with the treatment cells against the residual "
-           "within units. Sphericity is tested with Mauchly's (1940) test; within-unit tests "
-           "are also given with the degrees of freedom multiplied by the Greenhouse\u2013"
-           "Geisser (1959) and Huynh\u2013Feldt (1976) epsilons, and the conclusions use the "
-           "Greenhouse\u2013Geisser corrected test.",
-           ("mauchly1940", "greenhouse1959", "huynh1976")),
+           "With a within-unit factor, the univariate repeated-measures (split-plot) analysis "
+           "uses complete units only, as registered. Between units, the registered model is "
+           "fitted to each unit's mean over the occasions (its sums of squares on the scale "
+           "of single observations). Within units, each unit's observations are turned into "
+           "orthonormal contrasts of the occasions; the within factor, and its listed "
+           "interactions with between-unit terms, are tested against the residual within "
+           "units, summed over those contrasts (the univariate tests of the multivariate "
+           "linear model; O'Brien & Kaiser, 1985); between-unit terms not listed with the "
+           "within factor, blocks among them, are pooled into that residual. Sphericity is "
+           "tested with Mauchly's (1940) test; within-unit tests are also given with the "
+           "degrees of freedom multiplied by the Greenhouse\u2013Geisser (1959) and "
+           "Huynh\u2013Feldt (1976, with Lecoutre's 1991 correction for groups) epsilons, and "
+           "the conclusions use the Greenhouse\u2013Geisser corrected test. Contrasts of the "
+           "within factor are tested on each unit's own contrast scores, which needs no "
+           "sphericity.",
+           ("mauchly1940", "greenhouse1959", "huynh1976", "lecoutre1991", "obrien1985")),
     Method("welch", "Welch's heteroscedastic F test",
            "Welch's (1951) test compares the group means without assuming equal variances; "
            "groups are weighted by n/s\u00b2 and the denominator degrees of freedom are "

@@ -331,9 +331,10 @@ class ModelRow:
     """One term of a variance table of a linear model (factor, interaction, covariate) or
     of a repeated-measures table (``kind`` ``between``, ``within`` or ``error``).
 
-    Partial eta squared = SS / (SS + SS_error); partial omega squared as in Olejnik &
-    Algina (2003); CIs by inverting the noncentral F (Steiger 2004) at
-    `confidence_level` = 1 - 2 alpha. `full_df` is the df the term would have with every
+    Partial eta squared = SS / (SS + SS_error). Partial omega squared: for between-unit
+    terms (SS - df MS_error) / (SS + (N - df) MS_error) (Olejnik & Algina 2003); for
+    within-unit terms df1 (F - 1) / (df1 (F - 1) + df1 + df2 + 1). Both share one CI, by
+    inverting the noncentral F (Steiger 2004) at `confidence_level` = 1 - 2 alpha. `full_df` is the df the term would have with every
     cell filled (smaller `df`: some of its contrasts are not estimable). For within-unit
     terms `gg_*` and `hf_*` give the Greenhouse-Geisser and Huynh-Feldt corrected df and p.
     """
