@@ -305,3 +305,83 @@ def test_primary_family_and_exploratory_entries_for_designs(tmp_path):
     assert all(h.p_adjusted == h.p for f in entry.families for h in f.hypotheses)
     html = render(compute(tmp_path / "study.yaml")).html
     assert "E1: Regimes" in html and "Asked by the steering group" in html
+
+
+@pytest.mark.parametrize("kind, method", [
+    ("pairwise", "tukey"), ("helmert", "fixed-sequence"), ("trend", "bonferroni"),
+    ("custom", "none"), ("pairwise", "benjamini-hochberg"), ("versus-control", "sidak")])
+def test_every_contrast_kind_and_multiplicity_method_on_marginal_means(tmp_path, kind, method):
+    """Each kind of contrast on coating's marginal means under each multiplicity method: the
+    raw p is the t test of statsmodels' own linear combination of its fitted coefficients
+    (`t_test` with an L row built from the marginal means), and the adjustment is the
+    registered one (statsmodels' multipletests; the studentized range for Tukey)."""
+    from scipy import stats
+    from statsmodels.stats.multitest import multipletests
+
+    frame = _factorial(tmp_path, ss=3, covariate=False, interaction=True)
+    extra = {"custom": ", weights: {thin: 1, thick: 1, none: -2}", "trend": "", "helmert": "",
+             "pairwise": "", "versus-control": ""}[kind]
+    order = ", order: [C1]" if method == "fixed-sequence" else ""
+    study = (tmp_path / "study.yaml").read_text()
+    study = study.replace("    - {name: coating, levels: [none, thin, thick], control: none}",
+                          "    - {name: coating, levels: [none, thin, thick], control: none, ordered: true}")
+    start = study.index("contrasts:")
+    study = study[:start] + (f"contrasts:\n  - {{id: C1, factor: coating, kind: {kind}, label: Coatings{extra}}}\n"
+                             f"multiplicity: {{method: {method}{order}}}\n")
+    (tmp_path / "study.yaml").write_text(study)
+    (model,) = compute(tmp_path / "study.yaml").results.models
+    (family,) = model.contrasts
+    _, fit = _statsmodels_table(frame, 3, False, True)
+    names = list(fit.params.index)
+    grid = pd.DataFrame([(c, w, b) for c in ["none", "thin", "thick"] for w in ["steady", "pulsed"]
+                         for b in ["B1", "B2", "B3"]], columns=["coating", "water", "bench"])
+    import patsy
+
+    # The model's design rows of every grid cell, coded as statsmodels coded its fit.
+    data = frame[frame.flagged != "yes"][["coating", "water", "bench"]]
+    rhs = fit.model.formula.split("~", 1)[1]
+    both = patsy.dmatrix(rhs, pd.concat([data, grid], ignore_index=True), return_type="dataframe")
+    assert list(both.columns) == names
+    rows = both.iloc[len(data):].reset_index(drop=True)
+    means = rows.groupby(grid["coating"].to_numpy(), sort=False).mean().loc[["none", "thin", "thick"]]
+    raw = []
+    for h in family.hypotheses:
+        l = np.asarray(h.weights) @ means.to_numpy()
+        test = fit.t_test(l.reshape(1, -1))
+        assert h.estimate == pytest.approx(float(np.squeeze(test.effect)), rel=1e-9, abs=1e-12)
+        assert h.p == pytest.approx(float(np.squeeze(test.pvalue)), rel=1e-7)
+        raw.append(h.p)
+    adjusted = [h.p_adjusted for h in family.hypotheses]
+    if method == "tukey":
+        expected = [stats.studentized_range.sf(abs(h.statistic) * np.sqrt(2), 3, h.df)
+                    for h in family.hypotheses]
+        np.testing.assert_allclose(adjusted, expected, rtol=1e-6, atol=1e-12)
+    elif method == "fixed-sequence":  # p_adj(i) = max(p_1..p_i) until the first retained
+        running, stopped = 0.0, False
+        for h in family.hypotheses:
+            if stopped:
+                assert (h.p_adjusted, h.decision) == (None, "not-tested")
+                continue
+            running = max(running, h.p)
+            assert h.p_adjusted == pytest.approx(running, rel=1e-12)
+            stopped = h.decision != "reject"
+    elif method == "none":
+        assert adjusted == raw
+    else:
+        key = {"bonferroni": "bonferroni", "benjamini-hochberg": "fdr_bh", "sidak": "sidak"}[method]
+        np.testing.assert_allclose(adjusted, multipletests(raw, method=key)[1], rtol=1e-10)
+
+
+def test_an_empty_cell_is_stated_and_costs_the_interaction_a_degree_of_freedom(tmp_path):
+    frame = _factorial(tmp_path, ss=2, covariate=False, interaction=True)
+    frame = frame[~((frame.coating == "thick") & (frame.water == "pulsed"))]
+    frame.to_csv(tmp_path / "units.csv", index=False)
+    computed = compute(tmp_path / "study.yaml")
+    (model,) = computed.results.models
+    (table,) = model.tables
+    interaction = next(r for r in table.rows if r.term == ("coating", "water"))
+    assert (interaction.df, interaction.full_df) == (1, 2)
+    assert any(c.startswith("thick × pulsed") for c in table.empty_cells)
+    html = render(computed).html
+    assert "Empty cells:" in html and table.estimability in html
+    assert any(f.code == "level-without-units" for f in computed.results.findings)
