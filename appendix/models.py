@@ -19,6 +19,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import replace
+
 import numpy as np
 
 from appendix import conclude
@@ -238,9 +239,11 @@ def _diagnostics(plan: Plan, data: OutcomeData | None, residuals: np.ndarray, ce
 
 
 def _hypotheses(plan: Plan, contrast):
-    factor = plan.factor_named(contrast.factor or plan.factor.name)
+    """The contrast's factor and its hypotheses (custom weights rescaled as for one-way
+    designs: the positive ones sum to 1)."""
     from appendix.families import mean_difference_weights
 
+    factor = plan.factor_of(contrast)
     weights = mean_difference_weights(contrast.weights) if contrast.kind == "custom" else None
     return factor, hypotheses_for(contrast.kind, factor.levels, control=factor.control,
                                   weights=weights, degree=contrast.trend_degree,
