@@ -29,7 +29,7 @@ def _contrast(word: str, contrast: Contrast, plan: Plan) -> str:
 def describe_contrasts(plan: Plan) -> list[str]:
     """The registered analysis, fallbacks, contrasts with their hypothesis counts, the
     multiplicity control and the exploratory analyses, one line each."""
-    lines = [f"registered analysis: {plan.analysis.method}"]
+    lines = [f"registered analysis: {plan.analysis.method}"] if plan.is_one_way else []
     lines += [f"registered fallback {i}: if {rule.test} gives p < {rule.threshold:g} "
               f"({rule.when}), use {rule.use}"
               for i, rule in enumerate(plan.assumptions.fallbacks, start=1)]
