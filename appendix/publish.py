@@ -12,12 +12,15 @@ import json
 import os
 import shutil
 import tempfile
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator, Mapping
 from contextlib import contextmanager
 from pathlib import Path
+from typing import Any
 
 from appendix import __version__
+from appendix.errors import UserError
 from appendix.results import StudyResults, to_plain
+from appendix.versions import installed_distributions
 
 MANIFEST_FORMAT = 1
 
@@ -54,13 +57,31 @@ def sha256_file(path: Path) -> str:
     return digest.hexdigest()
 
 
-def write_manifest(folder: Path, results: StudyResults, now: _dt.datetime,
-                   environment: dict[str, str]) -> tuple[str, ...]:
-    """Write manifest.json: SHA-256 of every input and output file, versions, run time.
+def source_date(environ: Mapping[str, str]) -> _dt.datetime | None:
+    """The time SOURCE_DATE_EPOCH names (reproducible-builds.org convention: whole seconds
+    since 1970-01-01 UTC), or None when it is unset or empty."""
+    text = environ.get("SOURCE_DATE_EPOCH", "").strip()
+    if not text:
+        return None
+    if not text.isdigit():
+        raise UserError(f"SOURCE_DATE_EPOCH must be a whole number of seconds since "
+                        f"1970-01-01 UTC, got {text!r}")
+    return _dt.datetime.fromtimestamp(int(text), _dt.timezone.utc)
 
-    The run time lives here and nowhere else, so results.json stays byte-identical
-    across runs on the same inputs. Returns the relative paths of the outputs listed.
-    """
+
+def run_time(clock: Callable[[], _dt.datetime] | None = None,
+             environ: Mapping[str, str] | None = None) -> _dt.datetime:
+    """The run's time: SOURCE_DATE_EPOCH when set (so two runs can be byte-identical),
+    else the clock's (UTC now by default)."""
+    fixed = source_date(os.environ if environ is None else environ)
+    if fixed is not None:
+        return fixed
+    return (clock or (lambda: _dt.datetime.now(_dt.timezone.utc)))()
+
+
+def _manifest(folder: Path, results: StudyResults, now: _dt.datetime,
+              environment: dict[str, str], study_file: Path | None) -> dict[str, Any]:
+    """The manifest of `folder` as it stands (every file in it is listed as an output)."""
     outputs = sorted(p.relative_to(folder).as_posix() for p in folder.rglob("*") if p.is_file())
     manifest = {
         "format_version": MANIFEST_FORMAT,
@@ -75,7 +96,82 @@ def write_manifest(folder: Path, results: StudyResults, now: _dt.datetime,
         ],
         "software": to_plain(results.software),
         "environment": environment,
+        "distributions": [{"name": d.name, "version": d.version}
+                          for d in installed_distributions()],
     }
-    text = json.dumps(manifest, sort_keys=True, indent=2, ensure_ascii=False) + "\n"
-    (folder / "manifest.json").write_text(text, encoding="utf-8")
-    return (*outputs, "manifest.json")
+    if study_file is not None:
+        # where `appendix pack` finds the study file, its lock and its data again
+        manifest["study_file"] = str(Path(study_file).resolve())
+    return manifest
+
+
+def manifest_text(manifest: Mapping[str, Any]) -> str:
+    """The canonical text of a manifest: sorted keys, two-space indent, final newline."""
+    return json.dumps(manifest, sort_keys=True, indent=2, ensure_ascii=False) + "\n"
+
+
+def write_manifest(folder: Path, results: StudyResults, now: _dt.datetime,
+                   environment: dict[str, str], *,
+                   study_file: Path | None = None) -> tuple[str, ...]:
+    """Write manifest.json: SHA-256 of every input and output file, versions, run time.
+
+    The run time lives here and nowhere else, so results.json stays byte-identical
+    across runs on the same inputs. `study_file` (recorded as an absolute path) lets
+    `appendix pack` find the study file, its lock and data. Returns the relative paths
+    of the outputs listed.
+    """
+    manifest = _manifest(folder, results, now, environment, study_file)
+    (folder / "manifest.json").write_text(manifest_text(manifest), encoding="utf-8")
+    return (*(item["path"] for item in manifest["outputs"]), "manifest.json")
+
+
+PDF_NAME = "appendix.pdf"
+
+
+def pdf_evidence(manifest: Mapping[str, Any]) -> dict[str, Any]:
+    """The manifest the PDF carries: the run manifest without the PDF's own entry (a file
+    cannot hold its own hash). `appendix verify` checks the two agree."""
+    carried = dict(manifest)
+    carried["outputs"] = [o for o in manifest["outputs"] if o["path"] != PDF_NAME]
+    return carried
+
+
+def write_pdf(folder: Path, html: str, options, results: StudyResults, now: _dt.datetime,
+              environment: dict[str, str], *, study_file: Path) -> None:
+    """Typeset appendix.pdf in `folder` as PDF/A-3b carrying its evidence: the study file,
+    results.json (already written to `folder`) and the manifest of everything written so
+    far (`pdf_evidence`), dated `now`."""
+    from appendix import render
+
+    study_file = Path(study_file)
+    evidence = manifest_text(_manifest(folder, results, now, environment, study_file))
+    attachments = (
+        render.PdfAttachment(study_file.name, study_file.read_bytes(), "application/yaml",
+                             "The study file (registered analysis plan) of this run.", "Source"),
+        render.PdfAttachment("results.json", (folder / "results.json").read_bytes(),
+                             "application/json", "Every computed result, canonical JSON.",
+                             "Data"),
+        render.PdfAttachment("manifest.json", evidence.encode("utf-8"), "application/json",
+                             "SHA-256 of the inputs and of the other outputs; versions; run "
+                             "time.", "Supplement"),
+    )
+    render.render_pdf(html, folder / PDF_NAME, options, attachments=attachments, dated=now)
+
+
+def write_run(folder: Path, *, results: StudyResults, results_json: str, html: str,
+              figures: Mapping[str, str], options, study_file: Path, now: _dt.datetime,
+              environment: dict[str, str], pdf: bool = True,
+              progress: Callable[[str], None] | None = None) -> tuple[str, ...]:
+    """Write every file of a run into `folder` (the staging folder): results.json,
+    appendix.html, figures/*.svg, appendix.pdf (PDF/A-3b with its evidence) unless `pdf`
+    is false, and manifest.json last. Returns the relative paths written."""
+    (folder / "results.json").write_text(results_json, encoding="utf-8")
+    (folder / "appendix.html").write_text(html, encoding="utf-8")
+    (folder / "figures").mkdir()
+    for stem, svg in sorted(figures.items()):
+        (folder / "figures" / f"{stem}.svg").write_text(svg, encoding="utf-8")
+    if pdf:
+        if progress is not None:
+            progress("rendering PDF")
+        write_pdf(folder, html, options, results, now, environment, study_file=study_file)
+    return write_manifest(folder, results, now, environment, study_file=study_file)

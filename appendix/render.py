@@ -5,17 +5,23 @@ Jinja2 environment is made per call (autoescape on, undefined names are errors) 
 number filters of `appendix.numbers`, configured by `RenderOptions`. `render_pdf` hands
 the HTML to WeasyPrint with a fetcher that refuses every URL except ``data:``.
 
-WeasyPrint 70 does not read SOURCE_DATE_EPOCH; it writes no creation date unless the HTML
-carries a ``dcterms.created`` meta element (ours does not) and no file identifier unless
-asked, so the same HTML gives byte-identical PDFs.
+The PDF is PDF/A-3b (ISO 19005-3, conformance level B) through WeasyPrint's
+``pdf_variant``, and carries its evidence as associated files (`PdfAttachment`: the study
+file, results.json, the run manifest). WeasyPrint 70 does not read SOURCE_DATE_EPOCH: the
+document and attachment dates are the `dated` time passed in (none when None), the file
+identifier is the MD5 of the PDF's objects (pydyf's ``identifier=True``), and attachment
+media types are given explicitly, so the same HTML, attachments and date give
+byte-identical PDFs.
 """
 
 from __future__ import annotations
 
+import base64
+import datetime as _dt
 import importlib.resources
 import logging
 import re
-from collections.abc import Mapping
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 from types import MappingProxyType
@@ -269,17 +275,84 @@ class _SvgStyleNotes(logging.Filter):
         return not _SVG_STYLE.match(record.getMessage())
 
 
-def render_pdf(html: str, out_path: Path, options: RenderOptions) -> None:
-    """Typeset `html` as a PDF at `out_path` on the options' paper size."""
+PDF_VARIANT = "pdf/a-3b"
+
+#: PDF/A-3 AFRelationship values we use (ISO 19005-3 / ISO 32000-2 section 7.11.3).
+RELATIONSHIPS = ("Source", "Data", "Supplement")
+
+
+@dataclass(frozen=True)
+class PdfAttachment:
+    """A file embedded in the PDF as a PDF/A-3 associated file.
+
+    `relationship` is the AFRelationship: ``Source`` (what the document was made from,
+    e.g. the study file), ``Data`` (results.json) or ``Supplement`` (the run manifest).
+    """
+
+    name: str
+    content: bytes
+    media_type: str
+    description: str
+    relationship: str = "Data"
+
+    def __post_init__(self) -> None:
+        if self.relationship not in RELATIONSHIPS:
+            raise ValueError(f"relationship must be one of {RELATIONSHIPS}, "
+                             f"got {self.relationship!r}")
+
+
+def _w3c_date(moment: _dt.datetime) -> str:
+    """A UTC time in the W3C date profile WeasyPrint's metadata expects."""
+    return moment.astimezone(_dt.timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ")
+
+
+def _weasy_attachment(item: PdfAttachment, fetcher, dated: _dt.datetime):
+    """A WeasyPrint Attachment served as a ``data:`` URL, so its media type is ours and
+    not the platform's guess, with fixed dates (WeasyPrint would use the clock)."""
+    from weasyprint import Attachment
+
+    url = f"data:{item.media_type};base64,{base64.b64encode(item.content).decode('ascii')}"
+    utc = dated.astimezone(_dt.timezone.utc)
+    return Attachment(url=url, url_fetcher=fetcher, name=item.name,
+                      description=item.description, created=utc, modified=utc,
+                      relationship=item.relationship)
+
+
+def _unique_associated_files(_document, pdf) -> None:
+    """WeasyPrint 70 lists each attachment twice in the catalog's AF array (once from the
+    EmbeddedFiles names, once from the file specifications); keep each one once."""
+    listed = pdf.catalog.get("AF")
+    if listed:
+        listed[:] = list(dict.fromkeys(listed))
+
+
+def render_pdf(html: str, out_path: Path, options: RenderOptions, *,
+               attachments: Sequence[PdfAttachment] = (),
+               dated: _dt.datetime | None = None) -> None:
+    """Typeset `html` as a PDF/A-3b file at `out_path` on the options' paper size.
+
+    `attachments` are embedded as associated files; `dated` sets the creation and
+    modification dates of the document and its attachments (pass the run time, which
+    is SOURCE_DATE_EPOCH when that is set). Without `dated` the PDF carries no date;
+    attachments need one.
+    """
     # imported here: commands that write no PDF should not pay for loading WeasyPrint
     from weasyprint import CSS, HTML
 
+    if attachments and dated is None:
+        raise ValueError("attachments need a date: pass dated=")
     fetcher = _offline_fetcher()
     paper = CSS(string=f"@page {{ size: {options.paper}; }}", url_fetcher=fetcher)
     notes = _SvgStyleNotes()
     logger = logging.getLogger("weasyprint")
     logger.addFilter(notes)  # for this call only
     try:
-        HTML(string=html, url_fetcher=fetcher).write_pdf(Path(out_path), stylesheets=[paper])
+        document = HTML(string=html, url_fetcher=fetcher).render(stylesheets=[paper])
+        if dated is not None:
+            document.metadata.created = document.metadata.modified = _w3c_date(dated)
+        document.write_pdf(
+            Path(out_path), finisher=_unique_associated_files,
+            pdf_variant=PDF_VARIANT, pdf_identifier=True,
+            attachments=[_weasy_attachment(a, fetcher, dated) for a in attachments])
     finally:
         logger.removeFilter(notes)

@@ -26,3 +26,15 @@ def software_versions() -> tuple[Software, ...]:
         except metadata.PackageNotFoundError:
             found.append(Software(name, "not installed"))
     return tuple(found)
+
+
+def installed_distributions() -> tuple[Software, ...]:
+    """Every installed Python distribution by name and version, sorted by lower-cased
+    name; a name installed twice on the path is listed once (the first found, which is
+    the one Python imports)."""
+    found: dict[str, Software] = {}
+    for dist in metadata.distributions():
+        name = dist.metadata["Name"]
+        if name and name.lower() not in found:
+            found[name.lower()] = Software(name, dist.version)
+    return tuple(found[key] for key in sorted(found))

@@ -1,0 +1,509 @@
+"""The reviewer package: `pack` a finished run into one zip, `verify` such a zip.
+
+A package holds, under fixed names::
+
+    VERIFY.txt         how to verify, and what the package is not
+    SHA256SUMS         SHA-256 of every other entry (the format ``sha256sum -c`` reads)
+    environment.json   Python, platform and every installed distribution, at run and pack
+    study/...          the study file, its lock (if any) and data, at their relative paths
+    run/...            results.json, appendix.html, appendix.pdf, figures/, manifest.json
+
+Packing twice gives the same bytes: entries in a fixed order, each dated at the run's time
+(from its manifest), with fixed permissions. `verify` refuses unsafe entry names before
+anything is extracted, checks every hash, cross-checks the run manifest and the PDF's
+embedded evidence, recomputes in a temporary folder with `appendix.api.run` and compares
+results.json: strings (conclusions, decisions) and integers exactly, other numbers to
+`REL_TOL` relative (`ABS_TOL` absolute near zero).
+"""
+
+from __future__ import annotations
+
+import datetime as _dt
+import hashlib
+import json
+import os
+import platform
+import re
+import shutil
+import stat
+import sys
+import tempfile
+import zipfile
+from collections.abc import Iterable, Mapping
+from dataclasses import dataclass
+from pathlib import Path, PurePosixPath
+from typing import Any, TextIO
+
+from appendix.errors import UserError
+from appendix.publish import PDF_NAME, manifest_text, pdf_evidence, sha256_file
+from appendix.versions import installed_distributions
+
+SUMS = "SHA256SUMS"
+ENVIRONMENT = "environment.json"
+NOTE = "VERIFY.txt"
+LOCK_NAME = "study.lock.json"
+RUN_FILES = ("results.json", "appendix.html", PDF_NAME, "manifest.json")
+
+# Numbers computed by the same code on the same inputs agree to the last bit on one
+# machine; across CPUs and BLAS builds the last few bits can move. 1e-9 relative keeps
+# every printed digit and is common practice, no source.
+REL_TOL = 1e-9
+ABS_TOL = 1e-12
+TOLERANCE_TEXT = (f"numbers to a relative tolerance of {REL_TOL:g} (absolute {ABS_TOL:g} "
+                  "near zero); conclusions, decisions and every other text exactly")
+
+_ZIP_EPOCH = _dt.datetime(1980, 1, 1, tzinfo=_dt.timezone.utc)  # the earliest zip date
+_SUM_LINE = re.compile(r"([0-9a-f]{64})  (\S(?:.*\S)?)")
+
+VERIFY_TEXT = """\
+How to verify this package
+==========================
+
+This package was written by `appendix pack` from one finished run of the study {study}.
+
+1. With appendix installed, run
+
+       appendix verify THIS-FILE.zip
+
+   It refuses unsafe entry names, checks the SHA-256 of every file against SHA256SUMS,
+   checks the run's manifest and the files embedded in appendix.pdf, recomputes every
+   result from the packaged study file and data in a temporary folder, and compares the
+   new results.json with the packaged one: {tolerance}. It prints "reproduced" or each
+   difference, and exits 1 on any mismatch.
+
+2. Without appendix, the hashes alone can be checked after unzipping:
+
+       sha256sum -c SHA256SUMS
+
+appendix.pdf is PDF/A-3b and carries the study file, results.json and the run manifest
+as attachments, so the PDF alone shows which plan and which results it belongs to.
+environment.json names the Python, platform and library versions of the run.
+
+Caution: this is statistical output. It is not a clinical or regulatory decision. Defer
+to local regulations, to a qualified, licensed statistician and to the study's own
+governance.
+"""
+
+
+# ----------------------------------------------------------------------------- pack
+
+
+def _load_json(path: Path, what: str) -> Any:
+    try:
+        return json.loads(path.read_text(encoding="utf-8"))
+    except FileNotFoundError:
+        raise UserError(f"{path} not found: {what}") from None
+    except (UnicodeDecodeError, json.JSONDecodeError) as error:
+        raise UserError(f"{path} is not valid JSON ({error}): {what}") from None
+
+
+def _inside(relative: str) -> bool:
+    """True when a relative posix path stays inside its folder."""
+    parts = PurePosixPath(relative).parts
+    return bool(parts) and not PurePosixPath(relative).is_absolute() and ".." not in parts
+
+
+def _checked(path: Path, expected: str, what: str) -> bytes:
+    """The bytes of `path`, refusing when its SHA-256 is not the recorded one."""
+    if not path.is_file():
+        raise UserError(f"{what} {path} is missing; the run recorded it, so the package "
+                        "cannot be made")
+    content = path.read_bytes()
+    if hashlib.sha256(content).hexdigest() != expected:
+        raise UserError(f"{what} {path} has changed since the run (its SHA-256 is no longer "
+                        f"the recorded {expected[:12]}...); rerun the study before packing")
+    return content
+
+
+def _run_entries(run: Path, manifest: Mapping[str, Any]) -> dict[str, bytes]:
+    """The run folder's files under ``run/``, each checked against the run manifest."""
+    entries = {}
+    for item in manifest.get("outputs", []):
+        if not _inside(item["path"]):
+            raise UserError(f"{run / 'manifest.json'} lists an output outside the run folder: "
+                            f"{item['path']!r}")
+        entries[f"run/{item['path']}"] = _checked(run / item["path"], item["sha256"],
+                                                  "the run's output")
+    entries["run/manifest.json"] = (run / "manifest.json").read_bytes()
+    missing = [name for name in RUN_FILES if f"run/{name}" not in entries]
+    if missing:
+        raise UserError(f"the run folder {run} has no {', '.join(missing)}; run the study "
+                        "with its PDF before packing")
+    return entries
+
+
+def _study_entries(manifest: Mapping[str, Any], run: Path) -> dict[str, bytes]:
+    """The study file, its lock and data under ``study/``, checked against the run's inputs."""
+    if "study_file" not in manifest:
+        raise UserError(f"{run / 'manifest.json'} does not record where the study file is; "
+                        "rerun the study with this version of appendix, then pack")
+    study_file = Path(manifest["study_file"])
+    folder = study_file.parent
+    entries = {}
+    for item in manifest["inputs"]:
+        if not _inside(item["path"]):
+            raise UserError(f"the {item['role']} file {item['path']!r} lies outside the study's "
+                            f"folder {folder}; a package keeps the paths the study file uses, "
+                            "so move it inside that folder and rerun")
+        entries[f"study/{item['path']}"] = _checked(folder / item["path"], item["sha256"],
+                                                    f"the {item['role']} file")
+    lock = folder / LOCK_NAME
+    if f"study/{LOCK_NAME}" not in entries and lock.is_file():
+        entries[f"study/{LOCK_NAME}"] = lock.read_bytes()
+    return entries
+
+
+def _environment_record(manifest: Mapping[str, Any]) -> dict[str, Any]:
+    here = {"python": sys.version.split()[0], "platform": platform.platform(),
+            "distributions": [{"name": d.name, "version": d.version}
+                              for d in installed_distributions()]}
+    at_run = dict(manifest.get("environment", {}))
+    at_run["distributions"] = manifest.get("distributions", [])
+    at_run["software"] = manifest.get("software", [])
+    return {"format_version": 1, "run": at_run, "pack": here}
+
+
+def sums_text(entries: Mapping[str, bytes]) -> str:
+    """SHA256SUMS: one ``<hex digest>  <name>`` line per entry, sorted by name."""
+    return "".join(f"{hashlib.sha256(entries[name]).hexdigest()}  {name}\n"
+                   for name in sorted(entries))
+
+
+def _zip_time(run_time: str | None) -> tuple[int, int, int, int, int, int]:
+    moment = _ZIP_EPOCH
+    if run_time:
+        try:
+            moment = max(_dt.datetime.fromisoformat(run_time).astimezone(_dt.timezone.utc),
+                         _ZIP_EPOCH)
+        except ValueError:
+            pass
+    return moment.timetuple()[:6]
+
+
+def _write_zip(target: Path, entries: Mapping[str, bytes], when) -> None:
+    """Entries in the given order, one date, fixed permissions: the same bytes every time."""
+    target.parent.mkdir(parents=True, exist_ok=True)
+    handle, temporary = tempfile.mkstemp(prefix=f".{target.name}.", dir=target.parent)
+    os.close(handle)
+    try:
+        with zipfile.ZipFile(temporary, "w") as archive:
+            for name, content in entries.items():
+                info = zipfile.ZipInfo(name, date_time=when)
+                info.compress_type = zipfile.ZIP_DEFLATED
+                info.create_system = 3  # Unix, whatever the packing platform
+                info.external_attr = (stat.S_IFREG | 0o644) << 16
+                archive.writestr(info, content, compresslevel=9)
+        os.replace(temporary, target)
+    except BaseException:
+        Path(temporary).unlink(missing_ok=True)
+        raise
+
+
+def default_package_path(run: Path) -> Path:
+    """``<run folder>.zip`` beside the run folder."""
+    return run.parent / f"{run.name}.zip"
+
+
+def pack(run: Path, out: Path | None = None) -> Path:
+    """Write the reviewer package of the run folder `run` to `out` (default
+    `default_package_path`) and return its path; raises `UserError` when the run folder
+    is incomplete or its study file, data or outputs changed since the run."""
+    run = Path(run)
+    if not run.is_dir():
+        raise UserError(f"{run} is not a run folder (no such folder)")
+    manifest = _load_json(run / "manifest.json", "a run folder holds the manifest.json "
+                          "that `appendix run` writes")
+    body = {**_study_entries(manifest, run), **_run_entries(run, manifest)}
+    body[ENVIRONMENT] = (json.dumps(_environment_record(manifest), sort_keys=True, indent=2,
+                                    ensure_ascii=False) + "\n").encode("utf-8")
+    body[NOTE] = VERIFY_TEXT.format(study=manifest.get("study", "?"),
+                                    tolerance=TOLERANCE_TEXT).encode("utf-8")
+    entries = {NOTE: body[NOTE], SUMS: sums_text(body).encode("ascii")}
+    entries.update((name, body[name]) for name in sorted(body) if name != NOTE)
+    target = Path(out) if out is not None else default_package_path(run)
+    _write_zip(target, entries, _zip_time(manifest.get("run_time")))
+    return target
+
+
+def pack_command(run: Path, out: Path | None, out_stream: TextIO) -> int:
+    """`appendix pack RUN [--out FILE]`: write the package, print its path; exit 0."""
+    target = pack(run, out)
+    print(f"wrote {target}", file=out_stream)
+    return 0
+
+
+# --------------------------------------------------------------------------- verify
+
+
+def unsafe_reason(info: zipfile.ZipInfo) -> str | None:
+    """Why an archive entry may not be extracted (None when it is safe): an absolute
+    path, a drive letter, a ``..`` component, a backslash, or a symbolic link."""
+    name = info.filename
+    if name.startswith(("/", "\\")):
+        return "absolute path"
+    if re.match(r"^[A-Za-z]:", name):
+        return "drive letter"
+    if "\\" in name:
+        return "backslash in the name"
+    if ".." in name.split("/"):
+        return "'..' component"
+    if "\x00" in name:
+        return "NUL in the name"
+    if stat.S_ISLNK(info.external_attr >> 16):
+        return "symbolic link"
+    return None
+
+
+def _refuse_unsafe(infos: Iterable[zipfile.ZipInfo], package: Path) -> None:
+    problems, seen = [], set()
+    for info in infos:
+        reason = unsafe_reason(info)
+        if reason is None and info.filename in seen:
+            reason = "listed twice"
+        seen.add(info.filename)
+        if reason is not None:
+            problems.append(f"  {info.filename!r}: {reason}")
+    if problems:
+        raise UserError(f"refused {package}: unsafe entries, nothing was extracted:\n"
+                        + "\n".join(problems))
+
+
+def _extract(archive: zipfile.ZipFile, folder: Path) -> tuple[dict[str, str], list[str]]:
+    """Extract every file entry (names already checked), hashing as it streams; returns
+    {name: sha256} and the names whose data are damaged (CRC or deflate errors)."""
+    digests, damaged = {}, []
+    for info in archive.infolist():
+        if info.is_dir():
+            continue
+        target = folder.joinpath(*info.filename.split("/"))
+        digest = hashlib.sha256()
+        try:
+            target.parent.mkdir(parents=True, exist_ok=True)
+            with archive.open(info) as source, open(target, "wb") as sink:
+                while block := source.read(1 << 20):
+                    digest.update(block)
+                    sink.write(block)
+        except (zipfile.BadZipFile, OSError, EOFError, ValueError) as error:
+            damaged.append(f"{info.filename} ({error})")
+            continue
+        digests[info.filename] = digest.hexdigest()
+    return digests, damaged
+
+
+def parse_sums(text: str) -> tuple[dict[str, str], list[str]]:
+    """SHA256SUMS as {name: digest}, and every line that breaks the strict format
+    (lower-case hex, two spaces, a name, a final newline)."""
+    listed, problems = {}, []
+    if text and not text.endswith("\n"):
+        problems.append(f"{SUMS} does not end with a newline")
+    for number, line in enumerate(text.split("\n")[:-1] if text.endswith("\n")
+                                  else text.split("\n"), start=1):
+        match = _SUM_LINE.fullmatch(line)
+        if match is None:
+            problems.append(f"{SUMS} line {number} is malformed: {line!r}")
+        elif match.group(2) in listed:
+            problems.append(f"{SUMS} line {number} lists {match.group(2)} again")
+        else:
+            listed[match.group(2)] = match.group(1)
+    return listed, problems
+
+
+def _hash_problems(digests: Mapping[str, str], folder: Path) -> list[str]:
+    """Every changed, missing or extra file, against SHA256SUMS."""
+    if SUMS not in digests:
+        return [f"missing: {SUMS} (the package's list of hashes)"]
+    try:
+        text = (folder / SUMS).read_bytes().decode("ascii")
+    except UnicodeDecodeError:
+        return [f"{SUMS} is not plain ASCII text"]
+    listed, problems = parse_sums(text)
+    present = {name for name in digests if name != SUMS}
+    problems += [f"changed: {name}" for name in sorted(present & listed.keys())
+                 if digests[name] != listed[name]]
+    problems += [f"missing: {name}" for name in sorted(listed.keys() - present)]
+    problems += [f"extra (not in {SUMS}): {name}" for name in sorted(present - listed.keys())]
+    return problems
+
+
+def _manifest_problems(folder: Path) -> tuple[list[str], dict[str, Any] | None]:
+    """The run manifest against the packaged files: each output and input it records."""
+    path = folder / "run" / "manifest.json"
+    if not path.is_file():
+        return ["missing: run/manifest.json"], None
+    try:
+        manifest = json.loads(path.read_text(encoding="utf-8"))
+        outputs = [(f"run/{o['path']}", o["sha256"]) for o in manifest["outputs"]]
+        inputs = [(f"study/{i['path']}", i["sha256"]) for i in manifest["inputs"]]
+    except (UnicodeDecodeError, json.JSONDecodeError, KeyError, TypeError) as error:
+        return [f"run/manifest.json is not a run manifest ({error!r})"], None
+    problems = []
+    for name, expected in outputs + inputs:
+        file = folder / name
+        if not _inside(name) or not file.is_file():
+            problems.append(f"run/manifest.json records {name}, which the package lacks")
+        elif sha256_file(file) != expected:
+            problems.append(f"{name} differs from the SHA-256 run/manifest.json records")
+    return problems, manifest
+
+
+def _pdf_problems(folder: Path, manifest: Mapping[str, Any]) -> tuple[list[str], list[str]]:
+    """The PDF's embedded study file, results.json and manifest against the packaged ones."""
+    try:
+        import pypdf
+    except ImportError:
+        return [], ["the PDF's attachments were not checked: pypdf is not installed"]
+    study = next((i["path"] for i in manifest["inputs"] if i["role"] == "study"), None)
+    expected = {
+        "results.json": (folder / "run" / "results.json").read_bytes(),
+        "manifest.json": manifest_text(pdf_evidence(manifest)).encode("utf-8"),
+    }
+    if study is not None and (folder / "study" / study).is_file():
+        expected[PurePosixPath(study).name] = (folder / "study" / study).read_bytes()
+    try:
+        attached = pypdf.PdfReader(folder / "run" / PDF_NAME).attachments
+        carried = {name: attached[name] for name in attached}
+    except Exception as error:  # noqa: BLE001 - any parse failure is a finding, not a crash
+        return [f"run/{PDF_NAME} could not be read as a PDF ({error!r})"], []
+    problems = []
+    for name, content in expected.items():
+        if name not in carried:
+            problems.append(f"run/{PDF_NAME} does not carry {name}")
+        elif carried[name] != [content]:
+            problems.append(f"the {name} embedded in run/{PDF_NAME} differs from the package's")
+    return problems, []
+
+
+def _numbers_agree(a: float, b: float) -> bool:
+    return abs(a - b) <= max(REL_TOL * max(abs(a), abs(b)), ABS_TOL)
+
+
+def compare_results(expected: Any, actual: Any, path: str = "") -> list[str]:
+    """Each difference between two parsed results.json trees, by key path: text, booleans,
+    None and integers exactly; a float against a number to `REL_TOL` (`ABS_TOL` near 0).
+
+    >>> compare_results({"f": 5.0, "d": "reject"}, {"f": 5.0 + 1e-12, "d": "retain"})
+    ["d: 'reject' packaged, 'retain' recomputed"]
+    """
+    where = path or "(top)"
+    number = (int, float)
+    if isinstance(expected, bool) or isinstance(actual, bool) or \
+            not (isinstance(expected, number) and isinstance(actual, number)):
+        if isinstance(expected, dict) and isinstance(actual, dict):
+            found = []
+            for key in sorted(expected.keys() | actual.keys()):
+                sub = f"{path}.{key}" if path else key
+                if key not in actual:
+                    found.append(f"{sub}: packaged, absent from the recomputation")
+                elif key not in expected:
+                    found.append(f"{sub}: recomputed, absent from the package")
+                else:
+                    found += compare_results(expected[key], actual[key], sub)
+            return found
+        if isinstance(expected, list) and isinstance(actual, list):
+            if len(expected) != len(actual):
+                return [f"{where}: {len(expected)} items packaged, {len(actual)} recomputed"]
+            found = []
+            for index, (a, b) in enumerate(zip(expected, actual)):
+                found += compare_results(a, b, f"{path}[{index}]")
+            return found
+        if type(expected) is type(actual) and expected == actual:
+            return []
+        return [f"{where}: {expected!r} packaged, {actual!r} recomputed"]
+    if isinstance(expected, int) and isinstance(actual, int):
+        same = expected == actual
+    else:
+        same = _numbers_agree(float(expected), float(actual))
+    return [] if same else [f"{where}: {expected!r} packaged, {actual!r} recomputed"]
+
+
+def _version_notes(packaged: list, recomputed: list) -> list[str]:
+    before = {s["name"]: s["version"] for s in packaged}
+    now = {s["name"]: s["version"] for s in recomputed}
+    return [f"{name} {before[name]} in the package, {now[name]} here"
+            for name in sorted(before.keys() & now.keys()) if before[name] != now[name]]
+
+
+def _recompute(folder: Path, manifest: Mapping[str, Any]) -> tuple[list[str], list[str]]:
+    """Rerun the packaged study in `folder` and compare its results.json with the package's."""
+    from appendix import api
+
+    study = next((i["path"] for i in manifest["inputs"] if i["role"] == "study"), None)
+    if study is None or not (folder / "study" / study).is_file():
+        return ["the package has no study file to recompute from"], []
+    try:
+        api.run(folder / "study" / study, out_dir=folder / "recomputed", pdf=False)
+    except UserError as error:
+        return [f"the packaged study could not be recomputed: {error}"], []
+    packaged = json.loads((folder / "run" / "results.json").read_text(encoding="utf-8"))
+    again = json.loads((folder / "recomputed" / "results.json").read_text(encoding="utf-8"))
+    notes = _version_notes(packaged.pop("software", []), again.pop("software", []))
+    return compare_results(packaged, again), notes
+
+
+@dataclass(frozen=True)
+class Verification:
+    """What `verify` found: `problems` (each a mismatch; none means reproduced),
+    `notes` (worth knowing, never a mismatch) and the number of files hashed."""
+
+    package: Path
+    files_hashed: int
+    problems: tuple[str, ...]
+    notes: tuple[str, ...]
+
+    @property
+    def reproduced(self) -> bool:
+        return not self.problems
+
+
+def verify(package: Path) -> Verification:
+    """Check a package made by `pack` (see the module docstring); raises `UserError` for
+    a file that is not a zip archive or holds unsafe entry names."""
+    package = Path(package)
+    if not package.is_file():
+        raise UserError(f"{package} not found: give the zip that `appendix pack` wrote")
+    try:
+        archive = zipfile.ZipFile(package)
+    except (zipfile.BadZipFile, OSError) as error:
+        raise UserError(f"{package} is not a readable zip archive ({error})") from None
+    with archive, tempfile.TemporaryDirectory(prefix="appendix-verify-") as scratch:
+        folder = Path(scratch)
+        _refuse_unsafe(archive.infolist(), package)
+        digests, damaged = _extract(archive, folder)
+        problems = [f"damaged: {name}" for name in damaged]
+        problems += _hash_problems(digests, folder)
+        found, manifest = _manifest_problems(folder)
+        problems += found
+        notes: list[str] = []
+        if manifest is not None:
+            if (folder / "run" / PDF_NAME).is_file() and (folder / "run" / "results.json").is_file():
+                found, noted = _pdf_problems(folder, manifest)
+                problems += found
+                notes += noted
+            if (folder / "run" / "results.json").is_file():
+                found, noted = _recompute(folder, manifest)
+                problems += found
+                notes += [f"versions differ: {n}" for n in noted]
+            else:
+                problems.append("missing: run/results.json")
+        shutil.rmtree(folder / "recomputed", ignore_errors=True)
+    return Verification(package, len(digests), tuple(problems), tuple(notes))
+
+
+def report(result: Verification) -> list[str]:
+    """The lines `appendix verify` prints."""
+    lines = [f"package {result.package}: {result.files_hashed} files hashed",
+             f"compared: {TOLERANCE_TEXT}"]
+    lines += [f"  note: {note}" for note in result.notes]
+    if result.reproduced:
+        return [*lines, "reproduced"]
+    count = len(result.problems)
+    return [*lines, *(f"  {problem}" for problem in result.problems),
+            f"not reproduced: {count} difference{'s' if count != 1 else ''}"]
+
+
+def verify_command(package: Path, out_stream: TextIO) -> int:
+    """`appendix verify PACKAGE`: print the report; exit 0 reproduced, 1 on any mismatch."""
+    result = verify(package)
+    for line in report(result):
+        print(line, file=out_stream)
+    return 0 if result.reproduced else 1
