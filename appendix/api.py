@@ -13,7 +13,7 @@ from __future__ import annotations
 import datetime as _dt
 import platform
 import sys
-from collections.abc import Callable
+from collections.abc import Callable, Mapping
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -21,12 +21,14 @@ from appendix.data.build import build_dataset
 from appendix.data.dataset import Dataset
 from appendix.errors import UserError
 from appendix.plan.load import LoadedPlan, load_plan
-from appendix.results import StudyResults, to_json, to_plain
+from appendix.plan.lock import Lock, LockOutcome, lock_plan, read_lock
+from appendix.deviations import unacknowledged as _unacknowledged
+from appendix.results import Deviation, StudyResults, to_json, to_plain
 from appendix.runner import analyse as _analyse
 from appendix.versions import software_versions
 
 __all__ = ["Computed", "Rendered", "RunRecord", "load_plan", "load_data", "analyse",
-           "compute", "check", "render", "run", "software_versions"]
+           "compute", "check", "render", "run", "lock", "unacknowledged", "software_versions"]
 
 @dataclass(frozen=True)
 class Computed:
@@ -72,9 +74,25 @@ def load_data(loaded: LoadedPlan, *, out_of_core: bool | None = None) -> Dataset
     return build_dataset(loaded)
 
 
-def analyse(loaded: LoadedPlan, dataset: Dataset) -> StudyResults:
-    """Every registered analysis (pure computation)."""
-    return _analyse(loaded, dataset, software_versions())
+def analyse(loaded: LoadedPlan, dataset: Dataset, lock: Lock | None = None) -> StudyResults:
+    """Every registered analysis and every deviation from the registered plan; `lock`
+    defaults to the registration lock beside the study file (``study.lock.json``)."""
+    lock = lock if lock is not None else read_lock(loaded.path)
+    return _analyse(loaded, dataset, software_versions(), lock)
+
+
+def lock(study: str | Path, *, relock: bool = False, reason: str | None = None,
+         clock: Callable[[], _dt.datetime] | None = None,
+         environ: Mapping[str, str] | None = None) -> LockOutcome:
+    """Register the study's plan in ``study.lock.json`` beside it (see `appendix.plan.lock`):
+    a first lock, a no-op for the same plan, or a revision with `relock` and a `reason`."""
+    return lock_plan(load_plan(Path(study)), relock=relock, reason=reason, clock=clock,
+                     environ=environ)
+
+
+def unacknowledged(results: StudyResults) -> tuple[Deviation, ...]:
+    """The run's deviations that neither the plan nor a revision of its lock acknowledges."""
+    return _unacknowledged(results.deviations)
 
 
 def compute(study: str | Path, *, out_of_core: bool | None = None) -> Computed:

@@ -40,6 +40,14 @@ def _parser() -> argparse.ArgumentParser:
     run.add_argument("--out", type=Path, help="run folder (default: out/<study id>/)")
     run.add_argument("--no-pdf", action="store_true", help="write the HTML only")
     run.add_argument("--paper", choices=["A4", "Letter"], default="A4", help="PDF page size")
+    run.add_argument("--strict", action="store_true", help="exit 1 (after writing the run) "
+                     "while any deviation from the registered plan is not acknowledged")
+    lock = commands.add_parser("lock", help="register the plan: write study.lock.json beside "
+                               "the study file (canonical plan, hash, time)")
+    lock.add_argument("study", type=Path, help="the study file (YAML)")
+    lock.add_argument("--relock", action="store_true", help="record a changed plan as a "
+                      "revision of the lock (needs --reason)")
+    lock.add_argument("--reason", help="why the registered plan is revised (with --relock)")
     commands.add_parser("selftest", help="run the published reference checks on this "
                         "installation and report")
     return parser
@@ -78,6 +86,26 @@ def _run(args, cwd: Path, out: TextIO, err: TextIO, clock) -> int:
     print(f"wrote {record.folder}", file=out)
     for outcome in record.results.outcomes:
         print(f"  {outcome.name} ({outcome.role}): {outcome.conclusion.decision}", file=out)
+    pending = api.unacknowledged(record.results)
+    if record.results.deviations:
+        print(f"  deviations from the plan: {len(record.results.deviations)}, "
+              f"{len(pending)} not acknowledged", file=out)
+    for deviation in pending:
+        print(f"    {deviation.kind} ({deviation.subject}): {deviation.message}", file=out)
+    if args.strict and pending:
+        print(f"strict: {len(pending)} deviation{'s' if len(pending) != 1 else ''} from the "
+              "registered plan not acknowledged (see the plan's deviations key)", file=err)
+        return EXIT_ATTENTION
+    return EXIT_OK
+
+
+def _lock(args, out: TextIO, clock) -> int:
+    from appendix import api
+
+    if args.reason is not None and not args.relock:
+        raise UserError("--reason goes with --relock: a first lock needs no reason")
+    outcome = api.lock(args.study, relock=args.relock, reason=args.reason, clock=clock)
+    print(outcome.message, file=out)
     return EXIT_OK
 
 
@@ -109,6 +137,8 @@ def main(argv: Sequence[str] | None = None, *, stdout: TextIO | None = None,
         args.study = cwd / args.study
         if args.command == "check":
             return _check(args, out)
+        if args.command == "lock":
+            return _lock(args, out, clock)
         return _run(args, cwd, out, err, clock)
     except SystemExit as done:  # --help and --version print, then ask to exit
         return int(done.code or 0)

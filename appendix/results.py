@@ -556,8 +556,12 @@ class ExploratoryAnalysis:
 class Deviation:
     """A departure from the registered plan, or a registered contingency that was applied.
 
-    `kind` is a stable identifier (``registered-contingency``, ...); `acknowledged` says
-    whether the plan itself provides for it or justifies it.
+    `kind` is a stable identifier (``registered-contingency``, ``plan-changed``, ...; see
+    `appendix.deviations`); `subject` what it concerns (a key path such as ``alpha``, an
+    outcome, a level); `message` what changed, in words; `detected` how the run found it;
+    `acknowledged` whether the plan provides for it or justifies it (its `deviations` key,
+    a registered rule, or a recorded revision of the lock). For a change of the plan,
+    `registered` and `current` give the locked and the present value in words.
     """
 
     kind: str
@@ -565,6 +569,37 @@ class Deviation:
     message: str
     acknowledged: bool
     justification: str | None = None
+    detected: str | None = None
+    registered: str | None = None
+    current: str | None = None
+
+
+@dataclass(frozen=True)
+class PlanRevision:
+    """A recorded revision of the registration lock (``appendix lock --relock``)."""
+
+    number: int
+    time: str
+    previous_sha256: str
+    sha256: str
+    reason: str
+
+
+@dataclass(frozen=True)
+class Registration:
+    """The registration lock the run compared the plan with (``study.lock.json``).
+
+    `locked_at` is the first lock's time (UTC, ISO 8601); `plan_sha256` the hash of the
+    plan as last registered (after any revision); `data_at_lock` says in words whether
+    the data file existed when the plan was first locked.
+    """
+
+    lock_file: str
+    locked_at: str
+    plan_sha256: str
+    tool_version: str
+    data_at_lock: str
+    revisions: tuple[PlanRevision, ...] = ()
 
 
 @dataclass(frozen=True)
@@ -610,6 +645,7 @@ class StudyResults:
     multiplicity_scope: str | None = None
     factors: tuple[FactorInfo, ...] = ()
     models: tuple[ModelOutcome, ...] = ()
+    registration: Registration | None = None
     format_version: int = field(default=FORMAT_VERSION)
 
 

@@ -11,8 +11,10 @@ from dataclasses import dataclass
 
 from appendix import conclude, families
 from appendix.data.dataset import Dataset, OutcomeData
+from appendix.deviations import all_deviations, registration
 from appendix.models import analyse_model_outcome
 from appendix.plan.load import LoadedPlan
+from appendix.plan.lock import Lock
 from appendix.plan.model import Outcome, Plan
 from appendix.results import (
     ContrastFamily,
@@ -178,9 +180,10 @@ def _exploratory(plan: Plan, found: list[dict[str, ContrastFamily]]) -> tuple[Ex
         for entry in plan.exploratory)
 
 
-def analyse(loaded: LoadedPlan, dataset: Dataset,
-            software: tuple[Software, ...]) -> StudyResults:
-    """All registered analyses of the study, primary outcomes first, in plan order."""
+def analyse(loaded: LoadedPlan, dataset: Dataset, software: tuple[Software, ...],
+            lock: Lock | None = None) -> StudyResults:
+    """All registered analyses of the study, primary outcomes first, in plan order, and
+    every deviation from the registered plan (`lock`: its registration lock, if any)."""
     plan = loaded.plan
     flows = {flow.outcome: flow for flow in dataset.unit_flow.outcomes}
     ordered = sorted(plan.outcomes, key=lambda o: o.role != "primary")
@@ -227,11 +230,13 @@ def analyse(loaded: LoadedPlan, dataset: Dataset,
         findings=dataset.findings,
         software=software,
         exploratory=exploratory,
-        deviations=tuple(d for w in work for d in w.deviations),
+        deviations=all_deviations(plan, plan.model_dump(mode="json"), lock, dataset.unit_flow,
+                                  [d for w in work for d in w.deviations]),
         multiplicity=plan.multiplicity.method if plan.contrasts else None,
         multiplicity_scope=plan.multiplicity.scope if plan.contrasts else None,
         factors=tuple(_factor_info(f) for f in plan.design.factors),
         models=models,
+        registration=registration(lock),
     )
 
 

@@ -8,7 +8,12 @@ FactorRole = Literal["treatment", "block", "within"]
 ContrastKind = Literal["custom", "pairwise", "versus-control", "trend", "helmert"]
 MultiplicityMethod = Literal["none", "bonferroni", "holm", "hochberg", "sidak",
                              "benjamini-hochberg", "tukey", "dunnett", "fixed-sequence"]
+#: What a run reports as a deviation from the registered plan (see appendix.deviations).
+DeviationKind = Literal["plan-not-registered", "plan-changed", "outcome-added", "outcome-removed",
+                        "outcome-role-switched", "below-planned-n", "level-without-units",
+                        "missing-above-limit", "registered-contingency"]
 
 ROLES: tuple[str, ...] = get_args(FactorRole)
 KINDS: tuple[str, ...] = get_args(ContrastKind)
 METHODS: tuple[str, ...] = get_args(MultiplicityMethod)
+DEVIATION_KINDS: tuple[str, ...] = get_args(DeviationKind)

@@ -30,7 +30,7 @@ from pydantic import (
 from pydantic_core import PydanticCustomError
 
 from appendix.plan.checks import DATA_FORMATS, consistency_problems
-from appendix.plan.choices import ContrastKind, FactorRole, MultiplicityMethod
+from appendix.plan.choices import ContrastKind, DeviationKind, FactorRole, MultiplicityMethod
 from appendix.plan.scalars import scalar_text
 from appendix.plan.wording import key_path
 
@@ -159,6 +159,10 @@ class Data(_Frozen):
     sheet: str | None = Field(default=None, description="Worksheet name, for Excel sources.")
     exclusions: tuple[Exclusion, ...] = Field(default=(), description="Pre-registered rules only.")
     planned_n: PlannedN | None = None
+    missing_limit: float | None = Field(
+        default=None, ge=0, lt=1, strict=True, exclude_if=_is(None),
+        description="Largest registered share of eligible units without a value, per outcome "
+                    "(0 to under 1, e.g. 0.1); a larger share is reported as a deviation.")
 
 
 class Factor(_Frozen):
@@ -352,6 +356,20 @@ class Multiplicity(_Frozen):
         description="fixed-sequence only: every contrast id exactly once, in testing order.")
 
 
+class Acknowledgement(_Frozen):
+    """A deviation from the registered plan that the plan acknowledges, with its justification.
+
+    It matches a detected deviation of the same `kind` whose subject equals `subject`
+    exactly (a key path such as ``alpha``, an outcome name, a level); an entry that
+    matches nothing is itself reported, so a typo never silently acknowledges nothing.
+    """
+
+    kind: DeviationKind = Field(description="The kind of deviation, as the appendix names it.")
+    subject: str = Field(min_length=1, description="What it concerns, exactly as the appendix "
+                         "lists it (key path, outcome name, level, or 'plan').")
+    justification: str = Field(min_length=1, description="Why the deviation is acceptable.")
+
+
 class Plan(_Frozen):
     """A whole study file, format 1."""
 
@@ -372,6 +390,10 @@ class Plan(_Frozen):
     repeated: Repeated | None = Field(
         default=None, exclude_if=_is(None),
         description="With a within factor only: the rule for missing repeated observations.")
+    deviations: tuple[Acknowledgement, ...] = Field(
+        default=(), exclude_if=_is(()),
+        description="Acknowledged deviations from the registered plan, each with a justification; "
+                    "never compared with the lock.")
 
     @model_validator(mode="before")
     @classmethod

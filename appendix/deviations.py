@@ -1,0 +1,195 @@
+"""Deviations from the registered plan, detected on every run (pure: no I/O).
+
+Kinds (stable identifiers, listed in `appendix.plan.choices.DEVIATION_KINDS`):
+
+- ``plan-not-registered``: no ``study.lock.json`` beside the study file (subject ``plan``);
+- ``plan-changed``, ``outcome-added``, ``outcome-removed``, ``outcome-role-switched``: the
+  plan against the lock, key by key (subject: the dotted key path); changes recorded as
+  revisions of the lock are listed too, acknowledged by the revision's reason;
+- ``below-planned-n``: fewer analysed units than ``data.planned_n`` at a level (or cell)
+  that has eligible units (subject: the level), or in all (subject ``total``);
+- ``level-without-units``: a plan level (or cell) with no eligible unit (subject: the level);
+- ``missing-above-limit``: a larger share of eligible units without a value than
+  ``data.missing_limit`` (subject: the outcome);
+- ``registered-contingency``: a registered fallback rule fired (acknowledged by the plan);
+- ``acknowledgement-unmatched``: an entry of the plan's ``deviations`` that matches no
+  deviation of this run (never acknowledged itself).
+
+An acknowledgement matches every deviation of the same kind whose subject equals its own
+exactly; it marks them acknowledged with its justification.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+from collections.abc import Iterable, Sequence
+
+from appendix.plan.lock import Lock, PlanChange, compare_plans
+from appendix.plan.model import Plan
+from appendix.plan.wording import did_you_mean, show
+from appendix.results import Deviation, PlanRevision, Registration, UnitFlow
+
+UNMATCHED = "acknowledgement-unmatched"
+NOT_REGISTERED = "plan-not-registered"
+
+
+def registration(lock: Lock | None) -> Registration | None:
+    """What the appendix shows of the lock: first lock time, last hash, revisions."""
+    if lock is None:
+        return None
+    return Registration(
+        lock_file="study.lock.json", locked_at=lock.locked_at, plan_sha256=lock.plan_sha256,
+        tool_version=lock.tool_version, data_at_lock=lock.data.statement,
+        revisions=tuple(PlanRevision(r.number, r.time, r.previous_sha256, r.sha256, r.reason)
+                        for r in lock.revisions))
+
+
+def _from_change(change: PlanChange, detected: str, acknowledged: bool = False,
+                 justification: str | None = None) -> Deviation:
+    return Deviation(kind=change.kind, subject=change.key, message=change.message,
+                     acknowledged=acknowledged, justification=justification, detected=detected,
+                     registered=change.registered, current=change.current)
+
+
+def plan_deviations(plan_json: dict, lock: Lock | None) -> tuple[Deviation, ...]:
+    """The plan against its lock: each change since the last lock, then each change that
+    a revision of the lock recorded (acknowledged by that revision's reason)."""
+    if lock is None:
+        return (Deviation(
+            kind=NOT_REGISTERED, subject="plan",
+            message="Plan not registered: no registration lock (study.lock.json) was found "
+                    "beside the study file, so nothing shows that the plan was fixed before "
+                    "the analysis.",
+            acknowledged=False, detected="looked for study.lock.json beside the study file"),)
+    when = lock.last_locked_at
+    detected = (f"plan compared key by key with study.lock.json (locked {when}, "
+                f"SHA-256 {lock.plan_sha256[:12]})")
+    found = [_from_change(c, detected) for c in compare_plans(lock.plan, plan_json)]
+    for revision in lock.revisions:
+        note = f"recorded in study.lock.json as revision {revision.number} on {revision.time}"
+        found += [_from_change(c, note, True, revision.reason) for c in revision.changes]
+    return tuple(found)
+
+
+def _grouping(plan: Plan) -> tuple[str, str]:
+    """('level', factor in words) for a one-way plan, ('cell', crossed factors) otherwise."""
+    if plan.is_one_way:
+        return "level", plan.factor.label or plan.factor.name
+    names = [f.label or f.name for f in plan.treatments] or [plan.factor.label or plan.factor.name]
+    return "cell", " \u00d7 ".join(names)
+
+
+def _plural(n: int, word: str) -> str:
+    return f"{n} {word}{'' if n == 1 else 's'}"
+
+
+def _analysed_words(counts: Sequence[tuple[str, int]]) -> str:
+    """``10 units analysed`` when every outcome agrees, else each outcome's count."""
+    if len({n for _, n in counts}) == 1:
+        return f"{_plural(counts[0][1], 'unit')} analysed"
+    return "units analysed: " + ", ".join(f"{n} for {name}" for name, n in counts)
+
+
+def data_deviations(plan: Plan, flow: UnitFlow) -> tuple[Deviation, ...]:
+    """Levels without units, analysed numbers below the planned n, and missing values
+    above the registered limit, from the unit flow."""
+    level, grouping = _grouping(plan)
+    found: list[Deviation] = []
+    read = {c.level: c.n for c in flow.read}
+    empty = {c.level for c in flow.eligible if c.n == 0}
+    for count in flow.eligible:
+        if count.n == 0:
+            n_read = read.get(count.level, 0)
+            why = "none in the data" if n_read == 0 else f"all {n_read} excluded"
+            found.append(Deviation(
+                "level-without-units", count.level,
+                f"No eligible units at {level} {show(count.level)} of {grouping} ({why}).",
+                False, detected="eligible units per level in the unit flow"))
+    found += _below_planned(plan, flow, level, grouping, empty)
+    found += _missing_above_limit(plan, flow)
+    return tuple(found)
+
+
+def _below_planned(plan: Plan, flow: UnitFlow, level: str, grouping: str,
+                   empty: set[str]) -> list[Deviation]:
+    planned = plan.data.planned_n
+    if planned is None or not flow.outcomes:
+        return []
+    detected = "analysed units in the unit flow compared with data.planned_n"
+    found = []
+    if planned.per_group is not None:
+        analysed = [(o.outcome, {c.level: c.n for c in o.analysed}) for o in flow.outcomes]
+        for count in flow.eligible:
+            if count.level in empty:
+                continue
+            counts = [(name, by_level.get(count.level, 0)) for name, by_level in analysed]
+            if min(n for _, n in counts) < planned.per_group:
+                found.append(Deviation(
+                    "below-planned-n", count.level,
+                    f"{level.capitalize()} {show(count.level)} of {grouping}: "
+                    f"{_analysed_words(counts)}; {planned.per_group} planned per "
+                    f"{'group' if level == 'level' else 'cell'}.", False, detected=detected))
+    if planned.total is not None:
+        counts = [(o.outcome, sum(c.n for c in o.analysed)) for o in flow.outcomes]
+        if min(n for _, n in counts) < planned.total:
+            found.append(Deviation(
+                "below-planned-n", "total",
+                f"In all: {_analysed_words(counts)}; {planned.total} planned.", False,
+                detected=detected))
+    return found
+
+
+def _missing_above_limit(plan: Plan, flow: UnitFlow) -> list[Deviation]:
+    limit = plan.data.missing_limit
+    eligible = sum(c.n for c in flow.eligible)
+    if limit is None or eligible == 0:
+        return []
+    found = []
+    for outcome in flow.outcomes:
+        missing = sum(c.n for c in outcome.missing)
+        if missing > limit * eligible:
+            found.append(Deviation(
+                "missing-above-limit", outcome.outcome,
+                f"Outcome {outcome.outcome}: {missing} of {eligible} eligible units "
+                f"({missing / eligible:.1%}) have no value; the registered limit is "
+                f"{limit:.1%}.", False,
+                detected="missing values in the unit flow compared with data.missing_limit"))
+    return found
+
+
+def acknowledge(plan: Plan, found: Iterable[Deviation]) -> tuple[Deviation, ...]:
+    """Apply the plan's `deviations` acknowledgements; report those that match nothing."""
+    found = list(found)
+    for i, entry in enumerate(plan.deviations):
+        matched = [j for j, d in enumerate(found)
+                   if d.kind == entry.kind and d.subject == entry.subject]
+        for j in matched:
+            if not found[j].acknowledged:
+                found[j] = dataclasses.replace(found[j], acknowledged=True,
+                                               justification=entry.justification)
+        if not matched:
+            subjects = [d.subject for d in found if d.kind == entry.kind] or \
+                [d.subject for d in found]
+            hint = did_you_mean(entry.subject, subjects)
+            found.append(Deviation(
+                UNMATCHED, f"deviations[{i}]",
+                f"deviations[{i}] acknowledges {entry.kind} {show(entry.subject)}, but this "
+                f"run detected no such deviation{hint}; it acknowledges nothing.", False,
+                detected="the plan's deviations list matched against the deviations detected"))
+    return tuple(found)
+
+
+def unacknowledged(deviations: Iterable[Deviation]) -> tuple[Deviation, ...]:
+    """The deviations that neither the plan nor a recorded revision acknowledges."""
+    return tuple(d for d in deviations if not d.acknowledged)
+
+
+def all_deviations(plan: Plan, plan_json: dict, lock: Lock | None, flow: UnitFlow,
+                   contingencies: Sequence[Deviation]) -> tuple[Deviation, ...]:
+    """Every deviation of a run, acknowledgements applied: registered contingencies
+    first, then the plan against its lock, then the data against the plan."""
+    contingent = [dataclasses.replace(
+        d, detected=d.detected or "the registered fallback rule's test on this run's data")
+        for d in contingencies]
+    return acknowledge(plan, [*contingent, *plan_deviations(plan_json, lock),
+                              *data_deviations(plan, flow)])
