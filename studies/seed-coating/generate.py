@@ -4,6 +4,10 @@ Every value is invented: drawn from a seeded random generator, then a few values
 blanked (missing) and a few units are marked as damaged (the registered exclusion).
 Rerunning this script rewrites data/units.csv byte for byte.
 
+It also writes data/units-corrected.csv, the same invented data after an (invented)
+check against the record sheets: one mis-keyed value fixed and one unit added, so that a
+rerun on it shows `appendix diff` at work (see README.md).
+
     python studies/seed-coating/generate.py
 """
 
@@ -49,15 +53,50 @@ def rows(rng: np.random.Generator) -> list[dict[str, str]]:
     return out
 
 
-def main() -> None:
-    target = Path(__file__).with_name("data") / "units.csv"
+# The invented correction: unit P024's dry mass was keyed with its first digit wrong
+# (37.2 for the sheet's 47.2), and the sheet of a 49th seedling turned up late.
+MISKEYED_UNIT = "P024"
+MISKEYED_COLUMN = "shoot_dry_mass_mg"
+MISKEYED_AS, SHEET_VALUE = "37.2", "47.2"
+ADDED_UNIT = "P049"
+ADDED_COATING = "humic"
+CORRECTION_SEED = SEED + 1
+
+
+def corrected(data: list[dict[str, str]], rng: np.random.Generator) -> list[dict[str, str]]:
+    """The rows after the invented check: the mis-keyed value fixed, one unit appended
+    (its values drawn from the same invented distributions as the others)."""
+    out = [dict(row) for row in data]
+    (row,) = [r for r in out if r["unit_id"] == MISKEYED_UNIT]
+    if row[MISKEYED_COLUMN] != MISKEYED_AS:
+        raise RuntimeError(f"{MISKEYED_UNIT} no longer reads {MISKEYED_AS}: the story is out of date")
+    row[MISKEYED_COLUMN] = SHEET_VALUE
+    index = len(out)
+    out.append({
+        "unit_id": ADDED_UNIT,
+        "tray": str(index // 8 + 1),
+        "coating": ADDED_COATING,
+        "damaged": "no",
+        "shoot_dry_mass_mg": f"{rng.normal(DRY_MASS_MEAN[ADDED_COATING], DRY_MASS_SD):.1f}",
+        "chlorophyll_index": f"{rng.normal(CHLOROPHYLL_MEAN, CHLOROPHYLL_SD):.1f}",
+    })
+    return out
+
+
+def write(target: Path, data: list[dict[str, str]]) -> None:
     target.parent.mkdir(exist_ok=True)
-    data = rows(np.random.default_rng(SEED))
     with target.open("w", newline="", encoding="utf-8") as handle:
         writer = csv.DictWriter(handle, fieldnames=list(data[0]), lineterminator="\n")
         writer.writeheader()
         writer.writerows(data)
     print(f"wrote {len(data)} invented units to {target}")
+
+
+def main() -> None:
+    folder = Path(__file__).with_name("data")
+    data = rows(np.random.default_rng(SEED))
+    write(folder / "units.csv", data)
+    write(folder / "units-corrected.csv", corrected(data, np.random.default_rng(CORRECTION_SEED)))
 
 
 if __name__ == "__main__":
