@@ -1,0 +1,692 @@
+"""`appendix diff RUN_A RUN_B`: what changed between two run folders, most important first.
+
+1. conclusions whose decision changed at alpha (the omnibus test of a one-factor outcome,
+   each registered hypothesis, each tested model term of a design beyond one factor);
+2. numbers that moved beyond a stated tolerance (estimates, intervals, p-values, effect
+   sizes, counts), with the size of the move, absolute and relative;
+3. data: units added and removed, and changed cells by unit, outcome and column, read
+   from each run's records (`appendix.records`);
+4. the plan: its hash, and key by key when both runs hold the canonical plan;
+5. checksums of the inputs (and of the output files, from the manifests).
+
+Only the run folders' results.json, records.json and manifest.json are read. Output:
+text for people (`report_lines`), canonical JSON for machines (`to_json`, stable keys)
+and an HTML page in the appendix's look (`render_page`).
+
+>>> diff = compare_runs(Path("out/before"), Path("out/after"))  # doctest: +SKIP
+>>> [c.id for c in diff.conclusions]                            # doctest: +SKIP
+['C2:humic']
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import json
+from collections.abc import Iterator, Mapping
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any, TextIO
+
+from appendix.errors import UserError
+from appendix.records import Records, RowRecord, read_records
+
+DIFF_FORMAT = 1
+
+#: Joins the factors of an interaction in a term's id, as the appendix writes it.
+CROSS = " × "
+
+
+@dataclass(frozen=True)
+class Tolerance:
+    """A number moved when |b - a| > max(absolute, relative * max(|a|, |b|)).
+
+    The defaults only ignore floating-point noise (last digits of a double that differ
+    between platforms or library versions); every real change is shown. They are a
+    judgement (common practice, no source)."""
+
+    relative: float = 1e-9
+    absolute: float = 1e-12
+
+    def moved(self, a: float | None, b: float | None) -> bool:
+        if a is None or b is None:
+            return (a is None) != (b is None)
+        return abs(b - a) > max(self.absolute, self.relative * max(abs(a), abs(b)))
+
+
+@dataclass(frozen=True)
+class Decision:
+    """One run's decision on a conclusion; `p` is the p that decided it (adjusted for
+    multiplicity where the plan adjusts)."""
+
+    decision: str
+    p: float | None
+    sentence: str
+
+
+@dataclass(frozen=True)
+class ConclusionChange:
+    """A conclusion whose decision differs, or that exists in one run only (None).
+    `kind` is ``omnibus``, ``hypothesis`` or ``term``."""
+
+    outcome: str
+    role: str
+    kind: str
+    id: str
+    label: str
+    a: Decision | None
+    b: Decision | None
+
+
+@dataclass(frozen=True)
+class NumberMove:
+    """A number that moved: `change` = b - a, `relative_change` = change / |a|."""
+
+    outcome: str
+    quantity: str
+    label: str
+    a: float | None
+    b: float | None
+    change: float | None
+    relative_change: float | None
+
+
+@dataclass(frozen=True)
+class RowIdentity:
+    """A data row present in one run only: its unit (and within level), line, levels."""
+
+    unit: str
+    within: str | None
+    line: int
+    levels: Mapping[str, str | None]
+
+
+@dataclass(frozen=True)
+class CellChange:
+    """A changed cell of one row. `role` is ``outcome``, ``covariate``, ``exclusion``,
+    ``factor`` or ``exclusion-rule`` (which rule set the unit aside); `name` is the
+    outcome or covariate name, the rule id or the factor; `status_*` the row's status in
+    that outcome (outcome columns only)."""
+
+    unit: str
+    within: str | None
+    column: str
+    role: str
+    name: str
+    text_a: str | None
+    text_b: str | None
+    value_a: float | None
+    value_b: float | None
+    status_a: str | None
+    status_b: str | None
+
+
+@dataclass(frozen=True)
+class DataDiff:
+    """`compared` is False when either run has no rows recorded (`note` says why)."""
+
+    compared: bool
+    note: str | None
+    rows_a: int | None
+    rows_b: int | None
+    added: tuple[RowIdentity, ...]
+    removed: tuple[RowIdentity, ...]
+    changed: tuple[CellChange, ...]
+
+
+@dataclass(frozen=True)
+class PlanKeyChange:
+    key: str
+    a: Any
+    b: Any
+
+
+@dataclass(frozen=True)
+class PlanDiff:
+    """`keys` is empty unless both runs hold the canonical plan (`compared`);
+    `role_switches` names outcomes that moved between primary and secondary."""
+
+    sha256_a: str
+    sha256_b: str
+    changed: bool
+    compared: bool
+    keys: tuple[PlanKeyChange, ...]
+    role_switches: tuple[str, ...]
+
+
+@dataclass(frozen=True)
+class Checksum:
+    """An input or output file's SHA-256 in each run (None: absent from that run)."""
+
+    kind: str
+    role: str
+    path: str
+    sha256_a: str | None
+    sha256_b: str | None
+    changed: bool
+
+
+@dataclass(frozen=True)
+class RunInfo:
+    folder: str
+    study: str
+    plan_sha256: str
+    alpha: float
+
+
+@dataclass(frozen=True)
+class RunDiff:
+    """Everything `appendix diff` reports, in order of importance."""
+
+    a: RunInfo
+    b: RunInfo
+    tolerance: Tolerance
+    conclusions: tuple[ConclusionChange, ...]
+    numbers: tuple[NumberMove, ...]
+    data: DataDiff
+    plan: PlanDiff
+    checksums: tuple[Checksum, ...]
+    format_version: int = DIFF_FORMAT
+
+    @property
+    def conclusions_changed(self) -> bool:
+        return bool(self.conclusions)
+
+
+# --- reading a run folder -------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class _Run:
+    folder: Path
+    results: Mapping[str, Any]
+    manifest: Mapping[str, Any] | None
+    records: Records | None
+
+
+def _read_json(path: Path) -> Any:
+    try:
+        return json.loads(path.read_text(encoding="utf-8"))
+    except (OSError, ValueError) as error:
+        raise UserError(f"cannot read {path}: {error}") from None
+
+
+def _load_run(folder: Path) -> _Run:
+    folder = Path(folder)
+    if not (folder / "results.json").is_file():
+        raise UserError(f"not a run folder: {folder} has no results.json "
+                        "(give the folders that `appendix run` wrote)")
+    results = _read_json(folder / "results.json")
+    if not isinstance(results, dict) or results.get("format_version") != 1:
+        raise UserError(f"{folder / 'results.json'}: not a results file of format 1")
+    manifest = _read_json(folder / "manifest.json") if (folder / "manifest.json").is_file() else None
+    return _Run(folder, results, manifest, read_records(folder))
+
+
+# --- 1. conclusions -------------------------------------------------------------------
+
+
+def _ordered(items: list[Mapping[str, Any]]) -> list[Mapping[str, Any]]:
+    """Primary outcomes first, otherwise in results order (as the appendix shows them)."""
+    return sorted(items, key=lambda o: o["role"] != "primary")
+
+
+def _hypotheses(outcome: Mapping[str, Any]) -> Iterator[tuple[Mapping[str, Any], str]]:
+    """Registered hypotheses with their sentence (the results list the sentences in the
+    same order as the registered families' hypotheses)."""
+    hypotheses = [h for f in outcome.get("contrasts", []) if f["registered"] for h in f["hypotheses"]]
+    sentences = [c["sentence"] for c in outcome.get("hypothesis_conclusions", [])]
+    if len(sentences) != len(hypotheses):
+        sentences = [""] * len(hypotheses)
+    yield from zip(hypotheses, sentences)
+
+
+def _tested_terms(results: Mapping[str, Any], model: Mapping[str, Any]) -> list[Mapping[str, Any]]:
+    """The table rows a model concludes on: terms of treatment and within factors only
+    (blocks and covariates adjust the model), tables in order."""
+    tested = {f["name"] for f in results.get("factors", []) if f.get("role") in ("treatment", "within")}
+    return [row for table in model["tables"] for row in table["rows"] if set(row["term"]) <= tested]
+
+
+def _term_conclusions(results: Mapping[str, Any],
+                      m: Mapping[str, Any]) -> Iterator[tuple[str, str, Decision]]:
+    """(term id, label, decision) of each tested term of a model outcome."""
+    rows = _tested_terms(results, m)
+    if len(rows) == len(m["conclusions"]):
+        for row, c in zip(rows, m["conclusions"]):
+            yield (CROSS.join(row["term"]), f"{m['label']}: {row['label']}",
+                   Decision(c["decision"], c["p"], c["sentence"]))
+    else:  # a results file whose conclusions do not pair with its rows: by position
+        for i, c in enumerate(m["conclusions"], start=1):
+            yield f"term {i}", f"{m['label']}: term {i}", Decision(c["decision"], c["p"], c["sentence"])
+
+
+def conclusions_of(results: Mapping[str, Any]) -> dict[tuple[str, str, str], tuple[str, str, Decision]]:
+    """Every conclusion of a run: (outcome, kind, id) -> (role, label, decision); primary
+    outcomes first, each with its omnibus test or model terms, then its hypotheses."""
+    found: dict[tuple[str, str, str], tuple[str, str, Decision]] = {}
+    for o in _ordered([*results.get("outcomes", []), *results.get("models", [])]):
+        if "conclusion" in o:  # one-factor outcome
+            c = o["conclusion"]
+            found[(o["name"], "omnibus", "omnibus")] = (
+                o["role"], f"{o['label']}: equal means ({o.get('selected_method', 'classical')} test)",
+                Decision(c["decision"], c["p"], c["sentence"]))
+        else:
+            for term, label, decision in _term_conclusions(results, o):
+                found[(o["name"], "term", term)] = (o["role"], label, decision)
+        for h, sentence in _hypotheses(o):
+            p = h["p_adjusted"] if h["p_adjusted"] is not None else h["p"]
+            found[(o["name"], "hypothesis", h["id"])] = (
+                o["role"], f"{o['label']}: {h['label']} ({h['id']})", Decision(h["decision"], p, sentence))
+    return found
+
+
+def _union(a: Mapping, b: Mapping) -> list:
+    """Keys of `a` in order, then those only in `b`."""
+    return [*a, *(k for k in b if k not in a)]
+
+
+def compare_conclusions(a: Mapping[str, Any], b: Mapping[str, Any]) -> tuple[ConclusionChange, ...]:
+    ca, cb = conclusions_of(a), conclusions_of(b)
+    changes = []
+    for key in _union(ca, cb):
+        da, db = ca.get(key), cb.get(key)
+        if da and db and da[2].decision == db[2].decision:
+            continue
+        role, label, _ = da or db
+        changes.append(ConclusionChange(outcome=key[0], role=role, kind=key[1], id=key[2], label=label,
+                                        a=da[2] if da else None, b=db[2] if db else None))
+    return tuple(changes)
+
+
+# --- 2. numbers -----------------------------------------------------------------------
+
+_EFFECT_WORDS = {"eta_squared": "eta squared", "omega_squared": "omega squared", "cohens_f": "Cohen's f"}
+
+
+def _interval(found: dict, outcome: str, quantity: str, label: str, item: Mapping[str, Any],
+              estimate: str = "estimate") -> None:
+    found[(outcome, f"{quantity}.estimate")] = (label, item.get(estimate))
+    found[(outcome, f"{quantity}.ci_low")] = (f"{label}, CI low", item.get("ci_low"))
+    found[(outcome, f"{quantity}.ci_high")] = (f"{label}, CI high", item.get("ci_high"))
+
+
+def _hypothesis_numbers(found: dict, outcome: str, families: list[Mapping[str, Any]]) -> None:
+    for family in families:
+        for h in family["hypotheses"]:
+            _interval(found, outcome, h["id"], f"{h['id']} estimate", h)
+            found[(outcome, f"{h['id']}.p")] = (f"{h['id']} p (unadjusted)", h["p"])
+            found[(outcome, f"{h['id']}.p_adjusted")] = (f"{h['id']} p (adjusted)", h["p_adjusted"])
+            found[(outcome, f"{h['id']}.standardized")] = (f"{h['id']} standardized (Hedges)",
+                                                          h["standardized"])
+
+
+def _group_numbers(found: dict, outcome: str, descriptives: Mapping[str, Any]) -> None:
+    for g in descriptives["groups"]:
+        _interval(found, outcome, f"mean[{g['level']}]", f"mean, {g['level']}", g, estimate="mean")
+        found[(outcome, f"n[{g['level']}]")] = (f"n, {g['level']}", g["n"])
+
+
+def numbers_of(results: Mapping[str, Any]) -> dict[tuple[str, str], tuple[str, float | None]]:
+    """The run's reported numbers: (outcome, quantity) -> (label, value), most telling first
+    within an outcome (tests, effect sizes, hypotheses, then means and counts)."""
+    found: dict[tuple[str, str], tuple[str, float | None]] = {}
+    exploratory: dict[str, list] = {}
+    for entry in results.get("exploratory", []):
+        for family in entry["families"]:
+            exploratory.setdefault(family["outcome"], []).append(family)
+    for o in _ordered(list(results.get("outcomes", []))):
+        name = o["name"]
+        found[(name, "anova.f")] = ("F (classical)", o["table"]["f"])
+        found[(name, "anova.p")] = ("p (classical)", o["table"]["p"])
+        found[(name, "welch.f")] = ("F (Welch)", o["welch"]["f"])
+        found[(name, "welch.p")] = ("p (Welch)", o["welch"]["p"])
+        found[(name, "kruskal.h")] = ("H (Kruskal-Wallis)", o["kruskal"]["h"])
+        found[(name, "kruskal.p")] = ("p (Kruskal-Wallis)", o["kruskal"]["p"])
+        for e in o["effect_sizes"]:
+            _interval(found, name, e["measure"], _EFFECT_WORDS.get(e["measure"], e["measure"]), e)
+        _hypothesis_numbers(found, name, [f for f in o["contrasts"] if f["registered"]])
+        _hypothesis_numbers(found, name, exploratory.get(name, []))
+        found[(name, "n_analysed")] = ("units analysed", o["n_analysed"])
+        _group_numbers(found, name, o["descriptives"])
+    for m in _ordered(list(results.get("models", []))):
+        name = m["name"]
+        for table in m["tables"]:
+            for row in table["rows"]:
+                term = f"{table['stratum']}/{CROSS.join(row['term'])}"
+                label = f"{row['label']} ({table['stratum']})"
+                found[(name, f"{term}.f")] = (f"F, {label}", row["f"])
+                found[(name, f"{term}.p")] = (f"p, {label}", row["p"])
+                found[(name, f"{term}.gg_p")] = (f"p Greenhouse-Geisser, {label}", row.get("gg_p"))
+                found[(name, f"{term}.hf_p")] = (f"p Huynh-Feldt, {label}", row.get("hf_p"))
+                found[(name, f"{term}.partial_eta_squared")] = (f"partial eta squared, {label}",
+                                                               row["partial_eta_squared"])
+                found[(name, f"{term}.partial_omega_squared")] = (f"partial omega squared, {label}",
+                                                                 row["partial_omega_squared"])
+        _hypothesis_numbers(found, name, [f for f in m["contrasts"] if f["registered"]])
+        _hypothesis_numbers(found, name, exploratory.get(name, []))
+        for means in m["marginal_means"]:
+            for mean in means["means"]:
+                at = ", ".join(f"{f}={v}" for f, v in zip(means["factors"], mean["levels"]))
+                _interval(found, name, f"marginal[{at}]", f"marginal mean, {at}", mean)
+        for slope in m.get("covariate_slopes", []):
+            _interval(found, name, f"slope[{slope['covariate']}]", f"slope on {slope['covariate']}", slope)
+        found[(name, "n_units")] = ("units analysed", m["n_units"])
+        found[(name, "n_observations")] = ("observations analysed", m["n_observations"])
+        _group_numbers(found, name, m["descriptives"])
+    return found
+
+
+def compare_numbers(a: Mapping[str, Any], b: Mapping[str, Any],
+                    tolerance: Tolerance) -> tuple[NumberMove, ...]:
+    na, nb = numbers_of(a), numbers_of(b)
+    moves = []
+    for key in _union(na, nb):
+        label, va = na.get(key, (None, None))
+        label_b, vb = nb.get(key, (None, None))
+        if not tolerance.moved(va, vb):
+            continue
+        change = vb - va if va is not None and vb is not None else None
+        relative = change / abs(va) if change is not None and va != 0 else None
+        moves.append(NumberMove(outcome=key[0], quantity=key[1], label=label or label_b,
+                                a=va, b=vb, change=change, relative_change=relative))
+    return tuple(moves)
+
+
+# --- 3. data --------------------------------------------------------------------------
+
+
+def _identity(row: RowRecord) -> RowIdentity:
+    return RowIdentity(unit=row.unit, within=row.within, line=row.line, levels=dict(row.levels))
+
+
+def _row_changes(ra: RowRecord, rb: RowRecord, roles: Mapping[str, tuple[str, str]]) -> list[CellChange]:
+    out = []
+
+    def add(column: str, role: str, name: str, text_a, text_b, value_a=None, value_b=None,
+            status_a=None, status_b=None) -> None:
+        out.append(CellChange(ra.unit, ra.within, column, role, name, text_a, text_b,
+                              value_a, value_b, status_a, status_b))
+
+    for factor in _union(ra.levels, rb.levels):
+        if ra.levels.get(factor) != rb.levels.get(factor):
+            add(factor, "factor", factor, ra.levels.get(factor), rb.levels.get(factor))
+    for column in _union(ra.cells, rb.cells):
+        role, name = roles.get(column, ("column", column))
+        text_a, text_b = ra.cells.get(column), rb.cells.get(column)
+        value_a, value_b = ra.values.get(column), rb.values.get(column)
+        status_a = ra.outcomes.get(name) if role == "outcome" else None
+        status_b = rb.outcomes.get(name) if role == "outcome" else None
+        if (text_a, value_a, status_a) != (text_b, value_b, status_b):
+            add(column, role, name, text_a, text_b, value_a, value_b, status_a, status_b)
+    if ra.excluded_by != rb.excluded_by:
+        add("", "exclusion-rule", "excluded by", ra.excluded_by, rb.excluded_by)
+    return out
+
+
+def compare_data(a: Records | None, b: Records | None) -> DataDiff:
+    if a is None or b is None or a.rows is None or b.rows is None:
+        missing = [side for side, r in (("A", a), ("B", b)) if r is None]
+        skipped = [f"run {side}: {r.skipped}" for side, r in (("A", a), ("B", b))
+                   if r is not None and r.rows is None]
+        note = "; ".join([*(f"run {side} holds no records.json" for side in missing), *skipped])
+        return DataDiff(False, note + "; the data are compared by their checksums only",
+                        None if a is None or a.rows is None else len(a.rows),
+                        None if b is None or b.rows is None else len(b.rows), (), (), ())
+    rows_a = {r.key: r for r in a.rows}
+    rows_b = {r.key: r for r in b.rows}
+    roles = {c.column: (c.role, c.name) for c in (*a.columns, *b.columns)}
+    changed = [change for key in rows_a if key in rows_b
+               for change in _row_changes(rows_a[key], rows_b[key], roles)]
+    return DataDiff(
+        compared=True, note=None, rows_a=len(a.rows), rows_b=len(b.rows),
+        added=tuple(_identity(r) for k, r in rows_b.items() if k not in rows_a),
+        removed=tuple(_identity(r) for k, r in rows_a.items() if k not in rows_b),
+        changed=tuple(changed))
+
+
+# --- 4. plan --------------------------------------------------------------------------
+
+
+def _identified(items: list) -> list[str] | None:
+    """The ids (or names) of a list of mappings, when every item has a distinct one."""
+    for field in ("id", "name"):
+        ids = [item.get(field) if isinstance(item, dict) else None for item in items]
+        if all(isinstance(i, str) for i in ids) and len(set(ids)) == len(ids):
+            return ids
+    return None
+
+
+def flatten_plan(value: Any, prefix: str = "") -> dict[str, Any]:
+    """Key path -> leaf value. Lists of mappings are keyed by their items' id or name
+    (``outcomes[dry_mass].role``), else by position; lists of plain values are leaves."""
+    if isinstance(value, dict):
+        out: dict[str, Any] = {}
+        for key in sorted(value):
+            out.update(flatten_plan(value[key], f"{prefix}.{key}" if prefix else key))
+        return out
+    if isinstance(value, list) and value and all(isinstance(v, dict) for v in value):
+        ids = _identified(value) or [str(i) for i in range(len(value))]
+        out = {}
+        for ident, item in zip(ids, value):
+            out.update(flatten_plan(item, f"{prefix}[{ident}]"))
+        return out
+    return {prefix: value}
+
+
+def compare_plans(a: _Run, b: _Run) -> PlanDiff:
+    sha_a, sha_b = a.results["plan_sha256"], b.results["plan_sha256"]
+    if a.records is None or b.records is None:
+        return PlanDiff(sha_a, sha_b, sha_a != sha_b, False, (), ())
+    fa, fb = flatten_plan(dict(a.records.plan)), flatten_plan(dict(b.records.plan))
+    keys = tuple(PlanKeyChange(k, fa.get(k), fb.get(k)) for k in sorted(set(fa) | set(fb))
+                 if fa.get(k) != fb.get(k))
+    switches = tuple(
+        f"outcome {k[len('outcomes['):-len('].role')]} switched from {c.a} to {c.b}"
+        for c in keys for k in [c.key]
+        if k.startswith("outcomes[") and k.endswith("].role") and c.a and c.b)
+    return PlanDiff(sha_a, sha_b, sha_a != sha_b, True, keys, switches)
+
+
+# --- 5. checksums ---------------------------------------------------------------------
+
+
+def _checksums(kind: str, a: list[Mapping[str, Any]], b: list[Mapping[str, Any]]) -> list[Checksum]:
+    """Inputs are matched by role (a renamed data file is still the data), outputs by path."""
+    field = "role" if kind == "input" else "path"
+    ia, ib = {i[field]: i for i in a}, {i[field]: i for i in b}
+    rows = []
+    for key in _union(ia, ib):
+        x, y = ia.get(key), ib.get(key)
+        path = (y or x)["path"]
+        if x and y and x["path"] != y["path"]:
+            path = f"{x['path']} -> {y['path']}"
+        sa, sb = x["sha256"] if x else None, y["sha256"] if y else None
+        rows.append(Checksum(kind, (y or x).get("role", kind), path, sa, sb, sa != sb))
+    return rows
+
+
+def compare_checksums(a: _Run, b: _Run) -> tuple[Checksum, ...]:
+    rows = _checksums("input", a.results.get("inputs", []), b.results.get("inputs", []))
+    if a.manifest and b.manifest:
+        rows += _checksums("output", a.manifest.get("outputs", []), b.manifest.get("outputs", []))
+    return tuple(rows)
+
+
+# --- the whole diff -------------------------------------------------------------------
+
+
+def _info(run: _Run) -> RunInfo:
+    r = run.results
+    return RunInfo(folder=str(run.folder), study=r["study"]["id"], plan_sha256=r["plan_sha256"],
+                   alpha=r["alpha"])
+
+
+def compare_runs(run_a: Path, run_b: Path, tolerance: Tolerance = Tolerance()) -> RunDiff:
+    """Compare two run folders; raises `UserError` when either is not a run folder."""
+    a, b = _load_run(run_a), _load_run(run_b)
+    return RunDiff(a=_info(a), b=_info(b), tolerance=tolerance,
+                   conclusions=compare_conclusions(a.results, b.results),
+                   numbers=compare_numbers(a.results, b.results, tolerance),
+                   data=compare_data(a.records, b.records),
+                   plan=compare_plans(a, b),
+                   checksums=compare_checksums(a, b))
+
+
+def to_plain(diff: RunDiff) -> dict[str, Any]:
+    plain = dataclasses.asdict(diff)
+    plain["conclusions_changed"] = diff.conclusions_changed
+    return plain
+
+
+def to_json(diff: RunDiff) -> str:
+    """Canonical JSON of the diff: sorted keys, two-space indent, no NaN."""
+    return json.dumps(to_plain(diff), sort_keys=True, indent=2, ensure_ascii=False,
+                      allow_nan=False) + "\n"
+
+
+# --- text for people ------------------------------------------------------------------
+
+#: Moved numbers listed in the terminal report; the JSON and HTML list them all.
+LISTED_NUMBERS = 40
+
+DECISION_WORDS = {"reject": "rejected", "retain": "not rejected", "not-tested": "not tested",
+                  "unavailable": "unavailable"}
+STATUS_WORDS = {"analysed": "analysed", "excluded": "excluded by rule", "missing": "missing",
+                "left-out": "left out"}
+
+
+def number_text(value: float | None) -> str:
+    """A number for the diff: six significant digits; "none" for no value."""
+    if value is None:
+        return "none"
+    if isinstance(value, int):
+        return str(value)
+    return f"{value:.6g}"
+
+
+def move_text(move: NumberMove) -> str:
+    if move.change is None:
+        return "appeared" if move.a is None else "disappeared" if move.b is None else ""
+    relative = f", {move.relative_change:+.1%}" if move.relative_change is not None else ""
+    return f"{move.change:+.3g}{relative}"
+
+
+def decision_text(d: Decision | None) -> str:
+    if d is None:
+        return "absent"
+    p = f" (p = {number_text(d.p)})" if d.p is not None else ""
+    return f"{DECISION_WORDS.get(d.decision, d.decision)}{p}"
+
+
+def row_name(unit: str, within: str | None, within_factor: str | None = None) -> str:
+    if within is None:
+        return unit
+    return f"{unit} at {within_factor + ' ' if within_factor else ''}{within}"
+
+
+def row_identity_text(row: RowIdentity) -> str:
+    """``P049 (line 50; coating humic)``."""
+    levels = ", ".join(f"{k} {v}" for k, v in row.levels.items())
+    return f"{row_name(row.unit, row.within)} (line {row.line}; {levels})"
+
+
+def cell_text(text: str | None, value: float | None, status: str | None) -> str:
+    shown = "no cell" if text is None else repr(text) if text != "" else "empty"
+    extra = [] if status is None else [STATUS_WORDS.get(status, status)]
+    return shown + (f" ({', '.join(extra)})" if extra else "")
+
+
+def report_lines(diff: RunDiff, listed: int = LISTED_NUMBERS) -> list[str]:
+    """The diff as text for a terminal, most important first; at most `listed` moved
+    numbers are shown (every conclusion and data change is)."""
+    lines = [f"appendix diff: A = {diff.a.folder}", f"               B = {diff.b.folder}"]
+    if diff.a.study != diff.b.study:
+        lines.append(f"note: different studies: {diff.a.study} and {diff.b.study}")
+    alpha = (f"alpha {number_text(diff.a.alpha)} in both runs" if diff.a.alpha == diff.b.alpha
+             else f"alpha {number_text(diff.a.alpha)} in A, {number_text(diff.b.alpha)} in B")
+    lines += [f"study {diff.a.study}; {alpha}", ""]
+    lines.append(f"1. Conclusions that changed: {len(diff.conclusions) or 'none'}")
+    for c in diff.conclusions:
+        lines.append(f"   {c.outcome} ({c.role}) {c.kind} {c.id}: "
+                     f"{decision_text(c.a)} -> {decision_text(c.b)}")
+        lines.append(f"      {c.label}")
+    tol = diff.tolerance
+    lines += ["", (f"2. Numbers that moved: {len(diff.numbers) or 'none'} (tolerance: relative "
+                   f"{tol.relative:g}, absolute {tol.absolute:g})")]
+    for m in diff.numbers[:listed]:
+        lines.append(f"   {m.outcome}  {m.label}: {number_text(m.a)} -> {number_text(m.b)}  "
+                     f"({move_text(m)})")
+    if len(diff.numbers) > listed:
+        lines.append(f"   and {len(diff.numbers) - listed} more (all of them in --json and the HTML page)")
+    lines += ["", "3. Data"]
+    data = diff.data
+    if not data.compared:
+        lines.append(f"   {data.note}")
+    else:
+        lines.append(f"   rows: {data.rows_a} in A, {data.rows_b} in B")
+        for word, rows in (("added", data.added), ("removed", data.removed)):
+            names = ", ".join(row_identity_text(r) for r in rows)
+            lines.append(f"   units {word}: {names or 'none'}")
+        lines.append(f"   changed cells: {len(data.changed) or 'none'}")
+        for c in data.changed:
+            about = f"{c.column} ({c.role} {c.name})" if c.column else c.name
+            lines.append(f"   {row_name(c.unit, c.within)}  {about}: "
+                         f"{cell_text(c.text_a, c.value_a, c.status_a)} -> "
+                         f"{cell_text(c.text_b, c.value_b, c.status_b)}")
+    lines += ["", "4. Plan"]
+    plan = diff.plan
+    if not plan.changed:
+        lines.append(f"   unchanged (SHA-256 {plan.sha256_a[:12]})")
+    else:
+        lines.append(f"   changed: SHA-256 {plan.sha256_a[:12]} -> {plan.sha256_b[:12]}")
+        lines += [f"   {s}" for s in plan.role_switches]
+        for k in plan.keys:
+            lines.append(f"   {k.key}: {json.dumps(k.a, ensure_ascii=False)} -> "
+                         f"{json.dumps(k.b, ensure_ascii=False)}")
+        if not plan.compared:
+            lines.append("   (key by key needs the canonical plan, records.json, in both run folders)")
+    lines += ["", "5. Checksums"]
+    for c in diff.checksums:
+        if c.kind == "input" or c.changed:
+            lines.append(f"   {c.kind} {c.path}: {(c.sha256_a or 'absent')[:12]} -> "
+                         f"{(c.sha256_b or 'absent')[:12]} {'changed' if c.changed else 'same'}")
+    same = sum(c.kind == "output" and not c.changed for c in diff.checksums)
+    if same:
+        lines.append(f"   {same} output file{'s' if same != 1 else ''} the same in both runs")
+    return lines
+
+
+# --- the HTML page --------------------------------------------------------------------
+
+
+def render_page(diff: RunDiff) -> str:
+    """The diff as one self-contained HTML page in the appendix's look (no scripts)."""
+    import jinja2
+
+    from appendix.render import template_root
+
+    env = jinja2.Environment(loader=jinja2.FileSystemLoader(str(template_root())), autoescape=True,
+                             undefined=jinja2.StrictUndefined, trim_blocks=True, lstrip_blocks=True,
+                             keep_trailing_newline=True)
+    env.filters.update({"num": number_text, "short_hash": lambda d: (d or "absent")[:12],
+                        "plan_value": lambda v: json.dumps(v, ensure_ascii=False)})
+    return env.get_template("diff.html.j2").render(
+        d=diff, decision_text=decision_text, move_text=move_text, cell_text=cell_text,
+        row_name=row_name, row_identity_text=row_identity_text)
+
+
+def diff_command(run_a: Path, run_b: Path, *, as_json: bool, html_out: Path | None, out: TextIO,
+                 tolerance: Tolerance = Tolerance()) -> int:
+    """`appendix diff`: print the report (or JSON) to `out`, write the HTML page when
+    `html_out` is given; 1 when any conclusion changed, else 0."""
+    diff = compare_runs(Path(run_a), Path(run_b), tolerance)
+    if as_json:
+        out.write(to_json(diff))
+    else:
+        for line in report_lines(diff):
+            print(line, file=out)
+    if html_out is not None:
+        Path(html_out).write_bytes(render_page(diff).encode("utf-8"))
+        if not as_json:
+            print(f"wrote {html_out}", file=out)
+    return 1 if diff.conclusions_changed else 0

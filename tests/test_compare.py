@@ -1,0 +1,257 @@
+"""`appendix diff` (appendix.compare) on runs of the invented demo studies: the demo's
+corrected data flip a registered conclusion, and the diff names it and the changed units.
+Expected data changes are read from the data files with Python's csv module."""
+
+from __future__ import annotations
+
+import csv
+import importlib.util
+import io
+import json
+import shutil
+import statistics
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from appendix import api
+from appendix.compare import (
+    Tolerance,
+    compare_runs,
+    conclusions_of,
+    diff_command,
+    flatten_plan,
+    render_page,
+    to_json,
+)
+from appendix.errors import UserError
+from appendix.records import RECORDS_FILE, write_records
+
+REPO = Path(__file__).resolve().parent.parent
+DEMO = REPO / "studies" / "seed-coating"
+
+
+def _run(study: Path, folder: Path) -> Path:
+    """A run folder as `appendix run` makes it, with the records written into it."""
+    api.run(study, out_dir=folder, pdf=False)
+    computed = api.compute(study)
+    write_records(folder, computed.loaded, computed.dataset)
+    return folder
+
+
+def _copy_demo(target: Path) -> Path:
+    shutil.copytree(DEMO, target, ignore=shutil.ignore_patterns("__pycache__"))
+    return target / "study.yaml"
+
+
+@pytest.fixture(scope="module")
+def demo_runs(tmp_path_factory):
+    """Run A on the demo data, run B on the demo's corrected data (same plan)."""
+    root = tmp_path_factory.mktemp("diff")
+    study = _copy_demo(root / "study")
+    before = _run(study, root / "before")
+    shutil.copyfile(study.parent / "data" / "units-corrected.csv", study.parent / "data" / "units.csv")
+    after = _run(study, root / "after")
+    return before, after
+
+
+def _csv(name: str) -> dict[str, dict[str, str]]:
+    with (DEMO / "data" / name).open(newline="", encoding="utf-8") as handle:
+        return {row["unit_id"]: row for row in csv.DictReader(handle)}
+
+
+def _humic_mean(rows: dict[str, dict[str, str]]) -> float:
+    return statistics.fmean(float(r["shoot_dry_mass_mg"]) for r in rows.values()
+                            if r["coating"] == "humic" and r["damaged"] == "no" and r["shoot_dry_mass_mg"])
+
+
+def test_demo_diff_names_the_flipped_conclusion(demo_runs):
+    out = io.StringIO()
+    assert diff_command(*demo_runs, as_json=True, html_out=None, out=out) == 1
+    diff = json.loads(out.getvalue())
+    assert diff["conclusions_changed"] is True
+    (flip,) = diff["conclusions"]
+    assert (flip["outcome"], flip["kind"], flip["id"], flip["role"]) == (
+        "dry_mass", "hypothesis", "C2:humic", "primary")
+    assert (flip["a"]["decision"], flip["b"]["decision"]) == ("retain", "reject")
+    assert flip["a"]["p"] > diff["a"]["alpha"] > flip["b"]["p"]
+    assert "not rejected" in flip["a"]["sentence"] and "is rejected" in flip["b"]["sentence"]
+
+
+def test_demo_diff_names_the_changed_units(demo_runs):
+    diff = compare_runs(*demo_runs)
+    before, after = _csv("units.csv"), _csv("units-corrected.csv")
+    added = sorted(set(after) - set(before))
+    assert [r.unit for r in diff.data.added] == added == ["P049"]
+    assert diff.data.added[0].levels == {"coating": after["P049"]["coating"]}
+    assert diff.data.removed == ()
+    expected = [(u, col) for u in before for col in before[u] if before[u][col] != after[u][col]]
+    assert expected == [("P024", "shoot_dry_mass_mg")]
+    assert [(c.unit, c.column) for c in diff.data.changed] == expected
+    (change,) = diff.data.changed
+    assert (change.role, change.name) == ("outcome", "dry_mass")
+    assert (change.text_a, change.text_b) == (before["P024"]["shoot_dry_mass_mg"],
+                                              after["P024"]["shoot_dry_mass_mg"])
+    assert (change.value_a, change.value_b) == (37.2, 47.2)
+    assert (change.status_a, change.status_b) == ("analysed", "analysed")
+
+
+def test_demo_diff_sizes_the_moves(demo_runs):
+    diff = compare_runs(*demo_runs)
+    moves = {(m.outcome, m.quantity): m for m in diff.numbers}
+    mean = moves[("dry_mass", "mean[humic].estimate")]
+    a, b = _humic_mean(_csv("units.csv")), _humic_mean(_csv("units-corrected.csv"))
+    assert mean.a == pytest.approx(a, rel=1e-12) and mean.b == pytest.approx(b, rel=1e-12)
+    assert mean.change == pytest.approx(b - a, rel=1e-9)
+    assert mean.relative_change == pytest.approx((b - a) / a, rel=1e-9)
+    assert (moves[("dry_mass", "n_analysed")].a, moves[("dry_mass", "n_analysed")].b) == (43, 44)
+    # a versus-control estimate is a difference of two means: only humic's moved
+    assert moves[("dry_mass", "C2:humic.estimate")].change == pytest.approx(b - a, rel=1e-9)
+    assert ("dry_mass", "C2:chitosan.estimate") not in moves
+    assert ("dry_mass", "mean[uncoated].estimate") not in moves
+    assert next(iter(moves)) == ("dry_mass", "anova.f")  # primary outcome, omnibus test first
+
+
+def test_demo_diff_plan_and_checksums(demo_runs):
+    diff = compare_runs(*demo_runs)
+    assert diff.plan.changed is False and diff.plan.compared is True and diff.plan.keys == ()
+    inputs = {c.role: c for c in diff.checksums if c.kind == "input"}
+    assert inputs["study"].changed is False
+    assert inputs["data"].changed is True and inputs["data"].path == "data/units.csv"
+    outputs = {c.path: c for c in diff.checksums if c.kind == "output"}
+    assert outputs["results.json"].changed is True
+
+
+def test_demo_diff_text_for_people(demo_runs):
+    out = io.StringIO()
+    assert diff_command(*demo_runs, as_json=False, html_out=None, out=out) == 1
+    text = out.getvalue()
+    assert ("   dry_mass (primary) hypothesis C2:humic: not rejected (p = 0.120608) -> rejected"
+            in text)
+    assert "   units added: P049 (line 50; coating humic)" in text
+    assert "   P024  shoot_dry_mass_mg (outcome dry_mass): '37.2' (analysed) -> '47.2' (analysed)" in text
+    order = [text.index(h) for h in ("1. Conclusions", "2. Numbers", "3. Data", "4. Plan", "5. Checksums")]
+    assert order == sorted(order)
+
+
+def test_demo_diff_page(demo_runs, tmp_path):
+    page_path = tmp_path / "diff.html"
+    out = io.StringIO()
+    assert diff_command(*demo_runs, as_json=False, html_out=page_path, out=out) == 1
+    page = page_path.read_text(encoding="utf-8")
+    assert page == render_page(compare_runs(*demo_runs))  # same inputs, same page
+    assert ("<meta http-equiv=\"Content-Security-Policy\" content=\"default-src 'none'; "
+            "style-src 'unsafe-inline'; img-src data:\">") in page
+    assert "<script" not in page and "http://" not in page and "https://" not in page
+    css = (REPO / "templates" / "appendix.css").read_text(encoding="utf-8")
+    assert css.strip() in page  # the appendix's own style sheet, included
+    assert "C2:humic" in page and "P049" in page and "P024" in page
+    assert "not a clinical or regulatory decision" in page
+    assert "qualified, licensed statistician" in page
+
+
+def test_a_run_against_itself_changes_nothing(demo_runs):
+    out = io.StringIO()
+    assert diff_command(demo_runs[0], demo_runs[0], as_json=True, html_out=None, out=out) == 0
+    diff = json.loads(out.getvalue())
+    assert diff["conclusions"] == [] and diff["numbers"] == []
+    assert diff["data"]["added"] == diff["data"]["removed"] == diff["data"]["changed"] == []
+    assert not any(c["changed"] for c in diff["checksums"])
+    assert json.dumps(diff, sort_keys=True, indent=2, ensure_ascii=False) + "\n" == out.getvalue()
+
+
+def test_plan_changes_key_by_key_and_role_switch(demo_runs, tmp_path):
+    study = _copy_demo(tmp_path / "study")
+    text = study.read_text(encoding="utf-8")
+    text = text.replace("alpha: 0.05", "alpha: 0.01")
+    text = text.replace("    unit: index units\n    role: secondary", "    unit: index units\n    role: primary")
+    study.write_text(text, encoding="utf-8")
+    changed = _run(study, tmp_path / "changed")
+    diff = compare_runs(demo_runs[0], changed)
+    keys = {k.key: (k.a, k.b) for k in diff.plan.keys}
+    assert keys == {"alpha": (0.05, 0.01), "outcomes[chlorophyll].role": ("secondary", "primary")}
+    assert diff.plan.role_switches == ("outcome chlorophyll switched from secondary to primary",)
+    assert diff.a.alpha == 0.05 and diff.b.alpha == 0.01
+    # at alpha .01 the Holm-adjusted C2:chitosan (p = .023 in the demo) is no longer rejected
+    flipped = {(c.outcome, c.id) for c in diff.conclusions}
+    assert ("dry_mass", "C2:chitosan") in flipped
+
+
+def test_without_records_data_and_plan_fall_back_to_hashes(demo_runs, tmp_path):
+    bare = tmp_path / "bare"
+    shutil.copytree(demo_runs[1], bare)
+    (bare / RECORDS_FILE).unlink()
+    diff = compare_runs(demo_runs[0], bare)
+    assert diff.data.compared is False
+    assert diff.data.note == "run B holds no records.json; the data are compared by their checksums only"
+    assert diff.plan.compared is False and diff.plan.changed is False
+    assert [c.id for c in diff.conclusions] == ["C2:humic"]
+
+
+def test_model_terms_pair_with_their_conclusions(tmp_path):
+    study = REPO / "studies" / "greenhouse-split" / "study.yaml"
+    run_a = _run(study, tmp_path / "a")
+    results = json.loads((run_a / "results.json").read_text(encoding="utf-8"))
+    terms = {key[2]: value[2].decision for key, value in conclusions_of(results).items() if key[1] == "term"}
+    # treatment and within terms only; the bench block and the baseline covariate adjust the model
+    assert list(terms) == ["coating", "irrigation", "coating × irrigation", "visit", "coating × visit"]
+    assert terms["coating × irrigation"] == "retain"
+    # the same run with one term's decision edited: the diff names exactly that term
+    run_b = tmp_path / "b"
+    shutil.copytree(run_a, run_b)
+    model = results["models"][0]
+    model["conclusions"][2]["decision"] = "reject"
+    (run_b / "results.json").write_text(json.dumps(results), encoding="utf-8")
+    diff = compare_runs(run_a, run_b)
+    assert [(c.kind, c.id, c.a.decision, c.b.decision) for c in diff.conclusions] == [
+        ("term", "coating × irrigation", "retain", "reject")]
+    assert diff.numbers == () and diff.data.changed == ()
+
+
+def test_not_a_run_folder(tmp_path):
+    with pytest.raises(UserError, match=r"not a run folder: .* has no results.json"):
+        compare_runs(tmp_path, tmp_path)
+
+
+@pytest.mark.parametrize(("a", "b", "moved"), [
+    (1.0, 1.0, False),
+    (1.0, 1.0 + 1e-12, False),   # floating-point noise
+    (1.0, 1.0 + 1e-6, True),
+    (0.0, 1e-13, False),         # below the absolute floor
+    (0.0, 1e-9, True),
+    (None, None, False),
+    (None, 0.5, True),
+    (0.5, None, True),
+])
+def test_tolerance(a, b, moved):
+    assert Tolerance().moved(a, b) is moved
+
+
+def test_flatten_plan_keys_lists_by_id_or_name():
+    plan = {"alpha": 0.05, "outcomes": [{"name": "y", "role": "primary"}],
+            "contrasts": [{"id": "C1", "weights": {"a": 1, "b": -1}}], "levels": ["a", "b"],
+            "steps": [{"x": 1}, {"x": 2}]}
+    assert flatten_plan(plan) == {
+        "alpha": 0.05, "contrasts[C1].id": "C1", "contrasts[C1].weights.a": 1, "contrasts[C1].weights.b": -1,
+        "levels": ["a", "b"], "outcomes[y].role": "primary", "outcomes[y].name": "y",
+        "steps[0].x": 1, "steps[1].x": 2}
+
+
+def test_json_is_canonical(demo_runs):
+    text = to_json(compare_runs(*demo_runs))
+    assert text == json.dumps(json.loads(text), sort_keys=True, indent=2, ensure_ascii=False) + "\n"
+    assert set(json.loads(text)) == {"a", "b", "checksums", "conclusions", "conclusions_changed", "data",
+                                    "format_version", "numbers", "plan", "tolerance"}
+
+
+def test_demo_generator_rewrites_both_data_files_byte_for_byte(tmp_path):
+    spec = importlib.util.spec_from_file_location("seed_coating_generate", DEMO / "generate.py")
+    generate = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(generate)
+    data = generate.rows(np.random.default_rng(generate.SEED))
+    generate.write(tmp_path / "units.csv", data)
+    fixed = generate.corrected(data, np.random.default_rng(generate.CORRECTION_SEED))
+    generate.write(tmp_path / "units-corrected.csv", fixed)
+    for name in ("units.csv", "units-corrected.csv"):
+        assert (tmp_path / name).read_bytes() == (DEMO / "data" / name).read_bytes()
