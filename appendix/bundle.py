@@ -434,7 +434,12 @@ def _recompute(folder: Path, manifest: Mapping[str, Any]) -> tuple[list[str], li
         api.run(folder / "study" / study, out_dir=folder / "recomputed", pdf=False)
     except UserError as error:
         return [f"the packaged study could not be recomputed: {error}"], []
-    packaged = json.loads((folder / "run" / "results.json").read_text(encoding="utf-8"))
+    try:
+        packaged = json.loads((folder / "run" / "results.json").read_text(encoding="utf-8"))
+    except (UnicodeDecodeError, json.JSONDecodeError) as error:
+        return [f"run/results.json is not valid JSON ({error}); nothing to compare"], []
+    if not isinstance(packaged, dict):
+        return ["run/results.json does not hold a results object; nothing to compare"], []
     again = json.loads((folder / "recomputed" / "results.json").read_text(encoding="utf-8"))
     notes = _version_notes(packaged.pop("software", []), again.pop("software", []))
     return compare_results(packaged, again), notes
