@@ -168,9 +168,10 @@ def acknowledge(plan: Plan, found: Iterable[Deviation]) -> tuple[Deviation, ...]
                 found[j] = dataclasses.replace(found[j], acknowledged=True,
                                                justification=entry.justification)
         if not matched:
-            subjects = [d.subject for d in found if d.kind == entry.kind] or \
-                [d.subject for d in found]
-            hint = did_you_mean(entry.subject, subjects)
+            hint = did_you_mean(entry.subject, [d.subject for d in found if d.kind == entry.kind])
+            other = sorted({d.kind for d in found if d.subject == entry.subject})
+            if not hint and other:
+                hint = f"; {show(entry.subject)} has a deviation of kind {', '.join(other)}"
             found.append(Deviation(
                 UNMATCHED, f"deviations[{i}]",
                 f"deviations[{i}] acknowledges {entry.kind} {show(entry.subject)}, but this "

@@ -1,0 +1,361 @@
+"""Deviations from the registered plan: every kind created and its message asserted, the
+plan's acknowledgements, unmatched acknowledgements, revisions of the lock, the cover line,
+the banner in HTML and PDF, and ``appendix run --strict``.
+
+The demo study and its data are invented (see studies/seed-coating/README.md); the
+contingency study below is generated here from a seeded random generator.
+"""
+
+from __future__ import annotations
+
+import csv
+import datetime as _dt
+import html as _html
+import io
+import re
+from collections import Counter
+from pathlib import Path
+
+import numpy as np
+import pypdf
+import pytest
+
+from appendix import api
+from appendix.cli import main
+from appendix.errors import PlanError
+from appendix.plan.load import load_plan
+from appendix.plan.lock import lock_plan
+
+FIRST = {"SOURCE_DATE_EPOCH": "1771059600"}   # 2026-02-14T09:00:00Z
+SECOND = {"SOURCE_DATE_EPOCH": "1772269200"}  # 2026-02-28T09:00:00Z
+LEVELS = ("uncoated", "chitosan", "seaweed", "humic")
+OUTCOMES = {"dry_mass": "shoot_dry_mass_mg", "chlorophyll": "chlorophyll_index"}
+MISSING = {"", "NA", "N/A", "NaN", "nan", "."}  # the missing-value spellings of docs/study-file.md
+
+
+def _edit(study: Path, old: str, new: str) -> None:
+    text = study.read_text(encoding="utf-8")
+    assert old in text
+    study.write_text(text.replace(old, new, 1), encoding="utf-8")
+
+
+def _append(study: Path, text: str) -> None:
+    study.write_text(study.read_text(encoding="utf-8") + text, encoding="utf-8")
+
+
+def _deviations(study: Path) -> list:
+    return list(api.compute(study).results.deviations)
+
+
+def _of(deviations, kind: str) -> list[tuple[str, str, bool]]:
+    return [(d.subject, d.message, d.acknowledged) for d in deviations if d.kind == kind]
+
+
+def _demo_counts(study: Path) -> dict[str, Counter]:
+    """Analysed units per outcome and level, counted from the CSV here (rule X1 drops
+    damaged == yes; a missing spelling leaves the unit out of that outcome)."""
+    rows = list(csv.DictReader((study.parent / "data" / "units.csv").open(encoding="utf-8")))
+    eligible = [r for r in rows if r["damaged"].strip() != "yes"]
+    return {name: Counter(r["coating"] for r in eligible if r[column] not in MISSING)
+            for name, column in OUTCOMES.items()} | {"eligible": Counter(r["coating"] for r in eligible)}
+
+
+def _lock(study: Path, environ=FIRST) -> None:
+    lock_plan(load_plan(study), environ=environ)
+
+
+def _text(html: str, element_id: str) -> str:
+    start = html.index(f'id="{element_id}"')
+    chunk = html[start:html.index("</section>", start)]
+    return re.sub(r"\s+", " ", _html.unescape(re.sub(r"<[^>]+>", " ", chunk))).strip()
+
+
+def _banner(html: str) -> str | None:
+    match = re.search(r'<div class="deviation-banner" role="alert">(.*?)</div>', html, re.S)
+    if match is None:
+        return None
+    return re.sub(r"\s+", " ", _html.unescape(re.sub(r"<[^>]+>", " ", match.group(1)))).strip()
+
+
+# --- plan not registered, plan against lock ----------------------------------------------
+
+
+def test_a_run_without_a_lock_says_plan_not_registered(demo_study: Path):
+    computed = api.compute(demo_study)
+    assert computed.results.registration is None
+    (found,) = _of(computed.results.deviations, "plan-not-registered")
+    assert found == ("plan", "Plan not registered: no registration lock (study.lock.json) was "
+                     "found beside the study file, so nothing shows that the plan was fixed "
+                     "before the analysis.", False)
+    html = api.render(computed).html
+    assert "<dt>Plan registered</dt><dd class=\"not-registered\">plan not registered (no " \
+           "study.lock.json beside the study file)</dd>" in html
+    assert "Plan not registered: plan" in _banner(html)
+
+
+def test_a_locked_unchanged_plan_shows_its_lock_on_the_cover(demo_study: Path):
+    _lock(demo_study)
+    computed = api.compute(demo_study)
+    registration = computed.results.registration
+    assert (registration.locked_at, registration.plan_sha256, registration.data_at_lock) == (
+        "2026-02-14T09:00:00Z", load_plan(demo_study).sha256, "the data file existed at lock time")
+    kinds = {d.kind for d in computed.results.deviations}
+    assert kinds == {"below-planned-n"}  # nothing about the plan itself
+    cover = _text(api.render(computed).html, "cover")
+    sha = registration.plan_sha256
+    assert (f"Plan registered locked 2026-02-14T09:00:00Z; SHA-256 {sha[:12]} {sha} ; the data "
+            "file existed at lock time") in cover
+
+
+@pytest.mark.parametrize("old, new, kind, subject, message", [
+    ("alpha: 0.05", "alpha: 0.01", "plan-changed", "alpha", "alpha: registered 0.05, now 0.01."),
+    ("    role: primary", "    role: secondary", "outcome-role-switched",
+     "outcomes[dry_mass].role",
+     "Outcome dry_mass was registered as primary and is now secondary."),
+    ("  method: holm", "  method: bonferroni", "plan-changed", "multiplicity.method",
+     "multiplicity.method: registered holm, now bonferroni."),
+    ('      equals: "yes"', '      equals: "broken"', "plan-changed",
+     "data.exclusions[X1].equals", "data.exclusions[X1].equals: registered yes, now broken."),
+    ("    outcomes: [dry_mass]\n", "    outcomes: [dry_mass, chlorophyll]\n", "plan-changed",
+     "contrasts[C1].outcomes",
+     'contrasts[C1].outcomes: registered ["dry_mass"], now ["dry_mass", "chlorophyll"].'),
+])
+def test_each_change_of_the_plan_against_the_lock(demo_study: Path, old, new, kind, subject,
+                                                  message):
+    _lock(demo_study)
+    _edit(demo_study, old, new)
+    deviations = _deviations(demo_study)
+    found = [d for d in deviations if d.kind not in ("below-planned-n",)]
+    assert [(d.kind, d.subject, d.message, d.acknowledged) for d in found] == [
+        (kind, subject, message, False)]
+    assert found[0].detected.startswith("plan compared key by key with study.lock.json "
+                                        "(locked 2026-02-14T09:00:00Z, SHA-256 ")
+
+
+def test_an_outcome_removed_and_one_added(demo_study: Path):
+    _lock(demo_study)
+    _edit(demo_study, "  - name: chlorophyll\n    column: chlorophyll_index\n",
+          "  - name: chlorophyll_late\n    column: chlorophyll_index\n")
+    deviations = _deviations(demo_study)
+    assert [(d.kind, d.subject) for d in deviations if d.kind.startswith("outcome-")] == [
+        ("outcome-removed", "outcomes[chlorophyll]"), ("outcome-added", "outcomes[chlorophyll_late]")]
+    added = next(d for d in deviations if d.kind == "outcome-added")
+    assert added.message == (
+        'Outcome chlorophyll_late is not in the registered plan; now: {"column": '
+        '"chlorophyll_index", "label": "leaf chlorophyll index at day 21", "name": '
+        '"chlorophyll_late", "role": "secondary", "unit": "index units"}.')
+
+
+def test_revisions_are_listed_as_acknowledged_changes_with_their_reasons(demo_study: Path):
+    _lock(demo_study)
+    _edit(demo_study, "alpha: 0.05", "alpha: 0.01")
+    lock_plan(load_plan(demo_study), relock=True, reason="stricter level asked by the DSMB",
+              environ=SECOND)
+    _edit(demo_study, "  method: holm", "  method: hochberg")
+    computed = api.compute(demo_study)
+    plan = [d for d in computed.results.deviations if d.kind == "plan-changed"]
+    assert [(d.subject, d.acknowledged, d.justification, d.detected) for d in plan] == [
+        ("multiplicity.method", False, None,
+         "plan compared key by key with study.lock.json (locked 2026-02-28T09:00:00Z, SHA-256 "
+         f"{computed.results.registration.plan_sha256[:12]})"),
+        ("alpha", True, "stricter level asked by the DSMB",
+         "recorded in study.lock.json as revision 1 on 2026-02-28T09:00:00Z"),
+    ]
+    (revision,) = computed.results.registration.revisions
+    assert (revision.number, revision.reason) == (1, "stricter level asked by the DSMB")
+    cover = _text(api.render(computed).html, "cover")
+    assert "locked 2026-02-14T09:00:00Z, revised 1 time (last 2026-02-28T09:00:00Z)" in cover
+
+
+# --- data against the plan --------------------------------------------------------------
+
+
+def test_fewer_analysed_units_than_planned_per_group(demo_study: Path):
+    counts = _demo_counts(demo_study)
+    expected = []
+    for level in LEVELS:
+        per = [(name, counts[name][level]) for name in OUTCOMES]
+        if min(n for _, n in per) < 12:
+            words = (f"{per[0][1]} units analysed" if per[0][1] == per[1][1] else
+                     "units analysed: " + ", ".join(f"{n} for {name}" for name, n in per))
+            expected.append((level, f"Level '{level}' of seed coating: {words}; 12 planned "
+                                    "per group.", False))
+    assert len(expected) == 4  # every coating of the invented data falls short somewhere
+    assert _of(_deviations(demo_study), "below-planned-n") == expected
+    assert expected[3][1] == ("Level 'humic' of seed coating: units analysed: 11 for dry_mass, "
+                              "12 for chlorophyll; 12 planned per group.")
+
+
+def test_fewer_analysed_units_than_planned_in_all(demo_study: Path):
+    _edit(demo_study, "    per_group: 12", "    total: 48")
+    counts = _demo_counts(demo_study)
+    dry, chl = sum(counts["dry_mass"].values()), sum(counts["chlorophyll"].values())
+    assert _of(_deviations(demo_study), "below-planned-n") == [
+        ("total", f"In all: units analysed: {dry} for dry_mass, {chl} for chlorophyll; 48 "
+                  "planned.", False)]
+
+
+def test_a_plan_level_without_units(demo_study: Path):
+    _edit(demo_study, "levels: [uncoated, chitosan, seaweed, humic]",
+          "levels: [uncoated, chitosan, seaweed, humic, peat]")
+    assert _of(_deviations(demo_study), "level-without-units") == [
+        ("peat", "No eligible units at level 'peat' of seed coating (none in the data).", False)]
+
+
+def test_a_level_whose_units_are_all_excluded(demo_study: Path):
+    _edit(demo_study, "  exclusions:\n", "  exclusions:\n    - {id: X2, column: coating, "
+          "equals: humic, reason: seed lot withdrawn (invented)}\n")
+    n = _demo_counts(demo_study)["eligible"]["humic"]
+    assert _of(_deviations(demo_study), "level-without-units") == [
+        ("humic", f"No eligible units at level 'humic' of seed coating (all {n} excluded).",
+         False)]
+
+
+def test_missing_data_above_the_registered_limit(demo_study: Path):
+    _edit(demo_study, "    per_group: 12\n", "    per_group: 12\n  missing_limit: 0.05\n")
+    counts = _demo_counts(demo_study)
+    eligible = sum(counts["eligible"].values())
+    found = []
+    for name in OUTCOMES:
+        missing = eligible - sum(counts[name].values())
+        if missing > 0.05 * eligible:
+            found.append((name, f"Outcome {name}: {missing} of {eligible} eligible units "
+                                f"({missing / eligible:.1%}) have no value; the registered "
+                                "limit is 5.0%.", False))
+    assert found and _of(_deviations(demo_study), "missing-above-limit") == found
+    _edit(demo_study, "missing_limit: 0.05", "missing_limit: 0.5")
+    assert _of(_deviations(demo_study), "missing-above-limit") == []
+
+
+def _contingency_study(folder: Path) -> Path:
+    """An invented one-way study whose group SDs differ twentyfold (seeded), with a
+    registered unequal-variance fallback to Welch."""
+    rng = np.random.default_rng(20260214)
+    lines = ["unit,dose,y"]
+    for g, (level, sd) in enumerate(zip(("d0", "d1", "d2", "d3"), (0.25, 0.5, 2.5, 5.0))):
+        for i, value in enumerate(rng.normal(10.0 + g, sd, 12)):
+            lines.append(f"u{g}{i:02d},{level},{value:.3f}")
+    (folder / "units.csv").write_text("\n".join(lines) + "\n", encoding="utf-8")
+    study = folder / "study.yaml"
+    study.write_text("""# Invented study for a test: data generated by a seeded generator.
+format: 1
+study: {id: invented-contingency, title: Invented contingency study}
+data: {source: units.csv, unit: unit, planned_n: {per_group: 12}}
+design:
+  factors:
+    - {name: dose, levels: [d0, d1, d2, d3]}
+outcomes:
+  - {name: y, label: response, role: primary}
+assumptions:
+  fallbacks:
+    - {when: unequal-variance, test: brown-forsythe, threshold: 0.05, use: welch}
+""", encoding="utf-8")
+    return study
+
+
+def test_a_registered_contingency_applied(tmp_path: Path):
+    study = _contingency_study(tmp_path)
+    _lock(study)
+    results = api.compute(study).results
+    (rule,) = results.outcomes[0].contingencies
+    assert rule.fired and rule.p < 0.05
+    (found,) = results.deviations
+    assert (found.kind, found.subject, found.acknowledged, found.detected) == (
+        "registered-contingency", "y", True,
+        "the registered fallback rule's test on this run's data")
+    assert found.message.startswith(f"brown-forsythe p = {rule.p:.4g} is below the registered "
+                                    "threshold 0.05")
+
+
+# --- acknowledgements, --strict and the banner -------------------------------------------
+
+
+def test_an_acknowledgement_matches_kind_and_subject_exactly(demo_study: Path):
+    _append(demo_study, "deviations:\n"
+            "  - {kind: below-planned-n, subject: humic, justification: two trays lost (invented)}\n"
+            "  - {kind: below-planned-n, subject: humik, justification: typo}\n"
+            "  - {kind: plan-changed, subject: humic, justification: wrong kind}\n")
+    deviations = _deviations(demo_study)
+    humic = next(d for d in deviations if (d.kind, d.subject) == ("below-planned-n", "humic"))
+    assert (humic.acknowledged, humic.justification) == (True, "two trays lost (invented)")
+    assert [d.acknowledged for d in deviations if d.kind == "below-planned-n"] == [
+        False, False, False, True]
+    assert _of(deviations, "acknowledgement-unmatched") == [
+        ("deviations[1]", "deviations[1] acknowledges below-planned-n 'humik', but this run "
+                          "detected no such deviation; did you mean 'humic'?; it acknowledges "
+                          "nothing.", False),
+        ("deviations[2]", "deviations[2] acknowledges plan-changed 'humic', but this run "
+                          "detected no such deviation; 'humic' has a deviation of kind "
+                          "below-planned-n; it acknowledges nothing.", False)]
+
+
+def test_an_unknown_kind_is_refused_with_a_suggestion(demo_study: Path):
+    _append(demo_study, "deviations:\n  - {kind: below-plannd-n, subject: humic, "
+            "justification: x}\n")
+    with pytest.raises(PlanError) as caught:
+        load_plan(demo_study)
+    assert str(caught.value).endswith(
+        "deviations[0].kind: got 'below-plannd-n'; allowed: 'plan-not-registered', "
+        "'plan-changed', 'outcome-added', 'outcome-removed', 'outcome-role-switched', "
+        "'below-planned-n', 'level-without-units', 'missing-above-limit' or "
+        "'registered-contingency'; did you mean 'below-planned-n'?")
+
+
+def _run(study: Path, *flags: str) -> tuple[int, str, str]:
+    out, err = io.StringIO(), io.StringIO()
+    code = main(["run", str(study), "--out", "run", *flags], stdout=out, stderr=err,
+                cwd=study.parent,
+                clock=lambda: _dt.datetime(2026, 3, 1, tzinfo=_dt.timezone.utc))
+    return code, out.getvalue(), err.getvalue()
+
+
+ACKNOWLEDGED = "".join(
+    f"  - {{kind: below-planned-n, subject: {level}, justification: units lost in handling "
+    f"(invented)}}\n" for level in LEVELS)
+
+
+def test_strict_exits_1_while_a_deviation_is_unacknowledged_and_the_pdf_shows_a_banner(
+        demo_study: Path):
+    _lock(demo_study)
+    code, out, err = _run(demo_study, "--strict")
+    assert code == 1
+    assert err == ("strict: 4 deviations from the registered plan not acknowledged (see the "
+                   "plan's deviations key)\n")
+    assert "  deviations from the plan: 4, 4 not acknowledged\n" in out
+    assert ("    below-planned-n (uncoated): Level 'uncoated' of seed coating: 10 units "
+            "analysed; 12 planned per group.\n") in out
+    run = demo_study.parent / "run"
+    assert (run / "appendix.pdf").is_file() and (run / "results.json").is_file()
+    html = (run / "appendix.html").read_text(encoding="utf-8")
+    assert _banner(html) == (
+        "4 deviations from the registered plan not acknowledged Fewer units than planned: "
+        "uncoated Fewer units than planned: chitosan Fewer units than planned: seaweed Fewer "
+        "units than planned: humic The plan neither provides for nor justifies these; see "
+        "Deviations from the plan . Read the results with these departures in mind.")
+    first_page = pypdf.PdfReader(run / "appendix.pdf").pages[0].extract_text()
+    assert "DEVIATIONS FROM THE REGISTERED PLAN NOT ACKNOWLEDGED" in first_page.upper()
+    assert "Fewer units than planned: humic" in first_page
+
+
+def test_strict_exits_0_once_every_deviation_is_acknowledged(demo_study: Path):
+    _lock(demo_study)
+    _append(demo_study, "deviations:\n" + ACKNOWLEDGED)
+    code, out, err = _run(demo_study, "--strict", "--no-pdf")
+    assert (code, err) == (0, "")
+    assert "  deviations from the plan: 4, 0 not acknowledged\n" in out
+    html = (demo_study.parent / "run" / "appendix.html").read_text(encoding="utf-8")
+    assert _banner(html) is None
+    table = _text(html, "deviations")
+    assert ("Fewer units than planned humic Level 'humic' of seed coating: units analysed: 11 "
+            "for dry_mass, 12 for chlorophyll; 12 planned per group. analysed units in the unit "
+            "flow compared with data.planned_n yes units lost in handling (invented)") in table
+
+
+def test_without_strict_the_run_exits_0_but_the_banner_shows(demo_study: Path):
+    code, out, err = _run(demo_study, "--no-pdf")
+    assert (code, err) == (0, "")
+    html = (demo_study.parent / "run" / "appendix.html").read_text(encoding="utf-8")
+    assert _banner(html).startswith("5 deviations from the registered plan not acknowledged "
+                                    "Plan not registered: plan Fewer units than planned:")
+    # unacknowledged first in the table, the header has its How detected column
+    assert "<th class=\"text\">How detected</th>" in html
