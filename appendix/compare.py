@@ -310,13 +310,15 @@ def _interval(found: dict, outcome: str, quantity: str, label: str, item: Mappin
     found[(outcome, f"{quantity}.ci_high")] = (f"{label}, CI high", item.get("ci_high"))
 
 
-def _hypothesis_numbers(found: dict, outcome: str, families: list[Mapping[str, Any]]) -> None:
+def _hypothesis_numbers(found: dict, outcome: str, families: list[Mapping[str, Any]],
+                        note: str = "") -> None:
     for family in families:
         for h in family["hypotheses"]:
-            _interval(found, outcome, h["id"], f"{h['id']} estimate", h)
-            found[(outcome, f"{h['id']}.p")] = (f"{h['id']} p (unadjusted)", h["p"])
-            found[(outcome, f"{h['id']}.p_adjusted")] = (f"{h['id']} p (adjusted)", h["p_adjusted"])
-            found[(outcome, f"{h['id']}.standardized")] = (f"{h['id']} standardized (Hedges)",
+            name = f"{h['id']}{note}"
+            _interval(found, outcome, h["id"], f"{name} estimate", h)
+            found[(outcome, f"{h['id']}.p")] = (f"{name} p (unadjusted)", h["p"])
+            found[(outcome, f"{h['id']}.p_adjusted")] = (f"{name} p (adjusted)", h["p_adjusted"])
+            found[(outcome, f"{h['id']}.standardized")] = (f"{name} standardized (Hedges)",
                                                           h["standardized"])
 
 
@@ -345,7 +347,7 @@ def numbers_of(results: Mapping[str, Any]) -> dict[tuple[str, str], tuple[str, f
         for e in o["effect_sizes"]:
             _interval(found, name, e["measure"], _EFFECT_WORDS.get(e["measure"], e["measure"]), e)
         _hypothesis_numbers(found, name, [f for f in o["contrasts"] if f["registered"]])
-        _hypothesis_numbers(found, name, exploratory.get(name, []))
+        _hypothesis_numbers(found, name, exploratory.get(name, []), " (exploratory)")
         found[(name, "n_analysed")] = ("units analysed", o["n_analysed"])
         _group_numbers(found, name, o["descriptives"])
     for m in _ordered(list(results.get("models", []))):
@@ -363,7 +365,7 @@ def numbers_of(results: Mapping[str, Any]) -> dict[tuple[str, str], tuple[str, f
                 found[(name, f"{term}.partial_omega_squared")] = (f"partial omega squared, {label}",
                                                                  row["partial_omega_squared"])
         _hypothesis_numbers(found, name, [f for f in m["contrasts"] if f["registered"]])
-        _hypothesis_numbers(found, name, exploratory.get(name, []))
+        _hypothesis_numbers(found, name, exploratory.get(name, []), " (exploratory)")
         for means in m["marginal_means"]:
             for mean in means["means"]:
                 at = ", ".join(f"{f}={v}" for f, v in zip(means["factors"], mean["levels"]))

@@ -255,3 +255,33 @@ def test_demo_generator_rewrites_both_data_files_byte_for_byte(tmp_path):
     generate.write(tmp_path / "units-corrected.csv", fixed)
     for name in ("units.csv", "units-corrected.csv"):
         assert (tmp_path / name).read_bytes() == (DEMO / "data" / name).read_bytes()
+
+
+def test_data_diff_follows_a_unit_into_an_exclusion_and_a_missing_cell(tmp_path):
+    from appendix.compare import compare_data
+    from appendix.records import read_records
+
+    study = _copy_demo(tmp_path / "study")
+    data = study.parent / "data" / "units.csv"
+    folders = []
+    for name in ("a", "b"):
+        if name == "b":  # P001 marked damaged (rule X1), P005's chlorophyll cell blanked
+            text = data.read_text(encoding="utf-8")
+            text = text.replace("P001,1,uncoated,no,41.5,36.5", "P001,1,uncoated,yes,41.5,36.5")
+            text = text.replace("P005,1,uncoated,no,39.6,33.4", "P005,1,uncoated,no,39.6,")
+            data.write_text(text, encoding="utf-8")
+        computed = api.compute(study)
+        (tmp_path / name).mkdir()
+        write_records(tmp_path / name, computed.loaded, computed.dataset)
+        folders.append(read_records(tmp_path / name))
+    diff = compare_data(*folders)
+    assert diff.added == diff.removed == ()
+    found = {(c.unit, c.column, c.role):
+             (c.text_a, c.text_b, c.value_a, c.value_b, c.status_a, c.status_b) for c in diff.changed}
+    assert found == {
+        ("P001", "shoot_dry_mass_mg", "outcome"): ("41.5", "41.5", 41.5, None, "analysed", "excluded"),
+        ("P001", "chlorophyll_index", "outcome"): ("36.5", "36.5", 36.5, None, "analysed", "excluded"),
+        ("P001", "damaged", "exclusion"): ("no", "yes", None, None, None, None),
+        ("P001", "", "exclusion-rule"): (None, "X1", None, None, None, None),
+        ("P005", "chlorophyll_index", "outcome"): ("33.4", "", 33.4, None, "analysed", "missing"),
+    }
