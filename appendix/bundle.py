@@ -103,19 +103,22 @@ def _inside(relative: str) -> bool:
     return bool(parts) and not PurePosixPath(relative).is_absolute() and ".." not in parts
 
 
-def _checked(path: Path, expected: str, what: str) -> bytes:
-    """The bytes of `path`, refusing when its SHA-256 is not the recorded one."""
+def _checked(path: Path, expected: str, what: str) -> Path:
+    """`path`, refusing when its SHA-256 is not the recorded one (read as a stream: data
+    files may be large, so files are never held in memory whole)."""
     if not path.is_file():
         raise UserError(f"{what} {path} is missing; the run recorded it, so the package "
                         "cannot be made")
-    content = path.read_bytes()
-    if hashlib.sha256(content).hexdigest() != expected:
+    if sha256_file(path) != expected:
         raise UserError(f"{what} {path} has changed since the run (its SHA-256 is no longer "
                         f"the recorded {expected[:12]}...); rerun the study before packing")
-    return content
+    return path
 
 
-def _run_entries(run: Path, manifest: Mapping[str, Any]) -> dict[str, bytes]:
+Content = bytes | Path  # an entry's bytes, or the file that holds them
+
+
+def _run_entries(run: Path, manifest: Mapping[str, Any]) -> dict[str, Content]:
     """The run folder's files under ``run/``, each checked against the run manifest."""
     entries = {}
     for item in manifest.get("outputs", []):
@@ -124,7 +127,7 @@ def _run_entries(run: Path, manifest: Mapping[str, Any]) -> dict[str, bytes]:
                             f"{item['path']!r}")
         entries[f"run/{item['path']}"] = _checked(run / item["path"], item["sha256"],
                                                   "the run's output")
-    entries["run/manifest.json"] = (run / "manifest.json").read_bytes()
+    entries["run/manifest.json"] = run / "manifest.json"
     missing = [name for name in RUN_FILES if f"run/{name}" not in entries]
     if missing:
         raise UserError(f"the run folder {run} has no {', '.join(missing)}; run the study "
@@ -132,7 +135,7 @@ def _run_entries(run: Path, manifest: Mapping[str, Any]) -> dict[str, bytes]:
     return entries
 
 
-def _study_entries(manifest: Mapping[str, Any], run: Path) -> dict[str, bytes]:
+def _study_entries(manifest: Mapping[str, Any], run: Path) -> dict[str, Content]:
     """The study file, its lock and data under ``study/``, checked against the run's inputs."""
     if "study_file" not in manifest:
         raise UserError(f"{run / 'manifest.json'} does not record where the study file is; "
@@ -149,7 +152,7 @@ def _study_entries(manifest: Mapping[str, Any], run: Path) -> dict[str, bytes]:
                                                     f"the {item['role']} file")
     lock = folder / LOCK_NAME
     if f"study/{LOCK_NAME}" not in entries and lock.is_file():
-        entries[f"study/{LOCK_NAME}"] = lock.read_bytes()
+        entries[f"study/{LOCK_NAME}"] = lock
     return entries
 
 
@@ -163,10 +166,23 @@ def _environment_record(manifest: Mapping[str, Any]) -> dict[str, Any]:
     return {"format_version": 1, "run": at_run, "pack": here}
 
 
-def sums_text(entries: Mapping[str, bytes]) -> str:
+def _sha256(content: Content) -> str:
+    if isinstance(content, Path):
+        return sha256_file(content)
+    return hashlib.sha256(content).hexdigest()
+
+
+def sums_text(entries: Mapping[str, Content]) -> str:
     """SHA256SUMS: one ``<hex digest>  <name>`` line per entry, sorted by name."""
-    return "".join(f"{hashlib.sha256(entries[name]).hexdigest()}  {name}\n"
-                   for name in sorted(entries))
+    return _sums(_digests(entries))
+
+
+def _sums(digests: Mapping[str, str]) -> str:
+    return "".join(f"{digest}  {name}\n" for name, digest in digests.items())
+
+
+def _digests(entries: Mapping[str, Content]) -> dict[str, str]:
+    return {name: _sha256(entries[name]) for name in sorted(entries)}
 
 
 def _zip_time(run_time: str | None) -> tuple[int, int, int, int, int, int]:
@@ -180,8 +196,22 @@ def _zip_time(run_time: str | None) -> tuple[int, int, int, int, int, int]:
     return moment.timetuple()[:6]
 
 
-def _write_zip(target: Path, entries: Mapping[str, bytes], when) -> None:
-    """Entries in the given order, one date, fixed permissions: the same bytes every time."""
+def _copy_checked(source_path: Path, sink, expected: str) -> None:
+    """Copy a file into the archive, refusing if it changed after it was hashed."""
+    digest = hashlib.sha256()
+    with open(source_path, "rb") as source:
+        while block := source.read(1 << 20):
+            digest.update(block)
+            sink.write(block)
+    if digest.hexdigest() != expected:
+        raise UserError(f"{source_path} changed while the package was being written; "
+                        "pack again")
+
+
+def _write_zip(target: Path, entries: Mapping[str, Content], digests: Mapping[str, str],
+               when) -> None:
+    """Entries in the given order, one date, fixed permissions, zlib's default level:
+    the same bytes every time. Files are copied in as streams."""
     target.parent.mkdir(parents=True, exist_ok=True)
     handle, temporary = tempfile.mkstemp(prefix=f".{target.name}.", dir=target.parent)
     os.close(handle)
@@ -192,7 +222,13 @@ def _write_zip(target: Path, entries: Mapping[str, bytes], when) -> None:
                 info.compress_type = zipfile.ZIP_DEFLATED
                 info.create_system = 3  # Unix, whatever the packing platform
                 info.external_attr = (stat.S_IFREG | 0o644) << 16
-                archive.writestr(info, content, compresslevel=9)
+                info.file_size = content.stat().st_size if isinstance(content, Path) \
+                    else len(content)  # decides ZIP64 before writing
+                with archive.open(info, "w") as sink:
+                    if isinstance(content, Path):
+                        _copy_checked(content, sink, digests[name])
+                    else:
+                        sink.write(content)
         os.replace(temporary, target)
     except BaseException:
         Path(temporary).unlink(missing_ok=True)
@@ -213,15 +249,20 @@ def pack(run: Path, out: Path | None = None) -> Path:
         raise UserError(f"{run} is not a run folder (no such folder)")
     manifest = _load_json(run / "manifest.json", "a run folder holds the manifest.json "
                           "that `appendix run` writes")
-    body = {**_study_entries(manifest, run), **_run_entries(run, manifest)}
+    try:
+        body = {**_study_entries(manifest, run), **_run_entries(run, manifest)}
+    except (KeyError, TypeError, AttributeError) as error:
+        raise UserError(f"{run / 'manifest.json'} is not a run manifest (at {error!r}); "
+                        "rerun the study, then pack") from None
     body[ENVIRONMENT] = (json.dumps(_environment_record(manifest), sort_keys=True, indent=2,
                                     ensure_ascii=False) + "\n").encode("utf-8")
     body[NOTE] = VERIFY_TEXT.format(study=manifest.get("study", "?"),
                                     tolerance=TOLERANCE_TEXT).encode("utf-8")
-    entries = {NOTE: body[NOTE], SUMS: sums_text(body).encode("ascii")}
+    digests = _digests(body)
+    entries = {NOTE: body[NOTE], SUMS: _sums(digests).encode("ascii")}
     entries.update((name, body[name]) for name in sorted(body) if name != NOTE)
     target = Path(out) if out is not None else default_package_path(run)
-    _write_zip(target, entries, _zip_time(manifest.get("run_time")))
+    _write_zip(target, entries, digests, _zip_time(manifest.get("run_time")))
     return target
 
 
@@ -333,7 +374,8 @@ def _manifest_problems(folder: Path) -> tuple[list[str], dict[str, Any] | None]:
     try:
         manifest = json.loads(path.read_text(encoding="utf-8"))
         outputs = [(f"run/{o['path']}", o["sha256"]) for o in manifest["outputs"]]
-        inputs = [(f"study/{i['path']}", i["sha256"]) for i in manifest["inputs"]]
+        inputs = [(f"study/{i['path']}", i["sha256"]) for i in manifest["inputs"]
+                  if isinstance(i["role"], str)]
     except (UnicodeDecodeError, json.JSONDecodeError, KeyError, TypeError) as error:
         return [f"run/manifest.json is not a run manifest ({error!r})"], None
     problems = []

@@ -318,6 +318,31 @@ def test_pack_refuses_a_run_that_does_not_say_where_its_study_is(packed, tmp_pat
         bundle.pack(tmp_path / "no-such-run")
 
 
+def test_pack_refuses_a_file_that_changes_while_it_is_packed(packed, tmp_path, monkeypatch):
+    _, run = _copy_run(packed, tmp_path)
+    real = bundle._digests
+
+    def stale(entries):  # the digest SHA256SUMS lists, then the file changes underneath
+        digests = real(entries)
+        digests["run/results.json"] = "0" * 64
+        return digests
+
+    monkeypatch.setattr(bundle, "_digests", stale)
+    with pytest.raises(UserError, match=r"results\.json changed while the package was being "
+                                        "written; pack again"):
+        bundle.pack(run, tmp_path / "p.zip")
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["run", "study"]  # no half package
+
+
+def test_pack_refuses_a_broken_manifest(packed, tmp_path):
+    _, run = _copy_run(packed, tmp_path)
+    manifest = json.loads((run / "manifest.json").read_text())
+    del manifest["inputs"]
+    (run / "manifest.json").write_text(publish.manifest_text(manifest), encoding="utf-8")
+    with pytest.raises(UserError, match=r"manifest\.json is not a run manifest \(at KeyError"):
+        bundle.pack(run)
+
+
 def test_pack_command_prints_the_package(packed, tmp_path):
     out = io.StringIO()
     target = tmp_path / "cmd.zip"
