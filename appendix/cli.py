@@ -87,14 +87,11 @@ def _run(args, cwd: Path, out: TextIO, err: TextIO, clock) -> int:
     for outcome in record.results.outcomes:
         print(f"  {outcome.name} ({outcome.role}): {outcome.conclusion.decision}", file=out)
     pending = api.unacknowledged(record.results)
-    if record.results.deviations:
-        print(f"  deviations from the plan: {len(record.results.deviations)}, "
-              f"{len(pending)} not acknowledged", file=out)
-    for deviation in pending:
-        print(f"    {deviation.kind} ({deviation.subject}): {deviation.message}", file=out)
     if args.strict and pending:
         print(f"strict: {len(pending)} deviation{'s' if len(pending) != 1 else ''} from the "
-              "registered plan not acknowledged (see the plan's deviations key)", file=err)
+              "registered plan not acknowledged (see the plan's deviations key):", file=err)
+        for deviation in pending:
+            print(f"  {deviation.kind} ({deviation.subject}): {deviation.message}", file=err)
         return EXIT_ATTENTION
     return EXIT_OK
 

@@ -40,6 +40,7 @@ def registration(lock: Lock | None) -> Registration | None:
     return Registration(
         lock_file="study.lock.json", locked_at=lock.locked_at, plan_sha256=lock.plan_sha256,
         tool_version=lock.tool_version, data_at_lock=lock.data.statement,
+        data_sha256_at_lock=lock.data.sha256,
         revisions=tuple(PlanRevision(r.number, r.time, r.previous_sha256, r.sha256, r.reason)
                         for r in lock.revisions))
 

@@ -591,7 +591,8 @@ class Registration:
 
     `locked_at` is the first lock's time (UTC, ISO 8601); `plan_sha256` the hash of the
     plan as last registered (after any revision); `data_at_lock` says in words whether
-    the data file existed when the plan was first locked.
+    the data file existed when the plan was first locked, `data_sha256_at_lock` its
+    SHA-256 then (None when it did not exist).
     """
 
     lock_file: str
@@ -600,6 +601,7 @@ class Registration:
     tool_version: str
     data_at_lock: str
     revisions: tuple[PlanRevision, ...] = ()
+    data_sha256_at_lock: str | None = None
 
 
 @dataclass(frozen=True)
