@@ -161,12 +161,16 @@ def write_pdf(folder: Path, html: str, options, results: StudyResults, now: _dt.
 def write_run(folder: Path, *, results: StudyResults, results_json: str, html: str,
               figures: Mapping[str, str], options, study_file: Path, now: _dt.datetime,
               environment: dict[str, str], pdf: bool = True,
+              extra_files: Mapping[str, str] | None = None,
               progress: Callable[[str], None] | None = None) -> tuple[str, ...]:
     """Write every file of a run into `folder` (the staging folder): results.json,
-    appendix.html, figures/*.svg, appendix.pdf (PDF/A-3b with its evidence) unless `pdf`
-    is false, and manifest.json last. Returns the relative paths written."""
+    appendix.html, figures/*.svg, `extra_files` (relative name -> text, e.g. the data
+    records), appendix.pdf (PDF/A-3b with its evidence) unless `pdf` is false, and
+    manifest.json last. Returns the relative paths written."""
     (folder / "results.json").write_text(results_json, encoding="utf-8")
     (folder / "appendix.html").write_text(html, encoding="utf-8")
+    for name, text in sorted((extra_files or {}).items()):
+        (folder / name).write_bytes(text.encode("utf-8"))
     (folder / "figures").mkdir()
     for stem, svg in sorted(figures.items()):
         (folder / "figures" / f"{stem}.svg").write_text(svg, encoding="utf-8")

@@ -23,6 +23,7 @@ import pytest
 
 from appendix import api, bundle, publish
 from appendix.errors import UserError
+from appendix.records import RECORDS_FILE, records_text
 from appendix.render import RenderOptions
 from tests.conftest import DEMO
 
@@ -40,6 +41,8 @@ def write_run(study: Path, folder: Path, when: _dt.datetime = RUN_TIME) -> Path:
                           results_json=rendered.results_json, html=rendered.html,
                           figures=rendered.figures, options=options,
                           study_file=computed.loaded.path, now=when,
+                          extra_files={RECORDS_FILE: records_text(computed.loaded,
+                                                                  computed.dataset)},
                           environment={"python": sys.version.split()[0],
                                        "platform": platform.platform()})
     return folder
@@ -80,7 +83,7 @@ FIGURE = "run/figures/dry_mass-means.svg"
 EXPECTED_NAMES = {
     "VERIFY.txt", "SHA256SUMS", "environment.json", "study/study.yaml",
     "study/study.lock.json", "study/data/units.csv", "run/results.json",
-    "run/appendix.html", "run/appendix.pdf", "run/manifest.json", FIGURE,
+    "run/appendix.html", "run/appendix.pdf", "run/manifest.json", "run/records.json", FIGURE,
 }
 
 
@@ -210,6 +213,26 @@ def test_forged_results_with_fresh_hashes_are_caught_by_recomputation(packed, tm
     assert "  the results.json embedded in run/appendix.pdf differs from the package's" in lines
     assert (f"  outcomes[0].table.f: {f_value * (1 + 1e-6)!r} packaged, {f_value!r} "
             "recomputed") in lines
+
+
+def test_forged_page_with_fresh_hashes_is_caught(packed, tmp_path):
+    """appendix.html edited, SHA256SUMS and the run manifest rewritten to match: the PDF's
+    embedded manifest and the page rendered again both disagree."""
+    entries = entries_of(packed[2])
+    entries["run/appendix.html"] = entries["run/appendix.html"].replace(b"</body>",
+                                                                        b"<p>x</p></body>")
+    manifest = json.loads(entries["run/manifest.json"])
+    for item in manifest["outputs"]:
+        if item["path"] == "appendix.html":
+            item["sha256"] = hashlib.sha256(entries["run/appendix.html"]).hexdigest()
+    entries["run/manifest.json"] = publish.manifest_text(manifest).encode("utf-8")
+    _resum(entries)
+    code, lines = verify_lines(rezip(entries, tmp_path / "forged.zip"))
+    assert code == 1
+    assert lines[2:-1] == [
+        "  the manifest.json embedded in run/appendix.pdf differs from the package's",
+        "  run/appendix.html differs from the page rendered again from the recomputed "
+        "results with the same versions"]
 
 
 def test_forged_data_with_fresh_hashes_change_the_recomputed_results(packed, tmp_path):
