@@ -192,6 +192,19 @@ def _resum(entries: dict[str, bytes]) -> None:
     entries["SHA256SUMS"] = bundle.sums_text(body).encode("ascii")
 
 
+def _forge(entries: dict[str, bytes], output: str, content: bytes, target: Path) -> Path:
+    """A careful forgery: the run output replaced, its hash in the run manifest and
+    SHA256SUMS rewritten to match (the PDF is left as it was)."""
+    entries[f"run/{output}"] = content
+    manifest = json.loads(entries["run/manifest.json"])
+    for item in manifest["outputs"]:
+        if item["path"] == output:
+            item["sha256"] = hashlib.sha256(content).hexdigest()
+    entries["run/manifest.json"] = publish.manifest_text(manifest).encode("utf-8")
+    _resum(entries)
+    return rezip(entries, target)
+
+
 def test_forged_results_with_fresh_hashes_are_caught_by_recomputation(packed, tmp_path):
     """results.json edited, and SHA256SUMS and the run manifest rewritten to match: the
     PDF's embedded copy and the recomputation still disagree."""
@@ -200,14 +213,8 @@ def test_forged_results_with_fresh_hashes_are_caught_by_recomputation(packed, tm
     f_value = results["outcomes"][0]["table"]["f"]
     results["outcomes"][0]["table"]["f"] = f_value * (1 + 1e-6)
     forged = json.dumps(results, sort_keys=True, indent=2, ensure_ascii=False) + "\n"
-    entries["run/results.json"] = forged.encode("utf-8")
-    manifest = json.loads(entries["run/manifest.json"])
-    for item in manifest["outputs"]:
-        if item["path"] == "results.json":
-            item["sha256"] = hashlib.sha256(entries["run/results.json"]).hexdigest()
-    entries["run/manifest.json"] = publish.manifest_text(manifest).encode("utf-8")
-    _resum(entries)
-    code, lines = verify_lines(rezip(entries, tmp_path / "forged.zip"))
+    code, lines = verify_lines(_forge(entries, "results.json", forged.encode("utf-8"),
+                                      tmp_path / "forged.zip"))
     assert code == 1
     assert not any(line.startswith("  changed:") for line in lines)
     assert "  the results.json embedded in run/appendix.pdf differs from the package's" in lines
@@ -219,15 +226,8 @@ def test_forged_page_with_fresh_hashes_is_caught(packed, tmp_path):
     """appendix.html edited, SHA256SUMS and the run manifest rewritten to match: the PDF's
     embedded manifest and the page rendered again both disagree."""
     entries = entries_of(packed[2])
-    entries["run/appendix.html"] = entries["run/appendix.html"].replace(b"</body>",
-                                                                        b"<p>x</p></body>")
-    manifest = json.loads(entries["run/manifest.json"])
-    for item in manifest["outputs"]:
-        if item["path"] == "appendix.html":
-            item["sha256"] = hashlib.sha256(entries["run/appendix.html"]).hexdigest()
-    entries["run/manifest.json"] = publish.manifest_text(manifest).encode("utf-8")
-    _resum(entries)
-    code, lines = verify_lines(rezip(entries, tmp_path / "forged.zip"))
+    page = entries["run/appendix.html"].replace(b"</body>", b"<p>x</p></body>")
+    code, lines = verify_lines(_forge(entries, "appendix.html", page, tmp_path / "forged.zip"))
     assert code == 1
     assert lines[2:-1] == [
         "  the manifest.json embedded in run/appendix.pdf differs from the package's",
