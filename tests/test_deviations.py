@@ -56,8 +56,9 @@ def _demo_counts(study: Path) -> dict[str, Counter]:
     damaged == yes; a missing spelling leaves the unit out of that outcome)."""
     rows = list(csv.DictReader((study.parent / "data" / "units.csv").open(encoding="utf-8")))
     eligible = [r for r in rows if r["damaged"].strip() != "yes"]
-    return {name: Counter(r["coating"] for r in eligible if r[column] not in MISSING)
-            for name, column in OUTCOMES.items()} | {"eligible": Counter(r["coating"] for r in eligible)}
+    counts = {name: Counter(r["coating"] for r in eligible if r[column] not in MISSING)
+              for name, column in OUTCOMES.items()}
+    return counts | {"eligible": Counter(r["coating"] for r in eligible)}
 
 
 def _lock(study: Path, environ=FIRST) -> None:
@@ -145,7 +146,8 @@ def test_an_outcome_removed_and_one_added(demo_study: Path):
           "  - name: chlorophyll_late\n    column: chlorophyll_index\n")
     deviations = _deviations(demo_study)
     assert [(d.kind, d.subject) for d in deviations if d.kind.startswith("outcome-")] == [
-        ("outcome-removed", "outcomes[chlorophyll]"), ("outcome-added", "outcomes[chlorophyll_late]")]
+        ("outcome-removed", "outcomes[chlorophyll]"),
+        ("outcome-added", "outcomes[chlorophyll_late]")]
     added = next(d for d in deviations if d.kind == "outcome-added")
     assert added.message == (
         'Outcome chlorophyll_late is not in the registered plan; now: {"column": '
@@ -279,7 +281,8 @@ def test_a_registered_contingency_applied(tmp_path: Path):
 
 def test_an_acknowledgement_matches_kind_and_subject_exactly(demo_study: Path):
     _append(demo_study, "deviations:\n"
-            "  - {kind: below-planned-n, subject: humic, justification: two trays lost (invented)}\n"
+            "  - {kind: below-planned-n, subject: humic, "
+            "justification: two trays lost (invented)}\n"
             "  - {kind: below-planned-n, subject: humik, justification: typo}\n"
             "  - {kind: plan-changed, subject: humic, justification: wrong kind}\n")
     deviations = _deviations(demo_study)
@@ -348,7 +351,7 @@ def test_strict_exits_1_while_a_deviation_is_unacknowledged_and_the_pdf_shows_a_
 def test_strict_exits_0_once_every_deviation_is_acknowledged(demo_study: Path):
     _lock(demo_study)
     _append(demo_study, "deviations:\n" + ACKNOWLEDGED)
-    code, out, err = _run(demo_study, "--strict", "--no-pdf")
+    code, _, err = _run(demo_study, "--strict", "--no-pdf")
     assert (code, err) == (0, "")
     html = (demo_study.parent / "run" / "appendix.html").read_text(encoding="utf-8")
     assert _banner(html) is None
@@ -359,7 +362,7 @@ def test_strict_exits_0_once_every_deviation_is_acknowledged(demo_study: Path):
 
 
 def test_without_strict_the_run_exits_0_but_the_banner_shows(demo_study: Path):
-    code, out, err = _run(demo_study, "--no-pdf")
+    code, _, err = _run(demo_study, "--no-pdf")
     assert (code, err) == (0, "")
     html = (demo_study.parent / "run" / "appendix.html").read_text(encoding="utf-8")
     assert _banner(html).startswith("5 deviations from the registered plan not acknowledged "

@@ -230,7 +230,8 @@ def _walk(path: str, loc: tuple, old: Any, new: Any, out: list[PlanChange]) -> N
     out.append(_change(path, old, new))
 
 
-def compare_plans(registered: Mapping[str, Any], current: Mapping[str, Any]) -> tuple[PlanChange, ...]:
+def compare_plans(registered: Mapping[str, Any],
+                  current: Mapping[str, Any]) -> tuple[PlanChange, ...]:
     """Every difference between two canonical plans (``Plan.model_dump(mode="json")``),
     key by key, in sorted key order; `deviations` (acknowledgements) is left out.
 
@@ -252,11 +253,9 @@ def _data_at_lock(loaded: LoadedPlan) -> DataAtLock:
     path = loaded.data_path
     if not path.is_file():
         return DataAtLock(False, BEFORE_DATA, loaded.plan.data.source, None, None)
-    digest = hashlib.sha256()
-    with open(path, "rb") as handle:
-        for block in iter(lambda: handle.read(1 << 20), b""):
-            digest.update(block)
-    return DataAtLock(True, WITH_DATA, loaded.plan.data.source, digest.hexdigest(),
+    from appendix.publish import sha256_file
+
+    return DataAtLock(True, WITH_DATA, loaded.plan.data.source, sha256_file(path),
                       path.stat().st_size)
 
 
