@@ -106,8 +106,14 @@ def check(study: str | Path) -> list[str]:
     """What a run would compute, as lines of text; reads the plan and data, writes nothing."""
     from appendix.preview import describe_run
 
+    from appendix.deviations import registration_summary
+
     loaded = load_plan(Path(study))
-    return describe_run(loaded, load_data(loaded))
+    lines = describe_run(loaded, load_data(loaded))
+    tail = lines[-1:] if lines and lines[-1] == "nothing was written" else []
+    registered = registration_summary(loaded.plan.model_dump(mode="json"),
+                                      read_lock(loaded.path))
+    return [*lines[:len(lines) - len(tail)], *registered, *tail]
 
 
 def render(computed: Computed, options=None) -> Rendered:

@@ -45,6 +45,24 @@ def registration(lock: Lock | None) -> Registration | None:
                         for r in lock.revisions))
 
 
+def registration_summary(plan_json: dict, lock: Lock | None) -> list[str]:
+    """Lines for ``appendix check``: whether the plan is registered and matches its lock.
+
+    >>> registration_summary({}, None)[0]
+    'registration: plan not registered (no study.lock.json); appendix lock STUDY registers it'
+    """
+    if lock is None:
+        return ["registration: plan not registered (no study.lock.json); appendix lock STUDY "
+                "registers it"]
+    revised = (f", revised {len(lock.revisions)} time{'s' if len(lock.revisions) != 1 else ''}"
+               if lock.revisions else "")
+    head = f"registration: locked {lock.locked_at}{revised}, SHA-256 {lock.plan_sha256[:12]}"
+    changes = compare_plans(lock.plan, plan_json)
+    if not changes:
+        return [f"{head}; the plan matches it"]
+    return [f"{head}; the plan differs from it:", *(f"  {c.message}" for c in changes)]
+
+
 def _from_change(change: PlanChange, detected: str, acknowledged: bool = False,
                  justification: str | None = None) -> Deviation:
     return Deviation(kind=change.kind, subject=change.key, message=change.message,

@@ -291,3 +291,20 @@ def test_change_messages_are_in_words(demo_study: Path):
         "Outcome dry_mass was registered as primary and is now secondary.",
         "Outcome chlorophyll was registered as secondary and is now primary.",
     ]
+
+
+def test_check_says_whether_the_plan_is_registered_and_matches(demo_study: Path):
+    code, out, _ = _cli("check", str(demo_study), cwd=demo_study.parent)
+    assert code == 0 and out.splitlines()[-2:] == [
+        "registration: plan not registered (no study.lock.json); appendix lock STUDY "
+        "registers it", "nothing was written"]
+    lock_plan(load_plan(demo_study), environ=FIRST)
+    sha = load_plan(demo_study).sha256[:12]
+    code, out, _ = _cli("check", str(demo_study), cwd=demo_study.parent)
+    assert out.splitlines()[-2] == (f"registration: locked 2026-02-14T09:00:00Z, SHA-256 {sha}; "
+                                    "the plan matches it")
+    _edit(demo_study, "alpha: 0.05", "alpha: 0.01")
+    code, out, _ = _cli("check", str(demo_study), cwd=demo_study.parent)
+    assert out.splitlines()[-3:] == [
+        f"registration: locked 2026-02-14T09:00:00Z, SHA-256 {sha}; the plan differs from it:",
+        "  alpha: registered 0.05, now 0.01.", "nothing was written"]
