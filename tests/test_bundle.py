@@ -231,8 +231,8 @@ def test_forged_page_with_fresh_hashes_is_caught(packed, tmp_path):
     assert code == 1
     assert lines[2:-1] == [
         "  the manifest.json embedded in run/appendix.pdf differs from the package's",
-        "  run/appendix.html differs from the page rendered again from the recomputed "
-        "results with the same versions"]
+        ("  run/appendix.html differs from the page rendered again from the recomputed "
+         "results with the same versions")]
 
 
 def test_forged_data_with_fresh_hashes_change_the_recomputed_results(packed, tmp_path):
