@@ -402,3 +402,24 @@ def test_an_unregistered_plan_can_be_acknowledged(demo_study: Path):
     (found,) = [d for d in _deviations(demo_study) if d.kind == "plan-not-registered"]
     assert (found.acknowledged, found.justification) == (
         True, "pilot run before registration (invented)")
+
+
+@pytest.mark.parametrize("old, new, message", [
+    ("    per_group: 12\n", "    per_group: 12\n  missing_limit: 1\n",
+     "data.missing_limit: got 1; allowed: a number at least 0 and less than 1"),
+    ("    per_group: 12\n", "    per_group: 12\n  missing_limit: '10%'\n",
+     "data.missing_limit: got '10%'; allowed: a number at least 0 and less than 1"),
+])
+def test_a_missing_limit_outside_its_range_is_refused(demo_study: Path, old, new, message):
+    _edit(demo_study, old, new)
+    with pytest.raises(PlanError) as caught:
+        load_plan(demo_study)
+    assert str(caught.value).endswith(f"study.yaml:18: {message}")
+
+
+def test_an_acknowledgement_without_justification_is_refused(demo_study: Path):
+    _append(demo_study, "deviations:\n  - {kind: below-planned-n, subject: humic}\n")
+    with pytest.raises(PlanError) as caught:
+        load_plan(demo_study)
+    assert str(caught.value).endswith("study.yaml:69: deviations[0].justification: required "
+                                      "key is missing (Why the deviation is acceptable.)")
