@@ -414,12 +414,16 @@ def test_a_missing_limit_outside_its_range_is_refused(demo_study: Path, old, new
     _edit(demo_study, old, new)
     with pytest.raises(PlanError) as caught:
         load_plan(demo_study)
-    assert str(caught.value).endswith(f"study.yaml:18: {message}")
+    line = demo_study.read_text(encoding="utf-8").splitlines().index(
+        next(t for t in new.splitlines() if "missing_limit" in t)) + 1
+    assert str(caught.value).endswith(f"study.yaml:{line}: {message}")
 
 
 def test_an_acknowledgement_without_justification_is_refused(demo_study: Path):
     _append(demo_study, "deviations:\n  - {kind: below-planned-n, subject: humic}\n")
     with pytest.raises(PlanError) as caught:
         load_plan(demo_study)
-    assert str(caught.value).endswith("study.yaml:69: deviations[0].justification: required "
-                                      "key is missing (Why the deviation is acceptable.)")
+    last = len(demo_study.read_text(encoding="utf-8").splitlines())  # the entry's own line
+    assert str(caught.value).endswith(f"study.yaml:{last}: deviations[0].justification: "
+                                      "required key is missing (Why the deviation is "
+                                      "acceptable.)")
