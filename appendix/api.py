@@ -19,10 +19,11 @@ from pathlib import Path
 
 from appendix.data.build import build_dataset
 from appendix.data.dataset import Dataset
+from appendix.deviations import registration_summary
+from appendix.deviations import unacknowledged as _unacknowledged
 from appendix.errors import UserError
 from appendix.plan.load import LoadedPlan, load_plan
 from appendix.plan.lock import Lock, LockOutcome, lock_plan, read_lock
-from appendix.deviations import unacknowledged as _unacknowledged
 from appendix.results import Deviation, StudyResults, to_json, to_plain
 from appendix.runner import analyse as _analyse
 from appendix.versions import software_versions
@@ -105,8 +106,6 @@ def compute(study: str | Path, *, out_of_core: bool | None = None) -> Computed:
 def check(study: str | Path) -> list[str]:
     """What a run would compute, as lines of text; reads the plan and data, writes nothing."""
     from appendix.preview import describe_run
-
-    from appendix.deviations import registration_summary
 
     loaded = load_plan(Path(study))
     lines = describe_run(loaded, load_data(loaded))
