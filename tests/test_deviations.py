@@ -343,9 +343,11 @@ def test_strict_exits_1_while_a_deviation_is_unacknowledged_and_the_pdf_shows_a_
         "uncoated Fewer units than planned: chitosan Fewer units than planned: seaweed Fewer "
         "units than planned: humic The plan neither provides for nor justifies these; see "
         "Deviations from the plan . Read the results with these departures in mind.")
-    first_page = pypdf.PdfReader(run / "appendix.pdf").pages[0].extract_text()
-    assert "DEVIATIONS FROM THE REGISTERED PLAN NOT ACKNOWLEDGED" in first_page.upper()
-    assert "Fewer units than planned: humic" in first_page
+    pages = [page.extract_text() for page in pypdf.PdfReader(run / "appendix.pdf").pages]
+    assert "DEVIATIONS FROM THE REGISTERED PLAN NOT ACKNOWLEDGED" in pages[0].upper()
+    assert "Fewer units than planned: humic" in pages[0]
+    # and the running header of every page says so
+    assert all("4 unacknowledged deviations" in " ".join(text.split()) for text in pages)
 
 
 def test_strict_exits_0_once_every_deviation_is_acknowledged(demo_study: Path):
@@ -354,7 +356,7 @@ def test_strict_exits_0_once_every_deviation_is_acknowledged(demo_study: Path):
     code, _, err = _run(demo_study, "--strict", "--no-pdf")
     assert (code, err) == (0, "")
     html = (demo_study.parent / "run" / "appendix.html").read_text(encoding="utf-8")
-    assert _banner(html) is None
+    assert _banner(html) is None and "unacknowledged deviation" not in html
     table = _text(html, "deviations")
     assert ("Fewer units than planned humic Level 'humic' of seed coating: units analysed: 11 "
             "for dry_mass, 12 for chlorophyll; 12 planned per group. analysed units in the unit "
