@@ -308,3 +308,18 @@ def test_check_says_whether_the_plan_is_registered_and_matches(demo_study: Path)
     assert out.splitlines()[-3:] == [
         f"registration: locked 2026-02-14T09:00:00Z, SHA-256 {sha}; the plan differs from it:",
         "  alpha: registered 0.05, now 0.01.", "nothing was written"]
+
+
+def test_the_command_line_relocks_with_a_reason(demo_study: Path):
+    lock_plan(load_plan(demo_study), environ=FIRST)
+    before = load_plan(demo_study).sha256
+    _edit(demo_study, "alpha: 0.05", "alpha: 0.01")
+    code, out, err = _cli("lock", str(demo_study), "--relock", "--reason",
+                          "stricter level (invented)", cwd=demo_study.parent)
+    assert (code, err) == (0, "")
+    after = load_plan(demo_study).sha256
+    assert out == (f"recorded revision 1 in {lock_path(demo_study)} (SHA-256 {before} -> "
+                   f"{after}):\n  alpha: registered 0.05, now 0.01.\n")
+    (revision,) = read_lock(demo_study).revisions
+    assert (revision.reason, revision.previous_sha256, revision.sha256) == (
+        "stricter level (invented)", before, after)
