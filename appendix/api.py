@@ -146,17 +146,15 @@ def run(study: str | Path, out_dir: str | Path | None = None, *,
     options = options or html.RenderOptions()
     rendered = render(computed, options)
     folder = Path(out_dir) if out_dir is not None else Path(out_root) / computed.results.study.id
-    now = (clock or (lambda: _dt.datetime.now(_dt.timezone.utc)))()
+    now = publish.run_time(clock)  # SOURCE_DATE_EPOCH when set, else the clock
+    from appendix.records import RECORDS_FILE, records_text
+
     with publish.staged_folder(folder) as staging:
-        (staging / "results.json").write_text(rendered.results_json, encoding="utf-8")
-        (staging / "appendix.html").write_text(rendered.html, encoding="utf-8")
-        (staging / "figures").mkdir()
-        for stem, svg in sorted(rendered.figures.items()):
-            (staging / "figures" / f"{stem}.svg").write_text(svg, encoding="utf-8")
-        if pdf:
-            say("rendering PDF")
-            html.render_pdf(rendered.html, staging / "appendix.pdf", options)
-        written = publish.write_manifest(staging, computed.results, now, environment={
-            "python": sys.version.split()[0], "platform": platform.platform()})
+        written = publish.write_run(
+            staging, results=computed.results, results_json=rendered.results_json,
+            html=rendered.html, figures=rendered.figures, options=options,
+            study_file=computed.loaded.path, now=now, pdf=pdf, progress=say,
+            extra_files={RECORDS_FILE: records_text(computed.loaded, computed.dataset)},
+            environment={"python": sys.version.split()[0], "platform": platform.platform()})
     say(f"wrote {folder}")
     return RunRecord(folder=folder, results=computed.results, files=written)

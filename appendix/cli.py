@@ -48,6 +48,18 @@ def _parser() -> argparse.ArgumentParser:
     lock.add_argument("--relock", action="store_true", help="record a changed plan as a "
                       "revision of the lock (needs --reason)")
     lock.add_argument("--reason", help="why the registered plan is revised (with --relock)")
+    diff = commands.add_parser("diff", help="what changed between two run folders: "
+                               "conclusions, estimates, data, plan, checksums")
+    diff.add_argument("run_a", type=Path, help="the earlier run folder")
+    diff.add_argument("run_b", type=Path, help="the later run folder")
+    diff.add_argument("--json", action="store_true", help="print the diff as JSON")
+    diff.add_argument("--html", type=Path, help="also write the diff as an HTML page here")
+    pack = commands.add_parser("pack", help="the reviewer package of a run folder (zip)")
+    pack.add_argument("run", type=Path, help="the run folder")
+    pack.add_argument("--out", type=Path, help="the package file (default: <run folder>.zip)")
+    verify = commands.add_parser("verify", help="check every hash of a package, recompute "
+                                 "from its plan and data, compare")
+    verify.add_argument("package", type=Path, help="the package (zip)")
     commands.add_parser("selftest", help="run the published reference checks on this "
                         "installation and report")
     return parser
@@ -131,6 +143,19 @@ def main(argv: Sequence[str] | None = None, *, stdout: TextIO | None = None,
             return EXIT_USAGE
         if args.command == "selftest":
             return _selftest(out)
+        if args.command == "diff":
+            from appendix.compare import diff_command
+
+            return diff_command(cwd / args.run_a, cwd / args.run_b, as_json=args.json,
+                                html_out=cwd / args.html if args.html else None, out=out)
+        if args.command == "pack":
+            from appendix.bundle import pack_command
+
+            return pack_command(cwd / args.run, cwd / args.out if args.out else None, out)
+        if args.command == "verify":
+            from appendix.bundle import verify_command
+
+            return verify_command(cwd / args.package, out)
         args.study = cwd / args.study
         if args.command == "check":
             return _check(args, out)
@@ -139,6 +164,8 @@ def main(argv: Sequence[str] | None = None, *, stdout: TextIO | None = None,
         return _run(args, cwd, out, err, clock)
     except SystemExit as done:  # --help and --version print, then ask to exit
         return int(done.code or 0)
+    except BrokenPipeError:  # the reader of our output stopped early (e.g. `| head`)
+        return EXIT_OK
     except UserError as error:
         print(f"error: {error}", file=err)
         return EXIT_USAGE

@@ -9,7 +9,7 @@ from appendix.plan.load import MAX_BYTES, load_plan
 from tests.plan.plans import BASE, assert_refused, expected_message as _expected, variant
 
 TOP_KEYS = ("'format', 'study', 'data', 'alpha', 'design', 'outcomes', 'assumptions', "
-            "'analysis', 'contrasts', 'multiplicity', 'exploratory' or 'repeated'")
+            "'analysis', 'contrasts', 'multiplicity', 'exploratory', 'repeated' or 'deviations'")
 
 # (case id, study file text, expected problem lines as "line: path: message").
 CASES = [
