@@ -50,6 +50,14 @@ def build_dataset(loaded: LoadedPlan) -> Dataset:
         if not plan.is_one_way:  # several factors, covariates or a within factor
             from appendix.data.design_build import build_design_dataset
 
+            if delimiter is not None and loaded.data_path.is_file():
+                from appendix.data.columnar import read_columns
+                from appendix.data.design_vectorised import build_design_vectorised, design_columns
+
+                columns = read_columns(loaded.data_path, delimiter, design_columns(loaded))
+                built = build_design_vectorised(loaded, columns) if columns is not None else None
+                if built is not None:
+                    return replace(built, inputs=hashing.result())
             table = read_table(loaded.data_path, plan.data.sheet)
             return build_design_dataset(loaded, table, hashing.result(), delimiter is not None)
         if delimiter is not None and loaded.data_path.is_file():

@@ -89,13 +89,21 @@ def build_design_dataset(loaded: LoadedPlan, table: Table, inputs: tuple, delimi
     flow = UnitFlow(read=level_counts(cell.values(), labels), exclusions=exclusions,
                     eligible=level_counts((cell[u] for u in eligible), labels),
                     outcomes=tuple(flows))
+    lacking = {c.name: sum(covariates[c.name][u] is None for u in eligible)
+               for c in plan.design.covariates}
+    return Dataset(levels=labels, inputs=inputs, unit_flow=flow, outcomes=tuple(outcomes),
+                   findings=design_findings(plan, flow, lacking))
+
+
+def design_findings(plan, flow: UnitFlow, lacking: dict[str, int]) -> tuple[Finding, ...]:
+    """The flow's findings, eligible units without a covariate value (`lacking`, per
+    covariate name), and, with a within factor, units left out as incomplete."""
     findings = flow_findings(plan, flow, grouping=CROSS.join(f.label or f.name for f in plan.treatments)
                              or ALL_UNITS)
-    findings += _lacking_covariates(plan, eligible, covariates)
-    if within is not None:
-        findings += _incomplete(plan, flows, eligible, covariates)
-    return Dataset(levels=labels, inputs=inputs, unit_flow=flow, outcomes=tuple(outcomes),
-                   findings=findings)
+    findings += _lacking_covariates(plan, lacking)
+    if plan.within is not None:
+        findings += _incomplete(plan, flow.outcomes)
+    return findings
 
 
 def _require(loaded: LoadedPlan, table: Table) -> None:
@@ -266,10 +274,10 @@ def _outcome(plan, table, outcome, eligible, rows_of, codes, covariates, cell, l
     return data, flow, problems
 
 
-def _lacking_covariates(plan, eligible, covariates) -> tuple[Finding, ...]:
+def _lacking_covariates(plan, counts: dict[str, int]) -> tuple[Finding, ...]:
     found = []
     for covariate in plan.design.covariates:
-        lacking = sum(covariates[covariate.name][u] is None for u in eligible)
+        lacking = counts[covariate.name]
         if lacking:
             found.append(Finding("covariate-missing",
                                  f"{lacking} eligible unit{'s' if lacking != 1 else ''} without a value of "
@@ -277,7 +285,7 @@ def _lacking_covariates(plan, eligible, covariates) -> tuple[Finding, ...]:
     return tuple(found)
 
 
-def _incomplete(plan, flows, eligible, covariates) -> tuple[Finding, ...]:
+def _incomplete(plan, flows) -> tuple[Finding, ...]:
     within = plan.within
     found = []
     for flow in flows:
