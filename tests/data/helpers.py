@@ -117,3 +117,18 @@ def write_dta(frame: pd.DataFrame, path: Path) -> Path:
     pyreadstat.write_dta(data, str(path),
                          variable_value_labels={"arm": {v: k for k, v in codes.items()}})
     return path
+
+
+def record_answers(monkeypatch, module, name: str) -> list[bool]:
+    """Replace `module.name` (a builder that returns a Dataset or None) by a spy; the list
+    it returns fills with whether each call answered (True) or declined (False)."""
+    answers: list[bool] = []
+    real = getattr(module, name)
+
+    def recorded(*args):
+        answer = real(*args)
+        answers.append(answer is not None)
+        return answer
+
+    monkeypatch.setattr(module, name, recorded)
+    return answers

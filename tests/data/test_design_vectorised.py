@@ -12,6 +12,7 @@ import appendix.data.design_vectorised as fast
 from appendix.data.build import build_dataset
 from appendix.errors import DataError
 from appendix.plan.load import load_plan
+from tests.data.helpers import record_answers
 
 STUDY = """\
 format: 1
@@ -36,16 +37,7 @@ outcomes:
 @pytest.fixture
 def taken(monkeypatch):
     """Whether the fast path answered, per build."""
-    answers = []
-    real = fast.build_design_vectorised
-
-    def recorded(*args):
-        answer = real(*args)
-        answers.append(answer is not None)
-        return answer
-
-    monkeypatch.setattr(fast, "build_design_vectorised", recorded)
-    return answers
+    return record_answers(monkeypatch, fast, "build_design_vectorised")
 
 
 def _both(tmp_path, monkeypatch, text: str, within: bool):

@@ -15,7 +15,7 @@ from appendix.data.build import build_dataset
 from appendix.data.rows import Spans
 from appendix.errors import DataError, UserError
 from appendix.plan.load import load_plan
-from tests.data.helpers import write_study
+from tests.data.helpers import record_answers, write_study
 
 HEADER = "unit_id,arm,violated,dose,pain,sleep"
 LEVELS = ("placebo", "low", "high")
@@ -25,16 +25,7 @@ LEVELS = ("placebo", "low", "high")
 def every_size(monkeypatch):
     """The compiled pass for files of any size, each call's answer recorded."""
     monkeypatch.setattr(scan, "SCAN_MIN_BYTES", 0)
-    answers = []
-    real = vectorised.build_scanned
-
-    def recorded(*args):
-        answer = real(*args)
-        answers.append(answer is not None)
-        return answer
-
-    monkeypatch.setattr(vectorised, "build_scanned", recorded)
-    return answers
+    return record_answers(monkeypatch, vectorised, "build_scanned")
 
 
 def _paths(tmp_path, monkeypatch, text: str, name: str = "units.csv"):
