@@ -38,6 +38,11 @@ def input_file(path: Path, role: str, study_folder: Path) -> InputFile:
 
 
 def study_inputs(study_file: Path, data_file: Path) -> tuple[InputFile, ...]:
-    """The study file and its data file, in that order, paths relative to the study file."""
+    """The study file, its data file and, when there is one beside the study file, its
+    registration lock, in that order, paths relative to the study file."""
+    from appendix.plan.lock import LOCK_NAME
+
     folder = study_file.parent
-    return (input_file(study_file, "study", folder), input_file(data_file, "data", folder))
+    inputs = (input_file(study_file, "study", folder), input_file(data_file, "data", folder))
+    lock = folder / LOCK_NAME
+    return (*inputs, input_file(lock, "lock", folder)) if lock.is_file() else inputs
