@@ -3,8 +3,8 @@
 Formats, by file name ending (case ignored): ``.csv`` and ``.tsv`` (UTF-8 text, RFC 4180
 quoting; a quoted cell may span lines), ``.parquet`` (pyarrow), ``.xlsx`` (openpyxl; the
 first worksheet unless `sheet` is given; formulas give their last computed value), and
-``.xpt`` (SAS transport version 5, SAS TS-140, via pandas), and ``.dta`` (Stata, via
-pandas; value labels are read as the level text).
+``.xpt`` (SAS transport version 5, SAS TS-140, via pandas), ``.dta`` (Stata, via
+pandas), and ``.sav`` (SPSS, via pyreadstat); value labels are read as the level text.
 
 To add a format: write a function ``(path, sheet) -> Table`` that opens the file with
 ``open(path, "rb")`` and hands its header and rows to `_table`, register its ending in
@@ -193,6 +193,19 @@ def _dta(path: Path, sheet: str | None) -> Table:
     return _table(path, list(frame.columns), _numbered_rows(columns, len(frame)), 1)
 
 
+def _sav(path: Path, sheet: str | None) -> Table:
+    import pyreadstat
+
+    try:
+        # pyreadstat opens the file by name, read-only; user-defined missing values are
+        # read as missing, value labels as the level text.
+        frame, _ = pyreadstat.read_sav(str(path), apply_value_formats=True)
+    except (pyreadstat.ReadstatError, ValueError, OSError) as error:
+        raise UserError(f"cannot read {path} as an SPSS file: {error}") from None
+    columns = [frame[name].astype(object).tolist() for name in frame.columns]
+    return _table(path, list(frame.columns), _numbered_rows(columns, len(frame)), 1)
+
+
 _READERS: dict[str, Callable[[Path, str | None], Table]] = {
     ".csv": _delimited(","),
     ".tsv": _delimited("\t"),
@@ -200,6 +213,7 @@ _READERS: dict[str, Callable[[Path, str | None], Table]] = {
     ".xlsx": _xlsx,
     ".xpt": _xpt,
     ".dta": _dta,
+    ".sav": _sav,
 }
 
 

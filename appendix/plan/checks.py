@@ -16,7 +16,7 @@ from appendix.plan.raw import text as _text, texts, unique
 from appendix.plan.wording import Loc, did_you_mean, one_of, show
 
 #: Data file formats format 1 reads, by file name ending.
-DATA_FORMATS: tuple[str, ...] = (".csv", ".tsv", ".parquet", ".xlsx", ".xpt", ".dta")
+DATA_FORMATS: tuple[str, ...] = (".csv", ".tsv", ".parquet", ".xlsx", ".xpt", ".dta", ".sav")
 
 
 def consistency_problems(raw: object) -> list[Found]:

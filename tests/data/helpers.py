@@ -119,6 +119,18 @@ def write_dta(frame: pd.DataFrame, path: Path) -> Path:
     return path
 
 
+def write_sav(frame: pd.DataFrame, path: Path) -> Path:
+    """An SPSS file written by pyreadstat; the arm as integer codes with value labels."""
+    import pyreadstat
+
+    data = typed(frame)
+    codes = {"placebo": 1, "low": 2, "high": 3}
+    data["arm"] = data["arm"].map(codes).astype("int64")
+    pyreadstat.write_sav(data, str(path),
+                         variable_value_labels={"arm": {v: k for k, v in codes.items()}})
+    return path
+
+
 def record_answers(monkeypatch, module, name: str) -> list[bool]:
     """Replace `module.name` (a builder that returns a Dataset or None) by a spy; the list
     it returns fills with whether each call answered (True) or declined (False)."""

@@ -13,7 +13,7 @@ from appendix.errors import DataError
 from appendix.plan.load import load_plan
 from appendix.results import Finding, LevelCount
 from tests.data.helpers import (invented_units, write_delimited, write_dta, write_parquet,
-                                write_study, write_xlsx, write_xpt)
+                                write_study, write_sav, write_xlsx, write_xpt)
 
 LEVELS = ["placebo", "low", "high"]
 HEADER = "unit_id,arm,violated,dose,pain,sleep\n"
@@ -82,7 +82,8 @@ def test_inputs_are_hashed(tmp_path):
 
 
 @pytest.mark.parametrize("writer, ext", [(write_parquet, "parquet"), (write_xlsx, "xlsx"),
-                                         (write_xpt, "xpt"), (write_dta, "dta")])
+                                         (write_xpt, "xpt"), (write_dta, "dta"),
+                                         (write_sav, "sav")])
 def test_typed_formats_give_the_same_dataset(tmp_path, writer, ext):
     frame = invented_units()
     write_delimited(frame, tmp_path / "units.csv")

@@ -9,7 +9,7 @@ from appendix.data.readers import formats, read_table
 from appendix.errors import DataError, UserError
 from appendix.plan.model import DATA_FORMATS
 from tests.data.helpers import (invented_units, write_delimited, write_dta, write_parquet,
-                                write_xlsx, write_xpt)
+                                write_sav, write_xlsx, write_xpt)
 
 WRITERS = {
     "csv": lambda f, p: write_delimited(f, p),
@@ -18,6 +18,7 @@ WRITERS = {
     "xlsx": write_xlsx,
     "xpt": write_xpt,
     "dta": write_dta,
+    "sav": write_sav,
 }
 
 
@@ -98,12 +99,12 @@ def test_xlsx_named_sheet_and_header_row(tmp_path):
 
 
 def test_unknown_extension(tmp_path):
-    path = tmp_path / "units.sav"
+    path = tmp_path / "units.sas7bdat"
     path.write_bytes(b"")
     with pytest.raises(UserError) as caught:
         read_table(path)
-    assert str(caught.value) == (f"cannot read {path}: unknown file type '.sav'; allowed: "
-                                 "'.csv', '.tsv', '.parquet', '.xlsx', '.xpt' or '.dta'")
+    assert str(caught.value) == (f"cannot read {path}: unknown file type '.sas7bdat'; allowed: "
+                                 "'.csv', '.tsv', '.parquet', '.xlsx', '.xpt', '.dta' or '.sav'")
 
 
 def test_missing_file_names_resolved_path(tmp_path):

@@ -101,9 +101,9 @@ CASES = [
       "(first at exclusions[0])"]),
     ("exclusion value a list", variant("equals: yes", "equals: [yes]"),
      ["9: data.exclusions[0].equals: got a list of 1 item; allowed: text, a number or true/false"]),
-    ("unsupported data format", variant("units.csv", "units.sav"),
-     ["6: data.source: got 'units.sav'; allowed: a file ending '.csv', '.tsv', '.parquet', "
-      "'.xlsx', '.xpt' or '.dta'"]),
+    ("unsupported data format", variant("units.csv", "units.sas7bdat"),
+     ["6: data.source: got 'units.sas7bdat'; allowed: a file ending '.csv', '.tsv', '.parquet', "
+      "'.xlsx', '.xpt', '.dta' or '.sav'"]),
     ("fractional planned n",
      variant("  unit: unit_id\n", "  unit: unit_id\n  planned_n: {per_group: 2.5}\n"),
      ["8: data.planned_n.per_group: got 2.5; allowed: a whole number at least 1"]),
