@@ -24,7 +24,6 @@ import numpy as np
 
 from appendix import conclude
 from appendix.data.dataset import OutcomeData
-from appendix.errors import PlanError, Problem
 from appendix.plan.model import Outcome, Plan
 from appendix.results import (
     ContrastFamily,
@@ -266,7 +265,7 @@ def _raw_result(h, contrast, estimate, by=None, level: str | None = None) -> Hyp
         warnings=tuple(estimate.warnings))
 
 
-def _raw_results(plan: Plan, contrasts, fit, complete) -> list[HypothesisResult]:
+def _raw_results(plan: Plan, contrasts, fit, complete, occasion_fit=None) -> list[HypothesisResult]:
     """Every hypothesis of `contrasts` (simple effects expanded over the `by` levels),
     estimated and tested unadjusted."""
     confidence = 1.0 - plan.alpha
@@ -278,12 +277,12 @@ def _raw_results(plan: Plan, contrasts, fit, complete) -> list[HypothesisResult]
         for h in hypotheses:
             for level in places:
                 estimate = _estimate(plan, contrast, factor, h.weights, by, level, fit, complete,
-                                     confidence)
+                                     confidence, occasion_fit)
                 raw.append(_raw_result(h, contrast, estimate, by, level))
     return raw
 
 
-def _contrast_families(plan: Plan, outcome: Outcome, *, fit=None, complete=None):
+def _contrast_families(plan: Plan, outcome: Outcome, *, fit=None, complete=None, occasion_fit=None):
     """The registered family of one outcome (all its contrasts' hypotheses) under the
     registered multiplicity control, and its exploratory families by id (unadjusted).
 
@@ -293,14 +292,15 @@ def _contrast_families(plan: Plan, outcome: Outcome, *, fit=None, complete=None)
     effect within one treatment level on that level's units only."""
     exploratory = {}
     for entry in plan.exploratory_for(outcome.name):
-        tested = apply_multiplicity(_raw_results(plan, (entry,), fit, complete), "none", plan.alpha)
+        tested = apply_multiplicity(_raw_results(plan, (entry,), fit, complete, occasion_fit), "none",
+                                    plan.alpha)
         exploratory[entry.id] = ContrastFamily(
             outcome=outcome.name, scope="exploratory", multiplicity="none", method="marginal-means",
             alpha=plan.alpha, registered=False, hypotheses=tuple(tested))
     contrasts = plan.contrasts_for(outcome.name)
     if not contrasts:
         return (), exploratory
-    raw = _raw_results(plan, contrasts, fit, complete)
+    raw = _raw_results(plan, contrasts, fit, complete, occasion_fit)
     method = plan.multiplicity.method
     if method == "tukey":
         tested = tukey_results(raw, plan.alpha)
@@ -314,24 +314,37 @@ def _contrast_families(plan: Plan, outcome: Outcome, *, fit=None, complete=None)
     return (family,), exploratory
 
 
-def _estimate(plan: Plan, contrast, factor, weights, by, level, fit, complete, confidence):
-    """One contrast estimate: on marginal means, or on within-unit scores."""
-    from appendix.stats.marginal import marginal_contrast
-    from appendix.stats.repeated import within_contrast
+def _estimate(plan: Plan, contrast, factor, weights, by, level, fit, complete, confidence,
+              occasion_fit=None):
+    """One contrast estimate.
 
-    if plan.within is None or factor.name != plan.within.name:
+    - A between-unit factor: on the model's marginal means, within one level of `by`
+      when given; `by` the within factor: on the model fitted to that occasion's values
+      alone (`occasion_fit(level)`).
+    - The within factor: on the complete units' contrast scores (no sphericity needed),
+      their variance pooled within the treatment cells; `by` a treatment factor: on the
+      units at that level only.
+    """
+    from appendix.stats.marginal import marginal_contrast
+    from appendix.stats.repeated import CompleteUnits, within_contrast
+
+    within = plan.within
+    if within is None or factor.name != within.name:
+        if level is not None and within is not None and by.name == within.name:
+            return marginal_contrast(occasion_fit(level), factor.name, weights,
+                                     alternative=contrast.alternative, confidence=confidence)
         at = None if level is None else {by.name: level}
         return marginal_contrast(fit, factor.name, weights, at=at, alternative=contrast.alternative,
                                  confidence=confidence)
-    group = None
-    if level is not None:
-        if len(plan.treatments) != 1 or by.name != plan.treatments[0].name:
-            raise PlanError([Problem(None, None, f"contrasts[{contrast.id}].by",
-                                     "a within-factor contrast is split by a treatment factor only "
-                                     "when the design has one treatment factor, in this version")])
-        group = by.levels.index(level)
-    return within_contrast(complete, weights, group=group, alternative=contrast.alternative,
-                           confidence=confidence)
+    if level is not None:  # the units whose treatment cell has this level of `by`
+        position = [f.name for f in plan.treatments].index(by.name)
+        sizes = [len(f.levels) for f in plan.treatments]
+        step = int(np.prod(sizes[position + 1:], dtype=np.int64))
+        chosen = (complete.groups // step) % sizes[position] == by.levels.index(level)
+        _, recoded = np.unique(complete.groups[chosen], return_inverse=True)
+        complete = CompleteUnits(y=complete.y[chosen], units=tuple(np.asarray(complete.units)[chosen]),
+                                 groups=recoded.astype(np.int64), dropped=())
+    return within_contrast(complete, weights, alternative=contrast.alternative, confidence=confidence)
 
 
 def _dunnett(plan: Plan, contrast, raw, fit, complete):
@@ -413,7 +426,17 @@ def _repeated_outcome(plan, outcome, data, missing_by_cell, cell_labels) -> Mode
         slopes = _slopes_checks(plan, design_cells(grid, codes, unit_means, covariates), fit.between)
     residuals = unit_means - fitted_values(fit.between, grid.cell_codes(codes), covariates or None)
     diagnostics = _diagnostics(plan, None, residuals, cell_labels)
-    families, exploratory = _contrast_families(plan, outcome, fit=fit.between, complete=complete)
+    def occasion_fit(level: str):
+        """The between-unit model fitted to one occasion's values."""
+        from appendix.stats.design import design_cells
+        from appendix.stats.linear import fit_linear
+
+        y = complete.y[:, within.levels.index(level)]
+        return fit_linear(design_cells(grid, codes, y, covariates or None), plan.model_terms,
+                          plan.design.sums_of_squares or 2, plan.alpha)
+
+    families, exploratory = _contrast_families(plan, outcome, fit=fit.between, complete=complete,
+                                               occasion_fit=occasion_fit)
     conclusions = tuple(conclude.term_conclusion(plan, outcome, row, between.ss_type, between.residual_df)
                         for row in between.rows if _concluded(plan, row.term))
     conclusions += tuple(conclude.term_conclusion(plan, outcome, row, between.ss_type, error.df)

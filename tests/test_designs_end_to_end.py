@@ -385,3 +385,64 @@ def test_an_empty_cell_is_stated_and_costs_the_interaction_a_degree_of_freedom(t
     html = render(computed).html
     assert "Empty cells:" in html and table.estimability in html
     assert any(f.code == "level-without-units" for f in computed.results.findings)
+
+
+def test_simple_effects_across_strata(tmp_path):
+    """A between-unit contrast within each occasion is the contrast of the model fitted to
+    that occasion's values (statsmodels OLS on those rows); a within-unit contrast within
+    each treatment level is the t test of those units' contrast scores with their variance
+    pooled within the remaining treatment cells (statsmodels OLS of the scores on them)."""
+    import statsmodels.formula.api as smf
+    from scipy import stats
+
+    rng = np.random.default_rng(21)
+    rows = []
+    for u in range(1, 41):
+        coating, water = ["none", "thin"][u % 2], ["steady", "pulsed"][(u // 2) % 2]
+        level = rng.normal(0, 1.5)
+        for v, visit in enumerate(["day7", "day14", "day21"]):
+            y = 20 + level + 1.2 * v + (coating == "thin") * 0.9 * v + (water == "pulsed") + rng.normal(0, 1)
+            rows.append((f"U{u:02d}", coating, water, visit, f"{y:.2f}"))
+    frame = pd.DataFrame(rows, columns=["unit_id", "coating", "water", "visit", "y"])
+    frame.to_csv(tmp_path / "rows.csv", index=False)
+    (tmp_path / "study.yaml").write_text("""\
+format: 1
+study: {id: invented-simple, title: Invented simple effects}
+data: {source: rows.csv, unit: unit_id}
+design:
+  factors:
+    - {name: coating, levels: [none, thin], control: none}
+    - {name: water, levels: [steady, pulsed]}
+    - {name: visit, role: within, levels: [day7, day14, day21], ordered: true}
+  interactions: [[coating, water], [coating, visit]]
+  sums_of_squares: 3
+outcomes:
+  - {name: y, label: Response, role: primary}
+contrasts:
+  - {id: S1, factor: coating, kind: versus-control, by: visit, label: Coating at each visit}
+  - {id: S2, factor: visit, kind: trend, by: coating, label: Trend within each coating}
+multiplicity: {method: none}
+""", encoding="utf-8")
+    (model,) = compute(tmp_path / "study.yaml").results.models
+    hypotheses = {h.id: h for h in model.contrasts[0].hypotheses}
+    frame["y"] = frame["y"].astype(float)
+    for visit in ["day7", "day14", "day21"]:
+        at = frame[frame.visit == visit]
+        fit = smf.ols("y ~ C(coating, Sum) * C(water, Sum)", at).fit()
+        # thin - none on equally weighted marginal means = -2 x the sum-coded coating effect
+        test = fit.t_test("-2 * C(coating, Sum)[S.none] = 0")
+        h = hypotheses[f"S1:thin@{visit}"]
+        assert h.estimate == pytest.approx(float(np.squeeze(test.effect)), rel=1e-9)
+        assert h.p == pytest.approx(float(np.squeeze(test.pvalue)), rel=1e-7)
+    wide = frame.pivot(index="unit_id", columns="visit", values="y")[["day7", "day14", "day21"]]
+    meta = frame.drop_duplicates("unit_id").set_index("unit_id").loc[wide.index]
+    for coating in ["none", "thin"]:
+        h = hypotheses[f"S2:linear@{coating}"]
+        chosen = (meta.coating == coating).to_numpy()
+        scores = pd.DataFrame({"s": wide.to_numpy()[chosen] @ np.array(h.weights),
+                               "water": meta.water.to_numpy()[chosen]})
+        pooled = smf.ols("s ~ C(water)", scores).fit()
+        se = np.sqrt(pooled.mse_resid / len(scores))
+        assert h.estimate == pytest.approx(scores.s.mean(), rel=1e-9)
+        assert h.se == pytest.approx(se, rel=1e-9)
+        assert h.p == pytest.approx(2 * stats.t.sf(abs(scores.s.mean() / se), pooled.df_resid), rel=1e-7)
