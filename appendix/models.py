@@ -355,8 +355,6 @@ def _dunnett(plan: Plan, contrast, raw, fit, complete):
     when the means are uncorrelated (balanced designs without covariates), an
     approximation otherwise, which a warning says.
     """
-    from types import SimpleNamespace
-
     from appendix.stats.marginal import marginal_means
     from appendix.stats.repeated import within_means
 
@@ -367,7 +365,7 @@ def _dunnett(plan: Plan, contrast, raw, fit, complete):
     else:
         variances = [m.se**2 if m.se is not None else math.nan
                      for m in marginal_means(fit, (factor.name,), 0.95)]
-    tested = dunnett_results(raw, SimpleNamespace(var_mean=variances), plan.alpha)
+    tested = dunnett_results(raw, variances, plan.alpha)
     note = StatWarning("dunnett-marginal-approximate",
                        "Dunnett's correlations are taken from the variances of the marginal "
                        "means, as if these were uncorrelated: exact in balanced designs without "

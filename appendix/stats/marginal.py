@@ -73,7 +73,7 @@ def _level_rows(fit: ModelFit) -> np.ndarray:
     return np.where(plain, fit.cell_design, 0.0)
 
 
-def _average_row(fit: ModelFit, fixed: Mapping[int, int]) -> np.ndarray:
+def average_row(fit: ModelFit, fixed: Mapping[int, int]) -> np.ndarray:
     """The mean of the level rows over the cells whose factor i has level code fixed[i]."""
     codes = fit.grid.level_codes()
     chosen = np.ones(fit.grid.n_cells, dtype=bool)
@@ -123,7 +123,7 @@ def marginal_means(fit: ModelFit, factors: Term, confidence: float) -> tuple[Mar
     ranges = [range(fit.grid.shape[i]) for i in indices]
     for combo in itertools.product(*ranges):
         levels = tuple(fit.grid.levels[i][c] for i, c in zip(indices, combo))
-        l = _average_row(fit, dict(zip(indices, combo)))
+        l = average_row(fit, dict(zip(indices, combo)))
         what = f"The marginal mean at {', '.join(levels)}"
         out.append(_mean_result(fit, factors, levels, l, confidence, what))
     return tuple(out)
@@ -158,7 +158,7 @@ def _contrast_row(fit: ModelFit, factor: str, weights: Sequence[float],
         if name == factor:
             raise ValueError(f"`at` cannot fix the contrasted factor '{factor}'")
         fixed[_factor_index(fit, name)] = _level_code(fit, name, level)
-    return sum(w * _average_row(fit, {**fixed, index: i}) for i, w in enumerate(weights))
+    return sum(w * average_row(fit, {**fixed, index: i}) for i, w in enumerate(weights))
 
 
 def marginal_contrast(fit: ModelFit, factor: str, weights: Sequence[float], *,

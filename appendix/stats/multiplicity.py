@@ -237,7 +237,7 @@ def test_family(hypotheses: Sequence[Hypothesis], alternatives: Sequence[str], *
     if multiplicity == "tukey":
         return tukey_results(raw, alpha)
     if multiplicity == "dunnett":
-        return dunnett_results(raw, model, alpha)
+        return dunnett_results(raw, model.var_mean, alpha)
     return apply_multiplicity(raw, multiplicity, alpha, order=order)
 
 

@@ -294,19 +294,18 @@ def repeated_measures(data: CompleteUnits, within: str, within_levels: Sequence[
     within_error = (strata.ss_error, d * df_units)
     rows = []
     if between is not None:
-        rows.append(_effect_row((between,), between, "between", strata.ss_between,
-                                df_groups, (strata.ss_units, df_units), strata,
-                                None, confidence))
-    rows.append(_error_row(("units",), "Error between units", strata.ss_units, df_units,
-                           confidence))
-    rows.append(_effect_row((within,), within, "within", strata.ss_within, d, within_error,
-                            strata, spher, confidence))
+        rows.append(effect_row((between,), between, "between", strata.ss_between, df_groups,
+                               (strata.ss_units, df_units), strata.noise, None, confidence))
+    rows.append(error_row(("units",), "Error between units", strata.ss_units, df_units,
+                          confidence))
+    rows.append(effect_row((within,), within, "within", strata.ss_within, d, within_error,
+                           strata.noise, spher, confidence))
     if between is not None:
-        rows.append(_effect_row((within, between), f"{within} x {between}", "within",
-                                strata.ss_interaction, d * df_groups, within_error,
-                                strata, spher, confidence))
-    rows.append(_error_row((within, "units"), "Error within units", strata.ss_error,
-                           d * df_units, confidence))
+        rows.append(effect_row((within, between), f"{within} x {between}", "within",
+                               strata.ss_interaction, d * df_groups, within_error,
+                               strata.noise, spher, confidence))
+    rows.append(error_row((within, "units"), "Error within units", strata.ss_error,
+                          d * df_units, confidence))
     return RepeatedFit(within, tuple(within_levels), between, tuple(between_levels),
                        tuple(rows), spher, strata.n_units, tuple(notes))
 
@@ -339,20 +338,21 @@ def _fit_notes(data: CompleteUnits, codes: np.ndarray, between_levels: Sequence[
                           "in the analysis.")
 
 
-def _error_row(term: tuple[str, ...], label: str, ss: float, df: int,
-               confidence: float) -> RepeatedRow:
+def error_row(term: tuple[str, ...], label: str, ss: float, df: int,
+              confidence: float) -> RepeatedRow:
     ms = ss / df if df > 0 else None
     return RepeatedRow(term, label, "error", float(df), ss, ms, None, None, None, None, None,
                        None, None, None, None, None, confidence)
 
 
-def _effect_row(term: tuple[str, ...], label: str, kind: str, ss: float, df: int,
-                error: tuple[float, int], strata: _Strata, spher: Sphericity | None,
-                confidence: float) -> RepeatedRow:
-    """One tested term: F, p, corrected df and p (within terms), effect sizes."""
+def effect_row(term: tuple[str, ...], label: str, kind: str, ss: float, df: int,
+               error: tuple[float, int], noise: float, spher: Sphericity | None,
+               confidence: float) -> RepeatedRow:
+    """One tested term: F, p, corrected df and p (within terms), effect sizes. An error
+    SS at or below `noise` counts as no variation (F undefined)."""
     ss_error, df_error = error
     ms = ss / df if df > 0 else None
-    why = _f_undefined(ss, df, ss_error, df_error, strata.noise)
+    why = _f_undefined(ss, df, ss_error, df_error, noise)
     if why is not None:
         return RepeatedRow(term, label, kind, float(df), ss, ms, None, None, None, None, None,
                            None, None, None, None, None, confidence, (why,))

@@ -21,7 +21,7 @@ from scipy import stats as _st
 
 from appendix.errors import InternalError
 from appendix.results import HypothesisResult, StatWarning
-from appendix.stats.contrasts import LevelModel, interval
+from appendix.stats.contrasts import interval
 
 _SQRT2 = math.sqrt(2.0)
 
@@ -166,13 +166,13 @@ def _versus_control(r: HypothesisResult) -> tuple[int, int]:
     return int(treated[0]), int(controls[0])
 
 
-def dunnett_results(raw: Sequence[HypothesisResult], model: LevelModel,
+def dunnett_results(raw: Sequence[HypothesisResult], var_mean: Sequence[float],
                     alpha: float) -> tuple[HypothesisResult, ...]:
     """Dunnett's (1955) single-step many-to-one adjustment with simultaneous intervals.
 
     The comparisons L - control are correlated through the shared control:
-    rho_ij = lam_i lam_j with lam_i = sqrt(v_c / (v_c + v_i)), v the variance of a level
-    estimate under `model` (n-based for classical and rank-based; each level's own
+    rho_ij = lam_i lam_j with lam_i = sqrt(v_c / (v_c + v_i)), `var_mean` the variance v
+    of each level's estimate (n-based for classical and rank-based; each level's own
     variance under welch, where each comparison also keeps its Welch df, an
     approximation like Games-Howell). Two-sided: p_adj = P(max |T| >= |t|); one-sided:
     P(max T >= t) in the alternative's direction; interval estimate -/+ d * SE.
@@ -184,10 +184,10 @@ def dunnett_results(raw: Sequence[HypothesisResult], model: LevelModel,
     if not ready:
         return tuple(raw)
     control = pairs[0][1]
-    v_c = model.var_mean[control]
+    v_c = var_mean[control]
     # One comparison per treated level: a level listed twice is the same statistic.
     treated = sorted({t for _, t in ready})
-    lam = tuple(float(math.sqrt(v_c / (v_c + model.var_mean[t]))) for t in treated)
+    lam = tuple(float(math.sqrt(v_c / (v_c + var_mean[t]))) for t in treated)
     adjusted: dict[str, HypothesisResult] = {}
     for r, _ in ready:
         df = math.inf if r.df is None else float(r.df)

@@ -29,7 +29,6 @@ For one treatment factor and nothing else this is the classical split-plot table
 from __future__ import annotations
 
 import math
-import types
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 
@@ -38,8 +37,8 @@ import numpy as np
 from appendix.results import StatWarning
 from appendix.stats.design import Grid, Term, design_cells
 from appendix.stats.linear import ModelFit, fit_linear, fitted_values
-from appendix.stats.marginal import _average_row
-from appendix.stats.repeated import RepeatedRow, _effect_row, _error_row
+from appendix.stats.marginal import average_row
+from appendix.stats.repeated import RepeatedRow, effect_row, error_row
 from appendix.stats.sphericity import Sphericity, greenhouse_geisser, helmert_contrasts, huynh_feldt, mauchly_p
 
 #: Residual sums of squares below this share of the total are rounding, not variation.
@@ -81,17 +80,17 @@ def split_plot(grid: Grid, codes: Sequence[np.ndarray], y: np.ndarray,
     df_res = fits[0].residual_df
     ss_error = float(sum(f.residual_ss for f in fits))
     spher = _sphericity(residuals, df_res, n, d)
-    noise = types.SimpleNamespace(noise=_NOISE * float(np.sum((y - y.mean()) ** 2)))
+    noise = _NOISE * float(np.sum((y - y.mean()) ** 2))
     confidence = 1.0 - 2.0 * alpha
     error = (ss_error, d * df_res)
     main = _main_ss(fits) if ss_type == 3 else float(n * np.sum(scores.mean(axis=0) ** 2))
-    rows = [_effect_row((within,), within, "within", main, d, error, noise, spher, confidence)]
+    rows = [effect_row((within,), within, "within", main, d, error, noise, spher, confidence)]
     for term in interacting:
         ss = float(sum(next(r.ss for r in f.terms if r.term == tuple(term)) or 0.0 for f in fits))
         df = next(r.df for r in fits[0].terms if r.term == tuple(term)) * d
-        rows.append(_effect_row((*term, within), " x ".join((*term, within)), "within", ss, df, error,
+        rows.append(effect_row((*term, within), " x ".join((*term, within)), "within", ss, df, error,
                                 noise, spher, confidence))
-    rows.append(_error_row((within, "units"), "Error within units", ss_error, d * df_res, confidence))
+    rows.append(error_row((within, "units"), "Error within units", ss_error, d * df_res, confidence))
     return SplitPlotFit(between=between, within_rows=tuple(rows), sphericity=spher, levels=m,
                         n_units=n, warnings=tuple(between.warnings))
 
@@ -101,7 +100,7 @@ def _main_ss(fits: Sequence[ModelFit]) -> float:
     mean: the type 3 SS of the hypothesis that it is zero."""
     total = 0.0
     for fit in fits:
-        l = _average_row(fit, {})
+        l = average_row(fit, {})
         estimate = fit.y_mean + float(l @ fit.coefficients)
         scale = float(l @ fit.covariance @ l)
         if fit.residual_ms is None or not scale > 0.0:
