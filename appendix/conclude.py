@@ -301,8 +301,9 @@ def term_conclusion(plan: Plan, outcome: Outcome, row, ss_type: int, df_error: f
     rejected at α = .05 (type 3 sums of squares)." Within-unit terms name the corrected test
     in force: Greenhouse-Geisser when its df are given."""
     alpha = plan.alpha
-    what = {"interaction": "no interaction", "covariate": "no association with the covariate"}.get(
-        row.kind, "equal marginal means")
+    # An interaction is a term of several factors, whichever stratum it is tested in.
+    what = ("no interaction" if len(row.term) > 1 else
+            "no association with the covariate" if row.kind == "covariate" else "equal marginal means")
     how = _SS_TYPES.get(ss_type, f"type {ss_type} sums of squares")
     if row.f is None or row.p is None:
         reasons = " ".join(w.message for w in row.warnings) or "See the warnings."

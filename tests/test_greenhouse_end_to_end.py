@@ -65,3 +65,11 @@ def test_the_pdf_names_the_design_and_carries_the_caution(run):
     assert "Greenhouse-Geisser" in text and "Mauchly" in text
     assert "sum-to-zero coding" in text
     assert "not, a clinical or regulatory decision" in text
+
+
+def test_an_interaction_with_the_within_factor_is_concluded_on_as_an_interaction(run):
+    results = json.loads((run / "results.json").read_text(encoding="utf-8"))
+    (model,) = results["models"]
+    sentences = [c["sentence"] for c in model["conclusions"]]
+    (visit,) = [s for s in sentences if s.startswith("Seed coating × visit")]
+    assert "the hypothesis of no interaction is rejected" in visit
