@@ -192,7 +192,7 @@ def _covariate_slopes(plan: Plan, fit, confidence: float = 0.95) -> tuple[Covari
         if se is not None and fit.residual_df > 0:
             low, high = interval(estimate, se, critical_value(fit.residual_df, "two-sided", confidence),
                                  "two-sided")
-        out.append(CovariateSlope(covariate=covariate.name, label=covariate.label,
+        out.append(CovariateSlope(covariate=covariate.name, label=covariate.label, unit=covariate.unit,
                                   mean=float(means[covariate.name]), estimate=estimate, se=se,
                                   df=fit.residual_df, ci_low=low, ci_high=high,
                                   confidence_level=confidence))
@@ -215,7 +215,8 @@ def _marginal(plan: Plan, fit, over: str | None = None) -> tuple[MarginalMeans, 
                         for m in means),
             basis=("predicted cell means averaged with equal weights over the other factors' "
                    "levels" + (", covariates at their mean" if plan.design.covariates else "")
-                   + (f", of each unit's mean over {over}" if over else ""))))
+                   + (f", of each unit's mean over {over}" if over else "")
+                   + "; CIs from Student's t on the residual degrees of freedom")))
     return tuple(out)
 
 
@@ -462,7 +463,8 @@ def _occasion_means(plan: Plan, complete, cell_labels) -> tuple[MarginalMeans, .
 
     within = plan.within
     basis = ("the mean of the complete units at each level, with an interval from their "
-             "spread at that level (pooled within the treatment cells)")
+             "spread at that level (pooled within the treatment cells; Student's t on the units' "
+             "degrees of freedom)")
 
     def group(means, prefix=()):
         return tuple(MarginalMean(levels=(*prefix, within.levels[m.level]), estimate=m.mean, se=m.se,
@@ -479,7 +481,8 @@ def _occasion_means(plan: Plan, complete, cell_labels) -> tuple[MarginalMeans, .
         out.append(MarginalMeans(factors=names, label=_label(plan, names),
                                  confidence_level=overall.confidence_level, means=rows,
                                  basis="the mean of each cell's complete units at each level, with "
-                                       "an interval from that cell's own units"))
+                                       "an interval from that cell's own units (Student's t on their "
+                                       "degrees of freedom)"))
     return tuple(out)
 
 

@@ -431,6 +431,7 @@ class CovariateSlope:
     ci_low: float | None
     ci_high: float | None
     confidence_level: float
+    unit: str | None = None
 
 
 @dataclass(frozen=True)
