@@ -39,7 +39,7 @@ from appendix.results import (
     StatWarning,
 )
 from appendix.stats.descriptives import describe
-from appendix.stats.diagnostics import brown_forsythe
+from appendix.stats.diagnostics import brown_forsythe, shapiro_wilk_large
 from appendix.stats.hypotheses import hypotheses_for
 from appendix.stats.multiplicity import apply_multiplicity
 from appendix.stats.simultaneous import dunnett_results, tukey_results
@@ -223,10 +223,8 @@ def _marginal(plan: Plan, fit, over: str | None = None) -> tuple[MarginalMeans, 
 def _diagnostics(plan: Plan, data: OutcomeData | None, residuals: np.ndarray, cell_labels) -> Diagnostics:
     """Shapiro-Wilk of the residuals (of the unit means in a split-plot design) and
     Brown-Forsythe across the treatment cells (not for repeated observations)."""
-    from appendix.runner import _normality
-
     settings = plan.assumptions
-    normality = _normality(residuals) if settings.normality == "shapiro-wilk" else None
+    normality = shapiro_wilk_large(residuals) if settings.normality == "shapiro-wilk" else None
     tests = []
     if data is not None and "brown-forsythe" in settings.equal_variance:
         tests.append(brown_forsythe(data.values, _treatment_cells(plan, data), len(cell_labels),

@@ -24,7 +24,6 @@ from appendix.results import (
     ExploratoryAnalysis,
     FactorInfo,
     LevelCount,
-    NormalityTest,
     OutcomeResult,
     Software,
     StatWarning,
@@ -34,14 +33,13 @@ from appendix.results import (
 from appendix.stats.cells import cell_stats, cells_from_summary
 from appendix.stats.cells import residuals as stats_residuals
 from appendix.stats.descriptives import describe, mean_interval
-from appendix.stats.diagnostics import bartlett, brown_forsythe, outlier_screen, shapiro_wilk
+from appendix.stats.diagnostics import (  # noqa: F401 - SHAPIRO_MAX_N is part of this module's API
+    SHAPIRO_MAX_N, bartlett, brown_forsythe, outlier_screen, shapiro_wilk_large)
 from appendix.stats.effect_sizes import effect_sizes
 from appendix.stats.oneway import variance_table, welch_anova
 from appendix.stats.rank import kruskal_wallis
-from appendix.stats.sampling import subsample_indices
 
 DESCRIPTIVE_CONFIDENCE = 0.95
-SHAPIRO_MAX_N = 5000
 
 
 def effect_size_confidence(alpha: float) -> float:
@@ -50,23 +48,10 @@ def effect_size_confidence(alpha: float) -> float:
     return round(1.0 - 2.0 * alpha, 10)
 
 
-def _normality(residuals) -> NormalityTest:
-    """Shapiro-Wilk on the residuals; beyond `SHAPIRO_MAX_N` (where the Royston 1995
-    approximation of its p-value is no longer validated) on a deterministic subsample of
-    that many residuals, and the result says so."""
-    if residuals.size <= SHAPIRO_MAX_N:
-        return shapiro_wilk(residuals)
-    result = shapiro_wilk(residuals[subsample_indices(residuals.size, SHAPIRO_MAX_N)])
-    note = StatWarning("normality-subsample",
-                       f"Shapiro-Wilk was computed on a deterministic subsample of "
-                       f"{SHAPIRO_MAX_N} of the {residuals.size} residuals.")
-    return dataclasses.replace(result, warnings=(*result.warnings, note))
-
-
 def _diagnostics(plan: Plan, data: OutcomeData, cells, levels) -> Diagnostics:
     settings = plan.assumptions
     residuals = stats_residuals(data.values, data.codes, cells)
-    normality = _normality(residuals) if settings.normality == "shapiro-wilk" else None
+    normality = shapiro_wilk_large(residuals) if settings.normality == "shapiro-wilk" else None
     tests = []
     for method in settings.equal_variance:
         if method == "brown-forsythe":

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 import math
 import warnings as _warnings
 from collections.abc import Sequence
@@ -16,7 +17,7 @@ from appendix.stats.cells import (
 from appendix.stats.descriptives import split_by_code
 from appendix.stats.oneway import partition
 
-_SHAPIRO_MAX_N = 5000  # upper end of the range scipy states for its p-value
+SHAPIRO_MAX_N = 5000  # upper end of the range scipy states for its p-value (Royston 1995)
 _LAYOUT_CODES = frozenset({"empty-level", "group-n-one", "single-group"})
 
 
@@ -40,12 +41,27 @@ def shapiro_wilk(residuals: np.ndarray) -> NormalityTest:
         _warnings.filterwarnings("ignore", message=r"scipy\.stats\.shapiro: For N > 5000",
                                  category=UserWarning)
         w, p = _st.shapiro(x)
-    if n > _SHAPIRO_MAX_N:
+    if n > SHAPIRO_MAX_N:
         notes = (StatWarning(
             "normality-p-approximate",
             f"With {n} residuals the Shapiro-Wilk p-value is an extrapolation beyond the "
-            f"algorithm's stated range (n <= {_SHAPIRO_MAX_N}); read it as approximate."),)
+            f"algorithm's stated range (n <= {SHAPIRO_MAX_N}); read it as approximate."),)
     return NormalityTest("shapiro-wilk", float(w), float(p), n, notes)
+
+
+def shapiro_wilk_large(residuals: np.ndarray) -> NormalityTest:
+    """`shapiro_wilk` of the residuals; beyond 5000 of them (where the Royston 1995
+    approximation of its p-value is no longer validated) on a deterministic subsample of
+    that many, and the result says so."""
+    from appendix.stats.sampling import subsample_indices
+
+    if residuals.size <= SHAPIRO_MAX_N:
+        return shapiro_wilk(residuals)
+    result = shapiro_wilk(residuals[subsample_indices(residuals.size, SHAPIRO_MAX_N)])
+    note = StatWarning("normality-subsample",
+                       f"Shapiro-Wilk was computed on a deterministic subsample of "
+                       f"{SHAPIRO_MAX_N} of the {residuals.size} residuals.")
+    return dataclasses.replace(result, warnings=(*result.warnings, note))
 
 
 def brown_forsythe(
