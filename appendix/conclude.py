@@ -218,6 +218,29 @@ def hypothesis_conclusion(plan: Plan, outcome: Outcome, h: HypothesisResult,
                       p=h.p_adjusted if h.p_adjusted is not None else h.p, alpha=alpha)
 
 
+def slopes_caveat(slopes, alpha: float) -> str:
+    """The caveat a covariate-adjusted conclusion carries when a registered test of equal
+    covariate slopes rejected at `alpha` ("" when none did): the adjusted differences then
+    hold at the covariate's mean and may differ elsewhere (Huitema 2011, *The Analysis of
+    Covariance and Alternatives*, 2nd ed., ch. 11, from memory)."""
+    rejected = [c for c in slopes if c.p is not None and c.p < alpha]
+    if not rejected:
+        return ""
+    tests = "; ".join(f"{c.covariate}: F({fmt.df_value(c.df)}, {fmt.df_value(c.df_residual)}) = "
+                      f"{fmt.fixed(c.f, 2)}, {fmt.p_clause(c.p)}" for c in rejected)
+    return (f" Caution: the slopes of the outcome on the covariate differ across the treatment "
+            f"cells ({tests}), so this covariate-adjusted comparison holds at the covariate's "
+            "mean and may differ at other covariate values.")
+
+
+def with_caveat(conclusion: Conclusion, caveat: str) -> Conclusion:
+    """The conclusion with a caveat sentence appended (unchanged for an empty caveat)."""
+    if not caveat or conclusion.decision == "unavailable":
+        return conclusion
+    return Conclusion(sentence=conclusion.sentence + caveat, decision=conclusion.decision,
+                      p=conclusion.p, alpha=conclusion.alpha)
+
+
 def _contrast_of(plan: Plan, h: HypothesisResult):
     """The registered (or exploratory) contrast hypothesis `h` belongs to, or None."""
     return next((c for c in (*plan.contrasts, *plan.exploratory) if c.id == h.contrast), None)
@@ -241,10 +264,22 @@ def _variance_detail(test: VarianceTest) -> str:
     return f"{name}: {stat}, {fmt.p_clause(test.p)}"
 
 
+#: Which residuals a normality check used (NormalityTest.residuals), in words.
+_RESIDUAL_WORDS = {
+    "model": "the residuals",
+    "unit-means": "the residuals of the unit means (between units)",
+    "within-units": "the within-units residuals",
+}
+
+
 def assumption_statuses(plan: Plan, normality: NormalityTest | None,
                         variance_tests: list[VarianceTest] | tuple[VarianceTest, ...],
-                        ) -> tuple[AssumptionStatus, ...]:
-    """Each classical assumption of the one-way model with how it is supported."""
+                        *, within: NormalityTest | None = None, qq_plot: bool = True,
+                        welch_shown: bool = True) -> tuple[AssumptionStatus, ...]:
+    """Each classical assumption of the model with how it is supported. `within` is the
+    normality check of the within-units residuals of a repeated-measures design;
+    `qq_plot` and `welch_shown` say whether the appendix shows a normal Q-Q plot and
+    Welch's test, so the statuses refer to them only when they exist."""
     attested = plan.assumptions.attested
     factor = plan.factor
 
@@ -263,16 +298,21 @@ def assumption_statuses(plan: Plan, normality: NormalityTest | None,
             "Shapiro-Wilk could not be computed: "
             + " ".join(w.message for w in normality.warnings))
     else:
+        checks = [(normality, _RESIDUAL_WORDS[normality.residuals])]
+        checks += [(within, _RESIDUAL_WORDS[within.residuals])] if within is not None else []
         normal = AssumptionStatus(
             "normally distributed residuals", "checked",
-            f"Shapiro-Wilk on the residuals: W = {fmt.fixed(normality.statistic, 3)}, "
-            f"{fmt.p_clause(normality.p)} (a small p indicates non-normal residuals); "
-            "see also the normal Q-Q plot.")
+            "; ".join(f"Shapiro-Wilk on {words}: " + (
+                f"W = {fmt.fixed(test.statistic, 3)}, {fmt.p_clause(test.p)}"
+                if test.statistic is not None else "not computed") for test, words in checks)
+            + " (a small p indicates non-normal residuals)"
+            + ("; see also the normal Q-Q plot." if qq_plot else "."))
     if variance_tests:
         spread = AssumptionStatus(
             "equal variances across groups", "checked",
             "; ".join(_variance_detail(t) for t in variance_tests)
-            + " (a small p indicates unequal variances); Welch's test is shown alongside.")
+            + " (a small p indicates unequal variances)"
+            + ("; Welch's test is shown alongside." if welch_shown else "."))
     else:
         spread = AssumptionStatus("equal variances across groups", "not-checked",
                                   "The plan registers no equal-variance diagnostic.")

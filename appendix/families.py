@@ -24,6 +24,9 @@ from appendix.stats.cells import CellStats
 from appendix.stats.hypotheses import hypotheses_for
 from appendix.stats.multiplicity import adjust_across, fixed_sequence, test_family
 
+#: The joint law each single-step control uses on one factor's levels (see ContrastFamily).
+ONE_FACTOR_LAWS = {"tukey": "studentized-range", "dunnett": "many-to-one"}
+
 
 def _diagnostic_p(diagnostics: Diagnostics, test: str) -> float | None:
     if test == "shapiro-wilk":
@@ -106,7 +109,7 @@ def _family(plan: Plan, outcome: str, contrasts, method: str, multiplicity: str,
                          order=_order(plan, hypotheses) if scope != "exploratory" else None)
     return ContrastFamily(outcome=outcome, scope=scope, multiplicity=multiplicity,
                           method=method, alpha=plan.alpha, registered=registered,
-                          hypotheses=tested)
+                          hypotheses=tested, joint=ONE_FACTOR_LAWS.get(multiplicity))
 
 
 def registered_families(plan: Plan, outcome: str, selected: str, cells: CellStats,

@@ -122,6 +122,9 @@ REFERENCES: Mapping[str, Reference] = MappingProxyType({r.key: r for r in (
     _article("hedges1981", "Hedges, L. V.", 1981, "Distribution theory for Glass's estimator of "
              "effect size and related estimators", "Journal of Educational Statistics", "6", "2",
              "107\u2013128", "10.3102/10769986006002107"),
+    _article("genz2002", "Genz, A., & Bretz, F.", 2002, "Comparison of methods for the "
+             "computation of multivariate t probabilities", "Journal of Computational and "
+             "Graphical Statistics", "11", "4", "950\u2013971", "10.1198/106186002394"),
     _article("hochberg1988", "Hochberg, Y.", 1988, "A sharper Bonferroni procedure for multiple "
              "tests of significance", "Biometrika", "75", "4", "800\u2013802",
              "10.1093/biomet/75.4.800"),
@@ -149,6 +152,9 @@ REFERENCES: Mapping[str, Reference] = MappingProxyType({r.key: r for r in (
     _article("mccullough1998", "McCullough, B. D.", 1998, "Assessing the reliability of "
              "statistical software: Part I", "The American Statistician", "52", "4",
              "358\u2013366", "10.1080/00031305.1998.10480586"),
+    _article("hothorn2008", "Hothorn, T., Bretz, F., & Westfall, P.", 2008, "Simultaneous "
+             "inference in general parametric models", "Biometrical Journal", "50", "3",
+             "346\u2013363", "10.1002/bimj.200810425"),
     _article("greenhouse1959", "Greenhouse, S. W., & Geisser, S.", 1959, "On methods in the "
              "analysis of profile data", "Psychometrika", "24", "2", "95\u2013112",
              "10.1007/BF02289823"),
@@ -302,6 +308,18 @@ METHODS: Mapping[str, Method] = MappingProxyType({m.key: m for m in (
            "value from Royston's (1995) algorithm. The normal Q-Q plot uses Blom's (1958) "
            "plotting positions.",
            ("shapiro1965", "royston1995", "blom1958")),
+    Method("shapiro-model", "Shapiro\u2013Wilk test of normality",
+           "The Shapiro\u2013Wilk W test (Shapiro & Wilk, 1965) is applied to the residuals of "
+           "the fitted model (each value minus its fitted value), with coefficients and p value "
+           "from Royston's (1995) algorithm.",
+           ("shapiro1965", "royston1995")),
+    Method("shapiro-strata", "Shapiro\u2013Wilk test of normality in each stratum",
+           "The Shapiro\u2013Wilk W test (Shapiro & Wilk, 1965; Royston's 1995 algorithm) is "
+           "applied to the residuals of each stratum whose tests rely on them: between units, "
+           "the residuals of the between-units model fitted to each unit's mean; within units, "
+           "each observation minus its unit's mean and the fitted within-unit effects (the "
+           "residuals of the within-units error term).",
+           ("shapiro1965", "royston1995")),
     Method("brown-forsythe", "Brown\u2013Forsythe test of equal variances",
            "The Brown\u2013Forsythe test (Brown & Forsythe, 1974) is the one-way analysis of "
            "variance of the absolute deviations of each value from its group median; it is "
@@ -370,6 +388,25 @@ METHODS: Mapping[str, Method] = MappingProxyType({m.key: m for m in (
            "t distribution of the comparisons, whose correlations follow from the group sizes "
            "(Dunnett, 1955); adjusted p values and intervals hold simultaneously.",
            ("dunnett1955",)),
+    Method("tukey-joint", "Tukey's all-pairs comparisons on the joint t distribution",
+           "The family's pairwise differences (at every level of another factor for a simple "
+           "effect, all levels together) are tested single-step on the multivariate t "
+           "distribution of their t statistics, with the correlation matrix of the model's "
+           "estimates (Hothorn, Bretz & Westfall, 2008); with equal group sizes and no covariate "
+           "this is Tukey's (1953) studentized-range test. The probabilities are integrated "
+           "numerically by randomized quasi-Monte Carlo (Genz & Bretz, 2002), with the bound on "
+           "the integration error given in the table note. Adjusted p values and intervals hold "
+           "simultaneously for the whole family.",
+           ("tukey1953", "hothorn2008", "genz2002")),
+    Method("dunnett-joint", "Dunnett's many-to-one comparisons on the joint t distribution",
+           "The family's comparisons with the control (at every level of another factor for a "
+           "simple effect, all levels together) are tested single-step on the multivariate t "
+           "distribution of their t statistics, with the correlation matrix of the model's "
+           "estimates (Dunnett, 1955; Hothorn, Bretz & Westfall, 2008), integrated numerically "
+           "by randomized quasi-Monte Carlo (Genz & Bretz, 2002) with the bound on the "
+           "integration error given in the table note. Adjusted p values and intervals hold "
+           "simultaneously for the whole family.",
+           ("dunnett1955", "hothorn2008", "genz2002")),
     Method("bonferroni", "Bonferroni adjustment",
            "Each p value is multiplied by the number m of hypotheses in the family (capped at 1) "
            "and each interval is set at level 1 \u2212 \u03b1/m, which holds the family-wise "
@@ -478,6 +515,8 @@ _CONTRAST_METHODS = MappingProxyType({
 def multiplicity_method(family: Mapping[str, Any]) -> str:
     """The `METHODS` key of a family's multiplicity control (Tukey under Welch: Games-Howell)."""
     name = family["multiplicity"]
+    if str(family.get("joint") or "").startswith("multivariate-t"):
+        return f"{name}-joint"
     if name == "tukey" and family["method"] == "welch":
         return "games-howell"
     return "unadjusted" if name == "none" else name
@@ -497,7 +536,7 @@ def _contrast_methods(results: Mapping[str, Any]) -> list[str]:
 
 _CONTRAST_ORDER = (
     "contrasts-classical", "contrasts-welch", "contrasts-rank", "custom", "trend", "helmert", "tukey",
-    "games-howell", "dunnett", "bonferroni", "sidak", "holm", "hochberg", "benjamini-hochberg",
+    "games-howell", "dunnett", "tukey-joint", "dunnett-joint", "bonferroni", "sidak", "holm", "hochberg", "benjamini-hochberg",
     "fixed-sequence", "unadjusted", "hedges", "one-sided")
 
 
@@ -509,7 +548,9 @@ def _model_methods(results: Mapping[str, Any]) -> tuple[Method, ...]:
     chosen += ["marginal-means"] if _ran(models, lambda m: m["marginal_means"]) else []
     chosen += ["slopes"] if _ran(models, lambda m: m["slopes"]) else []
     chosen += ["repeated"] if _ran(models, lambda m: m["sphericity"]) else []
-    chosen += ["shapiro"] if _ran(models, lambda m: m["diagnostics"]["normality"]) else []
+    if _ran(models, lambda m: m["diagnostics"]["normality"]):
+        strata = _ran(models, lambda m: m["diagnostics"].get("within_normality"))
+        chosen += ["shapiro-strata" if strata else "shapiro-model"]
     chosen += ["brown-forsythe"] if _ran(models, lambda m: m["diagnostics"]["equal_variance"]) else []
     arithmetic = {m["arithmetic"] for m in models}
     chosen += [m for m in ("exact-decimal", "float64") if m in arithmetic]

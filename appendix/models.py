@@ -42,7 +42,7 @@ from appendix.stats.descriptives import describe
 from appendix.stats.diagnostics import brown_forsythe, shapiro_wilk_large
 from appendix.stats.hypotheses import hypotheses_for
 from appendix.stats.multiplicity import apply_multiplicity
-from appendix.stats.simultaneous import dunnett_results, tukey_results
+from appendix.stats.simultaneous import joint_results
 
 CROSS = " \u00d7 "
 
@@ -125,8 +125,10 @@ def _between_outcome(plan, outcome, data, missing_by_cell, cell_labels) -> Model
         n_observations=int(data.values.size), arithmetic=cells.arithmetic,
         descriptives=descriptives, tables=(table,), marginal_means=means, slopes=slopes,
         sphericity=None, diagnostics=diagnostics,
-        conclusions=tuple(conclude.term_conclusion(plan, outcome, row, table.ss_type, table.residual_df)
-                          for row in table.rows if _concluded(plan, row.term)),
+        conclusions=tuple(conclude.with_caveat(
+            conclude.term_conclusion(plan, outcome, row, table.ss_type, table.residual_df),
+            conclude.slopes_caveat(slopes, plan.alpha))
+            for row in table.rows if _concluded(plan, row.term)),
         contrasts=families, covariate_slopes=_covariate_slopes(plan, fit),
         warnings=tuple(fit.warnings)), exploratory
 
@@ -220,17 +222,27 @@ def _marginal(plan: Plan, fit, over: str | None = None) -> tuple[MarginalMeans, 
     return tuple(out)
 
 
-def _diagnostics(plan: Plan, data: OutcomeData | None, residuals: np.ndarray, cell_labels) -> Diagnostics:
-    """Shapiro-Wilk of the residuals (of the unit means in a split-plot design) and
-    Brown-Forsythe across the treatment cells (not for repeated observations)."""
+def _diagnostics(plan: Plan, data: OutcomeData | None, residuals: np.ndarray, cell_labels,
+                 within_residuals: np.ndarray | None = None) -> Diagnostics:
+    """Shapiro-Wilk of the residuals each registered test relies on: the model's, or in a
+    split-plot design those of the unit means (between units) and of the within-units
+    error (within units); Brown-Forsythe across the treatment cells (not for repeated
+    observations)."""
     settings = plan.assumptions
-    normality = shapiro_wilk_large(residuals) if settings.normality == "shapiro-wilk" else None
+    normality = within = None
+    if settings.normality == "shapiro-wilk":
+        normality = shapiro_wilk_large(residuals)
+        if within_residuals is not None:
+            normality = replace(normality, residuals="unit-means")
+            within = replace(shapiro_wilk_large(np.ravel(within_residuals)), residuals="within-units")
     tests = []
     if data is not None and "brown-forsythe" in settings.equal_variance:
         tests.append(brown_forsythe(data.values, _treatment_cells(plan, data), len(cell_labels),
                                     cell_labels, decimals=data.decimals))
     return Diagnostics(normality=normality, equal_variance=tuple(tests), outliers=None,
-                       assumptions=conclude.assumption_statuses(plan, normality, tests))
+                       assumptions=conclude.assumption_statuses(plan, normality, tests, within=within,
+                                                                qq_plot=False, welch_shown=False),
+                       within_normality=within)
 
 
 # --- contrasts on marginal means --------------------------------------------------------
@@ -264,31 +276,37 @@ def _raw_result(h, contrast, estimate, by=None, level: str | None = None) -> Hyp
         warnings=tuple(estimate.warnings))
 
 
+def _members(plan: Plan, contrasts):
+    """(contrast, factor, hypothesis, by, level) of every hypothesis of `contrasts`, simple
+    effects expanded over the `by` levels, in the order the family lists them."""
+    for contrast in contrasts:
+        factor, hypotheses = _hypotheses(plan, contrast)
+        by = plan.factor_named(contrast.by) if contrast.by else None
+        for h in hypotheses:
+            for level in [None] if by is None else list(by.levels):
+                yield contrast, factor, h, by, level
+
+
 def _raw_results(plan: Plan, contrasts, fit, complete, occasion_fit=None) -> list[HypothesisResult]:
     """Every hypothesis of `contrasts` (simple effects expanded over the `by` levels),
     estimated and tested unadjusted."""
     confidence = 1.0 - plan.alpha
-    raw: list[HypothesisResult] = []
-    for contrast in contrasts:
-        factor, hypotheses = _hypotheses(plan, contrast)
-        by = plan.factor_named(contrast.by) if contrast.by else None
-        places = [None] if by is None else list(by.levels)
-        for h in hypotheses:
-            for level in places:
-                estimate = _estimate(plan, contrast, factor, h.weights, by, level, fit, complete,
-                                     confidence, occasion_fit)
-                raw.append(_raw_result(h, contrast, estimate, by, level))
-    return raw
+    return [_raw_result(h, contrast, _estimate(plan, contrast, factor, h.weights, by, level, fit,
+                                               complete, confidence, occasion_fit), by, level)
+            for contrast, factor, h, by, level in _members(plan, contrasts)]
 
 
-def _contrast_families(plan: Plan, outcome: Outcome, *, fit=None, complete=None, occasion_fit=None):
+def _contrast_families(plan: Plan, outcome: Outcome, *, fit=None, complete=None, occasion_fit=None,
+                       occasion_residuals=None):
     """The registered family of one outcome (all its contrasts' hypotheses) under the
     registered multiplicity control, and its exploratory families by id (unadjusted).
 
     Contrasts of between-unit factors are taken on the model's marginal means (`fit`);
     contrasts of the within factor on the complete units' own contrast scores
     (`appendix.stats.repeated.within_contrast`, which needs no sphericity), a simple
-    effect within one treatment level on that level's units only."""
+    effect within one treatment level on that level's units only. Tukey and Dunnett
+    adjust over the whole family, every slice of a simple effect included, from the joint
+    multivariate t of its estimates (`_family_correlation`)."""
     exploratory = {}
     for entry in plan.exploratory_for(outcome.name):
         tested = apply_multiplicity(_raw_results(plan, (entry,), fit, complete, occasion_fit), "none",
@@ -301,16 +319,100 @@ def _contrast_families(plan: Plan, outcome: Outcome, *, fit=None, complete=None,
         return (), exploratory
     raw = _raw_results(plan, contrasts, fit, complete, occasion_fit)
     method = plan.multiplicity.method
-    if method == "tukey":
-        tested = tukey_results(raw, plan.alpha)
-    elif method == "dunnett":
-        tested = _dunnett(plan, contrasts[0], raw, fit, complete)
+    joint = error = None
+    if method in ("tukey", "dunnett"):
+        corr, approximate = _family_correlation(plan, list(_members(plan, contrasts)), fit, complete,
+                                                occasion_residuals)
+        tested, error = joint_results(raw, corr, plan.alpha, approximate)
+        joint = "multivariate-t" if approximate is None else "multivariate-t-approximate"
     else:
         tested = apply_multiplicity(raw, method, plan.alpha, order=plan.multiplicity.order)
     family = ContrastFamily(outcome=outcome.name, scope=plan.multiplicity.scope, multiplicity=method,
                             method="marginal-means", alpha=plan.alpha, registered=True,
-                            hypotheses=tuple(tested))
+                            hypotheses=tuple(tested), joint=joint, joint_error=error,
+                            by=_slicing_label(plan, contrasts))
     return (family,), exploratory
+
+
+def _slicing_label(plan: Plan, contrasts) -> str | None:
+    """The label of the factor that slices every contrast of a family, if one does."""
+    names = {c.by for c in contrasts}
+    if len(names) != 1 or None in names:
+        return None
+    factor = plan.factor_named(names.pop())
+    return factor.label or factor.name
+
+
+def _family_correlation(plan: Plan, members, fit, complete, occasion_residuals):
+    """The correlation matrix of a family's estimates, and a warning when the joint law
+    built on it is approximate (None when it is exact).
+
+    - Contrasts on the model's marginal means, simple effects within levels of another
+      between-unit factor included: Cov = L V L' from the coefficients' covariance V, one
+      variance estimate for all (exact).
+    - Between-unit contrasts at each level of the within factor (one fit per occasion,
+      same design): Cov_ij = (l_i G l_j) Sigma_ab with G = (X'X)^- and Sigma the
+      occasions' residual covariance; each occasion has its own error variance.
+    - Contrasts of the within factor on the units' scores: Cov_ij = w_i' C w_j / n with C
+      the scores' cross-products pooled within the treatment cells (of the units at one
+      level of `by` for a simple effect; different levels use different units, so their
+      covariance is 0); each contrast has its own variance estimate.
+    """
+    from appendix.stats.marginal import contrast_row
+
+    within = plan.within
+    factor, by = members[0][1], members[0][3]
+    m = len(members)
+    occasions = by is not None and within is not None and by.name == within.name
+    if within is None or factor.name != within.name:
+        rows = np.array([contrast_row(fit, f.name, h.weights,
+                                      None if level is None or occasions else {b.name: level})
+                         for _, f, h, b, level in members])
+        if occasions:
+            residuals = np.asarray(occasion_residuals)
+            sigma = residuals.T @ residuals
+            places = [within.levels.index(level) for *_, level in members]
+            design = rows @ (fit.covariance / fit.residual_ms if fit.residual_ms else fit.covariance) @ rows.T
+            covariance = design * sigma[np.ix_(places, places)]
+            why = StatWarning("joint-law-approximate",
+                              f"The comparisons at each level of {within.label or within.name} come "
+                              "from separate fits, each with its own error variance; their joint law "
+                              "is taken as the multivariate t with the correlations of the occasions' "
+                              "residuals, an approximation.")
+        else:
+            covariance, why = rows @ fit.covariance @ rows.T, None
+    else:
+        covariance = np.zeros((m, m))
+        slices = {level: _units_at(plan, complete, by, level) for *_, by, level in members}
+        for i, (_, _, hi, _, li) in enumerate(members):
+            for j, (_, _, hj, _, lj) in enumerate(members):
+                if li == lj:
+                    units = slices[li]
+                    covariance[i, j] = (np.asarray(hi.weights) @ _pooled_cross(units)
+                                        @ np.asarray(hj.weights)) / units.y.shape[0]
+        why = None if m < 2 else StatWarning(
+            "joint-law-approximate",
+            "Each within-unit comparison has its own variance estimate from the units' scores; "
+            "their joint law is taken as the multivariate t with the correlations of the pooled "
+            "scores" + (f" (independent between levels of {by.label or by.name}, which have "
+                        "different units)" if by is not None else "") + ", an approximation.")
+    scale = np.sqrt(np.clip(np.diag(covariance), 0.0, None))
+    with np.errstate(divide="ignore", invalid="ignore"):
+        corr = covariance / np.outer(scale, scale)
+    corr = np.where(np.isfinite(corr), corr, 0.0)
+    np.fill_diagonal(corr, 1.0)
+    return corr, why
+
+
+def _pooled_cross(units) -> np.ndarray:
+    """Cross-products of the units' values about their treatment cell's means."""
+    y = np.asarray(units.y, dtype=np.float64)
+    groups = np.zeros(y.shape[0], np.int64) if units.groups is None else np.asarray(units.groups)
+    centred = y.copy()
+    for g in np.unique(groups):
+        chosen = groups == g
+        centred[chosen] -= y[chosen].mean(axis=0)
+    return centred.T @ centred
 
 
 def _estimate(plan: Plan, contrast, factor, weights, by, level, fit, complete, confidence,
@@ -325,7 +427,7 @@ def _estimate(plan: Plan, contrast, factor, weights, by, level, fit, complete, c
       units at that level only.
     """
     from appendix.stats.marginal import marginal_contrast
-    from appendix.stats.repeated import CompleteUnits, within_contrast
+    from appendix.stats.repeated import within_contrast
 
     within = plan.within
     if within is None or factor.name != within.name:
@@ -335,42 +437,24 @@ def _estimate(plan: Plan, contrast, factor, weights, by, level, fit, complete, c
         at = None if level is None else {by.name: level}
         return marginal_contrast(fit, factor.name, weights, at=at, alternative=contrast.alternative,
                                  confidence=confidence)
-    if level is not None:  # the units whose treatment cell has this level of `by`
-        position = [f.name for f in plan.treatments].index(by.name)
-        sizes = [len(f.levels) for f in plan.treatments]
-        step = int(np.prod(sizes[position + 1:], dtype=np.int64))
-        chosen = (complete.groups // step) % sizes[position] == by.levels.index(level)
-        _, recoded = np.unique(complete.groups[chosen], return_inverse=True)
-        complete = CompleteUnits(y=complete.y[chosen], units=tuple(np.asarray(complete.units)[chosen]),
-                                 groups=recoded.astype(np.int64), dropped=())
-    return within_contrast(complete, weights, alternative=contrast.alternative, confidence=confidence)
+    return within_contrast(_units_at(plan, complete, by, level), weights,
+                           alternative=contrast.alternative, confidence=confidence)
 
 
-def _dunnett(plan: Plan, contrast, raw, fit, complete):
-    """Dunnett's many-to-one adjustment of a versus-control family on marginal means.
+def _units_at(plan: Plan, complete, by, level):
+    """The complete units whose treatment cell has `level` of `by` (all units when `level`
+    is None), their cells recoded from 0."""
+    from appendix.stats.repeated import CompleteUnits
 
-    Its correlations are rho_ij = lam_i lam_j, lam_i = sqrt(v_c / (v_c + v_i)) from the
-    variances v of the marginal means (within-level means for a within factor): exact
-    when the means are uncorrelated (balanced designs without covariates), an
-    approximation otherwise, which a warning says.
-    """
-    from appendix.stats.marginal import marginal_means
-    from appendix.stats.repeated import within_means
-
-    factor = plan.factor_of(contrast)
-    if plan.within is not None and factor.name == plan.within.name:
-        variances = [m.se**2 if m.se is not None else math.nan
-                     for m in within_means(complete, 0.95).means]
-    else:
-        variances = [m.se**2 if m.se is not None else math.nan
-                     for m in marginal_means(fit, (factor.name,), 0.95)]
-    tested = dunnett_results(raw, variances, plan.alpha)
-    note = StatWarning("dunnett-marginal-approximate",
-                       "Dunnett's correlations are taken from the variances of the marginal "
-                       "means, as if these were uncorrelated: exact in balanced designs without "
-                       "covariates, an approximation otherwise.")
-    return tuple(replace(h, warnings=(*h.warnings, note)) if h.p_adjusted is not None else h
-                 for h in tested)
+    if level is None:
+        return complete
+    position = [f.name for f in plan.treatments].index(by.name)
+    sizes = [len(f.levels) for f in plan.treatments]
+    step = int(np.prod(sizes[position + 1:], dtype=np.int64))
+    chosen = (complete.groups // step) % sizes[position] == by.levels.index(level)
+    _, recoded = np.unique(complete.groups[chosen], return_inverse=True)
+    return CompleteUnits(y=complete.y[chosen], units=tuple(np.asarray(complete.units)[chosen]),
+                         groups=recoded.astype(np.int64), dropped=())
 
 
 # --- repeated measures ------------------------------------------------------------------
@@ -422,7 +506,8 @@ def _repeated_outcome(plan, outcome, data, missing_by_cell, cell_labels) -> Mode
 
         slopes = _slopes_checks(plan, design_cells(grid, codes, unit_means, covariates), fit.between)
     residuals = unit_means - fitted_values(fit.between, grid.cell_codes(codes), covariates or None)
-    diagnostics = _diagnostics(plan, None, residuals, cell_labels)
+    diagnostics = _diagnostics(plan, None, residuals, cell_labels, fit.within_residuals)
+
     def occasion_fit(level: str):
         """The between-unit model fitted to one occasion's values."""
         from appendix.stats.design import design_cells
@@ -432,10 +517,17 @@ def _repeated_outcome(plan, outcome, data, missing_by_cell, cell_labels) -> Mode
         return fit_linear(design_cells(grid, codes, y, covariates or None), plan.model_terms,
                           plan.design.sums_of_squares or 2, plan.alpha)
 
+    cell_codes = grid.cell_codes(codes)
+    occasion_residuals = np.column_stack([
+        complete.y[:, j] - fitted_values(occasion_fit(level), cell_codes, covariates or None)
+        for j, level in enumerate(within.levels)])
     families, exploratory = _contrast_families(plan, outcome, fit=fit.between, complete=complete,
-                                               occasion_fit=occasion_fit)
-    conclusions = tuple(conclude.term_conclusion(plan, outcome, row, between.ss_type, between.residual_df)
-                        for row in between.rows if _concluded(plan, row.term))
+                                               occasion_fit=occasion_fit,
+                                               occasion_residuals=occasion_residuals)
+    conclusions = tuple(conclude.with_caveat(
+        conclude.term_conclusion(plan, outcome, row, between.ss_type, between.residual_df),
+        conclude.slopes_caveat(slopes, plan.alpha))
+        for row in between.rows if _concluded(plan, row.term))
     conclusions += tuple(conclude.term_conclusion(plan, outcome, row, between.ss_type, error.df)
                          for row in within_table.rows if _concluded(plan, row.term))
     notes = tuple(fit.warnings)

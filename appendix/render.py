@@ -20,6 +20,7 @@ import base64
 import datetime as _dt
 import importlib.resources
 import logging
+import math
 import re
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
@@ -98,6 +99,7 @@ def _filters(options: RenderOptions) -> dict[str, Any]:
         "level_counts": _level_counts,
         "upper_first": _upper_first,
         "contrast_interval": _contrast_interval,
+        "error_bound": _error_bound,
         "multiplicity_name": lambda family: WORDS["multiplicity"].get(
             multiplicity_method(family), family["multiplicity"]),
     }
@@ -122,6 +124,17 @@ WORDS: Mapping[str, Mapping[str, str]] = MappingProxyType({
                                  "effect); <i>t</i> on the model's residual degrees of freedom. "
                                  "Contrasts of a within-unit factor are tested on the units' own "
                                  "contrast scores, which needs no sphericity.")}),
+    "joint_laws": MappingProxyType({  # keys of ContrastFamily.joint
+        "studentized-range": "the studentized range of the levels' means",
+        "many-to-one": "Dunnett's joint law of the comparisons with the shared control",
+        "multivariate-t": "the joint multivariate t distribution of the family's estimates",
+        "multivariate-t-approximate": "an approximate joint multivariate t distribution of the "
+                                      "family's estimates (see the notes below)"}),
+    "residuals": MappingProxyType({  # keys of NormalityTest.residuals
+        "model": "the model residuals",
+        "unit-means": "the residuals of the unit means, on which the between-units tests rely",
+        "within-units": "the within-units residuals (each value less its unit's mean and the "
+                        "fitted within-unit effects), on which the within-units tests rely"}),
     "scopes": MappingProxyType({
         "per-outcome": "across this outcome's hypotheses",
         "primary-family": "across the hypotheses of every primary outcome",
@@ -136,6 +149,8 @@ WORDS: Mapping[str, Mapping[str, str]] = MappingProxyType({
     "multiplicity": MappingProxyType({  # keys of appendix.methods.multiplicity_method
         "tukey": "Tukey\u2013Kramer single-step", "games-howell": "Games\u2013Howell single-step",
         "dunnett": "Dunnett's many-to-one single-step", "bonferroni": "Bonferroni",
+        "tukey-joint": "Tukey's all-pairs single-step on the joint t distribution",
+        "dunnett-joint": "Dunnett's many-to-one single-step on the joint t distribution",
         "sidak": "\u0160id\u00e1k", "holm": "Holm's step-down", "hochberg": "Hochberg's step-up",
         "benjamini-hochberg": "Benjamini\u2013Hochberg, controlling the false discovery rate "
                               "(not the family-wise error rate)",
@@ -162,6 +177,12 @@ def _contrast_interval(h: Mapping[str, Any], decimals: int) -> str:
     right = "\u221e" if high is None and h["alternative"] == "greater" else \
         numbers.fixed(high, decimals)
     return f"[{left}, {right}]"
+
+
+def _error_bound(value: float) -> str:
+    """The smallest power of ten at or above a positive error bound: 3.2e-5 -> ``.0001``."""
+    exponent = max(math.ceil(math.log10(value)), -12) if value > 0 else -12
+    return numbers.no_leading_zero(f"{10.0 ** exponent:.{max(-exponent, 0)}f}")
 
 
 def _upper_first(text: str) -> str:

@@ -140,13 +140,21 @@ class EffectSize:
 
 @dataclass(frozen=True)
 class NormalityTest:
-    """Shapiro & Wilk (1965) test on the model residuals (Royston 1995 algorithm)."""
+    """Shapiro & Wilk (1965) test on residuals (Royston 1995 algorithm).
+
+    `residuals` says which: ``model`` (the fitted model's: each value less its fitted
+    value), ``unit-means`` (the between-units model fitted to each unit's mean over the
+    within levels; the between-units tests rely on them) or ``within-units`` (each
+    observation less its unit's mean and the fitted within-unit effects; the tests of
+    the within factor and its interactions rely on them).
+    """
 
     method: str
     statistic: float | None
     p: float | None
     n: int
     warnings: Warnings = ()
+    residuals: str = "model"
 
 
 @dataclass(frozen=True)
@@ -198,10 +206,15 @@ class AssumptionStatus:
 
 @dataclass(frozen=True)
 class Diagnostics:
+    """Residual diagnostics of one outcome. `normality` checks the residuals the between-unit
+    tests rely on (the model's, or the unit means' in a repeated-measures design);
+    `within_normality` those of the within-units stratum (None without a within factor)."""
+
     normality: NormalityTest | None
     equal_variance: tuple[VarianceTest, ...]
     outliers: OutlierScreen | None
     assumptions: tuple[AssumptionStatus, ...]
+    within_normality: NormalityTest | None = None
 
 
 @dataclass(frozen=True)
@@ -265,6 +278,18 @@ class ContrastFamily:
     hypotheses) or ``exploratory`` (never adjusted with the registered family).
     `registered` is True for the family whose `method` the plan (or a registered
     fallback) selected; other families are shown for comparison.
+
+    `joint` names the joint law a single-step family (Tukey, Dunnett) is adjusted over,
+    always the family as a whole, every slice of a simple effect included:
+    ``studentized-range`` (all pairs of one factor's levels, Tukey-Kramer or
+    Games-Howell), ``many-to-one`` (Dunnett's law for comparisons with one shared
+    control), ``multivariate-t`` (the multivariate t with the estimates' correlation
+    matrix, exact for estimates from one variance estimate) or
+    ``multivariate-t-approximate`` (correlations from estimates with separate variance
+    estimates); None for other controls. `joint_error` bounds the numerical integration
+    error of its adjusted p-values (about 99%; None when they are exact to rounding).
+    `by` is the label of the factor whose levels slice every contrast of the family
+    (simple effects), else None.
     """
 
     outcome: str
@@ -275,6 +300,9 @@ class ContrastFamily:
     registered: bool
     hypotheses: tuple[HypothesisResult, ...]
     warnings: Warnings = ()
+    joint: str | None = None
+    joint_error: float | None = None
+    by: str | None = None
 
 
 @dataclass(frozen=True)

@@ -151,10 +151,20 @@ def analyse_outcome(plan: Plan, outcome: Outcome, data: OutcomeData,
 
 def _with_hypothesis_conclusions(plan: Plan, result: OutcomeResult) -> OutcomeResult:
     outcome = next(o for o in plan.outcomes if o.name == result.name)
+    caveat = conclude.slopes_caveat(getattr(result, "slopes", ()), plan.alpha)
     sentences = tuple(
-        conclude.hypothesis_conclusion(plan, outcome, h, family.multiplicity)
+        conclude.with_caveat(conclude.hypothesis_conclusion(plan, outcome, h, family.multiplicity),
+                             caveat if _between_units(plan, h) else "")
         for family in result.contrasts if family.registered for h in family.hypotheses)
     return dataclasses.replace(result, hypothesis_conclusions=sentences)
+
+
+def _between_units(plan: Plan, h) -> bool:
+    """Whether hypothesis `h` compares covariate-adjusted between-unit means (not a within
+    factor's levels, whose contrasts are taken on the units' own scores)."""
+    contrast = next((c for c in plan.contrasts if c.id == h.contrast), None)
+    return not (plan.within is not None and contrast is not None
+                and plan.factor_of(contrast).name == plan.within.name)
 
 
 def _exploratory(plan: Plan, found: list[dict[str, ContrastFamily]]) -> tuple[ExploratoryAnalysis, ...]:

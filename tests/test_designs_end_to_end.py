@@ -314,9 +314,10 @@ def test_every_contrast_kind_and_multiplicity_method_on_marginal_means(tmp_path,
     """Each kind of contrast on coating's marginal means under each multiplicity method: the
     raw p is the t test of statsmodels' own linear combination of its fitted coefficients
     (`t_test` with an L row built from the marginal means), and the adjustment is the
-    registered one (statsmodels' multipletests; the studentized range for Tukey)."""
-    from scipy import stats
+    registered one (statsmodels' multipletests; for Tukey the joint t of the pairs)."""
     from statsmodels.stats.multitest import multipletests
+
+    from tests.reference.joint_reference import rank2_tail
 
     frame = _factorial(tmp_path, ss=3, covariate=False, interaction=True)
     extra = {"custom": ", weights: {thin: 1, thick: 1, none: -2}", "trend": "", "helmert": "",
@@ -344,18 +345,23 @@ def test_every_contrast_kind_and_multiplicity_method_on_marginal_means(tmp_path,
     assert list(both.columns) == names
     rows = both.iloc[len(data):].reset_index(drop=True)
     means = rows.groupby(grid["coating"].to_numpy(), sort=False).mean().loc[["none", "thin", "thick"]]
-    raw = []
+    raw, rows = [], []
     for h in family.hypotheses:
         l = np.asarray(h.weights) @ means.to_numpy()
         test = fit.t_test(l.reshape(1, -1))
         assert h.estimate == pytest.approx(float(np.squeeze(test.effect)), rel=1e-9, abs=1e-12)
         assert h.p == pytest.approx(float(np.squeeze(test.pvalue)), rel=1e-7)
         raw.append(h.p)
+        rows.append(l)
     adjusted = [h.p_adjusted for h in family.hypotheses]
     if method == "tukey":
-        expected = [stats.studentized_range.sf(abs(h.statistic) * np.sqrt(2), 3, h.df)
-                    for h in family.hypotheses]
-        np.testing.assert_allclose(adjusted, expected, rtol=1e-6, atol=1e-12)
+        # The single-step law of these unbalanced marginal means: the joint t of the three
+        # pairs with statsmodels' covariance of the estimates (cov_params), integrated by
+        # the independent quadrature of tests/reference/joint_reference.py.
+        covariance = np.array(rows) @ fit.cov_params().to_numpy() @ np.array(rows).T
+        expected = [rank2_tail(covariance, h.df, abs(h.statistic)) for h in family.hypotheses]
+        assert family.joint == "multivariate-t" and 0 < family.joint_error < 1e-4
+        np.testing.assert_allclose(adjusted, expected, rtol=0, atol=family.joint_error + 1e-8)
     elif method == "fixed-sequence":  # p_adj(i) = max(p_1..p_i) until the first retained
         running, stopped = 0.0, False
         for h in family.hypotheses:
@@ -446,3 +452,50 @@ multiplicity: {method: none}
         assert h.estimate == pytest.approx(scores.s.mean(), rel=1e-9)
         assert h.se == pytest.approx(se, rel=1e-9)
         assert h.p == pytest.approx(2 * stats.t.sf(abs(scores.s.mean() / se), pooled.df_resid), rel=1e-7)
+
+
+def test_unequal_covariate_slopes_put_a_caveat_on_every_adjusted_conclusion(tmp_path):
+    """When the registered homogeneity-of-slopes test rejects, each conclusion on adjusted
+    means (model terms and contrasts) carries the caveat with that test's numbers; the F
+    is statsmodels' comparison of the models with and without covariate x cells (anova_lm)."""
+    import statsmodels.formula.api as smf
+    from statsmodels.stats.anova import anova_lm
+
+    rng = np.random.default_rng(4)
+    rows = []
+    for c, coating in enumerate(["none", "thin", "thick"]):
+        for u in range(14):
+            base = float(np.round(rng.normal(10, 2), 1))
+            y = 20 + 2 * c + (0.2 + 1.2 * c) * (base - 10) + rng.normal(0, 1.0)
+            rows.append((f"{coating}{u}", coating, f"{base:.1f}", f"{y:.2f}"))
+    frame = pd.DataFrame(rows, columns=["unit_id", "coating", "baseline", "mass"])
+    frame.to_csv(tmp_path / "units.csv", index=False)
+    (tmp_path / "study.yaml").write_text("""\
+format: 1
+study: {id: invented-slopes, title: Invented data with unequal slopes for tests}
+data: {source: units.csv, unit: unit_id}
+design:
+  factors:
+    - {name: coating, levels: [none, thin, thick], control: none}
+  covariates: [{name: baseline, label: baseline height, unit: cm}]
+  sums_of_squares: 2
+outcomes:
+  - {name: mass, label: dry mass, unit: g, role: primary}
+contrasts:
+  - {id: C1, factor: coating, kind: versus-control, label: Each coating against none}
+multiplicity: {method: holm}
+""")
+    (model,) = compute(tmp_path / "study.yaml").results.models
+    (check,) = model.slopes
+    data = frame.astype({"baseline": float, "mass": float})
+    reduced = smf.ols("mass ~ baseline + C(coating)", data=data).fit()
+    full = smf.ols("mass ~ baseline * C(coating)", data=data).fit()
+    reference = anova_lm(reduced, full)
+    assert check.f == pytest.approx(reference["F"].iloc[1], rel=1e-9)
+    assert check.p < 0.05
+    text = f"F(2, {int(full.df_resid)}) = {check.f:.2f}"
+    sentences = [c.sentence for c in (*model.conclusions, *model.hypothesis_conclusions)]
+    assert len(sentences) == 3
+    for sentence in sentences:
+        assert "Caution: the slopes of the outcome on the covariate differ" in sentence
+        assert f"baseline height: {text}" in sentence

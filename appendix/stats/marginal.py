@@ -145,7 +145,7 @@ def _mean_result(fit: ModelFit, factors: Term, levels: tuple[str, ...], l: np.nd
     return MarginalMean(factors, levels, estimate, se, df, low, high, confidence)
 
 
-def _contrast_row(fit: ModelFit, factor: str, weights: Sequence[float],
+def contrast_row(fit: ModelFit, factor: str, weights: Sequence[float],
                   at: Mapping[str, str] | None) -> np.ndarray:
     """l of sum_i w_i (marginal mean of level i of `factor`, at the levels `at`)."""
     index = _factor_index(fit, factor)
@@ -173,7 +173,7 @@ def marginal_contrast(fit: ModelFit, factor: str, weights: Sequence[float], *,
     confidence = check_confidence(confidence)
     if alternative not in ALTERNATIVES:
         raise ValueError(f"alternative must be one of {ALTERNATIVES}, got {alternative!r}")
-    l = _contrast_row(fit, factor, weights, at)
+    l = contrast_row(fit, factor, weights, at)
     weights = tuple(float(w) for w in weights)
     at_pairs = tuple((name, str(level)) for name, level in (at or {}).items())
     df = fit.residual_df
@@ -205,7 +205,7 @@ def contrast_covariance(fit: ModelFit, factor: str, weight_rows: Sequence[Sequen
     Rows and columns of a contrast that is not estimable, and the whole matrix when the
     model has no residual variance, are NaN.
     """
-    rows = np.array([_contrast_row(fit, factor, w, at) for w in weight_rows])
+    rows = np.array([contrast_row(fit, factor, w, at) for w in weight_rows])
     if not fit.residual_ms:  # None or 0: no residual variance
         return np.full((len(rows), len(rows)), math.nan)
     covariance = rows @ fit.covariance @ rows.T

@@ -1,5 +1,6 @@
 """Single-step simultaneous tests: Tukey-Kramer / Games-Howell (all pairs) and Dunnett
-(many to one), with simultaneous confidence intervals.
+(many to one) for one factor's levels, and any family from the joint multivariate t of
+its estimates (`joint_results`), with simultaneous confidence intervals.
 
 Both take the raw per-hypothesis results of `contrasts` (estimate, SE, df, statistic) and
 replace p_adjusted, the interval and the decision. Adjusted p-values are never below the
@@ -22,6 +23,7 @@ from scipy import stats as _st
 from appendix.errors import InternalError
 from appendix.results import HypothesisResult, StatWarning
 from appendix.stats.contrasts import interval
+from appendix.stats.joint_t import max_t_law
 
 _SQRT2 = math.sqrt(2.0)
 
@@ -207,3 +209,45 @@ def dunnett_results(raw: Sequence[HypothesisResult], var_mean: Sequence[float],
 @lru_cache(maxsize=64)
 def _dunnett_critical(alpha: float, lam: tuple[float, ...], df: float, two_sided: bool) -> float:
     return many_to_one_critical(alpha, lam, df, two_sided)
+
+
+# --- any family: the joint multivariate t ------------------------------------------------
+
+def joint_results(raw: Sequence[HypothesisResult], corr: np.ndarray, alpha: float,
+                  approximate: StatWarning | None = None
+                  ) -> tuple[tuple[HypothesisResult, ...], float | None]:
+    """Single-step adjustment over the whole family from the joint law of its statistics.
+
+    `corr` is the correlation matrix of the raw estimates (aligned with `raw`). Each
+    tested hypothesis gets p_adj = P(max_j |T_j| >= |t|) (one-sided members in their
+    own direction) and the simultaneous interval estimate -/+ c SE with c the family's
+    critical value, both from the multivariate t on the hypothesis's df (Hothorn, Bretz &
+    Westfall 2008; computed as in `appendix.stats.joint_t`). Members that could not be
+    estimated are left out of the law. When the members' df differ (separate variance
+    estimates) each uses the law on its own df, an approximation stated by `approximate`
+    like any other departure from a common variance estimate.
+
+    Returns the results and the largest error bound of the integration (None when
+    nothing was tested).
+    """
+    ready = [i for i, r in enumerate(raw) if r.p is not None and r.se is not None]
+    if not ready:
+        return tuple(raw), None
+    sub = np.asarray(corr, dtype=np.float64)[np.ix_(ready, ready)]
+    alternatives = [raw[i].alternative for i in ready]
+    laws: dict[float, object] = {}
+    out = list(raw)
+    worst = 0.0
+    extra = () if approximate is None else (approximate,)
+    for i in ready:
+        r = raw[i]
+        df = math.inf if r.df is None else float(r.df)
+        if df not in laws:
+            law = max_t_law(sub, df, alternatives)
+            laws[df] = (law, law.critical(alpha))
+        law, c = laws[df]
+        stat = abs(r.statistic) if r.alternative == "two-sided" else _directed(r)
+        p_adj, error = law.tail(stat)
+        worst = max(worst, error)
+        out[i] = _finish(r, p_adj, c, alpha, extra)
+    return tuple(out), worst

@@ -50,13 +50,16 @@ class SplitPlotFit:
     """Both strata: `between` fitted to the unit means (sums of squares on the unit-mean
     scale; multiply by `levels` for the observation scale), `within_rows` the within
     factor, its listed interactions and the within-units error, `sphericity` of the
-    within stratum."""
+    within stratum. `within_residuals` (units, m) are the residuals of the within-units
+    error: each observation's deviation from its unit's mean less the fitted within-unit
+    effects (the scores' residuals turned back by the orthonormal contrasts)."""
 
     between: ModelFit
     within_rows: tuple[RepeatedRow, ...]
     sphericity: Sphericity
     levels: int
     n_units: int
+    within_residuals: np.ndarray
     warnings: tuple[StatWarning, ...] = ()
 
 
@@ -92,7 +95,8 @@ def split_plot(grid: Grid, codes: Sequence[np.ndarray], y: np.ndarray,
                                 noise, spher, confidence))
     rows.append(error_row((within, "units"), "Error within units", ss_error, d * df_res, confidence))
     return SplitPlotFit(between=between, within_rows=tuple(rows), sphericity=spher, levels=m,
-                        n_units=n, warnings=tuple(between.warnings))
+                        n_units=n, within_residuals=residuals @ basis.T,
+                        warnings=tuple(between.warnings))
 
 
 def _main_ss(fits: Sequence[ModelFit]) -> float:

@@ -106,8 +106,9 @@ def test_simultaneous_intervals_are_stated(plain_results, figures):
     note = next(n for n in _notes(parse(render_html(changed, figures, RenderOptions())))
                 if "Welch\u2013Satterthwaite" in n)
     assert "Adjusted p: Games\u2013Howell single-step, across this outcome's hypotheses" in note
-    assert ("95% confidence intervals hold simultaneously for the family, approximately "
-            "(Games\u2013Howell).") in note
+    n = len(family["hypotheses"])
+    assert (f"95% confidence intervals hold simultaneously for all {n} hypotheses of the family, "
+            "approximately (Games\u2013Howell).") in note
     assert "not simultaneous" not in note
 
 
