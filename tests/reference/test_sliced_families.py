@@ -120,7 +120,7 @@ def test_tukey_by_adjusts_all_pairs_at_every_dose_together(tmp_path):
         assert (h.ci_high - h.estimate) / h.se == pytest.approx(c, abs=2e-3)
         assert h.ci_simultaneous and (h.decision == "reject") == (h.p_adjusted < 0.05)
     html = render(computed).html
-    assert "single-step over the whole family of 9 hypotheses (the comparisons at every level of " \
+    assert "over the whole family of 9 hypotheses (the comparisons at every level of " \
            "Dose together)" in html
     assert "hold simultaneously for all 9 hypotheses of the family" in html
 
