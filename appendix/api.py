@@ -23,7 +23,7 @@ from appendix.deviations import registration_summary
 from appendix.deviations import unacknowledged as _unacknowledged
 from appendix.errors import UserError
 from appendix.plan.load import LoadedPlan, load_plan
-from appendix.plan.lock import Lock, LockOutcome, lock_plan, read_lock
+from appendix.plan.lock import Lock, LockOutcome, lock_path, lock_plan, read_lock
 from appendix.results import Deviation, StudyResults, to_json, to_plain
 from appendix.runner import analyse as _analyse
 from appendix.versions import software_versions
@@ -134,22 +134,32 @@ def run(study: str | Path, out_dir: str | Path | None = None, *,
         out_root: str | Path = "out", options=None,
         pdf: bool = True, clock: Callable[[], _dt.datetime] | None = None,
         progress: Callable[[str], None] | None = None,
-        out_of_core: bool | None = None) -> RunRecord:
+        out_of_core: bool | None = None,
+        notice: Callable[[str], None] | None = None) -> RunRecord:
     """Compute and render a study into its run folder (`out_dir`, by default
-    ``<out_root>/<study id>/``), replacing the folder only once everything is written."""
+    ``<out_root>/<study id>/``), replacing the folder only once everything is written.
+    `notice` hears what was put right of an earlier run that was killed (default: `progress`)."""
     from appendix import publish, render as html
+
+    from appendix.targets import check_run_target
 
     say = progress or (lambda _message: None)
     say("reading plan and data")
-    computed = compute(study, out_of_core=out_of_core)
+    loaded = load_plan(Path(study))
+    folder = Path(out_dir) if out_dir is not None else Path(out_root) / loaded.plan.study.id
+    inputs = (loaded.path, loaded.data_path, lock_path(loaded.path))
+    for note in publish.recover(folder):  # what a killed run left, put right first
+        say(note) if notice is None else notice(note)
+    check_run_target(folder, inputs)  # before any work: a refused folder costs nothing
+    dataset = load_data(loaded, out_of_core=out_of_core)
+    computed = Computed(loaded, dataset, analyse(loaded, dataset))
     say("computing figures and HTML")
     options = options or html.RenderOptions()
     rendered = render(computed, options)
-    folder = Path(out_dir) if out_dir is not None else Path(out_root) / computed.results.study.id
     now = publish.run_time(clock)  # SOURCE_DATE_EPOCH when set, else the clock
     from appendix.records import RECORDS_FILE, records_text
 
-    with publish.staged_folder(folder) as staging:
+    with publish.staged_folder(folder, inputs) as staging:
         written = publish.write_run(
             staging, results=computed.results, results_json=rendered.results_json,
             html=rendered.html, figures=rendered.figures, options=options,

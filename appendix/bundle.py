@@ -36,6 +36,7 @@ from typing import Any, TextIO
 
 from appendix.errors import UserError
 from appendix.publish import PDF_NAME, manifest_text, pdf_evidence, sha256_file
+from appendix.targets import check_file_target, is_package
 from appendix.versions import installed_distributions
 
 SUMS = "SHA256SUMS"
@@ -212,7 +213,6 @@ def _write_zip(target: Path, entries: Mapping[str, Content], digests: Mapping[st
                when) -> None:
     """Entries in the given order, one date, fixed permissions, zlib's default level:
     the same bytes every time. Files are copied in as streams."""
-    target.parent.mkdir(parents=True, exist_ok=True)
     handle, temporary = tempfile.mkstemp(prefix=f".{target.name}.", dir=target.parent)
     os.close(handle)
     try:
@@ -262,6 +262,8 @@ def pack(run: Path, out: Path | None = None) -> Path:
     entries = {NOTE: body[NOTE], SUMS: _sums(digests).encode("ascii")}
     entries.update((name, body[name]) for name in sorted(body) if name != NOTE)
     target = Path(out) if out is not None else default_package_path(run)
+    inputs = [run, *(content for content in body.values() if isinstance(content, Path))]
+    check_file_target(target, inputs, "package", is_package, "--out")
     _write_zip(target, entries, digests, _zip_time(manifest.get("run_time")))
     return target
 

@@ -29,6 +29,7 @@ from typing import Any, TextIO
 
 from appendix.errors import UserError
 from appendix.records import Records, RowRecord, read_records
+from appendix.targets import check_file_target, is_diff_page, write_atomically
 
 DIFF_FORMAT = 1
 
@@ -681,6 +682,8 @@ def diff_command(run_a: Path, run_b: Path, *, as_json: bool, html_out: Path | No
                  tolerance: Tolerance = Tolerance()) -> int:
     """`appendix diff`: print the report (or JSON) to `out`, write the HTML page when
     `html_out` is given; 1 when any conclusion changed, else 0."""
+    if html_out is not None:  # refused before any work, and before anything is printed
+        check_file_target(html_out, (run_a, run_b), "diff page", is_diff_page, "--html")
     diff = compare_runs(Path(run_a), Path(run_b), tolerance)
     if as_json:
         out.write(to_json(diff))
@@ -688,7 +691,7 @@ def diff_command(run_a: Path, run_b: Path, *, as_json: bool, html_out: Path | No
         for line in report_lines(diff):
             print(line, file=out)
     if html_out is not None:
-        Path(html_out).write_bytes(render_page(diff).encode("utf-8"))
+        write_atomically(Path(html_out), render_page(diff).encode("utf-8"))
         if not as_json:
             print(f"wrote {html_out}", file=out)
     return 1 if diff.conclusions_changed else 0

@@ -12,7 +12,7 @@ import json
 import os
 import shutil
 import tempfile
-from collections.abc import Callable, Iterator, Mapping
+from collections.abc import Callable, Iterable, Iterator, Mapping
 from contextlib import contextmanager
 from pathlib import Path
 from typing import Any
@@ -20,33 +20,89 @@ from typing import Any
 from appendix import __version__
 from appendix.errors import UserError
 from appendix.results import StudyResults, to_plain
+from appendix.targets import check_run_target
 from appendix.versions import installed_distributions
 
 MANIFEST_FORMAT = 1
 
 
 @contextmanager
-def staged_folder(target: Path) -> Iterator[Path]:
+def staged_folder(target: Path, inputs: Iterable[Path] = ()) -> Iterator[Path]:
     """Yield an empty staging folder that replaces `target` when the block completes.
 
-    If the block raises, the staging folder is removed and `target` is left as it was.
+    `target` must be a folder this run may replace (`appendix.targets.check_run_target`:
+    absent, empty or a run folder of ours, holding none of `inputs`), checked before the
+    block and again just before the swap. If the block raises, the staging folder is
+    removed and `target` is left as it was.
     """
     target = Path(target)
+    inputs = tuple(inputs)
+    check_run_target(target, inputs)
     target.parent.mkdir(parents=True, exist_ok=True)
-    staging = Path(tempfile.mkdtemp(prefix=f".{target.name}.staging-", dir=target.parent))
+    staging = Path(tempfile.mkdtemp(prefix=f".{target.name}.staging-{os.getpid()}-",
+                                    dir=target.parent))
     try:
         yield staging
+        check_run_target(target, inputs)
     except BaseException:
         shutil.rmtree(staging, ignore_errors=True)
         raise
     os.chmod(staging, 0o755)
     retired = None
     if target.exists():
-        retired = Path(tempfile.mkdtemp(prefix=f".{target.name}.old-", dir=target.parent))
+        retired = Path(tempfile.mkdtemp(prefix=f".{target.name}.old-{os.getpid()}-",
+                                        dir=target.parent))
         os.replace(target, retired / target.name)
     os.replace(staging, target)
     if retired is not None:
         shutil.rmtree(retired, ignore_errors=True)
+
+
+def _owner_alive(leftover: Path) -> bool:
+    """Whether the process that made a staging or retired folder (its pid is in the name)
+    still runs; a name without a pid counts as not running."""
+    parts = leftover.name.rsplit("-", 2)
+    if len(parts) != 3 or not parts[1].isdigit():
+        return False
+    pid = int(parts[1])
+    if pid == os.getpid():
+        return True
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    except PermissionError:  # another user's process: alive
+        return True
+    return True
+
+
+def recover(target: Path) -> list[str]:
+    """Put right what a killed run left beside `target`, and say what was done.
+
+    A run killed between the two renames of the swap leaves the previous run folder in
+    ``.<name>.old-<pid>-*/<name>`` and nothing at `target`: it is moved back. Staging and
+    retired folders of runs that no longer run are removed.
+    """
+    target = Path(target)
+    parent = target.parent
+    if not parent.is_dir():
+        return []
+    notes = []
+    for leftover in sorted(parent.glob(f".{target.name}.old-*")):
+        if not leftover.is_dir() or _owner_alive(leftover):
+            continue
+        kept = leftover / target.name
+        if not os.path.lexists(target) and kept.is_dir():
+            os.replace(kept, target)
+            notes.append(f"restored {target} from an earlier run that was stopped while it "
+                         "replaced the folder")
+        shutil.rmtree(leftover, ignore_errors=True)
+    for leftover in sorted(parent.glob(f".{target.name}.staging-*")):
+        if leftover.is_dir() and not _owner_alive(leftover):
+            shutil.rmtree(leftover, ignore_errors=True)
+            notes.append(f"removed {leftover.name}, the unfinished output of a run that was "
+                         "stopped")
+    return notes
 
 
 def sha256_file(path: Path) -> str:
