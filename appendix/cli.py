@@ -1,7 +1,8 @@
 """Command line: parse arguments, call one API function per command, map errors to exit codes.
 
 Exit codes: 0 done; 1 done, but something the user must see; 2 bad input or usage (a
-message, no traceback); 3 an internal error (a bug), with a log file naming versions.
+message, no traceback); 3 an internal error (a bug), with a log file naming versions; 130
+and 143 stopped by Ctrl-C (SIGINT) or SIGTERM, with nothing replaced and no staging left.
 """
 
 from __future__ import annotations
@@ -18,6 +19,16 @@ from appendix import __version__
 from appendix.errors import UserError
 
 EXIT_OK, EXIT_ATTENTION, EXIT_USAGE, EXIT_BUG = 0, 1, 2, 3
+#: The shell's convention for a process stopped by SIGINT (2) and SIGTERM (15): 128 + signal.
+EXIT_INTERRUPTED, EXIT_TERMINATED = 130, 143
+
+
+class Terminated(BaseException):
+    """SIGTERM, raised in the main thread so that every cleanup on the way out runs."""
+
+
+def _on_terminate(signum, frame):  # noqa: ARG001 - signal handler signature
+    raise Terminated()
 
 
 class _Parser(argparse.ArgumentParser):
@@ -94,7 +105,8 @@ def _run(args, cwd: Path, out: TextIO, err: TextIO, clock) -> int:
 
     record = api.run(args.study, cwd / args.out if args.out else None, out_root=cwd / "out",
                      options=RenderOptions(paper=args.paper), pdf=not args.no_pdf,
-                     clock=clock, progress=progress)
+                     clock=clock, progress=progress,
+                     notice=lambda note: print(f"note: {note}", file=err))
     print(f"wrote {record.folder}", file=out)
     for outcome in record.results.outcomes:
         print(f"  {outcome.name} ({outcome.role}): {outcome.conclusion.decision}", file=out)
@@ -164,6 +176,12 @@ def main(argv: Sequence[str] | None = None, *, stdout: TextIO | None = None,
         return _run(args, cwd, out, err, clock)
     except SystemExit as done:  # --help and --version print, then ask to exit
         return int(done.code or 0)
+    except KeyboardInterrupt:  # Ctrl-C: staging folders are already removed on the way out
+        print("stopped (interrupted); nothing was replaced", file=err)
+        return EXIT_INTERRUPTED
+    except Terminated:
+        print("stopped (terminated); nothing was replaced", file=err)
+        return EXIT_TERMINATED
     except BrokenPipeError:  # the reader of our output stopped early (e.g. `| head`)
         return EXIT_OK
     except UserError as error:
@@ -177,5 +195,8 @@ def main(argv: Sequence[str] | None = None, *, stdout: TextIO | None = None,
 
 
 def console() -> None:
-    """Entry point of the `appendix` console script."""
+    """Entry point of the `appendix` console script: SIGTERM stops cleanly, like Ctrl-C."""
+    import signal
+
+    signal.signal(signal.SIGTERM, _on_terminate)
     sys.exit(main())
