@@ -273,10 +273,16 @@ METHODS: Mapping[str, Method] = MappingProxyType({m.key: m for m in (
            "tested with Mauchly's (1940) test; within-unit tests are also given with the "
            "degrees of freedom multiplied by the Greenhouse\u2013Geisser (1959) and "
            "Huynh\u2013Feldt (1976, with Lecoutre's 1991 correction for groups) epsilons, and "
-           "the conclusions use the Greenhouse\u2013Geisser corrected test. Contrasts of the "
-           "within factor are tested on each unit's own contrast scores, which needs no "
-           "sphericity.",
-           ("mauchly1940", "greenhouse1959", "huynh1976", "lecoutre1991", "obrien1985")),
+           "the conclusions use the Greenhouse\u2013Geisser corrected test. The confidence "
+           "interval of a within-unit term's partial eta squared and partial omega squared "
+           "inverts the noncentral F distribution on those corrected (generally fractional) "
+           "degrees of freedom, the noncentrality limits \u03bb turned into "
+           "\u03bb / (\u03bb + df\u2081 + df\u2082 + 1) with the same degrees of freedom "
+           "(Steiger, 2004), so that it excludes zero exactly when the corrected test "
+           "rejects. Contrasts of the within factor are tested on each unit's own contrast "
+           "scores, which needs no sphericity.",
+           ("mauchly1940", "greenhouse1959", "huynh1976", "lecoutre1991", "obrien1985",
+            "steiger2004")),
     Method("welch", "Welch's heteroscedastic F test",
            "Welch's (1951) test compares the group means without assuming equal variances; "
            "groups are weighted by n/s\u00b2 and the denominator degrees of freedom are "

@@ -337,6 +337,10 @@ class ModelRow:
     inverting the noncentral F (Steiger 2004) at `confidence_level` = 1 - 2 alpha. `full_df` is the df the term would have with every
     cell filled (smaller `df`: some of its contrasts are not estimable). For within-unit
     terms `gg_*` and `hf_*` give the Greenhouse-Geisser and Huynh-Feldt corrected df and p.
+    `effect_ci_df` is the (df1, df2) on which the noncentral F was inverted for the CI:
+    those of the test in force, so the CI excludes zero exactly when that test rejects
+    (for a within-unit term the Greenhouse-Geisser corrected df, generally fractional;
+    otherwise the term's df and its error df); None when there is no CI.
     """
 
     term: tuple[str, ...]
@@ -357,6 +361,7 @@ class ModelRow:
     gg_p: float | None = None
     hf_df: tuple[float, float] | None = None
     hf_p: float | None = None
+    effect_ci_df: tuple[float, float] | None = None
     warnings: Warnings = ()
 
 

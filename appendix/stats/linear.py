@@ -87,7 +87,9 @@ class TermRow:
     """One row of the variance table: a factor, interaction or covariate term.
 
     `df` is the term's rank increment; `full_df` the df it would have with every cell
-    filled. Effect-size intervals are at `confidence_level` = 1 - 2 alpha.
+    filled. Effect-size intervals are at `confidence_level` = 1 - 2 alpha, from the
+    noncentral F on `effect_ci_df` (the term's df and the residual df; None without an
+    interval).
     """
 
     term: Term
@@ -105,6 +107,7 @@ class TermRow:
     confidence_level: float
     full_df: int
     warnings: tuple[StatWarning, ...] = ()
+    effect_ci_df: tuple[float, float] | None = None
 
 
 @dataclass(frozen=True, eq=False)
@@ -390,7 +393,7 @@ def _term_row(term: Term, kind: str, df: int, ss: float, full_df: int, residual:
     eta = ss / (ss + residual.ss)
     omega = (ss - df * residual.ms) / (ss + (residual.n - df) * residual.ms)
     interval = noncentrality_interval(f, df, residual.df, confidence)
-    ci = None
+    ci = on = None
     if interval is None:
         warnings.append(StatWarning(
             "effect-size-ci-unavailable",
@@ -398,8 +401,9 @@ def _term_row(term: Term, kind: str, df: int, ss: float, full_df: int, residual:
             "computed reliably; the interval is not reported."))
     else:
         ci = tuple(lam / (lam + df + residual.df + 1) for lam in interval)
+        on = (float(df), float(residual.df))
     return TermRow(term, label, kind, df, ss, ms, f, p, eta, ci, omega, ci, confidence,
-                   full_df, tuple(warnings))
+                   full_df, tuple(warnings), on)
 
 
 def _residual(problem: _Problem, full: _Space, n: int) -> tuple[_Residual, list[StatWarning]]:
