@@ -71,3 +71,21 @@ def test_the_effect_interval_is_on_the_corrected_df_and_the_appendix_says_so(tmp
     assert "inverts the noncentral F distribution on those corrected" in html
     assert json.loads(to_json(computed.results))["models"][0]["tables"][1]["rows"][0][
         "effect_ci_df"] == list(row.gg_df)
+
+
+def test_two_levels_are_not_called_corrected_and_the_note_says_why(tmp_path):
+    computed = _within_only(tmp_path, 1, levels=2)
+    (model,) = computed.results.models
+    row = _within_row(model)
+    assert (row.gg_df, row.gg_p, row.hf_df, row.hf_p) == (None, None, None, None)
+    assert row.effect_ci_df == (1.0, 11.0)
+    (sentence,) = [c.sentence for c in model.conclusions]
+    assert sentence.startswith("Visit (leaf index): F(1, 11) = ")
+    assert "corrected" not in sentence and "Greenhouse" not in sentence
+    html = " ".join(render(computed).html.split())
+    # no corrected column, note, claim or reference anywhere in the appendix
+    assert "Greenhouse" not in html and "Huynh" not in html and "Mauchly, J. W." not in html
+    assert ("With two levels of the within factor there is a single contrast between them, so "
+            "sphericity holds trivially and the within-unit tests need no correction") in html
+    assert "Visit has two levels, so there is a single contrast between them and sphericity holds trivially" in html
+    assert "The within factor has two levels, so there is a single contrast" in html

@@ -160,7 +160,8 @@ class RepeatedRow:
 
     `kind` is ``between`` (tested against the between-units error), ``within`` (tested
     against the within-units error; has Greenhouse-Geisser and Huynh-Feldt corrected df
-    and p) or ``error``. Partial eta and omega squared share one noncentral-F interval at
+    and p, except with two within levels, where sphericity holds by construction) or
+    ``error``. Partial eta and omega squared share one noncentral-F interval at
     `confidence_level` (1 - 2 alpha; Steiger 2004), computed on `effect_ci_df`: the df of
     the test in force, i.e. the Greenhouse-Geisser corrected df of a within term (when
     its epsilon exists), else the term's df and its error df; None without an interval.
@@ -267,9 +268,10 @@ def repeated_measures(data: CompleteUnits, within: str, within_levels: Sequence[
     F tests as in Winer, Brown & Michels (1991, *Statistical Principles in Experimental
     Design*, 3rd ed.): the between factor against units within groups, on
     (g - 1, N - g) df; the within factor and the interaction against the within-units
-    error, on (d, d(N - g)) and (d(g - 1), d(N - g)) df, d = levels - 1. Every within term
-    also gets df multiplied by the Greenhouse-Geisser and by the Huynh-Feldt (Lecoutre
-    1991) epsilon and the p on them (see `sphericity`). Without `between` any groups in
+    error, on (d, d(N - g)) and (d(g - 1), d(N - g)) df, d = levels - 1. With d > 1 every
+    within term also gets df multiplied by the Greenhouse-Geisser and by the Huynh-Feldt
+    (Lecoutre 1991) epsilon and the p on them (see `sphericity`); with d = 1 epsilon is 1
+    by construction and no correction is given. Without `between` any groups in
     `data` are ignored. Effect sizes: partial eta squared SS / (SS + SS_error) and
     partial omega squared df1 (F - 1) / (df1 (F - 1) + df1 + df2 + 1); their interval is
     the noncentral-F interval at 1 - 2 alpha (Steiger 2004) on the df of the test in
@@ -354,6 +356,10 @@ def effect_row(term: tuple[str, ...], label: str, kind: str, ss: float, df: int,
     """One tested term: F, p, corrected df and p (within terms), effect sizes. An error
     SS at or below `noise` counts as no variation (F undefined).
 
+    With two within levels (lower bound 1/d = 1) there is a single contrast, so
+    sphericity holds by construction and epsilon is 1: no corrected df or p are given
+    and the test in force is the uncorrected one.
+
     The effect-size interval inverts the noncentral F (Steiger 2004, Psychological
     Methods 9:164-182) on the df of the test in force: for a within term the
     Greenhouse-Geisser corrected (eps df1, eps df2), which need not be integers; for a
@@ -373,7 +379,7 @@ def effect_row(term: tuple[str, ...], label: str, kind: str, ss: float, df: int,
     f = ms / (ss_error / df_error)
     p = float(_st.f.sf(f, df, df_error))
     gg_df = gg_p = hf_df = hf_p = None
-    if spher is not None:
+    if spher is not None and spher.lower_bound < 1.0:
         gg_df, gg_p = _corrected(f, df, df_error, spher.greenhouse_geisser)
         hf_df, hf_p = _corrected(f, df, df_error, spher.huynh_feldt)
     eta = ss / (ss + ss_error)

@@ -265,11 +265,11 @@ def test_statsmodels_published_single_factor_value():
     assert (row.df, _error(fit, "within").df) == (1, 7)
     assert row.f == pytest.approx(22.4, abs=5e-6)
     assert row.p == pytest.approx(0.002125452, abs=5e-10)
-    # two levels: GG = HF = 1, the corrected p equals the uncorrected one, W undefined
+    # two levels: GG = HF = 1 by construction, W undefined, and no corrected test is given
     assert fit.sphericity.mauchly_w is None
+    assert (fit.sphericity.greenhouse_geisser, fit.sphericity.huynh_feldt) == (1.0, 1.0)
     assert [w.code for w in fit.sphericity.warnings] == ["sphericity-two-levels"]
-    _close(row.gg_p, row.p)
-    _close(row.hf_p, row.p)
+    assert row.gg_p is None and row.hf_p is None
 
 
 # --- invented random designs ------------------------------------------------------------

@@ -173,7 +173,8 @@ def test_two_levels_match_the_paired_t_test():
     within = fit.rows[1]
     assert within.f == pytest.approx(ref.statistic**2, rel=1e-12)
     assert within.p == pytest.approx(ref.pvalue, rel=1e-10)
-    assert within.gg_p == within.hf_p == within.p
+    # epsilon is 1 by construction: no corrected test is given beside the one in force
+    assert (within.gg_df, within.gg_p, within.hf_df, within.hf_p) == (None, None, None, None)
     s = fit.sphericity
     assert (s.mauchly_w, s.p, s.greenhouse_geisser, s.huynh_feldt, s.lower_bound) == (
         None, None, 1.0, 1.0, 1.0)
@@ -367,3 +368,17 @@ def test_the_row_records_the_df_its_interval_uses():
     between = fit.rows[0]
     assert between.kind == "between" and between.gg_df is None
     assert between.effect_ci_df == (1.0, float(fit.n_units - 2))
+
+
+def test_two_levels_give_no_correction_to_any_within_term():
+    # A mixed design with two within levels: the within factor and its interaction with
+    # the groups both rest on the single contrast, so neither has corrected df, and
+    # their effect-size intervals use the uncorrected df of the test in force.
+    y, groups = _invented(6, 4, 2, n_groups=3)
+    fit = repeated_measures(_units(y, groups), "t", ["pre", "post"], "g", ["a", "b", "c"])
+    within = [r for r in fit.rows if r.kind == "within"]
+    assert [r.term for r in within] == [("t",), ("t", "g")]
+    error_df = next(r for r in fit.rows if r.term == ("t", "units")).df
+    for row in within:
+        assert (row.gg_df, row.gg_p, row.hf_df, row.hf_p) == (None, None, None, None)
+        assert row.p is not None and row.effect_ci_df == (row.df, error_df)
