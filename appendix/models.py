@@ -395,7 +395,8 @@ def _repeated_outcome(plan, outcome, data, missing_by_cell, cell_labels) -> Mode
     if plan.between:
         grid = Grid(names=tuple(f.name for f in plan.between), levels=tuple(f.levels for f in plan.between))
         codes = [data.factors[index[f.name]][rows_of_units] for f in plan.between]
-    else:  # repeated measures alone: one between-unit cell
+    else:  # repeated measures alone: one between-unit cell, under an internal name that
+        # is in no model term, so nothing the fit reports (warnings, notes) mentions it
         grid, codes = Grid(names=("all",), levels=(tuple(cell_labels),)), [np.zeros(rows_of_units.size, np.int64)]
     covariates = {c.name: data.covariates[j][rows_of_units] for j, c in enumerate(plan.design.covariates)}
     interacting = _interacting(plan)

@@ -89,3 +89,29 @@ def test_two_levels_are_not_called_corrected_and_the_note_says_why(tmp_path):
             "sphericity holds trivially and the within-unit tests need no correction") in html
     assert "Visit has two levels, so there is a single contrast between them and sphericity holds trivially" in html
     assert "The within factor has two levels, so there is a single contrast" in html
+
+
+def _warning_messages(node):
+    """Every warning message anywhere in parsed results.json."""
+    if isinstance(node, dict):
+        for key, value in node.items():
+            if key == "warnings":
+                yield from (w["message"] for w in value)
+            else:
+                yield from _warning_messages(value)
+    elif isinstance(node, list):
+        for value in node:
+            yield from _warning_messages(value)
+
+
+def test_no_internal_name_reaches_the_warnings_of_a_design_without_a_treatment(tmp_path):
+    # Without a treatment factor the engine groups all units in one cell of its own
+    # making (named "all" in appendix/models.py); a reader must never meet that name.
+    computed = _within_only(tmp_path, 2)
+    results = json.loads(to_json(computed.results))
+    messages = list(_warning_messages(results))
+    assert all("'all'" not in m and "single level" not in m for m in messages), messages
+    quoted = {name for m in messages for name in re.findall(r"[Ff]actor '([^']+)'", m)}
+    assert quoted <= {"visit"}
+    html = render(computed).html
+    assert "'all'" not in html and "&#39;all&#39;" not in html and "single-level" not in html

@@ -456,11 +456,15 @@ def _sequences(ss_type: int, terms: tuple[Term, ...], spans: dict[Term, np.ndarr
             yield term, np.setdiff1d(everything, spans[term]), everything
 
 
-def _layout_warnings(cells: DesignCells) -> list[StatWarning]:
+def _layout_warnings(cells: DesignCells, terms: Sequence[Term]) -> list[StatWarning]:
+    """A factor of the model's terms with a single level. Grid factors outside every term
+    (such as the one-cell grouping of units without a treatment factor) have no effect the
+    model would test, so they are not reported and their names never reach the reader."""
     found = []
     grid = cells.grid
+    in_model = {name for term in terms for name in term}
     for name, levels in zip(grid.names, grid.levels):
-        if len(levels) < 2:
+        if len(levels) < 2 and name in in_model:
             found.append(StatWarning(
                 "single-level", f"Factor '{name}' has a single level, so it has no effect "
                                 "to test."))
@@ -516,7 +520,7 @@ def fit_linear(cells: DesignCells, terms: Sequence[Term], ss_type: int, alpha: f
     full = _space(problem, everything)
     n = cells.n_total
     residual, warnings = _residual(problem, full, n)
-    warnings = _layout_warnings(cells) + warnings
+    warnings = _layout_warnings(cells, terms) + warnings
     rows = []
     for term, reduced, bigger in _sequences(ss_type, terms, columns.spans):
         df, ss = _extra_ss(problem, reduced, bigger)
