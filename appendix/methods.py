@@ -218,6 +218,19 @@ REFERENCES: Mapping[str, Reference] = MappingProxyType({r.key: r for r in (
              "Psychology", "57", "1", "173\u2013181", "10.1348/000711004849222"),
 )})
 
+_REPEATED_DESIGN = (
+    "With a within-unit factor, the univariate repeated-measures (split-plot) analysis uses "
+    "complete units only, as registered. Between units, the registered model is fitted to "
+    "each unit's mean over the occasions (its sums of squares on the scale of single "
+    "observations). Within units, each unit's observations are turned into orthonormal "
+    "contrasts of the occasions; the within factor, and its listed interactions with "
+    "between-unit terms, are tested against the residual within units, summed over those "
+    "contrasts (the univariate tests of the multivariate linear model; O'Brien & Kaiser, "
+    "1985); between-unit terms not listed with the within factor, blocks among them, are "
+    "pooled into that residual.")
+_REPEATED_CONTRASTS = ("Contrasts of the within factor are tested on each unit's own contrast "
+                       "scores, which needs no sphericity.")
+
 METHODS: Mapping[str, Method] = MappingProxyType({m.key: m for m in (
     Method("descriptives", "Descriptive statistics",
            "Per group: the number of units analysed and missing, the mean with its standard "
@@ -267,22 +280,25 @@ METHODS: Mapping[str, Method] = MappingProxyType({m.key: m for m in (
            "assume a common slope.",
            ()),
     Method("repeated", "Repeated-measures analysis of variance",
-           "With a within-unit factor, the univariate repeated-measures (split-plot) analysis "
-           "uses complete units only, as registered. Between units, the registered model is "
-           "fitted to each unit's mean over the occasions (its sums of squares on the scale "
-           "of single observations). Within units, each unit's observations are turned into "
-           "orthonormal contrasts of the occasions; the within factor, and its listed "
-           "interactions with between-unit terms, are tested against the residual within "
-           "units, summed over those contrasts (the univariate tests of the multivariate "
-           "linear model; O'Brien & Kaiser, 1985); between-unit terms not listed with the "
-           "within factor, blocks among them, are pooled into that residual. Sphericity is "
-           "tested with Mauchly's (1940) test; within-unit tests are also given with the "
-           "degrees of freedom multiplied by the Greenhouse\u2013Geisser (1959) and "
-           "Huynh\u2013Feldt (1976, with Lecoutre's 1991 correction for groups) epsilons, and "
-           "the conclusions use the Greenhouse\u2013Geisser corrected test. Contrasts of the "
-           "within factor are tested on each unit's own contrast scores, which needs no "
-           "sphericity.",
-           ("mauchly1940", "greenhouse1959", "huynh1976", "lecoutre1991", "obrien1985")),
+           _REPEATED_DESIGN + " Sphericity is tested with Mauchly's (1940) test; within-unit "
+           "tests are also given with the degrees of freedom multiplied by the "
+           "Greenhouse\u2013Geisser (1959) and Huynh\u2013Feldt (1976, with Lecoutre's 1991 "
+           "correction for groups) epsilons, and the conclusions use the "
+           "Greenhouse\u2013Geisser corrected test. The confidence interval of a within-unit "
+           "term's partial eta squared and partial omega squared inverts the noncentral F "
+           "distribution on those corrected (generally fractional) degrees of freedom, the "
+           "noncentrality limits \u03bb turned into \u03bb / (\u03bb + df\u2081 + df\u2082 + 1) "
+           "with the same degrees of freedom (Steiger, 2004), so that it excludes zero exactly "
+           "when the corrected test rejects. " + _REPEATED_CONTRASTS,
+           ("mauchly1940", "greenhouse1959", "huynh1976", "lecoutre1991", "obrien1985",
+            "steiger2004")),
+    Method("repeated-two-levels", "Repeated-measures analysis of variance",
+           _REPEATED_DESIGN + " The within factor has two levels, so there is a single "
+           "contrast between them and sphericity holds trivially: no test of sphericity and "
+           "no correction of the degrees of freedom is needed, and the within-unit tests and "
+           "the noncentral-F intervals of their effect sizes (Steiger, 2004) use the "
+           "uncorrected degrees of freedom. " + _REPEATED_CONTRASTS,
+           ("obrien1985", "steiger2004")),
     Method("welch", "Welch's heteroscedastic F test",
            "Welch's (1951) test compares the group means without assuming equal variances; "
            "groups are weighted by n/s\u00b2 and the denominator degrees of freedom are "
@@ -547,7 +563,10 @@ def _model_methods(results: Mapping[str, Any]) -> tuple[Method, ...]:
     chosen += ["linear-model"] if _ran(models, lambda m: m["marginal_means"] or not m["sphericity"]) else []
     chosen += ["marginal-means"] if _ran(models, lambda m: m["marginal_means"]) else []
     chosen += ["slopes"] if _ran(models, lambda m: m["slopes"]) else []
-    chosen += ["repeated"] if _ran(models, lambda m: m["sphericity"]) else []
+    if _ran(models, lambda m: m["sphericity"]):
+        # one within factor per plan: a lower bound 1/d of 1 means two levels, no correction
+        two_levels = all(m["sphericity"]["lower_bound"] >= 1 for m in models if m["sphericity"])
+        chosen.append("repeated-two-levels" if two_levels else "repeated")
     if _ran(models, lambda m: m["diagnostics"]["normality"]):
         strata = _ran(models, lambda m: m["diagnostics"].get("within_normality"))
         chosen += ["shapiro-strata" if strata else "shapiro-model"]

@@ -151,7 +151,7 @@ def _model_table(plan: Plan, fit, scale: float = 1.0, stratum: str = "units") ->
                           partial_eta_squared=r.partial_eta_squared, partial_eta_ci=r.partial_eta_ci,
                           partial_omega_squared=r.partial_omega_squared,
                           partial_omega_ci=r.partial_omega_ci, confidence_level=r.confidence_level,
-                          full_df=r.full_df, warnings=tuple(r.warnings))
+                          full_df=r.full_df, effect_ci_df=r.effect_ci_df, warnings=tuple(r.warnings))
                  for r in fit.terms)
     return ModelTable(ss_type=fit.ss_type, rows=rows, residual_df=fit.residual_df,
                       residual_ss=times(fit.residual_ss), residual_ms=times(fit.residual_ms),
@@ -479,7 +479,8 @@ def _repeated_outcome(plan, outcome, data, missing_by_cell, cell_labels) -> Mode
     if plan.between:
         grid = Grid(names=tuple(f.name for f in plan.between), levels=tuple(f.levels for f in plan.between))
         codes = [data.factors[index[f.name]][rows_of_units] for f in plan.between]
-    else:  # repeated measures alone: one between-unit cell
+    else:  # repeated measures alone: one between-unit cell, under an internal name that
+        # is in no model term, so nothing the fit reports (warnings, notes) mentions it
         grid, codes = Grid(names=("all",), levels=(tuple(cell_labels),)), [np.zeros(rows_of_units.size, np.int64)]
     covariates = {c.name: data.covariates[j][rows_of_units] for j, c in enumerate(plan.design.covariates)}
     interacting = _interacting(plan)
@@ -592,4 +593,4 @@ def _repeated_row(plan: Plan, row) -> ModelRow:
                     partial_eta_ci=row.partial_eta_ci, partial_omega_squared=row.partial_omega_squared,
                     partial_omega_ci=row.partial_omega_ci, confidence_level=row.confidence_level,
                     gg_df=row.gg_df, gg_p=row.gg_p, hf_df=row.hf_df, hf_p=row.hf_p,
-                    warnings=tuple(row.warnings))
+                    effect_ci_df=row.effect_ci_df, warnings=tuple(row.warnings))

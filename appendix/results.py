@@ -364,7 +364,12 @@ class ModelRow:
     within-unit terms df1 (F - 1) / (df1 (F - 1) + df1 + df2 + 1). Both share one CI, by
     inverting the noncentral F (Steiger 2004) at `confidence_level` = 1 - 2 alpha. `full_df` is the df the term would have with every
     cell filled (smaller `df`: some of its contrasts are not estimable). For within-unit
-    terms `gg_*` and `hf_*` give the Greenhouse-Geisser and Huynh-Feldt corrected df and p.
+    terms `gg_*` and `hf_*` give the Greenhouse-Geisser and Huynh-Feldt corrected df and p
+    (None with two within levels: a single contrast, sphericity holds by construction).
+    `effect_ci_df` is the (df1, df2) on which the noncentral F was inverted for the CI:
+    those of the test in force, so the CI excludes zero exactly when that test rejects
+    (for a within-unit term the Greenhouse-Geisser corrected df, generally fractional;
+    otherwise the term's df and its error df); None when there is no CI.
     """
 
     term: tuple[str, ...]
@@ -385,6 +390,7 @@ class ModelRow:
     gg_p: float | None = None
     hf_df: tuple[float, float] | None = None
     hf_p: float | None = None
+    effect_ci_df: tuple[float, float] | None = None
     warnings: Warnings = ()
 
 

@@ -18,7 +18,7 @@ from appendix.stats.descriptives import check_confidence
 _MAX_LAMBDA = 1e10
 
 
-def _tail_above(f: float, df1: int, df2: int, lam: float) -> float:
+def _tail_above(f: float, df1: float, df2: float, lam: float) -> float:
     """P(F' > f) under noncentrality `lam` (the central F survival function at lam = 0)."""
     if lam == 0.0:
         return float(_st.f.sf(f, df1, df2))
@@ -29,7 +29,7 @@ class _OutOfRange(Exception):
     """The noncentrality bound lies beyond what can be computed reliably."""
 
 
-def _solve(f: float, df1: int, df2: int, target: float) -> float:
+def _solve(f: float, df1: float, df2: float, target: float) -> float:
     """The lambda >= 0 at which P(F' > f | lambda) = target; 0 if already above at 0.
 
     Raises _OutOfRange when the root lies beyond `_MAX_LAMBDA`.
@@ -48,14 +48,16 @@ def _solve(f: float, df1: int, df2: int, target: float) -> float:
                              xtol=1e-12, rtol=1e-13, maxiter=500))
 
 
-def noncentrality_interval(f: float, df1: int, df2: int,
+def noncentrality_interval(f: float, df1: float, df2: float,
                            confidence: float) -> tuple[float, float] | None:
     """Two-sided CI for the noncentrality lambda of F(df1, df2, lambda), by inversion.
 
     The lower end solves P(F' > f_obs | lambda) = (1 - confidence) / 2 and the upper end
     P(F' > f_obs | lambda) = (1 + confidence) / 2; an end is 0 when no positive lambda
     reaches it (Steiger 2004, Psychological Methods 9:164-182, section 3). None when a
-    bound would exceed lambda = 1e10 or scipy's series fails to converge.
+    bound would exceed lambda = 1e10 or scipy's series fails to converge. The df need not
+    be integers (scipy's noncentral F takes real df), so the interval can be taken on the
+    epsilon-corrected df of a repeated-measures test.
 
     >>> [round(x, 3) for x in noncentrality_interval(5.0, 3, 76, 0.95)]
     [1.867, 32.563]

@@ -87,7 +87,9 @@ class TermRow:
     """One row of the variance table: a factor, interaction or covariate term.
 
     `df` is the term's rank increment; `full_df` the df it would have with every cell
-    filled. Effect-size intervals are at `confidence_level` = 1 - 2 alpha.
+    filled. Effect-size intervals are at `confidence_level` = 1 - 2 alpha, from the
+    noncentral F on `effect_ci_df` (the term's df and the residual df; None without an
+    interval).
     """
 
     term: Term
@@ -105,6 +107,7 @@ class TermRow:
     confidence_level: float
     full_df: int
     warnings: tuple[StatWarning, ...] = ()
+    effect_ci_df: tuple[float, float] | None = None
 
 
 @dataclass(frozen=True, eq=False)
@@ -390,7 +393,7 @@ def _term_row(term: Term, kind: str, df: int, ss: float, full_df: int, residual:
     eta = ss / (ss + residual.ss)
     omega = (ss - df * residual.ms) / (ss + (residual.n - df) * residual.ms)
     interval = noncentrality_interval(f, df, residual.df, confidence)
-    ci = None
+    ci = on = None
     if interval is None:
         warnings.append(StatWarning(
             "effect-size-ci-unavailable",
@@ -398,8 +401,9 @@ def _term_row(term: Term, kind: str, df: int, ss: float, full_df: int, residual:
             "computed reliably; the interval is not reported."))
     else:
         ci = tuple(lam / (lam + df + residual.df + 1) for lam in interval)
+        on = (float(df), float(residual.df))
     return TermRow(term, label, kind, df, ss, ms, f, p, eta, ci, omega, ci, confidence,
-                   full_df, tuple(warnings))
+                   full_df, tuple(warnings), on)
 
 
 def _residual(problem: _Problem, full: _Space, n: int) -> tuple[_Residual, list[StatWarning]]:
@@ -452,11 +456,15 @@ def _sequences(ss_type: int, terms: tuple[Term, ...], spans: dict[Term, np.ndarr
             yield term, np.setdiff1d(everything, spans[term]), everything
 
 
-def _layout_warnings(cells: DesignCells) -> list[StatWarning]:
+def _layout_warnings(cells: DesignCells, terms: Sequence[Term]) -> list[StatWarning]:
+    """A factor of the model's terms with a single level. Grid factors outside every term
+    (such as the one-cell grouping of units without a treatment factor) have no effect the
+    model would test, so they are not reported and their names never reach the reader."""
     found = []
     grid = cells.grid
+    in_model = {name for term in terms for name in term}
     for name, levels in zip(grid.names, grid.levels):
-        if len(levels) < 2:
+        if len(levels) < 2 and name in in_model:
             found.append(StatWarning(
                 "single-level", f"Factor '{name}' has a single level, so it has no effect "
                                 "to test."))
@@ -512,7 +520,7 @@ def fit_linear(cells: DesignCells, terms: Sequence[Term], ss_type: int, alpha: f
     full = _space(problem, everything)
     n = cells.n_total
     residual, warnings = _residual(problem, full, n)
-    warnings = _layout_warnings(cells) + warnings
+    warnings = _layout_warnings(cells, terms) + warnings
     rows = []
     for term, reduced, bigger in _sequences(ss_type, terms, columns.spans):
         df, ss = _extra_ss(problem, reduced, bigger)

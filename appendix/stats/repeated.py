@@ -160,8 +160,11 @@ class RepeatedRow:
 
     `kind` is ``between`` (tested against the between-units error), ``within`` (tested
     against the within-units error; has Greenhouse-Geisser and Huynh-Feldt corrected df
-    and p) or ``error``. Partial eta and omega squared share one noncentral-F interval at
-    `confidence_level` (1 - 2 alpha; Steiger 2004), computed on the uncorrected df.
+    and p, except with two within levels, where sphericity holds by construction) or
+    ``error``. Partial eta and omega squared share one noncentral-F interval at
+    `confidence_level` (1 - 2 alpha; Steiger 2004), computed on `effect_ci_df`: the df of
+    the test in force, i.e. the Greenhouse-Geisser corrected df of a within term (when
+    its epsilon exists), else the term's df and its error df; None without an interval.
     """
 
     term: tuple[str, ...]
@@ -182,6 +185,7 @@ class RepeatedRow:
     partial_omega_ci: tuple[float, float] | None
     confidence_level: float
     warnings: tuple[StatWarning, ...] = ()
+    effect_ci_df: tuple[float, float] | None = None
 
 
 @dataclass(frozen=True, eq=False)
@@ -264,13 +268,14 @@ def repeated_measures(data: CompleteUnits, within: str, within_levels: Sequence[
     F tests as in Winer, Brown & Michels (1991, *Statistical Principles in Experimental
     Design*, 3rd ed.): the between factor against units within groups, on
     (g - 1, N - g) df; the within factor and the interaction against the within-units
-    error, on (d, d(N - g)) and (d(g - 1), d(N - g)) df, d = levels - 1. Every within term
-    also gets df multiplied by the Greenhouse-Geisser and by the Huynh-Feldt (Lecoutre
-    1991) epsilon and the p on them (see `sphericity`). Without `between` any groups in
+    error, on (d, d(N - g)) and (d(g - 1), d(N - g)) df, d = levels - 1. With d > 1 every
+    within term also gets df multiplied by the Greenhouse-Geisser and by the Huynh-Feldt
+    (Lecoutre 1991) epsilon and the p on them (see `sphericity`); with d = 1 epsilon is 1
+    by construction and no correction is given. Without `between` any groups in
     `data` are ignored. Effect sizes: partial eta squared SS / (SS + SS_error) and
     partial omega squared df1 (F - 1) / (df1 (F - 1) + df1 + df2 + 1); their interval is
-    the noncentral-F interval at 1 - 2 alpha (Steiger 2004) for the uncorrected df,
-    lambda turned into lambda / (lambda + df1 + df2 + 1).
+    the noncentral-F interval at 1 - 2 alpha (Steiger 2004) on the df of the test in
+    force (see `effect_row`).
     """
     if not 0.0 < alpha < 0.5:
         raise InternalError(f"alpha must lie strictly between 0 and 0.5, got {alpha!r}")
@@ -349,7 +354,22 @@ def effect_row(term: tuple[str, ...], label: str, kind: str, ss: float, df: int,
                error: tuple[float, int], noise: float, spher: Sphericity | None,
                confidence: float) -> RepeatedRow:
     """One tested term: F, p, corrected df and p (within terms), effect sizes. An error
-    SS at or below `noise` counts as no variation (F undefined)."""
+    SS at or below `noise` counts as no variation (F undefined).
+
+    With two within levels (lower bound 1/d = 1) there is a single contrast, so
+    sphericity holds by construction and epsilon is 1: no corrected df or p are given
+    and the test in force is the uncorrected one.
+
+    The effect-size interval inverts the noncentral F (Steiger 2004, Psychological
+    Methods 9:164-182) on the df of the test in force: for a within term the
+    Greenhouse-Geisser corrected (eps df1, eps df2), which need not be integers; for a
+    between term, or when the epsilon is undefined, (df1, df2). Its noncentrality bounds
+    are turned into partial eta squared as lambda / (lambda + df1 + df2 + 1) on those same
+    df, so that the 1 - 2 alpha interval excludes zero exactly when that test rejects at
+    alpha. The point estimates do not use the correction: partial eta squared
+    SS / (SS + SS_error) = df1 F / (df1 F + df2) is the same on either df, and partial
+    omega squared keeps its usual uncorrected df.
+    """
     ss_error, df_error = error
     ms = ss / df if df > 0 else None
     why = _f_undefined(ss, df, ss_error, df_error, noise)
@@ -359,23 +379,27 @@ def effect_row(term: tuple[str, ...], label: str, kind: str, ss: float, df: int,
     f = ms / (ss_error / df_error)
     p = float(_st.f.sf(f, df, df_error))
     gg_df = gg_p = hf_df = hf_p = None
-    if spher is not None:
+    if spher is not None and spher.lower_bound < 1.0:
         gg_df, gg_p = _corrected(f, df, df_error, spher.greenhouse_geisser)
         hf_df, hf_p = _corrected(f, df, df_error, spher.huynh_feldt)
     eta = ss / (ss + ss_error)
     omega = df * (f - 1.0) / (df * (f - 1.0) + df + df_error + 1.0)
     notes: tuple[StatWarning, ...] = ()
     share = None
-    bounds = noncentrality_interval(f, df, df_error, confidence)
+    # The interval must answer to the test that decides (the corrected one), or it can
+    # exclude zero while that test does not reject.
+    on = gg_df if gg_df is not None else (float(df), float(df_error))
+    bounds = noncentrality_interval(f, *on, confidence)
     if bounds is None:
         notes = (StatWarning("effect-size-ci-unavailable",
                              f"F = {f:.4g} is too large for the noncentral-F interval to be "
                              "computed reliably; the interval is not reported."),)
+        on = None
     else:
-        size = df + df_error + 1.0
+        size = on[0] + on[1] + 1.0
         share = (bounds[0] / (bounds[0] + size), bounds[1] / (bounds[1] + size))
     return RepeatedRow(term, label, kind, float(df), ss, ms, float(f), p, gg_df, gg_p, hf_df,
-                       hf_p, eta, share, omega, share, confidence, notes)
+                       hf_p, eta, share, omega, share, confidence, notes, on)
 
 
 def _f_undefined(ss: float, df: int, ss_error: float, df_error: int,

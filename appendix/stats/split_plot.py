@@ -118,8 +118,9 @@ def _sphericity(residuals: np.ndarray, df: int, n_units: int, d: int) -> Spheric
     lower = 1.0 / d
     if d == 1:
         return Sphericity(None, None, 0, None, 1.0, 1.0, lower,
-                          (StatWarning("sphericity-trivial", "With two within levels sphericity "
-                                       "holds by construction: no test is needed."),))
+                          (StatWarning("sphericity-trivial", "With two within levels there is a "
+                                       "single contrast, so sphericity holds by construction: no "
+                                       "test or correction is needed."),))
     if df <= d:
         return Sphericity(None, None, d * (d + 1) // 2 - 1, None, None, None, lower,
                           (StatWarning("sphericity-too-few-units",

@@ -265,11 +265,11 @@ def test_statsmodels_published_single_factor_value():
     assert (row.df, _error(fit, "within").df) == (1, 7)
     assert row.f == pytest.approx(22.4, abs=5e-6)
     assert row.p == pytest.approx(0.002125452, abs=5e-10)
-    # two levels: GG = HF = 1, the corrected p equals the uncorrected one, W undefined
+    # two levels: GG = HF = 1 by construction, W undefined, and no corrected test is given
     assert fit.sphericity.mauchly_w is None
+    assert (fit.sphericity.greenhouse_geisser, fit.sphericity.huynh_feldt) == (1.0, 1.0)
     assert [w.code for w in fit.sphericity.warnings] == ["sphericity-two-levels"]
-    _close(row.gg_p, row.p)
-    _close(row.hf_p, row.p)
+    assert row.gg_p is None and row.hf_p is None
 
 
 # --- invented random designs ------------------------------------------------------------
@@ -379,23 +379,28 @@ def test_random_designs_against_pingouin_and_statsmodels(seed):
         _check_mauchly_p(s, mauchly[1], fit.n_units - 1)
     between_error, within_error = _error(fit, "between").df, _error(fit, "within").df
     for row in fit.rows:
-        if row.kind != "error" and row.f is not None:
-            _check_interval(row, between_error if row.kind == "between" else within_error)
+        if row.kind == "between" and row.f is not None:
+            _check_interval(row, row.df, between_error)
+        elif row.kind == "within" and row.f is not None:
+            # within terms: the test in force is on the Greenhouse-Geisser corrected df,
+            # the epsilon taken from pingouin (or 1 for two levels)
+            _check_interval(row, eps["gg"] * row.df, eps["gg"] * within_error)
 
 
-def _check_interval(row, error_df: float) -> None:
-    """The partial eta squared interval's ends, turned back into noncentralities, put
-    alpha in the upper tail of scipy's noncentral F at the observed F (Steiger 2004)."""
-    size = row.df + error_df + 1
+def _check_interval(row, df1: float, df2: float) -> None:
+    """The partial eta squared interval's ends, turned back into noncentralities on
+    (df1, df2), put alpha in the upper tail of scipy's noncentral F at the observed F
+    (Steiger 2004)."""
+    size = df1 + df2 + 1
     alpha = (1 - row.confidence_level) / 2
     low, high = row.partial_eta_ci
     assert row.partial_omega_ci == row.partial_eta_ci
     if low > 0:
         lam = low * size / (1 - low)
-        assert st.ncf.sf(row.f, row.df, error_df, lam) == pytest.approx(alpha, abs=1e-7)
+        assert st.ncf.sf(row.f, df1, df2, lam) == pytest.approx(alpha, abs=1e-7)
     lam = high * size / (1 - high)
     if lam > 0:
-        assert st.ncf.sf(row.f, row.df, error_df, lam) == pytest.approx(1 - alpha, abs=1e-7)
+        assert st.ncf.sf(row.f, df1, df2, lam) == pytest.approx(1 - alpha, abs=1e-7)
 
 
 def _pooled_mean_reference(scores: np.ndarray, groups: np.ndarray | None):
@@ -459,3 +464,44 @@ def test_between_term_omega_matches_hays_on_unit_means():
     _close(row.partial_omega_squared, (ss_b - df_b * ms_w) / (ss_b + ss_w + ms_w))
     _close(row.f, table["F"].iloc[0])
     assert math.isclose(row.ss, data.y.shape[1] * ss_b, rel_tol=1e-12)
+
+
+def _ncf_bound(f: float, df1: float, df2: float, tail: float) -> float:
+    """The noncentrality at which scipy.stats.ncf.sf(f, df1, df2, lam) = tail, by
+    scipy.optimize.brentq on a fixed wide bracket (0 when already reached at lam = 0)."""
+    from scipy.optimize import brentq
+
+    if st.f.sf(f, df1, df2) >= tail:
+        return 0.0
+    return brentq(lambda lam: st.ncf.sf(f, df1, df2, lam) - tail, 0.0, 1e4, xtol=1e-12)
+
+
+def test_within_interval_is_scipy_ncf_inverted_on_the_greenhouse_geisser_df():
+    """Invented data (numpy seeded): 4 within levels, the last one 13 times as variable,
+    so epsilon is near its bound 1/3. The partial eta squared interval of the within
+    factor is scipy.stats.ncf (scipy 1.17.1) inverted with scipy.optimize.brentq on
+    (eps d, eps d (N - 1)), eps from pingouin.epsilon(correction="gg") (pingouin 0.7.0),
+    each bound lambda turned into lambda / (lambda + df1 + df2 + 1) on those df (Steiger
+    2004); the corrected p is scipy.stats.f.sf on the same df."""
+    seen_positive_low = False
+    for seed in range(6):
+        rng = np.random.default_rng(100 + seed)
+        y = (rng.normal(0.0, 1.0, size=(12, 4)) * [0.3, 0.3, 0.3, 4.0]
+             + [0.0, 0.0, 0.0, 1.0 + seed] + rng.normal(0.0, 2.0, size=(12, 1)))
+        frame = pd.DataFrame({"unit": np.repeat([f"u{i:02d}" for i in range(12)], 4),
+                              "level": np.tile(["L0", "L1", "L2", "L3"], 12), "y": y.ravel()})
+        _, fit = _fit(frame, "y", "level", "unit")
+        eps = pg.epsilon(frame, dv="y", within="level", subject="unit", correction="gg")
+        assert eps < 0.5
+        row = _row(fit, "within")
+        df1, df2 = eps * 3, eps * 3 * 11
+        _close(row.gg_p, st.f.sf(row.f, df1, df2))
+        size = df1 + df2 + 1
+        alpha = (1 - row.confidence_level) / 2
+        expected = tuple(lam / (lam + size) for lam in
+                         (_ncf_bound(row.f, df1, df2, alpha), _ncf_bound(row.f, df1, df2, 1 - alpha)))
+        assert row.partial_eta_ci == pytest.approx(expected, rel=1e-7, abs=1e-10)
+        assert row.partial_omega_ci == row.partial_eta_ci
+        assert row.effect_ci_df == pytest.approx((df1, df2), rel=1e-9)
+        seen_positive_low |= expected[0] > 0
+    assert seen_positive_low  # both ends of the interval were checked at least once

@@ -265,6 +265,16 @@ def test_a_single_level_factor_has_no_row_to_test() -> None:
     assert any(w.code == "single-level" for w in fit.warnings)
 
 
+def test_a_single_level_factor_outside_the_model_is_not_reported() -> None:
+    # a grouping the model does not use (e.g. one cell for units without a treatment
+    # factor) has nothing to test, so its name must not appear in a warning
+    codes, y, _, _ = invented((3,), seed=12)
+    grid = Grid(("A", "B"), (("a1", "a2", "a3"), ("only",)))
+    fit = fit_linear(design_cells(grid, [codes[0], np.zeros_like(codes[0])], y), [A], 2, 0.05)
+    assert [w.code for w in fit.warnings] == []
+    assert all("'B'" not in w.message for r in fit.terms for w in r.warnings)
+
+
 @pytest.mark.parametrize(("terms", "message"), [
     ([A, AB], "the interaction A × B needs the main effect of 'B' in the model"),
     ([A, ("E",)], "term E: 'E' is neither a factor ('A', 'B') nor a covariate ('x',)"),

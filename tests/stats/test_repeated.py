@@ -173,7 +173,8 @@ def test_two_levels_match_the_paired_t_test():
     within = fit.rows[1]
     assert within.f == pytest.approx(ref.statistic**2, rel=1e-12)
     assert within.p == pytest.approx(ref.pvalue, rel=1e-10)
-    assert within.gg_p == within.hf_p == within.p
+    # epsilon is 1 by construction: no corrected test is given beside the one in force
+    assert (within.gg_df, within.gg_p, within.hf_df, within.hf_p) == (None, None, None, None)
     s = fit.sphericity
     assert (s.mauchly_w, s.p, s.greenhouse_geisser, s.huynh_feldt, s.lower_bound) == (
         None, None, 1.0, 1.0, 1.0)
@@ -312,3 +313,72 @@ def test_argument_errors_are_internal_errors():
         within_contrast(data, [1, 0, -1])
     with pytest.raises(InternalError, match="carry no groups"):
         within_contrast(data, [1, -1], group=0)
+
+
+# --- the effect-size interval answers to the corrected test ------------------------------
+
+
+def _non_spherical(seed: int, groups: int = 1) -> tuple[np.ndarray, np.ndarray | None]:
+    """Invented (numpy-seeded) scores at 4 within levels whose last level varies about 13
+    times as much as the others (independent levels): the Greenhouse-Geisser epsilon
+    lies near its lower bound 1/3. The last level is shifted by a random amount, so that
+    some seeds reject and some do not."""
+    rng = np.random.default_rng(seed)
+    n = 10 * groups
+    sd = np.array([0.3, 0.3, 0.3, 4.0])
+    shift = np.array([0.0, 0.0, 0.0, rng.uniform(0.0, 6.0)])
+    y = rng.normal(0.0, 1.0, size=(n, 4)) * sd + shift + rng.normal(0, 2, size=(n, 1))
+    codes = None if groups == 1 else np.repeat(np.arange(groups), 10)
+    if codes is not None:
+        y[:, 3] += rng.uniform(0.0, 3.0) * codes  # a group x level interaction of random size
+    return y, codes
+
+
+@pytest.mark.parametrize("groups", [1, 2])
+def test_effect_interval_excludes_zero_exactly_when_the_corrected_test_rejects(groups):
+    alpha = 0.05
+    decisions = set()
+    for seed in range(80):
+        y, codes = _non_spherical(seed, groups)
+        fit = repeated_measures(_units(y, codes), "t", ["a", "b", "c", "d"],
+                                between=None if groups == 1 else "g",
+                                between_levels=() if groups == 1 else ("g1", "g2"), alpha=alpha)
+        assert fit.sphericity.greenhouse_geisser < 0.6
+        for row in (r for r in fit.rows if r.kind == "within"):
+            rejects = row.gg_p < alpha
+            low, high = row.partial_eta_ci
+            assert (low > 0.0) == rejects, (seed, row.label, row.gg_p, row.partial_eta_ci)
+            # The point estimate lies inside its own interval, unless the observed F is
+            # so small (corrected p >= 1 - alpha) that the whole interval is at zero.
+            if high > 0.0:
+                assert low <= row.partial_eta_squared <= high, (seed, row.label)
+            else:
+                assert row.gg_p >= 1.0 - alpha
+            decisions.add(rejects)
+    assert decisions == {True, False}  # both outcomes were met, so the equivalence was tested
+
+
+def test_the_row_records_the_df_its_interval_uses():
+    y, codes = _non_spherical(3, groups=2)
+    fit = repeated_measures(_units(y, codes), "t", ["a", "b", "c", "d"], between="g",
+                            between_levels=("g1", "g2"))
+    within = [r for r in fit.rows if r.kind == "within"]
+    assert len(within) == 2 and all(r.effect_ci_df == r.gg_df for r in within)
+    assert within[0].gg_df[0] < 3.0 * 0.6  # fractional, well below the uncorrected 3
+    between = fit.rows[0]
+    assert between.kind == "between" and between.gg_df is None
+    assert between.effect_ci_df == (1.0, float(fit.n_units - 2))
+
+
+def test_two_levels_give_no_correction_to_any_within_term():
+    # A mixed design with two within levels: the within factor and its interaction with
+    # the groups both rest on the single contrast, so neither has corrected df, and
+    # their effect-size intervals use the uncorrected df of the test in force.
+    y, groups = _invented(6, 4, 2, n_groups=3)
+    fit = repeated_measures(_units(y, groups), "t", ["pre", "post"], "g", ["a", "b", "c"])
+    within = [r for r in fit.rows if r.kind == "within"]
+    assert [r.term for r in within] == [("t",), ("t", "g")]
+    error_df = next(r for r in fit.rows if r.term == ("t", "units")).df
+    for row in within:
+        assert (row.gg_df, row.gg_p, row.hf_df, row.hf_p) == (None, None, None, None)
+        assert row.p is not None and row.effect_ci_df == (row.df, error_df)
