@@ -35,6 +35,7 @@ from pathlib import Path, PurePosixPath
 from typing import Any, TextIO
 
 from appendix.errors import UserError
+from appendix.jsonread import read_json
 from appendix.publish import PDF_NAME, manifest_text, pdf_evidence, sha256_file
 from appendix.targets import check_file_target, is_package
 from appendix.versions import installed_distributions
@@ -90,12 +91,7 @@ governance.
 
 
 def _load_json(path: Path, what: str) -> Any:
-    try:
-        return json.loads(path.read_text(encoding="utf-8"))
-    except FileNotFoundError:
-        raise UserError(f"{path} not found: {what}") from None
-    except (UnicodeDecodeError, json.JSONDecodeError) as error:
-        raise UserError(f"{path} is not valid JSON ({error}): {what}") from None
+    return read_json(path, what)
 
 
 def _inside(relative: str) -> bool:
@@ -297,15 +293,34 @@ def unsafe_reason(info: zipfile.ZipInfo) -> str | None:
     return None
 
 
+#: Bounds on what `verify` extracts, checked on the archive's directory before anything is
+#: written: the number of entries, their total expanded size, and the expansion ratio of any
+#: entry above 1 MiB (deflate reaches about 1000:1 on crafted input; text data about 10:1).
+MAX_ENTRIES, MAX_EXPANDED, MAX_RATIO = 100_000, 64 * 2**30, 200
+
+
 def _refuse_unsafe(infos: Iterable[zipfile.ZipInfo], package: Path) -> None:
+    infos = list(infos)
     problems, seen = [], set()
     for info in infos:
         reason = unsafe_reason(info)
         if reason is None and info.filename in seen:
             reason = "listed twice"
+        if reason is None and info.file_size > 2**20 \
+                and info.file_size > MAX_RATIO * max(info.compress_size, 1):
+            reason = (f"expands {info.file_size / max(info.compress_size, 1):.0f}-fold, above "
+                      f"the {MAX_RATIO}-fold a package of ours reaches")
         seen.add(info.filename)
         if reason is not None:
             problems.append(f"  {info.filename!r}: {reason}")
+        if len(problems) >= 20:
+            problems.append("  ... (first 20 shown)")
+            break
+    total = sum(info.file_size for info in infos)
+    if len(infos) > MAX_ENTRIES:
+        problems.append(f"  {len(infos)} entries, more than the {MAX_ENTRIES} allowed")
+    if total > MAX_EXPANDED:
+        problems.append(f"  {total} bytes when expanded, more than the {MAX_EXPANDED} allowed")
     if problems:
         raise UserError(f"refused {package}: unsafe entries, nothing was extracted:\n"
                         + "\n".join(problems))
@@ -378,7 +393,7 @@ def _manifest_problems(folder: Path) -> tuple[list[str], dict[str, Any] | None]:
         outputs = [(f"run/{o['path']}", o["sha256"]) for o in manifest["outputs"]]
         inputs = [(f"study/{i['path']}", i["sha256"]) for i in manifest["inputs"]
                   if isinstance(i["role"], str)]
-    except (UnicodeDecodeError, json.JSONDecodeError, KeyError, TypeError) as error:
+    except (UnicodeDecodeError, json.JSONDecodeError, KeyError, TypeError, RecursionError) as error:
         return [f"run/manifest.json is not a run manifest ({error!r})"], None
     problems = []
     for name, expected in outputs + inputs:
@@ -401,7 +416,8 @@ def _pdf_problems(folder: Path, manifest: Mapping[str, Any]) -> tuple[list[str],
         "results.json": (folder / "run" / "results.json").read_bytes(),
         "manifest.json": manifest_text(pdf_evidence(manifest)).encode("utf-8"),
     }
-    if study is not None and (folder / "study" / study).is_file():
+    if isinstance(study, str) and _inside_package(folder / "study", study) \
+            and (folder / "study" / study).is_file():
         expected[PurePosixPath(study).name] = (folder / "study" / study).read_bytes()
     try:
         attached = pypdf.PdfReader(folder / "run" / PDF_NAME).attachments
@@ -467,21 +483,37 @@ def _version_notes(packaged: list, recomputed: list) -> list[str]:
             for name in sorted(before.keys() & now.keys()) if before[name] != now[name]]
 
 
+def _inside_package(root: Path, path: str | Path) -> bool:
+    """Whether `path` (absolute, or relative to `root`) resolves to a place inside `root`."""
+    base = root.resolve()
+    place = (root / path).resolve()
+    return place != base and base in place.parents
+
+
 def _recompute(folder: Path, manifest: Mapping[str, Any]) -> tuple[list[str], list[str]]:
     """Rerun the packaged study in `folder` and compare its results.json with the package's."""
     from appendix import api
 
-    study = next((i["path"] for i in manifest["inputs"] if i["role"] == "study"), None)
-    if study is None or not (folder / "study" / study).is_file():
+    from appendix.plan.load import load_plan
+
+    study = next((i.get("path") for i in manifest["inputs"]
+                  if isinstance(i, dict) and i.get("role") == "study"), None)
+    if not isinstance(study, str) or not _inside_package(folder / "study", study):
+        return ["the package names no study file inside it to recompute from"], []
+    if not (folder / "study" / study).is_file():
         return ["the package has no study file to recompute from"], []
     try:
+        loaded = load_plan(folder / "study" / study)
+        if not _inside_package(folder / "study", loaded.data_path):
+            return [f"the packaged study names a data file outside the package "
+                    f"({loaded.plan.data.source}); nothing outside it is read"], []
         api.run(folder / "study" / study, out_dir=folder / "recomputed", pdf=False)
     except UserError as error:
         return [f"the packaged study could not be recomputed: {error}"], []
     try:
         packaged = json.loads((folder / "run" / "results.json").read_text(encoding="utf-8"))
-    except (UnicodeDecodeError, json.JSONDecodeError) as error:
-        return [f"run/results.json is not valid JSON ({error}); nothing to compare"], []
+    except (UnicodeDecodeError, json.JSONDecodeError, RecursionError) as error:
+        return [f"run/results.json is not valid JSON ({error!r}); nothing to compare"], []
     if not isinstance(packaged, dict):
         return ["run/results.json does not hold a results object; nothing to compare"], []
     again = json.loads((folder / "recomputed" / "results.json").read_text(encoding="utf-8"))

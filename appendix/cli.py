@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import argparse
 import datetime as _dt
+import os
 import sys
 import traceback
 from collections.abc import Callable, Sequence
@@ -16,6 +17,7 @@ from pathlib import Path
 from typing import TextIO
 
 from appendix import __version__
+from appendix.epoch import source_date
 from appendix.errors import UserError
 
 EXIT_OK, EXIT_ATTENTION, EXIT_USAGE, EXIT_BUG = 0, 1, 2, 3
@@ -149,6 +151,7 @@ def main(argv: Sequence[str] | None = None, *, stdout: TextIO | None = None,
     clock = clock or (lambda: _dt.datetime.now(_dt.timezone.utc))
     cwd = cwd or Path.cwd()
     try:
+        source_date(os.environ)  # libraries imported below read it too, and fail on a bad one
         args = _parser().parse_args(list(sys.argv[1:] if argv is None else argv))
         if args.command is None:
             print(_parser().format_help(), file=err)

@@ -28,6 +28,7 @@ from pathlib import Path
 from typing import Any, TextIO
 
 from appendix.errors import UserError
+from appendix.jsonread import read_json
 from appendix.records import Records, RowRecord, read_records
 from appendix.targets import check_file_target, is_diff_page, write_atomically
 
@@ -205,10 +206,7 @@ class _Run:
 
 
 def _read_json(path: Path) -> Any:
-    try:
-        return json.loads(path.read_text(encoding="utf-8"))
-    except (OSError, ValueError) as error:
-        raise UserError(f"cannot read {path}: {error}") from None
+    return read_json(path, "a run folder holds the files `appendix run` writes")
 
 
 def _load_run(folder: Path) -> _Run:

@@ -18,6 +18,7 @@ from pathlib import Path
 from typing import Any
 
 from appendix import __version__
+from appendix.epoch import source_date
 from appendix.errors import UserError
 from appendix.results import StudyResults, to_plain
 from appendix.targets import check_run_target
@@ -111,18 +112,6 @@ def sha256_file(path: Path) -> str:
         for block in iter(lambda: handle.read(1 << 20), b""):
             digest.update(block)
     return digest.hexdigest()
-
-
-def source_date(environ: Mapping[str, str]) -> _dt.datetime | None:
-    """The time SOURCE_DATE_EPOCH names (reproducible-builds.org convention: whole seconds
-    since 1970-01-01 UTC), or None when it is unset or empty."""
-    text = environ.get("SOURCE_DATE_EPOCH", "").strip()
-    if not text:
-        return None
-    if not text.isdigit():
-        raise UserError(f"SOURCE_DATE_EPOCH must be a whole number of seconds since "
-                        f"1970-01-01 UTC, got {text!r}")
-    return _dt.datetime.fromtimestamp(int(text), _dt.timezone.utc)
 
 
 def run_time(clock: Callable[[], _dt.datetime] | None = None,

@@ -254,5 +254,5 @@ def read_records(folder: Path) -> Records | None:
             plan=raw["plan"], plan_sha256=raw["plan_sha256"],
             rows=None if rows is None else tuple(RowRecord(**row) for row in rows),
             skipped=raw["skipped"])
-    except (ValueError, KeyError, TypeError) as error:
-        raise UserError(f"{path} is not a records file this version can read ({error})") from None
+    except (ValueError, KeyError, TypeError, RecursionError) as error:
+        raise UserError(f"{path} is not a records file this version can read ({error!r})") from None

@@ -339,6 +339,8 @@ def read_lock(study: Path | str) -> Lock | None:
         raw = json.loads(text)
     except json.JSONDecodeError as error:
         raise _refuse(path, f"it is not valid JSON (line {error.lineno})") from None
+    except RecursionError:
+        raise _refuse(path, "it is nested too deeply to be read") from None
     return _parse(path, raw)
 
 
