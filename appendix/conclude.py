@@ -11,6 +11,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from appendix import numbers as fmt
+from appendix.methods import adjustment
 from appendix.plan.model import Outcome, Plan
 from appendix.results import (
     AssumptionStatus,
@@ -136,19 +137,6 @@ def upper_first(text: str) -> str:
     return text[:1].upper() + text[1:]
 
 
-_MULTIPLICITY_NAMES = {
-    "none": "unadjusted",
-    "bonferroni": "Bonferroni",
-    "holm": "Holm",
-    "hochberg": "Hochberg",
-    "sidak": "Šidák",
-    "benjamini-hochberg": "Benjamini-Hochberg",
-    "tukey": "Tukey-Kramer",
-    "dunnett": "Dunnett",
-    "fixed-sequence": "fixed-sequence",
-}
-
-
 def _levels_compared(h: HypothesisResult, levels: tuple[str, ...]) -> tuple[str, str] | None:
     """For a simple difference (one +1 and one -1 weight): (higher-weighted, lower) levels."""
     plus = [lv for lv, w in zip(levels, h.weights) if w > 0]
@@ -187,7 +175,7 @@ def hypothesis_conclusion(plan: Plan, outcome: Outcome, h: HypothesisResult,
     unit = f" {outcome.unit}" if outcome.unit and h.method != "rank-based" else ""
     adjusted = (f"adjusted {fmt.p_clause(h.p_adjusted)}"
                 if h.p_adjusted is not None and multiplicity != "none" else fmt.p_clause(h.p))
-    how = _MULTIPLICITY_NAMES.get(multiplicity, multiplicity)
+    how = adjustment(multiplicity, h.method).plain  # the procedure computed, e.g. Games-Howell
     evidence = f"{_interval_words(h, unit)}, {adjusted}, {how}"
     factor = plan.factor_named(_contrast_factor(plan, h))
     pair = _levels_compared(h, factor.levels)

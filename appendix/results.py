@@ -227,7 +227,7 @@ class HypothesisResult:
     ``rank-based`` (Dunn 1964 z on mean ranks; the estimate is in mean-rank units).
     `p` is the raw p for the `alternative`; `p_adjusted` the p under the registered
     multiplicity control (None when not tested). `ci_simultaneous` is True when the interval
-    holds jointly for the family (Tukey-Kramer, Games-Howell, Dunnett, Bonferroni, Sidak).
+    holds jointly for the family (Tukey-Kramer, Games-Howell, Nemenyi, Dunnett, Bonferroni, Sidak).
     For one-sided alternatives the open end of the interval is None. `standardized` is the
     estimate over the pooled SD with Hedges' (1981) small-sample correction
     J = 1 - 3 / (4 df - 1). `decision` is ``reject``, ``retain``, ``not-tested`` (a

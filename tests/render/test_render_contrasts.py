@@ -25,7 +25,8 @@ PAIN = "Planned contrasts of Pain score, classical (pooled variance) analysis"
 EXPLORATORY = ("Exploratory contrasts of Change in systolic blood pressure, classical (pooled "
                "variance) analysis")
 CONTRAST_KEYS = {"contrasts-classical", "contrasts-welch", "contrasts-rank", "trend", "helmert",
-                 "tukey", "games-howell", "dunnett", "bonferroni", "sidak", "holm", "hochberg",
+                 "tukey", "games-howell", "nemenyi", "dunnett", "dunnett-welch", "dunnett-rank",
+                 "bonferroni", "sidak", "holm", "hochberg",
                  "benjamini-hochberg", "fixed-sequence", "unadjusted", "hedges", "one-sided"}
 
 
@@ -266,7 +267,10 @@ def _set_families(plain, multiplicity, method):
 @pytest.mark.parametrize(("multiplicity", "method", "keys", "reference"), [
     ("tukey", "classical", ["contrasts-classical", "tukey"], "kramer1956"),
     ("tukey", "welch", ["contrasts-welch", "games-howell"], "games1976"),
+    ("tukey", "rank-based", ["contrasts-rank", "nemenyi"], "nemenyi1963"),
     ("dunnett", "classical", ["contrasts-classical", "dunnett"], "dunnett1955"),
+    ("dunnett", "welch", ["contrasts-welch", "dunnett-welch"], "hasler2008"),
+    ("dunnett", "rank-based", ["contrasts-rank", "dunnett-rank"], "dunn1964"),
     ("bonferroni", "classical", ["contrasts-classical", "bonferroni"], "dunn1961"),
     ("sidak", "welch", ["contrasts-welch", "sidak"], "sidak1967"),
     ("holm", "rank-based", ["contrasts-rank", "holm"], "holm1979"),
@@ -325,8 +329,11 @@ def test_forest_caption_says_what_the_intervals_are(page, plain_results, figures
     assert "An arrow marks an interval open" in caption and "labelled gaps" in caption
     changed = copy.deepcopy(plain_results)
     family = changed["outcomes"][1]["contrasts"][0]
+    family.update(multiplicity="tukey")  # pairs under welch: Games-Howell
     for h in family["hypotheses"]:
         h.update(alternative="two-sided", decision="reject", ci_simultaneous=True)
     caption = _forest_caption(parse(render_html(changed, figures, RenderOptions())))
-    assert "95% confidence intervals, simultaneous for the family;" in caption
+    assert ("95% confidence intervals, simultaneous for the family (Games\u2013Howell, "
+            "approximately);") in caption
+    assert "Tukey" not in caption
     assert "arrow" not in caption and "gaps" not in caption
