@@ -151,6 +151,9 @@ REFERENCES: Mapping[str, Reference] = MappingProxyType({r.key: r for r in (
              "3\u201318", "Gustav Fischer"),
     _book("nemenyi1963", "Nemenyi, P. B.", 1963, "Distribution-free multiple comparisons",
           "Doctoral dissertation, Princeton University"),
+    _book("maxwell2004", "Maxwell, S. E., & Delaney, H. D.", 2004, "Designing experiments and "
+          "analyzing data: A model comparison perspective", "Lawrence Erlbaum Associates",
+          "2nd ed."),
     _article("mccullough1998", "McCullough, B. D.", 1998, "Assessing the reliability of "
              "statistical software: Part I", "The American Statistician", "52", "4",
              "358\u2013366", "10.1080/00031305.1998.10480586"),
@@ -352,8 +355,14 @@ METHODS: Mapping[str, Method] = MappingProxyType({m.key: m for m in (
            "registered spacing of the levels (linear, quadratic, ...), obtained by "
            "orthogonalising the powers of the spacing; with equal spacing they are the "
            "tabulated coefficients (Fisher & Yates, 1938; Kirk, 2013). Each is scaled so that "
-           "its squared weights sum to 1 and the highest level weighs positive.",
-           ("fisher1938", "kirk2013")),
+           "its estimate reads directly: the linear one is the least-squares slope of the "
+           "level means (marginal means in a model, mean ranks in a rank-based analysis) per "
+           "unit of the spacing (per step between adjacent levels when no "
+           "spacing is registered), its weights the centred scores divided by their sum of "
+           "squares (Maxwell & Delaney, 2004); the degree-d one is the coefficient of x^d in the least-squares polynomial of degree d fitted "
+           "to the level means, in the outcome's unit per spacing unit to the power d. The "
+           "scale changes the estimate and its interval, not t or p.",
+           ("fisher1938", "kirk2013", "maxwell2004")),
     Method("helmert", "Helmert contrasts",
            "Each level in plan order is compared with the mean of the levels after it "
            "(weights 1 and \u22121/(k \u2212 i)); the k \u2212 1 contrasts are mutually "

@@ -263,3 +263,35 @@ def test_tukey_after_an_unequal_variance_fallback_is_named_games_howell(tmp_path
     assert all(", Games-Howell); " in s and "Tukey" not in s for s in sentences)
     html = (tmp_path / "run" / "appendix.html").read_text(encoding="utf-8")
     assert "Games\u2013Howell single-step" in html and "Tukey\u2013Kramer single-step" in html
+
+
+def test_one_way_trend_estimates_are_slope_and_curvature_in_outcome_units(tmp_path: Path):
+    """Balanced one-way data (10 units per dose): the linear trend is the least-squares slope
+    of the dose means on the registered spacing, the quadratic its x^2 coefficient, and the
+    sentence says which scale each is on."""
+    import pandas as pd
+    from scipy import stats
+
+    study = write_study(tmp_path, contrasts=only("trend"), multiplicity={"method": "none"})
+    results = api.compute(study).results
+    primary = results.outcomes[0]
+    linear, quadratic = primary.contrasts[0].hypotheses
+    frame = pd.read_csv(tmp_path / "units.csv")
+    means = frame.groupby("dose")["y"].mean()[LEVELS].to_numpy()
+    x = np.array([0.0, 1.0, 2.0, 4.0])
+    slope = stats.linregress(x, means).slope  # scipy 1.17.1 stats.linregress
+    assert linear.estimate == pytest.approx(slope, rel=1e-10)
+    # numpy 2.4.6 polyfit(x, means, 2)[0]: the x^2 coefficient of the quadratic fit
+    assert quadratic.estimate == pytest.approx(np.polyfit(x, means, 2)[0], rel=1e-9)
+    sentence = primary.hypothesis_conclusions[0].sentence
+    assert sentence.startswith(
+        "The linear trend (C4:linear) of mean response, its least-squares slope per dose unit "
+        f"of the registered spacing 0, 1, 2, 4, was estimated at {slope:.2f} mg per dose unit "
+        "(95% CI ")
+    assert "mg per dose unit, p < .001, unadjusted); the hypothesis of no linear trend is " \
+           "rejected at \u03b1 = .05." in sentence
+    assert primary.hypothesis_conclusions[1].sentence.startswith(
+        "The quadratic trend (C4:quadratic) of mean response, its coefficient of x\u00b2 in the "
+        "least-squares quadratic in x, x in dose units of the registered spacing 0, 1, 2, 4, "
+        "was estimated at ")
+    assert " mg per dose unit\u00b2 (95% CI " in primary.hypothesis_conclusions[1].sentence
