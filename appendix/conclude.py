@@ -11,6 +11,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from appendix import numbers as fmt
+from appendix.methods import adjustment
 from appendix.plan.model import Outcome, Plan
 from appendix.results import (
     AssumptionStatus,
@@ -136,19 +137,6 @@ def upper_first(text: str) -> str:
     return text[:1].upper() + text[1:]
 
 
-_MULTIPLICITY_NAMES = {
-    "none": "unadjusted",
-    "bonferroni": "Bonferroni",
-    "holm": "Holm",
-    "hochberg": "Hochberg",
-    "sidak": "Šidák",
-    "benjamini-hochberg": "Benjamini-Hochberg",
-    "tukey": "Tukey-Kramer",
-    "dunnett": "Dunnett",
-    "fixed-sequence": "fixed-sequence",
-}
-
-
 def _levels_compared(h: HypothesisResult, levels: tuple[str, ...]) -> tuple[str, str] | None:
     """For a simple difference (one +1 and one -1 weight): (higher-weighted, lower) levels."""
     plus = [lv for lv, w in zip(levels, h.weights) if w > 0]
@@ -173,6 +161,9 @@ def hypothesis_conclusion(plan: Plan, outcome: Outcome, h: HypothesisResult,
     """One registered contrast hypothesis in plain words, e.g. "Mean shoot dry mass under
     seaweed was 6.1 mg higher than under uncoated (95% simultaneous CI 2.0 to 10.2 mg,
     adjusted p = .002, Dunnett); the hypothesis of no difference is rejected at α = .05."
+    A trend names the scale of its estimate: "The linear trend (C4:linear) of mean dry
+    mass, its least-squares slope per step between adjacent levels of dose, was estimated
+    at 0.80 mg per step (...)".
     """
     alpha = plan.alpha
     ref = f"{h.label} ({h.id})"
@@ -185,9 +176,11 @@ def hypothesis_conclusion(plan: Plan, outcome: Outcome, h: HypothesisResult,
         sentence = f"{upper_first(ref)} could not be estimated. {reasons}"
         return Conclusion(sentence=sentence, decision="unavailable", p=None, alpha=alpha)
     unit = f" {outcome.unit}" if outcome.unit and h.method != "rank-based" else ""
+    if h.scale is not None:  # a trend: outcome units per step (or per spacing unit, squared, ...)
+        unit = f"{unit} {h.scale.per}"
     adjusted = (f"adjusted {fmt.p_clause(h.p_adjusted)}"
                 if h.p_adjusted is not None and multiplicity != "none" else fmt.p_clause(h.p))
-    how = _MULTIPLICITY_NAMES.get(multiplicity, multiplicity)
+    how = adjustment(multiplicity, h.method).plain  # the procedure computed, e.g. Games-Howell
     evidence = f"{_interval_words(h, unit)}, {adjusted}, {how}"
     factor = plan.factor_named(_contrast_factor(plan, h))
     pair = _levels_compared(h, factor.levels)
@@ -197,11 +190,15 @@ def hypothesis_conclusion(plan: Plan, outcome: Outcome, h: HypothesisResult,
         higher_lower = "higher" if h.estimate >= 0 else "lower"
         first = (f"{upper_first(measure)} under {pair[0]} was {fmt.fixed(size, 2)}{unit} "
                  f"{higher_lower} than under {pair[1]} ({evidence})")
-        null = "no difference"
+        null = absent = "no difference"
+    elif h.scale is not None:
+        first = (f"The {ref} of {measure}, its {h.scale.meaning}, was estimated at "
+                 f"{fmt.fixed(h.estimate, 2)}{unit} ({evidence})")
+        null = absent = f"no {h.label}"
     else:
         first = (f"The contrast {ref} of {measure} was estimated at "
                  f"{fmt.fixed(h.estimate, 2)}{unit} ({evidence})")
-        null = "a zero contrast"
+        null, absent = "a zero contrast", "no difference"
     if "@" in h.id:  # a simple effect: the comparison within one level of another factor
         by = plan.factor_named(_contrast_of(plan, h).by)
         first = f"Within {by.label or by.name} {h.id.split('@', 1)[1]}, {first[:1].lower()}{first[1:]}"
@@ -212,7 +209,7 @@ def hypothesis_conclusion(plan: Plan, outcome: Outcome, h: HypothesisResult,
         decision = "reject"
     else:
         rest = (f"the hypothesis of {null} is not rejected at {_alpha(alpha)}, which is not "
-                "evidence that there is no difference.")
+                f"evidence that there is {absent}.")
         decision = "retain"
     return Conclusion(sentence=f"{first}; {rest}", decision=decision,
                       p=h.p_adjusted if h.p_adjusted is not None else h.p, alpha=alpha)

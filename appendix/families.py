@@ -81,7 +81,8 @@ def _hypotheses(plan: Plan, contrasts: tuple[Contrast, ...]):
             contrast.kind, factor.levels, control=factor.control,
             weights=mean_difference_weights(contrast.weights),
             degree=contrast.trend_degree, spacing=contrast.spacing,
-            contrast_id=contrast.id, label=contrast.label)
+            contrast_id=contrast.id, label=contrast.label,
+            factor_label=factor.label or factor.name)
         hypotheses += expanded
         alternatives += [contrast.alternative] * len(expanded)
     return tuple(hypotheses), tuple(alternatives)

@@ -117,6 +117,9 @@ REFERENCES: Mapping[str, Reference] = MappingProxyType({r.key: r for r in (
     _article("games1976", "Games, P. A., & Howell, J. F.", 1976, "Pairwise multiple comparison "
              "procedures with unequal n's and/or variances: A Monte Carlo study", "Journal of "
              "Educational Statistics", "1", "2", "113\u2013125", "10.3102/10769986001002113"),
+    _article("hasler2008", "Hasler, M., & Hothorn, L. A.", 2008, "Multiple contrast tests in "
+             "the presence of heteroscedasticity", "Biometrical Journal", "50", "5",
+             "793\u2013800", None),
     _book("hays1963", "Hays, W. L.", 1963, "Statistics for psychologists",
           "Holt, Rinehart and Winston"),
     _article("hedges1981", "Hedges, L. V.", 1981, "Distribution theory for Glass's estimator of "
@@ -149,6 +152,11 @@ REFERENCES: Mapping[str, Reference] = MappingProxyType({r.key: r for r in (
              "hypotheses", "J. Vollmar (Ed.)", "Biometrie in der chemisch-pharmazeutischen "
              "Industrie: Vol. 6. Testing principles in clinical and preclinical trials",
              "3\u201318", "Gustav Fischer"),
+    _book("nemenyi1963", "Nemenyi, P. B.", 1963, "Distribution-free multiple comparisons",
+          "Doctoral dissertation, Princeton University"),
+    _book("maxwell2004", "Maxwell, S. E., & Delaney, H. D.", 2004, "Designing experiments and "
+          "analyzing data: A model comparison perspective", "Lawrence Erlbaum Associates",
+          "2nd ed."),
     _article("mccullough1998", "McCullough, B. D.", 1998, "Assessing the reliability of "
              "statistical software: Part I", "The American Statistician", "52", "4",
              "358\u2013366", "10.1080/00031305.1998.10480586"),
@@ -381,8 +389,14 @@ METHODS: Mapping[str, Method] = MappingProxyType({m.key: m for m in (
            "registered spacing of the levels (linear, quadratic, ...), obtained by "
            "orthogonalising the powers of the spacing; with equal spacing they are the "
            "tabulated coefficients (Fisher & Yates, 1938; Kirk, 2013). Each is scaled so that "
-           "its squared weights sum to 1 and the highest level weighs positive.",
-           ("fisher1938", "kirk2013")),
+           "its estimate reads directly: the linear one is the least-squares slope of the "
+           "level means (marginal means in a model, mean ranks in a rank-based analysis) per "
+           "unit of the spacing (per step between adjacent levels when no "
+           "spacing is registered), its weights the centred scores divided by their sum of "
+           "squares (Maxwell & Delaney, 2004); the degree-d one is the coefficient of x^d in the least-squares polynomial of degree d fitted "
+           "to the level means, in the outcome's unit per spacing unit to the power d. The "
+           "scale changes the estimate and its interval, not t or p.",
+           ("fisher1938", "kirk2013", "maxwell2004")),
     Method("helmert", "Helmert contrasts",
            "Each level in plan order is compared with the mean of the levels after it "
            "(weights 1 and \u22121/(k \u2212 i)); the k \u2212 1 contrasts are mutually "
@@ -399,6 +413,13 @@ METHODS: Mapping[str, Method] = MappingProxyType({m.key: m for m in (
            "Welch\u2013Satterthwaite degrees of freedom, referred to the studentized range "
            "distribution (Games & Howell, 1976). Its intervals hold jointly only approximately.",
            ("games1976", "welch1947")),
+    Method("nemenyi", "Nemenyi's pairwise comparisons of mean ranks",
+           "All pairwise differences of the groups' mean ranks, each with Dunn's (1964) "
+           "tie-corrected standard error, are referred to the studentized range distribution "
+           "with infinite degrees of freedom, the large-sample all-pairs test on joint ranks "
+           "of Nemenyi (1963). Adjusted p values and intervals hold simultaneously for the "
+           "family of pairs in large samples.",
+           ("nemenyi1963", "dunn1964")),
     Method("dunnett", "Dunnett's many-to-one comparisons",
            "Each level is compared with the control by a single-step test on the multivariate "
            "t distribution of the comparisons, whose correlations follow from the group sizes "
@@ -423,6 +444,19 @@ METHODS: Mapping[str, Method] = MappingProxyType({m.key: m for m in (
            "integration error given in the table note. Adjusted p values and intervals hold "
            "simultaneously for the whole family.",
            ("dunnett1955", "hothorn2008", "genz2002")),
+    Method("dunnett-welch", "Dunnett's many-to-one comparisons under unequal variances",
+           "Each level is compared with the control with its own standard error and "
+           "Welch\u2013Satterthwaite degrees of freedom; the single-step test refers the "
+           "comparisons to Dunnett's (1955) multivariate t with the correlations implied by "
+           "the estimated variances of the level means (Hasler & Hothorn, 2008). Its "
+           "intervals hold jointly only approximately.",
+           ("dunnett1955", "hasler2008", "welch1947")),
+    Method("dunnett-rank", "Many-to-one comparisons of mean ranks",
+           "Each level's mean rank is compared with the control's by Dunn's (1964) "
+           "tie-corrected z, and the comparisons are referred jointly to Dunnett's (1955) "
+           "multivariate normal distribution with the correlations that follow from the group "
+           "sizes. Adjusted p values and intervals hold simultaneously in large samples.",
+           ("dunn1964", "dunnett1955")),
     Method("bonferroni", "Bonferroni adjustment",
            "Each p value is multiplied by the number m of hypotheses in the family (capped at 1) "
            "and each interval is set at level 1 \u2212 \u03b1/m, which holds the family-wise "
@@ -528,14 +562,79 @@ _CONTRAST_METHODS = MappingProxyType({
     "classical": "contrasts-classical", "welch": "contrasts-welch", "rank-based": "contrasts-rank"})
 
 
+@dataclass(frozen=True)
+class Adjustment:
+    """The published name of a family's multiplicity control as it was computed.
+
+    `key` is the `METHODS` entry that describes it; `name` is the name as typeset
+    ("Games–Howell"), `note` the phrase of a table note ("Games–Howell
+    single-step"); `approximate` is True when its simultaneous intervals hold only
+    approximately (each comparison keeps its own Welch df).
+    """
+
+    key: str
+    name: str
+    note: str
+    approximate: bool = False
+
+    @property
+    def plain(self) -> str:
+        """The name as the conclusion sentences write names: hyphen, not en dash."""
+        return self.name.replace("\u2013", "-")
+
+
+#: Every multiplicity control by its `METHODS` key: the one place that names them.
+ADJUSTMENTS: Mapping[str, Adjustment] = MappingProxyType({a.key: a for a in (
+    Adjustment("tukey", "Tukey\u2013Kramer", "Tukey\u2013Kramer single-step"),
+    Adjustment("games-howell", "Games\u2013Howell", "Games\u2013Howell single-step", True),
+    Adjustment("nemenyi", "Nemenyi", "Nemenyi's single-step range test on mean ranks"),
+    Adjustment("dunnett", "Dunnett", "Dunnett's many-to-one single-step"),
+    Adjustment("dunnett-welch", "Dunnett with unequal variances",
+               "Dunnett's many-to-one single-step with each level's own variance", True),
+    Adjustment("dunnett-rank", "Dunnett on mean ranks",
+               "Dunnett's many-to-one single-step on Dunn's rank z"),
+    Adjustment("tukey-joint", "Tukey on the joint t",
+               "Tukey's all-pairs single-step on the joint t distribution"),
+    Adjustment("dunnett-joint", "Dunnett on the joint t",
+               "Dunnett's many-to-one single-step on the joint t distribution"),
+    Adjustment("bonferroni", "Bonferroni", "Bonferroni"),
+    Adjustment("sidak", "\u0160id\u00e1k", "\u0160id\u00e1k"),
+    Adjustment("holm", "Holm", "Holm's step-down"),
+    Adjustment("hochberg", "Hochberg", "Hochberg's step-up"),
+    Adjustment("benjamini-hochberg", "Benjamini\u2013Hochberg",
+               "Benjamini\u2013Hochberg, controlling the false discovery rate (not the "
+               "family-wise error rate)"),
+    Adjustment("fixed-sequence", "fixed-sequence", "fixed-sequence testing in the registered order"),
+    Adjustment("unadjusted", "unadjusted", "no adjustment"),
+)})
+
+# The single-step procedures change with the hypotheses' method: Tukey's range with each
+# pair's Welch df is Games & Howell's (1976), on Dunn's rank z with infinite df Nemenyi's
+# (1963); Dunnett's with each level's own variance or on mean ranks is a different test
+# from Dunnett's (1955) with the pooled variance.
+_UNDER_METHOD = MappingProxyType({
+    ("tukey", "welch"): "games-howell", ("tukey", "rank-based"): "nemenyi",
+    ("dunnett", "welch"): "dunnett-welch", ("dunnett", "rank-based"): "dunnett-rank",
+    # on marginal means of a model both are computed on the joint t of the estimates
+    ("tukey", "marginal-means"): "tukey-joint", ("dunnett", "marginal-means"): "dunnett-joint"})
+
+
+def adjustment(multiplicity: str, method: str) -> Adjustment:
+    """The multiplicity control actually computed for a family registered under
+    `multiplicity` whose hypotheses were estimated by `method` (classical, welch,
+    rank-based or marginal-means).
+
+    >>> adjustment("tukey", "welch").plain
+    'Games-Howell'
+    """
+    key = _UNDER_METHOD.get((multiplicity, method),
+                            "unadjusted" if multiplicity == "none" else multiplicity)
+    return ADJUSTMENTS[key]
+
+
 def multiplicity_method(family: Mapping[str, Any]) -> str:
     """The `METHODS` key of a family's multiplicity control (Tukey under Welch: Games-Howell)."""
-    name = family["multiplicity"]
-    if str(family.get("joint") or "").startswith("multivariate-t"):
-        return f"{name}-joint"
-    if name == "tukey" and family["method"] == "welch":
-        return "games-howell"
-    return "unadjusted" if name == "none" else name
+    return adjustment(family["multiplicity"], family["method"]).key
 
 
 def _contrast_methods(results: Mapping[str, Any]) -> list[str]:
@@ -552,7 +651,8 @@ def _contrast_methods(results: Mapping[str, Any]) -> list[str]:
 
 _CONTRAST_ORDER = (
     "contrasts-classical", "contrasts-welch", "contrasts-rank", "custom", "trend", "helmert", "tukey",
-    "games-howell", "dunnett", "tukey-joint", "dunnett-joint", "bonferroni", "sidak", "holm", "hochberg", "benjamini-hochberg",
+    "games-howell", "nemenyi", "dunnett", "dunnett-welch", "dunnett-rank", "tukey-joint",
+    "dunnett-joint", "bonferroni", "sidak", "holm", "hochberg", "benjamini-hochberg",
     "fixed-sequence", "unadjusted", "hedges", "one-sided")
 
 

@@ -258,7 +258,7 @@ def _hypotheses(plan: Plan, contrast):
     return factor, hypotheses_for(contrast.kind, factor.levels, control=factor.control,
                                   weights=weights, degree=contrast.trend_degree,
                                   spacing=contrast.spacing, contrast_id=contrast.id,
-                                  label=contrast.label)
+                                  label=contrast.label, factor_label=factor.label or factor.name)
 
 
 def _raw_result(h, contrast, estimate, by=None, level: str | None = None) -> HypothesisResult:
@@ -273,7 +273,7 @@ def _raw_result(h, contrast, estimate, by=None, level: str | None = None) -> Hyp
         p_adjusted=None, ci_low=estimate.ci_low, ci_high=estimate.ci_high,
         confidence_level=estimate.confidence_level, ci_simultaneous=False, standardized=None,
         decision="unavailable" if estimate.p is None else "retain",
-        warnings=tuple(estimate.warnings))
+        warnings=tuple(estimate.warnings), scale=h.scale)
 
 
 def _members(plan: Plan, contrasts):

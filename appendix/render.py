@@ -33,7 +33,7 @@ from markupsafe import Markup
 
 from appendix import numbers
 from appendix.figures import FIGURE_KINDS, PLOT_POINTS
-from appendix.methods import methods_used, multiplicity_method, references_for
+from appendix.methods import adjustment, methods_used, references_for
 
 PAPER_SIZES = ("A4", "Letter")
 
@@ -100,8 +100,7 @@ def _filters(options: RenderOptions) -> dict[str, Any]:
         "upper_first": _upper_first,
         "contrast_interval": _contrast_interval,
         "error_bound": _error_bound,
-        "multiplicity_name": lambda family: WORDS["multiplicity"].get(
-            multiplicity_method(family), family["multiplicity"]),
+        "adjustment": lambda family: adjustment(family["multiplicity"], family["method"]),
     }
 
 
@@ -146,15 +145,6 @@ WORDS: Mapping[str, Mapping[str, str]] = MappingProxyType({
     "exploratory_decisions": MappingProxyType({
         "reject": "p < α (nominal)", "retain": "p ≥ α (nominal)",
         "not-tested": "not tested", "unavailable": "unavailable"}),
-    "multiplicity": MappingProxyType({  # keys of appendix.methods.multiplicity_method
-        "tukey": "Tukey\u2013Kramer single-step", "games-howell": "Games\u2013Howell single-step",
-        "dunnett": "Dunnett's many-to-one single-step", "bonferroni": "Bonferroni",
-        "tukey-joint": "Tukey's all-pairs single-step on the joint t distribution",
-        "dunnett-joint": "Dunnett's many-to-one single-step on the joint t distribution",
-        "sidak": "\u0160id\u00e1k", "holm": "Holm's step-down", "hochberg": "Hochberg's step-up",
-        "benjamini-hochberg": "Benjamini\u2013Hochberg, controlling the false discovery rate "
-                              "(not the family-wise error rate)",
-        "fixed-sequence": "fixed-sequence testing in the registered order"}),
     "marks": MappingProxyType({
         "registered": "Registered result",
         "comparison": "Shown for comparison, not the registered result"}),

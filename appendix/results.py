@@ -35,6 +35,22 @@ class StatWarning:
 Warnings = tuple[StatWarning, ...]
 
 
+@dataclass(frozen=True)
+class EstimateScale:
+    """What a hypothesis's estimate measures when it is not a difference of level means.
+
+    A trend's estimate is the least-squares slope (linear) or leading polynomial
+    coefficient (higher degrees) over the level scores: `name` is the component ("linear
+    trend"), `meaning` says what its estimate is ("least-squares slope per step between
+    adjacent levels of dose"), `per` what follows the outcome's unit ("per step", "per
+    dose unit\u00b2").
+    """
+
+    name: str
+    meaning: str
+    per: str
+
+
 # --- per-outcome statistics -------------------------------------------------------------
 
 
@@ -240,11 +256,13 @@ class HypothesisResult:
     ``rank-based`` (Dunn 1964 z on mean ranks; the estimate is in mean-rank units).
     `p` is the raw p for the `alternative`; `p_adjusted` the p under the registered
     multiplicity control (None when not tested). `ci_simultaneous` is True when the interval
-    holds jointly for the family (Tukey-Kramer, Games-Howell, Dunnett, Bonferroni, Sidak).
+    holds jointly for the family (Tukey-Kramer, Games-Howell, Nemenyi, Dunnett, Bonferroni, Sidak).
     For one-sided alternatives the open end of the interval is None. `standardized` is the
     estimate over the pooled SD with Hedges' (1981) small-sample correction
     J = 1 - 3 / (4 df - 1). `decision` is ``reject``, ``retain``, ``not-tested`` (a
-    fixed-sequence stop came first) or ``unavailable``.
+    fixed-sequence stop came first) or ``unavailable``. `scale` says what the estimate
+    measures when it is not a difference of means (trends: a slope or polynomial
+    coefficient over the level scores); None otherwise.
     """
 
     id: str
@@ -268,6 +286,7 @@ class HypothesisResult:
     standardized: float | None
     decision: str
     warnings: Warnings = ()
+    scale: EstimateScale | None = None
 
 
 @dataclass(frozen=True)

@@ -133,3 +133,27 @@ def test_a_weighted_contrast_one_sided_and_not_tested(plan):
     assert skipped.sentence == ("Seaweed \u2212 uncoated (C2:seaweed) was not tested under the "
                                 "plan: fixed-sequence testing stopped at an earlier hypothesis "
                                 "that was not rejected.")
+
+
+@pytest.mark.parametrize(("multiplicity", "method", "name"), [
+    ("tukey", "classical", "Tukey-Kramer"),
+    ("tukey", "marginal-means", "Tukey on the joint t"),
+    ("tukey", "welch", "Games-Howell"),
+    ("tukey", "rank-based", "Nemenyi"),
+    ("dunnett", "classical", "Dunnett"),
+    ("dunnett", "marginal-means", "Dunnett on the joint t"),
+    ("dunnett", "welch", "Dunnett with unequal variances"),
+    ("dunnett", "rank-based", "Dunnett on mean ranks"),
+    ("benjamini-hochberg", "welch", "Benjamini-Hochberg"),
+    ("none", "rank-based", "unadjusted"),
+])
+def test_the_sentence_names_the_procedure_computed(plan, multiplicity, method, name):
+    """The registered single-step control changes with the hypotheses' method: Tukey's range
+    with Welch df is Games & Howell's (1976), on Dunn's rank z Nemenyi's (1963)."""
+    from appendix.conclude import hypothesis_conclusion
+
+    sentence = hypothesis_conclusion(plan, plan.outcomes[0], hypothesis(method=method),
+                                     multiplicity).sentence
+    assert f", {name}); the hypothesis of no difference" in sentence
+    if not name.startswith("Tukey"):
+        assert "Tukey" not in sentence

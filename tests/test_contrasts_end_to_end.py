@@ -193,3 +193,105 @@ def test_exploratory_analyses_stay_out_of_the_conclusions(tmp_path: Path):
     html = (tmp_path / "run" / "appendix.html").read_text(encoding="utf-8")
     summary = html[html.index('id="summary"'):html.index('id="unit-flow"')]
     assert "E1" not in summary and 'id="exploratory"' in html
+
+
+def _typeset(value: float) -> str:
+    """Two decimals with the typographic minus, as journals print a number."""
+    return f"{value:.2f}".replace("-", "\u2212")
+
+
+def _games_howell_sentence(study: Path, low: str, high: str) -> str:
+    """The conclusion sentence of pair `high` minus `low` of the invented dose study, its
+    numbers from pingouin 0.7.0 pairwise_gameshowell (mean difference, SE, Welch df,
+    adjusted p) and the simultaneous interval estimate -/+ q(.95; 4, df) / sqrt 2 * SE from
+    scipy 1.17 studentized_range (Games & Howell 1976)."""
+    import pandas as pd
+    import pingouin
+    from scipy import stats
+
+    frame = pd.read_csv(study.parent / "units.csv")
+    ref = pingouin.pairwise_gameshowell(data=frame, dv="y", between="dose")
+    row = ref[(ref["A"] == low) & (ref["B"] == high)].iloc[0]
+    estimate = -float(row["diff"])  # pingouin gives A - B
+    half = float(stats.studentized_range.isf(0.05, 4, float(row["df"]))) / np.sqrt(2) * float(row["se"])
+    p = float(row["pval"])
+    p_words = "adjusted p < .001" if p < 0.001 else f"adjusted p = {p:.3f}".replace("0.", ".", 1)
+    rejected = p < 0.05
+    direction = "higher" if estimate >= 0 else "lower"
+    rest = ("the hypothesis of no difference is rejected at \u03b1 = .05." if rejected else
+            "the hypothesis of no difference is not rejected at \u03b1 = .05, which is not "
+            "evidence that there is no difference.")
+    return (f"Mean response under {high} was {abs(estimate):.2f} mg {direction} than under {low} "
+            f"(95% simultaneous CI {_typeset(estimate - half)} to {_typeset(estimate + half)} mg, "
+            f"{p_words}, Games-Howell); {rest}")
+
+
+def test_tukey_under_welch_is_named_games_howell_everywhere(tmp_path: Path):
+    """analysis.method welch with multiplicity tukey computes Games-Howell pairs: the
+    conclusions, the table note and the Methods section say so, and none says Tukey."""
+    study = write_study(tmp_path, contrasts=only("pairwise"), multiplicity={"method": "tukey"},
+                        sds=(0.2, 0.4, 2.5, 5.0), extra={"analysis": {"method": "welch"}})
+    record = api.run(study, tmp_path / "run", pdf=False)
+    primary = record.results.outcomes[0]
+    assert [f.method for f in primary.contrasts] == ["welch"]
+    sentences = [c.sentence for c in primary.hypothesis_conclusions]
+    assert sentences[0] == _games_howell_sentence(study, "d0", "d1")
+    assert sentences[5] == _games_howell_sentence(study, "d2", "d4")
+    assert all(", Games-Howell); " in s and "Tukey" not in s for s in sentences)
+    html = (tmp_path / "run" / "appendix.html").read_text(encoding="utf-8")
+    assert "Adjusted <i>p</i>: Games&#8211;Howell single-step" in html or \
+        "Adjusted <i>p</i>: Games\u2013Howell single-step" in html
+    assert "Games\u2013Howell pairwise comparisons" in html  # the Methods section
+    assert "Tukey" not in html
+
+
+def test_tukey_after_an_unequal_variance_fallback_is_named_games_howell(tmp_path: Path):
+    """A classical plan whose registered unequal-variance fallback fires: the registered
+    (Welch) family's conclusions name Games-Howell, never Tukey; the classical family shown
+    for comparison keeps its Tukey-Kramer note."""
+    fallback = {"assumptions": {"fallbacks": [{"when": "unequal-variance",
+                                               "test": "brown-forsythe", "threshold": 0.05,
+                                               "use": "welch"}]}}
+    study = write_study(tmp_path, contrasts=only("pairwise"), multiplicity={"method": "tukey"},
+                        sds=(0.2, 0.4, 2.5, 5.0), extra=fallback)
+    record = api.run(study, tmp_path / "run", pdf=False)
+    primary = record.results.outcomes[0]
+    assert primary.contingencies[0].fired and primary.selected_method == "welch"
+    sentences = [c.sentence for c in primary.hypothesis_conclusions]
+    assert len(sentences) == 6
+    assert sentences[2] == _games_howell_sentence(study, "d0", "d4")
+    assert all(", Games-Howell); " in s and "Tukey" not in s for s in sentences)
+    html = (tmp_path / "run" / "appendix.html").read_text(encoding="utf-8")
+    assert "Games\u2013Howell single-step" in html and "Tukey\u2013Kramer single-step" in html
+
+
+def test_one_way_trend_estimates_are_slope_and_curvature_in_outcome_units(tmp_path: Path):
+    """Balanced one-way data (10 units per dose): the linear trend is the least-squares slope
+    of the dose means on the registered spacing, the quadratic its x^2 coefficient, and the
+    sentence says which scale each is on."""
+    import pandas as pd
+    from scipy import stats
+
+    study = write_study(tmp_path, contrasts=only("trend"), multiplicity={"method": "none"})
+    results = api.compute(study).results
+    primary = results.outcomes[0]
+    linear, quadratic = primary.contrasts[0].hypotheses
+    frame = pd.read_csv(tmp_path / "units.csv")
+    means = frame.groupby("dose")["y"].mean()[LEVELS].to_numpy()
+    x = np.array([0.0, 1.0, 2.0, 4.0])
+    slope = stats.linregress(x, means).slope  # scipy 1.17.1 stats.linregress
+    assert linear.estimate == pytest.approx(slope, rel=1e-10)
+    # numpy 2.4.6 polyfit(x, means, 2)[0]: the x^2 coefficient of the quadratic fit
+    assert quadratic.estimate == pytest.approx(np.polyfit(x, means, 2)[0], rel=1e-9)
+    sentence = primary.hypothesis_conclusions[0].sentence
+    assert sentence.startswith(
+        "The linear trend (C4:linear) of mean response, its least-squares slope per dose unit "
+        f"of the registered spacing 0, 1, 2, 4, was estimated at {slope:.2f} mg per dose unit "
+        "(95% CI ")
+    assert "mg per dose unit, p < .001, unadjusted); the hypothesis of no linear trend is " \
+           "rejected at \u03b1 = .05." in sentence
+    assert primary.hypothesis_conclusions[1].sentence.startswith(
+        "The quadratic trend (C4:quadratic) of mean response, its coefficient of x\u00b2 in the "
+        "least-squares quadratic in x, x in dose units of the registered spacing 0, 1, 2, 4, "
+        "was estimated at ")
+    assert " mg per dose unit\u00b2 (95% CI " in primary.hypothesis_conclusions[1].sentence

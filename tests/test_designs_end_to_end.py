@@ -272,7 +272,56 @@ multiplicity: {method: none}
     wide = frame.pivot(index="unit_id", columns="visit", values="index")[["day7", "day14", "day21", "day28"]]
     scores = wide.to_numpy() @ np.array(trend.weights)
     assert trend.p == pytest.approx(stats.ttest_1samp(scores, 0.0).pvalue, rel=1e-9)
+    # On the slope scale: the least-squares slope of the visit means per visit step
+    # (scipy 1.17.1 stats.linregress on the means of the complete units).
+    slope = stats.linregress(np.arange(4.0), wide.mean(axis=0).to_numpy()).slope
+    assert trend.estimate == pytest.approx(slope, rel=1e-10)
+    assert model.hypothesis_conclusions[0].sentence.startswith(
+        "The linear trend (T1:linear) of mean Leaf index, its least-squares slope per step "
+        f"between adjacent levels of visit, was estimated at {slope:.2f} per step (95% CI ")
     assert "all units" in render(computed).html
+
+
+def test_trend_on_marginal_means_is_the_slope_of_a_balanced_design(tmp_path):
+    """Two crossed factors, balanced, no covariate: the marginal means of coating are its
+    raw level means, so the linear and quadratic trends over the registered spacing are the
+    least-squares slope and x^2 coefficient of those means."""
+    from scipy import stats
+
+    rng = np.random.default_rng(12)
+    coatings, spacing = ["none", "thin", "thick"], [0.0, 1.0, 3.0]
+    rows = [(f"P{c}{w}{i}", coating, water, f"{15 + 2.0 * x - 0.4 * x * x + w + rng.normal(0, 1):.2f}")
+            for c, (coating, x) in enumerate(zip(coatings, spacing))
+            for w, water in enumerate(["steady", "pulsed"]) for i in range(4)]
+    frame = pd.DataFrame(rows, columns=["unit_id", "coating", "water", "mass"])
+    frame.to_csv(tmp_path / "units.csv", index=False)
+    (tmp_path / "study.yaml").write_text("""\
+format: 1
+study: {id: invented-trend, title: Invented balanced factorial for tests}
+data: {source: units.csv, unit: unit_id}
+design:
+  factors:
+    - {name: coating, label: coat thickness, levels: [none, thin, thick], ordered: true}
+    - {name: water, levels: [steady, pulsed]}
+  sums_of_squares: 2
+outcomes:
+  - {name: mass, label: Dry mass, unit: g, role: primary}
+contrasts:
+  - {id: T1, factor: coating, kind: trend, degree: 2, spacing: [0, 1, 3], label: Thickness trend}
+multiplicity: {method: none}
+""", encoding="utf-8")
+    (model,) = compute(tmp_path / "study.yaml").results.models
+    linear, quadratic = model.contrasts[0].hypotheses
+    means = frame.assign(mass=frame["mass"].astype(float)).groupby("coating")["mass"].mean()[coatings]
+    # References: scipy 1.17.1 stats.linregress(...).slope; numpy 2.4.6 polyfit(..., 2)[0].
+    assert linear.estimate == pytest.approx(stats.linregress(spacing, means.to_numpy()).slope, rel=1e-9)
+    assert quadratic.estimate == pytest.approx(np.polyfit(spacing, means.to_numpy(), 2)[0], rel=1e-9)
+    assert linear.scale.per == "per coat thickness unit"
+    assert model.hypothesis_conclusions[1].sentence.startswith(
+        "The quadratic trend (T1:quadratic) of mean Dry mass, its coefficient of x\u00b2 in the "
+        "least-squares quadratic in x, x in coat thickness units of the registered spacing "
+        "0, 1, 3, was estimated at ")
+    assert " g per coat thickness unit\u00b2 (95% CI " in model.hypothesis_conclusions[1].sentence
 
 
 def test_primary_family_and_exploratory_entries_for_designs(tmp_path):

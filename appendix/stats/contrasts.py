@@ -174,7 +174,7 @@ def unavailable(h: Hypothesis, model: LevelModel, alternative: str, confidence: 
         alternative=alternative, method=model.method, estimate=None, se=None, statistic=None,
         statistic_name=_statistic_name(model), df=None, p=None, p_adjusted=None, ci_low=None,
         ci_high=None, confidence_level=confidence, ci_simultaneous=False, standardized=None,
-        decision="unavailable", warnings=tuple(warnings))
+        decision="unavailable", warnings=tuple(warnings), scale=h.scale)
 
 
 def _statistic_name(model: LevelModel) -> str:
@@ -236,7 +236,8 @@ def contrast_result(h: Hypothesis, model: LevelModel, alternative: str,
         statistic=statistic, statistic_name=_statistic_name(model),
         df=None if df is None or math.isinf(df) else df, p=p, p_adjusted=p,
         ci_low=low, ci_high=high, confidence_level=confidence, ci_simultaneous=False,
-        standardized=standardized, decision="reject" if p < 1.0 - confidence else "retain")
+        standardized=standardized, decision="reject" if p < 1.0 - confidence else "retain",
+        scale=h.scale)
 
 
 def classical_contrast(h: Hypothesis, cells: CellStats, alternative: str,

@@ -112,7 +112,8 @@ def _primary(values: np.ndarray, codes: np.ndarray) -> R.OutcomeResult:
 # (id, contrast, kind, label, weights, alternative) in registered order
 REGISTERED = (
     ("C1", "C1", "custom", "active doses versus placebo", (-1.0, 0.5, 0.5), "two-sided"),
-    ("C2:linear", "C2", "trend", "linear trend", (-0.5 ** 0.5, 0.0, 0.5 ** 0.5), "less"),
+    # the slope per step of three equally spaced levels: (x - mean x) / sum (x - mean x)^2
+    ("C2:linear", "C2", "trend", "linear trend", (-0.5, 0.0, 0.5), "less"),
     ("C3:low dose", "C3", "versus-control", "low dose \u2212 placebo", (-1.0, 1.0, 0.0),
      "two-sided"),
     ("C3:high dose", "C3", "versus-control", "high dose \u2212 placebo", (-1.0, 0.0, 1.0),
@@ -163,7 +164,11 @@ def _hypothesis(spec, method: str, groups, confidence: float = 0.95) -> R.Hypoth
         alternative=alternative, method=method, estimate=estimate, se=se, statistic=t,
         statistic_name="t", df=df, p=p, p_adjusted=None, ci_low=low, ci_high=high,
         confidence_level=confidence, ci_simultaneous=False, standardized=float(hedges),
-        decision="retain")
+        decision="retain", scale=TREND_SCALE if kind == "trend" else None)
+
+
+TREND_SCALE = R.EstimateScale("linear trend", "least-squares slope per step between adjacent "
+                              "levels of dose", "per step")
 
 
 def _fixed_sequence(hypotheses, alpha: float = 0.05) -> tuple[R.HypothesisResult, ...]:

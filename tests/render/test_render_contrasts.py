@@ -25,7 +25,8 @@ PAIN = "Planned contrasts of Pain score, classical (pooled variance) analysis"
 EXPLORATORY = ("Exploratory contrasts of Change in systolic blood pressure, classical (pooled "
                "variance) analysis")
 CONTRAST_KEYS = {"contrasts-classical", "contrasts-welch", "contrasts-rank", "trend", "helmert",
-                 "tukey", "games-howell", "dunnett", "bonferroni", "sidak", "holm", "hochberg",
+                 "tukey", "games-howell", "nemenyi", "dunnett", "dunnett-welch", "dunnett-rank",
+                 "bonferroni", "sidak", "holm", "hochberg",
                  "benjamini-hochberg", "fixed-sequence", "unadjusted", "hedges", "one-sided"}
 
 
@@ -61,8 +62,9 @@ def test_registered_family_rows_show_every_column_formatted(tables):
     assert _body(tables[WELCH]) == [
         ["active doses versus placebo C1", f"{M}5.29", f"[{M}9.14, {M}1.45]",
          f"t(17.38) = {M}2.90", ".010", ".010", f"{M}1.11", "rejected"],
-        ["linear trend C2:linear one-sided, H1: estimate < 0", f"{M}5.43", f"[{M}\u221e, {M}2.78]",
-         f"t(13.51) = {M}3.62", ".001", ".010", f"{M}1.14", "rejected"],
+        # the slope per step, half the high dose minus placebo difference (7.68 / 2)
+        ["linear trend C2:linear one-sided, H1: estimate < 0", f"{M}3.84", f"[{M}\u221e, {M}1.97]",
+         f"t(13.51) = {M}3.62", ".001", ".010", f"{M}0.81", "rejected"],
         [f"low dose {M} placebo C3:low dose", f"{M}2.91", f"[{M}7.84, 2.01]",
          f"t(12.86) = {M}1.28", ".223", ".223", f"{M}0.61", "not rejected"],
         [f"high dose {M} placebo C3:high dose", f"{M}7.68", f"[{M}12.24, {M}3.11]",
@@ -95,6 +97,9 @@ def test_family_note_names_method_multiplicity_scope_and_interval_kind(page):
     assert "their intervals are open (\u221e) on the side" in note
     assert "Not tested under the plan: the fixed sequence stopped" in note
     assert "(Hedges, 1981)." in note
+    assert ("Trend estimates are not differences of means. Linear trend: the least-squares "
+            "slope per step between adjacent levels of dose (mmHg per step). Their t and p do "
+            "not depend on this scale.") in note
 
 
 def test_simultaneous_intervals_are_stated(plain_results, figures):
@@ -267,7 +272,10 @@ def _set_families(plain, multiplicity, method):
 @pytest.mark.parametrize(("multiplicity", "method", "keys", "reference"), [
     ("tukey", "classical", ["contrasts-classical", "tukey"], "kramer1956"),
     ("tukey", "welch", ["contrasts-welch", "games-howell"], "games1976"),
+    ("tukey", "rank-based", ["contrasts-rank", "nemenyi"], "nemenyi1963"),
     ("dunnett", "classical", ["contrasts-classical", "dunnett"], "dunnett1955"),
+    ("dunnett", "welch", ["contrasts-welch", "dunnett-welch"], "hasler2008"),
+    ("dunnett", "rank-based", ["contrasts-rank", "dunnett-rank"], "dunn1964"),
     ("bonferroni", "classical", ["contrasts-classical", "bonferroni"], "dunn1961"),
     ("sidak", "welch", ["contrasts-welch", "sidak"], "sidak1967"),
     ("holm", "rank-based", ["contrasts-rank", "holm"], "holm1979"),
@@ -324,10 +332,15 @@ def test_forest_caption_says_what_the_intervals_are(page, plain_results, figures
                               "analysis, the registered result, with 95% confidence "
                               "intervals, not adjusted for multiplicity (not simultaneous);")
     assert "An arrow marks an interval open" in caption and "labelled gaps" in caption
+    assert ("Trend estimates are on their own scales, slopes or polynomial coefficients over "
+            "the level scores, which the table note states.") in caption
     changed = copy.deepcopy(plain_results)
     family = changed["outcomes"][1]["contrasts"][0]
+    family.update(multiplicity="tukey")  # pairs under welch: Games-Howell
     for h in family["hypotheses"]:
         h.update(alternative="two-sided", decision="reject", ci_simultaneous=True)
     caption = _forest_caption(parse(render_html(changed, figures, RenderOptions())))
-    assert "95% confidence intervals, simultaneous for the family;" in caption
+    assert ("95% confidence intervals, simultaneous for the family (Games\u2013Howell, "
+            "approximately);") in caption
+    assert "Tukey" not in caption
     assert "arrow" not in caption and "gaps" not in caption

@@ -16,7 +16,8 @@ import scipy.stats as st
 from appendix.errors import InternalError
 from appendix.stats.cells import cell_stats
 from appendix.stats.contrasts import (
-    classical_contrast, hypotheses_for, orthogonal_polynomials, rank_contrast, welch_contrast,
+    Hypothesis, classical_contrast, hypotheses_for, orthogonal_polynomials, rank_contrast,
+    welch_contrast,
 )
 
 COATINGS = ("uncoated", "chitosan", "seaweed", "humic")
@@ -106,6 +107,81 @@ def test_trend_unequal_spacing_matches_patsy() -> None:
     hs = hypotheses_for("trend", ("a", "b", "c", "d", "e", "f"), degree=5,
                         spacing=[1, 2, 4, 8, 16, 32], contrast_id="T", label="t")
     assert hs[4].id == "T:degree-5" and hs[3].label == "degree-4 trend"
+
+
+def _balanced(seed: int, k: int, n: int = 6):
+    """Invented balanced data: seeded normal draws around a curved dose response."""
+    rng = np.random.default_rng(seed)
+    codes = np.repeat(np.arange(k), n)
+    centres = 12 + 1.7 * np.arange(k) - 0.3 * np.arange(k) ** 2
+    return rng.normal(centres[codes], 1.5), codes
+
+
+@pytest.mark.parametrize("spacing", [None, [0.0, 1.0, 2.0, 4.0, 8.0]])
+def test_trend_estimates_are_slope_and_leading_coefficients(spacing) -> None:
+    """Balanced one-way data: the linear estimate is the least-squares slope of the level
+    means on the scores, the degree-d estimate the x^d coefficient of the degree-d fit."""
+    levels = ("a", "b", "c", "d", "e")
+    values, codes = _balanced(21, 5)
+    cells = cell_stats(values, codes, 5, levels)
+    hs = hypotheses_for("trend", levels, degree=4, spacing=spacing, contrast_id="T",
+                        label="dose trend", factor_label="dose")
+    got = [classical_contrast(h, cells, "two-sided", 0.95) for h in hs]
+    x = np.arange(5.0) if spacing is None else np.asarray(spacing)
+    means = np.array([values[codes == i].mean() for i in range(5)])
+    # Reference: scipy 1.17.1 stats.linregress(x, means).slope.
+    assert got[0].estimate == pytest.approx(st.linregress(x, means).slope, rel=1e-10)
+    for degree in (1, 2, 3, 4):
+        # Reference: numpy 2.4.6 polyfit(x, means, degree)[0], the x^degree coefficient.
+        assert got[degree - 1].estimate == pytest.approx(np.polyfit(x, means, degree)[0],
+                                                         rel=1e-8)
+    orthonormal = orthogonal_polynomials(x, 4)
+    for degree, (h, r) in enumerate(zip(hs, got), start=1):
+        # t and p are those of the orthonormal contrast; the estimate and its interval are
+        # scaled by 1 / (q_d . (x - mean x)^d), the factor trend_weights documents.
+        q = orthonormal[degree - 1]
+        unit = classical_contrast(Hypothesis(h.id, h.contrast, h.kind, h.label, tuple(q)), cells,
+                                  "two-sided", 0.95)
+        factor = 1.0 / float(np.dot(q, (x - x.mean()) ** degree))
+        assert (r.statistic, r.p, r.df) == pytest.approx((unit.statistic, unit.p, unit.df), rel=1e-10)
+        assert (r.estimate, r.ci_low, r.ci_high) == pytest.approx(
+            (unit.estimate * factor, unit.ci_low * factor, unit.ci_high * factor), rel=1e-10)
+        assert r.scale == h.scale
+    assert [r.scale.name for r in got] == ["linear trend", "quadratic trend", "cubic trend",
+                                           "degree-4 trend"]
+
+
+def test_trend_scales_are_worded_with_the_factor_and_spacing() -> None:
+    linear, quadratic = hypotheses_for("trend", COATINGS, degree=2, contrast_id="C4",
+                                       label="dose", factor_label="dose")
+    assert (linear.scale.meaning, linear.scale.per) == (
+        "least-squares slope per step between adjacent levels of dose", "per step")
+    assert (quadratic.scale.meaning, quadratic.scale.per) == (
+        "coefficient of x\u00b2 in the least-squares quadratic in x, x in steps between "
+        "adjacent levels of dose", "per step\u00b2")
+    (spaced,) = hypotheses_for("trend", COATINGS, spacing=[0, 1, 2, 4], contrast_id="C4",
+                               label="dose", factor_label="dose")
+    assert (spaced.scale.meaning, spaced.scale.per) == (
+        "least-squares slope per dose unit of the registered spacing 0, 1, 2, 4", "per dose unit")
+    # (x - mean x) / sum (x - mean x)^2 for x = 0, 1, 2, 4: mean 7/4, sum of squares 35/4
+    assert spaced.weights == pytest.approx(tuple((v - 1.75) / 8.75 for v in (0, 1, 2, 4)), rel=1e-12)
+    pairs = hypotheses_for("pairwise", COATINGS, contrast_id="C3", label="pairs")
+    assert all(h.scale is None for h in pairs)
+
+
+def test_welch_and_rank_trends_keep_t_and_p_on_the_new_scale() -> None:
+    values, codes = _invented(15)
+    cells = cell_stats(values, codes, 4, COATINGS)
+    (h,) = hypotheses_for("trend", COATINGS, contrast_id="C4", label="dose")
+    q = tuple(orthogonal_polynomials([0, 1, 2, 3], 1)[0])
+    unit = Hypothesis(h.id, h.contrast, h.kind, h.label, q)
+    factor = 1.0 / float(np.dot(q, np.arange(4.0) - 1.5))  # = 1 / sqrt(5)
+    assert factor == pytest.approx(1 / math.sqrt(5), rel=1e-12)
+    for new, old in ((welch_contrast(h, cells, "less", 0.95), welch_contrast(unit, cells, "less", 0.95)),
+                     (rank_contrast(h, values, codes, 4, "two-sided"),
+                      rank_contrast(unit, values, codes, 4, "two-sided"))):
+        assert (new.statistic, new.p) == pytest.approx((old.statistic, old.p), rel=1e-10)
+        assert new.estimate == pytest.approx(old.estimate * factor, rel=1e-10)
 
 
 # --- classical --------------------------------------------------------------------
