@@ -664,11 +664,11 @@ def render_page(diff: RunDiff) -> str:
     """The diff as one self-contained HTML page in the appendix's look (no scripts)."""
     import jinja2
 
-    from appendix.render import template_root
+    from appendix.render import template_root, visible_controls
 
     env = jinja2.Environment(loader=jinja2.FileSystemLoader(str(template_root())), autoescape=True,
                              undefined=jinja2.StrictUndefined, trim_blocks=True, lstrip_blocks=True,
-                             keep_trailing_newline=True)
+                             keep_trailing_newline=True, finalize=visible_controls)
     env.filters.update({"num": number_text, "short_hash": lambda d: (d or "absent")[:12],
                         "plan_value": lambda v: json.dumps(v, ensure_ascii=False)})
     return env.get_template("diff.html.j2").render(

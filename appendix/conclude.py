@@ -199,9 +199,9 @@ def hypothesis_conclusion(plan: Plan, outcome: Outcome, h: HypothesisResult,
         first = (f"The contrast {ref} of {measure} was estimated at "
                  f"{fmt.fixed(h.estimate, 2)}{unit} ({evidence})")
         null, absent = "a zero contrast", "no difference"
-    if "@" in h.id:  # a simple effect: the comparison within one level of another factor
+    if h.within is not None:  # a simple effect: the comparison within one level of another factor
         by = plan.factor_named(_contrast_of(plan, h).by)
-        first = f"Within {by.label or by.name} {h.id.split('@', 1)[1]}, {first[:1].lower()}{first[1:]}"
+        first = f"Within {by.label or by.name} {h.within}, {first[:1].lower()}{first[1:]}"
     if h.alternative != "two-sided":
         null += f" against the one-sided alternative '{h.alternative}'"
     if h.decision == "reject":

@@ -273,7 +273,7 @@ def _raw_result(h, contrast, estimate, by=None, level: str | None = None) -> Hyp
         p_adjusted=None, ci_low=estimate.ci_low, ci_high=estimate.ci_high,
         confidence_level=estimate.confidence_level, ci_simultaneous=False, standardized=None,
         decision="unavailable" if estimate.p is None else "retain",
-        warnings=tuple(estimate.warnings), scale=h.scale)
+        warnings=tuple(estimate.warnings), scale=h.scale, within=level)
 
 
 def _members(plan: Plan, contrasts):

@@ -175,6 +175,21 @@ def _error_bound(value: float) -> str:
     return numbers.no_leading_zero(f"{10.0 ** exponent:.{max(-exponent, 0)}f}")
 
 
+#: Unicode bidirectional embedding, override and isolate controls (U+202A-U+202E,
+#: U+2066-U+2069) and the invisible marks U+200E, U+200F, U+061C: in a label they can make
+#: text read other than it is stored (Boucher & Anderson 2021, "Trojan Source").
+_BIDI = re.compile("[\u202a-\u202e\u2066-\u2069\u200e\u200f\u061c]")
+
+
+def visible_controls(value: Any) -> Any:
+    """Every bidirectional control in a value shown as ``[U+202E]``, visibly, so that user
+    text reads as stored; used as the templates' finalize hook, so it covers every value."""
+    if not isinstance(value, str) or not _BIDI.search(value):
+        return value
+    shown = _BIDI.sub(lambda m: f"[U+{ord(m.group()):04X}]", str(value))
+    return Markup(shown) if isinstance(value, Markup) else shown
+
+
 def _upper_first(text: str) -> str:
     """Capitalise a sentence start only; `str.capitalize` would lower "HbA1c" to "Hba1c"."""
     return text[:1].upper() + text[1:]
@@ -238,6 +253,7 @@ def render_html(results: dict, figures: dict[str, str], options: RenderOptions) 
         trim_blocks=True,
         lstrip_blocks=True,
         keep_trailing_newline=True,
+        finalize=visible_controls,
     )
     env.filters.update(_filters(options))
     methods = methods_used(results)

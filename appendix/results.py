@@ -262,7 +262,9 @@ class HypothesisResult:
     J = 1 - 3 / (4 df - 1). `decision` is ``reject``, ``retain``, ``not-tested`` (a
     fixed-sequence stop came first) or ``unavailable``. `scale` says what the estimate
     measures when it is not a difference of means (trends: a slope or polynomial
-    coefficient over the level scores); None otherwise.
+    coefficient over the level scores); None otherwise. `within` is the level of the
+    contrast's `by` factor a simple effect is taken within (its id then ends ``@level``);
+    None for a contrast across all levels.
     """
 
     id: str
@@ -287,6 +289,7 @@ class HypothesisResult:
     decision: str
     warnings: Warnings = ()
     scale: EstimateScale | None = None
+    within: str | None = None
 
 
 @dataclass(frozen=True)

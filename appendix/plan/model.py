@@ -109,7 +109,7 @@ def _is(default: object):
 class _Frozen(BaseModel):
     # Lax by default so that YAML lists fill tuples and ISO text fills dates; numbers and
     # flags are strict per field, so that `format: true` or `ordered: 1` are reported.
-    model_config = ConfigDict(extra="forbid", frozen=True, strict=False)
+    model_config = ConfigDict(extra="forbid", frozen=True, strict=False, allow_inf_nan=False)
 
 
 class Study(_Frozen):
