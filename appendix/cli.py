@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import argparse
 import datetime as _dt
+import errno
 import os
 import sys
 import traceback
@@ -23,6 +24,11 @@ from appendix.errors import UserError
 EXIT_OK, EXIT_ATTENTION, EXIT_USAGE, EXIT_BUG = 0, 1, 2, 3
 #: The shell's convention for a process stopped by SIGINT (2) and SIGTERM (15): 128 + signal.
 EXIT_INTERRUPTED, EXIT_TERMINATED = 130, 143
+
+
+#: Errors of the machine, not of appendix: disk full, quota, read-only, permission.
+_MACHINE_ERRNOS = frozenset({errno.ENOSPC, errno.EDQUOT, errno.EROFS, errno.EACCES, errno.EPERM,
+                             errno.EFBIG, errno.EIO})
 
 
 class Terminated(BaseException):
@@ -190,11 +196,24 @@ def main(argv: Sequence[str] | None = None, *, stdout: TextIO | None = None,
     except UserError as error:
         print(f"error: {error}", file=err)
         return EXIT_USAGE
+    except OSError as error:
+        if error.errno in _MACHINE_ERRNOS:  # a full or read-only disk, no permission, full stdout
+            where = f" ({error.filename})" if error.filename else ""
+            print(f"error: cannot write or read{where}: {error.strerror}; nothing was replaced",
+                  file=err)
+            return EXIT_USAGE
+        return _bug(error, cwd, clock, err)
     except Exception as error:  # a bug: say so, log it, never a bare traceback
-        log = _log_bug(error, cwd, clock())
-        print(f"internal error (a bug in appendix): {error!r}\n"
-              f"details were written to {log}", file=err)
-        return EXIT_BUG
+        return _bug(error, cwd, clock, err)
+
+
+def _bug(error: BaseException, cwd: Path, clock, err: TextIO) -> int:
+    try:
+        where = f"details were written to {_log_bug(error, cwd, clock())}"
+    except OSError as failed:  # the log itself could not be written
+        where = f"no log could be written ({failed.strerror})"
+    print(f"internal error (a bug in appendix): {error!r}\n{where}", file=err)
+    return EXIT_BUG
 
 
 def console() -> None:
@@ -202,4 +221,16 @@ def console() -> None:
     import signal
 
     signal.signal(signal.SIGTERM, _on_terminate)
-    sys.exit(main())
+    code = main()
+    try:
+        sys.stdout.flush()  # a full stdout shows here, after the command, when it is a file
+    except BrokenPipeError:
+        pass
+    except OSError as error:
+        print(f"error: cannot write the output: {error.strerror}", file=sys.stderr)
+        code = EXIT_USAGE
+    try:  # nothing left for the interpreter's own flush to fail on
+        sys.stdout = open(os.devnull, "w")  # noqa: SIM115 - held until the process ends
+    except OSError:
+        pass
+    sys.exit(code)
