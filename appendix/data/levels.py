@@ -116,7 +116,8 @@ def reading_findings(column: str, levels: Sequence[str],
 
 def level_hint(text: str, levels: Sequence[str]) -> str:
     """What to add to the message about a cell read as no level: the levels equal in
-    value to it (read as neither, or not read by value as some level is not a number),
+    value to it (read as neither, or not read by value as some level is not a number,
+    or equal once a decimal comma is read as a point),
     else the level closest in value if it is close (see `CLOSE`), else a near spelling.
 
     >>> level_hint("1.0000001", ["1", "2"])
@@ -127,6 +128,11 @@ def level_hint(text: str, levels: Sequence[str]) -> str:
     value = decimal_value(text)
     numbers = [(code, decimal_value(level)) for code, level in enumerate(levels)]
     numbers = [(code, v) for code, v in numbers if v is not None]
+    if value is None and text.count(",") == 1:  # a decimal comma: '1,0' means 1, not '10'
+        comma = decimal_value(text.replace(",", "."))
+        equal = [levels[code] for code, v in numbers if comma is not None and v == comma]
+        if equal:
+            return f"; did you mean {one_of(equal)}? (numbers are written with a decimal point)"
     if value is None or not numbers:
         return did_you_mean(text, levels)
     equal = [levels[code] for code, v in numbers if v == value]

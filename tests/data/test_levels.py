@@ -85,7 +85,11 @@ CLOSE_HINT = "(close in value but not equal; levels are never rounded)"
     ("placebo1", ["placebo", "1"], "; did you mean 'placebo'?"),
     ("Placebo", ["placebo", "1"], "; did you mean 'placebo'?"),
     ("1e" + "9" * 20, ["1", "2"], ""),
+    ("1,0", ["1", "2", "10"], "; did you mean '1'? (numbers are written with a decimal point)"),
+    ("2,5", ["1", "2.5", "high"], "; did you mean '2.5'? (numbers are written with a decimal point)"),
+    ("1,5", ["1", "2", "10"], ""),
 ])
 def test_hints_for_cells_read_as_no_level(cell, levels, hint):
     assert LevelReading.of(levels).code(cell) == -1
     assert level_hint(cell, levels) == hint
+
