@@ -151,7 +151,7 @@ def test_csv_cells_equal_in_value_are_read_as_the_level_with_a_finding(tmp_path,
     loaded = _one_factor(tmp_path, "u1,1,no,5,1.5,7\nu2,1.0,no,5,2.5,8\nu3,01,no,5,3,9\n"
                                    "u4,2,no,5,4,7\nu5,2.00,yes,5,1,7\nu6,10,no,5,2,7\n"
                                    "u7,1.0,no,5,2,7\nu8,1e1,no,5,3,7\nu9, 1 ,no,5,3,7\n")
-    for dataset in _every_path(monkeypatch, loaded):
+    for dataset in _every_path(monkeypatch, loaded, out_of_core=True):
         assert dataset.findings == (_read("1", 2, "1.0"), _read("1", 1, "01"),
                                     _read("2", 1, "2.00"), _read("10", 1, "1e1"))
         assert [(c.level, c.n) for c in dataset.unit_flow.read] == [("1", 5), ("2", 2), ("10", 2)]
@@ -173,7 +173,7 @@ def test_csv_cells_read_as_no_level_name_a_level_close_or_equal_in_value(tmp_pat
         f"  {path}:5: arm: got '0.5' on line 5; {ALLOWED}",
         f"  {path}:6: arm: got '9.9999' on line 6; {ALLOWED}; did you mean '10'? {close}",
     ])
-    for error in _every_path(monkeypatch, loaded):
+    for error in _every_path(monkeypatch, loaded, out_of_core=True):
         assert isinstance(error, DataError) and str(error) == expected
 
 
@@ -185,7 +185,7 @@ def test_levels_that_are_not_all_numbers_are_read_by_text_only(tmp_path, monkeyp
         f"  {tmp_path / 'units.csv'}:3: arm: got '1.0' on line 3; allowed: one of the plan's "
         "levels '1', '2' or 'high'; did you mean '1'? (equal in value, but cells are read by "
         "value only when every level is a number)"])
-    for error in _every_path(monkeypatch, loaded):
+    for error in _every_path(monkeypatch, loaded, out_of_core=True):
         assert str(error) == expected
 
 
@@ -196,7 +196,7 @@ def test_a_cell_equal_to_two_levels_is_read_as_neither(tmp_path, monkeypatch):
         "1 problem in the data:",
         f"  {tmp_path / 'units.csv'}:4: arm: got '1.00' on line 4; allowed: one of the plan's "
         "levels '1', '1.0' or '2'; equal in value to the levels '1' and '1.0', so read as neither"])
-    for error in _every_path(monkeypatch, loaded):
+    for error in _every_path(monkeypatch, loaded, out_of_core=True):
         assert str(error) == expected
 
 
@@ -208,12 +208,12 @@ def test_parquet_numbers_and_texts_for_number_like_levels(tmp_path, monkeypatch)
                       "pain": [1.5, 2.0, 3.0, 4.0, 5.0], "sleep": [7.0] * 5})
     pq.write_table(table, tmp_path / "units.parquet")
     loaded = load_plan(write_study(tmp_path, "units.parquet", 1, arm=NUMERIC))
-    for dataset in (build_dataset(loaded),):
+    for dataset in (build_dataset(loaded), build_dataset_out_of_core(loaded)):
         assert dataset.findings == ()
         assert dataset.outcome("pain").codes.tolist() == [0, 1, 2, 0, 1]
     pq.write_table(table.set_column(1, "arm", pa.array(["1.0", "2", "10.00", "1.0", "2"])),
                    tmp_path / "units.parquet")
-    for dataset in (build_dataset(loaded),):
+    for dataset in (build_dataset(loaded), build_dataset_out_of_core(loaded)):
         assert dataset.findings == (_read("1", 2, "1.0"), _read("10", 1, "10.00"))
         assert dataset.outcome("pain").codes.tolist() == [0, 1, 2, 0, 1]
     pq.write_table(table.set_column(1, "arm", pa.array([1.0, 2.0, 10.0, 1.0000001, 0.1 + 0.2])),
@@ -223,7 +223,7 @@ def test_parquet_numbers_and_texts_for_number_like_levels(tmp_path, monkeypatch)
         f"  {tmp_path / 'units.parquet'}:5: arm: got '1.0000001' on line 5; {ALLOWED}; did you "
         "mean '1'? (close in value but not equal; levels are never rounded)",
         f"  {tmp_path / 'units.parquet'}:6: arm: got '0.30000000000000004' on line 6; {ALLOWED}"])
-    for build in (build_dataset,):
+    for build in (build_dataset, build_dataset_out_of_core):
         with pytest.raises(DataError) as caught:
             build(loaded)
         assert str(caught.value) == expected
@@ -235,7 +235,7 @@ def test_parquet_float_for_a_level_written_with_more_digits(tmp_path):
                       "sleep": [7.0] * 3})
     pq.write_table(table, tmp_path / "units.parquet")
     loaded = load_plan(write_study(tmp_path, "units.parquet", 1, arm="['0.50', '0.25']"))
-    for dataset in (build_dataset(loaded),):
+    for dataset in (build_dataset(loaded), build_dataset_out_of_core(loaded)):
         assert dataset.findings == (_read("0.50", 2, "0.5"),)
         assert dataset.outcome("pain").codes.tolist() == [0, 1, 0]
 
