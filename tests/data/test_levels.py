@@ -6,11 +6,21 @@ from __future__ import annotations
 
 import doctest
 
+import pyarrow as pa
+import pyarrow.parquet as pq
 import pytest
 
+import appendix.data.columnar as columnar
+import appendix.data.design_vectorised as design_vectorised
 import appendix.data.levels as levels_module
+import appendix.data.scan as scan
+from appendix.data.build import build_dataset
 from appendix.data.levels import LevelReading, level_hint, reading_findings
+from appendix.data.outofcore import build_dataset_out_of_core
+from appendix.errors import DataError, UserError
+from appendix.plan.load import load_plan
 from appendix.results import Finding
+from tests.data.helpers import write_study
 
 
 def test_docstring_examples_hold():
@@ -95,19 +105,6 @@ def test_hints_for_cells_read_as_no_level(cell, levels, hint):
 
 
 # --- the data stage, every path --------------------------------------------------------
-
-import numpy as np  # noqa: E402
-import pyarrow as pa  # noqa: E402
-import pyarrow.parquet as pq  # noqa: E402
-
-import appendix.data.columnar as columnar  # noqa: E402
-import appendix.data.design_vectorised as design_vectorised  # noqa: E402
-import appendix.data.scan as scan  # noqa: E402
-from appendix.data.build import build_dataset  # noqa: E402
-from appendix.data.outofcore import build_dataset_out_of_core  # noqa: E402
-from appendix.errors import DataError, UserError  # noqa: E402
-from appendix.plan.load import load_plan  # noqa: E402
-from tests.data.helpers import write_study  # noqa: E402
 
 HEADER = "unit_id,arm,violated,dose,pain,sleep\n"
 NUMERIC = "[1, 2, 10], control: 1"
@@ -328,7 +325,8 @@ def test_check_reports_the_finding(demo_study):
     lines = data.read_text(encoding="utf-8").splitlines()
     header = lines[0].split(",")
     at = header.index("coating")
-    rows = [cells[:at] + [numbers[cells[at]]] + cells[at + 1:] for cells in (line.split(",") for line in lines[1:])]
+    rows = [cells[:at] + [numbers[cells[at]]] + cells[at + 1:]
+            for cells in (line.split(",") for line in lines[1:])]
     data.write_text("\n".join([lines[0], *(",".join(r) for r in rows)]) + "\n", encoding="utf-8")
     study = demo_study.read_text(encoding="utf-8")
     study = (study.replace("levels: [uncoated, chitosan, seaweed, humic]", "levels: [0, 1, 2, 3]")
