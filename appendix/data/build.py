@@ -2,7 +2,9 @@
 
 Checks, all collected into one `DataError`: the columns the plan names exist; unit
 identifiers are present and unique; every row's level is one of the plan's levels
-(exact text, spaces trimmed); every eligible outcome cell is a number or missing.
+(its text, spaces trimmed, or for number-like levels its value: `appendix.data.levels`,
+each spelling read by value becoming a finding); every eligible outcome cell is a number
+or missing.
 Cells of units set aside by an exclusion rule are not checked as outcomes.
 
 A CSV/TSV file is first tried on the vectorised path (`appendix.data.vectorised`),
@@ -24,6 +26,7 @@ from appendix.data.dataset import Dataset, OutcomeData, frozen_array
 from appendix.data.decimals import decimal_places
 from appendix.data.exclusions import apply_exclusions
 from appendix.data.flow import flow_findings, level_counts
+from appendix.data.levels import LevelReading, level_hint, reading_findings
 from appendix.data.readers import read_table
 from appendix.data.table import Table
 from appendix.data.values import is_missing, parse_number
@@ -79,7 +82,7 @@ def build_dataset(loaded: LoadedPlan) -> Dataset:
     _require_columns(loaded, table)
     levels = plan.factor.levels
     problems = _unit_problems(table, plan.data.unit, where)
-    codes, level_problems = _level_codes(table, plan.factor.name, levels, where)
+    codes, level_problems, respelled = _level_codes(table, plan.factor.name, levels, where)
     problems += level_problems
     if problems:
         raise DataError(problems)
@@ -114,7 +117,8 @@ def build_dataset(loaded: LoadedPlan) -> Dataset:
         outcomes=tuple(flows),
     )
     return Dataset(levels=levels, inputs=inputs, unit_flow=flow, outcomes=tuple(outcomes),
-                   findings=flow_findings(plan, flow))
+                   findings=reading_findings(plan.factor.name, levels, respelled)
+                   + flow_findings(plan, flow))
 
 
 def _require_columns(loaded: LoadedPlan, table: Table) -> None:
@@ -167,25 +171,34 @@ def _unit_problems(table: Table, column: str, where: str) -> list[Problem]:
     return problems
 
 
-def _level_codes(table: Table, column: str, levels: Sequence[str],
-                 where: str) -> tuple[list[int], list[Problem]]:
-    """The index into `levels` of every row (-1 where the cell is not a plan level)."""
-    index = {level: i for i, level in enumerate(levels)}
+def _level_codes(table: Table, column: str, levels: Sequence[str], where: str
+                 ) -> tuple[list[int], list[Problem], dict[tuple[str, int], int]]:
+    """The index into `levels` of every row (-1 where the cell is read as no level), the
+    problems of cells read as no level, and how many cells each (spelling, code) read by
+    value counts (`appendix.data.levels`), in order of first appearance."""
+    reading = LevelReading.of(levels)
+    known: dict[str, int] = {}  # each distinct text is read once
     codes: list[int] = []
     unknown: dict[str, list[int]] = defaultdict(list)
+    respelled: dict[tuple[str, int], int] = {}
     for i, cell in enumerate(table.column(column)):
         text = "" if cell is None else cell
-        codes.append(index.get(text, -1))
-        if text not in index:
+        code = known.get(text)
+        if code is None:
+            code = known[text] = reading.code(text)
+        codes.append(code)
+        if code < 0:
             unknown[text].append(i)
+        elif text not in reading.index:
+            respelled[(text, code)] = respelled.get((text, code), 0) + 1
     allowed = f"allowed: one of the plan's levels {one_of(levels)}"
     problems = []
     for text, rows in unknown.items():
         got = "an empty cell" if text == "" else f"got {show(text)}"
         problems.append(Problem(where, table.lines[rows[0]], column,
                                 f"{got} on {_lines(table, rows)}; {allowed}"
-                                f"{did_you_mean(text, levels)}"))
-    return codes, problems
+                                f"{level_hint(text, levels)}"))
+    return codes, problems, respelled
 
 
 def _outcome_rows(table: Table, column: str, eligible: Sequence[bool], where: str

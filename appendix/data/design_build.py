@@ -7,7 +7,8 @@ missing, exclusions apply in plan order; all problems are collected into one
 `DataError`. Beyond them:
 
 - units: each unit once, or, with a within factor, each (unit, within level) once;
-- a unit's between-unit factors and covariates are the same on each of its rows;
+- a unit's between-unit factors (their levels) and covariates (their text) are the same
+  on each of its rows;
 - exclusions set a whole unit aside when any of its rows matches;
 - a unit without a covariate value is not analysed (counted as missing);
 - with a within factor, only units with a value at every within level are analysed
@@ -27,6 +28,7 @@ from appendix.data.build import LISTED, _level_codes, _lines, _unit_problems
 from appendix.data.dataset import Dataset, OutcomeData, frozen_array
 from appendix.data.decimals import decimal_places
 from appendix.data.flow import flow_findings, level_counts
+from appendix.data.levels import reading_findings
 from appendix.data.table import Table
 from appendix.data.values import is_missing, match_key, parse_number
 from appendix.errors import DataError, Problem
@@ -55,9 +57,11 @@ def build_design_dataset(loaded: LoadedPlan, table: Table, inputs: tuple, delimi
     where = str(table.path)
     _require(loaded, table)
     codes: dict[str, list[int]] = {}
+    respelled: dict[str, dict[tuple[str, int], int]] = {}
     problems: list[Problem] = []
     for factor in plan.design.factors:
-        codes[factor.name], found = _level_codes(table, factor.name, factor.levels, where)
+        codes[factor.name], found, respelled[factor.name] = _level_codes(table, factor.name,
+                                                                         factor.levels, where)
         problems += found
     within = plan.within
     if within is None:
@@ -67,8 +71,9 @@ def build_design_dataset(loaded: LoadedPlan, table: Table, inputs: tuple, delimi
     if problems:
         raise DataError(problems)
     rows_of = _rows_of_units(table.column(plan.data.unit))
-    constant = [f.name for f in plan.between] + [c.data_column for c in plan.design.covariates]
-    problems += _varying(table, rows_of, constant, where)
+    # A between-unit factor must name one level on all of a unit's rows (1 and 1.0 do).
+    problems += _varying(table, rows_of, [f.name for f in plan.between], where, codes)
+    problems += _varying(table, rows_of, [c.data_column for c in plan.design.covariates], where)
     covariates, bad = _covariates(loaded, table, rows_of, where)
     problems += bad
     if problems:
@@ -92,14 +97,18 @@ def build_design_dataset(loaded: LoadedPlan, table: Table, inputs: tuple, delimi
     lacking = {c.name: sum(covariates[c.name][u] is None for u in eligible)
                for c in plan.design.covariates}
     return Dataset(levels=labels, inputs=inputs, unit_flow=flow, outcomes=tuple(outcomes),
-                   findings=design_findings(plan, flow, lacking))
+                   findings=design_findings(plan, flow, lacking, respelled))
 
 
-def design_findings(plan, flow: UnitFlow, lacking: dict[str, int]) -> tuple[Finding, ...]:
-    """The flow's findings, eligible units without a covariate value (`lacking`, per
+def design_findings(plan, flow: UnitFlow, lacking: dict[str, int],
+                    respelled: dict[str, dict[tuple[str, int], int]]) -> tuple[Finding, ...]:
+    """Cells read as a level by value (`respelled`: per factor name, cells per (spelling,
+    code)), the flow's findings, eligible units without a covariate value (`lacking`, per
     covariate name), and, with a within factor, units left out as incomplete."""
-    findings = flow_findings(plan, flow, grouping=CROSS.join(f.label or f.name for f in plan.treatments)
-                             or ALL_UNITS)
+    findings = tuple(f for factor in plan.design.factors
+                     for f in reading_findings(factor.name, factor.levels, respelled[factor.name]))
+    findings += flow_findings(plan, flow, grouping=CROSS.join(f.label or f.name for f in plan.treatments)
+                              or ALL_UNITS)
     findings += _lacking_covariates(plan, lacking)
     if plan.within is not None:
         findings += _incomplete(plan, flow.outcomes)
@@ -156,13 +165,17 @@ def _rows_of_units(cells) -> dict[str, list[int]]:
     return rows
 
 
-def _varying(table: Table, rows_of: dict[str, list[int]], columns: list[str], where: str) -> list[Problem]:
-    """A problem for each unit whose rows disagree on a between-unit column."""
+def _varying(table: Table, rows_of: dict[str, list[int]], columns: list[str], where: str,
+             codes: dict[str, list[int]] | None = None) -> list[Problem]:
+    """A problem for each unit whose rows disagree on a between-unit column: on the level
+    code where `codes` holds the column's (factors), else on the trimmed text."""
     problems = []
     for column in dict.fromkeys(columns):
         cells = table.column(column)
+        key = (codes[column].__getitem__ if codes is not None
+               else lambda i: (cells[i] or "").strip())
         varying = [(unit, rows) for unit, rows in rows_of.items()
-                   if len({(cells[i] or "").strip() for i in rows}) > 1]
+                   if len({key(i) for i in rows}) > 1]
         for unit, rows in varying[:LISTED]:
             values = one_of(list(dict.fromkeys((cells[i] or "").strip() for i in rows)), "and")
             problems.append(Problem(where, table.lines[rows[1]], column,

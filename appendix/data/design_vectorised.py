@@ -21,7 +21,8 @@ from appendix.data.design_build import cell_labels, design_findings
 from appendix.data.flow import count_levels
 from appendix.data.rows import LineRows, TextRows
 from appendix.data.values import DECIMAL_PATTERN, match_key
-from appendix.data.vectorised import _codes_into, _floats, _level_table, _matches
+from appendix.data.levels import LevelReading, merge_counts
+from appendix.data.vectorised import _floats, _level_table, _matches, read_codes_into
 from appendix.plan.load import LoadedPlan
 from appendix.results import ExclusionCount, OutcomeFlow, UnitFlow
 
@@ -44,11 +45,12 @@ def build_design_vectorised(loaded: LoadedPlan, columns: Columns) -> Dataset | N
     units = cells[plan.data.unit]
     if n == 0 or missing_mask(units).any():
         return None
-    codes = {}
+    codes, respelled = {}, {}
     for factor in plan.design.factors:
-        codes[factor.name] = _factor_codes(cells[factor.name], factor.levels)
-        if codes[factor.name] is None:
+        found = _factor_codes(cells[factor.name], factor.levels)
+        if found is None:
             return None
+        codes[factor.name], respelled[factor.name] = found
     unit = _dictionary_codes(units)  # unit index of every row, in order of first appearance
     n_units = int(unit.max()) + 1
     within = plan.within
@@ -103,7 +105,7 @@ def build_design_vectorised(loaded: LoadedPlan, columns: Columns) -> Dataset | N
     lacking = {name: int(np.count_nonzero(eligible & np.isnan(values)))
                for name, values in covariates.items()}
     return Dataset(levels=labels, inputs=(), unit_flow=flow, outcomes=tuple(outcomes),
-                   findings=design_findings(plan, flow, lacking))
+                   findings=design_findings(plan, flow, lacking, respelled))
 
 
 def _outcome(plan, outcome, columns, unit, first, codes, covariates, cell, labels, eligible,
@@ -143,17 +145,21 @@ def _outcome(plan, outcome, columns, unit, first, codes, covariates, cell, label
     return data, flow
 
 
-def _factor_codes(column, levels) -> np.ndarray | None:
-    """The level code of every row, or None when a cell is not one of `levels`."""
-    index = {level: i for i, level in enumerate(levels)}
+def _factor_codes(column, levels) -> tuple[np.ndarray, dict] | None:
+    """(the level code of every row, cells read by value per (spelling, code)), or None
+    when a cell is read as none of `levels` (`appendix.data.levels`)."""
+    reading = LevelReading.of(levels)
     table = _level_table(levels)
     out = np.empty(len(column), dtype=np.int64)
     at = 0
+    parts = []
     for chunk in chunks_of(column):
-        if not _codes_into(out[at:at + len(chunk)], chunk, index, table):
+        respelled = read_codes_into(out[at:at + len(chunk)], chunk, reading, table)
+        if respelled is None:
             return None
+        parts.append(respelled)
         at += len(chunk)
-    return out
+    return out, merge_counts(parts)
 
 
 def _dictionary_codes(column) -> np.ndarray:

@@ -7,7 +7,10 @@ scans the file several times and only counts and per-level sums reach Python:
 
 1. the columns the plan names exist (the in-memory stage's own check and wording);
 2. unit identifiers are present and unique (repeated ids listed with their lines, 20 at most);
-3. every level is one of the plan's levels (else `DataError` naming it, with did-you-mean);
+3. every level is one of the plan's levels, by text or, for number-like levels, by value
+   (`appendix.data.levels`: the distinct texts that are no level's text are read in
+   Python; else `DataError` naming them, with a level equal or close in value, or a
+   did-you-mean);
 4. exclusion rules in plan order, counted per rule and level (a unit under its first rule);
 5. per outcome, missing cells counted per level, non-numeric cells reported (20 at most);
 6. per outcome and level, n and mean (first pass), then the sum of squared deviations
@@ -56,11 +59,12 @@ from appendix.data.build import LISTED, _require_columns
 from appendix.data.checksums import study_inputs
 from appendix.data.dataset import CellSummary, Dataset, OutcomeData, frozen_array
 from appendix.data.flow import flow_findings
+from appendix.data.levels import LevelReading, level_hint, reading_findings
 from appendix.data.table import Table
 from appendix.data.values import MISSING_TEXTS, match_key
 from appendix.errors import DataError, Problem, UserError
 from appendix.plan.load import LoadedPlan
-from appendix.plan.wording import did_you_mean, one_of, show
+from appendix.plan.wording import one_of, show
 from appendix.results import ExclusionCount, LevelCount, OutcomeFlow, UnitFlow
 
 #: The decimal-number pattern of `appendix.data.values.parse_number`, for RE2.
@@ -214,20 +218,40 @@ def _missing(text_sql: str) -> str:
     return f"({text_sql} IS NULL OR {text_sql} IN ({listed}))"
 
 
-def _level_problems(connection, source: _Source, column: str,
-                    levels: Sequence[str]) -> list[Problem]:
+def _level_reading(connection, source: _Source, column: str, levels: Sequence[str]
+                   ) -> tuple[list[Problem], dict[tuple[str, int], int]]:
+    """Problems of cells read as no level, and the cells read as a level by value per
+    (spelling, code) (`appendix.data.levels`): each distinct text that is no level's
+    text is read in Python, in order of first appearance."""
     where = str(source.path)
+    reading = LevelReading.of(levels)
     text = f"coalesce({source.text(column)}, '')"
     listed = ", ".join(_literal(level) for level in levels)
     allowed = f"allowed: one of the plan's levels {one_of(levels)}"
-    problems = []
+    problems, respelled = [], {}
     for value, total, lines in _grouped_lines(connection, source, text,
                                               f"{text} NOT IN ({listed})"):
+        code = reading.code(value)
+        if code >= 0:
+            respelled[(value, code)] = int(total)
+            continue
         got = "an empty cell" if value == "" else f"got {show(value)}"
         problems.append(Problem(where, lines[0], column,
                                 f"{got} on {_lines_text(lines, total)}; {allowed}"
-                                f"{did_you_mean(value, levels)}"))
-    return problems
+                                f"{level_hint(value, levels)}"))
+    return problems, respelled
+
+
+def _code_sql(source: _Source, column: str, levels: Sequence[str],
+              respelled: dict[tuple[str, int], int]) -> str:
+    """SQL of a row's level code: its text's position among the levels, then among the
+    spellings read by value."""
+    texts = [*levels, *(t for t, _ in respelled)]
+    codes = [*range(len(levels)), *(c for _, c in respelled)]
+    position = f"list_position([{', '.join(_literal(t) for t in texts)}], {source.text(column)})"
+    if not respelled:
+        return f"({position} - 1)"
+    return f"list_extract([{', '.join(map(str, codes))}], {position})"
 
 
 def _rule_match(source: _Source, column: str, equals: str) -> str:
@@ -323,11 +347,11 @@ def _build(connection, loaded: LoadedPlan, sample_size: int) -> Dataset:
     _allow_statistics(connection, source, [o.data_column for o in plan.outcomes])
     levels = plan.factor.levels
     problems = _unit_problems(connection, source, plan.data.unit)
-    problems += _level_problems(connection, source, plan.factor.name, levels)
+    level_problems, respelled = _level_reading(connection, source, plan.factor.name, levels)
+    problems += level_problems
     if problems:
         raise DataError(problems)
-    listed = ", ".join(_literal(v) for v in levels)
-    code = f"(list_position([{listed}], {source.text(plan.factor.name)}) - 1)"
+    code = _code_sql(source, plan.factor.name, levels, respelled)
     rules = plan.data.exclusions
     rule_sql = " ".join(f"WHEN {_rule_match(source, r.column, r.equals)} THEN {i}"
                         for i, r in enumerate(rules))
@@ -362,7 +386,8 @@ def _build(connection, loaded: LoadedPlan, sample_size: int) -> Dataset:
                     eligible=_level_tuple(eligible, levels), outcomes=tuple(flows))
     return Dataset(levels=levels, inputs=study_inputs(loaded.path, loaded.data_path),
                    unit_flow=flow, outcomes=tuple(outcomes),
-                   findings=flow_findings(plan, flow))
+                   findings=reading_findings(plan.factor.name, levels, respelled)
+                   + flow_findings(plan, flow))
 
 
 def _level_tuple(counts: np.ndarray, levels: Sequence[str]) -> tuple[LevelCount, ...]:

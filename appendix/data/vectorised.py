@@ -1,7 +1,8 @@
 """Plan + clean columns -> `Dataset`, with array operations instead of loops over rows.
 
 The rules are those of `appendix.data.build` (unit identifiers present and unique,
-levels exact after trimming, exclusions by `appendix.data.values.match_key`, missing
+levels by text after trimming or, for number-like levels, by value
+(`appendix.data.levels`), exclusions by `appendix.data.values.match_key`, missing
 texts, plain decimal numbers); here they only decide clean or not. `build_vectorised`
 returns None at the first problem so that the row-by-row path can report every problem
 with its lines.
@@ -16,6 +17,7 @@ from appendix.data.columnar import (Columns, arrow_indices, chunks_of, distinct_
 from appendix.data.dataset import Dataset, OutcomeData
 from appendix.data.decimals import PLAIN_PATTERN, all_plain, exact_places, plain_digits, plain_places
 from appendix.data.flow import count_levels, flow_findings
+from appendix.data.levels import LevelReading, merge_counts, reading_findings
 from appendix.data.rows import LineRows, TextRows
 from appendix.data.values import DECIMAL_PATTERN, match_key
 from appendix.plan.load import LoadedPlan
@@ -42,10 +44,10 @@ def build_vectorised(loaded: LoadedPlan, columns: Columns) -> Dataset | None:
     sweep = _sweep(units, columns.cells[plan.factor.name], texts, levels)
     if sweep is None:
         return None
-    codes, keys, rising, plain_reads = sweep
+    codes, keys, rising, plain_reads, respelled = sweep
     if not distinct_from_keys(units, keys, rising):
         return None
-    return _build(plan, columns, codes, plain_reads)
+    return _build(plan, columns, codes, plain_reads, respelled=respelled)
 
 
 def build_scanned(loaded: LoadedPlan, path, delimiter: str) -> Dataset | None:
@@ -86,19 +88,22 @@ def build_scanned(loaded: LoadedPlan, path, delimiter: str) -> Dataset | None:
 
 def _sweep(units, factor, texts: list, levels):
     """(level codes, unit keys and whether they rise per chunk, per outcome (values, most
-    digits after the point) or None where some cell is not plain decimal text), or None
-    when a unit is missing or a level unknown."""
-    index = {level: i for i, level in enumerate(levels)}
+    digits after the point) or None where some cell is not plain decimal text, cells read
+    by value per (spelling, code)), or None when a unit is missing or a level unknown."""
+    reading = LevelReading.of(levels)
     table = _level_table(levels)
     starts = np.cumsum([0] + [len(c) for c in chunks_of(units)])
     codes = np.empty(int(starts[-1]), dtype=np.int64)
     values = [np.empty(int(starts[-1]), dtype=np.float64) for _ in texts]
 
     def work(start, unit, level, *cells):
-        if missing_mask(unit).any() or not _codes_into(codes[start:start + len(unit)], level, index, table):
+        if missing_mask(unit).any():
+            return None
+        respelled = read_codes_into(codes[start:start + len(unit)], level, reading, table)
+        if respelled is None:
             return None
         return (*unit_keys(unit), [_plain_into(v[start:start + len(c)], c)
-                                   for v, c in zip(values, cells)])
+                                   for v, c in zip(values, cells)], respelled)
 
     found = map_chunks(work, list(starts[:-1]), units, factor, *texts)
     if any(f is None for f in found):
@@ -109,7 +114,30 @@ def _sweep(units, factor, texts: list, levels):
     for k, v in enumerate(values):
         digits = [f[2][k] for f in found]
         reads.append(None if None in digits else (v, max(digits, default=0)))
-    return codes, keys, rising, reads
+    return codes, keys, rising, reads, merge_counts(f[3] for f in found)
+
+
+def read_codes_into(out: np.ndarray, chunk, reading: LevelReading, table=None) -> dict | None:
+    """Write the level code of every cell of `chunk` into `out` as `LevelReading.code`
+    reads it; return the cells read by value per (spelling, code), in order of first
+    appearance (empty when every cell is a level's text), or None if a cell is read as no
+    level. Texts are tried first (through the `_level_table` if given); only a chunk with
+    some other text is read again through its distinct texts."""
+    import pyarrow.compute as pc
+
+    if _codes_into(out, chunk, reading.index, table):
+        return {}
+    if reading.by_value is None:
+        return None
+    encoded = pc.dictionary_encode(chunk)
+    entries = encoded.dictionary.to_pylist()
+    of_entry = np.array([reading.code(t) for t in entries], dtype=np.int64)
+    if (of_entry < 0).any():
+        return None
+    indices = numpy_of(encoded.indices)
+    np.take(of_entry, indices, out=out)
+    counts = np.bincount(indices, minlength=len(entries))
+    return {(t, int(c)): int(n) for t, c, n in zip(entries, of_entry, counts) if t not in reading.index}
 
 
 def _codes_into(out: np.ndarray, chunk, index: dict, table=None) -> bool:
@@ -208,8 +236,9 @@ def _plain_into(out: np.ndarray, chunk) -> int | None:
 
 
 def _build(plan, columns: Columns, codes: np.ndarray, plain_reads: list,
-           level_n: np.ndarray | None = None) -> Dataset | None:
-    """`level_n`: the rows at each level, when already counted."""
+           level_n: np.ndarray | None = None, respelled: dict | None = None) -> Dataset | None:
+    """`level_n`: the rows at each level, when already counted; `respelled`: cells read
+    as a level by value, per (spelling, code)."""
     import pyarrow.compute as pc
 
     levels = plan.factor.levels
@@ -279,7 +308,8 @@ def _build(plan, columns: Columns, codes: np.ndarray, plain_reads: list,
     flow = UnitFlow(read=read, exclusions=tuple(excluded), eligible=counted_eligible,
                     outcomes=tuple(flows))
     return Dataset(levels=levels, inputs=(), unit_flow=flow, outcomes=tuple(outcomes),
-                   findings=flow_findings(plan, flow))
+                   findings=reading_findings(plan.factor.name, levels, respelled or {})
+                   + flow_findings(plan, flow))
 
 
 def _read_only(array: np.ndarray) -> np.ndarray:

@@ -19,7 +19,7 @@ data:
   planned_n: {{per_group: {planned}}}
 design:
   factors:
-    - {{name: arm, levels: [placebo, low, high], control: placebo}}
+    - {{name: arm, levels: {arm}}}
 outcomes:
   - {{name: pain, label: Pain score, role: primary}}
   - {{name: sleep, label: Sleep hours, role: secondary}}
@@ -50,9 +50,13 @@ def invented_units(seed: int = 20260214, per_level: int = 8) -> pd.DataFrame:
     return frame.astype(object)
 
 
-def write_study(folder: Path, source: str, planned: int = 8) -> Path:
+#: The arm's levels (and control) in the study file `write_study` writes, unless told.
+ARM = "[placebo, low, high], control: placebo"
+
+
+def write_study(folder: Path, source: str, planned: int = 8, arm: str = ARM) -> Path:
     path = folder / "study.yaml"
-    path.write_text(STUDY.format(source=source, planned=planned), encoding="utf-8")
+    path.write_text(STUDY.format(source=source, planned=planned, arm=arm), encoding="utf-8")
     return path
 
 

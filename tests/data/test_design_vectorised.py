@@ -24,7 +24,7 @@ data:
     - {{id: X1, column: flagged, equals: yes, reason: Protocol violated}}
 design:
   factors:
-    - {{name: arm, levels: [a, b, c]}}
+    - {{name: arm, levels: {arm}}}
     - {{name: bench, role: block, levels: [B1, B2]}}
 {within}  covariates: [{{name: base, label: Baseline}}]
   sums_of_squares: 2
@@ -40,10 +40,11 @@ def taken(monkeypatch):
     return record_answers(monkeypatch, fast, "build_design_vectorised")
 
 
-def _both(tmp_path, monkeypatch, text: str, within: bool):
+def _both(tmp_path, monkeypatch, text: str, within: bool, arm: str = "[a, b, c]",
+          visits: str = "[v1, v2]"):
     (tmp_path / "rows.csv").write_text(text, encoding="utf-8")
-    extra = "    - {name: visit, role: within, levels: [v1, v2]}\n" if within else ""
-    (tmp_path / "study.yaml").write_text(STUDY.format(within=extra), encoding="utf-8")
+    extra = f"    - {{name: visit, role: within, levels: {visits}}}\n" if within else ""
+    (tmp_path / "study.yaml").write_text(STUDY.format(within=extra, arm=arm), encoding="utf-8")
     loaded = load_plan(tmp_path / "study.yaml")
 
     def built():
@@ -120,3 +121,38 @@ def test_an_excluded_unit_is_not_checked_and_the_fast_path_still_answers(tmp_pat
     _same(scanned, rowwise)
     assert taken == [True]
     assert scanned.unit_flow.exclusions[0].total == 1
+
+
+@settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(data=st.data())
+def test_number_like_levels_written_any_way_agree(tmp_path, monkeypatch, taken, data):
+    # A unit's arm may be written differently on its rows ('1', '1.0'): one level all the same.
+    taken.clear()
+    within = data.draw(st.booleans())
+    n = data.draw(st.integers(1, 12))
+    arms = {1: ["1", "1.0", "01"], 2: ["2", "2.00", "+2"], 3: ["3", "3e0"]}
+    visits = {"1": ["1", "1.0"], "2": ["2", "02", "2."]}
+    lines = []
+    for u in range(n):
+        arm = data.draw(st.sampled_from([1, 2, 3]))
+        for visit in (data.draw(st.permutations(["1", "2"])) if within else ["1"]):
+            lines.append(f"U{u},{data.draw(st.sampled_from(arms[arm]))},B1,"
+                         f"{data.draw(st.sampled_from(visits[visit]))},no,1.5,{u}.5,2\n")
+    scanned, rowwise = _both(tmp_path, monkeypatch, HEADER + "".join(lines), within,
+                             arm="[1, 2, 3]", visits="[1, 2]")
+    _same(scanned, rowwise)
+    assert taken == [True]  # clean: the fast path answers
+
+
+@pytest.mark.parametrize("rows, within", [
+    ("U1,1,B1,1,no,1,2,3\nU2,1.0000001,B1,1,no,1,2,3\n", False),   # close to a level, not equal
+    ("U1,1,B1,1,no,1,2,3\nU1,2.0,B1,2,no,1,2,3\n", True),          # the arm varies (1 and 2.0)
+    ("U1,1,B1,1,no,1,2,3\nU1,1.0,B1,1.00,no,1,2,3\n", True),       # (unit, visit 1) twice
+])
+def test_number_like_level_problems_are_worded_by_the_row_by_row_path(tmp_path, monkeypatch, taken,
+                                                                      rows, within):
+    scanned, rowwise = _both(tmp_path, monkeypatch, HEADER + rows, within, arm="[1, 2, 3]",
+                             visits="[1, 2]")
+    assert isinstance(scanned, DataError)
+    _same(scanned, rowwise)
+    assert taken == [False]

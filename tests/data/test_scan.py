@@ -15,7 +15,7 @@ from appendix.data.build import build_dataset
 from appendix.data.rows import Spans
 from appendix.errors import DataError, UserError
 from appendix.plan.load import load_plan
-from tests.data.helpers import record_answers, write_study
+from tests.data.helpers import ARM, record_answers, write_study
 
 HEADER = "unit_id,arm,violated,dose,pain,sleep"
 LEVELS = ("placebo", "low", "high")
@@ -28,12 +28,12 @@ def every_size(monkeypatch):
     return record_answers(monkeypatch, vectorised, "build_scanned")
 
 
-def _paths(tmp_path, monkeypatch, text: str, name: str = "units.csv"):
+def _paths(tmp_path, monkeypatch, text: str, name: str = "units.csv", arm: str = ARM):
     """(compiled pass, pyarrow path, row-by-row path) datasets of one file; each is the
-    DataError or UserError it raised instead, if any."""
+    DataError or UserError it raised instead, if any. `arm`: the arm's levels in the plan."""
     path = tmp_path / name
     path.write_bytes(text.encode("utf-8"))
-    loaded = load_plan(write_study(tmp_path, name, 1))
+    loaded = load_plan(write_study(tmp_path, name, 1, arm=arm))
 
     def built():
         try:
@@ -56,6 +56,7 @@ def _same(a, b) -> None:
         return
     assert a.unit_flow == b.unit_flow
     assert a.findings == b.findings
+    assert a.levels == b.levels
     for x, y in zip(a.outcomes, b.outcomes, strict=True):
         np.testing.assert_array_equal(x.values, y.values)
         np.testing.assert_array_equal(np.signbit(x.values), np.signbit(y.values))
@@ -201,3 +202,42 @@ def test_spans_read_back_their_texts():
     spans = Spans(data, np.array([0, 3, 7, 8]), np.array([2, 3, 0, 2]))
     assert [spans.text(i) for i in range(4)] == ["ab", "cde", "", "fg"]
     assert spans.arrow().to_pylist() == ["ab", "cde", "", "fg"]
+
+
+#: Number-like levels of the arm, and ways of writing cells for them.
+NUMBER_LEVELS = "[1, 2, 10], control: 1"
+SPELLINGS = ["1", "1.0", "01", "+1", "2", "2.00", "10", "1e1", "10.0", "1.0000001", "0.5"]
+
+
+@pytest.mark.parametrize("arms, scanned_itself", [
+    (["1", "2", "10", "2"], True),                  # every cell a level's text: the pass reads it
+    (["1", "1.0", "10", "01", "2.00"], False),      # read by value: the pass stops, pyarrow reads it
+    (["1", "1.0", "1.0000001"], False),             # no level: the row-by-row path words it
+])
+def test_number_like_levels_agree_on_every_path(tmp_path, monkeypatch, every_size, arms, scanned_itself):
+    arrow_answers = record_answers(monkeypatch, vectorised, "build_vectorised")
+    rows = [(f"U{i}", arm, "no", "5", f"{i}.5", "7") for i, arm in enumerate(arms)]
+    scanned, arrow, rowwise = _paths(tmp_path, monkeypatch, HEADER + "\n" + _rows(rows),
+                                     arm=NUMBER_LEVELS)
+    _same(scanned, arrow)
+    _same(scanned, rowwise)
+    assert every_size[0] is scanned_itself
+    clean = "1.0000001" not in arms
+    assert arrow_answers[0] is clean  # a clean file is never left to the row-by-row path
+    if clean:
+        read = {spelling: arms.count(spelling) for spelling in arms if spelling not in ("1", "2", "10")}
+        assert [f.message.split(" cell")[0] for f in scanned.findings
+                if f.code == "level-read-by-value"] == [f"arm: {n}" for n in read.values()]
+
+
+@settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(data=st.data())
+def test_random_spellings_of_number_like_levels_agree(tmp_path, monkeypatch, every_size, data):
+    every_size.clear()
+    arms = data.draw(st.lists(st.sampled_from(SPELLINGS), min_size=1, max_size=30))
+    rows = [(f"U{i}", arm, "no", "5", f"{i}.25", "7") for i, arm in enumerate(arms)]
+    scanned, arrow, rowwise = _paths(tmp_path, monkeypatch, HEADER + "\n" + _rows(rows),
+                                     arm=NUMBER_LEVELS)
+    _same(scanned, arrow)
+    _same(scanned, rowwise)
+    assert every_size[0] is all(arm in ("1", "2", "10") for arm in arms)

@@ -13,15 +13,15 @@ from appendix.data.columnar import all_distinct
 from appendix.data.decimals import decimal_places
 from appendix.data.rows import LineRows, TextRows
 from appendix.plan.load import load_plan
-from tests.data.helpers import invented_units, write_delimited, write_parquet, write_study
+from tests.data.helpers import ARM, invented_units, write_delimited, write_parquet, write_study
 
 HEADER = "unit_id,arm,violated,dose,pain,sleep\n"
 
 
-def _both(tmp_path, monkeypatch, text: str, name: str = "units.csv"):
-    """(vectorised dataset, row-by-row dataset) of the same file."""
+def _both(tmp_path, monkeypatch, text: str, name: str = "units.csv", arm: str = ARM):
+    """(vectorised dataset, row-by-row dataset) of the same file; `arm`: the plan's levels."""
     (tmp_path / name).write_text(text, encoding="utf-8")
-    loaded = load_plan(write_study(tmp_path, name, 1))
+    loaded = load_plan(write_study(tmp_path, name, 1, arm=arm))
     fast = build_dataset(loaded)
     with monkeypatch.context() as patch:
         patch.setattr(columnar, "read_columns", lambda *args: None)
@@ -30,6 +30,7 @@ def _both(tmp_path, monkeypatch, text: str, name: str = "units.csv"):
 
 
 def _same(fast, slow) -> None:
+    assert fast.levels == slow.levels
     assert fast.unit_flow == slow.unit_flow
     assert fast.findings == slow.findings
     for a, b in zip(fast.outcomes, slow.outcomes, strict=True):
@@ -349,3 +350,58 @@ def test_first_words_near_the_end_of_the_buffer():
         assert length.tolist() == [len(t) for t in texts]
         assert [int(w).to_bytes(8, "little") for w in word] == [t.encode()[:8].ljust(8, b"\0")
                                                                 for t in texts]
+
+
+@pytest.mark.parametrize("arm, cells", [
+    ("[1, 2, 10], control: 1", ["1", "1.0", "2", "01", "10.0", "1.0", "+2", "1e1"]),
+    ("[1000000000, 2.5]", ["1000000000", "1000000000.0", "2.50", "1e9"]),     # beyond the 8-byte table
+    ("[-1, 0, 0.5]", ["-1.0", "0", "-0", ".5", "0.50", "-1"]),
+])
+def test_number_like_levels_read_by_value_on_the_vectorised_path(tmp_path, monkeypatch, arm, cells):
+    import appendix.data.vectorised as vectorised
+    from tests.data.helpers import record_answers
+
+    answers = record_answers(monkeypatch, vectorised, "build_vectorised")
+    text = HEADER + "".join(f"u{i}, {c} ,no,5,{i}.5,7\n" for i, c in enumerate(cells))
+    fast, slow = _both(tmp_path, monkeypatch, text, arm=arm)
+    assert answers == [True]  # the pyarrow path answered (the row-by-row build never asks it)
+    _same(fast, slow)
+    assert any(f.code == "level-read-by-value" for f in fast.findings)
+
+
+def test_number_like_levels_over_many_reader_chunks(tmp_path, monkeypatch):
+    monkeypatch.setattr(columnar, "_READ_BLOCK", 1024)  # ~40 rows per chunk
+    spellings = ["1", "1.0", "2", "10", "2.0", "01"]
+    arms = [spellings[i % 6] if i % 7 else "10.00" for i in range(600)]
+    text = HEADER + "".join(f"U{i},{arm},no,5,{i}.5,{i % 9}\n" for i, arm in enumerate(arms))
+    fast, slow = _both(tmp_path, monkeypatch, text, arm="[1, 2, 10], control: 1")
+    assert columnar.read_columns(tmp_path / "units.csv", ",", ["arm"]).cells["arm"].num_chunks > 10
+    assert isinstance(fast.outcome("pain").units, TextRows)
+    _same(fast, slow)
+    # Each spelling counted over every chunk, levels in plan order (Python's count as reference).
+    assert [f.message for f in fast.findings] == [
+        f"arm: {arms.count(spelling)} cells written '{spelling}' were read as the plan's level "
+        f"'{level}' (equal in value)."
+        for spelling, level in (("1.0", "1"), ("01", "1"), ("2.0", "2"), ("10.00", "10"))]
+
+
+@pytest.mark.parametrize("levels, cells, codes, read", [
+    (["1", "2"], ["1", "2", "1"], [0, 1, 0], {}),
+    (["1", "2"], ["1.0", "2", "1.0", "02"], [0, 1, 0, 1], {("1.0", 0): 2, ("02", 1): 1}),
+    (["1", "2"], ["1", "1.5"], None, None),
+    (["1", "b"], ["1", "1.0"], None, None),                  # some level is not a number
+    (["1", "1.0"], ["1", "1.00"], None, None),               # equal to two levels
+    (["123456789", "2"], ["123456789.0", "2"], [0, 1], {("123456789.0", 0): 1}),
+])
+def test_read_codes_into(levels, cells, codes, read):
+    import pyarrow as pa
+
+    from appendix.data.levels import LevelReading
+    from appendix.data.vectorised import _level_table, read_codes_into
+
+    out = np.full(len(cells), -9)
+    chunk = pa.array(["pad", *cells], type=pa.string()).slice(1)
+    got = read_codes_into(out, chunk, LevelReading.of(levels), _level_table(levels))
+    assert got == read
+    if codes is not None:
+        assert out.tolist() == codes
