@@ -99,6 +99,8 @@ def should_go_out_of_core(path: Path, *, row_limit: int = 20_000_000) -> bool:
     size = path.stat().st_size
     with path.open("rb") as handle:
         head = handle.read(_PROBE)
+    if not head:  # an empty file: the readers say so
+        return False
     lines = max(head.count(b"\n"), 1)
     return size / (len(head) / lines) > row_limit + 1
 
