@@ -35,8 +35,8 @@ from pathlib import Path, PurePosixPath
 from typing import Any, TextIO
 
 from appendix.errors import UserError
-from appendix.jsonread import read_json
-from appendix.publish import PDF_NAME, manifest_text, pdf_evidence, sha256_file
+from appendix.jsonread import checked, read_json
+from appendix.publish import PDF_NAME, RunManifest, manifest_text, pdf_evidence, sha256_file
 from appendix.targets import check_file_target, is_package
 from appendix.versions import installed_distributions
 
@@ -243,8 +243,9 @@ def pack(run: Path, out: Path | None = None) -> Path:
     run = Path(run)
     if not run.is_dir():
         raise UserError(f"{run} is not a run folder (no such folder)")
-    manifest = _load_json(run / "manifest.json", "a run folder holds the manifest.json "
-                          "that `appendix run` writes")
+    manifest = checked(_load_json(run / "manifest.json", "a run folder holds the manifest.json "
+                                  "that `appendix run` writes"),
+                       RunManifest, run / "manifest.json", "a run manifest of this version")
     try:
         body = {**_study_entries(manifest, run), **_run_entries(run, manifest)}
     except (KeyError, TypeError, AttributeError) as error:
@@ -390,9 +391,12 @@ def _manifest_problems(folder: Path) -> tuple[list[str], dict[str, Any] | None]:
         return ["missing: run/manifest.json"], None
     try:
         manifest = json.loads(path.read_text(encoding="utf-8"))
+        checked(manifest, RunManifest, Path("run/manifest.json"), "a run manifest of this version")
         outputs = [(f"run/{o['path']}", o["sha256"]) for o in manifest["outputs"]]
         inputs = [(f"study/{i['path']}", i["sha256"]) for i in manifest["inputs"]
                   if isinstance(i["role"], str)]
+    except UserError as error:
+        return [str(error)], None
     except (UnicodeDecodeError, json.JSONDecodeError, KeyError, TypeError, RecursionError) as error:
         return [f"run/manifest.json is not a run manifest ({error!r})"], None
     problems = []

@@ -28,8 +28,10 @@ from pathlib import Path
 from typing import Any, TextIO
 
 from appendix.errors import UserError
-from appendix.jsonread import read_json
+from appendix.jsonread import checked, read_json
+from appendix.publish import RunManifest
 from appendix.records import Records, RowRecord, read_records
+from appendix.results import StudyResults
 from appendix.targets import check_file_target, is_diff_page, write_atomically
 
 DIFF_FORMAT = 1
@@ -217,7 +219,11 @@ def _load_run(folder: Path) -> _Run:
     results = _read_json(folder / "results.json")
     if not isinstance(results, dict) or results.get("format_version") != 1:
         raise UserError(f"{folder / 'results.json'}: not a results file of format 1")
-    manifest = _read_json(folder / "manifest.json") if (folder / "manifest.json").is_file() else None
+    checked(results, StudyResults, folder / "results.json", "a results file of this version")
+    manifest = None
+    if (folder / "manifest.json").is_file():
+        manifest = checked(_read_json(folder / "manifest.json"), RunManifest,
+                           folder / "manifest.json", "a run manifest of this version")
     return _Run(folder, results, manifest, read_records(folder))
 
 

@@ -43,3 +43,25 @@ def read_json(path: Path, what: str) -> Any:
                         f"{what}") from None
     except RecursionError:
         raise UserError(f"{path} is nested too deeply to be read: {what}") from None
+
+
+def _first_errors(error, limit: int = 3) -> str:
+    shown = [f"{'.'.join(str(p) for p in e['loc']) or '(top)'}: {e['msg']}"
+             for e in error.errors()[:limit]]
+    more = error.error_count() - len(shown)
+    return "; ".join(shown) + (f"; and {more} more" if more > 0 else "")
+
+
+def checked(data: Any, kind: Any, path: Path, what: str) -> Any:
+    """`data` validated against the type `kind` (a results dataclass or a manifest shape);
+    a `UserError` naming the first wrong keys when it does not fit, so nothing downstream
+    meets a missing key or a value of the wrong type."""
+    from pydantic import TypeAdapter, ValidationError
+
+    try:
+        TypeAdapter(kind).validate_python(data)
+    except ValidationError as error:
+        raise UserError(f"{path} is not {what} ({_first_errors(error)})") from None
+    except RecursionError:
+        raise UserError(f"{path} is nested too deeply to be read: {what}") from None
+    return data

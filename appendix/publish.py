@@ -17,14 +17,43 @@ from contextlib import contextmanager
 from pathlib import Path
 from typing import Any
 
+from typing_extensions import NotRequired, TypedDict  # the form pydantic validates on 3.10-3.11
+
 from appendix import __version__
 from appendix.epoch import source_date
 from appendix.errors import UserError
-from appendix.results import StudyResults, to_plain
+from appendix.results import InputFile, Software, StudyResults, to_plain
 from appendix.targets import check_run_target
 from appendix.versions import installed_distributions
 
 MANIFEST_FORMAT = 1
+
+
+class ManifestOutput(TypedDict):
+    path: str
+    sha256: str
+    bytes: int
+
+
+class ManifestTool(TypedDict):
+    name: str
+    version: str
+
+
+class RunManifest(TypedDict):
+    """The shape of manifest.json (what `write_manifest` writes), checked when read back."""
+
+    format_version: int
+    tool: ManifestTool
+    run_time: str
+    study: str
+    plan_sha256: str
+    inputs: list[InputFile]
+    outputs: list[ManifestOutput]
+    software: list[Software]
+    environment: dict[str, str]
+    distributions: list[Software]
+    study_file: NotRequired[str]
 
 
 @contextmanager

@@ -362,7 +362,8 @@ def test_pack_refuses_a_broken_manifest(packed, tmp_path):
     manifest = json.loads((run / "manifest.json").read_text())
     del manifest["inputs"]
     (run / "manifest.json").write_text(publish.manifest_text(manifest), encoding="utf-8")
-    with pytest.raises(UserError, match=r"manifest\.json is not a run manifest \(at KeyError"):
+    with pytest.raises(UserError, match=r"manifest\.json is not a run manifest of this version "
+                                         r"\(inputs: Field required\)"):
         bundle.pack(run)
 
 

@@ -28,10 +28,13 @@ READ_BACK = [
     ("manifest.json", DEEP, "pack", "is nested too deeply to be read"),
     ("manifest.json", "not json", "pack", "is not valid JSON (line 1, column 1)"),
     ("manifest.json", "\udcff", "pack", "is not UTF-8 text"),
-    ("manifest.json", "[1, 2]", "pack", "does not record where the study file is"),
+    ("manifest.json", "[1, 2]", "pack", "is not a run manifest of this version ((top): Input should be"),
     ("results.json", DEEP, "diff", "is nested too deeply to be read"),
     ("results.json", "{", "diff", "is not valid JSON"),
     ("records.json", DEEP, "diff", "is not a records file this version can read"),
+    ("manifest.json", '{"format_version": 1}', "pack", "is not a run manifest of this version (tool: Field required"),
+    ("manifest.json", '{"format_version": 1}', "diff", "is not a run manifest of this version (tool: Field required"),
+    ("results.json", '{"format_version": 1, "study": 3}', "diff", "is not a results file of this version (study: "),
 ]
 
 
