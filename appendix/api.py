@@ -64,6 +64,16 @@ def load_data(loaded: LoadedPlan, *, out_of_core: bool | None = None) -> Dataset
     aggregated out of core by DuckDB; `out_of_core` forces either way.
     """
     from appendix.data import outofcore
+    from appendix.data.checksums import confirm_unchanged, fingerprint
+
+    before = fingerprint(loaded.data_path)
+    dataset = _load_data(loaded, out_of_core)
+    confirm_unchanged(loaded.data_path, before)  # the bytes hashed are the bytes analysed
+    return dataset
+
+
+def _load_data(loaded: LoadedPlan, out_of_core: bool | None) -> Dataset:
+    from appendix.data import outofcore
 
     if out_of_core is None:
         out_of_core = loaded.plan.is_one_way and outofcore.should_go_out_of_core(loaded.data_path)
@@ -140,7 +150,8 @@ def run(study: str | Path, out_dir: str | Path | None = None, *,
     ``<out_root>/<study id>/``), replacing the folder only once everything is written.
     `notice` hears what was put right of an earlier run that was killed (default: `progress`)."""
     from appendix import publish, render as html
-
+    from appendix.data.checksums import confirm_unchanged, fingerprint
+    from appendix.records import RECORDS_FILE, records_text
     from appendix.targets import check_run_target
 
     say = progress or (lambda _message: None)
@@ -149,22 +160,24 @@ def run(study: str | Path, out_dir: str | Path | None = None, *,
     folder = Path(out_dir) if out_dir is not None else Path(out_root) / loaded.plan.study.id
     inputs = (loaded.path, loaded.data_path, lock_path(loaded.path))
     for note in publish.recover(folder):  # what a killed run left, put right first
-        say(note) if notice is None else notice(note)
+        (notice or say)(note)
     check_run_target(folder, inputs)  # before any work: a refused folder costs nothing
+    before = fingerprint(loaded.data_path)
     dataset = load_data(loaded, out_of_core=out_of_core)
     computed = Computed(loaded, dataset, analyse(loaded, dataset))
     say("computing figures and HTML")
     options = options or html.RenderOptions()
     rendered = render(computed, options)
     now = publish.run_time(clock)  # SOURCE_DATE_EPOCH when set, else the clock
-    from appendix.records import RECORDS_FILE, records_text
+    records = records_text(computed.loaded, computed.dataset)
+    confirm_unchanged(loaded.data_path, before)  # the records read the file once more
 
     with publish.staged_folder(folder, inputs) as staging:
         written = publish.write_run(
             staging, results=computed.results, results_json=rendered.results_json,
             html=rendered.html, figures=rendered.figures, options=options,
             study_file=computed.loaded.path, now=now, pdf=pdf, progress=say,
-            extra_files={RECORDS_FILE: records_text(computed.loaded, computed.dataset)},
+            extra_files={RECORDS_FILE: records},
             environment={"python": sys.version.split()[0], "platform": platform.platform()})
     say(f"wrote {folder}")
     return RunRecord(folder=folder, results=computed.results, files=written)

@@ -46,3 +46,25 @@ def study_inputs(study_file: Path, data_file: Path) -> tuple[InputFile, ...]:
     inputs = (input_file(study_file, "study", folder), input_file(data_file, "data", folder))
     lock = folder / LOCK_NAME
     return (*inputs, input_file(lock, "lock", folder)) if lock.is_file() else inputs
+
+
+def fingerprint(path: Path) -> tuple[int, int, int, int, int] | None:
+    """What any rewrite of a file changes: device, inode, size, modification and status
+    change times (ns). The status change time cannot be set back by a writer, so equal
+    fingerprints before and after a read mean the bytes read are the bytes hashed.
+    None when the file cannot be examined (the reader says why)."""
+    try:
+        st = os.stat(path)
+    except OSError:
+        return None
+    return (st.st_dev, st.st_ino, st.st_size, st.st_mtime_ns, st.st_ctime_ns)
+
+
+def confirm_unchanged(path: Path, before: tuple[int, int, int, int, int] | None) -> None:
+    """Refuse a result read from a file that changed while it was read and hashed."""
+    from appendix.errors import UserError
+
+    if before is not None and fingerprint(path) != before:
+        raise UserError(f"the data file {path} changed while it was read, so its checksum "
+                        "may not belong to the values analysed; nothing was written; run again "
+                        "once the file is complete")
