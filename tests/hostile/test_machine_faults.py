@@ -4,7 +4,6 @@ traceback, and the previous run folder untouched."""
 from __future__ import annotations
 
 import errno
-import hashlib
 import io
 import shutil
 import subprocess
@@ -16,11 +15,7 @@ import pytest
 from appendix import publish
 from appendix.cli import main
 from tests.conftest import DEMO
-
-
-def _tree(folder: Path) -> dict[str, str]:
-    return {p.relative_to(folder).as_posix(): hashlib.sha256(p.read_bytes()).hexdigest()
-            for p in sorted(folder.rglob("*")) if p.is_file()}
+from tests.hostile.helpers import hashes
 
 
 @pytest.fixture
@@ -41,7 +36,7 @@ def test_a_full_disk_during_a_run_leaves_the_previous_run(study: Path, monkeypat
     out, err = io.StringIO(), io.StringIO()
     assert main(["run", str(study), "--out", "run", "--no-pdf"], stdout=out, stderr=err,
                 cwd=study.parent) == 0
-    before = _tree(study.parent / "run")
+    before = hashes(study.parent / "run")
 
     def full(*args, **kwargs):
         raise OSError(errno.ENOSPC, "No space left on device", str(study.parent / "x"))
@@ -53,5 +48,5 @@ def test_a_full_disk_during_a_run_leaves_the_previous_run(study: Path, monkeypat
     assert code == 2 and "Traceback" not in err.getvalue()
     assert err.getvalue().startswith("error: cannot write or read (")
     assert "No space left on device; nothing was replaced" in err.getvalue()
-    assert _tree(study.parent / "run") == before
+    assert hashes(study.parent / "run") == before
     assert not [p for p in study.parent.iterdir() if p.name.startswith(".run.")]

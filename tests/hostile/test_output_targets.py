@@ -5,51 +5,13 @@ study, its data and anything the user keeps beside it) is byte for byte as befor
 
 from __future__ import annotations
 
-import hashlib
-import io
 import os
 import shutil
 from pathlib import Path
 
 import pytest
 
-from appendix.cli import main
-from tests.conftest import DEMO
-
-
-def run_cli(argv, cwd: Path):
-    out, err = io.StringIO(), io.StringIO()
-    code = main([str(a) for a in argv], stdout=out, stderr=err, cwd=cwd)
-    return code, out.getvalue(), err.getvalue()
-
-
-def hashes(folder: Path) -> dict[str, str]:
-    return {p.relative_to(folder).as_posix(): hashlib.sha256(p.read_bytes()).hexdigest()
-            for p in sorted(folder.rglob("*")) if p.is_file()}
-
-
-@pytest.fixture(scope="module")
-def demo_run(tmp_path_factory) -> Path:
-    """One demo run, made once; tests copy it."""
-    base = tmp_path_factory.mktemp("demo")
-    shutil.copytree(DEMO, base / "study", ignore=shutil.ignore_patterns("__pycache__"))
-    code, _, err = run_cli(["run", "study/study.yaml", "--out", "run"], base)
-    assert code == 0, err
-    return base
-
-
-@pytest.fixture
-def place(demo_run: Path, tmp_path: Path) -> Path:
-    """A working folder: `study/` (the demo, plus the user's own notes.txt, reports/memo.txt)
-    and `run/`, a finished run folder of it."""
-    shutil.copytree(demo_run, tmp_path / "w", symlinks=True)
-    work = tmp_path / "w"
-    manifest = work / "run" / "manifest.json"   # the copy's study file is the one beside it
-    manifest.write_text(manifest.read_text().replace(str(demo_run), str(work)))
-    (work / "study" / "notes.txt").write_text("my notes\n")
-    (work / "study" / "reports").mkdir()
-    (work / "study" / "reports" / "memo.txt").write_text("keep me\n")
-    return work
+from tests.hostile.helpers import hashes, run_cli
 
 
 def _refused(work: Path, argv, first_line: str, protect: str = "study"):

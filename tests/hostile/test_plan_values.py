@@ -4,21 +4,14 @@ handled and shown as stored; never a traceback."""
 
 from __future__ import annotations
 
-import io
 import shutil
 from pathlib import Path
 
 import pytest
 
 from appendix.api import compute, render
-from appendix.cli import main
 from tests.conftest import DEMO
-
-
-def run_cli(argv, cwd: Path):
-    out, err = io.StringIO(), io.StringIO()
-    code = main([str(a) for a in argv], stdout=out, stderr=err, cwd=cwd)
-    return code, out.getvalue(), err.getvalue()
+from tests.hostile.helpers import run_cli
 
 
 @pytest.fixture

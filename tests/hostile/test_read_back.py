@@ -4,23 +4,14 @@ read outside the package, never an unbounded expansion."""
 
 from __future__ import annotations
 
-import io
-import shutil
 import zipfile
 from pathlib import Path
 
 import pytest
 
-from appendix.cli import main
-from tests.hostile.test_output_targets import demo_run, place  # noqa: F401 - fixtures
+from tests.hostile.helpers import run_cli
 
 DEEP = "[" * 100_000 + "]" * 100_000
-
-
-def run_cli(argv, cwd: Path, env=None):
-    out, err = io.StringIO(), io.StringIO()
-    code = main([str(a) for a in argv], stdout=out, stderr=err, cwd=cwd)
-    return code, out.getvalue(), err.getvalue()
 
 
 READ_BACK = [

@@ -5,7 +5,6 @@ and says so."""
 
 from __future__ import annotations
 
-import hashlib
 import os
 import shutil
 import signal
@@ -18,19 +17,15 @@ import pytest
 
 from appendix import publish
 from tests.conftest import DEMO
+from tests.hostile.helpers import hashes
 
 pytestmark = pytest.mark.slow
-
-
-def _tree(folder: Path) -> dict[str, str]:
-    return {p.relative_to(folder).as_posix(): hashlib.sha256(p.read_bytes()).hexdigest()
-            for p in sorted(folder.rglob("*")) if p.is_file()}
 
 
 def _content(folder: Path) -> dict[str, str]:
     """The run folder's files that do not name where the study lives (the manifest, and the
     PDF that carries it, record the study file's absolute path)."""
-    return {k: v for k, v in _tree(folder).items() if k not in ("manifest.json", "appendix.pdf")}
+    return {k: v for k, v in hashes(folder).items() if k not in ("manifest.json", "appendix.pdf")}
 
 
 def _start(work: Path) -> subprocess.Popen:
@@ -70,14 +65,14 @@ def _wait_for_staging(process: subprocess.Popen, work: Path) -> None:
 @pytest.mark.parametrize("sent, code, word", [(signal.SIGINT, 130, "interrupted"),
                                               (signal.SIGTERM, 143, "terminated")])
 def test_a_stopped_run_leaves_the_previous_appendix_and_no_staging(work, sent, code, word):
-    before = _tree(work / "run")
+    before = hashes(work / "run")
     process = _start(work)
     _wait_for_staging(process, work)
     process.send_signal(sent)
     assert process.wait(timeout=120) == code
     err = process.stderr.read()
     assert "Traceback" not in err and f"stopped ({word}); nothing was replaced" in err
-    assert _leftovers(work) == [] and _tree(work / "run") == before
+    assert _leftovers(work) == [] and hashes(work / "run") == before
 
 
 @pytest.mark.parametrize("delay", [0.0, 0.5, 1.5, 3.0])
@@ -106,7 +101,7 @@ def test_sigkill_at_any_moment_then_the_next_run_cleans_up(work, delay):
 def test_a_kill_between_the_two_renames_is_put_right(work):
     """The swap moves the old folder aside, then the new one in; killed in between, the
     old folder sits in .run.old-<pid>-*/run and nothing is at run/."""
-    before = _tree(work / "run")
+    before = hashes(work / "run")
     dead = 2**22 + 12345   # above the default pid range: no such process
     aside = work / f".run.old-{dead}-abcd"
     aside.mkdir()
@@ -114,4 +109,4 @@ def test_a_kill_between_the_two_renames_is_put_right(work):
     notes = publish.recover(work / "run")
     assert notes == [f"restored {work / 'run'} from an earlier run that was stopped while it "
                      "replaced the folder"]
-    assert _tree(work / "run") == before and _leftovers(work) == []
+    assert hashes(work / "run") == before and _leftovers(work) == []
