@@ -89,11 +89,19 @@ def should_go_out_of_core(path: Path, *, row_limit: int = 20_000_000) -> bool:
     >>> should_go_out_of_core(Path("units.csv"), row_limit=10**9)  # doctest: +SKIP
     False
     """
+    from appendix.data.source import require_data_file
+
+    require_data_file(path)  # before opening: a named pipe would block here
     suffix = path.suffix.lower()
     if suffix == ".parquet":
+        import pyarrow as pa
         import pyarrow.parquet as pq
 
-        return pq.ParquetFile(path).metadata.num_rows > row_limit
+        try:
+            return pq.ParquetFile(path).metadata.num_rows > row_limit
+        except (pa.ArrowException, OSError) as error:
+            raise UserError(f"cannot read {path} as a Parquet file (broken or cut short): "
+                            f"{error}") from None
     if suffix not in _DELIMITERS:
         return False
     size = path.stat().st_size
@@ -329,6 +337,9 @@ def build_dataset_out_of_core(loaded: LoadedPlan, *, sample_size: int = 5000,
     """
     import duckdb
 
+    from appendix.data.source import require_data_file
+
+    require_data_file(loaded.data_path)
     connection = _connect(memory_limit, threads)
     try:
         return _build(connection, loaded, sample_size)
