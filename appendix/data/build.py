@@ -232,11 +232,18 @@ def _level_codes(table: Table, column: str, levels: Sequence[str], where: str
             respelled[(text, code)] = respelled.get((text, code), 0) + 1
     allowed = f"allowed: one of the plan's levels {one_of(levels)}"
     problems = []
-    for text, rows in unknown.items():
+    kinds = list(unknown.items())
+    for text, rows in kinds[:LISTED]:
         got = "an empty cell" if text == "" else f"got {show(text)}"
         problems.append(Problem(where, table.lines[rows[0]], column,
                                 f"{got} on {_lines(table, rows)}; {allowed}"
                                 f"{level_hint(text, levels)}"))
+    if len(kinds) > LISTED:
+        rest = kinds[LISTED:]
+        problems.append(Problem(where, None, column,
+                                f"... and {len(rest)} more cell texts that are no level, on "
+                                f"{sum(len(rows) for _, rows in rest)} rows (first on line "
+                                f"{min(table.lines[rows[0]] for _, rows in rest)})"))
     return codes, problems, respelled
 
 
@@ -262,7 +269,10 @@ def _outcome_rows(table: Table, column: str, eligible: Sequence[bool], where: st
             bad.append(Problem(where, table.lines[i], column,
                                f"got {show(cell)}; allowed: a number, or an empty cell or NA "
                                "for a missing value"))
+        elif count_bad == LISTED + 1:
+            first_unlisted = table.lines[i]
     if count_bad > LISTED:
         bad.append(Problem(where, None, column,
-                           f"and {count_bad - LISTED} more cells that are not numbers"))
+                           f"... and {count_bad - LISTED} more cells that are not numbers "
+                           f"(first on line {first_unlisted})"))
     return rows, missing, bad

@@ -91,8 +91,10 @@ def should_go_out_of_core(path: Path, *, row_limit: int = 20_000_000) -> bool:
     """
     from appendix.data.source import require_data_file
 
-    require_data_file(path)  # before opening: a named pipe would block here
     suffix = path.suffix.lower()
+    if suffix != ".parquet" and suffix not in _DELIMITERS:
+        return False
+    require_data_file(path)  # before opening: a named pipe would block here
     if suffix == ".parquet":
         import pyarrow as pa
         import pyarrow.parquet as pq
@@ -436,13 +438,14 @@ def _number_problems(connection, prepared: str, source: _Source, column: str,
     where = str(source.path)
     total = connection.execute(f"SELECT count(*) FROM {prepared} WHERE {where_sql}").fetchone()[0]
     cells = connection.execute(f"SELECT __line, {source.text(column)} FROM {prepared} "
-                               f"WHERE {where_sql} ORDER BY __line LIMIT {LISTED}").fetchall()
+                               f"WHERE {where_sql} ORDER BY __line LIMIT {LISTED + 1}").fetchall()
     problems = [Problem(where, line, column,
                         f"got {show(cell)}; allowed: a number, or an empty cell or NA "
-                        "for a missing value") for line, cell in cells]
+                        "for a missing value") for line, cell in cells[:LISTED]]
     if total > LISTED:
         problems.append(Problem(where, None, column,
-                                f"and {total - LISTED} more cells that are not numbers"))
+                                f"... and {total - LISTED} more cells that are not numbers "
+                                f"(first on line {cells[LISTED][0]})"))
     return problems
 
 
