@@ -25,8 +25,7 @@ def require_data_file(path: Path) -> None:
     try:
         info = os.stat(path)
     except FileNotFoundError:
-        raise UserError(f"data file not found: {path.resolve()} (named by data.source); "
-                        "no units were read") from None
+        raise UserError(f"data file not found: {path.resolve()}") from None
     except OSError as error:
         raise UserError(f"cannot read the data file {path}: {error.strerror or error}") from None
     if not stat.S_ISREG(info.st_mode):
