@@ -4,6 +4,8 @@ or written."""
 from __future__ import annotations
 
 from appendix.data.dataset import Dataset
+from appendix.data.exclusions import exclusion_lines
+from appendix.data.readers import read_table
 from appendix.plan.lints import lint
 from appendix.plan.load import LoadedPlan
 from appendix.plan.model import Contrast, Plan
@@ -47,6 +49,16 @@ def describe_contrasts(plan: Plan) -> list[str]:
     return lines
 
 
+def _exclusion_detail(loaded: LoadedPlan, dataset: Dataset) -> list[str]:
+    """The units each exclusion rule set aside and rules that match only near spellings;
+    the data file is read once more (not for sources aggregated out of core)."""
+    rules = loaded.plan.data.exclusions
+    if not rules or any(o.summary is not None for o in dataset.outcomes):
+        return []
+    table = read_table(loaded.data_path, loaded.plan.data.sheet)
+    return exclusion_lines(table, rules, loaded.plan.data.unit)
+
+
 def describe_run(loaded: LoadedPlan, dataset: Dataset) -> list[str]:
     """Lines of text: the plan, the data and its unit flow, every analysis a run makes, and
     notes on plan choices the literature warns against."""
@@ -67,6 +79,7 @@ def describe_run(loaded: LoadedPlan, dataset: Dataset) -> list[str]:
     lines.append(f"units read: {_counts(flow.read)}")
     for rule in flow.exclusions:
         lines.append(f"excluded by {rule.rule} ({rule.reason}): {rule.total}")
+    lines += _exclusion_detail(loaded, dataset)
     lines.append(f"eligible: {_counts(flow.eligible)}")
     for item in flow.outcomes:
         outcome = next(o for o in plan.outcomes if o.name == item.outcome)

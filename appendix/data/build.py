@@ -28,9 +28,10 @@ from appendix.data.exclusions import apply_exclusions
 from appendix.data.flow import flow_findings, level_counts
 from appendix.data.levels import LevelReading, level_hint, reading_findings
 from appendix.data.readers import read_table
+from appendix.data.source import require_data_file
 from appendix.data.table import Table
 from appendix.data.values import is_missing, parse_number
-from appendix.errors import DataError, Problem
+from appendix.errors import DataError, Problem, UserError
 from appendix.plan.load import LoadedPlan
 from appendix.plan.wording import capped, did_you_mean, one_of, show
 from appendix.results import OutcomeFlow, UnitFlow
@@ -42,9 +43,47 @@ _DELIMITERS = {".csv": ",", ".tsv": "\t"}
 LISTED = 20
 
 
+#: Largest magnitude accepted in an outcome: squares and sums of squared deviations of
+#: values up to this size stay far inside double precision (about 1.8e308).
+VALUE_LIMIT = 1e100
+
+
 def build_dataset(loaded: LoadedPlan) -> Dataset:
-    """Read the plan's data source and turn it into the analysed `Dataset`."""
+    """Read the plan's data source and turn it into the analysed `Dataset`; a source with
+    no rows, or an outcome value beyond `VALUE_LIMIT`, is a user error."""
+    dataset = _build_dataset(loaded)
+    require_units(loaded, dataset)
+    require_finite_range(loaded, dataset)
+    return dataset
+
+
+def require_units(loaded: LoadedPlan, dataset: Dataset) -> None:
+    """A header with no rows gives a sentence, not an empty appendix."""
+    if sum(c.n for c in dataset.unit_flow.read) == 0:
+        raise UserError(f"cannot use the data file {loaded.data_path}: it has a header but no "
+                        "rows; no units were read")
+
+
+def require_finite_range(loaded: LoadedPlan, dataset: Dataset) -> None:
+    """Every analysed value within +-`VALUE_LIMIT`, so no sum of squares overflows."""
+    problems = []
+    for outcome, item in zip(loaded.plan.outcomes, dataset.outcomes):
+        values = item.values
+        big = np.flatnonzero(np.abs(values) > VALUE_LIMIT) if values.size else ()
+        if len(big):
+            first = int(big[0])
+            problems.append(Problem(
+                str(loaded.data_path), int(item.lines[first]), outcome.data_column,
+                f"got {values[first]:g} on {len(big)} row{'s' if len(big) != 1 else ''}; "
+                f"allowed: values within +-{VALUE_LIMIT:g} (beyond it sums of squares "
+                "overflow double precision); rescale the column (another unit)"))
+    if problems:
+        raise DataError(problems)
+
+
+def _build_dataset(loaded: LoadedPlan) -> Dataset:
     plan = loaded.plan
+    require_data_file(loaded.data_path)  # before hashing or reading opens it
     # Hashing reads the whole file once more; it runs beside the reading (hashlib and
     # pyarrow release the interpreter lock for large buffers).
     with ThreadPoolExecutor(max_workers=1) as pool:
@@ -193,11 +232,18 @@ def _level_codes(table: Table, column: str, levels: Sequence[str], where: str
             respelled[(text, code)] = respelled.get((text, code), 0) + 1
     allowed = f"allowed: one of the plan's levels {one_of(levels)}"
     problems = []
-    for text, rows in unknown.items():
+    kinds = list(unknown.items())
+    for text, rows in kinds[:LISTED]:
         got = "an empty cell" if text == "" else f"got {show(text)}"
         problems.append(Problem(where, table.lines[rows[0]], column,
                                 f"{got} on {_lines(table, rows)}; {allowed}"
                                 f"{level_hint(text, levels)}"))
+    if len(kinds) > LISTED:
+        rest = kinds[LISTED:]
+        problems.append(Problem(where, None, column,
+                                f"... and {len(rest)} more cell texts that are no level, on "
+                                f"{sum(len(rows) for _, rows in rest)} rows (first on line "
+                                f"{min(table.lines[rows[0]] for _, rows in rest)})"))
     return codes, problems, respelled
 
 
@@ -223,7 +269,10 @@ def _outcome_rows(table: Table, column: str, eligible: Sequence[bool], where: st
             bad.append(Problem(where, table.lines[i], column,
                                f"got {show(cell)}; allowed: a number, or an empty cell or NA "
                                "for a missing value"))
+        elif count_bad == LISTED + 1:
+            first_unlisted = table.lines[i]
     if count_bad > LISTED:
         bad.append(Problem(where, None, column,
-                           f"and {count_bad - LISTED} more cells that are not numbers"))
+                           f"... and {count_bad - LISTED} more cells that are not numbers "
+                           f"(first on line {first_unlisted})"))
     return rows, missing, bad

@@ -89,11 +89,21 @@ def should_go_out_of_core(path: Path, *, row_limit: int = 20_000_000) -> bool:
     >>> should_go_out_of_core(Path("units.csv"), row_limit=10**9)  # doctest: +SKIP
     False
     """
+    from appendix.data.source import require_data_file
+
     suffix = path.suffix.lower()
+    if suffix != ".parquet" and suffix not in _DELIMITERS:
+        return False
+    require_data_file(path)  # before opening: a named pipe would block here
     if suffix == ".parquet":
+        import pyarrow as pa
         import pyarrow.parquet as pq
 
-        return pq.ParquetFile(path).metadata.num_rows > row_limit
+        try:
+            return pq.ParquetFile(path).metadata.num_rows > row_limit
+        except (pa.ArrowException, OSError) as error:
+            raise UserError(f"cannot read {path} as a Parquet file (broken or cut short): "
+                            f"{error}") from None
     if suffix not in _DELIMITERS:
         return False
     size = path.stat().st_size
@@ -331,6 +341,9 @@ def build_dataset_out_of_core(loaded: LoadedPlan, *, sample_size: int = 5000,
     """
     import duckdb
 
+    from appendix.data.source import require_data_file
+
+    require_data_file(loaded.data_path)
     connection = _connect(memory_limit, threads)
     try:
         return _build(connection, loaded, sample_size)
@@ -427,13 +440,14 @@ def _number_problems(connection, prepared: str, source: _Source, column: str,
     where = str(source.path)
     total = connection.execute(f"SELECT count(*) FROM {prepared} WHERE {where_sql}").fetchone()[0]
     cells = connection.execute(f"SELECT __line, {source.text(column)} FROM {prepared} "
-                               f"WHERE {where_sql} ORDER BY __line LIMIT {LISTED}").fetchall()
+                               f"WHERE {where_sql} ORDER BY __line LIMIT {LISTED + 1}").fetchall()
     problems = [Problem(where, line, column,
                         f"got {show(cell)}; allowed: a number, or an empty cell or NA "
-                        "for a missing value") for line, cell in cells]
+                        "for a missing value") for line, cell in cells[:LISTED]]
     if total > LISTED:
         problems.append(Problem(where, None, column,
-                                f"and {total - LISTED} more cells that are not numbers"))
+                                f"... and {total - LISTED} more cells that are not numbers "
+                                f"(first on line {cells[LISTED][0]})"))
     return problems
 
 

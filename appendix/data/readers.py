@@ -18,6 +18,7 @@ from collections.abc import Callable, Iterable, Sequence
 from pathlib import Path
 from types import MappingProxyType
 
+from appendix.data.source import require_data_file
 from appendix.data.table import Table
 from appendix.errors import DataError, Problem, UserError
 from appendix.plan.model import DATA_FORMATS
@@ -38,8 +39,7 @@ def read_table(path: Path, sheet: str | None = None) -> Table:
     if reader is None:
         raise UserError(f"cannot read {path}: unknown file type {show(path.suffix or path.name)}; "
                         f"allowed: {one_of(DATA_FORMATS)}")
-    if not path.is_file():
-        raise UserError(f"data file not found: {path.resolve()}")
+    require_data_file(path)
     return reader(path, sheet)
 
 
@@ -129,10 +129,17 @@ def _parquet(path: Path, sheet: str | None) -> Table:
 
 
 def _xlsx(path: Path, sheet: str | None) -> Table:
+    import zipfile
+
     import openpyxl
 
+    _require_safe_workbook(path)
     with path.open("rb") as handle:
-        book = openpyxl.load_workbook(handle, read_only=True, data_only=True)
+        try:
+            book = openpyxl.load_workbook(handle, read_only=True, data_only=True)
+        except (zipfile.BadZipFile, KeyError, ValueError, OSError, EOFError) as error:
+            raise UserError(f"cannot read {path} as an .xlsx workbook (broken or cut short): "
+                            f"{error}") from None
         try:
             if sheet is not None and sheet not in book.sheetnames:
                 raise UserError(f"cannot read {path}: no worksheet {show(sheet)}; "
@@ -147,6 +154,46 @@ def _xlsx(path: Path, sheet: str | None) -> Table:
         raise UserError(f"cannot read {path}: the worksheet is empty")
     (header_line, header), body = rows[0], rows[1:]
     return _table(path, header, body, header_line)
+
+
+#: Bounds on an .xlsx (a zip of XML parts), checked before the XML is parsed: the
+#: expanded size of all members, and the ratio of expanded to stored size.
+XLSX_MAX_EXPANDED = 2 << 30
+XLSX_MAX_RATIO = 200
+
+
+def _require_safe_workbook(path: Path) -> None:
+    """Refuse an .xlsx whose zip would expand beyond bounds, or whose XML declares a
+    document type or entities (entity expansion, "billion laughs", or external
+    entities), before any XML parser sees it. Workbooks written by spreadsheet programs
+    declare neither."""
+    import zipfile
+
+    try:
+        with zipfile.ZipFile(path) as archive:
+            members = archive.infolist()
+            expanded = sum(m.file_size for m in members)
+            stored = sum(m.compress_size for m in members)
+            if expanded > XLSX_MAX_EXPANDED or expanded > XLSX_MAX_RATIO * max(stored, 1 << 16):
+                raise UserError(f"cannot read {path}: its parts would expand to {expanded} "
+                                f"bytes from {stored}, beyond the bound for a workbook; "
+                                "refused unread")
+            for member in members:
+                if member.filename.endswith((".xml", ".rels")) and _declares_entities(archive, member):
+                    raise UserError(f"cannot read {path}: its part {member.filename} declares a "
+                                    "document type or entities (<!DOCTYPE or <!ENTITY), which a "
+                                    "workbook never needs; refused without expanding them")
+    except (zipfile.BadZipFile, OSError, EOFError) as error:
+        raise UserError(f"cannot read {path} as an .xlsx workbook (broken or cut short): "
+                        f"{error}") from None
+
+
+def _declares_entities(archive, member) -> bool:
+    # A declaration comes before the root element: the start of each part suffices, and
+    # reading it whole would expand what we mean to refuse.
+    with archive.open(member) as part:
+        head = part.read(1 << 16).upper()
+    return b"<!DOCTYPE" in head or b"<!ENTITY" in head
 
 
 def _xpt(path: Path, sheet: str | None) -> Table:

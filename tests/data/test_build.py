@@ -150,7 +150,8 @@ def test_non_numeric_listing_is_capped(tmp_path):
     assert problems[0] == "21 problems in the data:"
     assert problems[1] == (f"  {path}:2: pain: got 'bad0'; allowed: a number, or an empty cell "
                            "or NA for a missing value")
-    assert problems[-1] == f"  {path}: pain: and 5 more cells that are not numbers"
+    assert problems[-1] == (f"  {path}: pain: ... and 5 more cells that are not numbers "
+                            "(first on line 22)")
 
 
 def test_unit_identifiers_present_and_unique(tmp_path):

@@ -151,7 +151,8 @@ def test_many_non_numeric_cells_are_capped(tmp_path):
     outside, memory = _errors(_both(tmp_path, body))
     assert outside.splitlines()[0] == "21 problems in the data:"
     assert outside.splitlines()[-1] == (f"  {tmp_path / 'units.csv'}: pain: "
-                                        "and 5 more cells that are not numbers")
+                                        "... and 5 more cells that are not numbers "
+                                        "(first on line 22)")
     assert outside == memory
 
 
