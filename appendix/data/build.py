@@ -33,7 +33,7 @@ from appendix.data.table import Table
 from appendix.data.values import is_missing, parse_number
 from appendix.errors import DataError, Problem, UserError
 from appendix.plan.load import LoadedPlan
-from appendix.plan.wording import capped, did_you_mean, one_of, show
+from appendix.plan.wording import capped, did_you_mean, more_of_kind, one_of, show
 from appendix.results import OutcomeFlow, UnitFlow
 
 #: Delimited text formats: their cells are decimal text, read exactly.
@@ -205,8 +205,8 @@ def _unit_problems(table: Table, column: str, where: str) -> list[Problem]:
                                 "each unit must appear once"))
     problems.sort(key=lambda p: p.line or 0)
     if len(repeated) > LISTED:
-        problems.append(Problem(where, None, column,
-                                f"and {len(repeated) - LISTED} more repeated units"))
+        problems.append(Problem(where, None, column, more_of_kind(
+            len(repeated) - LISTED, "repeated units", table.lines[repeated[LISTED][1][1]])))
     return problems
 
 

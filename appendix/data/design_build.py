@@ -33,7 +33,7 @@ from appendix.data.table import Table
 from appendix.data.values import is_missing, match_key, parse_number
 from appendix.errors import DataError, Problem
 from appendix.plan.load import LoadedPlan
-from appendix.plan.wording import capped, did_you_mean, one_of, show
+from appendix.plan.wording import capped, did_you_mean, more_of_kind, one_of, show
 from appendix.results import ExclusionCount, Finding, OutcomeFlow, UnitFlow
 
 #: Joins the levels of crossed factors in a cell's name.
@@ -153,7 +153,8 @@ def _pair_problems(table: Table, column: str, within, codes: list[int], where: s
                                 f"on {_lines(table, rows)}; each unit must appear once per level of "
                                 f"{within.name}"))
     if len(repeated) > LISTED:
-        problems.append(Problem(where, None, column, f"and {len(repeated) - LISTED} more repeated pairs"))
+        problems.append(Problem(where, None, column, more_of_kind(
+            len(repeated) - LISTED, "repeated pairs", table.lines[repeated[LISTED][1][1]])))
     return problems
 
 
@@ -182,7 +183,8 @@ def _varying(table: Table, rows_of: dict[str, list[int]], columns: list[str], wh
                                     f"unit {show(unit)} has {values} on {_lines(table, rows)}; a unit's "
                                     "between-unit factors and covariates must be the same on all its rows"))
         if len(varying) > LISTED:
-            problems.append(Problem(where, None, column, f"and {len(varying) - LISTED} more units"))
+            problems.append(Problem(where, None, column, more_of_kind(
+                len(varying) - LISTED, "units whose rows differ", table.lines[varying[LISTED][1][1]])))
     return problems
 
 
@@ -206,7 +208,8 @@ def _covariates(loaded: LoadedPlan, table: Table, rows_of: dict[str, list[int]],
                                     "for a missing value (covariate "
                                     f"{covariate.name})"))
         if len(bad) > LISTED:
-            problems.append(Problem(where, None, column, f"and {len(bad) - LISTED} more cells that are not numbers"))
+            problems.append(Problem(where, None, column, more_of_kind(
+                len(bad) - LISTED, "cells that are not numbers", table.lines[bad[LISTED]])))
         values[covariate.name] = per_unit
     return values, problems
 
@@ -256,7 +259,8 @@ def _outcome(plan, table, outcome, eligible, rows_of, codes, covariates, cell, l
                         f"got {show(cells[i])}; allowed: a number, or an empty cell or NA for a "
                         "missing value") for i in bad[:LISTED]]
     if len(bad) > LISTED:
-        problems.append(Problem(where, None, column, f"and {len(bad) - LISTED} more cells that are not numbers"))
+        problems.append(Problem(where, None, column, more_of_kind(
+            len(bad) - LISTED, "cells that are not numbers", table.lines[bad[LISTED]])))
     levels_needed = len(within.levels) if within is not None else 1
     analysed = [u for u in eligible
                 if all(covariates[c.name][u] is not None for c in plan.design.covariates)

@@ -61,3 +61,10 @@ def capped(items: Sequence[str], limit: int = 20) -> str:
     shown = ", ".join(items[:limit])
     rest = len(items) - limit
     return f"{shown} and {rest} more" if rest > 0 else shown
+
+
+def more_of_kind(count: int, kind: str, first_line: int | None) -> str:
+    """The line that ends a capped list of problems of one kind:
+    ``... and 12 more cells that are not numbers (first on line 41)``."""
+    where = f" (first on line {first_line})" if first_line is not None else ""
+    return f"... and {count} more {kind}{where}"

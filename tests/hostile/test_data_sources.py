@@ -259,3 +259,28 @@ def test_check_caps_the_list_of_excluded_units(tmp_path):
     frame.to_csv(path, index=False)
     ids = frame.loc[4:, "unit_id"].tolist()
     assert f"units excluded by X1: {', '.join(ids[:10])} and 34 more" in _check(tmp_path)
+
+
+def test_a_flood_in_a_design_beyond_one_factor_is_capped_with_its_first_unlisted_line(tmp_path):
+    """The greenhouse demo (three visits per pot) with 30 non-numeric outcome cells: 20 are
+    listed, then one line saying how many more and where the first of them is."""
+    from tests.conftest import REPO
+    from tests.hostile.helpers import run_cli
+
+    shutil.copytree(REPO / "studies" / "greenhouse-split", tmp_path / "g",
+                    ignore=shutil.ignore_patterns("__pycache__"))
+    data = tmp_path / "g" / "data" / "pots.csv"
+    lines = data.read_text().splitlines()
+    header = lines[0].split(",")
+    column = header.index("chlorophyll_index")
+    for i in range(1, 31):
+        cells = lines[i].split(",")
+        cells[column] = "n/a?"
+        lines[i] = ",".join(cells)
+    data.write_text("\n".join(lines) + "\n")
+    code, _, err = run_cli(["check", tmp_path / "g" / "study.yaml"], tmp_path / "g")
+    assert code == 2 and "Traceback" not in err
+    problems = err.splitlines()
+    assert len(problems) == 22   # the head line, 20 cells, the cap
+    assert problems[-1].endswith("chlorophyll_index: ... and 10 more cells that are not numbers "
+                                 "(first on line 22)")
