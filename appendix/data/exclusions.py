@@ -11,21 +11,28 @@ from appendix.plan.model import Exclusion
 from appendix.results import ExclusionCount
 
 
-def apply_exclusions(table: Table, rules: Sequence[Exclusion], codes: Sequence[int],
-                     levels: Sequence[str]) -> tuple[tuple[bool, ...], tuple[ExclusionCount, ...]]:
-    """Which rows stay eligible, and what each rule set aside.
-
-    Rules apply in plan order and a unit is counted under the first rule that matches
-    it only, so the counts add up to the units excluded. A cell matches when
-    `appendix.data.values.match_key` gives the same key for it and for the rule's value
-    (numbers by value, true/false in any case, other text exactly, spaces trimmed).
-    """
+def _rule_hits(table: Table, rules: Sequence[Exclusion]):
+    """(rule, rows it sets aside) in plan order, each row under the first rule that
+    matches it only. A cell matches when `appendix.data.values.match_key` gives the same
+    key for it and for the rule's value (numbers by value, true/false in any case, other
+    text exactly, spaces trimmed)."""
     eligible = [True] * table.n_rows
-    counts: list[ExclusionCount] = []
     for rule in rules:
         target = match_key(rule.equals)
         cells = table.column(rule.column)
         hit = [i for i, keep in enumerate(eligible) if keep and match_key(cells[i]) == target]
+        for i in hit:
+            eligible[i] = False
+        yield rule, hit
+
+
+def apply_exclusions(table: Table, rules: Sequence[Exclusion], codes: Sequence[int],
+                     levels: Sequence[str]) -> tuple[tuple[bool, ...], tuple[ExclusionCount, ...]]:
+    """Which rows stay eligible, and what each rule set aside (`_rule_hits`), so the counts
+    add up to the units excluded."""
+    eligible = [True] * table.n_rows
+    counts: list[ExclusionCount] = []
+    for rule, hit in _rule_hits(table, rules):
         for i in hit:
             eligible[i] = False
         by_level = level_counts((codes[i] for i in hit), levels)
@@ -44,20 +51,14 @@ def exclusion_lines(table: Table, rules: Sequence[Exclusion], unit: str) -> list
     from its value only in letter case exist (a rule that silently excludes nothing)."""
     from appendix.plan.wording import capped, show
 
-    eligible = [True] * table.n_rows
     units = table.column(unit)
     lines: list[str] = []
-    for rule in rules:
-        target = match_key(rule.equals)
-        cells = table.column(rule.column)
-        hit = [i for i, keep in enumerate(eligible) if keep and match_key(cells[i]) == target]
-        for i in hit:
-            eligible[i] = False
+    for rule, hit in _rule_hits(table, rules):
         if hit:
             lines.append(f"units excluded by {rule.id}: "
                          f"{capped([str(units[i]) for i in hit], UNITS_LISTED)}")
             continue
-        near = _near_matches(cells, rule.equals)
+        near = _near_matches(table.column(rule.column), rule.equals)
         if near:
             spelled = ", ".join(f"{show(text)} on {n} row{'s' if n != 1 else ''}"
                                 for text, n in near.items())

@@ -6,8 +6,6 @@ before."""
 
 from __future__ import annotations
 
-import hashlib
-import io
 import os
 import shutil
 import zipfile
@@ -16,19 +14,8 @@ from pathlib import Path
 import pandas as pd
 import pytest
 
-from appendix.cli import main
 from tests.conftest import DEMO
-
-
-def run_cli(argv, cwd: Path):
-    out, err = io.StringIO(), io.StringIO()
-    code = main([str(a) for a in argv], stdout=out, stderr=err, cwd=cwd)
-    return code, out.getvalue(), err.getvalue()
-
-
-def hashes(folder: Path) -> dict[str, str]:
-    return {p.relative_to(folder).as_posix(): hashlib.sha256(p.read_bytes()).hexdigest()
-            for p in sorted(folder.rglob("*")) if p.is_file()}
+from tests.hostile.helpers import hashes, run_cli
 
 
 def study(tmp_path: Path, name: str) -> Path:
@@ -265,7 +252,6 @@ def test_a_flood_in_a_design_beyond_one_factor_is_capped_with_its_first_unlisted
     """The greenhouse demo (three visits per pot) with 30 non-numeric outcome cells: 20 are
     listed, then one line saying how many more and where the first of them is."""
     from tests.conftest import REPO
-    from tests.hostile.helpers import run_cli
 
     shutil.copytree(REPO / "studies" / "greenhouse-split", tmp_path / "g",
                     ignore=shutil.ignore_patterns("__pycache__"))
