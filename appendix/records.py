@@ -155,7 +155,7 @@ def _skip_reason(loaded: LoadedPlan, dataset: Dataset, max_rows: int) -> str | N
 
 def _unit_exclusions(loaded: LoadedPlan, table: Table, units: list[str]) -> dict[str, str]:
     """The rule that set each unit aside: the first in plan order that any of its rows
-    matches (as `appendix.data.exclusions` and `design_build` apply them)."""
+    matches (as `appendix.data.exclusions` and `appendix.data.build_rows` apply them)."""
     excluded: dict[str, str] = {}
     for rule in loaded.plan.data.exclusions:
         target = match_key(rule.equals)

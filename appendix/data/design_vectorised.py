@@ -1,5 +1,5 @@
 """The fast CSV/TSV path for designs beyond one factor: the same rules as
-`appendix.data.design_build`, decided with array operations on the columns pyarrow
+`appendix.data.build_rows`, decided with array operations on the columns pyarrow
 reads (`appendix.data.columnar.read_columns`).
 
 It only answers "is this file clean?". At the first problem (an unknown level, a
@@ -17,7 +17,7 @@ from appendix.data.columnar import (Columns, all_distinct, arrow_indices, chunks
                                     numpy_of)
 from appendix.data.dataset import Dataset, OutcomeData
 from appendix.data.decimals import decimal_places
-from appendix.data.design_build import cell_labels, design_findings
+from appendix.data.build_rows import cell_labels, design_findings
 from appendix.data.flow import count_levels
 from appendix.data.rows import LineRows, TextRows
 from appendix.data.values import DECIMAL_PATTERN, match_key

@@ -1,8 +1,8 @@
-"""Registered exclusion rules, applied in plan order, counted per rule and level."""
+"""Registered exclusion rules, applied to units in plan order, counted per rule and cell."""
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 
 from appendix.data.flow import level_counts
 from appendix.data.table import Table
@@ -11,34 +11,38 @@ from appendix.plan.model import Exclusion
 from appendix.results import ExclusionCount
 
 
-def _rule_hits(table: Table, rules: Sequence[Exclusion]):
-    """(rule, rows it sets aside) in plan order, each row under the first rule that
-    matches it only. A cell matches when `appendix.data.values.match_key` gives the same
-    key for it and for the rule's value (numbers by value, true/false in any case, other
-    text exactly, spaces trimmed)."""
-    eligible = [True] * table.n_rows
+def _rule_hits(table: Table, rules: Sequence[Exclusion], rows_of: Mapping[str, Sequence[int]]):
+    """(rule, units it sets aside) in plan order: a unit is set aside when any of its rows
+    (`rows_of`: row indices per unit) matches, under the first rule that matches it only.
+    A cell matches when `appendix.data.values.match_key` gives the same key for it and for
+    the rule's value (numbers by value, true/false in any case, other text exactly,
+    spaces trimmed)."""
+    first_row = {unit: rows[0] for unit, rows in rows_of.items()}
+    unit_of = {i: unit for unit, rows in rows_of.items() for i in rows} if rules else {}
+    excluded: set[str] = set()
     for rule in rules:
         target = match_key(rule.equals)
-        cells = table.column(rule.column)
-        hit = [i for i, keep in enumerate(eligible) if keep and match_key(cells[i]) == target]
-        for i in hit:
-            eligible[i] = False
+        keys: dict[str | None, object] = {}  # each distinct cell text is keyed once
+        matched = {unit_of[i] for i, cell in enumerate(table.column(rule.column))
+                   if (keys[cell] if cell in keys else keys.setdefault(cell, match_key(cell))) == target}
+        hit = sorted(matched - excluded, key=first_row.__getitem__)
+        excluded.update(hit)
         yield rule, hit
 
 
-def apply_exclusions(table: Table, rules: Sequence[Exclusion], codes: Sequence[int],
-                     levels: Sequence[str]) -> tuple[tuple[bool, ...], tuple[ExclusionCount, ...]]:
-    """Which rows stay eligible, and what each rule set aside (`_rule_hits`), so the counts
-    add up to the units excluded."""
-    eligible = [True] * table.n_rows
+def apply_exclusions(table: Table, rules: Sequence[Exclusion], rows_of: Mapping[str, Sequence[int]],
+                     cell: Mapping[str, int], labels: Sequence[str]
+                     ) -> tuple[dict[str, str], tuple[ExclusionCount, ...]]:
+    """The rule that set each excluded unit aside, and what each rule set aside per cell
+    (`cell`: each unit's index into `labels`), so the counts add up to the units excluded."""
+    excluded_by: dict[str, str] = {}
     counts: list[ExclusionCount] = []
-    for rule, hit in _rule_hits(table, rules):
-        for i in hit:
-            eligible[i] = False
-        by_level = level_counts((codes[i] for i in hit), levels)
+    for rule, hit in _rule_hits(table, rules, rows_of):
+        excluded_by.update((unit, rule.id) for unit in hit)
         counts.append(ExclusionCount(rule=rule.id, column=rule.column, equals=rule.equals,
-                                     reason=rule.reason, by_level=by_level, total=len(hit)))
-    return tuple(eligible), tuple(counts)
+                                     reason=rule.reason, by_level=level_counts((cell[u] for u in hit), labels),
+                                     total=len(hit)))
+    return excluded_by, tuple(counts)
 
 
 #: At most this many excluded unit identifiers are listed per rule by `appendix check`.
@@ -51,12 +55,10 @@ def exclusion_lines(table: Table, rules: Sequence[Exclusion], unit: str) -> list
     from its value only in letter case exist (a rule that silently excludes nothing)."""
     from appendix.plan.wording import capped, show
 
-    units = table.column(unit)
     lines: list[str] = []
-    for rule, hit in _rule_hits(table, rules):
+    for rule, hit in _rule_hits(table, rules, table.rows_of(unit)):
         if hit:
-            lines.append(f"units excluded by {rule.id}: "
-                         f"{capped([str(units[i]) for i in hit], UNITS_LISTED)}")
+            lines.append(f"units excluded by {rule.id}: {capped(hit, UNITS_LISTED)}")
             continue
         near = _near_matches(table.column(rule.column), rule.equals)
         if near:

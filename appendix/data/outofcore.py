@@ -5,14 +5,15 @@ The in-memory stage (`appendix.data.build`) holds every cell as text; for a sour
 connection per call, `memory_limit` set, spilling to a folder under the system temp dir)
 scans the file several times and only counts and per-level sums reach Python:
 
-1. the columns the plan names exist (the in-memory stage's own check and wording);
+1. the columns the plan names exist;
 2. unit identifiers are present and unique (repeated ids listed with their lines, 20 at most);
 3. every level is one of the plan's levels, by text or, for number-like levels, by value
    (`appendix.data.levels`: the distinct texts that are no level's text are read in
    Python; else `DataError` naming them, with a level equal or close in value, or a
    did-you-mean);
 4. exclusion rules in plan order, counted per rule and level (a unit under its first rule);
-5. per outcome, missing cells counted per level, non-numeric cells reported (20 at most);
+5. per outcome, missing cells counted per level, non-numeric cells reported (20 at most),
+   values beyond +-`problems.VALUE_LIMIT` refused, a header without rows refused;
 6. per outcome and level, n and mean (first pass), then the sum of squared deviations
    from that mean, handed back to a second scan: the two-pass algorithm (Chan, Golub &
    LeVeque 1983, Am. Stat. 37:242-247), in DOUBLE, each sum taken with DuckDB's ``fsum``
@@ -22,7 +23,8 @@ scans the file several times and only counts and per-level sums reach Python:
 7. a deterministic subsample of at most `sample_size` analysed units per outcome for
    figures and row-level diagnostics (see `_sample`).
 
-Unit flow and findings come from the in-memory stage's own functions, fed with counts.
+Unit flow and findings come from the in-memory stage's own functions, fed with counts, and
+every problem is worded by `appendix.data.problems`, as in memory.
 
 Differences from the in-memory stage, by design or by what SQL can do cheaply:
 
@@ -55,16 +57,14 @@ from pathlib import Path
 
 import numpy as np
 
-from appendix.data.build import LISTED, _require_columns
+from appendix.data import problems as say
 from appendix.data.checksums import study_inputs
 from appendix.data.dataset import CellSummary, Dataset, OutcomeData, frozen_array
 from appendix.data.flow import flow_findings
-from appendix.data.levels import LevelReading, level_hint, reading_findings
-from appendix.data.table import Table
+from appendix.data.levels import LevelReading, reading_findings
 from appendix.data.values import MISSING_TEXTS, match_key
 from appendix.errors import DataError, Problem, UserError
 from appendix.plan.load import LoadedPlan
-from appendix.plan.wording import one_of, show
 from appendix.results import ExclusionCount, LevelCount, OutcomeFlow, UnitFlow
 
 #: The decimal-number pattern of `appendix.data.values.parse_number`, for RE2.
@@ -174,13 +174,6 @@ def _open(connection, path: Path) -> _Source:
     return _Source(path=path, scan=scan, types=types)
 
 
-def _lines_text(lines: Sequence[int], total: int) -> str:
-    label = "line" if total == 1 else "lines"
-    shown = [str(n) for n in lines[:LISTED]]
-    rest = total - len(shown)
-    return f"{label} {', '.join(shown)}" + (f" and {rest} more" if rest > 0 else "")
-
-
 def _grouped_lines(connection, source: _Source, key: str, where: str):
     """(key, count, first lines) of the rows matching `where`, by first appearance."""
     return connection.execute(f"""
@@ -188,7 +181,7 @@ def _grouped_lines(connection, source: _Source, key: str, where: str):
             SELECT k, __line, count(*) OVER (PARTITION BY k) AS n,
                    row_number() OVER (PARTITION BY k ORDER BY __line) AS rank
             FROM (SELECT {key} AS k, __line FROM {source.scan} WHERE {where}))
-        WHERE rank <= {LISTED} GROUP BY k ORDER BY min(__line)""").fetchall()
+        WHERE rank <= {say.LISTED} GROUP BY k ORDER BY min(__line)""").fetchall()
 
 
 def _unit_problems(connection, source: _Source, column: str) -> list[Problem]:
@@ -196,9 +189,7 @@ def _unit_problems(connection, source: _Source, column: str) -> list[Problem]:
     unit = source.text(column)
     problems: list[Problem] = []
     for _, total, lines in _grouped_lines(connection, source, "0", _missing(unit)):
-        problems.append(Problem(where, lines[0], column,
-                                f"no unit identifier on {_lines_text(lines, total)}; "
-                                "every row needs one"))
+        problems.append(say.no_unit(where, column, lines, total))
     # Grouping 10^8 distinct texts does not fit a small memory limit; 64-bit keys do.
     # Equal texts have equal hashes, so only rows whose key repeats need the exact check.
     key = (_ident(column) if source.types[column] in _INTEGERS else f"hash({unit})")
@@ -214,14 +205,13 @@ def _unit_problems(connection, source: _Source, column: str) -> list[Problem]:
     if repeated:
         twice = (f"{suspects} AND {unit} IN (SELECT u FROM (SELECT {unit} AS u FROM "
                  f"{source.scan} WHERE {suspects} GROUP BY u HAVING count(*) > 1))")
-        for value, total, lines in _grouped_lines(connection, source, unit, twice)[:LISTED]:
-            problems.append(Problem(where, lines[1], column,
-                                    f"unit {show(value)} appears on {_lines_text(lines, total)}; "
-                                    "each unit must appear once"))
+        groups = _grouped_lines(connection, source, unit, twice)
+        for value, total, lines in groups[:say.LISTED]:
+            problems.append(say.repeated_unit(where, column, value, lines, total))
     problems.sort(key=lambda p: p.line or 0)
-    if repeated > LISTED:
-        problems.append(Problem(where, None, column,
-                                f"and {repeated - LISTED} more repeated units"))
+    if repeated > say.LISTED:
+        problems.append(say.more(where, column, repeated - say.LISTED, "repeated units",
+                                 groups[say.LISTED][2][1]))
     return problems
 
 
@@ -239,18 +229,19 @@ def _level_reading(connection, source: _Source, column: str, levels: Sequence[st
     reading = LevelReading.of(levels)
     text = f"coalesce({source.text(column)}, '')"
     listed = ", ".join(_literal(level) for level in levels)
-    allowed = f"allowed: one of the plan's levels {one_of(levels)}"
-    problems, respelled = [], {}
+    problems, respelled, rest = [], {}, []
     for value, total, lines in _grouped_lines(connection, source, text,
                                               f"{text} NOT IN ({listed})"):
         code = reading.code(value)
         if code >= 0:
             respelled[(value, code)] = int(total)
-            continue
-        got = "an empty cell" if value == "" else f"got {show(value)}"
-        problems.append(Problem(where, lines[0], column,
-                                f"{got} on {_lines_text(lines, total)}; {allowed}"
-                                f"{level_hint(value, levels)}"))
+        elif len(problems) < say.LISTED:
+            problems.append(say.not_a_level(where, column, value, lines, levels, total))
+        else:
+            rest.append((int(total), lines[0]))
+    if rest:
+        problems.append(say.more_not_levels(where, column, len(rest), sum(n for n, _ in rest),
+                                            min(line for _, line in rest)))
     return problems, respelled
 
 
@@ -357,8 +348,7 @@ def _build(connection, loaded: LoadedPlan, sample_size: int) -> Dataset:
     plan = loaded.plan
     source = _open(connection, loaded.data_path)
     columns = tuple(source.types)
-    _require_columns(loaded, Table(path=source.path, columns=columns,
-                                   cells={c: () for c in columns}, lines=()))
+    say.require_columns(loaded, source.path, columns)
     _allow_statistics(connection, source, [o.data_column for o in plan.outcomes])
     levels = plan.factor.levels
     problems = _unit_problems(connection, source, plan.data.unit)
@@ -374,14 +364,22 @@ def _build(connection, loaded: LoadedPlan, sample_size: int) -> Dataset:
     outcome_sql = [_outcome_sql(source, o.data_column) for o in plan.outcomes]
     prepared = (f"(SELECT *, {code} AS __code, {rule} AS __rule FROM {source.scan})")
     counts = _first_pass(connection, prepared, outcome_sql, len(levels), len(rules))
+    read, excluded = counts["read"], counts["excluded"]
+    if not read.any():
+        raise say.no_rows(loaded.data_path)
     problems = []
     for j, (outcome, (missing, value, bad)) in enumerate(zip(plan.outcomes, outcome_sql)):
         if counts["bad"][j].any():
             problems += _number_problems(connection, prepared, source, outcome.data_column,
                                          f"__rule IS NULL AND NOT {missing} AND {bad}")
+        elif counts["large"][j].any():
+            line, big = connection.execute(
+                f"SELECT __line, {value} FROM {prepared} WHERE __rule IS NULL AND NOT {missing} "
+                f"AND abs({value}) > {say.VALUE_LIMIT!r} ORDER BY __line LIMIT 1").fetchone()
+            problems.append(say.too_large(str(source.path), outcome.data_column, big, int(line),
+                                          int(counts["large"][j].sum())))
     if problems:
         raise DataError(problems)
-    read, excluded = counts["read"], counts["excluded"]
     exclusions = tuple(
         ExclusionCount(rule=r.id, column=r.column, equals=r.equals, reason=r.reason,
                        by_level=_level_tuple(excluded[i], levels), total=int(excluded[i].sum()))
@@ -409,45 +407,49 @@ def _level_tuple(counts: np.ndarray, levels: Sequence[str]) -> tuple[LevelCount,
     return tuple(LevelCount(level=level, n=int(n)) for level, n in zip(levels, counts))
 
 
+#: What the first pass counts (or sums) per outcome and level, in its column order.
+_FIRST_PASS = ("missing", "bad", "analysed", "sums", "large")
+
+
 def _first_pass(connection, prepared: str, outcome_sql, k: int,
                 rules: int) -> dict[str, np.ndarray]:
     """One scan: rows per level, per rule and level; per outcome and eligible level the
-    missing, non-numeric and analysed cells and the (Kahan) sum of the analysed values."""
+    missing, non-numeric and analysed cells, the (Kahan) sum of the analysed values and
+    how many of them lie beyond +-`problems.VALUE_LIMIT`."""
     per_outcome = "".join(
         f", count(*) FILTER (WHERE __rule IS NULL AND {m})"
         f", count(*) FILTER (WHERE __rule IS NULL AND NOT {m} AND {bad})"
         f", count({value}) FILTER (WHERE __rule IS NULL AND NOT {m} AND NOT {bad})"
         f", fsum({value}) FILTER (WHERE __rule IS NULL AND NOT {m} AND NOT {bad})"
+        f", count(*) FILTER (WHERE __rule IS NULL AND NOT {m} AND NOT {bad} "
+        f"AND abs({value}) > {say.VALUE_LIMIT!r})"
         for m, value, bad in outcome_sql)
     rows = connection.execute(
         f"SELECT __code, __rule, count(*){per_outcome} FROM {prepared} GROUP BY ALL").fetchall()
     read = np.zeros(k, dtype=np.int64)
     excluded = np.zeros((rules, k), dtype=np.int64)
     found = {name: np.zeros((len(outcome_sql), k), dtype=np.float64 if name == "sums" else np.int64)
-             for name in ("missing", "bad", "analysed", "sums")}
+             for name in _FIRST_PASS}
     for code, rule, n, *per in rows:
         read[code] += n
         if rule is not None:
             excluded[rule, code] += n
-        for i, name in enumerate(("missing", "bad", "analysed", "sums")):
-            found[name][:, code] += [value or 0 for value in per[i::4]]
+        for i, name in enumerate(_FIRST_PASS):
+            found[name][:, code] += [value or 0 for value in per[i::len(_FIRST_PASS)]]
     return {"read": read, "excluded": excluded, **found}
 
 
 def _number_problems(connection, prepared: str, source: _Source, column: str,
                      where_sql: str) -> list[Problem]:
-    """One problem per eligible non-numeric cell, the first `LISTED` by line, then a count."""
+    """One problem per eligible non-numeric cell, the first `problems.LISTED` by line, then a count."""
     where = str(source.path)
     total = connection.execute(f"SELECT count(*) FROM {prepared} WHERE {where_sql}").fetchone()[0]
     cells = connection.execute(f"SELECT __line, {source.text(column)} FROM {prepared} "
-                               f"WHERE {where_sql} ORDER BY __line LIMIT {LISTED + 1}").fetchall()
-    problems = [Problem(where, line, column,
-                        f"got {show(cell)}; allowed: a number, or an empty cell or NA "
-                        "for a missing value") for line, cell in cells[:LISTED]]
-    if total > LISTED:
-        problems.append(Problem(where, None, column,
-                                f"... and {total - LISTED} more cells that are not numbers "
-                                f"(first on line {cells[LISTED][0]})"))
+                               f"WHERE {where_sql} ORDER BY __line LIMIT {say.LISTED + 1}").fetchall()
+    problems = [say.not_a_number(where, column, cell, line) for line, cell in cells[:say.LISTED]]
+    if total > say.LISTED:
+        problems.append(say.more(where, column, total - say.LISTED, "cells that are not numbers",
+                                 cells[say.LISTED][0]))
     return problems
 
 
@@ -521,10 +523,12 @@ def _sample(connection, prepared: str, source: _Source, unit_column: str, name: 
     chosen = sorted((row for got, need in zip(by_level, wanted)
                      for row in sorted(got, key=lambda r: (r[1], r[2]))[:need]),
                     key=lambda r: r[2])
+    codes = frozen_array([r[0] for r in chosen], dtype=np.int64)
     return OutcomeData(
         name=name,
         values=frozen_array([r[4] for r in chosen], dtype=np.float64),
-        codes=frozen_array([r[0] for r in chosen], dtype=np.int64),
+        codes=codes,
+        factors=(codes,),
         units=tuple(r[3] for r in chosen),
         lines=tuple(int(r[2]) for r in chosen),
         summary=summary,

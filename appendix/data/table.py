@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from collections.abc import Mapping
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -30,3 +30,16 @@ class Table:
 
     def column(self, name: str) -> tuple[str | None, ...]:
         return self.cells[name]
+
+    def lines_of(self, rows: Sequence[int]) -> list[int]:
+        """The file lines of row indices `rows`."""
+        return [self.lines[i] for i in rows]
+
+    def rows_of(self, column: str) -> dict[str, list[int]]:
+        """Row indices of each text of `column` (spaces trimmed; "" for a cell without a
+        value), in order of first appearance: the rows of each unit when `column` holds
+        the unit identifiers."""
+        rows: dict[str, list[int]] = {}
+        for i, cell in enumerate(self.cells[column]):
+            rows.setdefault("" if cell is None else cell.strip(), []).append(i)
+        return rows

@@ -292,8 +292,9 @@ def _build(plan, columns: Columns, codes: np.ndarray, plain_reads: list,
             values, digits = _floats(kept), None
             if values is None:
                 return None
+        kept_codes = _read_only(kept_codes)
         outcomes.append(OutcomeData(
-            name=outcome.name, values=_read_only(values), codes=_read_only(kept_codes),
+            name=outcome.name, values=_read_only(values), codes=kept_codes, factors=(kept_codes,),
             units=TextRows(units, rows), lines=LineRows(rows, 2, columns.line_of),
             decimals=(None if not plain else plain_places(kept, values) if digits is None
                       else exact_places(kept, values, digits))))

@@ -15,7 +15,7 @@ import pytest
 
 from appendix.data.build import build_dataset
 from appendix.data.outofcore import build_dataset_out_of_core, quotas, should_go_out_of_core
-from appendix.errors import DataError
+from appendix.errors import DataError, UserError
 from appendix.plan.load import load_plan
 from tests.data.helpers import invented_units, write_delimited, write_parquet, write_study
 
@@ -108,10 +108,11 @@ def _both(tmp_path, body: str, planned: int = 1):
     return loaded
 
 
-def _errors(loaded) -> tuple[str, str]:
-    with pytest.raises(DataError) as outside:
+def _errors(loaded, kind: type[Exception] = DataError) -> tuple[str, str]:
+    """The message of each stage for a source both must refuse with `kind`."""
+    with pytest.raises(kind) as outside:
         build_dataset_out_of_core(loaded)
-    with pytest.raises(DataError) as memory:
+    with pytest.raises(kind) as memory:
         build_dataset(loaded)
     return str(outside.value), str(memory.value)
 
@@ -146,13 +147,24 @@ def test_data_errors_worded_as_in_memory(tmp_path, body, expected):
     assert outside == memory
 
 
-def test_many_non_numeric_cells_are_capped(tmp_path):
-    body = "".join(f"u{i},low,no,5,x{i},8\n" for i in range(25))
+CAPPED = {
+    "non-numeric cells": ("".join(f"u{i},low,no,5,x{i},8\n" for i in range(25)),
+                          "pain: ... and 5 more cells that are not numbers (first on line 22)"),
+    # 25 units on two rows each; u20 is first seen on line 22 and again on line 47.
+    "repeated units": ("".join(f"u{i},low,no,5,1,8\n" for i in range(25)) * 2,
+                       "unit_id: ... and 5 more repeated units (first on line 47)"),
+    "unknown levels": ("".join(f"u{i},arm{i},no,5,1,8\n" for i in range(25)),
+                       "arm: ... and 5 more cell texts that are no level, on 5 rows "
+                       "(first on line 22)"),
+}
+
+
+@pytest.mark.parametrize("body, last", CAPPED.values(), ids=CAPPED.keys())
+def test_a_flood_of_one_kind_is_capped_as_in_memory(tmp_path, body, last):
+    """20 problems listed, then one line for the rest with the first unlisted line."""
     outside, memory = _errors(_both(tmp_path, body))
     assert outside.splitlines()[0] == "21 problems in the data:"
-    assert outside.splitlines()[-1] == (f"  {tmp_path / 'units.csv'}: pain: "
-                                        "... and 5 more cells that are not numbers "
-                                        "(first on line 22)")
+    assert outside.splitlines()[-1] == f"  {tmp_path / 'units.csv'}: {last}"
     assert outside == memory
 
 
@@ -263,3 +275,20 @@ def test_csv_lines_follow_the_file_over_many_scan_chunks(tmp_path, threads):
     assert outside.sample_of == memory.values.size > 15_000
     assert (outside.units, outside.lines) == (memory.units, memory.lines)
     np.testing.assert_array_equal(outside.values, memory.values)
+
+
+def test_a_header_without_rows_is_refused_as_in_memory(tmp_path):
+    outside, memory = _errors(_both(tmp_path, ""), UserError)
+    assert outside == (f"cannot use the data file {tmp_path / 'units.csv'}: it has a header but "
+                       "no rows; no units were read")
+    assert outside == memory
+
+
+def test_values_beyond_the_limit_are_refused_as_in_memory(tmp_path):
+    # 1e200 squared overflows double precision (max about 1.8e308, IEEE 754).
+    body = "u1,placebo,no,5,1,7\nu2,low,no,5,1e200,8\nu3,high,no,5,-2e150,9\n"
+    outside, memory = _errors(_both(tmp_path, body), UserError)
+    assert outside.splitlines()[1] == (f"  {tmp_path / 'units.csv'}:3: pain: got 1e+200 on 2 rows; "
+                                       "allowed: values within +-1e+100 (beyond it sums of squares "
+                                       "overflow double precision); rescale the column (another unit)")
+    assert outside == memory
