@@ -88,9 +88,16 @@ def _hypotheses(plan: Plan, contrasts: tuple[Contrast, ...]):
     return tuple(hypotheses), tuple(alternatives)
 
 
-def _order(plan: Plan, hypotheses) -> tuple[str, ...] | None:
-    """Hypothesis ids in the registered fixed-sequence order (contrasts in `order`, each
-    contrast's hypotheses in their natural order)."""
+def sequence_order(plan: Plan, hypotheses) -> tuple[str, ...] | None:
+    """Hypothesis ids of one family in the registered fixed-sequence order, or None under
+    any other method.
+
+    The walk is the registered `order` restricted to the contrasts in the family: a
+    contrast that `outcomes` limits to other outcomes is skipped, the others keep their
+    registered places; each contrast's hypotheses follow in their natural order (simple
+    effects of a `by` contrast level after level). Every path (one factor, designs beyond
+    one factor, the primary family) walks this order.
+    """
     if plan.multiplicity.method != "fixed-sequence" or not plan.multiplicity.order:
         return None
     rank = {cid: i for i, cid in enumerate(plan.multiplicity.order)}
@@ -107,7 +114,7 @@ def _family(plan: Plan, outcome: str, contrasts, method: str, multiplicity: str,
         return None
     tested = test_family(hypotheses, alternatives, method=method, multiplicity=multiplicity,
                          cells=cells, values=values, codes=codes, alpha=plan.alpha,
-                         order=_order(plan, hypotheses) if scope != "exploratory" else None)
+                         order=sequence_order(plan, hypotheses) if scope != "exploratory" else None)
     return ContrastFamily(outcome=outcome, scope=scope, multiplicity=multiplicity,
                           method=method, alpha=plan.alpha, registered=registered,
                           hypotheses=tested, joint=ONE_FACTOR_LAWS.get(multiplicity))
@@ -171,7 +178,7 @@ def _joint_fixed_sequence(plan: Plan, families) -> list[tuple]:
     hypotheses in its registered order, outcome after outcome in plan order."""
     walk = []
     for n, hypotheses in enumerate(families):
-        ids = _order(plan, hypotheses) or tuple(h.id for h in hypotheses)
+        ids = sequence_order(plan, hypotheses) or tuple(h.id for h in hypotheses)
         position = {h.id: i for i, h in enumerate(hypotheses)}
         walk += [(n, position[hid]) for hid in ids]
     tested = fixed_sequence([families[n][i] for n, i in walk], plan.alpha)

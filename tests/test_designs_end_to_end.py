@@ -12,7 +12,7 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from appendix.api import compute, render
+from appendix.api import check, compute, render
 
 STUDY = """\
 format: 1
@@ -548,3 +548,55 @@ multiplicity: {method: holm}
     for sentence in sentences:
         assert "Caution: the slopes of the outcome on the covariate differ" in sentence
         assert f"baseline height: {text}" in sentence
+
+
+def _walk(hypotheses, alpha=0.05):
+    """(p_adjusted, decision) of a fixed-sequence walk, by the published rule: p_adj(i) =
+    max(p_1..p_i), testing stops after the first retained (Maurer, Hothorn & Lehmacher 1995;
+    Westfall & Krishen 2001, J Stat Plan Inference 99:25-40)."""
+    running, stopped, out = 0.0, False, []
+    for h in hypotheses:
+        if stopped:
+            out.append((None, "not-tested"))
+            continue
+        running = max(running, h.p)
+        stopped = running >= alpha
+        out.append((running, "retain" if stopped else "reject"))
+    return out
+
+
+@pytest.mark.parametrize("scope", ["per-outcome", "primary-family"])
+def test_fixed_sequence_skips_contrasts_limited_to_other_outcomes(tmp_path, scope):
+    """Regression: `order: [S1, C1, C2]` with S1 limited to `height` and C2 to `mass` crashed
+    the run of a design beyond one factor ("fixed-sequence order names 'S1', which is not in
+    the family"). Each outcome's family is walked in the registered order restricted to the
+    contrasts that apply to it (mass: C1 then C2; height: S1 then C1); under primary-family
+    the walk is mass's sequence then height's, in plan order."""
+    frame = _factorial(tmp_path, ss=2, covariate=False, interaction=False)
+    frame["height"] = (frame["mass"].astype(float) * 0.3 + np.arange(len(frame)) % 5).round(2)
+    frame.to_csv(tmp_path / "units.csv", index=False)
+    study = (tmp_path / "study.yaml").read_text()
+    study = study.replace("  - {name: mass, label: Dry mass, unit: g, role: primary}\n",
+                          "  - {name: mass, label: Dry mass, unit: g, role: primary}\n"
+                          "  - {name: height, label: Height, role: primary}\n")
+    study = study.replace("label: Coating pairs within each regime}",
+                          "label: Coating pairs within each regime, outcomes: [mass]}\n"
+                          "  - {id: S1, factor: water, kind: pairwise, label: Regimes, outcomes: [height]}")
+    study = study.replace("multiplicity: {method: holm}",
+                          f"multiplicity: {{method: fixed-sequence, scope: {scope}, order: [S1, C1, C2]}}")
+    (tmp_path / "study.yaml").write_text(study)
+    check(tmp_path / "study.yaml")  # the plan passes check
+    results = compute(tmp_path / "study.yaml").results
+    (mass,), (height,) = (m.contrasts for m in results.models)
+    assert [h.contrast for h in mass.hypotheses] == ["C1"] * 2 + ["C2"] * 6
+    assert [h.contrast for h in height.hypotheses] == ["C1", "C1", "S1"]  # listed in plan order
+    walks = [list(mass.hypotheses), [height.hypotheses[i] for i in (2, 0, 1)]]
+    if scope == "primary-family":
+        walks = [walks[0] + walks[1]]
+    got = [(h.p_adjusted, h.decision) for walk in walks for h in walk]
+    expected = [item for walk in walks for item in _walk(walk)]
+    assert [d for _, d in got] == [d for _, d in expected]
+    np.testing.assert_allclose([p if p is not None else -1 for p, _ in got],
+                               [p if p is not None else -1 for p, _ in expected], rtol=1e-12)
+    html = render(compute(tmp_path / "study.yaml")).html
+    assert "S1:pulsed-steady" in html

@@ -353,7 +353,8 @@ class Multiplicity(_Frozen):
         description="per-outcome, or primary-family: one family over every primary outcome.")
     order: tuple[ContrastId, ...] | None = Field(
         default=None, min_length=1,
-        description="fixed-sequence only: every contrast id exactly once, in testing order.")
+        description="fixed-sequence only: every contrast id exactly once, in testing order; "
+                    "each outcome's family follows it, skipping contrasts that do not apply to it.")
 
 
 class Acknowledgement(_Frozen):
