@@ -2,7 +2,8 @@
 
 `render_html` reads only the parsed results.json and the figures' SVG text; a fresh
 Jinja2 environment is made per call (autoescape on, undefined names are errors) with the
-number filters of `appendix.numbers`, configured by `RenderOptions`. `render_pdf` hands
+number filters of `appendix.numbers`, configured by `RenderOptions`; only the compiled
+template code is kept between calls (`_CompiledTemplates`). `render_pdf` hands
 the HTML to WeasyPrint with a fetcher that refuses every URL except ``data:``.
 
 The PDF is PDF/A-3b (ISO 19005-3, conformance level B) through WeasyPrint's
@@ -29,6 +30,7 @@ from types import MappingProxyType
 from typing import Any, Literal
 
 import jinja2
+from jinja2.bccache import Bucket
 from markupsafe import Markup
 
 from appendix import numbers
@@ -243,11 +245,38 @@ def _ordered_outcomes(results: Mapping[str, Any]) -> list[dict[str, Any]]:
     return sorted(results["outcomes"], key=lambda o: o["role"] != "primary")
 
 
+class _CompiledTemplates(jinja2.BytecodeCache):
+    """Compiled template code kept in memory for the life of the process.
+
+    Jinja keys each entry by the template's name and a checksum of its source, so a changed
+    template is compiled afresh; the environment, its filters and options are still made
+    per call, so the cache holds no setting and cannot change what is rendered. Compiled
+    code depends on the lexer and escaping settings, so only `render_html`, whose settings
+    are fixed, uses it. Compiling the templates costs about twenty times as much as
+    rendering them.
+    """
+
+    def __init__(self) -> None:
+        self._code: dict[str, bytes] = {}
+
+    def load_bytecode(self, bucket: Bucket) -> None:
+        code = self._code.get(bucket.key)
+        if code is not None:
+            bucket.bytecode_from_string(code)
+
+    def dump_bytecode(self, bucket: Bucket) -> None:
+        self._code[bucket.key] = bucket.bytecode_to_string()
+
+
+_COMPILED = _CompiledTemplates()
+
+
 def render_html(results: dict, figures: dict[str, str], options: RenderOptions) -> str:
     """The appendix as one self-contained HTML document (inline CSS and SVG, no scripts)."""
     root = template_root()
     env = jinja2.Environment(
         loader=jinja2.FileSystemLoader(str(root)),
+        bytecode_cache=_COMPILED,
         autoescape=True,
         undefined=jinja2.StrictUndefined,
         trim_blocks=True,
