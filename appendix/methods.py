@@ -662,7 +662,7 @@ def _model_methods(results: Mapping[str, Any]) -> tuple[Method, ...]:
     chosen = ["model-descriptives"]
     chosen += ["linear-model"] if _ran(models, lambda m: m["marginal_means"] or not m["sphericity"]) else []
     chosen += ["marginal-means"] if _ran(models, lambda m: m["marginal_means"]) else []
-    chosen += ["slopes"] if _ran(models, lambda m: m["slopes"]) else []
+    chosen += ["slopes"] if _ran(models, lambda m: any(c["by"] for c in m["slopes"])) else []
     if _ran(models, lambda m: m["sphericity"]):
         # one within factor per plan: a lower bound 1/d of 1 means two levels, no correction
         two_levels = all(m["sphericity"]["lower_bound"] >= 1 for m in models if m["sphericity"])

@@ -164,10 +164,19 @@ def _model_table(plan: Plan, fit, scale: float = 1.0, stratum: str = "units") ->
 
 def _slopes_checks(plan: Plan, cells, fit) -> tuple[SlopesCheck, ...]:
     """The homogeneity-of-slopes test of every covariate across the treatment cells; its
-    error df is the model's residual df less the added interaction's df."""
+    error df is the model's residual df less the added interaction's df. A design without a
+    treatment factor has no treatment cells whose slopes could differ: the check is not
+    defined, and each covariate's entry says so."""
     from appendix.stats.linear import slopes_homogeneity
 
     by = tuple(f.name for f in plan.treatments)
+    if not by:
+        why = StatWarning("slopes-check-undefined",
+                          "The design has no treatment factor, so there are no treatment cells "
+                          "across which the covariate's slope could differ; the homogeneity-of-"
+                          "slopes check is not defined and one common slope is fitted.")
+        return tuple(SlopesCheck(covariate=c.label, by=(), df=0.0, df_residual=fit.residual_df,
+                                 f=None, p=None, warnings=(why,)) for c in plan.design.covariates)
     checks = []
     for covariate in plan.design.covariates:
         row = slopes_homogeneity(cells, plan.model_terms, covariate.name, by, plan.alpha)
@@ -373,7 +382,7 @@ def _family_correlation(plan: Plan, members, fit, complete, occasion_residuals):
             residuals = np.asarray(occasion_residuals)
             sigma = residuals.T @ residuals
             places = [within.levels.index(level) for *_, level in members]
-            design = rows @ (fit.covariance / fit.residual_ms if fit.residual_ms else fit.covariance) @ rows.T
+            design = rows @ fit.inverse @ rows.T
             covariance = design * sigma[np.ix_(places, places)]
             why = StatWarning("joint-law-approximate",
                               f"The comparisons at each level of {within.label or within.name} come "
@@ -387,8 +396,8 @@ def _family_correlation(plan: Plan, members, fit, complete, occasion_residuals):
         slices = {level: _units_at(plan, complete, by, level) for *_, by, level in members}
         for i, (_, _, hi, _, li) in enumerate(members):
             for j, (_, _, hj, _, lj) in enumerate(members):
-                if li == lj:
-                    units = slices[li]
+                units = slices[li]
+                if li == lj and units.y.shape[0]:  # a slice without units has no covariance
                     covariance[i, j] = (np.asarray(hi.weights) @ _pooled_cross(units)
                                         @ np.asarray(hj.weights)) / units.y.shape[0]
         why = None if m < 2 else StatWarning(

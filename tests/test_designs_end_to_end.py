@@ -324,19 +324,25 @@ multiplicity: {method: none}
     assert " g per coat thickness unit\u00b2 (95% CI " in model.hypothesis_conclusions[1].sentence
 
 
+def _two_primary_outcomes(tmp_path) -> str:
+    """The blocked factorial (type 2, no covariate or interaction) with a second primary
+    outcome, `height`, invented from `mass`; returns the study text to edit."""
+    frame = _factorial(tmp_path, ss=2, covariate=False, interaction=False)
+    frame["height"] = (frame["mass"].astype(float) * 0.3 + np.arange(len(frame)) % 5).round(2)
+    frame.to_csv(tmp_path / "units.csv", index=False)
+    return (tmp_path / "study.yaml").read_text().replace(
+        "  - {name: mass, label: Dry mass, unit: g, role: primary}\n",
+        "  - {name: mass, label: Dry mass, unit: g, role: primary}\n"
+        "  - {name: height, label: Height, role: primary}\n")
+
+
 def test_primary_family_and_exploratory_entries_for_designs(tmp_path):
     """Two primary outcomes adjusted as one Holm family (checked against statsmodels'
     multipletests on the raw p of every hypothesis), and an exploratory entry reported
     apart, unadjusted."""
     from statsmodels.stats.multitest import multipletests
 
-    frame = _factorial(tmp_path, ss=2, covariate=False, interaction=False)
-    frame["height"] = (frame["mass"].astype(float) * 0.3 + np.arange(len(frame)) % 5).round(2)
-    frame.to_csv(tmp_path / "units.csv", index=False)
-    study = (tmp_path / "study.yaml").read_text()
-    study = study.replace("  - {name: mass, label: Dry mass, unit: g, role: primary}\n",
-                          "  - {name: mass, label: Dry mass, unit: g, role: primary}\n"
-                          "  - {name: height, label: Height, role: primary}\n")
+    study = _two_primary_outcomes(tmp_path)
     study = study.replace("multiplicity: {method: holm}",
                           "multiplicity: {method: holm, scope: primary-family}\n"
                           "exploratory:\n  - {id: E1, factor: water, kind: pairwise, label: Regimes,"
@@ -572,13 +578,7 @@ def test_fixed_sequence_skips_contrasts_limited_to_other_outcomes(tmp_path, scop
     the family"). Each outcome's family is walked in the registered order restricted to the
     contrasts that apply to it (mass: C1 then C2; height: S1 then C1); under primary-family
     the walk is mass's sequence then height's, in plan order."""
-    frame = _factorial(tmp_path, ss=2, covariate=False, interaction=False)
-    frame["height"] = (frame["mass"].astype(float) * 0.3 + np.arange(len(frame)) % 5).round(2)
-    frame.to_csv(tmp_path / "units.csv", index=False)
-    study = (tmp_path / "study.yaml").read_text()
-    study = study.replace("  - {name: mass, label: Dry mass, unit: g, role: primary}\n",
-                          "  - {name: mass, label: Dry mass, unit: g, role: primary}\n"
-                          "  - {name: height, label: Height, role: primary}\n")
+    study = _two_primary_outcomes(tmp_path)
     study = study.replace("label: Coating pairs within each regime}",
                           "label: Coating pairs within each regime, outcomes: [mass]}\n"
                           "  - {id: S1, factor: water, kind: pairwise, label: Regimes, outcomes: [height]}")

@@ -68,7 +68,16 @@ def _sequential(plan: Plan) -> list[Note]:
 
 
 def _slopes(plan: Plan) -> list[Note]:
-    """A covariate is adjusted for with one common slope; its homogeneity is only checked."""
+    """A covariate is adjusted for with one common slope; its homogeneity is only checked
+    (and cannot be, in a design without treatment cells)."""
+    if not plan.treatments:
+        return [Note(
+            "covariate-common-slope", key_path(("design", "covariates", i)),
+            f"{covariate.name} is adjusted for with one common slope; the design has no "
+            "treatment factor, so there are no treatment cells whose slopes could differ and "
+            "the homogeneity-of-slopes check is not defined (the appendix says so)",
+            HUITEMA_2011)
+            for i, covariate in enumerate(plan.design.covariates)]
     return [Note(
         "covariate-common-slope", key_path(("design", "covariates", i)),
         f"{covariate.name} is adjusted for with one slope common to every treatment cell (the "

@@ -121,7 +121,8 @@ class ModelFit:
     (1 for the intercept and a plain covariate), `coefficients` (p,) a least-squares
     solution for y - `y_mean` with covariates centred at `covariate_means`,
     `covariance` (p, p) MS_res times a generalized inverse of X'X (NaN without residual
-    df), `row_space` (p, r) an orthonormal basis of the estimable functions in the
+    df), `inverse` (p, p) that generalized inverse itself (whatever MS_res is),
+    `row_space` (p, r) an orthonormal basis of the estimable functions in the
     coordinates l * `column_scale`. Arrays are read-only.
     """
 
@@ -145,6 +146,7 @@ class ModelFit:
     cell_design: np.ndarray
     coefficients: np.ndarray
     covariance: np.ndarray
+    inverse: np.ndarray
     column_scale: np.ndarray
     row_space: np.ndarray
     y_mean: float
@@ -527,7 +529,8 @@ def fit_linear(cells: DesignCells, terms: Sequence[Term], ss_type: int, alpha: f
         notes = _type3_note(term, cells) if ss_type == 3 else []
         rows.append(_term_row(term, _kind(term, cells.covariates), df, ss,
                               _full_df(term, cells.grid), residual, alpha, notes))
-    coefficients, covariance, row_space = _solution(problem, everything, residual)
+    coefficients, inverse, row_space = _solution(problem, everything)
+    ms = residual.ms if residual.ms is not None else math.nan
     total_ss = problem.total_ss
     grid = cells.grid
     return ModelFit(
@@ -539,23 +542,22 @@ def fit_linear(cells: DesignCells, terms: Sequence[Term], ss_type: int, alpha: f
         covariates=cells.covariates, model_terms=terms, coding=coding,
         column_terms=columns.term_of, column_covariate=columns.covariate,
         cell_design=_read_only(columns.design), coefficients=coefficients,
-        covariance=covariance, column_scale=_read_only(problem.scale.copy()),
+        covariance=_read_only(ms * inverse), inverse=inverse,
+        column_scale=_read_only(problem.scale.copy()),
         row_space=row_space, y_mean=problem.y_mean,
         covariate_means=tuple(zip(cells.covariates, problem.x_means.tolist())),
         warnings=tuple(warnings))
 
 
-def _solution(problem: _Problem, cols: np.ndarray,
-              residual: _Residual) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Minimum-norm (scaled) coefficients, MS_res times a generalized inverse, row space."""
+def _solution(problem: _Problem, cols: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Minimum-norm (scaled) coefficients, a generalized inverse of X'X, row space."""
     scale = problem.scale[cols]
     u, s, wt = np.linalg.svd(problem.r[:, cols] / scale, full_matrices=False)
     rank = int(np.count_nonzero(s > problem.threshold))
     u, s, w = u[:, :rank], s[:rank], wt[:rank].T
     coefficients = (w @ ((u.T @ problem.r[:, -1]) / s)) / scale
     inverse = (w / s**2) @ w.T / np.outer(scale, scale)
-    ms = residual.ms if residual.ms is not None else math.nan
-    return _read_only(coefficients), _read_only(ms * inverse), _read_only(w.copy())
+    return _read_only(coefficients), _read_only(inverse), _read_only(w.copy())
 
 
 def slopes_homogeneity(cells: DesignCells, terms: Sequence[Term], covariate: str,

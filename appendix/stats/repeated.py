@@ -408,6 +408,10 @@ def _f_undefined(ss: float, df: int, ss_error: float, df_error: int,
         return StatWarning("term-no-df", "This term has no degrees of freedom (a single "
                                          "group or level has complete units), so it is not "
                                          "tested.")
+    if not math.isfinite(ss):
+        return StatWarning("term-not-estimable", "The data do not estimate this term's "
+                                                 "hypothesis (a cell mean it needs is missing), "
+                                                 "so it is not tested.")
     if df_error <= 0:
         return StatWarning("no-error-df", "There are no error degrees of freedom (too few "
                                           "units), so the F ratio is undefined.")

@@ -116,6 +116,15 @@ def mauchly_p(log_w: float, df_s: int, d: int) -> tuple[float, float]:
     return float(chi_square), min(1.0, max(0.0, p1 + w2 * (p2 - p1)))
 
 
+def undefined_sphericity(d: int) -> Sphericity:
+    """No test and no epsilon for `d` contrasts that show no variation within groups."""
+    note = StatWarning("sphericity-undefined",
+                       "The contrasts among the within levels show no variation within "
+                       "groups (or there are too few units), so Mauchly's test and the "
+                       "epsilon corrections are not defined.")
+    return Sphericity(None, None, d * (d + 1) // 2 - 1, None, None, None, 1.0 / d, (note,))
+
+
 def sphericity(y: np.ndarray, groups: np.ndarray | None = None) -> Sphericity:
     """Mauchly's test and the Greenhouse-Geisser, Huynh-Feldt and lower-bound epsilons.
 
@@ -138,11 +147,7 @@ def sphericity(y: np.ndarray, groups: np.ndarray | None = None) -> Sphericity:
         return Sphericity(None, None, df_test, None, 1.0, 1.0, lower, (note,))
     eigenvalues, df_s, n_groups = contrast_eigenvalues(y, groups)
     if eigenvalues.size == 0 or not eigenvalues[0] > 0.0:
-        note = StatWarning("sphericity-undefined",
-                           "The contrasts among the within levels show no variation within "
-                           "groups (or there are too few units), so Mauchly's test and the "
-                           "epsilon corrections are not defined.")
-        return Sphericity(None, None, df_test, None, None, None, lower, (note,))
+        return undefined_sphericity(d)
     gg = greenhouse_geisser(eigenvalues, d)
     hf = huynh_feldt(gg, y.shape[0], n_groups, d)
     notes: list[StatWarning] = []

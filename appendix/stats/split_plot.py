@@ -39,7 +39,14 @@ from appendix.stats.design import Grid, Term, design_cells
 from appendix.stats.linear import ModelFit, fit_linear, fitted_values
 from appendix.stats.marginal import average_row
 from appendix.stats.repeated import RepeatedRow, effect_row, error_row
-from appendix.stats.sphericity import Sphericity, greenhouse_geisser, helmert_contrasts, huynh_feldt, mauchly_p
+from appendix.stats.sphericity import (
+    Sphericity,
+    greenhouse_geisser,
+    helmert_contrasts,
+    huynh_feldt,
+    mauchly_p,
+    undefined_sphericity,
+)
 
 #: Residual sums of squares below this share of the total are rounding, not variation.
 _NOISE = 1e-12
@@ -82,11 +89,14 @@ def split_plot(grid: Grid, codes: Sequence[np.ndarray], y: np.ndarray,
     residuals = np.column_stack([scores[:, j] - fitted_values(fits[j], cell_codes) for j in range(d)])
     df_res = fits[0].residual_df
     ss_error = float(sum(f.residual_ss for f in fits))
-    spher = _sphericity(residuals, df_res, n, d)
-    noise = _NOISE * float(np.sum((y - y.mean()) ** 2))
+    noise = _NOISE * float(np.sum((y - y.mean()) ** 2)) if n else 0.0
+    spher = _sphericity(residuals, df_res, n, d, noise)
     confidence = 1.0 - 2.0 * alpha
     error = (ss_error, d * df_res)
-    main = _main_ss(fits) if ss_type == 3 else float(n * np.sum(scores.mean(axis=0) ** 2))
+    if ss_type == 3:
+        main = _main_ss(fits)
+    else:
+        main = float(n * np.sum(scores.mean(axis=0) ** 2)) if n else 0.0
     rows = [effect_row((within,), within, "within", main, d, error, noise, spher, confidence)]
     for term in interacting:
         ss = float(sum(next(r.ss for r in f.terms if r.term == tuple(term)) or 0.0 for f in fits))
@@ -100,21 +110,25 @@ def split_plot(grid: Grid, codes: Sequence[np.ndarray], y: np.ndarray,
 
 
 def _main_ss(fits: Sequence[ModelFit]) -> float:
-    """Sum over the score columns of t^2 MS_res for the column's equally weighted marginal
-    mean: the type 3 SS of the hypothesis that it is zero."""
+    """Sum over the score columns of estimate^2 / (l G l') for the column's equally weighted
+    marginal mean l b (G a generalized inverse of X'X; t^2 MS_res without MS_res, so a column
+    that its model fits exactly counts too): the type 3 SS of the hypothesis that it is zero.
+    NaN when a column's mean is not estimable."""
     total = 0.0
     for fit in fits:
         l = average_row(fit, {})
         estimate = fit.y_mean + float(l @ fit.coefficients)
-        scale = float(l @ fit.covariance @ l)
-        if fit.residual_ms is None or not scale > 0.0:
+        scale = float(l @ fit.inverse @ l)
+        if not scale > 0.0:
             return math.nan
-        total += estimate**2 * fit.residual_ms / scale
+        total += estimate**2 / scale
     return total
 
 
-def _sphericity(residuals: np.ndarray, df: int, n_units: int, d: int) -> Sphericity:
-    """Mauchly's W and the epsilons from the residual cross-products of the scores."""
+def _sphericity(residuals: np.ndarray, df: int, n_units: int, d: int, noise: float) -> Sphericity:
+    """Mauchly's W and the epsilons from the residual cross-products of the scores; not
+    defined when those residuals (the within-units error SS) are at or below `noise`, the
+    level below which the error term counts as no variation."""
     lower = 1.0 / d
     if d == 1:
         return Sphericity(None, None, 0, None, 1.0, 1.0, lower,
@@ -126,6 +140,8 @@ def _sphericity(residuals: np.ndarray, df: int, n_units: int, d: int) -> Spheric
                           (StatWarning("sphericity-too-few-units",
                                        "Too few units for Mauchly's test and the epsilons."),))
     eigen = np.sort(np.linalg.svd(residuals, compute_uv=False) ** 2 / df)[::-1]
+    if not eigen.sum() * df > noise:  # every score equals its cell's fit, up to rounding
+        return undefined_sphericity(d)
     gg = greenhouse_geisser(eigen, d)
     hf = huynh_feldt(gg, n_units, n_units - df, d)
     if eigen[-1] <= 0.0:

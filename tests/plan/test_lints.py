@@ -135,6 +135,30 @@ def test_type_1_and_a_covariate_are_noted(write_study):
     assert lint(load_plan(write_study(FACTORIAL, "b.yaml")).plan) == (COMMON_SLOPE,)
 
 
+def test_a_covariate_without_treatment_cells_is_noted_as_not_checked(write_study):
+    """A within factor and a covariate: no treatment cells, so no homogeneity-of-slopes check
+    (the note must not claim one is run)."""
+    text = """\
+format: 1
+study: {id: within-only, title: Invented within-only study}
+data: {source: units.csv, unit: unit_id}
+design:
+  factors:
+    - {name: visit, levels: [v1, v2, v3], role: within}
+  covariates:
+    - {name: base, label: Baseline}
+  sums_of_squares: 2
+outcomes:
+  - {name: y, label: Score, role: primary}
+"""
+    assert lint(load_plan(write_study(text)).plan) == (Note(
+        "covariate-common-slope", "design.covariates[0]",
+        "base is adjusted for with one common slope; the design has no treatment factor, so "
+        "there are no treatment cells whose slopes could differ and the homogeneity-of-slopes "
+        "check is not defined (the appendix says so)",
+        "Huitema 2011, The Analysis of Covariance and Alternatives, 2nd ed., Wiley"),)
+
+
 def _design_texts() -> list[str]:
     from tests.plan.plans import BLOCKED
 
