@@ -1,18 +1,25 @@
-"""Plan + dataset -> results for designs beyond one factor: crossed treatment factors,
-blocks, covariates (fitted by `appendix.stats.linear` from cell statistics) and a
-within-unit factor (`appendix.stats.repeated`, the univariate approach with sphericity
-corrections). Pure, like `appendix.runner`, which calls it.
+"""Plan + dataset -> results of one outcome: the one analysis engine, for every design.
+
+A one-factor study is the one-term case of the design engine: crossed treatment factors,
+blocks and covariates are fitted by `appendix.stats.linear` from cell statistics, and a
+within-unit factor by `appendix.stats.split_plot` (the univariate approach with
+sphericity corrections). Pure, like `appendix.runner`, which calls it.
 
 What is computed per outcome:
 - between units: the variance table of the registered model (terms in `Plan.model_terms`
-  order, the registered sums-of-squares type), estimated marginal means of every
-  treatment factor and registered interaction of treatment factors, the
-  homogeneity-of-slopes check of every covariate, residual diagnostics;
+  order, the registered sums-of-squares type), with partial eta and omega squared and
+  Cohen's f for every term; estimated marginal means of every treatment factor and
+  registered interaction of treatment factors; the homogeneity-of-slopes check of every
+  covariate; residual diagnostics (normality, equal variances, the outlier screen on the
+  model's externally studentized residuals);
 - with a within factor: the repeated-measures table over complete units, with the
   between grouping the cells of the crossed treatment factors, Mauchly's test and the
   Greenhouse-Geisser and Huynh-Feldt corrections, and within-level means;
-- registered contrasts on marginal means (simple effects with `by`), under the
-  registered multiplicity control.
+- where they are defined (`Plan.robust_absent` is None: one treatment factor, nothing
+  else): Welch's and the Kruskal-Wallis tests, the registered contingencies that may put
+  one in force, and contrasts under every analysis the plan allows (Games-Howell, Welch
+  t); elsewhere registered contrasts are taken on the marginal means (simple effects
+  with `by`), under the registered multiplicity control.
 """
 
 from __future__ import annotations
@@ -22,27 +29,32 @@ from dataclasses import replace
 
 import numpy as np
 
-from appendix import conclude
+from appendix import conclude, families as one_factor
 from appendix.data.dataset import OutcomeData
 from appendix.plan.model import Outcome, Plan
 from appendix.results import (
     ContrastFamily,
     CovariateSlope,
+    Descriptives,
+    Deviation,
     Diagnostics,
     HypothesisResult,
     MarginalMean,
     MarginalMeans,
-    ModelOutcome,
     ModelRow,
     ModelTable,
+    OutcomeResult,
+    RobustTests,
     SlopesCheck,
     StatWarning,
 )
-from appendix.stats.descriptives import describe
-from appendix.stats.diagnostics import brown_forsythe, shapiro_wilk_large
+from appendix.stats.descriptives import describe, mean_interval
+from appendix.stats.diagnostics import bartlett, brown_forsythe, shapiro_wilk_large, studentized_screen
 from appendix.stats.hypotheses import hypotheses_for
 from appendix.stats.multiplicity import apply_multiplicity
 from appendix.stats.simultaneous import joint_results
+
+DESCRIPTIVE_CONFIDENCE = 0.95
 
 CROSS = " \u00d7 "
 
@@ -76,11 +88,17 @@ def design_words(plan: Plan) -> str:
     return ", ".join(parts)
 
 
-def analyse_model_outcome(plan: Plan, outcome: Outcome, data: OutcomeData, missing_by_cell,
-                          cell_labels) -> tuple[ModelOutcome, dict[str, ContrastFamily]]:
-    """Every registered analysis of one outcome of a design beyond one factor, and its
-    exploratory families by id (the caller reports them apart; hypothesis sentences are
-    added once any primary-family adjustment is done)."""
+def effect_size_confidence(alpha: float) -> float:
+    """1 - 2 alpha: the CI for a variance-explained effect that excludes zero exactly when
+    the F test rejects at alpha (Steiger 2004, Psychological Methods 9:164-182)."""
+    return round(1.0 - 2.0 * alpha, 10)
+
+
+def analyse_outcome(plan: Plan, outcome: Outcome, data: OutcomeData, missing_by_cell,
+                    cell_labels) -> tuple[OutcomeResult, dict[str, ContrastFamily], tuple[Deviation, ...]]:
+    """Every registered analysis of one outcome; its exploratory families by id and the
+    deviations it caused (a registered contingency applied), which the caller reports
+    apart. Hypothesis sentences are added once any primary-family adjustment is done."""
     if plan.within is not None:
         return _repeated_outcome(plan, outcome, data, missing_by_cell, cell_labels)
     return _between_outcome(plan, outcome, data, missing_by_cell, cell_labels)
@@ -102,35 +120,94 @@ def _treatment_cells(plan: Plan, data: OutcomeData) -> np.ndarray:
     return cell
 
 
-def _between_outcome(plan, outcome, data, missing_by_cell, cell_labels) -> ModelOutcome:
-    from appendix.stats.design import Grid, design_cells
-    from appendix.stats.linear import fit_linear, fitted_values
+def _between_outcome(plan, outcome, data, missing_by_cell, cell_labels):
+    from appendix.stats.cells import cell_stats, cells_from_summary
+    from appendix.stats.design import Grid, design_cells, design_cells_from_stats
+    from appendix.stats.linear import fit_linear, fitted_values, leverages
 
     grid = Grid(names=tuple(f.name for f in plan.between), levels=tuple(f.levels for f in plan.between))
     codes = _between_codes(plan, data)
     covariates = {c.name: data.covariates[j] for j, c in enumerate(plan.design.covariates)}
-    cells = design_cells(grid, codes, data.values, covariates or None, decimals=data.decimals)
-    fit = fit_linear(cells, plan.model_terms, plan.design.sums_of_squares or 2, plan.alpha)
+    ss_type = plan.design.sums_of_squares or 2
+    treatment = _treatment_cells(plan, data)
+    if data.summary is not None:
+        # Out of core (one factor): every test on cell statistics uses all units; row-level
+        # diagnostics use the subsample, fitted on its own.
+        whole = cells_from_summary(data.summary, cell_labels)
+        cells = design_cells_from_stats(grid, whole)
+        fit = fit_linear(cells, plan.model_terms, ss_type, plan.alpha)
+        rows_fit = fit_linear(design_cells(grid, codes, data.values), plan.model_terms, ss_type, plan.alpha)
+    else:
+        cells = design_cells(grid, codes, data.values, covariates or None, decimals=data.decimals)
+        fit = rows_fit = fit_linear(cells, plan.model_terms, ss_type, plan.alpha)
     table = _model_table(plan, fit)
-    slopes = _slopes_checks(plan, cells, fit)
+    slopes = _slopes_checks(plan, cells, fit) if covariates else ()
     means = _marginal(plan, fit)
-    residuals = data.values - fitted_values(fit, grid.cell_codes(codes), covariates or None)
-    diagnostics = _diagnostics(plan, data, residuals, cell_labels)
-    families, exploratory = _contrast_families(plan, outcome, fit=fit)
-    descriptives = describe(data.values, _treatment_cells(plan, data), cell_labels,
-                            missing_by_cell, 0.95)
-    return ModelOutcome(
-        name=outcome.name, label=outcome.label, unit=outcome.unit, role=outcome.role,
-        design=design_words(plan), n_units=int(data.values.size),
-        n_observations=int(data.values.size), arithmetic=cells.arithmetic,
-        descriptives=descriptives, tables=(table,), marginal_means=means, slopes=slopes,
-        sphericity=None, diagnostics=diagnostics,
-        conclusions=tuple(conclude.with_caveat(
+    cell_codes = grid.cell_codes(codes)
+    residuals = data.values - fitted_values(rows_fit, cell_codes, covariates or None)
+    screen = (residuals, leverages(rows_fit, cell_codes, covariates or None), rows_fit)
+    diagnostics = _diagnostics(plan, data.values, treatment, cell_labels, data.units, screen,
+                               decimals=data.decimals)
+    descriptives = describe(data.values, treatment, cell_labels, missing_by_cell, DESCRIPTIVE_CONFIDENCE)
+    robust, selected, contingencies, deviations = None, "classical", (), ()
+    if plan.robust_absent is None:  # one treatment factor, nothing else
+        from appendix.stats.oneway import welch_anova
+        from appendix.stats.rank import kruskal_wallis
+
+        k = len(cell_labels)
+        one = whole if data.summary is not None else cell_stats(data.values, treatment, k, cell_labels,
+                                                               decimals=data.decimals)
+        if data.summary is not None:
+            descriptives = _full_data_moments(descriptives, one, data)
+        robust = RobustTests(welch=welch_anova(one),
+                             kruskal=kruskal_wallis(data.values, treatment, k, cell_labels))
+        selected, contingencies = one_factor.select_method(plan, diagnostics)
+        families = one_factor.registered_families(plan, outcome.name, selected, one, data.values, treatment)
+        exploratory = one_factor.exploratory_families(plan, outcome.name, selected, one, data.values,
+                                                      treatment)
+        deviations = one_factor.contingency_deviations(outcome.name, contingencies, selected)
+        conclusions = (conclude.conclusion(plan, outcome, table.rows[0], table.residual_df,
+                                           method=selected, robust=robust),)
+    else:
+        families, exploratory = _contrast_families(plan, outcome, fit=fit)
+        conclusions = tuple(conclude.with_caveat(
             conclude.term_conclusion(plan, outcome, row, table.ss_type, table.residual_df),
             conclude.slopes_caveat(slopes, plan.alpha))
-            for row in table.rows if _concluded(plan, row.term)),
+            for row in table.rows if _concluded(plan, row.term))
+    n = data.sample_of if data.sample_of is not None else int(data.values.size)
+    return OutcomeResult(
+        name=outcome.name, label=outcome.label, unit=outcome.unit, role=outcome.role,
+        design=design_words(plan), n_units=n, n_observations=n,
+        arithmetic=cells.arithmetic,
+        descriptives=descriptives, tables=(table,), marginal_means=means, slopes=slopes,
+        sphericity=None, diagnostics=diagnostics, conclusions=conclusions,
+        robust=robust, robust_absent=plan.robust_absent, selected_method=selected,
+        contingencies=contingencies, sample_of=data.sample_of,
+        sample_size=int(data.values.size) if data.sample_of is not None else None,
         contrasts=families, covariate_slopes=_covariate_slopes(plan, fit),
-        warnings=tuple(fit.warnings)), exploratory
+        warnings=tuple(fit.warnings)), exploratory, deviations
+
+
+def _full_data_moments(descriptives: Descriptives, cells, data: OutcomeData) -> Descriptives:
+    """Descriptives of an out-of-core outcome: n, mean, SD, SE and CI from every unit;
+    median and quartiles from the subsample; minimum and maximum not available."""
+    import dataclasses
+
+    groups = []
+    for i, group in enumerate(descriptives.groups):
+        n, mean = int(cells.n[i]), float(cells.mean[i])
+        sd, se, low, high = mean_interval(n, mean, float(cells.ssd[i]),
+                                          descriptives.confidence_level)
+        groups.append(dataclasses.replace(
+            group, n=n, mean=mean if n else None, sd=sd, se=se, ci_low=low, ci_high=high,
+            minimum=None, maximum=None))
+    note = StatWarning(
+        "subsample-quantiles",
+        f"Medians and quartiles come from a deterministic subsample of {data.values.size} "
+        f"of the {data.sample_of} analysed units; minimum and maximum are not computed for "
+        "a source aggregated out of core.")
+    return dataclasses.replace(descriptives, groups=tuple(groups),
+                               warnings=(*descriptives.warnings, note))
 
 
 def _concluded(plan: Plan, term: tuple[str, ...]) -> bool:
@@ -151,6 +228,9 @@ def _model_table(plan: Plan, fit, scale: float = 1.0, stratum: str = "units") ->
                           partial_eta_squared=r.partial_eta_squared, partial_eta_ci=r.partial_eta_ci,
                           partial_omega_squared=r.partial_omega_squared,
                           partial_omega_ci=r.partial_omega_ci, confidence_level=r.confidence_level,
+                          cohens_f=_cohens_f(r.partial_eta_squared),
+                          cohens_f_ci=(tuple(_cohens_f(v) for v in r.partial_eta_ci)
+                                       if r.partial_eta_ci is not None else None),
                           full_df=r.full_df, effect_ci_df=r.effect_ci_df, warnings=tuple(r.warnings))
                  for r in fit.terms)
     return ModelTable(ss_type=fit.ss_type, rows=rows, residual_df=fit.residual_df,
@@ -158,7 +238,18 @@ def _model_table(plan: Plan, fit, scale: float = 1.0, stratum: str = "units") ->
                       total_df=fit.total_df, total_ss=times(fit.total_ss), r_squared=fit.r_squared,
                       estimability=fit.estimability,
                       empty_cells=tuple(CROSS.join(c) for c in fit.empty_cells),
+                      residual_sd=(math.sqrt(fit.residual_ms * scale) if fit.residual_ms is not None
+                                   and fit.residual_ms >= 0 else None),
                       stratum=stratum, warnings=tuple(fit.warnings))
+
+
+def _cohens_f(share: float | None) -> float | None:
+    """Cohen's f = sqrt(eta^2 / (1 - eta^2)) of a (partial) eta squared (Cohen 1988,
+    *Statistical Power Analysis*, 2nd ed., ch. 8); it maps the share's interval ends to
+    sqrt(lambda / N), the noncentrality interval's own scale (Steiger 2004)."""
+    if share is None:
+        return None
+    return math.sqrt(share / (1.0 - share)) if share < 1.0 else math.inf
 
 
 def _slopes_checks(plan: Plan, cells, fit) -> tuple[SlopesCheck, ...]:
@@ -222,13 +313,20 @@ def _marginal(plan: Plan, fit, over: str | None = None) -> tuple[MarginalMeans, 
     return tuple(out)
 
 
-def _diagnostics(plan: Plan, data: OutcomeData | None, residuals: np.ndarray, cell_labels,
-                 within_residuals: np.ndarray | None = None) -> Diagnostics:
-    """Shapiro-Wilk of the residuals each registered test relies on: the model's, or in a
-    split-plot design those of the unit means (between units) and of the within-units
-    error (within units); Brown-Forsythe across the treatment cells (not for repeated
-    observations)."""
+def _diagnostics(plan: Plan, values: np.ndarray, cells: np.ndarray, cell_labels, units, screen, *,
+                 decimals: int | None = None, within_residuals: np.ndarray | None = None,
+                 spread: bool = True) -> Diagnostics:
+    """The registered checks of one outcome, for every design: Shapiro-Wilk of the
+    residuals each registered test relies on (the model's, or in a split-plot design those
+    of the unit means, between units, and of the within-units error); the registered
+    equal-variance tests across the cells of the treatment factors (`spread`; not for
+    repeated observations); the outlier screen on the model's externally studentized
+    residuals (`screen`: residuals, leverages and the fit that gave them; a unit's mean
+    over the occasions in a split-plot design)."""
+    from appendix.stats.cells import cell_stats
+
     settings = plan.assumptions
+    residuals, leverage, fit = screen
     normality = within = None
     if settings.normality == "shapiro-wilk":
         normality = shapiro_wilk_large(residuals)
@@ -236,12 +334,18 @@ def _diagnostics(plan: Plan, data: OutcomeData | None, residuals: np.ndarray, ce
             normality = replace(normality, residuals="unit-means")
             within = replace(shapiro_wilk_large(np.ravel(within_residuals)), residuals="within-units")
     tests = []
-    if data is not None and "brown-forsythe" in settings.equal_variance:
-        tests.append(brown_forsythe(data.values, _treatment_cells(plan, data), len(cell_labels),
-                                    cell_labels, decimals=data.decimals))
-    return Diagnostics(normality=normality, equal_variance=tuple(tests), outliers=None,
-                       assumptions=conclude.assumption_statuses(plan, normality, tests, within=within,
-                                                                qq_plot=False, welch_shown=False),
+    k = len(cell_labels)
+    for method in settings.equal_variance if spread else ():
+        if method == "brown-forsythe":
+            tests.append(brown_forsythe(values, cells, k, cell_labels, decimals=decimals))
+        else:
+            tests.append(bartlett(cell_stats(values, cells, k, cell_labels)))
+    outliers = studentized_screen(values, residuals, leverage, fit.residual_ss, fit.residual_df, units,
+                                  [str(cell_labels[c]) for c in cells], settings.outliers.threshold)
+    return Diagnostics(normality=normality, equal_variance=tuple(tests), outliers=outliers,
+                       assumptions=conclude.assumption_statuses(
+                           plan, normality, tests, within=within, qq_plot=True,
+                           welch_shown=plan.robust_absent is None),
                        within_normality=within)
 
 
@@ -460,7 +564,7 @@ def _units_at(plan: Plan, complete, by, level):
 # --- repeated measures ------------------------------------------------------------------
 
 
-def _repeated_outcome(plan, outcome, data, missing_by_cell, cell_labels) -> ModelOutcome:
+def _repeated_outcome(plan, outcome, data, missing_by_cell, cell_labels):
     """The split-plot analysis (`appendix.stats.split_plot`) over complete units."""
     from appendix.stats.design import Grid
     from appendix.stats.linear import fitted_values
@@ -506,8 +610,13 @@ def _repeated_outcome(plan, outcome, data, missing_by_cell, cell_labels) -> Mode
         from appendix.stats.design import design_cells
 
         slopes = _slopes_checks(plan, design_cells(grid, codes, unit_means, covariates), fit.between)
-    residuals = unit_means - fitted_values(fit.between, grid.cell_codes(codes), covariates or None)
-    diagnostics = _diagnostics(plan, None, residuals, cell_labels, fit.within_residuals)
+    from appendix.stats.linear import leverages
+
+    cell_codes = grid.cell_codes(codes)
+    residuals = unit_means - fitted_values(fit.between, cell_codes, covariates or None)
+    screen = (residuals, leverages(fit.between, cell_codes, covariates or None), fit.between)
+    diagnostics = _diagnostics(plan, unit_means, complete.groups, cell_labels, complete.units, screen,
+                               within_residuals=fit.within_residuals, spread=False)
 
     def occasion_fit(level: str):
         """The between-unit model fitted to one occasion's values."""
@@ -518,7 +627,6 @@ def _repeated_outcome(plan, outcome, data, missing_by_cell, cell_labels) -> Mode
         return fit_linear(design_cells(grid, codes, y, covariates or None), plan.model_terms,
                           plan.design.sums_of_squares or 2, plan.alpha)
 
-    cell_codes = grid.cell_codes(codes)
     occasion_residuals = np.column_stack([
         complete.y[:, j] - fitted_values(occasion_fit(level), cell_codes, covariates or None)
         for j, level in enumerate(within.levels)])
@@ -535,15 +643,15 @@ def _repeated_outcome(plan, outcome, data, missing_by_cell, cell_labels) -> Mode
     if complete.dropped:
         notes += (StatWarning("units-dropped", f"{len(complete.dropped)} units without a value at every "
                               f"level of {within.label or within.name} were left out."),)
-    return ModelOutcome(
+    return OutcomeResult(
         name=outcome.name, label=outcome.label, unit=outcome.unit, role=outcome.role,
         design=design_words(plan), n_units=fit.n_units, n_observations=int(complete.y.size),
         arithmetic="float64", descriptives=descriptives, tables=(between, within_table),
         marginal_means=(_marginal(plan, fit.between, over=within.label or within.name)
                         + _occasion_means(plan, complete, cell_labels)),
         slopes=slopes, sphericity=sphericity, diagnostics=diagnostics, conclusions=conclusions,
-        contrasts=families, covariate_slopes=_covariate_slopes(plan, fit.between),
-        warnings=notes), exploratory
+        robust_absent=plan.robust_absent, contrasts=families,
+        covariate_slopes=_covariate_slopes(plan, fit.between), warnings=notes), exploratory, ()
 
 
 def _occasion_means(plan: Plan, complete, cell_labels) -> tuple[MarginalMeans, ...]:

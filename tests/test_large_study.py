@@ -9,7 +9,7 @@ import numpy as np
 
 from appendix import api
 from appendix.figures import PLOT_POINTS
-from appendix.runner import SHAPIRO_MAX_N
+from appendix.stats.diagnostics import SHAPIRO_MAX_N
 
 N = 25_000
 

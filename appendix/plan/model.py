@@ -459,6 +459,24 @@ class Plan(_Frozen):
                 and not design.covariates and not design.interactions)
 
     @property
+    def robust_absent(self) -> str | None:
+        """None when the tests of the one-factor layout that assume neither equal variances
+        (Welch) nor normal errors (Kruskal-Wallis) are defined for this design: one
+        treatment factor, nothing else. Else why they are not computed, in one sentence."""
+        if self.is_one_way:
+            return None
+        design = self.design
+        has = [what for what, present in (
+            ("more than one treatment factor", len(self.treatments) > 1),
+            ("blocks", bool(self.blocks)),
+            ("covariates", bool(design.covariates)),
+            ("repeated measures", self.within is not None)) if present]
+        listed = ", ".join(has[:-1]) + (" and " if len(has) > 1 else "") + has[-1] if has else "another layout"
+        return ("Welch's test and the Kruskal-Wallis test are defined for one treatment factor "
+                f"without blocks, covariates or repeated measures; this design has {listed}, "
+                "so they are not computed.")
+
+    @property
     def model_terms(self) -> tuple[tuple[str, ...], ...]:
         """The between-unit model's terms in type 1 order.
 

@@ -183,3 +183,17 @@ def _off_diagonal(cross: np.ndarray, columns: list[np.ndarray], stats: list[Cell
                 sums = np.bincount(c, weights=deviations[i] * deviations[j], minlength=k)
                 cross[:, i, j] += sums
                 cross[:, j, i] += sums
+
+
+def design_cells_from_stats(grid: Grid, cells: CellStats) -> DesignCells:
+    """The `DesignCells` of a one-factor grid without covariates from its cell statistics
+    (e.g. computed out of core): means and SSD carried over, centring kept."""
+    if len(grid.names) != 1 or grid.n_cells != len(cells.labels):
+        raise InternalError("cell statistics convert only for a one-factor grid of the same levels")
+    mean = np.asarray(cells.mean, dtype=np.float64).reshape(-1, 1)
+    cross = np.asarray(cells.ssd, dtype=np.float64).reshape(-1, 1, 1)
+    shift = np.array([cells.shift])
+    return DesignCells(grid=grid, covariates=(), n=np.asarray(cells.n, dtype=np.int64),
+                       mean=_read_only(mean), cross=_read_only(cross), arithmetic=cells.arithmetic,
+                       shift=shift, centred_mean=_read_only(np.asarray(cells.centred_mean,
+                                                                       dtype=np.float64).reshape(-1, 1)))

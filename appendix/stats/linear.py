@@ -619,3 +619,27 @@ def fitted_values(fit: ModelFit, cell_codes: np.ndarray,
     for name, (slope, centre) in slopes.items():
         out = out + slope[cell_codes] * (np.asarray(covariates[name], dtype=np.float64) - centre)
     return out
+
+
+def leverages(fit: ModelFit, cell_codes: np.ndarray,
+              covariates: Mapping[str, np.ndarray] | None = None) -> np.ndarray:
+    """The diagonal of the hat matrix H = X (X'X)^+ X' of the fitted model, one value per
+    row (its cell and covariate values), from a QR factorisation of the row design X
+    (columns scaled to unit length; columns beyond the numerical rank, `RANK_TOLERANCE`,
+    dropped). h_i is the row's leverage: its residual has variance sigma^2 (1 - h_i)
+    (Belsley, Kuh & Welsch 1980, ch. 2)."""
+    covariates = dict(covariates or {})
+    rows = fit.cell_design[np.asarray(cell_codes)]
+    columns = []
+    for j, name in enumerate(fit.column_covariate):
+        column = rows[:, j]
+        if name is not None:
+            centre = dict(fit.covariate_means)[name]
+            column = column * (np.asarray(covariates[name], dtype=np.float64) - centre)
+        columns.append(column)
+    x = np.column_stack(columns) if columns else np.ones((rows.shape[0], 1))
+    norms = np.linalg.norm(x, axis=0)
+    x = x[:, norms > 0] / norms[norms > 0]
+    u, sv, _ = np.linalg.svd(x, full_matrices=False)
+    rank = int((sv > RANK_TOLERANCE * sv[0]).sum()) if sv.size else 0
+    return np.einsum("ij,ij->i", u[:, :rank], u[:, :rank])
