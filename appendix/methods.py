@@ -255,10 +255,11 @@ METHODS: Mapping[str, Method] = MappingProxyType({m.key: m for m in (
            "independent units, normally distributed errors and equal group variances.",
            ("fisher1925",)),
     Method("model-descriptives", "Descriptive statistics by cell",
-           "Per cell of the crossed treatment factors: the number of units analysed and "
-           "missing, the mean with its standard deviation (n \u2212 1 divisor) and a "
-           "confidence interval from Student's t on n \u2212 1 degrees of freedom, and the "
-           "median (Hyndman & Fan, 1996, definition 7), before any adjustment by the model.",
+           "Per cell of the crossed treatment factors (per cell and occasion with repeated "
+           "measures): the number of units analysed and missing, the mean with its standard "
+           "deviation (n \u2212 1 divisor), standard error and a confidence interval from "
+           "Student's t on n \u2212 1 degrees of freedom, and the median, quartiles, minimum and "
+           "maximum (Hyndman & Fan, 1996, definition 7), before any adjustment by the model.",
            ("hyndman1996",)),
     Method("linear-model", "Linear model fitted from cell statistics",
            "The registered model (treatment factors, blocks, the listed interactions and "
@@ -319,9 +320,11 @@ METHODS: Mapping[str, Method] = MappingProxyType({m.key: m for m in (
            "freedom.",
            ("kruskal1952",)),
     Method("effect_sizes", "Effect sizes with confidence intervals",
-           "Eta squared (the share of the total sum of squares between groups), omega squared "
-           "(a less biased estimate of the population share; Hays, 1963; Olejnik & Algina, "
-           "2003) and Cohen's f (Cohen, 1988). Confidence intervals invert the noncentral F "
+           "For each tested term: partial eta squared (the term's sum of squares over itself "
+           "plus the error sum of squares; with one factor, eta squared, the share of the total "
+           "sum of squares between groups), partial omega squared (a less biased estimate of "
+           "the population share; Hays, 1963; Olejnik & Algina, 2003) and Cohen's f = "
+           "\u221a(\u03b7\u00b2 / (1 \u2212 \u03b7\u00b2)) (Cohen, 1988). Confidence intervals invert the noncentral F "
            "distribution: the limits of the noncentrality parameter are found for which the "
            "observed F is at the required quantiles, and are transformed to each measure "
            "(Steiger, 2004).",
@@ -335,15 +338,17 @@ METHODS: Mapping[str, Method] = MappingProxyType({m.key: m for m in (
     Method("shapiro-model", "Shapiro\u2013Wilk test of normality",
            "The Shapiro\u2013Wilk W test (Shapiro & Wilk, 1965) is applied to the residuals of "
            "the fitted model (each value minus its fitted value), with coefficients and p value "
-           "from Royston's (1995) algorithm.",
-           ("shapiro1965", "royston1995")),
+           "from Royston's (1995) algorithm. The normal Q-Q plot uses Blom's (1958) plotting "
+           "positions.",
+           ("shapiro1965", "royston1995", "blom1958")),
     Method("shapiro-strata", "Shapiro\u2013Wilk test of normality in each stratum",
            "The Shapiro\u2013Wilk W test (Shapiro & Wilk, 1965; Royston's 1995 algorithm) is "
            "applied to the residuals of each stratum whose tests rely on them: between units, "
            "the residuals of the between-units model fitted to each unit's mean; within units, "
            "each observation minus its unit's mean and the fitted within-unit effects (the "
-           "residuals of the within-units error term).",
-           ("shapiro1965", "royston1995")),
+           "residuals of the within-units error term). The normal Q-Q plot shows the residuals "
+           "of the unit means, with Blom's (1958) plotting positions.",
+           ("shapiro1965", "royston1995", "blom1958")),
     Method("brown-forsythe", "Brown\u2013Forsythe test of equal variances",
            "The Brown\u2013Forsythe test (Brown & Forsythe, 1974) is the one-way analysis of "
            "variance of the absolute deviations of each value from its group median; it is "
@@ -656,43 +661,34 @@ _CONTRAST_ORDER = (
     "fixed-sequence", "unadjusted", "hedges", "one-sided")
 
 
-def _model_methods(results: Mapping[str, Any]) -> tuple[Method, ...]:
-    """The methods of a run of a design beyond one factor."""
-    models = list(results["models"])
-    chosen = ["model-descriptives"]
-    chosen += ["linear-model"] if _ran(models, lambda m: m["marginal_means"] or not m["sphericity"]) else []
-    chosen += ["marginal-means"] if _ran(models, lambda m: m["marginal_means"]) else []
-    chosen += ["slopes"] if _ran(models, lambda m: m["slopes"]) else []
-    if _ran(models, lambda m: m["sphericity"]):
-        # one within factor per plan: a lower bound 1/d of 1 means two levels, no correction
-        two_levels = all(m["sphericity"]["lower_bound"] >= 1 for m in models if m["sphericity"])
-        chosen.append("repeated-two-levels" if two_levels else "repeated")
-    if _ran(models, lambda m: m["diagnostics"]["normality"]):
-        strata = _ran(models, lambda m: m["diagnostics"].get("within_normality"))
-        chosen += ["shapiro-strata" if strata else "shapiro-model"]
-    chosen += ["brown-forsythe"] if _ran(models, lambda m: m["diagnostics"]["equal_variance"]) else []
-    arithmetic = {m["arithmetic"] for m in models}
-    chosen += [m for m in ("exact-decimal", "float64") if m in arithmetic]
-    families = [f for m in models for f in m["contrasts"] if f["hypotheses"]]
-    used = {multiplicity_method(f) for f in families} | {h["kind"] for f in families for h in f["hypotheses"]}
-    chosen += [key for key in _CONTRAST_ORDER if key in used]
-    chosen += ["reporting"]
-    return tuple(METHODS[key] for key in chosen)
-
-
 def methods_used(results: Mapping[str, Any]) -> tuple[Method, ...]:
-    """The methods that `results` (parsed results.json) show were run, in appendix order."""
-    if results.get("models"):
-        return _model_methods(results)
+    """The methods that `results` (parsed results.json) show were run, in appendix order:
+    each block is chosen by what some outcome's results hold, whatever its design."""
     outcomes = list(results["outcomes"])
-    variance_methods = {t["method"] for o in outcomes for t in o["diagnostics"]["equal_variance"]}
-    chosen = ["descriptives", "anova"]
-    chosen += ["welch"] if _ran(outcomes, lambda o: o["welch"]["f"] is not None) else []
-    chosen += ["kruskal"] if _ran(outcomes, lambda o: o["kruskal"]["h"] is not None) else []
-    chosen += ["effect_sizes"] if _ran(outcomes, lambda o: o["effect_sizes"]) else []
-    chosen += ["shapiro"] if _ran(outcomes, lambda o: o["diagnostics"]["normality"]) else []
+    one_factor = [o for o in outcomes if o.get("robust")]
+    beyond = [o for o in outcomes if not o.get("robust")]
+    diagnostics = [o["diagnostics"] for o in outcomes]
+    variance_methods = {t["method"] for d in diagnostics for t in d["equal_variance"]}
+    chosen = ["descriptives"] if one_factor else []
+    chosen += ["model-descriptives"] if beyond else []
+    chosen += ["anova"] if one_factor else []
+    chosen += ["linear-model"] if _ran(beyond, lambda o: o["marginal_means"] or not o["sphericity"]) else []
+    chosen += ["marginal-means"] if _ran(beyond, lambda o: o["marginal_means"]) else []
+    chosen += ["slopes"] if _ran(outcomes, lambda o: o["slopes"]) else []
+    if _ran(outcomes, lambda o: o["sphericity"]):
+        # one within factor per plan: a lower bound 1/d of 1 means two levels, no correction
+        two_levels = all(o["sphericity"]["lower_bound"] >= 1 for o in outcomes if o["sphericity"])
+        chosen.append("repeated-two-levels" if two_levels else "repeated")
+    chosen += ["welch"] if _ran(one_factor, lambda o: o["robust"]["welch"]["f"] is not None) else []
+    chosen += ["kruskal"] if _ran(one_factor, lambda o: o["robust"]["kruskal"]["h"] is not None) else []
+    chosen += ["effect_sizes"] if _ran(outcomes, lambda o: any(
+        r["partial_eta_squared"] is not None for t in o["tables"] for r in t["rows"])) else []
+    chosen += ["shapiro"] if _ran(one_factor, lambda o: o["diagnostics"]["normality"]) else []
+    if _ran(beyond, lambda o: o["diagnostics"]["normality"]):
+        strata = _ran(beyond, lambda o: o["diagnostics"].get("within_normality"))
+        chosen.append("shapiro-strata" if strata else "shapiro-model")
     chosen += [m for m in ("brown-forsythe", "bartlett") if m in variance_methods]
-    chosen += ["outliers"] if _ran(outcomes, lambda o: o["diagnostics"]["outliers"]) else []
+    chosen += ["outliers"] if any(d["outliers"] for d in diagnostics) else []
     arithmetic = {o.get("arithmetic", "float64") for o in outcomes}
     chosen += [m for m in ("exact-decimal", "float64") if m in arithmetic]
     chosen += ["subsample"] if _ran(outcomes, lambda o: o.get("sample_of")) else []

@@ -25,7 +25,7 @@ What is computed per outcome:
 from __future__ import annotations
 
 import math
-from dataclasses import replace
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -88,23 +88,44 @@ def design_words(plan: Plan) -> str:
     return ", ".join(parts)
 
 
+@dataclass(frozen=True)
+class Residuals:
+    """The fitted model's residuals of one outcome, for the residual figures (not written to
+    results.json): per analysed unit (a unit's mean over the occasions in a split-plot
+    design) its fitted value, residual and treatment cell (index into the run's cells).
+    `of` says what a point is: ``units`` or ``unit means``."""
+
+    outcome: str
+    fitted: np.ndarray
+    residuals: np.ndarray
+    cells: np.ndarray
+    of: str = "units"
+
+
 def effect_size_confidence(alpha: float) -> float:
     """1 - 2 alpha: the CI for a variance-explained effect that excludes zero exactly when
     the F test rejects at alpha (Steiger 2004, Psychological Methods 9:164-182)."""
     return round(1.0 - 2.0 * alpha, 10)
 
 
-def analyse_outcome(plan: Plan, outcome: Outcome, data: OutcomeData, missing_by_cell,
-                    cell_labels) -> tuple[OutcomeResult, dict[str, ContrastFamily], tuple[Deviation, ...]]:
+def analyse_outcome(plan: Plan, outcome: Outcome, data: OutcomeData, missing_by_cell, cell_labels
+                    ) -> tuple[OutcomeResult, dict[str, ContrastFamily], tuple[Deviation, ...], Residuals]:
     """Every registered analysis of one outcome; its exploratory families by id and the
     deviations it caused (a registered contingency applied), which the caller reports
-    apart. Hypothesis sentences are added once any primary-family adjustment is done."""
+    apart, and the model's residuals for the figures. Hypothesis sentences are added once
+    any primary-family adjustment is done."""
     if plan.within is not None:
         return _repeated_outcome(plan, outcome, data, missing_by_cell, cell_labels)
     return _between_outcome(plan, outcome, data, missing_by_cell, cell_labels)
 
 
 # --- between-unit designs ---------------------------------------------------------------
+
+
+def _read_only(array: np.ndarray) -> np.ndarray:
+    array = np.asarray(array, dtype=np.float64)
+    array.flags.writeable = False
+    return array
 
 
 def _between_codes(plan: Plan, data: OutcomeData) -> list[np.ndarray]:
@@ -185,7 +206,8 @@ def _between_outcome(plan, outcome, data, missing_by_cell, cell_labels):
         contingencies=contingencies, sample_of=data.sample_of,
         sample_size=int(data.values.size) if data.sample_of is not None else None,
         contrasts=families, covariate_slopes=_covariate_slopes(plan, fit),
-        warnings=tuple(fit.warnings)), exploratory, deviations
+        warnings=tuple(fit.warnings)), exploratory, deviations, Residuals(
+            outcome.name, _read_only(data.values - residuals), _read_only(residuals), treatment)
 
 
 def _full_data_moments(descriptives: Descriptives, cells, data: OutcomeData) -> Descriptives:
@@ -231,6 +253,7 @@ def _model_table(plan: Plan, fit, scale: float = 1.0, stratum: str = "units") ->
                           cohens_f=_cohens_f(r.partial_eta_squared),
                           cohens_f_ci=(tuple(_cohens_f(v) for v in r.partial_eta_ci)
                                        if r.partial_eta_ci is not None else None),
+                          critical_f=_critical_f(plan.alpha, r.df, fit.residual_df),
                           full_df=r.full_df, effect_ci_df=r.effect_ci_df, warnings=tuple(r.warnings))
                  for r in fit.terms)
     return ModelTable(ss_type=fit.ss_type, rows=rows, residual_df=fit.residual_df,
@@ -238,9 +261,17 @@ def _model_table(plan: Plan, fit, scale: float = 1.0, stratum: str = "units") ->
                       total_df=fit.total_df, total_ss=times(fit.total_ss), r_squared=fit.r_squared,
                       estimability=fit.estimability,
                       empty_cells=tuple(CROSS.join(c) for c in fit.empty_cells),
+                      ss_type_stated=plan.design.sums_of_squares is not None,
                       residual_sd=(math.sqrt(fit.residual_ms * scale) if fit.residual_ms is not None
                                    and fit.residual_ms >= 0 else None),
                       stratum=stratum, warnings=tuple(fit.warnings))
+
+
+def _critical_f(alpha: float, df1: float, df2: float) -> float | None:
+    """The upper-alpha quantile of F(df1, df2), the test's rejection bound."""
+    from scipy import stats
+
+    return float(stats.f.isf(alpha, df1, df2)) if df1 > 0 and df2 > 0 else None
 
 
 def _cohens_f(share: float | None) -> float | None:
@@ -598,7 +629,8 @@ def _repeated_outcome(plan, outcome, data, missing_by_cell, cell_labels):
         residual_ss=error.sum_of_squares, residual_ms=error.mean_square,
         total_df=sum(r.df for r in within_rows), total_ss=sum(r.sum_of_squares or 0.0 for r in within_rows),
         r_squared=None, estimability=("Within units every listed effect is estimable from the "
-                                      f"{fit.n_units} complete units."), stratum="within units")
+                                      f"{fit.n_units} complete units."), stratum="within units",
+        ss_type_stated=between.ss_type_stated)
     sphericity = fit.sphericity
     cells = _treatment_cells(plan, data)
     descriptives = describe(data.values, cells * m + data.factors[index[within.name]],
@@ -651,7 +683,9 @@ def _repeated_outcome(plan, outcome, data, missing_by_cell, cell_labels):
                         + _occasion_means(plan, complete, cell_labels)),
         slopes=slopes, sphericity=sphericity, diagnostics=diagnostics, conclusions=conclusions,
         robust_absent=plan.robust_absent, contrasts=families,
-        covariate_slopes=_covariate_slopes(plan, fit.between), warnings=notes), exploratory, ()
+        covariate_slopes=_covariate_slopes(plan, fit.between), warnings=notes), exploratory, (), Residuals(
+            outcome.name, _read_only(unit_means - residuals), _read_only(residuals), complete.groups,
+            of="unit means")
 
 
 def _occasion_means(plan: Plan, complete, cell_labels) -> tuple[MarginalMeans, ...]:

@@ -260,7 +260,6 @@ def render_html(results: dict, figures: dict[str, str], options: RenderOptions) 
     return env.get_template("appendix.html.j2").render(
         r=results,
         outcomes=_ordered_outcomes(results),
-        models=sorted(results.get("models", []), key=lambda m: m["role"] != "primary"),
         figures={key: _inline_svg(svg) for key, svg in figures.items()},
         figure_kinds=FIGURE_KINDS,
         plot_points=PLOT_POINTS,

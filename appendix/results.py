@@ -376,6 +376,7 @@ class ModelRow:
     confidence_level: float
     cohens_f: float | None = None
     cohens_f_ci: tuple[float, float] | None = None
+    critical_f: float | None = None
     full_df: float | None = None
     gg_df: tuple[float, float] | None = None
     gg_p: float | None = None
@@ -401,6 +402,7 @@ class ModelTable:
     estimability: str
     empty_cells: tuple[str, ...] = ()
     residual_sd: float | None = None
+    ss_type_stated: bool = True
     stratum: str = "units"
     warnings: Warnings = ()
 

@@ -7,11 +7,12 @@ that this stage never looks at its environment.
 from __future__ import annotations
 
 import dataclasses
+from dataclasses import dataclass
 
 from appendix import conclude, families
 from appendix.data.dataset import Dataset
 from appendix.deviations import all_deviations, registration
-from appendix.models import analyse_outcome
+from appendix.models import Residuals, analyse_outcome
 from appendix.plan.load import LoadedPlan
 from appendix.plan.lock import Lock
 from appendix.plan.model import Plan
@@ -52,8 +53,22 @@ def _exploratory(plan: Plan, found: list[dict[str, ContrastFamily]]) -> tuple[Ex
         for entry in plan.exploratory)
 
 
+@dataclass(frozen=True)
+class Analysis:
+    """The results of a run and, for the figures only, each outcome's model residuals."""
+
+    results: StudyResults
+    residuals: dict[str, Residuals]
+
+
 def analyse(loaded: LoadedPlan, dataset: Dataset, software: tuple[Software, ...],
             lock: Lock | None = None) -> StudyResults:
+    """All registered analyses of the study (`study_analysis` without the residuals)."""
+    return study_analysis(loaded, dataset, software, lock).results
+
+
+def study_analysis(loaded: LoadedPlan, dataset: Dataset, software: tuple[Software, ...],
+                   lock: Lock | None = None) -> Analysis:
     """All registered analyses of the study, primary outcomes first, in plan order, and
     every deviation from the registered plan (`lock`: its registration lock, if any)."""
     plan = loaded.plan
@@ -62,14 +77,14 @@ def analyse(loaded: LoadedPlan, dataset: Dataset, software: tuple[Software, ...]
     work = [analyse_outcome(plan, outcome, dataset.outcome(outcome.name),
                             [c.n for c in flows[outcome.name].missing], dataset.levels)
             for outcome in ordered]
-    outcomes = tuple(result for result, _, _ in work)
+    outcomes = tuple(result for result, _, _, _ in work)
     if plan.contrasts and plan.multiplicity.scope == "primary-family":
         outcomes = families.adjust_primary_family(plan, outcomes)
     outcomes = tuple(_with_hypothesis_conclusions(plan, o) for o in outcomes)
-    exploratory = _exploratory(plan, [found for _, found, _ in work])
+    exploratory = _exploratory(plan, [found for _, found, _, _ in work])
     factor = plan.factor
     study = plan.study
-    return StudyResults(
+    results = StudyResults(
         study=StudyInfo(
             id=study.id,
             title=study.title,
@@ -92,12 +107,13 @@ def analyse(loaded: LoadedPlan, dataset: Dataset, software: tuple[Software, ...]
         software=software,
         exploratory=exploratory,
         deviations=all_deviations(plan, plan.model_dump(mode="json"), lock, dataset.unit_flow,
-                                  [d for _, _, caused in work for d in caused]),
+                                  [d for _, _, caused, _ in work for d in caused]),
         multiplicity=plan.multiplicity.method if plan.contrasts else None,
         multiplicity_scope=plan.multiplicity.scope if plan.contrasts else None,
         factors=tuple(_factor_info(f) for f in plan.design.factors),
         registration=registration(lock),
     )
+    return Analysis(results, {r.outcome: r for _, _, _, r in work})
 
 
 def _factor_info(factor) -> FactorInfo:
