@@ -7,57 +7,30 @@ in) and the study file to the design it describes.
 
 from __future__ import annotations
 
-import csv
-import importlib.util
-import json
-import os
 import shutil
-import subprocess
-import sys
 from collections import Counter
-from pathlib import Path
 
-import jsonschema
 import numpy as np
 import pytest
 
 from appendix.plan.load import load_plan
-from appendix.plan.yamltree import read_tree
+from tests.demos import (REPO, assert_invented_with_caution, assert_rewrites_byte_for_byte,
+                         load_generator, read_rows, validate_study_file)
 from tests.test_cli import run_cli
 
-REPO = Path(__file__).resolve().parent.parent
 DEMO = REPO / "studies" / "wound-dose"
 DOSES = ("vehicle", "1 mg/kg", "3 mg/kg", "10 mg/kg", "30 mg/kg")
 
-
-def _generator():
-    spec = importlib.util.spec_from_file_location("wound_dose_generate", DEMO / "generate.py")
-    module = importlib.util.module_from_spec(spec)
-    spec.loader.exec_module(module)
-    return module
-
-
-gen = _generator()
+gen = load_generator(DEMO)
 
 
 @pytest.fixture(scope="module")
 def rows() -> list[dict[str, str]]:
-    with (DEMO / "data" / "animals.csv").open(newline="", encoding="utf-8") as handle:
-        return list(csv.DictReader(handle))
+    return read_rows(DEMO / "data" / "animals.csv")
 
 
 def test_generator_rewrites_the_committed_file_byte_for_byte(tmp_path):
-    committed = (DEMO / "data" / "animals.csv").read_bytes()
-    assert gen.write(tmp_path / "a.csv") == 60
-    assert (tmp_path / "a.csv").read_bytes() == committed
-    # a fresh interpreter with another hash seed writes the same bytes
-    script = str(DEMO / "generate.py")
-    code = (f"import importlib.util as u; s = u.spec_from_file_location('g', {script!r}); "
-            f"m = u.module_from_spec(s); s.loader.exec_module(m); "
-            f"from pathlib import Path; m.write(Path({str(tmp_path / 'b.csv')!r}))")
-    subprocess.run([sys.executable, "-c", code], check=True,
-                   env={**os.environ, "PYTHONHASHSEED": "4242"})
-    assert (tmp_path / "b.csv").read_bytes() == committed
+    committed = assert_rewrites_byte_for_byte(DEMO, DEMO / "data" / "animals.csv", tmp_path, 60)
     assert committed.startswith(b"animal_id,cohort,dose,dressing_lost,wound_area_d0_mm2,"
                                 b"wound_area_d7_mm2,reepithelialisation_pct,granulation_um\nM001,")
 
@@ -104,14 +77,9 @@ def test_the_effects_the_readme_names_are_in_the_data(rows):
 
 
 def test_readme_says_the_data_are_invented_and_carries_the_caution():
-    text = " ".join((DEMO / "README.md").read_text(encoding="utf-8").split())
-    assert "**Everything here is invented.**" in text
+    text = assert_invented_with_caution(DEMO)
     assert "describe no real compound, product or experiment" in text
-    assert "seeded random generator" in text and "byte for byte" in text
-    assert "Statistical output is not a clinical or regulatory decision." in text
-    assert "qualified, licensed statistician and the study's own governance" in text
-    assert "regulations that apply locally" in text
-    assert (DEMO / "study.yaml").read_text(encoding="utf-8").startswith("# Invented demo study")
+    assert "animal welfare rules and ethics review" in text
 
 
 def test_study_file_registers_the_design_and_matches_the_data(rows):
@@ -140,10 +108,9 @@ def test_study_file_registers_the_design_and_matches_the_data(rows):
 
 
 def test_study_file_passes_the_published_json_schema():
-    # the committed JSON Schema (draft 2020-12), checked by the jsonschema library
-    schema = json.loads((REPO / "schema" / "study.schema.json").read_text(encoding="utf-8"))
-    plan = read_tree((DEMO / "study.yaml").read_text(encoding="utf-8")).value
-    jsonschema.Draft202012Validator(schema).validate(plan)
+    plan, validator = validate_study_file(DEMO / "study.yaml")
+    wrong = {**plan, "multiplicity": {**plan["multiplicity"], "method": "dunnet"}}
+    assert not validator.is_valid(wrong)
 
 
 def test_check_lists_the_run_and_writes_nothing(tmp_path):
