@@ -181,14 +181,14 @@ def hypothesis_conclusion(plan: Plan, outcome: Outcome, h: HypothesisResult,
     factor = plan.factor_named(_contrast_factor(plan, h))
     pair = _levels_compared(h, factor.levels)
     size = abs(h.estimate)
-    measure = "mean rank" if h.method == "rank-based" else f"mean {outcome.label}"
+    measure = "mean rank" if h.method == "rank-based" else f"mean {outcome.label}{_adjusted_for(plan, h)}"
     if pair is not None:
         higher_lower = "higher" if h.estimate >= 0 else "lower"
         first = (f"{upper_first(measure)} under {pair[0]} was {fmt.fixed(size, 2)}{unit} "
                  f"{higher_lower} than under {pair[1]} ({evidence})")
         null = absent = "no difference"
     elif h.scale is not None:
-        first = (f"The {ref} of {measure}, its {h.scale.meaning}, was estimated at "
+        first = (f"The {ref} of {measure.rstrip(',')}, its {h.scale.meaning}, was estimated at "
                  f"{fmt.fixed(h.estimate, 2)}{unit} ({evidence})")
         null = absent = f"no {h.label}"
     else:
@@ -209,6 +209,22 @@ def hypothesis_conclusion(plan: Plan, outcome: Outcome, h: HypothesisResult,
         decision = "retain"
     return Conclusion(sentence=f"{first}; {rest}", decision=decision,
                       p=h.p_adjusted if h.p_adjusted is not None else h.p, alpha=alpha)
+
+
+def _adjusted_for(plan: Plan, h: HypothesisResult) -> str:
+    """``, adjusted for cohort and baseline area,`` when the contrast compares the model's
+    marginal means of a between-unit factor in a design with blocks or covariates (its
+    estimate is then not a difference of raw means); else empty."""
+    if h.method != "marginal-means":
+        return ""
+    contrast = _contrast_of(plan, h)
+    if contrast is None or (plan.within is not None and plan.factor_of(contrast).name == plan.within.name):
+        return ""
+    names = [f.label or f.name for f in plan.blocks] + [c.label for c in plan.design.covariates]
+    if not names:
+        return ""
+    listed = ", ".join(names[:-1]) + (" and " if len(names) > 1 else "") + names[-1]
+    return f", adjusted for {listed},"
 
 
 def slopes_caveat(slopes, alpha: float) -> str:

@@ -351,8 +351,10 @@ METHODS: Mapping[str, Method] = MappingProxyType({m.key: m for m in (
            ("shapiro1965", "royston1995", "blom1958")),
     Method("brown-forsythe", "Brown\u2013Forsythe test of equal variances",
            "The Brown\u2013Forsythe test (Brown & Forsythe, 1974) is the one-way analysis of "
-           "variance of the absolute deviations of each value from its group median; it is "
-           "robust to non-normal data.",
+           "variance of the absolute deviations of each value from its group median (in a design "
+           "beyond one factor, of each residual of the fitted model from its cell's median, so "
+           "that blocks and covariates do not pass for unequal spread); it is robust to "
+           "non-normal data.",
            ("brown1974",)),
     Method("bartlett", "Bartlett's test of equal variances",
            "Bartlett's (1937) test compares the pooled and the group variances on the log "

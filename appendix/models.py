@@ -350,8 +350,9 @@ def _diagnostics(plan: Plan, values: np.ndarray, cells: np.ndarray, cell_labels,
     """The registered checks of one outcome, for every design: Shapiro-Wilk of the
     residuals each registered test relies on (the model's, or in a split-plot design those
     of the unit means, between units, and of the within-units error); the registered
-    equal-variance tests across the cells of the treatment factors (`spread`; not for
-    repeated observations); the outlier screen on the model's externally studentized
+    equal-variance tests across the cells of the treatment factors, of the values with one
+    factor and of the model's residuals beyond it (`spread`; not for repeated
+    observations); the outlier screen on the model's externally studentized
     residuals (`screen`: residuals, leverages and the fit that gave them; a unit's mean
     over the occasions in a split-plot design)."""
     from appendix.stats.cells import cell_stats
@@ -366,11 +367,15 @@ def _diagnostics(plan: Plan, values: np.ndarray, cells: np.ndarray, cell_labels,
             within = replace(shapiro_wilk_large(np.ravel(within_residuals)), residuals="within-units")
     tests = []
     k = len(cell_labels)
+    # one factor: the values' spread by group; beyond it blocks and covariates shift the
+    # values, so the spread is that of the model's residuals by cell
+    spread_of = values if plan.robust_absent is None else residuals
     for method in settings.equal_variance if spread else ():
         if method == "brown-forsythe":
-            tests.append(brown_forsythe(values, cells, k, cell_labels, decimals=decimals))
+            tests.append(brown_forsythe(spread_of, cells, k, cell_labels,
+                                        decimals=decimals if plan.robust_absent is None else None))
         else:
-            tests.append(bartlett(cell_stats(values, cells, k, cell_labels)))
+            tests.append(bartlett(cell_stats(spread_of, cells, k, cell_labels)))
     outliers = studentized_screen(values, residuals, leverage, fit.residual_ss, fit.residual_df, units,
                                   [str(cell_labels[c]) for c in cells], settings.outliers.threshold)
     return Diagnostics(normality=normality, equal_variance=tuple(tests), outliers=outliers,
