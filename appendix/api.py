@@ -2,7 +2,7 @@
 
 >>> from appendix import api
 >>> computed = api.compute("studies/seed-coating/study.yaml")        # doctest: +SKIP
->>> computed.results.outcomes[0].table.f                            # doctest: +SKIP
+>>> computed.results.outcomes[0].tables[0].rows[0].f                # doctest: +SKIP
 >>> api.run("studies/seed-coating/study.yaml", out_dir="out/demo")  # doctest: +SKIP
 
 Stages: `load_plan` -> `load_data` -> `analyse` -> `render` -> `run` writes the folder.
@@ -128,14 +128,12 @@ def check(study: str | Path) -> list[str]:
 def render(computed: Computed, options=None) -> Rendered:
     """Figures and HTML from the results; rendering sees only results.json and figures."""
     from appendix import figures, render as html
+    from appendix.model_figures import model_figures
 
     options = options or html.RenderOptions()
     text = to_json(computed.results)
     svgs = figures.make_figures(computed.dataset, computed.results)
-    if computed.results.models:
-        from appendix.model_figures import model_figures
-
-        svgs.update(model_figures(computed.dataset, computed.results))
+    svgs.update(model_figures(computed.dataset, computed.results))
     page = html.render_html(to_plain(computed.results), svgs, options)
     return Rendered(results_json=text, figures=svgs, html=page)
 
