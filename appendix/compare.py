@@ -271,7 +271,7 @@ def _term_conclusions(results: Mapping[str, Any],
     """(term id, label, decision) of each tested term of an outcome. Where the robust tests
     are computed (one factor), the label names the test in force."""
     rows = _tested_terms(results, o)
-    method = o["selected_method"]
+    method = o.get("selected_method", "classical")
     test = f" ({_METHOD_WORDS.get(method, method)})" if o.get("robust") is not None else ""
     if len(rows) == len(o["conclusions"]):
         for row, c in zip(rows, o["conclusions"]):
@@ -351,10 +351,10 @@ def _group_numbers(found: dict, outcome: str, descriptives: Mapping[str, Any]) -
 
 def _rows(o: Mapping[str, Any]) -> Iterator[tuple[str, str, Mapping[str, Any]]]:
     """(quantity prefix, label, row) of every row of every table of an outcome: the prefix
-    ``stratum/term`` (``units/coating``), the label the term's, with the stratum when the
-    design has more than one."""
+    ``stratum/term`` (``units/coating``), the label the term's, with the stratum unless it
+    is ``units`` (a design without a within factor: one stratum)."""
     for table in o["tables"]:
-        stratum = table["stratum"]
+        stratum = table.get("stratum", "units")
         for row in table["rows"]:
             where = "" if stratum == "units" else f" ({stratum})"
             yield f"{stratum}/{CROSS.join(row['term'])}", f"{row['label']}{where}", row
@@ -367,8 +367,8 @@ def _term_numbers(found: dict, name: str, o: Mapping[str, Any]) -> None:
         found[(name, f"{term}.f")] = (f"F, {label}", row["f"])
         found[(name, f"{term}.p")] = (f"p, {label}", row["p"])
         if row["kind"] == "within":
-            found[(name, f"{term}.gg_p")] = (f"p Greenhouse-Geisser, {label}", row["gg_p"])
-            found[(name, f"{term}.hf_p")] = (f"p Huynh-Feldt, {label}", row["hf_p"])
+            found[(name, f"{term}.gg_p")] = (f"p Greenhouse-Geisser, {label}", row.get("gg_p"))
+            found[(name, f"{term}.hf_p")] = (f"p Huynh-Feldt, {label}", row.get("hf_p"))
     robust = o.get("robust")
     if robust is not None:
         found[(name, "welch.f")] = ("F (Welch)", robust["welch"]["f"])
@@ -379,9 +379,9 @@ def _term_numbers(found: dict, name: str, o: Mapping[str, Any]) -> None:
     for term, label, row in _rows(o):
         for estimate, interval, words in _EFFECTS:
             words = words if one_term or estimate == "cohens_f" else f"partial {words}"
-            low, high = row[interval] if row[interval] is not None else (None, None)
+            low, high = row.get(interval) or (None, None)
             _interval(found, name, f"{term}.{estimate}", f"{words}, {label}",
-                      {"estimate": row[estimate], "ci_low": low, "ci_high": high})
+                      {"estimate": row.get(estimate), "ci_low": low, "ci_high": high})
 
 
 def numbers_of(results: Mapping[str, Any]) -> dict[tuple[str, str], tuple[str, float | None]]:
@@ -395,16 +395,16 @@ def numbers_of(results: Mapping[str, Any]) -> dict[tuple[str, str], tuple[str, f
     for o in _ordered(list(results.get("outcomes", []))):
         name = o["name"]
         _term_numbers(found, name, o)
-        _hypothesis_numbers(found, name, [f for f in o["contrasts"] if f["registered"]])
+        _hypothesis_numbers(found, name, [f for f in o.get("contrasts", []) if f["registered"]])
         _hypothesis_numbers(found, name, exploratory.get(name, []), " (exploratory)")
         for means in o["marginal_means"]:
             for mean in means["means"]:
                 at = ", ".join(f"{f}={v}" for f, v in zip(means["factors"], mean["levels"]))
                 _interval(found, name, f"marginal[{at}]", f"marginal mean, {at}", mean)
-        for slope in o["covariate_slopes"]:
+        for slope in o.get("covariate_slopes", []):
             _interval(found, name, f"slope[{slope['covariate']}]", f"slope on {slope['covariate']}", slope)
         found[(name, "n_units")] = ("units analysed", o["n_units"])
-        if any(table["stratum"] == "within units" for table in o["tables"]):
+        if any(table.get("stratum") == "within units" for table in o["tables"]):
             found[(name, "n_observations")] = ("observations analysed", o["n_observations"])
         _group_numbers(found, name, o["descriptives"])
     return found

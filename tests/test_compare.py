@@ -371,3 +371,37 @@ def test_data_diff_follows_a_unit_into_an_exclusion_and_a_missing_cell(tmp_path)
         ("P001", "", "exclusion-rule"): (None, "X1", None, None, None, None),
         ("P005", "chlorophyll_index", "outcome"): ("33.4", "", 33.4, None, "analysed", "missing"),
     }
+
+
+def test_fields_the_results_format_gives_a_default_may_be_absent(demo_runs, tmp_path):
+    """A results file without the keys whose fields have defaults (robust tests, contrasts,
+    Cohen's f, strata, ...) is valid; diff reads it as the defaults say, no crash."""
+    import dataclasses
+
+    from appendix.results import ModelRow, ModelTable, OutcomeResult
+
+    def defaulted(kind) -> set[str]:
+        return {f.name for f in dataclasses.fields(kind)
+                if f.default is not dataclasses.MISSING or f.default_factory is not dataclasses.MISSING}
+
+    bare = tmp_path / "bare"
+    shutil.copytree(demo_runs[1], bare)
+    results = json.loads((bare / "results.json").read_text(encoding="utf-8"))
+    for outcome in results["outcomes"]:
+        for table in outcome["tables"]:
+            for row in table["rows"]:
+                for key in defaulted(ModelRow):
+                    del row[key]
+            for key in defaulted(ModelTable):
+                del table[key]
+        for key in defaulted(OutcomeResult):
+            del outcome[key]
+    (bare / "results.json").write_text(json.dumps(results), encoding="utf-8")
+    diff = compare_runs(demo_runs[0], bare)
+    # the registered hypotheses are gone with the contrasts: each is a conclusion of run A only
+    gone = {c.id for c in diff.conclusions if c.b is None}
+    assert gone == {h["id"] for o in json.loads((demo_runs[0] / "results.json").read_text(encoding="utf-8"))[
+        "outcomes"] for f in o["contrasts"] if f["registered"] for h in f["hypotheses"]}
+    moved = {(m.outcome, m.quantity): m for m in diff.numbers}
+    assert moved[("dry_mass", "welch.f")].b is None and moved[("dry_mass", "units/coating.cohens_f.estimate")].b is None
+    assert moved[("dry_mass", "units/coating.f")].b is not None
