@@ -240,12 +240,18 @@ def _concluded(plan: Plan, term: tuple[str, ...]) -> bool:
 
 
 def _model_table(plan: Plan, fit, scale: float = 1.0, stratum: str = "units") -> ModelTable:
-    """The variance table of a fit; `scale` multiplies sums of squares and mean squares
+    """The variance table of a fit, its terms labelled as the plan names them."""
+    return model_table(fit, lambda term: _label(plan, term), scale, stratum)
+
+
+def model_table(fit, label, scale: float = 1.0, stratum: str = "units") -> ModelTable:
+    """The variance table the appendix reports for a fit (`appendix.stats.linear.ModelFit`),
+    each term labelled by `label(term)`; `scale` multiplies sums of squares and mean squares
     (m for a fit to the means of m repeated observations: the observation scale)."""
     def times(value):
         return None if value is None else value * scale
 
-    rows = tuple(ModelRow(term=r.term, label=_label(plan, r.term), kind=r.kind, df=r.df,
+    rows = tuple(ModelRow(term=r.term, label=label(r.term), kind=r.kind, df=r.df,
                           sum_of_squares=times(r.ss), mean_square=times(r.ms), f=r.f, p=r.p,
                           partial_eta_squared=r.partial_eta_squared, partial_eta_ci=r.partial_eta_ci,
                           partial_omega_squared=r.partial_omega_squared,
