@@ -36,7 +36,7 @@ for thirds) are scaled down to sum to 1 before testing.
 from __future__ import annotations
 
 import math
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 
 import numpy as np
@@ -69,6 +69,32 @@ class GraphicalTest:
     alpha: float
 
 
+@dataclass(frozen=True, eq=False)
+class Graph:
+    """A registered graph by node id (a contrast id, standing for its one hypothesis).
+
+    `weights` holds the initial share of alpha of each node (a node left out weighs 0);
+    `transitions` for a source node the share passed to each other node (left out: 0).
+    """
+
+    weights: Mapping[str, float]
+    transitions: Mapping[str, Mapping[str, float]]
+
+    def matrices(self, nodes: Sequence[str]) -> tuple[list[float], list[list[float]]]:
+        """The weight vector and transition matrix over `nodes`, in that order.
+
+        >>> Graph({"C1": 1.0}, {"C1": {"C2": 1.0}}).matrices(["C2", "C1"])
+        ([0.0, 1.0], [[0.0, 0.0], [1.0, 0.0]])
+        """
+        unknown = (set(self.weights) | set(self.transitions)
+                   | {k for row in self.transitions.values() for k in row}) - set(nodes)
+        if unknown:
+            raise InternalError(f"the graph names {sorted(unknown)}, which are not among {list(nodes)}")
+        weights = [float(self.weights.get(n, 0.0)) for n in nodes]
+        rows = [self.transitions.get(n, {}) for n in nodes]
+        return weights, [[float(row.get(k, 0.0)) for k in nodes] for row in rows]
+
+
 def graph_problems(weights: Sequence[float], transitions: Sequence[Sequence[float]]) -> list[str]:
     """What is wrong with a graph, one sentence each; empty when it may be tested.
 
@@ -83,12 +109,13 @@ def graph_problems(weights: Sequence[float], transitions: Sequence[Sequence[floa
     if g.shape != (m, m):
         return [f"the transition matrix must be {m} x {m} for {m} hypotheses, got shape {g.shape}"]
     problems = []
-    if not np.all(np.isfinite(w)) or np.any(w < 0):
-        problems.append(f"the weights must be finite numbers of at least 0, got {w.tolist()}")
+    top = 1 + TOLERANCE  # NaN fails both tests; sums of numbers this small cannot overflow
+    if not np.all((w >= 0) & (w <= top)):
+        problems.append(f"the weights must be numbers from 0 to 1, got {w.tolist()}")
     elif math.fsum(w) > 1 + TOLERANCE:
         problems.append(f"the weights sum to {math.fsum(w):.10g}; allowed: a sum of at most 1")
-    if not np.all(np.isfinite(g)) or np.any(g < 0):
-        problems.append("the transition weights must be finite numbers of at least 0")
+    if not np.all((g >= 0) & (g <= top)):
+        problems.append("the transition weights must be numbers from 0 to 1")
         return problems
     for i in range(m):
         if g[i, i] != 0:

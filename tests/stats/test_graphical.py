@@ -142,13 +142,15 @@ def test_sums_a_rounding_above_one_are_taken_as_one() -> None:
 
 @pytest.mark.parametrize(("weights", "transitions", "message"), [
     ([0.5, 0.6], [[0, 1], [1, 0]], "the weights sum to 1.1; allowed: a sum of at most 1"),
-    ([0.5, -0.1], [[0, 1], [1, 0]], "the weights must be finite numbers of at least 0, got [0.5, -0.1]"),
-    ([0.5, math.nan], [[0, 1], [1, 0]], "the weights must be finite numbers of at least 0, got [0.5, nan]"),
+    ([0.5, -0.1], [[0, 1], [1, 0]], "the weights must be numbers from 0 to 1, got [0.5, -0.1]"),
+    ([0.5, math.nan], [[0, 1], [1, 0]], "the weights must be numbers from 0 to 1, got [0.5, nan]"),
+    ([1e308, 1e308], [[0, 1], [1, 0]], "the weights must be numbers from 0 to 1, got [1e+308, 1e+308]"),
+    ([0.5, 0.5], [[0, 1e308], [1, 0]], "the transition weights must be numbers from 0 to 1"),
     ([0.5, 0.5], [[0, 0.7], [0.6, 0.5]], "row 2 passes 0.5 to its own hypothesis; allowed: 0 (the "
                                           "diagonal is zero); row 2 passes on 1.1 in all; allowed: at most 1"),
     ([0.5, 0.5], [[0, 1, 0], [1, 0, 0]], "the transition matrix must be 2 x 2 for 2 hypotheses, "
                                          "got shape (2, 3)"),
-    ([0.5, 0.5], [[0, -1], [1, 0]], "the transition weights must be finite numbers of at least 0"),
+    ([0.5, 0.5], [[0, -1], [1, 0]], "the transition weights must be numbers from 0 to 1"),
     ([[0.5, 0.5]], [[0]], "the weights must be one list of numbers, got shape (1, 2)"),
 ])
 def test_graph_problems_say_what_is_wrong(weights, transitions, message) -> None:
