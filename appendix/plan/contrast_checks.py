@@ -165,7 +165,8 @@ def _weights(loc: Loc, entry: Mapping, factor: RawFactor) -> list[Found]:
     if None in values or not all(math.isfinite(v) for v in values):
         return found  # each non-number is a field error; a sum of them says nothing
     largest = max((abs(v) for v in values), default=0.0)
-    total = math.fsum(values)
+    # Summed relative to the largest so that weights near the float limit cannot overflow.
+    total = math.fsum(v / largest for v in values) * largest if largest else 0.0
     if largest == 0:
         found.append(((*loc, "weights"), "got no weight other than 0; allowed: weights that "
                                          "are not all 0, summing to 0"))

@@ -36,6 +36,10 @@ CASES = [
      BASE + "contrasts:\n  - {id: C1, kind: custom, label: x, weights: {placebo: .inf, low: true}}\n",
      ["20: contrasts[0].weights.low: got true; allowed: a number",
       "20: contrasts[0].weights.placebo: got inf; allowed: a number"]),
+    ("weights near the float limit",
+     BASE + "contrasts:\n  - {id: C1, kind: custom, label: x, weights: {placebo: 1e308, low: 1e308, high: 1e308}}\n",
+     ["20: contrasts[0].weights: got weights summing to inf; allowed: weights summing to 0 "
+      "(levels not listed weigh 0)"]),
     ("custom without weights",
      BASE + "contrasts:\n  - {id: C1, kind: custom, label: x}\n",
      ["20: contrasts[0].weights: required key is missing for kind 'custom' "
