@@ -11,17 +11,17 @@ Statistics in Medicine 28:586-604), Algorithm 1:
    g_lk <- (g_lk + g_lj g_jk) / (1 - g_lj g_jl), and 0 where g_lj g_jl = 1;
 3. go back to 1 while hypotheses remain.
 
-The set rejected does not depend on which rejectable hypothesis is taken first (their
-Theorem 1); here it is always the one of smallest p_j / w_j, the lowest index on a tie,
+The set rejected does not depend on which rejectable hypothesis is taken first (the
+paper proves it); here it is always the one of smallest p_j / w_j, the lowest index on a tie,
 which gives the order of rejection reported. The procedure is the shortcut of a closed
 test of weighted Bonferroni tests and controls the family-wise error rate at alpha under
 any dependence.
 
-Adjusted p-values (Bretz et al. 2009, section 3; Bretz, Posch, Glimm, Klinglmueller,
-Maurer & Rohmeyer 2011, Biometrical Journal 53:894-913, section 2): walk the graph to the
-end regardless of alpha, at each step removing the hypothesis j of smallest p_j / w_j in
-the current graph; its adjusted p is max(p_j / w_j, the adjusted p of the step before),
-capped at 1. H_j is rejected iff its adjusted p is below alpha.
+Adjusted p-values (Bretz et al. 2009; Bretz, Posch, Glimm, Klinglmueller, Maurer &
+Rohmeyer 2011, Biometrical Journal 53:894-913): walk the graph to the end regardless of
+alpha, at each step removing the hypothesis j of smallest p_j / w_j in the current graph;
+its adjusted p is max(p_j / w_j, the adjusted p of the step before), capped at 1. H_j is
+rejected iff its adjusted p is below alpha.
 
 Rejection is strict (p < w alpha, p_adjusted < alpha), as everywhere in this package;
 the paper writes p <= w alpha, which differs only at equality. A hypothesis of weight 0

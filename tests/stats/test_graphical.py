@@ -52,7 +52,7 @@ def test_hand_worked_three_hypotheses() -> None:
 
 def _literal_algorithm_1(p, w, g, alpha, rng) -> set[int]:
     """Bretz et al. (2009), Algorithm 1 as printed, taking any rejectable hypothesis at
-    random (their Theorem 1: the set rejected does not depend on the choice)."""
+    random (the paper shows that the set rejected does not depend on the choice)."""
     active = set(range(len(p)))
     w, g = list(w), [list(row) for row in g]
     rejected: set[int] = set()
