@@ -90,6 +90,13 @@ REFERENCES: Mapping[str, Reference] = MappingProxyType({r.key: r for r in (
              "289\u2013300", "10.1111/j.2517-6161.1995.tb02031.x"),
     _book("blom1958", "Blom, G.", 1958, "Statistical estimates and transformed beta-variables",
           "Wiley"),
+    _article("bretz2009", "Bretz, F., Maurer, W., Brannath, W., & Posch, M.", 2009, "A graphical "
+             "approach to sequentially rejective multiple test procedures", "Statistics in "
+             "Medicine", "28", "4", "586\u2013604", "10.1002/sim.3495"),
+    _article("bretz2011", "Bretz, F., Posch, M., Glimm, E., Klinglmueller, F., Maurer, W., & "
+             "Rohmeyer, K.", 2011, "Graphical approaches for multiple comparison procedures using "
+             "weighted Bonferroni, Simes, or parametric tests", "Biometrical Journal", "53", "6",
+             "894\u2013913", "10.1002/bimj.201000239"),
     _article("brown1974", "Brown, M. B., & Forsythe, A. B.", 1974, "Robust tests for the "
              "equality of variances", "Journal of the American Statistical Association", "69",
              "346", "364\u2013367", "10.1080/01621459.1974.10482955"),
@@ -496,6 +503,15 @@ METHODS: Mapping[str, Method] = MappingProxyType({m.key: m for m in (
            "Westfall & Krishen, 2001). The adjusted p of a hypothesis is the largest raw p up "
            "to it; intervals are unadjusted.",
            ("maurer1995", "westfall2001")),
+    Method("graphical", "Graphical multiple testing",
+           "The registered hypotheses were tested by the graphical sequentially rejective "
+           "procedure of Bretz et al. (2009): each starts at its registered "
+           "share of \u03b1, and when one is rejected its share is passed on to the others along "
+           "the registered transition weights, the graph being updated as the paper prescribes. "
+           "It is the shortcut of a closed test of weighted Bonferroni tests and controls the "
+           "family-wise error rate under any dependence. Adjusted p values are those of Bretz "
+           "et al. (2011); intervals are unadjusted.",
+           ("bretz2009", "bretz2011")),
     Method("unadjusted", "No multiplicity adjustment",
            "Families marked with no adjustment report raw p values and unadjusted intervals; "
            "with several hypotheses the chance of at least one false rejection exceeds "
@@ -612,6 +628,9 @@ ADJUSTMENTS: Mapping[str, Adjustment] = MappingProxyType({a.key: a for a in (
                "Benjamini\u2013Hochberg, controlling the false discovery rate (not the "
                "family-wise error rate)"),
     Adjustment("fixed-sequence", "fixed-sequence", "fixed-sequence testing in the registered order"),
+    Adjustment("graphical", "graphical procedure",
+               "the graphical procedure of Bretz et al. (2009) with the registered weights and "
+               "transitions"),
     Adjustment("unadjusted", "unadjusted", "no adjustment"),
 )})
 
@@ -660,7 +679,7 @@ _CONTRAST_ORDER = (
     "contrasts-classical", "contrasts-welch", "contrasts-rank", "custom", "trend", "helmert", "tukey",
     "games-howell", "nemenyi", "dunnett", "dunnett-welch", "dunnett-rank", "tukey-joint",
     "dunnett-joint", "bonferroni", "sidak", "holm", "hochberg", "benjamini-hochberg",
-    "fixed-sequence", "unadjusted", "hedges", "one-sided")
+    "fixed-sequence", "graphical", "unadjusted", "hedges", "one-sided")
 
 
 def methods_used(results: Mapping[str, Any]) -> tuple[Method, ...]:

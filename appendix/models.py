@@ -31,6 +31,7 @@ import numpy as np
 
 from appendix import conclude, families as one_factor
 from appendix.data.dataset import OutcomeData
+from appendix.families import registered_graph
 from appendix.plan.model import Outcome, Plan
 from appendix.results import (
     ContrastFamily,
@@ -472,7 +473,8 @@ def _contrast_families(plan: Plan, outcome: Outcome, *, fit=None, complete=None,
         tested, error = joint_results(raw, corr, plan.alpha, approximate)
         joint = "multivariate-t" if approximate is None else "multivariate-t-approximate"
     else:
-        tested = apply_multiplicity(raw, method, plan.alpha, order=plan.multiplicity.order)
+        tested = apply_multiplicity(raw, method, plan.alpha, order=plan.multiplicity.order,
+                                    graph=registered_graph(plan))
     family = ContrastFamily(outcome=outcome.name, scope=plan.multiplicity.scope, multiplicity=method,
                             method="marginal-means", alpha=plan.alpha, registered=True,
                             hypotheses=tuple(tested), joint=joint, joint_error=error,

@@ -358,7 +358,8 @@ def test_primary_family_and_exploratory_entries_for_designs(tmp_path):
 
 @pytest.mark.parametrize("kind, method", [
     ("pairwise", "tukey"), ("helmert", "fixed-sequence"), ("trend", "bonferroni"),
-    ("custom", "none"), ("pairwise", "benjamini-hochberg"), ("versus-control", "sidak")])
+    ("custom", "none"), ("pairwise", "benjamini-hochberg"), ("versus-control", "sidak"),
+    ("custom", "graphical")])
 def test_every_contrast_kind_and_multiplicity_method_on_marginal_means(tmp_path, kind, method):
     """Each kind of contrast on coating's marginal means under each multiplicity method: the
     raw p is the t test of statsmodels' own linear combination of its fitted coefficients
@@ -371,7 +372,7 @@ def test_every_contrast_kind_and_multiplicity_method_on_marginal_means(tmp_path,
     frame = _factorial(tmp_path, ss=3, covariate=False, interaction=True)
     extra = {"custom": ", weights: {thin: 1, thick: 1, none: -2}", "trend": "", "helmert": "",
              "pairwise": "", "versus-control": ""}[kind]
-    order = ", order: [C1]" if method == "fixed-sequence" else ""
+    order = {"fixed-sequence": ", order: [C1]", "graphical": ", weights: {C1: 0.5}"}.get(method, "")
     study = (tmp_path / "study.yaml").read_text()
     study = study.replace("    - {name: coating, levels: [none, thin, thick], control: none}",
                           "    - {name: coating, levels: [none, thin, thick], control: none, ordered: true}")
@@ -422,6 +423,8 @@ def test_every_contrast_kind_and_multiplicity_method_on_marginal_means(tmp_path,
             stopped = h.decision != "reject"
     elif method == "none":
         assert adjusted == raw
+    elif method == "graphical":  # one node at weight 1/2: the Bonferroni p / w (Bretz et al. 2009)
+        assert adjusted == pytest.approx([min(1.0, 2 * p) for p in raw], rel=1e-15)
     else:
         key = {"bonferroni": "bonferroni", "benjamini-hochberg": "fdr_bh", "sidak": "sidak"}[method]
         np.testing.assert_allclose(adjusted, multipletests(raw, method=key)[1], rtol=1e-10)

@@ -30,7 +30,13 @@ from pydantic import (
 from pydantic_core import PydanticCustomError
 
 from appendix.plan.checks import DATA_FORMATS, consistency_problems
-from appendix.plan.choices import ContrastKind, DeviationKind, FactorRole, MultiplicityMethod
+from appendix.plan.choices import (
+    ContrastKind,
+    DeviationKind,
+    FactorRole,
+    MultiplicityMethod,
+    hypotheses_of_kind,
+)
 from appendix.plan.scalars import scalar_text
 from appendix.plan.wording import key_path
 
@@ -332,9 +338,7 @@ class Contrast(_Frozen):
         >>> Contrast(id="C", kind="pairwise", label="all pairs").hypothesis_count(4)
         6
         """
-        counts = {"custom": 1, "pairwise": k * (k - 1) // 2, "versus-control": k - 1,
-                  "trend": self.trend_degree, "helmert": k - 1}
-        return counts[self.kind]
+        return hypotheses_of_kind(self.kind, k, self.trend_degree)
 
 
 class ExploratoryContrast(Contrast):
@@ -354,6 +358,14 @@ class Multiplicity(_Frozen):
     order: tuple[ContrastId, ...] | None = Field(
         default=None, min_length=1,
         description="fixed-sequence only: every contrast id exactly once, in testing order.")
+    weights: dict[ContrastId, Number] | None = Field(
+        default=None, exclude_if=_is(None),
+        description="graphical only: each contrast's initial share of alpha (contrasts left "
+                    "out weigh 0); from 0 to 1 each, summing to more than 0 and at most 1.")
+    transitions: dict[ContrastId, dict[ContrastId, Number]] | None = Field(
+        default=None, exclude_if=_is(None),
+        description="graphical only: for a contrast, the share of its level passed to each "
+                    "other contrast once it is rejected; from 0 to 1 each, at most 1 in all.")
 
 
 class Acknowledgement(_Frozen):
