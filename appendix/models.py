@@ -181,6 +181,7 @@ def _between_outcome(plan, outcome, data, missing_by_cell, cell_labels):
                                                                decimals=data.decimals)
         if data.summary is not None:
             descriptives = _full_data_moments(descriptives, one, data)
+        table = _one_factor_notes(table, one, plan.alpha)
         robust = RobustTests(welch=welch_anova(one),
                              kruskal=kruskal_wallis(data.values, treatment, k, cell_labels))
         selected, contingencies = one_factor.select_method(plan, diagnostics)
@@ -209,6 +210,18 @@ def _between_outcome(plan, outcome, data, missing_by_cell, cell_labels):
         contrasts=families, covariate_slopes=_covariate_slopes(plan, fit),
         warnings=tuple(fit.warnings)), exploratory, deviations, Residuals(
             outcome.name, _read_only(data.values - residuals), _read_only(residuals), treatment)
+
+
+def _one_factor_notes(table: ModelTable, cells, alpha: float) -> ModelTable:
+    """A one-factor table with the one-way layout's own notes (empty levels, single
+    groups, no within-group df), which say in the design's words why a test is missing;
+    the factor's row carries them when its F is undefined."""
+    from appendix.stats.oneway import variance_table
+
+    notes = tuple(variance_table(cells, alpha).warnings)
+    row = table.rows[0]
+    return replace(table, warnings=notes,
+                   rows=(replace(row, warnings=notes if row.f is None else ()),))
 
 
 def _full_data_moments(descriptives: Descriptives, cells, data: OutcomeData) -> Descriptives:
@@ -242,13 +255,16 @@ def _concluded(plan: Plan, term: tuple[str, ...]) -> bool:
 
 def _model_table(plan: Plan, fit, scale: float = 1.0, stratum: str = "units") -> ModelTable:
     """The variance table of a fit, its terms labelled as the plan names them."""
-    return model_table(fit, lambda term: _label(plan, term), scale, stratum)
+    return model_table(fit, lambda term: _label(plan, term), scale, stratum, alpha=plan.alpha,
+                       ss_type_stated=plan.design.sums_of_squares is not None)
 
 
-def model_table(fit, label, scale: float = 1.0, stratum: str = "units") -> ModelTable:
+def model_table(fit, label, scale: float = 1.0, stratum: str = "units", *, alpha: float,
+                ss_type_stated: bool = True) -> ModelTable:
     """The variance table the appendix reports for a fit (`appendix.stats.linear.ModelFit`),
     each term labelled by `label(term)`; `scale` multiplies sums of squares and mean squares
-    (m for a fit to the means of m repeated observations: the observation scale)."""
+    (m for a fit to the means of m repeated observations: the observation scale); each
+    row's critical F is at `alpha`; `ss_type_stated` says whether the plan states the type."""
     def times(value):
         return None if value is None else value * scale
 
@@ -260,7 +276,7 @@ def model_table(fit, label, scale: float = 1.0, stratum: str = "units") -> Model
                           cohens_f=_cohens_f(r.partial_eta_squared),
                           cohens_f_ci=(tuple(_cohens_f(v) for v in r.partial_eta_ci)
                                        if r.partial_eta_ci is not None else None),
-                          critical_f=_critical_f(plan.alpha, r.df, fit.residual_df),
+                          critical_f=_critical_f(alpha, r.df, fit.residual_df),
                           full_df=r.full_df, effect_ci_df=r.effect_ci_df, warnings=tuple(r.warnings))
                  for r in fit.terms)
     return ModelTable(ss_type=fit.ss_type, rows=rows, residual_df=fit.residual_df,
@@ -268,7 +284,7 @@ def model_table(fit, label, scale: float = 1.0, stratum: str = "units") -> Model
                       total_df=fit.total_df, total_ss=times(fit.total_ss), r_squared=fit.r_squared,
                       estimability=fit.estimability,
                       empty_cells=tuple(CROSS.join(c) for c in fit.empty_cells),
-                      ss_type_stated=plan.design.sums_of_squares is not None,
+                      ss_type_stated=ss_type_stated,
                       residual_sd=(math.sqrt(fit.residual_ms * scale) if fit.residual_ms is not None
                                    and fit.residual_ms >= 0 else None),
                       stratum=stratum, warnings=tuple(fit.warnings))

@@ -108,7 +108,8 @@ def engine_table(cells: DesignCells) -> ModelTable:
     from appendix.models import model_table
     from appendix.stats.linear import fit_linear, label_of
 
-    return model_table(fit_linear(cells, [cells.grid.names], ss_type=2, alpha=0.05), label_of)
+    return model_table(fit_linear(cells, [cells.grid.names], ss_type=2, alpha=0.05), label_of,
+                       alpha=0.05)
 
 
 def engine_values(table: ModelTable) -> dict[str, float]:

@@ -192,7 +192,7 @@ def test_variance_fallback_fires_and_both_families_are_shown(tmp_path: Path):
     assert primary.selected_method == "welch"
     assert [(f.method, f.registered) for f in primary.contrasts] == [("welch", True),
                                                                    ("classical", False)]
-    assert "differed across the 4 levels of dose, Welch's F(3, " in primary.conclusion.sentence
+    assert "differed across the 4 levels of dose, Welch's F(3, " in primary.conclusions[0].sentence
     deviation = record.results.deviations[0]
     assert (deviation.kind, deviation.subject, deviation.acknowledged) == (
         "registered-contingency", "y", True)
@@ -213,9 +213,9 @@ def test_normality_fallback_selects_the_rank_based_analysis(tmp_path: Path):
     registered = next(f for f in primary.contrasts if f.registered)
     assert registered.method == "rank-based"
     assert {h.statistic_name for h in registered.hypotheses} == {"z"}
-    assert primary.conclusion.sentence.startswith("Response differed") or \
-        primary.conclusion.sentence.startswith("Response did not differ")
-    assert "Kruskal-Wallis H(3)" in primary.conclusion.sentence
+    assert primary.conclusions[0].sentence.startswith("Response differed") or \
+        primary.conclusions[0].sentence.startswith("Response did not differ")
+    assert "Kruskal-Wallis H(3)" in primary.conclusions[0].sentence
 
 
 def test_exploratory_analyses_stay_out_of_the_conclusions(tmp_path: Path):
