@@ -223,8 +223,12 @@ def _adjusted_for(plan: Plan, h: HypothesisResult) -> str:
     names = [f.label or f.name for f in plan.blocks] + [c.label for c in plan.design.covariates]
     if not names:
         return ""
-    listed = ", ".join(names[:-1]) + (" and " if len(names) > 1 else "") + names[-1]
-    return f", adjusted for {listed},"
+    return f", adjusted for {_listed(names)},"
+
+
+def _listed(names) -> str:
+    """``a``, ``a and b``, ``a, b and c``."""
+    return ", ".join(names[:-1]) + (" and " if len(names) > 1 else "") + names[-1]
 
 
 def slopes_caveat(slopes, alpha: float) -> str:
@@ -376,4 +380,20 @@ def term_conclusion(plan: Plan, outcome: Outcome, row, ss_type: int, df_error: f
                 "evidence that there is no effect")
         decision = "retain"
     sentence = f"{upper_first(row.label)} ({outcome.label}): {clause}{corrected}; {rest}; {how}."
+    adjusted = _model_adjustment(plan, row)
+    if adjusted:
+        sentence += f" The test is {adjusted}."
+    if decision == "reject" and row.kind == "factor" and row.df > 1:
+        sentence += (" A significant F shows that the marginal means are not all equal, not "
+                     "which levels differ nor whether the differences matter in practice.")
     return Conclusion(sentence=sentence, decision=decision, p=p, alpha=alpha)
+
+
+def _model_adjustment(plan: Plan, row) -> str:
+    """``adjusted for cohort and wound area at day 0`` for a between-unit treatment term
+    of a model with blocks or covariates; empty for other terms and designs."""
+    if row.kind == "covariate" or (plan.within is not None and plan.within.name in row.term):
+        return ""
+    names = [f.label or f.name for f in plan.blocks] + [c.label for c in plan.design.covariates]
+    names = [n for n in names if n != row.label]
+    return f"adjusted for {_listed(names)}" if names else ""

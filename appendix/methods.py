@@ -287,9 +287,13 @@ METHODS: Mapping[str, Method] = MappingProxyType({m.key: m for m in (
            "weights over the levels of the other factors, covariates held at their overall "
            "mean (Searle, Speed & Milliken, 1980). Their standard errors and those of the "
            "planned contrasts among them come from the covariance matrix of the fitted "
-           "coefficients; t on the residual degrees of freedom. Simple effects compare a "
-           "factor's levels within one level of another factor.",
+           "coefficients; t on the residual degrees of freedom.",
            ("searle1980",)),
+    Method("simple-effects", "Simple effects",
+           "A simple effect compares a factor's levels within one level of another factor, "
+           "on the same model's marginal means; a family of simple effects holds every level "
+           "of that factor together, so its multiplicity control covers all of them.",
+           ()),
     Method("slopes", "Homogeneity of regression slopes",
            "For each covariate the interaction of the covariate with the cells of the "
            "treatment factors is added to the model and tested with an F test; adjusted means "
@@ -440,8 +444,8 @@ METHODS: Mapping[str, Method] = MappingProxyType({m.key: m for m in (
            "(Dunnett, 1955); adjusted p values and intervals hold simultaneously.",
            ("dunnett1955",)),
     Method("tukey-joint", "Tukey's all-pairs comparisons on the joint t distribution",
-           "The family's pairwise differences (at every level of another factor for a simple "
-           "effect, all levels together) are tested single-step on the multivariate t "
+           "The family's pairwise differences are tested together, single-step, on the "
+           "multivariate t "
            "distribution of their t statistics, with the correlation matrix of the model's "
            "estimates (Hothorn, Bretz & Westfall, 2008); with equal group sizes and no covariate "
            "this is Tukey's (1953) studentized-range test. The probabilities are integrated "
@@ -450,8 +454,8 @@ METHODS: Mapping[str, Method] = MappingProxyType({m.key: m for m in (
            "simultaneously for the whole family.",
            ("tukey1953", "hothorn2008", "genz2002")),
     Method("dunnett-joint", "Dunnett's many-to-one comparisons on the joint t distribution",
-           "The family's comparisons with the control (at every level of another factor for a "
-           "simple effect, all levels together) are tested single-step on the multivariate t "
+           "The family's comparisons with the control are tested together, single-step, on the "
+           "multivariate t "
            "distribution of their t statistics, with the correlation matrix of the model's "
            "estimates (Dunnett, 1955; Hothorn, Bretz & Westfall, 2008), integrated numerically "
            "by randomized quasi-Monte Carlo (Genz & Bretz, 2002) with the bound on the "
@@ -695,6 +699,8 @@ def methods_used(results: Mapping[str, Any]) -> tuple[Method, ...]:
     chosen += ["anova"] if one_factor else []
     chosen += ["linear-model"] if _ran(beyond, lambda o: o["marginal_means"] or not o["sphericity"]) else []
     chosen += ["marginal-means"] if _ran(beyond, lambda o: o["marginal_means"]) else []
+    chosen += ["simple-effects"] if any(h.get("within") for f in all_families(results)
+                                        for h in f["hypotheses"]) else []
     chosen += ["slopes"] if _ran(outcomes, lambda o: o["slopes"]) else []
     if _ran(outcomes, lambda o: o["sphericity"]):
         # one within factor per plan: a lower bound 1/d of 1 means two levels, no correction

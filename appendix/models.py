@@ -424,7 +424,7 @@ def _hypotheses(plan: Plan, contrast):
                                   label=contrast.label, factor_label=factor.label or factor.name)
 
 
-def _raw_result(h, contrast, estimate, by=None, level: str | None = None) -> HypothesisResult:
+def _raw_result(h, contrast, estimate, by=None, level: str | None = None, factor=None) -> HypothesisResult:
     """A hypothesis result from a contrast estimate; a simple effect's id ends
     ``@level`` and its label names the level of `by` it is taken within."""
     hid = h.id if level is None else f"{h.id}@{level}"
@@ -436,7 +436,8 @@ def _raw_result(h, contrast, estimate, by=None, level: str | None = None) -> Hyp
         p_adjusted=None, ci_low=estimate.ci_low, ci_high=estimate.ci_high,
         confidence_level=estimate.confidence_level, ci_simultaneous=False, standardized=None,
         decision="unavailable" if estimate.p is None else "retain",
-        warnings=tuple(estimate.warnings), scale=h.scale, within=level)
+        warnings=tuple(estimate.warnings), scale=h.scale, within=level,
+        factor=factor.name if factor is not None else None)
 
 
 def _members(plan: Plan, contrasts):
@@ -455,7 +456,7 @@ def _raw_results(plan: Plan, contrasts, fit, complete, occasion_fit=None) -> lis
     estimated and tested unadjusted."""
     confidence = 1.0 - plan.alpha
     return [_raw_result(h, contrast, _estimate(plan, contrast, factor, h.weights, by, level, fit,
-                                               complete, confidence, occasion_fit), by, level)
+                                               complete, confidence, occasion_fit), by, level, factor)
             for contrast, factor, h, by, level in _members(plan, contrasts)]
 
 

@@ -264,7 +264,8 @@ class HypothesisResult:
     measures when it is not a difference of means (trends: a slope or polynomial
     coefficient over the level scores); None otherwise. `within` is the level of the
     contrast's `by` factor a simple effect is taken within (its id then ends ``@level``);
-    None for a contrast across all levels.
+    None for a contrast across all levels. `factor` names the factor whose levels a
+    contrast on a model's marginal means compares (None for a one-factor family).
     """
 
     id: str
@@ -290,6 +291,7 @@ class HypothesisResult:
     warnings: Warnings = ()
     scale: EstimateScale | None = None
     within: str | None = None
+    factor: str | None = None
 
 
 @dataclass(frozen=True)

@@ -78,13 +78,16 @@ class Grid:
         """The cell of every row from the per-factor level codes (0-based, in level order)."""
         if len(codes) != len(self.names):
             raise InternalError(f"{len(codes)} code arrays given for {len(self.names)} factors")
-        cell = np.zeros(np.asarray(codes[0]).shape, dtype=np.int64)
+        cell = np.zeros(np.asarray(codes[0]).shape, dtype=np.int64) if len(codes) > 1 else None
+        shape = np.asarray(codes[0]).shape
         for name, k, column in zip(self.names, self.shape, codes):
             column = np.asarray(column)
-            if column.shape != cell.shape or (column.size and not np.issubdtype(column.dtype, np.integer)):
-                raise InternalError(f"codes of '{name}' must be integers of shape {cell.shape}")
+            if column.shape != shape or (column.size and not np.issubdtype(column.dtype, np.integer)):
+                raise InternalError(f"codes of '{name}' must be integers of shape {shape}")
             if column.size and (column.min() < 0 or column.max() >= k):
                 raise InternalError(f"codes of '{name}' must lie in 0..{k - 1}")
+            if len(self.names) == 1:  # one factor: its codes are the cells (no copy)
+                return np.asarray(column, dtype=np.int64)
             cell *= k
             cell += column
         return cell
