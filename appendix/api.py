@@ -2,7 +2,7 @@
 
 >>> from appendix import api
 >>> computed = api.compute("studies/seed-coating/study.yaml")        # doctest: +SKIP
->>> computed.results.outcomes[0].table.f                            # doctest: +SKIP
+>>> computed.results.outcomes[0].tables[0].rows[0].f                # doctest: +SKIP
 >>> api.run("studies/seed-coating/study.yaml", out_dir="out/demo")  # doctest: +SKIP
 
 Stages: `load_plan` -> `load_data` -> `analyse` -> `render` -> `run` writes the folder.
@@ -14,7 +14,7 @@ import datetime as _dt
 import platform
 import sys
 from collections.abc import Callable, Mapping
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 
 from appendix.data.build import build_dataset
@@ -25,7 +25,7 @@ from appendix.errors import UserError
 from appendix.plan.load import LoadedPlan, load_plan
 from appendix.plan.lock import Lock, LockOutcome, lock_path, lock_plan, read_lock
 from appendix.results import Deviation, StudyResults, to_json, to_plain
-from appendix.runner import analyse as _analyse
+from appendix.runner import Residuals, study_analysis
 from appendix.versions import software_versions
 
 __all__ = ["Computed", "Rendered", "RunRecord", "load_plan", "load_data", "analyse",
@@ -38,6 +38,7 @@ class Computed:
     loaded: LoadedPlan
     dataset: Dataset
     results: StudyResults
+    residuals: Mapping[str, Residuals] = field(default_factory=dict)
 
 
 @dataclass(frozen=True)
@@ -88,8 +89,13 @@ def _load_data(loaded: LoadedPlan, out_of_core: bool | None) -> Dataset:
 def analyse(loaded: LoadedPlan, dataset: Dataset, lock: Lock | None = None) -> StudyResults:
     """Every registered analysis and every deviation from the registered plan; `lock`
     defaults to the registration lock beside the study file (``study.lock.json``)."""
+    return _computed(loaded, dataset, lock).results
+
+
+def _computed(loaded: LoadedPlan, dataset: Dataset, lock: Lock | None = None) -> Computed:
     lock = lock if lock is not None else read_lock(loaded.path)
-    return _analyse(loaded, dataset, software_versions(), lock)
+    analysis = study_analysis(loaded, dataset, software_versions(), lock)
+    return Computed(loaded, dataset, analysis.results, analysis.residuals)
 
 
 def lock(study: str | Path, *, relock: bool = False, reason: str | None = None,
@@ -110,7 +116,7 @@ def compute(study: str | Path, *, out_of_core: bool | None = None) -> Computed:
     """Plan, data and results for a study file; raises `appendix.errors.UserError`."""
     loaded = load_plan(Path(study))
     dataset = load_data(loaded, out_of_core=out_of_core)
-    return Computed(loaded, dataset, analyse(loaded, dataset))
+    return _computed(loaded, dataset)
 
 
 def check(study: str | Path) -> list[str]:
@@ -131,11 +137,7 @@ def render(computed: Computed, options=None) -> Rendered:
 
     options = options or html.RenderOptions()
     text = to_json(computed.results)
-    svgs = figures.make_figures(computed.dataset, computed.results)
-    if computed.results.models:
-        from appendix.model_figures import model_figures
-
-        svgs.update(model_figures(computed.dataset, computed.results))
+    svgs = figures.make_figures(computed.dataset, computed.results, computed.residuals)
     page = html.render_html(to_plain(computed.results), svgs, options)
     return Rendered(results_json=text, figures=svgs, html=page)
 
@@ -164,7 +166,7 @@ def run(study: str | Path, out_dir: str | Path | None = None, *,
     check_run_target(folder, inputs)  # before any work: a refused folder costs nothing
     before = fingerprint(loaded.data_path)
     dataset = load_data(loaded, out_of_core=out_of_core)
-    computed = Computed(loaded, dataset, analyse(loaded, dataset))
+    computed = _computed(loaded, dataset)
     say("computing figures and HTML")
     options = options or html.RenderOptions()
     rendered = render(computed, options)

@@ -13,7 +13,8 @@ Packing twice gives the same bytes: entries in a fixed order, each dated at the 
 anything is extracted, checks every hash, cross-checks the run manifest and the PDF's
 embedded evidence, recomputes in a temporary folder with `appendix.api.run` and compares
 results.json: strings (conclusions, decisions) and integers exactly, other numbers to
-`REL_TOL` relative (`ABS_TOL` absolute near zero).
+`REL_TOL` relative (`ABS_TOL` absolute near zero). Packaged results of another format
+than `appendix.results.FORMAT_VERSION` are not compared, and verify says so.
 """
 
 from __future__ import annotations
@@ -37,6 +38,7 @@ from typing import Any, TextIO
 from appendix.errors import UserError
 from appendix.jsonread import checked, read_json
 from appendix.publish import PDF_NAME, RunManifest, manifest_text, pdf_evidence, sha256_file
+from appendix.results import FORMAT_VERSION
 from appendix.targets import check_file_target, is_package
 from appendix.versions import installed_distributions
 
@@ -522,6 +524,10 @@ def _recompute(folder: Path, manifest: Mapping[str, Any]) -> tuple[list[str], li
         return ["run/results.json does not hold a results object; nothing to compare"], []
     again = json.loads((folder / "recomputed" / "results.json").read_text(encoding="utf-8"))
     notes = _version_notes(packaged.pop("software", []), again.pop("software", []))
+    if packaged.get("format_version") != FORMAT_VERSION:
+        return [f"run/results.json is of results format {packaged.get('format_version')!r} and this "
+                f"version of appendix writes format {FORMAT_VERSION}, so the results were not "
+                "compared: verify the package with the appendix version environment.json names"], notes
     problems = compare_results(packaged, again)
     html = folder / "run" / "appendix.html"
     if html.is_file() and html.read_bytes() != (folder / "recomputed" / "appendix.html").read_bytes():

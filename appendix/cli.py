@@ -116,8 +116,8 @@ def _run(args, cwd: Path, out: TextIO, err: TextIO, clock) -> int:
                      clock=clock, progress=progress,
                      notice=lambda note: print(f"note: {note}", file=err))
     print(f"wrote {record.folder}", file=out)
-    for outcome in record.results.outcomes:
-        print(f"  {outcome.name} ({outcome.role}): {outcome.conclusion.decision}", file=out)
+    for line in _decision_lines(record.results):
+        print(line, file=out)
     pending = api.unacknowledged(record.results)
     if args.strict and pending:
         print(f"strict: {len(pending)} deviation{'s' if len(pending) != 1 else ''} from the "
@@ -126,6 +126,26 @@ def _run(args, cwd: Path, out: TextIO, err: TextIO, clock) -> int:
             print(f"  {deviation.kind} ({deviation.subject}): {deviation.message}", file=err)
         return EXIT_ATTENTION
     return EXIT_OK
+
+
+def _decision_lines(results) -> list[str]:
+    """One line per outcome with the decision of each of its conclusions: ``  dry_mass
+    (primary): reject`` for an outcome with one, else each tested term's, ``  yield
+    (primary): coating: reject; irrigation: retain``."""
+    from appendix.compare import conclusions_of
+    from appendix.results import to_plain
+
+    terms: dict[str, list[tuple[str, str]]] = {}
+    for (outcome, kind, term), (_, _, decision) in conclusions_of(to_plain(results)).items():
+        if kind == "term":
+            terms.setdefault(outcome, []).append((term, decision.decision))
+    lines = []
+    for outcome in results.outcomes:
+        found = terms.get(outcome.name, [])
+        said = (found[0][1] if len(found) == 1 else
+                "; ".join(f"{term}: {decision}" for term, decision in found) or "no conclusion")
+        lines.append(f"  {outcome.name} ({outcome.role}): {said}")
+    return lines
 
 
 def _lock(args, out: TextIO, clock) -> int:

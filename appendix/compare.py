@@ -1,15 +1,18 @@
 """`appendix diff RUN_A RUN_B`: what changed between two run folders, most important first.
 
-1. conclusions whose decision changed at alpha (the omnibus test of a one-factor outcome,
-   each registered hypothesis, each tested model term of a design beyond one factor);
-2. numbers that moved beyond a stated tolerance (estimates, intervals, p-values, effect
-   sizes, counts), with the size of the move, absolute and relative;
+1. conclusions whose decision changed at alpha (each tested term of an outcome's model,
+   for a one-factor outcome its factor under the analysis in force, and each registered
+   hypothesis);
+2. numbers that moved beyond a stated tolerance (F and p of every term, Welch and
+   Kruskal-Wallis where computed, effect sizes with their intervals, estimates, marginal
+   means, counts), with the size of the move, absolute and relative;
 3. data: units added and removed, and changed cells by unit, outcome and column, read
    from each run's records (`appendix.records`);
 4. the plan: its hash, and key by key when both runs hold the canonical plan;
 5. checksums of the inputs (and of the output files, from the manifests).
 
-Only the run folders' results.json, records.json and manifest.json are read. Output:
+Only the run folders' results.json (of `appendix.results.FORMAT_VERSION`; an older
+format is refused with a sentence), records.json and manifest.json are read. Output:
 text for people (`report_lines`), canonical JSON for machines (`to_json`, stable keys)
 and an HTML page in the appendix's look (`render_page`).
 
@@ -31,10 +34,11 @@ from appendix.errors import UserError
 from appendix.jsonread import checked, read_json
 from appendix.publish import RunManifest
 from appendix.records import Records, RowRecord, read_records
-from appendix.results import StudyResults
+from appendix.results import FORMAT_VERSION, StudyResults
 from appendix.targets import check_file_target, is_diff_page, write_atomically
 
-DIFF_FORMAT = 1
+#: 2: quantities are named after the results of format 2 (``units/coating.f``, ``n_units``).
+DIFF_FORMAT = 2
 
 #: Joins the factors of an interaction in a term's id, as the appendix writes it.
 CROSS = " × "
@@ -70,7 +74,8 @@ class Decision:
 @dataclass(frozen=True)
 class ConclusionChange:
     """A conclusion whose decision differs, or that exists in one run only (None).
-    `kind` is ``omnibus``, ``hypothesis`` or ``term``."""
+    `kind` is ``term`` (a tested term of the outcome's model; `id` the term, e.g.
+    ``coating × irrigation``) or ``hypothesis`` (`id` the hypothesis id)."""
 
     outcome: str
     role: str
@@ -217,8 +222,13 @@ def _load_run(folder: Path) -> _Run:
         raise UserError(f"not a run folder: {folder} has no results.json "
                         "(give the folders that `appendix run` wrote)")
     results = _read_json(folder / "results.json")
-    if not isinstance(results, dict) or results.get("format_version") != 1:
-        raise UserError(f"{folder / 'results.json'}: not a results file of format 1")
+    version = results.get("format_version") if isinstance(results, dict) else None
+    if type(version) is not int:
+        raise UserError(f"{folder / 'results.json'}: not a results file of format {FORMAT_VERSION}")
+    if version != FORMAT_VERSION:
+        raise UserError(f"{folder / 'results.json'} is a results file of format {version}, and this "
+                        f"version of appendix compares results of format {FORMAT_VERSION} only: rerun "
+                        "both studies with it, then compare the new run folders")
     checked(results, StudyResults, folder / "results.json", "a results file of this version")
     manifest = None
     if (folder / "manifest.json").is_file():
@@ -245,39 +255,41 @@ def _hypotheses(outcome: Mapping[str, Any]) -> Iterator[tuple[Mapping[str, Any],
     yield from zip(hypotheses, sentences)
 
 
-def _tested_terms(results: Mapping[str, Any], model: Mapping[str, Any]) -> list[Mapping[str, Any]]:
-    """The table rows a model concludes on: terms of treatment and within factors only
+def _tested_terms(results: Mapping[str, Any], outcome: Mapping[str, Any]) -> list[Mapping[str, Any]]:
+    """The table rows an outcome concludes on: terms of treatment and within factors only
     (blocks and covariates adjust the model), tables in order."""
     tested = {f["name"] for f in results.get("factors", []) if f.get("role") in ("treatment", "within")}
-    return [row for table in model["tables"] for row in table["rows"] if set(row["term"]) <= tested]
+    return [row for table in outcome["tables"] for row in table["rows"] if set(row["term"]) <= tested]
+
+
+#: The test a one-factor outcome's conclusion is decided by, per `selected_method`.
+_METHOD_WORDS = {"classical": "F test", "welch": "Welch's test", "rank-based": "Kruskal-Wallis test"}
 
 
 def _term_conclusions(results: Mapping[str, Any],
-                      m: Mapping[str, Any]) -> Iterator[tuple[str, str, Decision]]:
-    """(term id, label, decision) of each tested term of a model outcome."""
-    rows = _tested_terms(results, m)
-    if len(rows) == len(m["conclusions"]):
-        for row, c in zip(rows, m["conclusions"]):
-            yield (CROSS.join(row["term"]), f"{m['label']}: {row['label']}",
+                      o: Mapping[str, Any]) -> Iterator[tuple[str, str, Decision]]:
+    """(term id, label, decision) of each tested term of an outcome. Where the robust tests
+    are computed (one factor), the label names the test in force."""
+    rows = _tested_terms(results, o)
+    method = o.get("selected_method", "classical")
+    test = f" ({_METHOD_WORDS.get(method, method)})" if o.get("robust") is not None else ""
+    if len(rows) == len(o["conclusions"]):
+        for row, c in zip(rows, o["conclusions"]):
+            yield (CROSS.join(row["term"]), f"{o['label']}: {row['label']}{test}",
                    Decision(c["decision"], c["p"], c["sentence"]))
     else:  # a results file whose conclusions do not pair with its rows: by position
-        for i, c in enumerate(m["conclusions"], start=1):
-            yield f"term {i}", f"{m['label']}: term {i}", Decision(c["decision"], c["p"], c["sentence"])
+        for i, c in enumerate(o["conclusions"], start=1):
+            yield f"term {i}", f"{o['label']}: term {i}", Decision(c["decision"], c["p"], c["sentence"])
 
 
 def conclusions_of(results: Mapping[str, Any]) -> dict[tuple[str, str, str], tuple[str, str, Decision]]:
     """Every conclusion of a run: (outcome, kind, id) -> (role, label, decision); primary
-    outcomes first, each with its omnibus test or model terms, then its hypotheses."""
+    outcomes first, each with its tested terms (a one-factor outcome: its factor), then
+    its hypotheses."""
     found: dict[tuple[str, str, str], tuple[str, str, Decision]] = {}
-    for o in _ordered([*results.get("outcomes", []), *results.get("models", [])]):
-        if "conclusion" in o:  # one-factor outcome
-            c = o["conclusion"]
-            found[(o["name"], "omnibus", "omnibus")] = (
-                o["role"], f"{o['label']}: equal means ({o.get('selected_method', 'classical')} test)",
-                Decision(c["decision"], c["p"], c["sentence"]))
-        else:
-            for term, label, decision in _term_conclusions(results, o):
-                found[(o["name"], "term", term)] = (o["role"], label, decision)
+    for o in _ordered(list(results.get("outcomes", []))):
+        for term, label, decision in _term_conclusions(results, o):
+            found[(o["name"], "term", term)] = (o["role"], label, decision)
         for h, sentence in _hypotheses(o):
             p = h["p_adjusted"] if h["p_adjusted"] is not None else h["p"]
             found[(o["name"], "hypothesis", h["id"])] = (
@@ -305,7 +317,11 @@ def compare_conclusions(a: Mapping[str, Any], b: Mapping[str, Any]) -> tuple[Con
 
 # --- 2. numbers -----------------------------------------------------------------------
 
-_EFFECT_WORDS = {"eta_squared": "eta squared", "omega_squared": "omega squared", "cohens_f": "Cohen's f"}
+#: A row's effect sizes: (field of the estimate, field of its interval, words). With one
+#: term in one table a partial share is the share itself (the error is all that is left).
+_EFFECTS = (("partial_eta_squared", "partial_eta_ci", "eta squared"),
+            ("partial_omega_squared", "partial_omega_ci", "omega squared"),
+            ("cohens_f", "cohens_f_ci", "Cohen's f"))
 
 
 def _interval(found: dict, outcome: str, quantity: str, label: str, item: Mapping[str, Any],
@@ -333,6 +349,41 @@ def _group_numbers(found: dict, outcome: str, descriptives: Mapping[str, Any]) -
         found[(outcome, f"n[{g['level']}]")] = (f"n, {g['level']}", g["n"])
 
 
+def _rows(o: Mapping[str, Any]) -> Iterator[tuple[str, str, Mapping[str, Any]]]:
+    """(quantity prefix, label, row) of every row of every table of an outcome: the prefix
+    ``stratum/term`` (``units/coating``), the label the term's, with the stratum unless it
+    is ``units`` (a design without a within factor: one stratum)."""
+    for table in o["tables"]:
+        stratum = table.get("stratum", "units")
+        for row in table["rows"]:
+            where = "" if stratum == "units" else f" ({stratum})"
+            yield f"{stratum}/{CROSS.join(row['term'])}", f"{row['label']}{where}", row
+
+
+def _term_numbers(found: dict, name: str, o: Mapping[str, Any]) -> None:
+    """Each term's F and p (corrected p of within-unit terms), then Welch and Kruskal-Wallis
+    where they are computed, then each term's effect sizes with their intervals."""
+    for term, label, row in _rows(o):
+        found[(name, f"{term}.f")] = (f"F, {label}", row["f"])
+        found[(name, f"{term}.p")] = (f"p, {label}", row["p"])
+        if row["kind"] == "within":
+            found[(name, f"{term}.gg_p")] = (f"p Greenhouse-Geisser, {label}", row.get("gg_p"))
+            found[(name, f"{term}.hf_p")] = (f"p Huynh-Feldt, {label}", row.get("hf_p"))
+    robust = o.get("robust")
+    if robust is not None:
+        found[(name, "welch.f")] = ("F (Welch)", robust["welch"]["f"])
+        found[(name, "welch.p")] = ("p (Welch)", robust["welch"]["p"])
+        found[(name, "kruskal.h")] = ("H (Kruskal-Wallis)", robust["kruskal"]["h"])
+        found[(name, "kruskal.p")] = ("p (Kruskal-Wallis)", robust["kruskal"]["p"])
+    one_term = len(o["tables"]) == 1 and len(o["tables"][0]["rows"]) == 1
+    for term, label, row in _rows(o):
+        for estimate, interval, words in _EFFECTS:
+            words = words if one_term or estimate == "cohens_f" else f"partial {words}"
+            low, high = row.get(interval) or (None, None)
+            _interval(found, name, f"{term}.{estimate}", f"{words}, {label}",
+                      {"estimate": row.get(estimate), "ci_low": low, "ci_high": high})
+
+
 def numbers_of(results: Mapping[str, Any]) -> dict[tuple[str, str], tuple[str, float | None]]:
     """The run's reported numbers: (outcome, quantity) -> (label, value), most telling first
     within an outcome (tests, effect sizes, hypotheses, then means and counts)."""
@@ -343,43 +394,19 @@ def numbers_of(results: Mapping[str, Any]) -> dict[tuple[str, str], tuple[str, f
             exploratory.setdefault(family["outcome"], []).append(family)
     for o in _ordered(list(results.get("outcomes", []))):
         name = o["name"]
-        found[(name, "anova.f")] = ("F (classical)", o["table"]["f"])
-        found[(name, "anova.p")] = ("p (classical)", o["table"]["p"])
-        found[(name, "welch.f")] = ("F (Welch)", o["welch"]["f"])
-        found[(name, "welch.p")] = ("p (Welch)", o["welch"]["p"])
-        found[(name, "kruskal.h")] = ("H (Kruskal-Wallis)", o["kruskal"]["h"])
-        found[(name, "kruskal.p")] = ("p (Kruskal-Wallis)", o["kruskal"]["p"])
-        for e in o["effect_sizes"]:
-            _interval(found, name, e["measure"], _EFFECT_WORDS.get(e["measure"], e["measure"]), e)
-        _hypothesis_numbers(found, name, [f for f in o["contrasts"] if f["registered"]])
+        _term_numbers(found, name, o)
+        _hypothesis_numbers(found, name, [f for f in o.get("contrasts", []) if f["registered"]])
         _hypothesis_numbers(found, name, exploratory.get(name, []), " (exploratory)")
-        found[(name, "n_analysed")] = ("units analysed", o["n_analysed"])
-        _group_numbers(found, name, o["descriptives"])
-    for m in _ordered(list(results.get("models", []))):
-        name = m["name"]
-        for table in m["tables"]:
-            for row in table["rows"]:
-                term = f"{table['stratum']}/{CROSS.join(row['term'])}"
-                label = f"{row['label']} ({table['stratum']})"
-                found[(name, f"{term}.f")] = (f"F, {label}", row["f"])
-                found[(name, f"{term}.p")] = (f"p, {label}", row["p"])
-                found[(name, f"{term}.gg_p")] = (f"p Greenhouse-Geisser, {label}", row.get("gg_p"))
-                found[(name, f"{term}.hf_p")] = (f"p Huynh-Feldt, {label}", row.get("hf_p"))
-                found[(name, f"{term}.partial_eta_squared")] = (f"partial eta squared, {label}",
-                                                               row["partial_eta_squared"])
-                found[(name, f"{term}.partial_omega_squared")] = (f"partial omega squared, {label}",
-                                                                 row["partial_omega_squared"])
-        _hypothesis_numbers(found, name, [f for f in m["contrasts"] if f["registered"]])
-        _hypothesis_numbers(found, name, exploratory.get(name, []), " (exploratory)")
-        for means in m["marginal_means"]:
+        for means in o["marginal_means"]:
             for mean in means["means"]:
                 at = ", ".join(f"{f}={v}" for f, v in zip(means["factors"], mean["levels"]))
                 _interval(found, name, f"marginal[{at}]", f"marginal mean, {at}", mean)
-        for slope in m.get("covariate_slopes", []):
+        for slope in o.get("covariate_slopes", []):
             _interval(found, name, f"slope[{slope['covariate']}]", f"slope on {slope['covariate']}", slope)
-        found[(name, "n_units")] = ("units analysed", m["n_units"])
-        found[(name, "n_observations")] = ("observations analysed", m["n_observations"])
-        _group_numbers(found, name, m["descriptives"])
+        found[(name, "n_units")] = ("units analysed", o["n_units"])
+        if any(table.get("stratum") == "within units" for table in o["tables"]):
+            found[(name, "n_observations")] = ("observations analysed", o["n_observations"])
+        _group_numbers(found, name, o["descriptives"])
     return found
 
 

@@ -16,14 +16,10 @@ from appendix.plan.model import Outcome, Plan
 from appendix.results import (
     AssumptionStatus,
     Conclusion,
-    EffectSize,
     HypothesisResult,
-    KruskalWallis,
     NormalityTest,
-    OneWayTable,
     StatWarning,
     VarianceTest,
-    WelchAnova,
 )
 
 _TEST_NAMES = {
@@ -37,29 +33,28 @@ def _alpha(alpha: float) -> str:
     return f"\u03b1 = {fmt.no_leading_zero(f'{alpha:g}')}"
 
 
-def f_clause(table: OneWayTable) -> str:
-    """``F(3, 39) = 7.89, p < .001``."""
-    return (f"F({table.df_between}, {table.df_within}) = {fmt.fixed(table.f, 2)}, "
-            f"{fmt.p_clause(table.p)}")
+def f_clause(row, df_error: float) -> str:
+    """``F(3, 39) = 7.89, p < .001`` for a model row tested on `df_error`."""
+    return (f"F({fmt.df_value(row.df)}, {fmt.df_value(df_error)}) = {fmt.fixed(row.f, 2)}, "
+            f"{fmt.p_clause(row.p)}")
 
 
-def eta_clause(effects: tuple[EffectSize, ...]) -> str:
-    """``η² = .38 (90% CI [.14, .52])``, or empty when eta squared is unavailable."""
-    eta = next((e for e in effects if e.measure == "eta_squared"), None)
-    if eta is None or eta.estimate is None:
+def eta_clause(row) -> str:
+    """``η² = .38 (90% CI [.14, .52])`` (a one-term model's partial eta squared is eta
+    squared), or empty when it is unavailable."""
+    if row.partial_eta_squared is None:
         return ""
     ci = ""
-    if eta.ci_low is not None and eta.ci_high is not None:
-        ci = (f" ({fmt.percent(eta.confidence_level)} CI "
-              f"{fmt.interval(eta.ci_low, eta.ci_high, 2, bounded=True)})")
-    return f", \u03b7\u00b2 = {fmt.proportion(eta.estimate)}{ci}"
+    if row.partial_eta_ci is not None:
+        ci = (f" ({fmt.percent(row.confidence_level)} CI "
+              f"{fmt.interval(*row.partial_eta_ci, 2, bounded=True)})")
+    return f", \u03b7\u00b2 = {fmt.proportion(row.partial_eta_squared)}{ci}"
 
 
-def _compatible(effects: tuple[EffectSize, ...]) -> str:
-    eta = next((e for e in effects if e.measure == "eta_squared"), None)
-    if eta is None or eta.ci_high is None:
+def _compatible(row) -> str:
+    if row.partial_eta_ci is None:
         return "the data cannot rule out differences of a size that would matter."
-    return (f"an effect as large as \u03b7\u00b2 = {fmt.proportion(eta.ci_high)}, the upper "
+    return (f"an effect as large as \u03b7\u00b2 = {fmt.proportion(row.partial_eta_ci[1])}, the upper "
             "confidence limit, remains compatible with the data.")
 
 
@@ -77,8 +72,9 @@ class _Omnibus:
     equal: str = "the means are equal"
 
 
-def _omnibus(method: str, table: OneWayTable, effects: tuple[EffectSize, ...],
-             welch: WelchAnova | None, kruskal: KruskalWallis | None) -> _Omnibus:
+def _omnibus(method: str, row, df_error: float, robust) -> _Omnibus:
+    welch = robust.welch if robust is not None else None
+    kruskal = robust.kruskal if robust is not None else None
     if method == "welch" and welch is not None:
         clause = (f"Welch's F({fmt.df_value(welch.df_num)}, {fmt.df_value(welch.df_den)}) = "
                   f"{fmt.fixed(welch.f, 2)}, {fmt.p_clause(welch.p)}")
@@ -92,22 +88,22 @@ def _omnibus(method: str, table: OneWayTable, effects: tuple[EffectSize, ...],
                         hypothesis="identical distributions",
                         unequal="the distributions are not all identical",
                         equal="the distributions are identical")
-    clause = f"{f_clause(table)}{eta_clause(effects)}"
-    return _Omnibus("The F test", "F", clause, table.p if table.f is not None else None,
-                    table.warnings)
+    clause = f"{f_clause(row, df_error)}{eta_clause(row)}" if row.f is not None else ""
+    return _Omnibus("The F test", "F", clause, row.p if row.f is not None else None,
+                    tuple(row.warnings))
 
 
-def conclusion(plan: Plan, outcome: Outcome, table: OneWayTable,
-               effects: tuple[EffectSize, ...], *, method: str = "classical",
-               welch: WelchAnova | None = None,
-               kruskal: KruskalWallis | None = None) -> Conclusion:
-    """The outcome's omnibus hypothesis (equal means, or identical distributions for the
-    rank-based test) decided at the plan's alpha by the test in force, in one sentence."""
+def conclusion(plan: Plan, outcome: Outcome, row, df_error: float, *, method: str = "classical",
+               robust=None) -> Conclusion:
+    """The one-factor model's hypothesis (equal means, or identical distributions for the
+    rank-based test) decided at the plan's alpha by the test in force, in one sentence.
+    `row` is the factor's row of the variance table, tested on `df_error`; `robust` the
+    outcome's `RobustTests`, whose tests a registered contingency may put in force."""
     factor = plan.factor
     what = upper_first(f"{'' if method == 'rank-based' else 'mean '}{outcome.label}")
     across = f"across the {len(factor.levels)} levels of {factor.label or factor.name}"
     alpha = plan.alpha
-    test = _omnibus(method, table, effects, welch, kruskal)
+    test = _omnibus(method, row, df_error, robust)
     if test.p is None:
         reasons = " ".join(w.message for w in test.warnings) or "See the warnings."
         sentence = f"{test.name} for {outcome.label} could not be computed. {reasons}"
@@ -121,7 +117,7 @@ def conclusion(plan: Plan, outcome: Outcome, table: OneWayTable,
         )
         decision = "reject"
     else:
-        caveat = (_compatible(effects) if method == "classical" else
+        caveat = (_compatible(row) if method == "classical" else
                   "the data cannot rule out differences of a size that would matter.")
         sentence = (
             f"{what} did not differ detectably {across}, {test.clause}; the hypothesis of "
@@ -185,14 +181,14 @@ def hypothesis_conclusion(plan: Plan, outcome: Outcome, h: HypothesisResult,
     factor = plan.factor_named(_contrast_factor(plan, h))
     pair = _levels_compared(h, factor.levels)
     size = abs(h.estimate)
-    measure = "mean rank" if h.method == "rank-based" else f"mean {outcome.label}"
+    measure = "mean rank" if h.method == "rank-based" else f"mean {outcome.label}{_adjusted_for(plan, h)}"
     if pair is not None:
         higher_lower = "higher" if h.estimate >= 0 else "lower"
         first = (f"{upper_first(measure)} under {pair[0]} was {fmt.fixed(size, 2)}{unit} "
                  f"{higher_lower} than under {pair[1]} ({evidence})")
         null = absent = "no difference"
     elif h.scale is not None:
-        first = (f"The {ref} of {measure}, its {h.scale.meaning}, was estimated at "
+        first = (f"The {ref} of {measure.rstrip(',')}, its {h.scale.meaning}, was estimated at "
                  f"{fmt.fixed(h.estimate, 2)}{unit} ({evidence})")
         null = absent = f"no {h.label}"
     else:
@@ -213,6 +209,26 @@ def hypothesis_conclusion(plan: Plan, outcome: Outcome, h: HypothesisResult,
         decision = "retain"
     return Conclusion(sentence=f"{first}; {rest}", decision=decision,
                       p=h.p_adjusted if h.p_adjusted is not None else h.p, alpha=alpha)
+
+
+def _adjusted_for(plan: Plan, h: HypothesisResult) -> str:
+    """``, adjusted for cohort and baseline area,`` when the contrast compares the model's
+    marginal means of a between-unit factor in a design with blocks or covariates (its
+    estimate is then not a difference of raw means); else empty."""
+    if h.method != "marginal-means":
+        return ""
+    contrast = _contrast_of(plan, h)
+    if contrast is None or (plan.within is not None and plan.factor_of(contrast).name == plan.within.name):
+        return ""
+    names = [f.label or f.name for f in plan.blocks] + [c.label for c in plan.design.covariates]
+    if not names:
+        return ""
+    return f", adjusted for {_listed(names)},"
+
+
+def _listed(names) -> str:
+    """``a``, ``a and b``, ``a, b and c``."""
+    return ", ".join(names[:-1]) + (" and " if len(names) > 1 else "") + names[-1]
 
 
 def slopes_caveat(slopes, alpha: float) -> str:
@@ -364,4 +380,20 @@ def term_conclusion(plan: Plan, outcome: Outcome, row, ss_type: int, df_error: f
                 "evidence that there is no effect")
         decision = "retain"
     sentence = f"{upper_first(row.label)} ({outcome.label}): {clause}{corrected}; {rest}; {how}."
+    adjusted = _model_adjustment(plan, row)
+    if adjusted:
+        sentence += f" The test is {adjusted}."
+    if decision == "reject" and row.kind == "factor" and row.df > 1:
+        sentence += (" A significant F shows that the marginal means are not all equal, not "
+                     "which levels differ nor whether the differences matter in practice.")
     return Conclusion(sentence=sentence, decision=decision, p=p, alpha=alpha)
+
+
+def _model_adjustment(plan: Plan, row) -> str:
+    """``adjusted for cohort and wound area at day 0`` for a between-unit treatment term
+    of a model with blocks or covariates; empty for other terms and designs."""
+    if row.kind == "covariate" or (plan.within is not None and plan.within.name in row.term):
+        return ""
+    names = [f.label or f.name for f in plan.blocks] + [c.label for c in plan.design.covariates]
+    names = [n for n in names if n != row.label]
+    return f"adjusted for {_listed(names)}" if names else ""

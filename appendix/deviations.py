@@ -91,8 +91,9 @@ def plan_deviations(plan_json: dict, lock: Lock | None) -> tuple[Deviation, ...]
 
 
 def _grouping(plan: Plan) -> tuple[str, str]:
-    """('level', factor in words) for a one-way plan, ('cell', crossed factors) otherwise."""
-    if plan.is_one_way:
+    """('level', factor in words) with one treatment factor (blocks and covariates make
+    no cells of their own), ('cell', crossed factors) otherwise; the unit flow's words."""
+    if len(plan.treatments) == 1:
         return "level", plan.factor.label or plan.factor.name
     names = [f.label or f.name for f in plan.treatments] or [plan.factor.label or plan.factor.name]
     return "cell", " \u00d7 ".join(names)

@@ -21,6 +21,7 @@ from appendix.results import (
     OutcomeResult,
 )
 from appendix.stats.cells import CellStats
+from appendix.stats.graphical import Graph
 from appendix.stats.hypotheses import hypotheses_for
 from appendix.stats.multiplicity import adjust_across, fixed_sequence, test_family
 
@@ -106,6 +107,15 @@ def sequence_order(plan: Plan, hypotheses) -> tuple[str, ...] | None:
     return tuple(h.id for _, h in ordered)
 
 
+def registered_graph(plan: Plan) -> Graph | None:
+    """The registered graph of a graphical plan (contrast ids as nodes), else None."""
+    settings = plan.multiplicity
+    if settings.method != "graphical":
+        return None
+    return Graph(weights=dict(settings.weights or {}),
+                 transitions={source: dict(row) for source, row in (settings.transitions or {}).items()})
+
+
 def _family(plan: Plan, outcome: str, contrasts, method: str, multiplicity: str, scope: str,
             registered: bool, cells: CellStats, values: np.ndarray,
             codes: np.ndarray) -> ContrastFamily | None:
@@ -114,7 +124,8 @@ def _family(plan: Plan, outcome: str, contrasts, method: str, multiplicity: str,
         return None
     tested = test_family(hypotheses, alternatives, method=method, multiplicity=multiplicity,
                          cells=cells, values=values, codes=codes, alpha=plan.alpha,
-                         order=sequence_order(plan, hypotheses) if scope != "exploratory" else None)
+                         order=sequence_order(plan, hypotheses) if scope != "exploratory" else None,
+                         graph=registered_graph(plan) if scope != "exploratory" else None)
     return ContrastFamily(outcome=outcome, scope=scope, multiplicity=multiplicity,
                           method=method, alpha=plan.alpha, registered=registered,
                           hypotheses=tested, joint=ONE_FACTOR_LAWS.get(multiplicity))

@@ -1,14 +1,18 @@
 """Figures of the appendix as deterministic SVG text (matplotlib, Agg/SVG, no pyplot).
 
-`make_figures` draws, per outcome: the distribution by group, the group means with their
-confidence intervals, a normal Q-Q plot of the residuals, residuals against fitted values
-and the reference F distribution with the observed F; and, when the outcome has planned
-contrasts, a forest plot of the registered family (``{outcome}-contrasts``). A figure
-whose statistic is missing is left out; the appendix then says why.
+`make_figures` draws, per outcome and for every design: the distribution by cell of the
+treatment factors, the cell means with their confidence intervals (designs without
+repeated measures), a normal Q-Q plot of the model's residuals, residuals against
+fitted values, and the reference F distribution of the first tested term with its
+observed F; interaction plots of two-factor marginal means, the profile plot of a
+repeated-measures outcome, the outcome against each covariate with the fitted parallel
+lines; and, when the outcome has planned contrasts, a forest plot of the registered
+family (``{outcome}-contrasts``). A figure whose statistic is missing is left out; the
+appendix then says why.
 
-For designs beyond one factor, `interaction_plot`, `profile_plot` (repeated measures) and
-`covariate_scatter` draw from plain sequences; they use the same palette, add a marker
-and a line style per level (colour is never the only cue) and carry a <title> and <desc>.
+Lines of means and the covariate scatter (`interaction_plot`, `profile_plot`,
+`covariate_scatter`) draw from plain sequences; they add a marker and a line style per
+level (colour is never the only cue) and carry a <title> and <desc>.
 
 Palette: eight colours of our own, chosen so that levels differ in lightness as well as
 hue. Red-green colour vision deficiencies collapse hue differences along the red-green
@@ -22,6 +26,7 @@ colour (its position in the registered level order) in every figure.
 from __future__ import annotations
 
 import io
+import itertools
 import re
 import textwrap
 from collections.abc import Callable, Mapping
@@ -36,6 +41,7 @@ from scipy import stats
 
 from appendix import numbers
 from appendix.data.dataset import Dataset, OutcomeData
+from appendix.models import Residuals
 from appendix.results import ContrastFamily, HypothesisResult, OutcomeResult, StudyResults
 from appendix.stats.sampling import subsample_indices
 
@@ -88,12 +94,17 @@ def level_colour(index: int) -> str:
 
 @dataclass(frozen=True)
 class _Panel:
-    """What one outcome's figures are drawn from."""
+    """What one outcome's figures are drawn from: its rows, each row's treatment cell
+    (index into `levels`, the run's cells), and the model's residuals."""
 
     outcome: OutcomeResult
     data: OutcomeData
     levels: tuple[str, ...]
-    means: tuple[float | None, ...]
+    cells: np.ndarray
+    residuals: Residuals | None
+    df_residual: float | None
+    alpha: float
+    tested: tuple
 
     @property
     def axis_label(self) -> str:
@@ -104,14 +115,11 @@ class _Panel:
         unit = self.outcome.unit
         return f"Residual ({unit})" if unit else "Residual"
 
-    def fitted(self) -> np.ndarray:
-        """Fitted value of each unit: its group mean (NaN where the mean is missing)."""
-        table = np.array([np.nan if m is None else m for m in self.means], dtype=float)
-        return table[self.data.codes] if len(self.data.codes) else np.empty(0)
 
-
-def make_figures(dataset: Dataset, results: StudyResults) -> dict[str, str]:
-    """SVG text of every figure, keyed by file stem ``f"{outcome}-{kind}"``.
+def make_figures(dataset: Dataset, results: StudyResults,
+                 residuals: Mapping[str, Residuals]) -> dict[str, str]:
+    """SVG text of every figure, keyed by file stem ``f"{outcome}-{kind}"``; `residuals`
+    holds each outcome's model residuals (`appendix.runner.Analysis`).
 
     Deterministic: two calls on the same inputs give identical text.
     """
@@ -120,9 +128,11 @@ def make_figures(dataset: Dataset, results: StudyResults) -> dict[str, str]:
     for outcome in results.outcomes:
         # without data only the data figures are skipped; the appendix says "not drawn"
         if outcome.name in drawable:
-            panel = _panel(dataset, outcome)
+            panel = _panel(dataset, results, outcome, residuals.get(outcome.name))
             for kind, draw in _DRAWERS.items():
                 _draw(figures, f"{outcome.name}-{kind}", draw, panel)
+            figures.update(_covariate_figures(dataset, results, outcome))
+        figures.update(_lines_of_means(results, outcome))
         family = next((f for f in outcome.contrasts if f.registered), None)
         if family is not None and family.hypotheses:
             _draw(figures, f"{outcome.name}-{CONTRASTS_KIND}",
@@ -139,14 +149,24 @@ def _draw(figures: dict[str, str], stem: str, draw: Callable, source) -> None:
             figures[stem] = _to_svg(figure, stem)
 
 
-def _panel(dataset: Dataset, outcome: OutcomeResult) -> _Panel:
-    by_level = {g.level: g.mean for g in outcome.descriptives.groups}
-    return _Panel(
-        outcome=outcome,
-        data=dataset.outcome(outcome.name),
-        levels=dataset.levels,
-        means=tuple(by_level.get(level) for level in dataset.levels),
-    )
+def treatment_cells(results: StudyResults, data: OutcomeData) -> np.ndarray:
+    """Each row's cell of the crossed treatment factors (first factor slowest), the
+    index into the run's cells; 0 for every row of a design without treatment factors."""
+    index = {f.name: j for j, f in enumerate(results.factors)}
+    cells = np.zeros(data.values.size, dtype=np.int64)
+    for factor in (f for f in results.factors if f.role == "treatment"):
+        cells = cells * len(factor.levels) + data.factors[index[factor.name]]
+    return cells
+
+
+def _panel(dataset: Dataset, results: StudyResults, outcome: OutcomeResult,
+           residuals: Residuals | None) -> _Panel:
+    data = dataset.outcome(outcome.name)
+    tested = next(iter(outcome.tables), None)
+    return _Panel(outcome=outcome, data=data, levels=dataset.levels,
+                  cells=treatment_cells(results, data), residuals=residuals,
+                  df_residual=tested.residual_df if tested is not None else None, alpha=results.alpha,
+                  tested=tested_row(results, outcome))
 
 
 def _new_figure(height: float = _HEIGHT_IN) -> tuple[Figure, object]:
@@ -161,7 +181,7 @@ def _scatter(ax, panel: _Panel, x, y, colour: str, **kwargs) -> None:
 
 
 def _distribution(panel: _Panel) -> Figure | None:
-    values, codes = panel.data.values, panel.data.codes
+    values, codes = panel.data.values, panel.cells
     if len(values) == 0:
         return None
     rng = np.random.default_rng(_JITTER_SEED)
@@ -185,8 +205,11 @@ def _distribution(panel: _Panel) -> Figure | None:
 
 
 def _means(panel: _Panel) -> Figure | None:
+    """Raw cell means with their CIs; a repeated-measures outcome has its profile plot."""
+    if panel.outcome.sphericity is not None:
+        return None
     groups = {g.level: g for g in panel.outcome.descriptives.groups}
-    if all(m is None for m in panel.means):
+    if all(groups.get(level) is None or groups[level].mean is None for level in panel.levels):
         return None
     figure, ax = _new_figure()
     for i, level in enumerate(panel.levels):
@@ -213,17 +236,28 @@ def _thin(n: int) -> np.ndarray:
 
 
 def _residuals(panel: _Panel) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Residuals, fitted values and level codes of the units with a fitted value (of the
+    """Residuals, fitted values and cells of the points with a fitted value (of the
     deterministic subsample when there are more than `PLOT_POINTS`)."""
-    fitted = panel.fitted()
-    keep = np.flatnonzero(np.isfinite(fitted))
+    series = panel.residuals
+    if series is None:
+        return np.empty(0), np.empty(0), np.empty(0, dtype=np.int64)
+    keep = np.flatnonzero(np.isfinite(series.fitted) & np.isfinite(series.residuals))
     keep = keep[_thin(keep.size)]
-    return panel.data.values[keep] - fitted[keep], fitted[keep], panel.data.codes[keep]
+    return series.residuals[keep], series.fitted[keep], series.cells[keep]
+
+
+def residual_sd(panel: _Panel) -> float | None:
+    """sqrt(sum e^2 / df) of the model's residuals (the points of the Q-Q plot)."""
+    series = panel.residuals
+    if series is None or not panel.df_residual or panel.df_residual <= 0:
+        return None
+    e = series.residuals[np.isfinite(series.residuals)]
+    return float(np.sqrt(np.sum(e * e) / panel.df_residual)) if e.size else None
 
 
 def _qq(panel: _Panel) -> Figure | None:
     residuals, _, codes = _residuals(panel)
-    sd = panel.outcome.table.residual_sd
+    sd = residual_sd(panel)
     if len(residuals) < 3 or not sd:
         return None
     order = np.argsort(residuals, kind="stable")
@@ -258,35 +292,49 @@ def _versus_fitted(panel: _Panel) -> Figure | None:
             _scatter(ax, panel, fitted[mine], residuals[mine], level_colour(i),
                      label=panel.levels[i], zorder=3)
     unit = panel.outcome.unit
-    ax.set_xlabel(f"Fitted value: group mean ({unit})" if unit else "Fitted value: group mean")
+    ax.set_xlabel(f"Fitted value ({unit})" if unit else "Fitted value")
     ax.set_ylabel(panel.residual_label())
     _legend_outside(ax)
     return figure
 
 
+def tested_row(results: StudyResults, outcome: OutcomeResult):
+    """(row, table) of the first tested term of an outcome's first variance table: its
+    first treatment factor's main effect (blocks and covariates adjust the model)."""
+    treatments = [f.name for f in results.factors if f.role == "treatment"]
+    for table in outcome.tables[:1]:
+        for row in table.rows:
+            if row.term == tuple(treatments[:1]) and row.f is not None:
+                return row, table
+    return None, None
+
+
 def _f_reference(panel: _Panel) -> Figure | None:
-    table = panel.outcome.table
-    if table.f is None or table.critical_f is None or table.df_between < 1 or table.df_within < 1:
+    row, table = panel.tested
+    if row is None or row.df < 1 or table.residual_df < 1:
         return None
-    dist = stats.f(table.df_between, table.df_within)
-    scale = max(float(dist.ppf(0.999)), table.critical_f * 1.3)
+    df1, df2 = row.df, table.residual_df
+    dist = stats.f(df1, df2)
+    critical = float(dist.isf(panel.alpha))
+    scale = max(float(dist.ppf(0.999)), critical * 1.3)
     # a huge F would squash the density into the left edge: past 3x the scale it is
     # marked by an arrow at the right edge instead of a line at its place
-    on_scale = table.f * 1.15 <= 3 * scale
-    right = max(scale, table.f * 1.15) if on_scale else scale
+    on_scale = row.f * 1.15 <= 3 * scale
+    right = max(scale, row.f * 1.15) if on_scale else scale
     x = np.linspace(right / 2000, right, 1200)
     y = dist.pdf(x)
     figure, ax = _new_figure(height=2.8)
-    ax.plot(x, y, color=PALETTE[0], label=f"F({table.df_between}, {table.df_within}) density")
-    tail = x >= table.critical_f
-    alpha = numbers.no_leading_zero(f"{table.alpha:g}")
+    ax.plot(x, y, color=PALETTE[0],
+            label=f"F({numbers.df_value(df1)}, {numbers.df_value(df2)}) density")
+    tail = x >= critical
+    alpha = numbers.no_leading_zero(f"{panel.alpha:g}")
     ax.fill_between(x[tail], y[tail], color=PALETTE[1], alpha=0.85, linewidth=0,
                     label=f"Rejection region, \u03b1 = {alpha}")
-    ax.axvline(table.critical_f, color=PALETTE[1], linewidth=1.0,
-               label=f"Critical F = {numbers.fixed(table.critical_f, 2)}")
-    observed = f"Observed F = {numbers.fixed(table.f, 2)}"
+    ax.axvline(critical, color=PALETTE[1], linewidth=1.0,
+               label=f"Critical F = {numbers.fixed(critical, 2)}")
+    observed = f"Observed F = {numbers.fixed(row.f, 2)}"
     if on_scale:
-        ax.axvline(table.f, color="#000000", linewidth=1.0, linestyle="--", label=observed)
+        ax.axvline(row.f, color="#000000", linewidth=1.0, linestyle="--", label=observed)
     else:
         ax.annotate(f"{observed} \u2192", xy=(0.99, 0.5), xycoords="axes fraction",
                     ha="right", va="center")
@@ -675,3 +723,82 @@ def _accessible_figure(stem: str, draw: Callable[[], Figure | None], title: str,
 
 def _xml_text(text: str) -> str:
     return text.replace("&", "&amp;").replace("<", "&lt;").replace(">", "&gt;")
+
+
+# --- figures of marginal means, occasions and covariates ----------------------------
+
+
+def _covariate_figures(dataset: Dataset, results: StudyResults, model: OutcomeResult) -> dict[str, str]:
+    """Outcome against each covariate by treatment cell (unit means over the occasions
+    of a repeated-measures design), with the common slope through each cell's adjusted
+    mean at the covariate mean, keyed ``f"{outcome}-covariate-{i}"``."""
+    treatments = [f for f in results.factors if f.role == "treatment"]
+    names = {f.name for f in treatments}
+    group = next((g for g in model.marginal_means if set(g.factors) == names), None)
+    if not model.covariate_slopes or group is None:
+        return {}
+    data = dataset.outcome(model.name)
+    cells = treatment_cells(results, data)
+    y, every = data.values, slice(None)
+    within = next((f for f in results.factors if f.role == "within"), None)
+    if within is not None:  # rows are unit by unit, one per occasion (complete units)
+        m = len(within.levels)
+        y, every = data.values.reshape(-1, m).mean(axis=1), slice(None, None, m)
+    labels = [c.level for c in results.unit_flow.read]
+    by_levels = {mm.levels: mm.estimate for mm in group.means}
+    names_in_order = [f.name for f in treatments]
+    intercepts = [by_levels.get(tuple(cell[names_in_order.index(f)] for f in group.factors))
+                  for cell in itertools.product(*(f.levels for f in treatments))]
+    out = {}
+    y_label = f"{model.label} ({model.unit})" if model.unit else model.label
+    for i, slope in enumerate(model.covariate_slopes, 1):
+        if slope.estimate is None:
+            continue
+        stem = f"{model.name}-covariate-{i}"
+        svg = covariate_scatter(data.covariates[i - 1][every], y, cells[every], labels, slope.estimate,
+                                intercepts, x_label=slope.label, y_label=y_label, centre=slope.mean,
+                                stem=stem)
+        if svg is not None:
+            out[stem] = svg
+    return out
+
+
+def _lines_of_means(results: StudyResults, model: OutcomeResult) -> dict[str, str]:
+    """Interaction plots of every two-factor table of marginal means, and the profile
+    plot of a repeated-measures outcome, keyed ``f"{outcome}-interaction-{i}"`` (i counts
+    the outcome's marginal-means tables from 1) and ``f"{outcome}-profile"``."""
+    labels = {f.name: f.label for f in results.factors}
+    levels = {f.name: f.levels for f in results.factors}
+    y_label = f"{model.label} ({model.unit})" if model.unit else model.label
+    out: dict[str, str] = {}
+    within = next((f for f in results.factors if f.role == "within"), None)
+    for i, group in enumerate(model.marginal_means, 1):
+        if len(group.factors) != 2 or (within is not None and within.name in group.factors):
+            continue  # the profile plot shows the within factor
+        a, b = group.factors
+        by_levels = {m.levels: m for m in group.means}
+
+        def grid(field):
+            return [[getattr(by_levels.get((x, t)), field, None) for x in levels[a]] for t in levels[b]]
+
+        stem = f"{model.name}-interaction-{i}"
+        svg = interaction_plot(levels[a], levels[b], grid("estimate"), grid("ci_low"), grid("ci_high"),
+                               x_label=labels[a], trace_label=labels[b], y_label=y_label, stem=stem)
+        if svg is not None:
+            out[stem] = svg
+    if model.sphericity is not None and within is not None:
+        cells = [c.level for c in results.unit_flow.read]
+        m = len(within.levels)
+        groups = model.descriptives.groups
+
+        def rows(field):
+            return [[getattr(groups[g * m + w], field) for w in range(m)] for g in range(len(cells))]
+
+        stem = f"{model.name}-profile"
+        svg = profile_plot(within.levels, cells, rows("mean"), rows("ci_low"), rows("ci_high"),
+                           x_label=within.label, y_label=y_label,
+                           group_label=" \u00d7 ".join(f.label for f in results.factors
+                                                        if f.role == "treatment"), stem=stem)
+        if svg is not None:
+            out[stem] = svg
+    return out

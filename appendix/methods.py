@@ -90,6 +90,13 @@ REFERENCES: Mapping[str, Reference] = MappingProxyType({r.key: r for r in (
              "289\u2013300", "10.1111/j.2517-6161.1995.tb02031.x"),
     _book("blom1958", "Blom, G.", 1958, "Statistical estimates and transformed beta-variables",
           "Wiley"),
+    _article("bretz2009", "Bretz, F., Maurer, W., Brannath, W., & Posch, M.", 2009, "A graphical "
+             "approach to sequentially rejective multiple test procedures", "Statistics in "
+             "Medicine", "28", "4", "586\u2013604", "10.1002/sim.3495"),
+    _article("bretz2011", "Bretz, F., Posch, M., Glimm, E., Klinglmueller, F., Maurer, W., & "
+             "Rohmeyer, K.", 2011, "Graphical approaches for multiple comparison procedures using "
+             "weighted Bonferroni, Simes, or parametric tests", "Biometrical Journal", "53", "6",
+             "894\u2013913", "10.1002/bimj.201000239"),
     _article("brown1974", "Brown, M. B., & Forsythe, A. B.", 1974, "Robust tests for the "
              "equality of variances", "Journal of the American Statistical Association", "69",
              "346", "364\u2013367", "10.1080/01621459.1974.10482955"),
@@ -255,10 +262,11 @@ METHODS: Mapping[str, Method] = MappingProxyType({m.key: m for m in (
            "independent units, normally distributed errors and equal group variances.",
            ("fisher1925",)),
     Method("model-descriptives", "Descriptive statistics by cell",
-           "Per cell of the crossed treatment factors: the number of units analysed and "
-           "missing, the mean with its standard deviation (n \u2212 1 divisor) and a "
-           "confidence interval from Student's t on n \u2212 1 degrees of freedom, and the "
-           "median (Hyndman & Fan, 1996, definition 7), before any adjustment by the model.",
+           "Per cell of the crossed treatment factors (per cell and occasion with repeated "
+           "measures): the number of units analysed and missing, the mean with its standard "
+           "deviation (n \u2212 1 divisor), standard error and a confidence interval from "
+           "Student's t on n \u2212 1 degrees of freedom, and the median, quartiles, minimum and "
+           "maximum (Hyndman & Fan, 1996, definition 7), before any adjustment by the model.",
            ("hyndman1996",)),
     Method("linear-model", "Linear model fitted from cell statistics",
            "The registered model (treatment factors, blocks, the listed interactions and "
@@ -279,9 +287,13 @@ METHODS: Mapping[str, Method] = MappingProxyType({m.key: m for m in (
            "weights over the levels of the other factors, covariates held at their overall "
            "mean (Searle, Speed & Milliken, 1980). Their standard errors and those of the "
            "planned contrasts among them come from the covariance matrix of the fitted "
-           "coefficients; t on the residual degrees of freedom. Simple effects compare a "
-           "factor's levels within one level of another factor.",
+           "coefficients; t on the residual degrees of freedom.",
            ("searle1980",)),
+    Method("simple-effects", "Simple effects",
+           "A simple effect compares a factor's levels within one level of another factor, "
+           "on the same model's marginal means; a family of simple effects holds every level "
+           "of that factor together, so its multiplicity control covers all of them.",
+           ()),
     Method("slopes", "Homogeneity of regression slopes",
            "For each covariate the interaction of the covariate with the cells of the "
            "treatment factors is added to the model and tested with an F test; adjusted means "
@@ -319,9 +331,11 @@ METHODS: Mapping[str, Method] = MappingProxyType({m.key: m for m in (
            "freedom.",
            ("kruskal1952",)),
     Method("effect_sizes", "Effect sizes with confidence intervals",
-           "Eta squared (the share of the total sum of squares between groups), omega squared "
-           "(a less biased estimate of the population share; Hays, 1963; Olejnik & Algina, "
-           "2003) and Cohen's f (Cohen, 1988). Confidence intervals invert the noncentral F "
+           "For each tested term: partial eta squared (the term's sum of squares over itself "
+           "plus the error sum of squares; with one factor, eta squared, the share of the total "
+           "sum of squares between groups), partial omega squared (a less biased estimate of "
+           "the population share; Hays, 1963; Olejnik & Algina, 2003) and Cohen's f = "
+           "\u221a(\u03b7\u00b2 / (1 \u2212 \u03b7\u00b2)) (Cohen, 1988). Confidence intervals invert the noncentral F "
            "distribution: the limits of the noncentrality parameter are found for which the "
            "observed F is at the required quantiles, and are transformed to each measure "
            "(Steiger, 2004).",
@@ -335,19 +349,23 @@ METHODS: Mapping[str, Method] = MappingProxyType({m.key: m for m in (
     Method("shapiro-model", "Shapiro\u2013Wilk test of normality",
            "The Shapiro\u2013Wilk W test (Shapiro & Wilk, 1965) is applied to the residuals of "
            "the fitted model (each value minus its fitted value), with coefficients and p value "
-           "from Royston's (1995) algorithm.",
-           ("shapiro1965", "royston1995")),
+           "from Royston's (1995) algorithm. The normal Q-Q plot uses Blom's (1958) plotting "
+           "positions.",
+           ("shapiro1965", "royston1995", "blom1958")),
     Method("shapiro-strata", "Shapiro\u2013Wilk test of normality in each stratum",
            "The Shapiro\u2013Wilk W test (Shapiro & Wilk, 1965; Royston's 1995 algorithm) is "
            "applied to the residuals of each stratum whose tests rely on them: between units, "
            "the residuals of the between-units model fitted to each unit's mean; within units, "
            "each observation minus its unit's mean and the fitted within-unit effects (the "
-           "residuals of the within-units error term).",
-           ("shapiro1965", "royston1995")),
+           "residuals of the within-units error term). The normal Q-Q plot shows the residuals "
+           "of the unit means, with Blom's (1958) plotting positions.",
+           ("shapiro1965", "royston1995", "blom1958")),
     Method("brown-forsythe", "Brown\u2013Forsythe test of equal variances",
            "The Brown\u2013Forsythe test (Brown & Forsythe, 1974) is the one-way analysis of "
-           "variance of the absolute deviations of each value from its group median; it is "
-           "robust to non-normal data.",
+           "variance of the absolute deviations of each value from its group median (in a design "
+           "beyond one factor, of each residual of the fitted model from its cell's median, so "
+           "that blocks and covariates do not pass for unequal spread); it is robust to "
+           "non-normal data.",
            ("brown1974",)),
     Method("bartlett", "Bartlett's test of equal variances",
            "Bartlett's (1937) test compares the pooled and the group variances on the log "
@@ -426,8 +444,8 @@ METHODS: Mapping[str, Method] = MappingProxyType({m.key: m for m in (
            "(Dunnett, 1955); adjusted p values and intervals hold simultaneously.",
            ("dunnett1955",)),
     Method("tukey-joint", "Tukey's all-pairs comparisons on the joint t distribution",
-           "The family's pairwise differences (at every level of another factor for a simple "
-           "effect, all levels together) are tested single-step on the multivariate t "
+           "The family's pairwise differences are tested together, single-step, on the "
+           "multivariate t "
            "distribution of their t statistics, with the correlation matrix of the model's "
            "estimates (Hothorn, Bretz & Westfall, 2008); with equal group sizes and no covariate "
            "this is Tukey's (1953) studentized-range test. The probabilities are integrated "
@@ -436,8 +454,8 @@ METHODS: Mapping[str, Method] = MappingProxyType({m.key: m for m in (
            "simultaneously for the whole family.",
            ("tukey1953", "hothorn2008", "genz2002")),
     Method("dunnett-joint", "Dunnett's many-to-one comparisons on the joint t distribution",
-           "The family's comparisons with the control (at every level of another factor for a "
-           "simple effect, all levels together) are tested single-step on the multivariate t "
+           "The family's comparisons with the control are tested together, single-step, on the "
+           "multivariate t "
            "distribution of their t statistics, with the correlation matrix of the model's "
            "estimates (Dunnett, 1955; Hothorn, Bretz & Westfall, 2008), integrated numerically "
            "by randomized quasi-Monte Carlo (Genz & Bretz, 2002) with the bound on the "
@@ -489,6 +507,15 @@ METHODS: Mapping[str, Method] = MappingProxyType({m.key: m for m in (
            "Westfall & Krishen, 2001). The adjusted p of a hypothesis is the largest raw p up "
            "to it; intervals are unadjusted.",
            ("maurer1995", "westfall2001")),
+    Method("graphical", "Graphical multiple testing",
+           "The registered hypotheses were tested by the graphical sequentially rejective "
+           "procedure of Bretz et al. (2009): each starts at its registered "
+           "share of \u03b1, and when one is rejected its share is passed on to the others along "
+           "the registered transition weights, the graph being updated as the paper prescribes. "
+           "It is the shortcut of a closed test of weighted Bonferroni tests and controls the "
+           "family-wise error rate under any dependence. Adjusted p values are those of Bretz "
+           "et al. (2011); intervals are unadjusted.",
+           ("bretz2009", "bretz2011")),
     Method("unadjusted", "No multiplicity adjustment",
            "Families marked with no adjustment report raw p values and unadjusted intervals; "
            "with several hypotheses the chance of at least one false rejection exceeds "
@@ -605,6 +632,9 @@ ADJUSTMENTS: Mapping[str, Adjustment] = MappingProxyType({a.key: a for a in (
                "Benjamini\u2013Hochberg, controlling the false discovery rate (not the "
                "family-wise error rate)"),
     Adjustment("fixed-sequence", "fixed-sequence", "fixed-sequence testing in the registered order"),
+    Adjustment("graphical", "graphical procedure",
+               "the graphical procedure of Bretz et al. (2009) with the registered weights and "
+               "transitions"),
     Adjustment("unadjusted", "unadjusted", "no adjustment"),
 )})
 
@@ -653,46 +683,39 @@ _CONTRAST_ORDER = (
     "contrasts-classical", "contrasts-welch", "contrasts-rank", "custom", "trend", "helmert", "tukey",
     "games-howell", "nemenyi", "dunnett", "dunnett-welch", "dunnett-rank", "tukey-joint",
     "dunnett-joint", "bonferroni", "sidak", "holm", "hochberg", "benjamini-hochberg",
-    "fixed-sequence", "unadjusted", "hedges", "one-sided")
-
-
-def _model_methods(results: Mapping[str, Any]) -> tuple[Method, ...]:
-    """The methods of a run of a design beyond one factor."""
-    models = list(results["models"])
-    chosen = ["model-descriptives"]
-    chosen += ["linear-model"] if _ran(models, lambda m: m["marginal_means"] or not m["sphericity"]) else []
-    chosen += ["marginal-means"] if _ran(models, lambda m: m["marginal_means"]) else []
-    chosen += ["slopes"] if _ran(models, lambda m: any(c["by"] for c in m["slopes"])) else []
-    if _ran(models, lambda m: m["sphericity"]):
-        # one within factor per plan: a lower bound 1/d of 1 means two levels, no correction
-        two_levels = all(m["sphericity"]["lower_bound"] >= 1 for m in models if m["sphericity"])
-        chosen.append("repeated-two-levels" if two_levels else "repeated")
-    if _ran(models, lambda m: m["diagnostics"]["normality"]):
-        strata = _ran(models, lambda m: m["diagnostics"].get("within_normality"))
-        chosen += ["shapiro-strata" if strata else "shapiro-model"]
-    chosen += ["brown-forsythe"] if _ran(models, lambda m: m["diagnostics"]["equal_variance"]) else []
-    arithmetic = {m["arithmetic"] for m in models}
-    chosen += [m for m in ("exact-decimal", "float64") if m in arithmetic]
-    families = [f for m in models for f in m["contrasts"] if f["hypotheses"]]
-    used = {multiplicity_method(f) for f in families} | {h["kind"] for f in families for h in f["hypotheses"]}
-    chosen += [key for key in _CONTRAST_ORDER if key in used]
-    chosen += ["reporting"]
-    return tuple(METHODS[key] for key in chosen)
+    "fixed-sequence", "graphical", "unadjusted", "hedges", "one-sided")
 
 
 def methods_used(results: Mapping[str, Any]) -> tuple[Method, ...]:
-    """The methods that `results` (parsed results.json) show were run, in appendix order."""
-    if results.get("models"):
-        return _model_methods(results)
+    """The methods that `results` (parsed results.json) show were run, in appendix order:
+    each block is chosen by what some outcome's results hold, whatever its design."""
     outcomes = list(results["outcomes"])
-    variance_methods = {t["method"] for o in outcomes for t in o["diagnostics"]["equal_variance"]}
-    chosen = ["descriptives", "anova"]
-    chosen += ["welch"] if _ran(outcomes, lambda o: o["welch"]["f"] is not None) else []
-    chosen += ["kruskal"] if _ran(outcomes, lambda o: o["kruskal"]["h"] is not None) else []
-    chosen += ["effect_sizes"] if _ran(outcomes, lambda o: o["effect_sizes"]) else []
-    chosen += ["shapiro"] if _ran(outcomes, lambda o: o["diagnostics"]["normality"]) else []
+    one_factor = [o for o in outcomes if o.get("robust")]
+    beyond = [o for o in outcomes if not o.get("robust")]
+    diagnostics = [o["diagnostics"] for o in outcomes]
+    variance_methods = {t["method"] for d in diagnostics for t in d["equal_variance"]}
+    chosen = ["descriptives"] if one_factor else []
+    chosen += ["model-descriptives"] if beyond else []
+    chosen += ["anova"] if one_factor else []
+    chosen += ["linear-model"] if _ran(beyond, lambda o: o["marginal_means"] or not o["sphericity"]) else []
+    chosen += ["marginal-means"] if _ran(beyond, lambda o: o["marginal_means"]) else []
+    chosen += ["simple-effects"] if any(h.get("within") for f in all_families(results)
+                                        for h in f["hypotheses"]) else []
+    chosen += ["slopes"] if _ran(outcomes, lambda o: any(c["by"] for c in o["slopes"])) else []
+    if _ran(outcomes, lambda o: o["sphericity"]):
+        # one within factor per plan: a lower bound 1/d of 1 means two levels, no correction
+        two_levels = all(o["sphericity"]["lower_bound"] >= 1 for o in outcomes if o["sphericity"])
+        chosen.append("repeated-two-levels" if two_levels else "repeated")
+    chosen += ["welch"] if _ran(one_factor, lambda o: o["robust"]["welch"]["f"] is not None) else []
+    chosen += ["kruskal"] if _ran(one_factor, lambda o: o["robust"]["kruskal"]["h"] is not None) else []
+    chosen += ["effect_sizes"] if _ran(outcomes, lambda o: any(
+        r["partial_eta_squared"] is not None for t in o["tables"] for r in t["rows"])) else []
+    chosen += ["shapiro"] if _ran(one_factor, lambda o: o["diagnostics"]["normality"]) else []
+    if _ran(beyond, lambda o: o["diagnostics"]["normality"]):
+        strata = _ran(beyond, lambda o: o["diagnostics"].get("within_normality"))
+        chosen.append("shapiro-strata" if strata else "shapiro-model")
     chosen += [m for m in ("brown-forsythe", "bartlett") if m in variance_methods]
-    chosen += ["outliers"] if _ran(outcomes, lambda o: o["diagnostics"]["outliers"]) else []
+    chosen += ["outliers"] if any(d["outliers"] for d in diagnostics) else []
     arithmetic = {o.get("arithmetic", "float64") for o in outcomes}
     chosen += [m for m in ("exact-decimal", "float64") if m in arithmetic]
     chosen += ["subsample"] if _ran(outcomes, lambda o: o.get("sample_of")) else []

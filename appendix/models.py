@@ -1,49 +1,61 @@
-"""Plan + dataset -> results for designs beyond one factor: crossed treatment factors,
-blocks, covariates (fitted by `appendix.stats.linear` from cell statistics) and a
-within-unit factor (`appendix.stats.repeated`, the univariate approach with sphericity
-corrections). Pure, like `appendix.runner`, which calls it.
+"""Plan + dataset -> results of one outcome: the one analysis engine, for every design.
+
+A one-factor study is the one-term case of the design engine: crossed treatment factors,
+blocks and covariates are fitted by `appendix.stats.linear` from cell statistics, and a
+within-unit factor by `appendix.stats.split_plot` (the univariate approach with
+sphericity corrections). Pure, like `appendix.runner`, which calls it.
 
 What is computed per outcome:
 - between units: the variance table of the registered model (terms in `Plan.model_terms`
-  order, the registered sums-of-squares type), estimated marginal means of every
-  treatment factor and registered interaction of treatment factors, the
-  homogeneity-of-slopes check of every covariate, residual diagnostics;
+  order, the registered sums-of-squares type), with partial eta and omega squared and
+  Cohen's f for every term; estimated marginal means of every treatment factor and
+  registered interaction of treatment factors; the homogeneity-of-slopes check of every
+  covariate; residual diagnostics (normality, equal variances, the outlier screen on the
+  model's externally studentized residuals);
 - with a within factor: the repeated-measures table over complete units, with the
   between grouping the cells of the crossed treatment factors, Mauchly's test and the
   Greenhouse-Geisser and Huynh-Feldt corrections, and within-level means;
-- registered contrasts on marginal means (simple effects with `by`), under the
-  registered multiplicity control.
+- where they are defined (`Plan.robust_absent` is None: one treatment factor, nothing
+  else): Welch's and the Kruskal-Wallis tests, the registered contingencies that may put
+  one in force, and contrasts under every analysis the plan allows (Games-Howell, Welch
+  t); elsewhere registered contrasts are taken on the marginal means (simple effects
+  with `by`), under the registered multiplicity control.
 """
 
 from __future__ import annotations
 
 import math
-from dataclasses import replace
+from dataclasses import dataclass, replace
 
 import numpy as np
 
-from appendix import conclude
+from appendix import conclude, families as one_factor
 from appendix.data.dataset import OutcomeData
-from appendix.families import sequence_order
+from appendix.families import registered_graph, sequence_order
 from appendix.plan.model import Outcome, Plan
 from appendix.results import (
     ContrastFamily,
     CovariateSlope,
+    Descriptives,
+    Deviation,
     Diagnostics,
     HypothesisResult,
     MarginalMean,
     MarginalMeans,
-    ModelOutcome,
     ModelRow,
     ModelTable,
+    OutcomeResult,
+    RobustTests,
     SlopesCheck,
     StatWarning,
 )
-from appendix.stats.descriptives import describe
-from appendix.stats.diagnostics import brown_forsythe, shapiro_wilk_large
+from appendix.stats.descriptives import describe, mean_interval
+from appendix.stats.diagnostics import bartlett, brown_forsythe, shapiro_wilk_large, studentized_screen
 from appendix.stats.hypotheses import hypotheses_for
 from appendix.stats.multiplicity import apply_multiplicity
 from appendix.stats.simultaneous import joint_results
+
+DESCRIPTIVE_CONFIDENCE = 0.95
 
 CROSS = " \u00d7 "
 
@@ -77,17 +89,44 @@ def design_words(plan: Plan) -> str:
     return ", ".join(parts)
 
 
-def analyse_model_outcome(plan: Plan, outcome: Outcome, data: OutcomeData, missing_by_cell,
-                          cell_labels) -> tuple[ModelOutcome, dict[str, ContrastFamily]]:
-    """Every registered analysis of one outcome of a design beyond one factor, and its
-    exploratory families by id (the caller reports them apart; hypothesis sentences are
-    added once any primary-family adjustment is done)."""
+@dataclass(frozen=True)
+class Residuals:
+    """The fitted model's residuals of one outcome, for the residual figures (not written to
+    results.json): per analysed unit (a unit's mean over the occasions in a split-plot
+    design) its fitted value, residual and treatment cell (index into the run's cells).
+    `of` says what a point is: ``units`` or ``unit means``."""
+
+    outcome: str
+    fitted: np.ndarray
+    residuals: np.ndarray
+    cells: np.ndarray
+    of: str = "units"
+
+
+def effect_size_confidence(alpha: float) -> float:
+    """1 - 2 alpha: the CI for a variance-explained effect that excludes zero exactly when
+    the F test rejects at alpha (Steiger 2004, Psychological Methods 9:164-182)."""
+    return round(1.0 - 2.0 * alpha, 10)
+
+
+def analyse_outcome(plan: Plan, outcome: Outcome, data: OutcomeData, missing_by_cell, cell_labels
+                    ) -> tuple[OutcomeResult, dict[str, ContrastFamily], tuple[Deviation, ...], Residuals]:
+    """Every registered analysis of one outcome; its exploratory families by id and the
+    deviations it caused (a registered contingency applied), which the caller reports
+    apart, and the model's residuals for the figures. Hypothesis sentences are added once
+    any primary-family adjustment is done."""
     if plan.within is not None:
         return _repeated_outcome(plan, outcome, data, missing_by_cell, cell_labels)
     return _between_outcome(plan, outcome, data, missing_by_cell, cell_labels)
 
 
 # --- between-unit designs ---------------------------------------------------------------
+
+
+def _read_only(array: np.ndarray) -> np.ndarray:
+    array = np.asarray(array, dtype=np.float64)
+    array.flags.writeable = False
+    return array
 
 
 def _between_codes(plan: Plan, data: OutcomeData) -> list[np.ndarray]:
@@ -103,35 +142,108 @@ def _treatment_cells(plan: Plan, data: OutcomeData) -> np.ndarray:
     return cell
 
 
-def _between_outcome(plan, outcome, data, missing_by_cell, cell_labels) -> ModelOutcome:
-    from appendix.stats.design import Grid, design_cells
-    from appendix.stats.linear import fit_linear, fitted_values
+def _between_outcome(plan, outcome, data, missing_by_cell, cell_labels):
+    from appendix.stats.cells import cell_stats, cells_from_summary
+    from appendix.stats.design import Grid, design_cells, design_cells_from_stats
+    from appendix.stats.linear import fit_linear, fitted_values, leverages
 
     grid = Grid(names=tuple(f.name for f in plan.between), levels=tuple(f.levels for f in plan.between))
     codes = _between_codes(plan, data)
     covariates = {c.name: data.covariates[j] for j, c in enumerate(plan.design.covariates)}
-    cells = design_cells(grid, codes, data.values, covariates or None, decimals=data.decimals)
-    fit = fit_linear(cells, plan.model_terms, plan.design.sums_of_squares or 2, plan.alpha)
+    ss_type = plan.design.sums_of_squares or 2
+    treatment = _treatment_cells(plan, data)
+    if data.summary is not None:
+        # Out of core (one factor): every test on cell statistics uses all units; row-level
+        # diagnostics use the subsample, fitted on its own.
+        whole = cells_from_summary(data.summary, cell_labels)
+        cells = design_cells_from_stats(grid, whole)
+        fit = fit_linear(cells, plan.model_terms, ss_type, plan.alpha)
+        rows_fit = fit_linear(design_cells(grid, codes, data.values), plan.model_terms, ss_type, plan.alpha)
+    else:
+        cells = design_cells(grid, codes, data.values, covariates or None, decimals=data.decimals)
+        fit = rows_fit = fit_linear(cells, plan.model_terms, ss_type, plan.alpha)
     table = _model_table(plan, fit)
-    slopes = _slopes_checks(plan, cells, fit)
+    slopes = _slopes_checks(plan, cells, fit) if covariates else ()
     means = _marginal(plan, fit)
-    residuals = data.values - fitted_values(fit, grid.cell_codes(codes), covariates or None)
-    diagnostics = _diagnostics(plan, data, residuals, cell_labels)
-    families, exploratory = _contrast_families(plan, outcome, fit=fit)
-    descriptives = describe(data.values, _treatment_cells(plan, data), cell_labels,
-                            missing_by_cell, 0.95)
-    return ModelOutcome(
-        name=outcome.name, label=outcome.label, unit=outcome.unit, role=outcome.role,
-        design=design_words(plan), n_units=int(data.values.size),
-        n_observations=int(data.values.size), arithmetic=cells.arithmetic,
-        descriptives=descriptives, tables=(table,), marginal_means=means, slopes=slopes,
-        sphericity=None, diagnostics=diagnostics,
-        conclusions=tuple(conclude.with_caveat(
+    cell_codes = grid.cell_codes(codes)
+    residuals = data.values - fitted_values(rows_fit, cell_codes, covariates or None)
+    screen = (residuals, leverages(rows_fit, cell_codes, covariates or None), rows_fit)
+    diagnostics = _diagnostics(plan, data.values, treatment, cell_labels, data.units, screen,
+                               decimals=data.decimals)
+    descriptives = describe(data.values, treatment, cell_labels, missing_by_cell, DESCRIPTIVE_CONFIDENCE)
+    robust, selected, contingencies, deviations = None, "classical", (), ()
+    if plan.robust_absent is None:  # one treatment factor, nothing else
+        from appendix.stats.oneway import welch_anova
+        from appendix.stats.rank import kruskal_wallis
+
+        k = len(cell_labels)
+        one = whole if data.summary is not None else cell_stats(data.values, treatment, k, cell_labels,
+                                                               decimals=data.decimals)
+        if data.summary is not None:
+            descriptives = _full_data_moments(descriptives, one, data)
+        table = _one_factor_notes(table, one, plan.alpha)
+        robust = RobustTests(welch=welch_anova(one),
+                             kruskal=kruskal_wallis(data.values, treatment, k, cell_labels))
+        selected, contingencies = one_factor.select_method(plan, diagnostics)
+        families = one_factor.registered_families(plan, outcome.name, selected, one, data.values, treatment)
+        exploratory = one_factor.exploratory_families(plan, outcome.name, selected, one, data.values,
+                                                      treatment)
+        deviations = one_factor.contingency_deviations(outcome.name, contingencies, selected)
+        conclusions = (conclude.conclusion(plan, outcome, table.rows[0], table.residual_df,
+                                           method=selected, robust=robust),)
+    else:
+        families, exploratory = _contrast_families(plan, outcome, fit=fit)
+        conclusions = tuple(conclude.with_caveat(
             conclude.term_conclusion(plan, outcome, row, table.ss_type, table.residual_df),
             conclude.slopes_caveat(slopes, plan.alpha))
-            for row in table.rows if _concluded(plan, row.term)),
+            for row in table.rows if _concluded(plan, row.term))
+    n = data.sample_of if data.sample_of is not None else int(data.values.size)
+    return OutcomeResult(
+        name=outcome.name, label=outcome.label, unit=outcome.unit, role=outcome.role,
+        design=design_words(plan), n_units=n, n_observations=n,
+        arithmetic=cells.arithmetic,
+        descriptives=descriptives, tables=(table,), marginal_means=means, slopes=slopes,
+        sphericity=None, diagnostics=diagnostics, conclusions=conclusions,
+        robust=robust, robust_absent=plan.robust_absent, selected_method=selected,
+        contingencies=contingencies, sample_of=data.sample_of,
+        sample_size=int(data.values.size) if data.sample_of is not None else None,
         contrasts=families, covariate_slopes=_covariate_slopes(plan, fit),
-        warnings=tuple(fit.warnings)), exploratory
+        warnings=tuple(fit.warnings)), exploratory, deviations, Residuals(
+            outcome.name, _read_only(data.values - residuals), _read_only(residuals), treatment)
+
+
+def _one_factor_notes(table: ModelTable, cells, alpha: float) -> ModelTable:
+    """A one-factor table with the one-way layout's own notes (empty levels, single
+    groups, no within-group df), which say in the design's words why a test is missing;
+    the factor's row carries them when its F is undefined."""
+    from appendix.stats.oneway import variance_table
+
+    notes = tuple(variance_table(cells, alpha).warnings)
+    row = table.rows[0]
+    return replace(table, warnings=notes,
+                   rows=(replace(row, warnings=notes if row.f is None else ()),))
+
+
+def _full_data_moments(descriptives: Descriptives, cells, data: OutcomeData) -> Descriptives:
+    """Descriptives of an out-of-core outcome: n, mean, SD, SE and CI from every unit;
+    median and quartiles from the subsample; minimum and maximum not available."""
+    import dataclasses
+
+    groups = []
+    for i, group in enumerate(descriptives.groups):
+        n, mean = int(cells.n[i]), float(cells.mean[i])
+        sd, se, low, high = mean_interval(n, mean, float(cells.ssd[i]),
+                                          descriptives.confidence_level)
+        groups.append(dataclasses.replace(
+            group, n=n, mean=mean if n else None, sd=sd, se=se, ci_low=low, ci_high=high,
+            minimum=None, maximum=None))
+    note = StatWarning(
+        "subsample-quantiles",
+        f"Medians and quartiles come from a deterministic subsample of {data.values.size} "
+        f"of the {data.sample_of} analysed units; minimum and maximum are not computed for "
+        "a source aggregated out of core.")
+    return dataclasses.replace(descriptives, groups=tuple(groups),
+                               warnings=(*descriptives.warnings, note))
 
 
 def _concluded(plan: Plan, term: tuple[str, ...]) -> bool:
@@ -142,16 +254,29 @@ def _concluded(plan: Plan, term: tuple[str, ...]) -> bool:
 
 
 def _model_table(plan: Plan, fit, scale: float = 1.0, stratum: str = "units") -> ModelTable:
-    """The variance table of a fit; `scale` multiplies sums of squares and mean squares
-    (m for a fit to the means of m repeated observations: the observation scale)."""
+    """The variance table of a fit, its terms labelled as the plan names them."""
+    return model_table(fit, lambda term: _label(plan, term), scale, stratum, alpha=plan.alpha,
+                       ss_type_stated=plan.design.sums_of_squares is not None)
+
+
+def model_table(fit, label, scale: float = 1.0, stratum: str = "units", *, alpha: float,
+                ss_type_stated: bool = True) -> ModelTable:
+    """The variance table the appendix reports for a fit (`appendix.stats.linear.ModelFit`),
+    each term labelled by `label(term)`; `scale` multiplies sums of squares and mean squares
+    (m for a fit to the means of m repeated observations: the observation scale); each
+    row's critical F is at `alpha`; `ss_type_stated` says whether the plan states the type."""
     def times(value):
         return None if value is None else value * scale
 
-    rows = tuple(ModelRow(term=r.term, label=_label(plan, r.term), kind=r.kind, df=r.df,
+    rows = tuple(ModelRow(term=r.term, label=label(r.term), kind=r.kind, df=r.df,
                           sum_of_squares=times(r.ss), mean_square=times(r.ms), f=r.f, p=r.p,
                           partial_eta_squared=r.partial_eta_squared, partial_eta_ci=r.partial_eta_ci,
                           partial_omega_squared=r.partial_omega_squared,
                           partial_omega_ci=r.partial_omega_ci, confidence_level=r.confidence_level,
+                          cohens_f=_cohens_f(r.partial_eta_squared),
+                          cohens_f_ci=(tuple(_cohens_f(v) for v in r.partial_eta_ci)
+                                       if r.partial_eta_ci is not None else None),
+                          critical_f=_critical_f(alpha, r.df, fit.residual_df),
                           full_df=r.full_df, effect_ci_df=r.effect_ci_df, warnings=tuple(r.warnings))
                  for r in fit.terms)
     return ModelTable(ss_type=fit.ss_type, rows=rows, residual_df=fit.residual_df,
@@ -159,7 +284,26 @@ def _model_table(plan: Plan, fit, scale: float = 1.0, stratum: str = "units") ->
                       total_df=fit.total_df, total_ss=times(fit.total_ss), r_squared=fit.r_squared,
                       estimability=fit.estimability,
                       empty_cells=tuple(CROSS.join(c) for c in fit.empty_cells),
+                      ss_type_stated=ss_type_stated,
+                      residual_sd=(math.sqrt(fit.residual_ms * scale) if fit.residual_ms is not None
+                                   and fit.residual_ms >= 0 else None),
                       stratum=stratum, warnings=tuple(fit.warnings))
+
+
+def _critical_f(alpha: float, df1: float, df2: float) -> float | None:
+    """The upper-alpha quantile of F(df1, df2), the test's rejection bound."""
+    from scipy import stats
+
+    return float(stats.f.isf(alpha, df1, df2)) if df1 > 0 and df2 > 0 else None
+
+
+def _cohens_f(share: float | None) -> float | None:
+    """Cohen's f = sqrt(eta^2 / (1 - eta^2)) of a (partial) eta squared (Cohen 1988,
+    *Statistical Power Analysis*, 2nd ed., ch. 8); it maps the share's interval ends to
+    sqrt(lambda / N), the noncentrality interval's own scale (Steiger 2004)."""
+    if share is None:
+        return None
+    return math.sqrt(share / (1.0 - share)) if share < 1.0 else math.inf
 
 
 def _slopes_checks(plan: Plan, cells, fit) -> tuple[SlopesCheck, ...]:
@@ -232,13 +376,21 @@ def _marginal(plan: Plan, fit, over: str | None = None) -> tuple[MarginalMeans, 
     return tuple(out)
 
 
-def _diagnostics(plan: Plan, data: OutcomeData | None, residuals: np.ndarray, cell_labels,
-                 within_residuals: np.ndarray | None = None) -> Diagnostics:
-    """Shapiro-Wilk of the residuals each registered test relies on: the model's, or in a
-    split-plot design those of the unit means (between units) and of the within-units
-    error (within units); Brown-Forsythe across the treatment cells (not for repeated
-    observations)."""
+def _diagnostics(plan: Plan, values: np.ndarray, cells: np.ndarray, cell_labels, units, screen, *,
+                 decimals: int | None = None, within_residuals: np.ndarray | None = None,
+                 spread: bool = True) -> Diagnostics:
+    """The registered checks of one outcome, for every design: Shapiro-Wilk of the
+    residuals each registered test relies on (the model's, or in a split-plot design those
+    of the unit means, between units, and of the within-units error); the registered
+    equal-variance tests across the cells of the treatment factors, of the values with one
+    factor and of the model's residuals beyond it (`spread`; not for repeated
+    observations); the outlier screen on the model's externally studentized
+    residuals (`screen`: residuals, leverages and the fit that gave them; a unit's mean
+    over the occasions in a split-plot design)."""
+    from appendix.stats.cells import cell_stats
+
     settings = plan.assumptions
+    residuals, leverage, fit = screen
     normality = within = None
     if settings.normality == "shapiro-wilk":
         normality = shapiro_wilk_large(residuals)
@@ -246,12 +398,22 @@ def _diagnostics(plan: Plan, data: OutcomeData | None, residuals: np.ndarray, ce
             normality = replace(normality, residuals="unit-means")
             within = replace(shapiro_wilk_large(np.ravel(within_residuals)), residuals="within-units")
     tests = []
-    if data is not None and "brown-forsythe" in settings.equal_variance:
-        tests.append(brown_forsythe(data.values, _treatment_cells(plan, data), len(cell_labels),
-                                    cell_labels, decimals=data.decimals))
-    return Diagnostics(normality=normality, equal_variance=tuple(tests), outliers=None,
-                       assumptions=conclude.assumption_statuses(plan, normality, tests, within=within,
-                                                                qq_plot=False, welch_shown=False),
+    k = len(cell_labels)
+    # one factor: the values' spread by group; beyond it blocks and covariates shift the
+    # values, so the spread is that of the model's residuals by cell
+    spread_of = values if plan.robust_absent is None else residuals
+    for method in settings.equal_variance if spread else ():
+        if method == "brown-forsythe":
+            tests.append(brown_forsythe(spread_of, cells, k, cell_labels,
+                                        decimals=decimals if plan.robust_absent is None else None))
+        else:
+            tests.append(bartlett(cell_stats(spread_of, cells, k, cell_labels)))
+    outliers = studentized_screen(values, residuals, leverage, fit.residual_ss, fit.residual_df, units,
+                                  [str(cell_labels[c]) for c in cells], settings.outliers.threshold)
+    return Diagnostics(normality=normality, equal_variance=tuple(tests), outliers=outliers,
+                       assumptions=conclude.assumption_statuses(
+                           plan, normality, tests, within=within, qq_plot=True,
+                           welch_shown=plan.robust_absent is None),
                        within_normality=within)
 
 
@@ -271,7 +433,7 @@ def _hypotheses(plan: Plan, contrast):
                                   label=contrast.label, factor_label=factor.label or factor.name)
 
 
-def _raw_result(h, contrast, estimate, by=None, level: str | None = None) -> HypothesisResult:
+def _raw_result(h, contrast, estimate, by=None, level: str | None = None, factor=None) -> HypothesisResult:
     """A hypothesis result from a contrast estimate; a simple effect's id ends
     ``@level`` and its label names the level of `by` it is taken within."""
     hid = h.id if level is None else f"{h.id}@{level}"
@@ -283,7 +445,8 @@ def _raw_result(h, contrast, estimate, by=None, level: str | None = None) -> Hyp
         p_adjusted=None, ci_low=estimate.ci_low, ci_high=estimate.ci_high,
         confidence_level=estimate.confidence_level, ci_simultaneous=False, standardized=None,
         decision="unavailable" if estimate.p is None else "retain",
-        warnings=tuple(estimate.warnings), scale=h.scale, within=level)
+        warnings=tuple(estimate.warnings), scale=h.scale, within=level,
+        factor=factor.name if factor is not None else None)
 
 
 def _members(plan: Plan, contrasts):
@@ -302,7 +465,7 @@ def _raw_results(plan: Plan, contrasts, fit, complete, occasion_fit=None) -> lis
     estimated and tested unadjusted."""
     confidence = 1.0 - plan.alpha
     return [_raw_result(h, contrast, _estimate(plan, contrast, factor, h.weights, by, level, fit,
-                                               complete, confidence, occasion_fit), by, level)
+                                               complete, confidence, occasion_fit), by, level, factor)
             for contrast, factor, h, by, level in _members(plan, contrasts)]
 
 
@@ -336,7 +499,8 @@ def _contrast_families(plan: Plan, outcome: Outcome, *, fit=None, complete=None,
         tested, error = joint_results(raw, corr, plan.alpha, approximate)
         joint = "multivariate-t" if approximate is None else "multivariate-t-approximate"
     else:
-        tested = apply_multiplicity(raw, method, plan.alpha, order=sequence_order(plan, raw))
+        tested = apply_multiplicity(raw, method, plan.alpha, order=sequence_order(plan, raw),
+                                    graph=registered_graph(plan))
     family = ContrastFamily(outcome=outcome.name, scope=plan.multiplicity.scope, multiplicity=method,
                             method="marginal-means", alpha=plan.alpha, registered=True,
                             hypotheses=tuple(tested), joint=joint, joint_error=error,
@@ -470,7 +634,7 @@ def _units_at(plan: Plan, complete, by, level):
 # --- repeated measures ------------------------------------------------------------------
 
 
-def _repeated_outcome(plan, outcome, data, missing_by_cell, cell_labels) -> ModelOutcome:
+def _repeated_outcome(plan, outcome, data, missing_by_cell, cell_labels):
     """The split-plot analysis (`appendix.stats.split_plot`) over complete units."""
     from appendix.stats.design import Grid
     from appendix.stats.linear import fitted_values
@@ -504,7 +668,8 @@ def _repeated_outcome(plan, outcome, data, missing_by_cell, cell_labels) -> Mode
         residual_ss=error.sum_of_squares, residual_ms=error.mean_square,
         total_df=sum(r.df for r in within_rows), total_ss=sum(r.sum_of_squares or 0.0 for r in within_rows),
         r_squared=None, estimability=("Within units every listed effect is estimable from the "
-                                      f"{fit.n_units} complete units."), stratum="within units")
+                                      f"{fit.n_units} complete units."), stratum="within units",
+        ss_type_stated=between.ss_type_stated)
     sphericity = fit.sphericity
     cells = _treatment_cells(plan, data)
     descriptives = describe(data.values, cells * m + data.factors[index[within.name]],
@@ -516,8 +681,13 @@ def _repeated_outcome(plan, outcome, data, missing_by_cell, cell_labels) -> Mode
         from appendix.stats.design import design_cells
 
         slopes = _slopes_checks(plan, design_cells(grid, codes, unit_means, covariates), fit.between)
-    residuals = unit_means - fitted_values(fit.between, grid.cell_codes(codes), covariates or None)
-    diagnostics = _diagnostics(plan, None, residuals, cell_labels, fit.within_residuals)
+    from appendix.stats.linear import leverages
+
+    cell_codes = grid.cell_codes(codes)
+    residuals = unit_means - fitted_values(fit.between, cell_codes, covariates or None)
+    screen = (residuals, leverages(fit.between, cell_codes, covariates or None), fit.between)
+    diagnostics = _diagnostics(plan, unit_means, complete.groups, cell_labels, complete.units, screen,
+                               within_residuals=fit.within_residuals, spread=False)
 
     def occasion_fit(level: str):
         """The between-unit model fitted to one occasion's values."""
@@ -528,7 +698,6 @@ def _repeated_outcome(plan, outcome, data, missing_by_cell, cell_labels) -> Mode
         return fit_linear(design_cells(grid, codes, y, covariates or None), plan.model_terms,
                           plan.design.sums_of_squares or 2, plan.alpha)
 
-    cell_codes = grid.cell_codes(codes)
     occasion_residuals = np.column_stack([
         complete.y[:, j] - fitted_values(occasion_fit(level), cell_codes, covariates or None)
         for j, level in enumerate(within.levels)])
@@ -545,15 +714,17 @@ def _repeated_outcome(plan, outcome, data, missing_by_cell, cell_labels) -> Mode
     if complete.dropped:
         notes += (StatWarning("units-dropped", f"{len(complete.dropped)} units without a value at every "
                               f"level of {within.label or within.name} were left out."),)
-    return ModelOutcome(
+    return OutcomeResult(
         name=outcome.name, label=outcome.label, unit=outcome.unit, role=outcome.role,
         design=design_words(plan), n_units=fit.n_units, n_observations=int(complete.y.size),
         arithmetic="float64", descriptives=descriptives, tables=(between, within_table),
         marginal_means=(_marginal(plan, fit.between, over=within.label or within.name)
                         + _occasion_means(plan, complete, cell_labels)),
         slopes=slopes, sphericity=sphericity, diagnostics=diagnostics, conclusions=conclusions,
-        contrasts=families, covariate_slopes=_covariate_slopes(plan, fit.between),
-        warnings=notes), exploratory
+        robust_absent=plan.robust_absent, contrasts=families,
+        covariate_slopes=_covariate_slopes(plan, fit.between), warnings=notes), exploratory, (), Residuals(
+            outcome.name, _read_only(unit_means - residuals), _read_only(residuals), complete.groups,
+            of="unit means")
 
 
 def _occasion_means(plan: Plan, complete, cell_labels) -> tuple[MarginalMeans, ...]:

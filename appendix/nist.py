@@ -3,8 +3,9 @@
 The eleven files (SiRstv, SmLs01-09, AtmWtAg) install with scipy under
 ``scipy/stats/tests/data/nist_anova``. Each header states its certified values
 (NIST Statistical Reference Datasets, https://www.itl.nist.gov/div898/strd/anova/anova.html)
-and the line range of its data. Used by `appendix selftest`, the reference tests and
-`scripts/nist_lre.py`.
+and the line range of its data. `engine_table` gives the variance table the appendix
+reports for the one-term model of a case (the design engine on its cell statistics).
+Used by `appendix selftest`, the reference tests and `scripts/nist_lre.py`.
 """
 
 from __future__ import annotations
@@ -17,6 +18,9 @@ from pathlib import Path
 
 import numpy as np
 import scipy
+
+from appendix.results import ModelTable
+from appendix.stats.design import DesignCells, Grid, design_cells
 
 NIST_DIR = Path(scipy.__file__).parent / "stats" / "tests" / "data" / "nist_anova"
 SELFTEST_FLOOR = 12.0  # the accuracy every certified value must reach (issue target)
@@ -90,17 +94,36 @@ def lre(computed: float, certified: float, digits: int = CERTIFIED_DIGITS) -> fl
     return min(float(digits), -math.log10(error / scale))
 
 
-def engine_values(table) -> dict[str, float]:
-    """The engine's numbers under the certified values' names, from a OneWayTable."""
-    between, within, _ = table.rows
+def one_factor_cells(case: NistCase, *, exact: bool = True) -> DesignCells:
+    """The case's cell statistics on a one-factor grid, as the design engine takes them:
+    summed exactly on the decimal text as scaled integers (`case.decimals`, as the data
+    stage gives them for a CSV column) when `exact`, else in float64 (two-pass)."""
+    grid = Grid(names=("group",), levels=(tuple(str(i + 1) for i in range(case.k)),))
+    return design_cells(grid, [case.codes], case.values, decimals=case.decimals if exact else None)
+
+
+def engine_table(cells: DesignCells) -> ModelTable:
+    """The variance table the appendix reports for a one-factor outcome: the one-term
+    model fitted by the design engine (`appendix.stats.linear.fit_linear`)."""
+    from appendix.models import model_table
+    from appendix.stats.linear import fit_linear, label_of
+
+    return model_table(fit_linear(cells, [cells.grid.names], ss_type=2, alpha=0.05), label_of,
+                       alpha=0.05)
+
+
+def engine_values(table: ModelTable) -> dict[str, float]:
+    """The numbers the appendix reports, from a one-term `ModelTable`, under the names of
+    the certified values."""
+    (between,) = table.rows
     return {
-        "df_between": float(table.df_between),
+        "df_between": float(between.df),
         "ss_between": between.sum_of_squares,
         "ms_between": between.mean_square,
-        "f": table.f,
-        "df_within": float(table.df_within),
-        "ss_within": within.sum_of_squares,
-        "ms_within": within.mean_square,
+        "f": between.f,
+        "df_within": float(table.residual_df),
+        "ss_within": table.residual_ss,
+        "ms_within": table.residual_ms,
         "r_squared": table.r_squared,
         "residual_sd": table.residual_sd,
     }

@@ -44,9 +44,19 @@ def describe_contrasts(plan: Plan) -> list[str]:
         family = f"; primary family {primary}" if settings.scope == "primary-family" else ""
         lines.append(f"multiplicity: {settings.method}{order}, {settings.scope}; "
                      f"hypotheses per outcome: {counts}{family}")
+        if settings.method == "graphical":
+            lines.append(_graph_line(settings))
     lines += [_contrast("exploratory", c, plan) + f"; not adjusted; reason: {c.reason}"
               for c in plan.exploratory]
     return lines
+
+
+def _graph_line(settings) -> str:
+    """The registered graph in one line: weights, then each transition with its share."""
+    weights = ", ".join(f"{cid} {w:g}" for cid, w in (settings.weights or {}).items())
+    edges = [f"{source} -> {target} {share:g}"
+             for source, row in (settings.transitions or {}).items() for target, share in row.items()]
+    return f"graph: weights {weights or 'none'}; transitions {', '.join(edges) or 'none'}"
 
 
 def _exclusion_detail(loaded: LoadedPlan, dataset: Dataset) -> list[str]:

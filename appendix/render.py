@@ -121,10 +121,13 @@ WORDS: Mapping[str, Mapping[str, str]] = MappingProxyType({
         "rank-based": Markup("Estimates are contrasts of the groups' mean ranks; <i>z</i> from "
                              "Dunn's (1964) rank test, corrected for ties."),
         "marginal-means": Markup("Estimates are weighted sums of the model's estimated marginal "
-                                 "means (within one level of another factor for a simple "
-                                 "effect); <i>t</i> on the model's residual degrees of freedom. "
-                                 "Contrasts of a within-unit factor are tested on the units' own "
-                                 "contrast scores, which needs no sphericity.")}),
+                                 "means; <i>t</i> on the model's residual degrees of freedom."),
+        # added by the contrasts template only when the family holds such hypotheses
+        "marginal-means-simple": Markup("A simple effect compares the levels within one level "
+                                        "of another factor."),
+        "marginal-means-within": Markup("Contrasts of a within-unit factor are tested on the "
+                                        "units' own contrast scores, which needs no "
+                                        "sphericity.")}),
     "joint_laws": MappingProxyType({  # keys of ContrastFamily.joint
         "studentized-range": "the studentized range of the levels' means",
         "many-to-one": "Dunnett's joint law of the comparisons with the shared control",
@@ -289,7 +292,6 @@ def render_html(results: dict, figures: dict[str, str], options: RenderOptions) 
     return env.get_template("appendix.html.j2").render(
         r=results,
         outcomes=_ordered_outcomes(results),
-        models=sorted(results.get("models", []), key=lambda m: m["role"] != "primary"),
         figures={key: _inline_svg(svg) for key, svg in figures.items()},
         figure_kinds=FIGURE_KINDS,
         plot_points=PLOT_POINTS,

@@ -18,7 +18,7 @@ import math
 from dataclasses import dataclass, field
 from typing import Any, Literal
 
-FORMAT_VERSION = 1
+FORMAT_VERSION = 2
 
 
 @dataclass(frozen=True)
@@ -264,7 +264,8 @@ class HypothesisResult:
     measures when it is not a difference of means (trends: a slope or polynomial
     coefficient over the level scores); None otherwise. `within` is the level of the
     contrast's `by` factor a simple effect is taken within (its id then ends ``@level``);
-    None for a contrast across all levels.
+    None for a contrast across all levels. `factor` names the factor whose levels a
+    contrast on a model's marginal means compares (None for a one-factor family).
     """
 
     id: str
@@ -290,6 +291,7 @@ class HypothesisResult:
     warnings: Warnings = ()
     scale: EstimateScale | None = None
     within: str | None = None
+    factor: str | None = None
 
 
 @dataclass(frozen=True)
@@ -340,39 +342,6 @@ class Contingency:
     use: str
 
 
-@dataclass(frozen=True)
-class OutcomeResult:
-    """Everything computed for one registered outcome.
-
-    `arithmetic` is ``exact-decimal`` when the sums of squares were accumulated exactly
-    on the decimal text as scaled integers, else ``float64``. When `sample_of` is set
-    the source was aggregated out of core: cell-statistic results use all `sample_of`
-    analysed units, while figures and row-level diagnostics (Shapiro-Wilk, Kruskal-Wallis,
-    Brown-Forsythe, outlier screen, quartiles) use a deterministic subsample of
-    `sample_size` units.
-    """
-    name: str
-    label: str
-    unit: str | None
-    role: str
-    n_analysed: int
-    descriptives: Descriptives
-    table: OneWayTable
-    welch: WelchAnova
-    kruskal: KruskalWallis
-    effect_sizes: tuple[EffectSize, ...]
-    diagnostics: Diagnostics
-    conclusion: Conclusion
-    selected_method: str = "classical"
-    arithmetic: str = "float64"
-    sample_of: int | None = None
-    sample_size: int | None = None
-    contrasts: tuple[ContrastFamily, ...] = ()
-    contingencies: tuple[Contingency, ...] = ()
-    hypothesis_conclusions: tuple[Conclusion, ...] = ()
-    warnings: Warnings = ()
-
-
 # --- designs beyond one factor ----------------------------------------------------------
 
 
@@ -407,6 +376,9 @@ class ModelRow:
     partial_omega_squared: float | None
     partial_omega_ci: tuple[float, float] | None
     confidence_level: float
+    cohens_f: float | None = None
+    cohens_f_ci: tuple[float, float] | None = None
+    critical_f: float | None = None
     full_df: float | None = None
     gg_df: tuple[float, float] | None = None
     gg_p: float | None = None
@@ -431,6 +403,8 @@ class ModelTable:
     r_squared: float | None
     estimability: str
     empty_cells: tuple[str, ...] = ()
+    residual_sd: float | None = None
+    ss_type_stated: bool = True
     stratum: str = "units"
     warnings: Warnings = ()
 
@@ -512,11 +486,31 @@ class Sphericity:
 
 
 @dataclass(frozen=True)
-class ModelOutcome:
-    """Everything computed for one registered outcome of a design beyond one factor.
+class RobustTests:
+    """Tests of a one-factor layout that do not assume equal variances (Welch 1951) or
+    normal errors (Kruskal & Wallis 1952). They are defined for one treatment factor
+    without blocks, covariates or repeated measures, and computed only there."""
+
+    welch: WelchAnova
+    kruskal: KruskalWallis
+
+
+@dataclass(frozen=True)
+class OutcomeResult:
+    """Everything computed for one registered outcome, for every design.
 
     `tables` holds the between-unit variance table and, with a within factor, the
     repeated-measures table; `conclusions` one sentence per tested term, in table order.
+    `robust` is set where its tests are defined (`RobustTests`), else `robust_absent`
+    says why not. `selected_method` is the analysis in force after the registered
+    contingencies (`contingencies`), ``classical`` when none fired.
+
+    `arithmetic` is ``exact-decimal`` when the within-cell sums of squares were
+    accumulated exactly on the decimal text as scaled integers, else ``float64``. When
+    `sample_of` is set the source was aggregated out of core: cell-statistic results use
+    all `sample_of` analysed units, while figures and row-level diagnostics (Shapiro-Wilk,
+    Kruskal-Wallis, Brown-Forsythe, the outlier screen, quartiles) use a deterministic
+    subsample of `sample_size` units.
     """
 
     name: str
@@ -534,6 +528,12 @@ class ModelOutcome:
     sphericity: Sphericity | None
     diagnostics: Diagnostics
     conclusions: tuple[Conclusion, ...]
+    robust: RobustTests | None = None
+    robust_absent: str | None = None
+    selected_method: str = "classical"
+    contingencies: tuple[Contingency, ...] = ()
+    sample_of: int | None = None
+    sample_size: int | None = None
     contrasts: tuple[ContrastFamily, ...] = ()
     hypothesis_conclusions: tuple[Conclusion, ...] = ()
     covariate_slopes: tuple[CovariateSlope, ...] = ()
@@ -703,7 +703,6 @@ class StudyResults:
     multiplicity: str | None = None
     multiplicity_scope: str | None = None
     factors: tuple[FactorInfo, ...] = ()
-    models: tuple[ModelOutcome, ...] = ()
     registration: Registration | None = None
     format_version: int = field(default=FORMAT_VERSION)
 

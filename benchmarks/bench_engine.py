@@ -5,7 +5,8 @@
 Every ratio is measured in this run on the same in-memory arrays (invented, seeded data:
 100 levels, normal values), best of three wall-clock runs:
 
-- engine variance table (`cell_stats` + `variance_table`, float64 path) / a bare numpy
+- engine variance table (`design_cells` + `fit_linear` of the one-term model, what the
+  appendix computes for a one-factor outcome; float64 path) / a bare numpy
   `np.bincount` two-pass (counts, sums, means, then the bincount of squared deviations),
   10M rows; scipy `f_oneway` and pingouin `anova` over the same bare time, informational;
 - statsmodels formula OLS + `anova_lm` / the engine, 1M rows;
@@ -31,7 +32,8 @@ HERE = Path(__file__).resolve().parent
 sys.path.insert(0, str(HERE.parent))  # the package; this folder is on the path already
 
 from appendix.stats.cells import cell_stats  # noqa: E402
-from appendix.stats.oneway import variance_table  # noqa: E402
+from appendix.stats.design import Grid, design_cells  # noqa: E402
+from appendix.stats.linear import fit_linear  # noqa: E402
 from common import Measurement, best_time  # noqa: E402
 
 BIG, MEDIUM = 10_000_000, 1_000_000  # rows
@@ -57,8 +59,13 @@ def bare_two_pass(values: np.ndarray, codes: np.ndarray):
     return n, means, np.bincount(codes, weights=deviation * deviation, minlength=LEVELS)
 
 
+GRID = Grid(("group",), (tuple(str(i) for i in range(LEVELS)),))
+
+
 def engine(values: np.ndarray, codes: np.ndarray, decimals: int | None = None):
-    return variance_table(cell_stats(values, codes, LEVELS, decimals=decimals), alpha=0.05)
+    """The one-term model's variance table, as the appendix fits a one-factor outcome."""
+    cells = design_cells(GRID, [codes], values, decimals=decimals)
+    return fit_linear(cells, (("group",),), 2, 0.05).terms[0]
 
 
 def _check_same_table(values: np.ndarray, codes: np.ndarray) -> None:

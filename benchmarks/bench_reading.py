@@ -11,8 +11,9 @@ matches. Best of three wall-clock runs each, the two interleaved, measured in th
 - (a) `pyarrow.csv.read_csv` of the whole file with its default options (types inferred);
 - (b) appendix's data stage and variance table: `load_plan`, `build_dataset` (for this
   file the compiled pass of `appendix.data.scan`), then
-  `cell_stats` (with `OutcomeData.decimals`, so the exact-decimal path when the data
-  allow it) and `variance_table`; printed as the ratio b / a, with the two parts' times.
+  `design_cells` (with `OutcomeData.decimals`, so the exact-decimal path when the data
+  allow it) and `fit_linear` of the one-term model, as the appendix fits a one-factor
+  outcome; printed as the ratio b / a, with the two parts' times.
 
 The detail also gives, for the account of the data stage, pyarrow's reader as the data
 stage calls it (the three columns as bytes) and the SHA-256 of the file, which the data
@@ -92,8 +93,8 @@ def measurements() -> list[Measurement]:
     from appendix.data.build import build_dataset
     from appendix.data.checksums import sha256_file
     from appendix.plan.load import load_plan
-    from appendix.stats.cells import cell_stats
-    from appendix.stats.oneway import variance_table
+    from appendix.stats.design import Grid, design_cells
+    from appendix.stats.linear import fit_linear
 
     study = generated()
     data = study.with_suffix(".csv")
@@ -106,9 +107,9 @@ def measurements() -> list[Measurement]:
         dataset = build_dataset(loaded)
         middle = time.perf_counter()
         outcome = dataset.outcomes[0]
-        cells = cell_stats(outcome.values, outcome.codes, len(dataset.levels), dataset.levels,
-                           decimals=outcome.decimals)
-        variance_table(cells, loaded.plan.alpha)
+        grid = Grid((loaded.plan.factor.name,), (dataset.levels,))
+        cells = design_cells(grid, [outcome.codes], outcome.values, decimals=outcome.decimals)
+        fit_linear(cells, loaded.plan.model_terms, 2, loaded.plan.alpha)
         end = time.perf_counter()
         if first:  # the process's first call also loads the compiled kernels
             parts["first"] = end - start
@@ -127,7 +128,7 @@ def measurements() -> list[Measurement]:
         include_columns=names, column_types={n: pa.binary() for n in names})))
     hashing = best_time(lambda: sha256_file(data))
     detail = (f"pyarrow read_csv {bare:.2f} s; appendix {ours:.2f} s = data stage "
-              f"{parts['data']:.2f} s + cell_stats/variance_table {parts['stats']:.2f} s "
+              f"{parts['data']:.2f} s + design_cells/fit_linear {parts['stats']:.2f} s "
               f"({parts['arithmetic']}, decimals={parts['decimals']}); within the data stage: "
               f"read_csv of the columns as bytes {as_bytes:.2f} s, SHA-256 {hashing:.2f} s "
               f"(beside it); first call in this process {parts['first']:.2f} s (imports numba, "

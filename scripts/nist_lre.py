@@ -1,10 +1,11 @@
-"""Print the log relative error of the variance table on each NIST StRD ANOVA dataset.
+"""Print the log relative error of the variance table the appendix reports (the design
+engine's one-term model, `appendix.nist.engine_table`) on each NIST StRD ANOVA dataset.
 
 Usage: python scripts/nist_lre.py   (from the repository root or anywhere)
 LRE = -log10(|computed - certified| / |certified|), capped at 15 (McCullough 1998).
 Two paths: the exact one (decimals counted on the data text, summed exactly as scaled
-integers: `cell_stats(..., decimals=d)`) and the float64 two-pass path
-(`cell_stats(...)`, decimals None), and, for the sums of squares,
+integers: `one_factor_cells(case, exact=True)`) and the float64 two-pass path
+(`exact=False`), and, for the sums of squares,
 the ceiling of any float64 computation: exact rational arithmetic on the float64 data.
 """
 
@@ -17,17 +18,15 @@ REPO = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(REPO))
 
 from appendix.nist import (  # noqa: E402
-    HIGHER_DIFFICULTY, NAMES, engine_values, exact_sums_of_squares, lre, read_case)
-from appendix.stats.cells import cell_stats  # noqa: E402
-from appendix.stats.oneway import variance_table  # noqa: E402
+    HIGHER_DIFFICULTY, NAMES, engine_table, engine_values, exact_sums_of_squares, lre,
+    one_factor_cells, read_case)
 
 COLUMNS = ("df_between", "ss_between", "ms_between", "f", "df_within", "ss_within",
            "ms_within", "r_squared", "residual_sd")
 
 
 def _values(case, exact: bool) -> dict[str, float]:
-    cells = cell_stats(case.values, case.codes, case.k, decimals=case.decimals if exact else None)
-    return engine_values(variance_table(cells, alpha=0.05))
+    return engine_values(engine_table(one_factor_cells(case, exact=exact)))
 
 
 def main() -> int:

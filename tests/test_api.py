@@ -17,15 +17,16 @@ def test_compute_gives_frozen_typed_results(demo_study: Path):
     first = computed.results.outcomes[0]
     assert (first.name, first.role) == ("dry_mass", "primary")
     with pytest.raises(dataclasses.FrozenInstanceError):
-        first.table.f = 0.0  # type: ignore[misc]
+        first.tables[0].rows[0].f = 0.0  # type: ignore[misc]
     # scipy.stats.f_oneway (scipy 1.17.1) on the same analysed units is the reference
     from scipy.stats import f_oneway
 
     data = computed.dataset.outcome("dry_mass")
     groups = [data.values[data.codes == i] for i in range(4)]
     reference = f_oneway(*groups)
-    assert first.table.f == pytest.approx(reference.statistic, rel=1e-12)
-    assert first.table.p == pytest.approx(reference.pvalue, rel=1e-9)
+    (row,) = first.tables[0].rows  # the one-term model: the factor's row
+    assert row.f == pytest.approx(reference.statistic, rel=1e-12)
+    assert row.p == pytest.approx(reference.pvalue, rel=1e-9)
 
 
 def test_render_then_run_write_the_same_results(demo_study: Path, tmp_path: Path):
@@ -51,14 +52,17 @@ def test_out_of_core_run_matches_the_in_memory_run(demo_study: Path, tmp_path: P
     memory = api.run(demo_study, tmp_path / "memory", pdf=False, out_of_core=False).results
     duck = api.run(demo_study, tmp_path / "duck", pdf=False, out_of_core=True).results
     for a, b in zip(memory.outcomes, duck.outcomes):
-        assert b.sample_of == a.n_analysed and b.sample_size == a.n_analysed
+        assert b.sample_of == a.n_units and b.sample_size == a.n_units
         assert b.arithmetic == "float64" and a.arithmetic == "exact-decimal"
-        for row_a, row_b in zip(a.table.rows, b.table.rows):
-            assert row_b.sum_of_squares == pytest.approx(row_a.sum_of_squares, rel=1e-12)
-        assert b.table.p == pytest.approx(a.table.p, rel=1e-10)
-        assert b.conclusion.decision == a.conclusion.decision
+        (table_a,), (table_b,) = a.tables, b.tables
+        pairs = [(ra.sum_of_squares, rb.sum_of_squares) for ra, rb in zip(table_a.rows, table_b.rows)]
+        pairs += [(table_a.residual_ss, table_b.residual_ss), (table_a.total_ss, table_b.total_ss)]
+        for ss_a, ss_b in pairs:  # between, within (residual) and total, as before
+            assert ss_b == pytest.approx(ss_a, rel=1e-12)
+        assert table_b.rows[0].p == pytest.approx(table_a.rows[0].p, rel=1e-10)
+        assert [c.decision for c in b.conclusions] == [c.decision for c in a.conclusions]
         # the whole demo fits in the subsample, so row-level statistics agree too
-        assert b.kruskal.h == pytest.approx(a.kruskal.h, rel=1e-12)
+        assert b.robust.kruskal.h == pytest.approx(a.robust.kruskal.h, rel=1e-12)
     assert duck.unit_flow == memory.unit_flow
     html = (tmp_path / "duck" / "appendix.html").read_text(encoding="utf-8")
     assert "aggregated out of core" in html

@@ -210,16 +210,35 @@ def test_forged_results_with_fresh_hashes_are_caught_by_recomputation(packed, tm
     PDF's embedded copy and the recomputation still disagree."""
     entries = entries_of(packed[2])
     results = json.loads(entries["run/results.json"])
-    f_value = results["outcomes"][0]["table"]["f"]
-    results["outcomes"][0]["table"]["f"] = f_value * (1 + 1e-6)
+    f_value = results["outcomes"][0]["tables"][0]["rows"][0]["f"]
+    results["outcomes"][0]["tables"][0]["rows"][0]["f"] = f_value * (1 + 1e-6)
     forged = json.dumps(results, sort_keys=True, indent=2, ensure_ascii=False) + "\n"
     code, lines = verify_lines(_forge(entries, "results.json", forged.encode("utf-8"),
                                       tmp_path / "forged.zip"))
     assert code == 1
     assert not any(line.startswith("  changed:") for line in lines)
     assert "  the results.json embedded in run/appendix.pdf differs from the package's" in lines
-    assert (f"  outcomes[0].table.f: {f_value * (1 + 1e-6)!r} packaged, {f_value!r} "
+    assert (f"  outcomes[0].tables[0].rows[0].f: {f_value * (1 + 1e-6)!r} packaged, {f_value!r} "
             "recomputed") in lines
+
+
+def test_packaged_results_of_format_1_are_not_compared_and_verify_says_so(packed, tmp_path):
+    """A package whose results.json an earlier version wrote (format 1), hashes rewritten
+    to match: the recomputation gives format 2, which is not compared key by key."""
+    entries = entries_of(packed[2])
+    results = json.loads(entries["run/results.json"])
+    results["format_version"] = 1
+    old = json.dumps(results, sort_keys=True, indent=2, ensure_ascii=False) + "\n"
+    code, lines = verify_lines(_forge(entries, "results.json", old.encode("utf-8"),
+                                      tmp_path / "old.zip"))
+    assert code == 1
+    assert lines[2:] == [
+        "  the results.json embedded in run/appendix.pdf differs from the package's",
+        "  the manifest.json embedded in run/appendix.pdf differs from the package's",
+        ("  run/results.json is of results format 1 and this version of appendix writes format 2, "
+         "so the results were not compared: verify the package with the appendix version "
+         "environment.json names"),
+        "not reproduced: 3 differences"]
 
 
 def test_forged_page_with_fresh_hashes_is_caught(packed, tmp_path):

@@ -134,3 +134,22 @@ def test_selftest_reports_a_missing_or_failing_check(tmp_path: Path, monkeypatch
     assert code == 1
     assert out.strip() == (f"NIST StRD ANOVA data not found under {tmp_path / 'absent'}; "
                            "nothing was checked")
+
+
+def test_run_prints_the_decision_of_each_tested_term_of_a_factorial_outcome(tmp_path: Path):
+    # Reference: statsmodels' formula OLS and anova_lm (type 2) on the same rows decide each
+    # term at the plan's alpha (.05, the default); the bench block adjusts the model and is
+    # not a conclusion. The data are invented (seeded) by the designs' end-to-end tests.
+    from tests.test_designs_end_to_end import _factorial, _statsmodels_table
+
+    frame = _factorial(tmp_path, ss=2, covariate=False, interaction=True)
+    table, _ = _statsmodels_table(frame, 2, covariate=False, interaction=True)
+    p = table["PR(>F)"]
+    decided = {term: "reject" if p[f"C({term})" if ":" not in term else term] < 0.05 else "retain"
+               for term in ("coating", "water", "C(coating):C(water)")}
+    code, out, err = run_cli(["run", "study.yaml", "--no-pdf", "--out", "run"], tmp_path)
+    assert (code, err) == (0, "")
+    assert out.splitlines() == [
+        f"wrote {tmp_path / 'run'}",
+        f"  mass (primary): coating: {decided['coating']}; water: {decided['water']}; "
+        f"coating × water: {decided['C(coating):C(water)']}"]

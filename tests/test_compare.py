@@ -13,7 +13,10 @@ import statistics
 from pathlib import Path
 
 import numpy as np
+import pandas as pd
+import pingouin
 import pytest
+import scipy.stats
 
 from appendix import api
 from appendix.compare import (
@@ -22,6 +25,7 @@ from appendix.compare import (
     conclusions_of,
     diff_command,
     flatten_plan,
+    numbers_of,
     render_page,
     to_json,
 )
@@ -105,12 +109,94 @@ def test_demo_diff_sizes_the_moves(demo_runs):
     assert mean.a == pytest.approx(a, rel=1e-12) and mean.b == pytest.approx(b, rel=1e-12)
     assert mean.change == pytest.approx(b - a, rel=1e-9)
     assert mean.relative_change == pytest.approx((b - a) / a, rel=1e-9)
-    assert (moves[("dry_mass", "n_analysed")].a, moves[("dry_mass", "n_analysed")].b) == (43, 44)
+    assert (moves[("dry_mass", "n_units")].a, moves[("dry_mass", "n_units")].b) == (43, 44)
     # a versus-control estimate is a difference of two means: only humic's moved
     assert moves[("dry_mass", "C2:humic.estimate")].change == pytest.approx(b - a, rel=1e-9)
     assert ("dry_mass", "C2:chitosan.estimate") not in moves
     assert ("dry_mass", "mean[uncoated].estimate") not in moves
-    assert next(iter(moves)) == ("dry_mass", "anova.f")  # primary outcome, omnibus test first
+    assert next(iter(moves)) == ("dry_mass", "units/coating.f")  # primary outcome, its factor's F first
+
+
+LEVELS = ("uncoated", "chitosan", "seaweed", "humic")
+
+
+def _groups(rows: dict[str, dict[str, str]], column: str) -> list[list[float]]:
+    """The analysed values of `column` per coating in plan order: rule X1 sets damaged
+    seedlings aside, an empty cell is missing."""
+    return [[float(r[column]) for r in rows.values()
+             if r["coating"] == level and r["damaged"] == "no" and r[column]] for level in LEVELS]
+
+
+@pytest.mark.filterwarnings("ignore:The inplace keyword in DataFrame.dropna is deprecated:Warning")
+@pytest.mark.parametrize("side, data", [(0, "units.csv"), (1, "units-corrected.csv")])
+def test_one_factor_numbers_are_its_terms_test_the_robust_tests_and_effect_sizes(demo_runs, side, data):
+    # References on the CSV data: scipy.stats.f_oneway and scipy.stats.kruskal (scipy 1.17),
+    # pingouin.welch_anova and pingouin.anova (np2, pingouin 0.7.0; its pandas deprecation
+    # warning is ignored by name); omega squared (SS_b - df_b MS_w) / (SS_t + MS_w) and
+    # Cohen's f = sqrt(eta^2 / (1 - eta^2)) as textbook formulas (Hays 1963; Cohen 1988,
+    # ch. 8; from memory).
+    results = json.loads((demo_runs[side] / "results.json").read_text(encoding="utf-8"))
+    numbers = {key[1]: value for key, value in numbers_of(results).items() if key[0] == "dry_mass"}
+    groups = _groups(_csv(data), "shoot_dry_mass_mg")
+    frame = pd.DataFrame({"y": [y for g in groups for y in g],
+                          "g": [level for level, g in zip(LEVELS, groups) for _ in g]})
+    classical, welch = scipy.stats.f_oneway(*groups), pingouin.welch_anova(frame, dv="y", between="g")
+    kruskal, eta = scipy.stats.kruskal(*groups), float(pingouin.anova(frame, dv="y", between="g")["np2"][0])
+    assert numbers["units/coating.f"] == ("F, seed coating", pytest.approx(classical.statistic, rel=1e-10))
+    assert numbers["units/coating.p"] == ("p, seed coating", pytest.approx(classical.pvalue, rel=1e-8))
+    assert numbers["welch.f"] == ("F (Welch)", pytest.approx(float(welch["F"][0]), rel=1e-10))
+    assert numbers["welch.p"] == ("p (Welch)", pytest.approx(float(welch["p_unc"][0]), rel=1e-8))
+    assert numbers["kruskal.h"] == ("H (Kruskal-Wallis)", pytest.approx(kruskal.statistic, rel=1e-10))
+    assert numbers["kruskal.p"] == ("p (Kruskal-Wallis)", pytest.approx(kruskal.pvalue, rel=1e-8))
+    # one term in one table: its partial share is the share itself, and is called so
+    label, value = numbers["units/coating.partial_eta_squared.estimate"]
+    assert (label, value) == ("eta squared, seed coating", pytest.approx(eta, rel=1e-10))
+    y = frame["y"].to_numpy()
+    ss_within = sum(((np.asarray(g) - np.mean(g)) ** 2).sum() for g in groups)
+    ms_within, ss_total = ss_within / (y.size - len(groups)), ((y - y.mean()) ** 2).sum()
+    omega = (ss_total - ss_within - (len(groups) - 1) * ms_within) / (ss_total + ms_within)
+    assert numbers["units/coating.partial_omega_squared.estimate"] == (
+        "omega squared, seed coating", pytest.approx(omega, rel=1e-10))
+    assert numbers["units/coating.cohens_f.estimate"] == (
+        "Cohen's f, seed coating", pytest.approx(np.sqrt(eta / (1 - eta)), rel=1e-10))
+    for measure in ("partial_eta_squared", "partial_omega_squared", "cohens_f"):
+        low, high = (numbers[f"units/coating.{measure}.{end}"][1] for end in ("ci_low", "ci_high"))
+        assert 0 <= low < numbers[f"units/coating.{measure}.estimate"][1] < high
+    eta_low, eta_high = (numbers[f"units/coating.partial_eta_squared.{end}"][1] for end in ("ci_low", "ci_high"))
+    assert (numbers["units/coating.cohens_f.ci_low"][1], numbers["units/coating.cohens_f.ci_high"][1]) == (
+        pytest.approx(np.sqrt(eta_low / (1 - eta_low)), rel=1e-12),
+        pytest.approx(np.sqrt(eta_high / (1 - eta_high)), rel=1e-12))
+    assert numbers["n_units"] == ("units analysed", sum(len(g) for g in groups))
+    assert "n_observations" not in numbers  # one observation per unit: the units say it
+    # the conclusion is the factor's test under the analysis in force (classical here)
+    (term,) = [(key, value) for key, value in conclusions_of(results).items()
+               if key[:2] == ("dry_mass", "term")]
+    assert term[0] == ("dry_mass", "term", "coating")
+    role, label, decision = term[1]
+    assert (role, label) == ("primary", "shoot dry mass at day 21: seed coating (F test)")
+    assert decision.decision == ("reject" if classical.pvalue < 0.05 else "retain")
+    assert decision.p == pytest.approx(classical.pvalue, rel=1e-8)
+
+
+@pytest.mark.parametrize("side", ["A", "B"])
+def test_a_results_file_of_format_1_is_refused_with_one_sentence(demo_runs, tmp_path, side):
+    from appendix.cli import main
+
+    old = tmp_path / "old"
+    shutil.copytree(demo_runs[0], old)
+    results = json.loads((old / "results.json").read_text(encoding="utf-8"))
+    results["format_version"] = 1  # as an earlier version of appendix wrote it
+    (old / "results.json").write_text(json.dumps(results), encoding="utf-8")
+    runs = (old, demo_runs[1]) if side == "A" else (demo_runs[1], old)
+    message = (f"{old / 'results.json'} is a results file of format 1, and this version of appendix "
+               "compares results of format 2 only: rerun both studies with it, then compare the new "
+               "run folders")
+    with pytest.raises(UserError) as refused:
+        compare_runs(*runs)
+    assert str(refused.value) == message
+    out, err = io.StringIO(), io.StringIO()
+    assert main(["diff", str(runs[0]), str(runs[1])], stdout=out, stderr=err, cwd=tmp_path) == 2
+    assert (out.getvalue(), err.getvalue()) == ("", f"error: {message}\n")
 
 
 def test_demo_diff_plan_and_checksums(demo_runs):
@@ -200,7 +286,7 @@ def test_model_terms_pair_with_their_conclusions(tmp_path):
     # the same run with one term's decision edited: the diff names exactly that term
     run_b = tmp_path / "b"
     shutil.copytree(run_a, run_b)
-    model = results["models"][0]
+    model = results["outcomes"][0]
     model["conclusions"][2]["decision"] = "reject"
     (run_b / "results.json").write_text(json.dumps(results), encoding="utf-8")
     diff = compare_runs(run_a, run_b)
@@ -285,3 +371,37 @@ def test_data_diff_follows_a_unit_into_an_exclusion_and_a_missing_cell(tmp_path)
         ("P001", "", "exclusion-rule"): (None, "X1", None, None, None, None),
         ("P005", "chlorophyll_index", "outcome"): ("33.4", "", 33.4, None, "analysed", "missing"),
     }
+
+
+def test_fields_the_results_format_gives_a_default_may_be_absent(demo_runs, tmp_path):
+    """A results file without the keys whose fields have defaults (robust tests, contrasts,
+    Cohen's f, strata, ...) is valid; diff reads it as the defaults say, no crash."""
+    import dataclasses
+
+    from appendix.results import ModelRow, ModelTable, OutcomeResult
+
+    def defaulted(kind) -> set[str]:
+        return {f.name for f in dataclasses.fields(kind)
+                if f.default is not dataclasses.MISSING or f.default_factory is not dataclasses.MISSING}
+
+    bare = tmp_path / "bare"
+    shutil.copytree(demo_runs[1], bare)
+    results = json.loads((bare / "results.json").read_text(encoding="utf-8"))
+    for outcome in results["outcomes"]:
+        for table in outcome["tables"]:
+            for row in table["rows"]:
+                for key in defaulted(ModelRow):
+                    del row[key]
+            for key in defaulted(ModelTable):
+                del table[key]
+        for key in defaulted(OutcomeResult):
+            del outcome[key]
+    (bare / "results.json").write_text(json.dumps(results), encoding="utf-8")
+    diff = compare_runs(demo_runs[0], bare)
+    # the registered hypotheses are gone with the contrasts: each is a conclusion of run A only
+    gone = {c.id for c in diff.conclusions if c.b is None}
+    assert gone == {h["id"] for o in json.loads((demo_runs[0] / "results.json").read_text(encoding="utf-8"))[
+        "outcomes"] for f in o["contrasts"] if f["registered"] for h in f["hypotheses"]}
+    moved = {(m.outcome, m.quantity): m for m in diff.numbers}
+    assert moved[("dry_mass", "welch.f")].b is None and moved[("dry_mass", "units/coating.cohens_f.estimate")].b is None
+    assert moved[("dry_mass", "units/coating.f")].b is not None

@@ -8,7 +8,7 @@ import pytest
 
 from appendix.conclude import assumption_statuses, conclusion
 from appendix.plan.load import load_plan
-from appendix.results import EffectSize, OneWayTable, StatWarning, VarianceRow, VarianceTest
+from appendix.results import ModelRow, StatWarning, VarianceTest
 
 DEMO = Path(__file__).resolve().parent.parent / "studies" / "seed-coating" / "study.yaml"
 
@@ -18,19 +18,21 @@ def plan():
     return load_plan(DEMO).plan
 
 
-def table(f, p, warnings=()):
-    rows = (VarianceRow("between", 3, 30.0, 10.0, f, p),)
-    return OneWayTable(rows=rows, df_between=3, df_within=39, f=f, p=p, alpha=0.05,
-                       critical_f=2.85, r_squared=None, residual_sd=None, warnings=warnings)
-
-
-def eta(estimate, low, high):
-    return (EffectSize("eta_squared", estimate, low, high, 0.9),)
+def row(f, p, effect=None, warnings=()):
+    """The factor's row of a one-term variance table on 3 and 39 df; `effect` is eta squared
+    and its 90% interval, or None."""
+    estimate, low, high = effect if effect is not None else (None, None, None)
+    return ModelRow(term=("coating",), label="seed coating", kind="factor", df=3,
+                    sum_of_squares=30.0, mean_square=10.0, f=f, p=p,
+                    partial_eta_squared=estimate,
+                    partial_eta_ci=(low, high) if effect is not None else None,
+                    partial_omega_squared=None, partial_omega_ci=None, confidence_level=0.9,
+                    warnings=warnings)
 
 
 def test_rejected_hypothesis_says_so_and_warns_that_significance_is_not_importance(plan):
     outcome = plan.outcomes[0]
-    result = conclusion(plan, outcome, table(7.8856, 0.000313), eta(0.3776, 0.1419, 0.4988))
+    result = conclusion(plan, outcome, row(7.8856, 0.000313, (0.3776, 0.1419, 0.4988)), 39)
     assert result.decision == "reject"
     assert result.sentence == (
         "Mean shoot dry mass at day 21 differed across the 4 levels of seed coating, "
@@ -42,7 +44,7 @@ def test_rejected_hypothesis_says_so_and_warns_that_significance_is_not_importan
 
 def test_retained_hypothesis_is_not_called_evidence_of_equality(plan):
     outcome = plan.outcomes[1]
-    result = conclusion(plan, outcome, table(0.2329, 0.8729), eta(0.0172, 0.0, 0.0470))
+    result = conclusion(plan, outcome, row(0.2329, 0.8729, (0.0172, 0.0, 0.0470)), 39)
     assert result.decision == "retain"
     assert result.sentence.endswith(
         "the hypothesis of equal means is not rejected at \u03b1 = .05. This is not evidence "
@@ -53,13 +55,13 @@ def test_retained_hypothesis_is_not_called_evidence_of_equality(plan):
 
 def test_p_exactly_alpha_is_not_a_rejection(plan):
     # The F test rejects when p < alpha (common practice, no source).
-    result = conclusion(plan, plan.outcomes[0], table(2.85, 0.05), eta(0.18, 0.0, 0.3))
+    result = conclusion(plan, plan.outcomes[0], row(2.85, 0.05, (0.18, 0.0, 0.3)), 39)
     assert result.decision == "retain"
 
 
 def test_unavailable_test_explains_why(plan):
     warning = StatWarning("single-group", "Only one group has data; there is nothing to compare.")
-    result = conclusion(plan, plan.outcomes[0], table(None, None, (warning,)), ())
+    result = conclusion(plan, plan.outcomes[0], row(None, None, warnings=(warning,)), 39)
     assert result.decision == "unavailable" and result.p is None
     assert result.sentence == ("The F test for shoot dry mass at day 21 could not be computed. "
                                "Only one group has data; there is nothing to compare.")

@@ -51,6 +51,12 @@ def write_study(folder: Path, *, contrasts, multiplicity, sds=(1.0, 1.0, 1.0, 1.
     return study
 
 
+#: Contrasts of one hypothesis each, as a graphical plan needs.
+SINGLE = [ALL_KINDS[0],
+          {"id": "C6", "kind": "custom", "label": "d4 versus d0", "weights": {"d0": -1, "d4": 1}},
+          {"id": "C7", "kind": "custom", "label": "d1 versus d0", "weights": {"d0": -1, "d1": 1}}]
+
+
 def only(kind):
     return [c for c in ALL_KINDS if c["kind"] == kind]
 
@@ -66,6 +72,9 @@ CASES = {
     "dunnett": (only("versus-control"), {"method": "dunnett"}),
     "fixed-sequence": (ALL_KINDS, {"method": "fixed-sequence",
                                    "order": ["C4", "C2", "C1", "C3", "C5"]}),
+    "graphical": (SINGLE, {"method": "graphical", "weights": {"C1": 0.5, "C6": 0.5},
+                           "transitions": {"C1": {"C6": 0.5, "C7": 0.5}, "C6": {"C7": 1},
+                                           "C7": {"C1": 0.5, "C6": 0.5}}}),
 }
 
 
@@ -121,6 +130,41 @@ def test_fixed_sequence_stops_at_the_first_retained_hypothesis(tmp_path: Path):
     assert all(d == "reject" for d in decisions[:stop])
 
 
+@pytest.mark.parametrize("graph", ["holm", "fixed-sequence"])
+def test_graphical_plans_reduce_to_holm_and_fixed_sequence(tmp_path: Path, graph: str):
+    from statsmodels.stats.multitest import multipletests
+
+    # Bretz et al. (2009): equal weights passed equally to the others is Holm (reference:
+    # statsmodels 0.15.0 multipletests); everything passed on to the next is fixed-sequence
+    # testing, p_adj the running maximum (Westfall & Krishen 2001).
+    ids = [c["id"] for c in SINGLE]
+    if graph == "holm":
+        multiplicity = {"weights": {i: 1 / 3 for i in ids},
+                        "transitions": {i: {j: 0.5 for j in ids if j != i} for i in ids}}
+    else:
+        multiplicity = {"weights": {"C6": 1}, "transitions": {"C6": {"C1": 1}, "C1": {"C7": 1}}}
+    study = write_study(tmp_path, contrasts=SINGLE, multiplicity={"method": "graphical", **multiplicity})
+    record = api.run(study, tmp_path / "run", pdf=False)
+    for outcome in record.results.outcomes:
+        (family,) = outcome.contrasts
+        p = [h.p for h in family.hypotheses]
+        adjusted = [h.p_adjusted for h in family.hypotheses]
+        if graph == "holm":
+            reject, expected, _, _ = multipletests(p, alpha=0.05, method="holm")
+            assert adjusted == pytest.approx(expected, rel=1e-9)
+        else:
+            walk = [1, 0, 2]  # C6, C1, C7
+            expected = np.maximum.accumulate([p[i] for i in walk])
+            assert [adjusted[i] for i in walk] == pytest.approx(expected, rel=1e-12)
+            reject = [a < 0.05 for a in adjusted]
+        assert [h.decision == "reject" for h in family.hypotheses] == list(reject)
+        assert family.multiplicity == "graphical" and not any(h.ci_simultaneous for h in family.hypotheses)
+    html = (tmp_path / "run" / "appendix.html").read_text(encoding="utf-8")
+    assert "Graphical multiple testing" in html and "graphical sequentially rejective procedure" in html
+    assert "A graphical approach to sequentially rejective multiple test procedures" in html
+    assert "Adjusted <i>p</i>: the graphical procedure of Bretz et al. (2009)" in html
+
+
 def test_primary_family_adjusts_across_primary_outcomes(tmp_path: Path):
     study = write_study(tmp_path, contrasts=only("versus-control"),
                         multiplicity={"method": "bonferroni", "scope": "primary-family"})
@@ -148,7 +192,7 @@ def test_variance_fallback_fires_and_both_families_are_shown(tmp_path: Path):
     assert primary.selected_method == "welch"
     assert [(f.method, f.registered) for f in primary.contrasts] == [("welch", True),
                                                                    ("classical", False)]
-    assert "differed across the 4 levels of dose, Welch's F(3, " in primary.conclusion.sentence
+    assert "differed across the 4 levels of dose, Welch's F(3, " in primary.conclusions[0].sentence
     deviation = record.results.deviations[0]
     assert (deviation.kind, deviation.subject, deviation.acknowledged) == (
         "registered-contingency", "y", True)
@@ -169,9 +213,9 @@ def test_normality_fallback_selects_the_rank_based_analysis(tmp_path: Path):
     registered = next(f for f in primary.contrasts if f.registered)
     assert registered.method == "rank-based"
     assert {h.statistic_name for h in registered.hypotheses} == {"z"}
-    assert primary.conclusion.sentence.startswith("Response differed") or \
-        primary.conclusion.sentence.startswith("Response did not differ")
-    assert "Kruskal-Wallis H(3)" in primary.conclusion.sentence
+    assert primary.conclusions[0].sentence.startswith("Response differed") or \
+        primary.conclusions[0].sentence.startswith("Response did not differ")
+    assert "Kruskal-Wallis H(3)" in primary.conclusions[0].sentence
 
 
 def test_exploratory_analyses_stay_out_of_the_conclusions(tmp_path: Path):

@@ -6,54 +6,27 @@ generator to what its README says (layout, missed visits, the effects built in).
 
 from __future__ import annotations
 
-import csv
-import importlib.util
-import json
-import os
-import subprocess
-import sys
 from collections import Counter
-from pathlib import Path
 
-import jsonschema
 import numpy as np
 import pytest
 
 from appendix.plan.load import load_plan
-from appendix.plan.yamltree import read_tree
+from tests.demos import (REPO, assert_invented_with_caution, assert_rewrites_byte_for_byte,
+                         load_generator, read_rows, validate_study_file)
 
-REPO = Path(__file__).resolve().parent.parent
 DEMO = REPO / "studies" / "greenhouse-split"
 
-
-def _generator():
-    spec = importlib.util.spec_from_file_location("greenhouse_generate", DEMO / "generate.py")
-    module = importlib.util.module_from_spec(spec)
-    spec.loader.exec_module(module)
-    return module
-
-
-gen = _generator()
+gen = load_generator(DEMO)
 
 
 @pytest.fixture(scope="module")
 def rows() -> list[dict[str, str]]:
-    with (DEMO / "data" / "pots.csv").open(newline="", encoding="utf-8") as handle:
-        return list(csv.DictReader(handle))
+    return read_rows(DEMO / "data" / "pots.csv")
 
 
 def test_generator_rewrites_the_committed_file_byte_for_byte(tmp_path):
-    committed = (DEMO / "data" / "pots.csv").read_bytes()
-    assert gen.write(tmp_path / "a.csv") == 216
-    assert (tmp_path / "a.csv").read_bytes() == committed
-    # a fresh interpreter with another hash seed writes the same bytes
-    script = str(DEMO / "generate.py")
-    code = (f"import importlib.util as u; s = u.spec_from_file_location('g', {script!r}); "
-            f"m = u.module_from_spec(s); s.loader.exec_module(m); "
-            f"from pathlib import Path; m.write(Path({str(tmp_path / 'b.csv')!r}))")
-    subprocess.run([sys.executable, "-c", code], check=True,
-                   env={**os.environ, "PYTHONHASHSEED": "4242"})
-    assert (tmp_path / "b.csv").read_bytes() == committed
+    committed = assert_rewrites_byte_for_byte(DEMO, DEMO / "data" / "pots.csv", tmp_path, 216)
     assert committed.startswith(b"pot_id,bench,coating,irrigation,visit,baseline_height_mm,"
                                 b"chlorophyll_index,dry_mass_g\nG001,")
 
@@ -128,13 +101,7 @@ def test_the_effects_the_readme_names_are_in_the_data(rows):
 
 
 def test_readme_says_the_data_are_invented_and_carries_the_caution():
-    text = " ".join((DEMO / "README.md").read_text(encoding="utf-8").split())
-    assert "**Everything here is invented.**" in text
-    assert "seeded random generator" in text and "byte for byte" in text
-    assert "Statistical output is not a clinical or regulatory decision." in text
-    assert "qualified, licensed statistician and the study's own governance" in text
-    assert "regulations that apply locally" in text
-    assert (DEMO / "study.yaml").read_text(encoding="utf-8").startswith("# Invented demo study")
+    assert_invented_with_caution(DEMO)
 
 
 def test_study_file_registers_the_design_and_matches_the_data(rows):
@@ -160,11 +127,6 @@ def test_study_file_registers_the_design_and_matches_the_data(rows):
 
 
 def test_study_file_passes_the_published_json_schema():
-    # the committed JSON Schema (draft 2020-12), checked by the jsonschema library
-    schema = json.loads((REPO / "schema" / "study.schema.json").read_text(encoding="utf-8"))
-    # as the loader reads YAML (core schema: dates and yes/no stay text)
-    plan = read_tree((DEMO / "study.yaml").read_text(encoding="utf-8")).value
-    jsonschema.Draft202012Validator(schema).validate(plan)
+    plan, validator = validate_study_file(DEMO / "study.yaml")
     wrong = {**plan, "design": {**plan["design"], "sums_of_squares": 4}}
-    with pytest.raises(jsonschema.ValidationError):
-        jsonschema.Draft202012Validator(schema).validate(wrong)
+    assert not validator.is_valid(wrong)

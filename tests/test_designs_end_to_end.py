@@ -83,8 +83,8 @@ def _statsmodels_table(frame: pd.DataFrame, ss: int, covariate: bool, interactio
 def test_blocked_factorial_tables_match_statsmodels(tmp_path, ss, covariate, interaction):
     frame = _factorial(tmp_path, ss=ss, covariate=covariate, interaction=interaction)
     results = compute(tmp_path / "study.yaml").results
-    assert results.outcomes == ()
-    (model,) = results.models
+    (model,) = results.outcomes
+    assert model.robust is None and "blocks" in model.robust_absent
     (table,) = model.tables
     assert table.ss_type == ss
     reference, fit = _statsmodels_table(frame, ss, covariate, interaction)
@@ -112,7 +112,7 @@ def test_blocked_factorial_tables_match_statsmodels(tmp_path, ss, covariate, int
 
 def test_marginal_means_match_statsmodels_predictions(tmp_path):
     frame = _factorial(tmp_path, ss=3, covariate=True, interaction=True)
-    (model,) = compute(tmp_path / "study.yaml").results.models
+    (model,) = compute(tmp_path / "study.yaml").results.outcomes
     _, fit = _statsmodels_table(frame, 3, True, True)
     data = frame[frame.flagged != "yes"]
     mean_base = data["baseline"].astype(float).mean()
@@ -168,7 +168,7 @@ def test_repeated_measures_match_pingouin(tmp_path):
     pingouin = pytest.importorskip("pingouin")
     frame = _repeated(tmp_path)
     computed = compute(tmp_path / "study.yaml")
-    (model,) = computed.results.models
+    (model,) = computed.results.outcomes
     assert model.n_units == 23
     assert any(f.code == "incomplete-units" for f in computed.results.findings)
     complete = frame[frame.unit_id != "U05"].copy()
@@ -219,7 +219,7 @@ contrasts:
   - {id: C1, factor: coating, kind: versus-control, label: Each coating against none}
 multiplicity: {method: dunnett}
 """, encoding="utf-8")
-    (model,) = compute(tmp_path / "study.yaml").results.models
+    (model,) = compute(tmp_path / "study.yaml").results.outcomes
     (family,) = model.contrasts
     assert [h.id for h in family.hypotheses] == ["C1:thin", "C1:thick", "C1:dense"]
     # Balanced: the three differences share the control, correlation 1/2 each.
@@ -256,7 +256,7 @@ contrasts:
 multiplicity: {method: none}
 """, encoding="utf-8")
     computed = compute(tmp_path / "study.yaml")
-    (model,) = computed.results.models
+    (model,) = computed.results.outcomes
     frame["index"] = frame["index"].astype(float)
     reference = pingouin.rm_anova(data=frame, dv="index", within="visit", subject="unit_id",
                                   correction=True).iloc[0]
@@ -310,7 +310,7 @@ contrasts:
   - {id: T1, factor: coating, kind: trend, degree: 2, spacing: [0, 1, 3], label: Thickness trend}
 multiplicity: {method: none}
 """, encoding="utf-8")
-    (model,) = compute(tmp_path / "study.yaml").results.models
+    (model,) = compute(tmp_path / "study.yaml").results.outcomes
     linear, quadratic = model.contrasts[0].hypotheses
     means = frame.assign(mass=frame["mass"].astype(float)).groupby("coating")["mass"].mean()[coatings]
     # References: scipy 1.17.1 stats.linregress(...).slope; numpy 2.4.6 polyfit(..., 2)[0].
@@ -349,12 +349,12 @@ def test_primary_family_and_exploratory_entries_for_designs(tmp_path):
                           " reason: Asked by the steering group}")
     (tmp_path / "study.yaml").write_text(study)
     results = compute(tmp_path / "study.yaml").results
-    hypotheses = [h for m in results.models for f in m.contrasts for h in f.hypotheses]
+    hypotheses = [h for m in results.outcomes for f in m.contrasts for h in f.hypotheses]
     assert len(hypotheses) == 2 * 8
-    assert {f.scope for m in results.models for f in m.contrasts} == {"primary-family"}
+    assert {f.scope for m in results.outcomes for f in m.contrasts} == {"primary-family"}
     expected = multipletests([h.p for h in hypotheses], method="holm")[1]
     np.testing.assert_allclose([h.p_adjusted for h in hypotheses], expected, rtol=1e-12)
-    assert all(len(m.hypothesis_conclusions) == 8 for m in results.models)
+    assert all(len(m.hypothesis_conclusions) == 8 for m in results.outcomes)
     (entry,) = results.exploratory
     assert entry.id == "E1" and [f.outcome for f in entry.families] == ["mass", "height"]
     assert all(h.p_adjusted == h.p for f in entry.families for h in f.hypotheses)
@@ -364,7 +364,8 @@ def test_primary_family_and_exploratory_entries_for_designs(tmp_path):
 
 @pytest.mark.parametrize("kind, method", [
     ("pairwise", "tukey"), ("helmert", "fixed-sequence"), ("trend", "bonferroni"),
-    ("custom", "none"), ("pairwise", "benjamini-hochberg"), ("versus-control", "sidak")])
+    ("custom", "none"), ("pairwise", "benjamini-hochberg"), ("versus-control", "sidak"),
+    ("custom", "graphical")])
 def test_every_contrast_kind_and_multiplicity_method_on_marginal_means(tmp_path, kind, method):
     """Each kind of contrast on coating's marginal means under each multiplicity method: the
     raw p is the t test of statsmodels' own linear combination of its fitted coefficients
@@ -377,7 +378,7 @@ def test_every_contrast_kind_and_multiplicity_method_on_marginal_means(tmp_path,
     frame = _factorial(tmp_path, ss=3, covariate=False, interaction=True)
     extra = {"custom": ", weights: {thin: 1, thick: 1, none: -2}", "trend": "", "helmert": "",
              "pairwise": "", "versus-control": ""}[kind]
-    order = ", order: [C1]" if method == "fixed-sequence" else ""
+    order = {"fixed-sequence": ", order: [C1]", "graphical": ", weights: {C1: 0.5}"}.get(method, "")
     study = (tmp_path / "study.yaml").read_text()
     study = study.replace("    - {name: coating, levels: [none, thin, thick], control: none}",
                           "    - {name: coating, levels: [none, thin, thick], control: none, ordered: true}")
@@ -385,7 +386,7 @@ def test_every_contrast_kind_and_multiplicity_method_on_marginal_means(tmp_path,
     study = study[:start] + (f"contrasts:\n  - {{id: C1, factor: coating, kind: {kind}, label: Coatings{extra}}}\n"
                              f"multiplicity: {{method: {method}{order}}}\n")
     (tmp_path / "study.yaml").write_text(study)
-    (model,) = compute(tmp_path / "study.yaml").results.models
+    (model,) = compute(tmp_path / "study.yaml").results.outcomes
     (family,) = model.contrasts
     _, fit = _statsmodels_table(frame, 3, False, True)
     names = list(fit.params.index)
@@ -428,6 +429,8 @@ def test_every_contrast_kind_and_multiplicity_method_on_marginal_means(tmp_path,
             stopped = h.decision != "reject"
     elif method == "none":
         assert adjusted == raw
+    elif method == "graphical":  # one node at weight 1/2: the Bonferroni p / w (Bretz et al. 2009)
+        assert adjusted == pytest.approx([min(1.0, 2 * p) for p in raw], rel=1e-15)
     else:
         key = {"bonferroni": "bonferroni", "benjamini-hochberg": "fdr_bh", "sidak": "sidak"}[method]
         np.testing.assert_allclose(adjusted, multipletests(raw, method=key)[1], rtol=1e-10)
@@ -438,7 +441,7 @@ def test_an_empty_cell_is_stated_and_costs_the_interaction_a_degree_of_freedom(t
     frame = frame[~((frame.coating == "thick") & (frame.water == "pulsed"))]
     frame.to_csv(tmp_path / "units.csv", index=False)
     computed = compute(tmp_path / "study.yaml")
-    (model,) = computed.results.models
+    (model,) = computed.results.outcomes
     (table,) = model.tables
     interaction = next(r for r in table.rows if r.term == ("coating", "water"))
     assert (interaction.df, interaction.full_df) == (1, 2)
@@ -484,7 +487,7 @@ contrasts:
   - {id: S2, factor: visit, kind: trend, by: coating, label: Trend within each coating}
 multiplicity: {method: none}
 """, encoding="utf-8")
-    (model,) = compute(tmp_path / "study.yaml").results.models
+    (model,) = compute(tmp_path / "study.yaml").results.outcomes
     hypotheses = {h.id: h for h in model.contrasts[0].hypotheses}
     frame["y"] = frame["y"].astype(float)
     for visit in ["day7", "day14", "day21"]:
@@ -540,7 +543,7 @@ contrasts:
   - {id: C1, factor: coating, kind: versus-control, label: Each coating against none}
 multiplicity: {method: holm}
 """)
-    (model,) = compute(tmp_path / "study.yaml").results.models
+    (model,) = compute(tmp_path / "study.yaml").results.outcomes
     (check,) = model.slopes
     data = frame.astype({"baseline": float, "mass": float})
     reduced = smf.ols("mass ~ baseline + C(coating)", data=data).fit()

@@ -75,12 +75,13 @@ def test_pdf_text_holds_the_variance_table(demo_run: Path):
     reader = PdfReader(demo_run / "run" / "appendix.pdf")
     text = " ".join(page.extract_text() for page in reader.pages)
     for outcome in results["outcomes"]:
-        table = outcome["table"]
-        assert f"F({table['df_between']}, {table['df_within']}) = " \
-               f"{numbers.fixed(table['f'], 2)}" in text
-        assert numbers.p_value(table["p"]) in text
+        table = outcome["tables"][0]
+        row = table["rows"][0]
+        assert f"F({row['df']}, {table['residual_df']}) = " \
+               f"{numbers.fixed(row['f'], 2)}" in text
+        assert numbers.p_value(row["p"]) in text
     # The demo builds a coating effect into dry mass only (see studies/seed-coating/generate.py).
-    decisions = {o["name"]: o["conclusion"]["decision"] for o in results["outcomes"]}
+    decisions = {o["name"]: o["conclusions"][0]["decision"] for o in results["outcomes"]}
     assert decisions == {"dry_mass": "reject", "chlorophyll": "retain"}
 
 
@@ -90,4 +91,4 @@ def test_results_json_is_byte_identical_across_runs(demo_run: Path):
     first = (demo_run / "run" / "results.json").read_bytes()
     assert (demo_run / "again" / "results.json").read_bytes() == first
     assert b"NaN" not in first and b"Infinity" not in first
-    assert json.loads(first)["format_version"] == 1
+    assert json.loads(first)["format_version"] == 2

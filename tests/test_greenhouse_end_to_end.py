@@ -39,7 +39,7 @@ def test_every_section_is_there_and_every_link_lands(run):
 
 def test_both_strata_sphericity_slopes_and_the_registered_family(run):
     results = json.loads((run / "results.json").read_text(encoding="utf-8"))
-    (model,) = results["models"]
+    (model,) = results["outcomes"]
     between, within = model["tables"]
     assert (between["stratum"], within["stratum"], between["ss_type"]) == ("between units",
                                                                            "within units", 3)
@@ -56,8 +56,10 @@ def test_both_strata_sphericity_slopes_and_the_registered_family(run):
     coating = next(r for r in between["rows"] if r["term"] == ["coating"])
     interaction = next(r for r in within["rows"] if r["term"] == ["coating", "visit"])
     assert coating["p"] < 0.001 and interaction["gg_p"] < 0.001
+    # the residual figures are of the unit means; the profile plot takes the means' place
     assert sorted(p.name for p in (run / "figures").iterdir()) == [
-        "chlorophyll-covariate-1.svg", "chlorophyll-interaction-3.svg", "chlorophyll-profile.svg"]
+        f"chlorophyll-{kind}.svg" for kind in ("contrasts", "covariate-1", "distribution", "f-reference",
+                                               "interaction-3", "profile", "qq", "residuals")]
 
 
 def test_the_pdf_names_the_design_and_carries_the_caution(run):
@@ -69,7 +71,7 @@ def test_the_pdf_names_the_design_and_carries_the_caution(run):
 
 def test_an_interaction_with_the_within_factor_is_concluded_on_as_an_interaction(run):
     results = json.loads((run / "results.json").read_text(encoding="utf-8"))
-    (model,) = results["models"]
+    (model,) = results["outcomes"]
     sentences = [c["sentence"] for c in model["conclusions"]]
     (visit,) = [s for s in sentences if s.startswith("Seed coating × visit")]
     assert "the hypothesis of no interaction is rejected" in visit

@@ -9,7 +9,7 @@ import numpy as np
 
 from appendix import api
 from appendix.figures import PLOT_POINTS
-from appendix.runner import SHAPIRO_MAX_N
+from appendix.stats.diagnostics import SHAPIRO_MAX_N
 
 N = 25_000
 
@@ -28,7 +28,7 @@ def test_large_study_subsamples_only_figures_and_shapiro(tmp_path: Path):
                      encoding="utf-8")
     record = api.run(study, tmp_path / "run", pdf=False)
     outcome = record.results.outcomes[0]
-    assert outcome.n_analysed == N and outcome.arithmetic == "exact-decimal"
+    assert outcome.n_units == N and outcome.arithmetic == "exact-decimal"
     normality = outcome.diagnostics.normality
     assert normality.n == SHAPIRO_MAX_N
     assert [w.code for w in normality.warnings] == ["normality-subsample"]
@@ -36,7 +36,7 @@ def test_large_study_subsamples_only_figures_and_shapiro(tmp_path: Path):
     from scipy.stats import f_oneway
 
     reference = f_oneway(*(values[codes == i] for i in range(3)))
-    assert abs(outcome.table.f - reference.statistic) <= 1e-9 * reference.statistic
+    assert abs(outcome.tables[0].rows[0].f - reference.statistic) <= 1e-9 * reference.statistic
     html = (tmp_path / "run" / "appendix.html").read_text(encoding="utf-8")
     statement = (f"Points are a deterministic subsample of {PLOT_POINTS} of the {N} units; "
                  "every unit enters the boxes, means and tests.")

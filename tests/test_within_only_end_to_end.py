@@ -53,7 +53,7 @@ def test_the_effect_interval_is_on_the_corrected_df_and_the_appendix_says_so(tmp
     decisions = set()
     for seed in range(12):
         computed = _within_only(tmp_path, seed)
-        (model,) = computed.results.models
+        (model,) = computed.results.outcomes
         row = _within_row(model)
         assert model.sphericity.greenhouse_geisser < 0.5
         (sentence,) = [c.sentence for c in model.conclusions]
@@ -66,16 +66,17 @@ def test_the_effect_interval_is_on_the_corrected_df_and_the_appendix_says_so(tmp
         decisions.add(rejected)
     assert decisions == {True, False}
     html = " ".join(render(computed).html.split())
-    assert ("for within-unit terms it is taken on the Greenhouse-Geisser corrected degrees of "
-            "freedom, those of the test in force") in html
+    assert ("for within-unit terms on the Greenhouse-Geisser corrected degrees of freedom, "
+            "those of the test in force, so that each excludes zero exactly when its F test "
+            "rejects") in html.replace("<i>F</i>", "F")
     assert "inverts the noncentral F distribution on those corrected" in html
-    assert json.loads(to_json(computed.results))["models"][0]["tables"][1]["rows"][0][
+    assert json.loads(to_json(computed.results))["outcomes"][0]["tables"][1]["rows"][0][
         "effect_ci_df"] == list(row.gg_df)
 
 
 def test_two_levels_are_not_called_corrected_and_the_note_says_why(tmp_path):
     computed = _within_only(tmp_path, 1, levels=2)
-    (model,) = computed.results.models
+    (model,) = computed.results.outcomes
     row = _within_row(model)
     assert (row.gg_df, row.gg_p, row.hf_df, row.hf_p) == (None, None, None, None)
     assert row.effect_ci_df == (1.0, 11.0)

@@ -11,7 +11,8 @@ import math
 from collections.abc import Mapping
 from dataclasses import dataclass
 
-from appendix.plan.choices import KINDS, METHODS
+from appendix.plan.choices import KINDS, METHODS, hypotheses_of_kind
+from appendix.plan.graph_checks import graphical_problems
 from appendix.plan.raw import Found, items, mapping, number, repeats, text, unique
 from appendix.plan.raw_design import RawDesign, RawFactor
 from appendix.plan.wording import Loc, did_you_mean, one_of, show
@@ -164,7 +165,8 @@ def _weights(loc: Loc, entry: Mapping, factor: RawFactor) -> list[Found]:
     if None in values or not all(math.isfinite(v) for v in values):
         return found  # each non-number is a field error; a sum of them says nothing
     largest = max((abs(v) for v in values), default=0.0)
-    total = math.fsum(values)
+    # Summed relative to the largest so that weights near the float limit cannot overflow.
+    total = math.fsum(v / largest for v in values) * largest if largest else 0.0
     if largest == 0:
         found.append(((*loc, "weights"), "got no weight other than 0; allowed: weights that "
                                          "are not all 0, summing to 0"))
@@ -247,7 +249,29 @@ def _multiplicity(raw: Mapping, design: _Design) -> list[Found]:
     elif order is not None and method in METHODS:
         found.append((where, f"got {show(order)} with method {show(method)}; allowed: 'order' only "
                              "with method 'fixed-sequence' (remove it, or choose that method)"))
+    if method in METHODS:
+        counts = {i: _hypothesis_count(("contrasts", i), entry, design.design) for i, entry in contrasts}
+        exploratory = [entry.get("id") for _, entry in items(raw.get("exploratory"))]
+        found += graphical_problems(settings, method, contrasts, counts, exploratory, design.outcomes)
     return found
+
+
+def _hypothesis_count(loc: Loc, entry: Mapping, design: RawDesign) -> int | None:
+    """How many hypotheses a contrast expands into on one outcome; None when the file
+    does not tell (its factor, kind, degree or `by` is itself a problem)."""
+    factor, _ = _factor(loc, entry, design)
+    kind, degree = entry.get("kind"), entry.get("degree", 1)
+    if (factor is _UNKNOWN or len(factor.levels) < 2 or kind not in KINDS
+            or not isinstance(degree, int) or isinstance(degree, bool)):
+        return None
+    count = hypotheses_of_kind(kind, len(factor.levels), degree)
+    by = entry.get("by")
+    if by is None:
+        return count
+    by_factor = design.named(by)
+    if by_factor is None or by_factor is factor or not by_factor.levels:
+        return None
+    return count * len(by_factor.levels)
 
 
 def _single_kind(method: str, contrasts: list[tuple[int, Mapping]], design: _Design) -> list[Found]:

@@ -30,7 +30,13 @@ from pydantic import (
 from pydantic_core import PydanticCustomError
 
 from appendix.plan.checks import DATA_FORMATS, consistency_problems
-from appendix.plan.choices import ContrastKind, DeviationKind, FactorRole, MultiplicityMethod
+from appendix.plan.choices import (
+    ContrastKind,
+    DeviationKind,
+    FactorRole,
+    MultiplicityMethod,
+    hypotheses_of_kind,
+)
 from appendix.plan.scalars import scalar_text
 from appendix.plan.wording import key_path
 
@@ -332,9 +338,7 @@ class Contrast(_Frozen):
         >>> Contrast(id="C", kind="pairwise", label="all pairs").hypothesis_count(4)
         6
         """
-        counts = {"custom": 1, "pairwise": k * (k - 1) // 2, "versus-control": k - 1,
-                  "trend": self.trend_degree, "helmert": k - 1}
-        return counts[self.kind]
+        return hypotheses_of_kind(self.kind, k, self.trend_degree)
 
 
 class ExploratoryContrast(Contrast):
@@ -355,6 +359,14 @@ class Multiplicity(_Frozen):
         default=None, min_length=1,
         description="fixed-sequence only: every contrast id exactly once, in testing order; "
                     "each outcome's family follows it, skipping contrasts that do not apply to it.")
+    weights: dict[ContrastId, Number] | None = Field(
+        default=None, exclude_if=_is(None),
+        description="graphical only: each contrast's initial share of alpha (contrasts left "
+                    "out weigh 0); from 0 to 1 each, summing to more than 0 and at most 1.")
+    transitions: dict[ContrastId, dict[ContrastId, Number]] | None = Field(
+        default=None, exclude_if=_is(None),
+        description="graphical only: for a contrast, the share of its level passed to each "
+                    "other contrast once it is rejected; from 0 to 1 each, at most 1 in all.")
 
 
 class Acknowledgement(_Frozen):
@@ -458,6 +470,24 @@ class Plan(_Frozen):
         design = self.design
         return (len(design.factors) == 1 and design.factors[0].role == "treatment"
                 and not design.covariates and not design.interactions)
+
+    @property
+    def robust_absent(self) -> str | None:
+        """None when the tests of the one-factor layout that assume neither equal variances
+        (Welch) nor normal errors (Kruskal-Wallis) are defined for this design: one
+        treatment factor, nothing else. Else why they are not computed, in one sentence."""
+        if self.is_one_way:
+            return None
+        design = self.design
+        has = [what for what, present in (
+            ("more than one treatment factor", len(self.treatments) > 1),
+            ("blocks", bool(self.blocks)),
+            ("covariates", bool(design.covariates)),
+            ("repeated measures", self.within is not None)) if present]
+        listed = ", ".join(has[:-1]) + (" and " if len(has) > 1 else "") + has[-1] if has else "another layout"
+        return ("Welch's test and the Kruskal-Wallis test are defined for one treatment factor "
+                f"without blocks, covariates or repeated measures; this design has {listed}, "
+                "so they are not computed.")
 
     @property
     def model_terms(self) -> tuple[tuple[str, ...], ...]:

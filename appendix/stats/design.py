@@ -78,13 +78,16 @@ class Grid:
         """The cell of every row from the per-factor level codes (0-based, in level order)."""
         if len(codes) != len(self.names):
             raise InternalError(f"{len(codes)} code arrays given for {len(self.names)} factors")
-        cell = np.zeros(np.asarray(codes[0]).shape, dtype=np.int64)
+        cell = np.zeros(np.asarray(codes[0]).shape, dtype=np.int64) if len(codes) > 1 else None
+        shape = np.asarray(codes[0]).shape
         for name, k, column in zip(self.names, self.shape, codes):
             column = np.asarray(column)
-            if column.shape != cell.shape or (column.size and not np.issubdtype(column.dtype, np.integer)):
-                raise InternalError(f"codes of '{name}' must be integers of shape {cell.shape}")
+            if column.shape != shape or (column.size and not np.issubdtype(column.dtype, np.integer)):
+                raise InternalError(f"codes of '{name}' must be integers of shape {shape}")
             if column.size and (column.min() < 0 or column.max() >= k):
                 raise InternalError(f"codes of '{name}' must lie in 0..{k - 1}")
+            if len(self.names) == 1:  # one factor: its codes are the cells (no copy)
+                return np.asarray(column, dtype=np.int64)
             cell *= k
             cell += column
         return cell
@@ -183,3 +186,17 @@ def _off_diagonal(cross: np.ndarray, columns: list[np.ndarray], stats: list[Cell
                 sums = np.bincount(c, weights=deviations[i] * deviations[j], minlength=k)
                 cross[:, i, j] += sums
                 cross[:, j, i] += sums
+
+
+def design_cells_from_stats(grid: Grid, cells: CellStats) -> DesignCells:
+    """The `DesignCells` of a one-factor grid without covariates from its cell statistics
+    (e.g. computed out of core): means and SSD carried over, centring kept."""
+    if len(grid.names) != 1 or grid.n_cells != len(cells.labels):
+        raise InternalError("cell statistics convert only for a one-factor grid of the same levels")
+    mean = np.asarray(cells.mean, dtype=np.float64).reshape(-1, 1)
+    cross = np.asarray(cells.ssd, dtype=np.float64).reshape(-1, 1, 1)
+    shift = np.array([cells.shift])
+    return DesignCells(grid=grid, covariates=(), n=np.asarray(cells.n, dtype=np.int64),
+                       mean=_read_only(mean), cross=_read_only(cross), arithmetic=cells.arithmetic,
+                       shift=shift, centred_mean=_read_only(np.asarray(cells.centred_mean,
+                                                                       dtype=np.float64).reshape(-1, 1)))

@@ -141,41 +141,60 @@ def outlier_screen(
     levels: Sequence[str],
     threshold: float,
 ) -> OutlierScreen:
-    """Flag units whose externally studentized residual exceeds `threshold` in |t|.
-
-    For the one-way model the leverage of a unit in level i is h = 1/n_i, so with
-    residual e, SS_within and df = N - k:
-    t = e / sqrt(s_(-)^2 (1 - h)), s_(-)^2 = (SS_within - e^2 / (1 - h)) / (df - 1)
-    (Belsley, Kuh & Welsch 1980, *Regression Diagnostics*, ch. 2). Units alone in
-    their level (h = 1) have no defined t and are skipped with a warning.
-    """
+    """`studentized_screen` of the one-way model: residuals from the group means, and the
+    leverage of a unit in level i is h = 1/n_i."""
     values, codes = check_inputs(values, codes, cells.k)
-    if not threshold > 0:
-        raise InternalError(f"threshold must be positive, got {threshold!r}")
     if len(units) != values.size or len(levels) != cells.k:
         raise InternalError("units must match values and levels must match the cells")
+    return studentized_screen(values, residuals(values, codes, cells), 1.0 / cells.n[codes],
+                              cells.ss_within, cells.df_within, units,
+                              [str(levels[c]) for c in codes], threshold)
+
+
+def studentized_screen(
+    values: np.ndarray,
+    residual: np.ndarray,
+    leverage: np.ndarray,
+    ss_residual: float,
+    df_residual: int,
+    units: Sequence[str],
+    groups: Sequence[str],
+    threshold: float,
+) -> OutlierScreen:
+    """Flag units whose externally studentized residual exceeds `threshold` in |t|.
+
+    With residual e, leverage h (the diagonal of the hat matrix), the model's residual
+    SS and df: t = e / sqrt(s_(-)^2 (1 - h)), s_(-)^2 = (SS - e^2 / (1 - h)) / (df - 1)
+    (Belsley, Kuh & Welsch 1980, *Regression Diagnostics*, ch. 2). Units with leverage 1
+    (alone in their cell) have no defined t and are skipped with a warning. `groups[i]`
+    names unit i's cell for the report.
+    """
+    if not threshold > 0:
+        raise InternalError(f"threshold must be positive, got {threshold!r}")
+    values = np.asarray(values, dtype=np.float64)
+    e = np.asarray(residual, dtype=np.float64)
+    h = np.asarray(leverage, dtype=np.float64)
+    if not (len(units) == len(groups) == values.size == e.size == h.size):
+        raise InternalError("units, groups, values, residuals and leverages must match")
     method = "studentized-residual"
     notes: list[StatWarning] = []
-    n_own = cells.n[codes]
-    alone = n_own == 1
+    alone = h >= 1.0 - 1e-12
     if alone.any():
         notes.append(StatWarning(
             "outlier-leverage-one",
-            f"{int(alone.sum())} unit(s) alone in their level have leverage 1 and are not screened."))
-    screened = ~alone
-    df_left = cells.df_within - 1
-    ss_within = cells.ss_within
-    if df_left < 1 or ss_within == 0.0:
+            f"{int(alone.sum())} unit(s) alone in their cell have leverage 1 and are not screened."))
+    screened = ~alone & np.isfinite(e)
+    df_left = df_residual - 1
+    if df_left < 1 or ss_residual == 0.0:
         notes.append(StatWarning(
             "outlier-undefined",
             "Too few residual degrees of freedom or no residual variation; no unit is screened."))
         return OutlierScreen(method, float(threshold), 0, (), tuple(notes))
-    e = residuals(values, codes, cells)
-    keep = 1.0 - 1.0 / n_own[screened]
+    keep = 1.0 - h[screened]
     e_kept = e[screened]
     # s_(-)^2 can reach 0 when one unit carries all residual variation: t is then
     # infinite and the unit is flagged, so the division is allowed to give inf here.
-    s2 = np.maximum(ss_within - e_kept**2 / keep, 0.0) / df_left
+    s2 = np.maximum(ss_residual - e_kept**2 / keep, 0.0) / df_left
     with np.errstate(divide="ignore", invalid="ignore"):
         t = np.where(e_kept == 0.0, 0.0, e_kept / np.sqrt(s2 * keep))
     if np.isinf(t).any():
@@ -185,7 +204,7 @@ def outlier_screen(
             "set aside, so their studentized residual is infinite; they are flagged."))
     index = np.flatnonzero(screened)
     flagged = tuple(
-        FlaggedUnit(str(units[i]), str(levels[codes[i]]), float(values[i]), float(e[i]), float(ti))
+        FlaggedUnit(str(units[i]), str(groups[i]), float(values[i]), float(e[i]), float(ti))
         for i, ti in zip(index, t) if abs(ti) > threshold
     )
     return OutlierScreen(method, float(threshold), int(index.size), flagged, tuple(notes))

@@ -19,6 +19,8 @@ monotone in the raw p, never below it and capped at 1:
 - fixed-sequence: in the registered order, p_adj = max of the p-values so far; testing
   stops at the first p >= alpha, later hypotheses are not tested (Maurer, Hothorn &
   Lehmacher 1995; Westfall & Krishen 2001, J Stat Plan Inference 99:25-40);
+- graphical: the registered weights and transition weights of one node per contrast,
+  tested sequentially rejective (Bretz, Maurer, Brannath & Posch 2009), see `graphical`;
 - tukey and dunnett: single-step simultaneous tests, see `simultaneous`.
 
 Intervals: bonferroni and sidak report intervals at the per-hypothesis level their
@@ -39,10 +41,11 @@ from appendix.errors import InternalError
 from appendix.results import HypothesisResult
 from appendix.stats.cells import CellStats
 from appendix.stats.contrasts import Hypothesis, contrast_result, critical_value, interval, level_model
+from appendix.stats.graphical import Graph, graphical_test
 from appendix.stats.simultaneous import dunnett_results, tukey_results
 
 P_METHODS = ("none", "bonferroni", "holm", "hochberg", "sidak", "benjamini-hochberg")
-METHODS = (*P_METHODS, "tukey", "dunnett", "fixed-sequence")
+METHODS = (*P_METHODS, "tukey", "dunnett", "fixed-sequence", "graphical")
 
 
 def adjust(p: Sequence[float | None], method: str) -> np.ndarray:
@@ -137,18 +140,41 @@ def _sequence_positions(results: Sequence[HypothesisResult], order: Sequence[str
     return positions
 
 
+def graphical(results: Sequence[HypothesisResult], graph: Graph,
+              alpha: float) -> tuple[HypothesisResult, ...]:
+    """The graphical procedure over one node per result, the node being its contrast id.
+
+    Each contrast of the family must have exactly one hypothesis. A result without a p
+    passes through unchanged (it is never rejected and passes nothing on); intervals are
+    the unadjusted 1 - alpha ones.
+    """
+    nodes = [r.contrast for r in results]
+    if len(set(nodes)) != len(nodes):
+        raise InternalError(f"a graphical family needs one hypothesis per contrast, got {nodes}")
+    weights, transitions = graph.matrices(nodes)
+    tested = graphical_test([r.p for r in results], weights, transitions, alpha)
+    return tuple(r if r.p is None else _decide(r, p_adj, alpha, 1.0 - alpha, False)
+                 for r, p_adj in zip(results, tested.p_adjusted))
+
+
 def apply_multiplicity(results: Sequence[HypothesisResult], method: str, alpha: float, *,
-                       order: Sequence[str] | None = None) -> tuple[HypothesisResult, ...]:
+                       order: Sequence[str] | None = None,
+                       graph: Graph | None = None) -> tuple[HypothesisResult, ...]:
     """Set p_adjusted, decision and interval of each result under a p-value `method`.
 
-    `method` is one of `P_METHODS` or ``fixed-sequence`` (which needs `order`: hypothesis
-    ids, or contrast ids standing for their hypotheses in expansion order). Results keep
-    their order; unavailable ones pass through unchanged. Tukey and Dunnett need the
-    level model and are reached through `test_family`.
+    `method` is one of `P_METHODS`, ``fixed-sequence`` (which needs `order`: hypothesis
+    ids, or contrast ids standing for their hypotheses in expansion order) or
+    ``graphical`` (which needs `graph`). Results keep their order; unavailable ones pass
+    through unchanged. Tukey and Dunnett need the level model and are reached through
+    `test_family`.
     """
     if not 0.0 < alpha < 1.0:
         raise InternalError(f"alpha must lie strictly between 0 and 1, got {alpha!r}")
     results = tuple(results)
+    if (graph is not None) != (method == "graphical"):
+        raise InternalError(f"a graph belongs to method graphical only (got method {method!r})")
+    if method == "graphical":
+        return graphical(results, graph, alpha)  # type: ignore[arg-type]
     if method == "fixed-sequence":
         if order is None:
             raise InternalError("fixed-sequence needs the registered order")
@@ -181,10 +207,10 @@ def adjust_across(families: Sequence[Sequence[HypothesisResult]], method: str, a
     method; its p_adjusted is then replaced here), passes the families in plan order,
     and gets them back in the same shape, adjusted as one family of m = all available
     hypotheses. For fixed-sequence the sequence is each outcome's registered order,
-    outcome after outcome in plan order. Tukey and Dunnett cannot span outcomes (the
-    plan stage forbids it), so they raise InternalError.
+    outcome after outcome in plan order. Tukey, Dunnett and graphical cannot span
+    outcomes (the plan stage forbids it), so they raise InternalError.
     """
-    if method in ("tukey", "dunnett"):
+    if method in ("tukey", "dunnett", "graphical"):
         raise InternalError(f"{method} cannot adjust across outcomes (scope primary-family)")
     sizes = [len(f) for f in families]
     flat = [r for f in families for r in f]
@@ -220,12 +246,14 @@ def _alternatives(alternative: str | Sequence[str], count: int) -> tuple[str, ..
 def test_family(hypotheses: Sequence[Hypothesis], alternatives: Sequence[str], *, method: str,
                 multiplicity: str, cells: CellStats, values: np.ndarray | None = None,
                 codes: np.ndarray | None = None, alpha: float,
-                order: Sequence[str] | None = None) -> tuple[HypothesisResult, ...]:
+                order: Sequence[str] | None = None,
+                graph: Graph | None = None) -> tuple[HypothesisResult, ...]:
     """Every hypothesis of one outcome under `method` and the registered `multiplicity`.
 
     `alternatives` is aligned with `hypotheses`; `values`/`codes` are needed for
-    rank-based; `order` (hypothesis or contrast ids) for fixed-sequence. Each result has
-    p_adjusted and decision set (reject iff p_adjusted < alpha), in the input order.
+    rank-based; `order` (hypothesis or contrast ids) for fixed-sequence; `graph` for
+    graphical. Each result has p_adjusted and decision set (reject iff p_adjusted <
+    alpha), in the input order.
     """
     if multiplicity not in METHODS:
         raise InternalError(f"multiplicity must be one of {METHODS}, got {multiplicity!r}")
@@ -238,7 +266,7 @@ def test_family(hypotheses: Sequence[Hypothesis], alternatives: Sequence[str], *
         return tukey_results(raw, alpha)
     if multiplicity == "dunnett":
         return dunnett_results(raw, model.var_mean, alpha)
-    return apply_multiplicity(raw, multiplicity, alpha, order=order)
+    return apply_multiplicity(raw, multiplicity, alpha, order=order, graph=graph)
 
 
 test_family.__test__ = False  # a library function whose name pytest would otherwise collect

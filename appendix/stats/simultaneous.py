@@ -213,6 +213,15 @@ def _dunnett_critical(alpha: float, lam: tuple[float, ...], df: float, two_sided
 
 # --- any family: the joint multivariate t ------------------------------------------------
 
+def _union_bound(stat: float, df: float, alternatives: Sequence[str]) -> float:
+    """sum_j P(T*_j >= stat) on `df`: Boole's inequality bounds P(max_j T*_j >= stat) by it
+    (m p for a family of one sidedness), each two-sided member counting both tails."""
+    from scipy import stats
+
+    one_tail = float(stats.t.sf(stat, df)) if math.isfinite(df) else float(stats.norm.sf(stat))
+    return min(1.0, sum(2.0 * one_tail if a == "two-sided" else one_tail for a in alternatives))
+
+
 def joint_results(raw: Sequence[HypothesisResult], corr: np.ndarray, alpha: float,
                   approximate: StatWarning | None = None
                   ) -> tuple[tuple[HypothesisResult, ...], float | None]:
@@ -226,6 +235,9 @@ def joint_results(raw: Sequence[HypothesisResult], corr: np.ndarray, alpha: floa
     estimated are left out of the law. When the members' df differ (separate variance
     estimates) each uses the law on its own df, an approximation stated by `approximate`
     like any other departure from a common variance estimate.
+
+    An adjusted p never exceeds the union (Bonferroni) bound of `_union_bound`: where the
+    integration error of a small tail would carry it past, it is clipped there.
 
     Returns the results and the largest error bound of the integration (None when
     nothing was tested).
@@ -249,5 +261,5 @@ def joint_results(raw: Sequence[HypothesisResult], corr: np.ndarray, alpha: floa
         stat = abs(r.statistic) if r.alternative == "two-sided" else _directed(r)
         p_adj, error = law.tail(stat)
         worst = max(worst, error)
-        out[i] = _finish(r, p_adj, c, alpha, extra)
+        out[i] = _finish(r, min(p_adj, _union_bound(stat, df, alternatives)), c, alpha, extra)
     return tuple(out), worst

@@ -25,7 +25,10 @@ READ_BACK = [
     ("records.json", DEEP, "diff", "is not a records file this version can read"),
     ("manifest.json", '{"format_version": 1}', "pack", "is not a run manifest of this version (tool: Field required"),
     ("manifest.json", '{"format_version": 1}', "diff", "is not a run manifest of this version (tool: Field required"),
-    ("results.json", '{"format_version": 1, "study": 3}', "diff", "is not a results file of this version (study: "),
+    ("results.json", '{"format_version": 2, "study": 3}', "diff", "is not a results file of this version (study: "),
+    ("results.json", '{"format_version": 1, "outcomes": [], "models": []}', "diff",
+     "is a results file of format 1, and this version of appendix compares results of format 2 only"),
+    ("results.json", '{"format_version": "2"}', "diff", "results.json: not a results file of format 2"),
 ]
 
 

@@ -10,6 +10,10 @@ import pytest
 from tests.plan.plans import BASE, NO_CONTROL, ORDERED, assert_refused
 
 LEVELS = "'placebo', 'low' or 'high'"
+#: Three contrasts of one hypothesis each, lines 19 to 22 once appended to BASE.
+GRAPH_CONTRASTS = ("contrasts:\n  - {id: C1, kind: custom, label: x, weights: {placebo: -1, high: 1}}\n"
+                   "  - {id: C2, kind: custom, label: y, weights: {placebo: -1, low: 1}}\n"
+                   "  - {id: C3, kind: custom, label: z, weights: {low: -1, high: 1}}\n")
 FALLBACK = "assumptions:\n  fallbacks:\n    - {when: unequal-variance, test: %s, use: welch}\n"
 
 CASES = [
@@ -32,6 +36,10 @@ CASES = [
      BASE + "contrasts:\n  - {id: C1, kind: custom, label: x, weights: {placebo: .inf, low: true}}\n",
      ["20: contrasts[0].weights.low: got true; allowed: a number",
       "20: contrasts[0].weights.placebo: got inf; allowed: a number"]),
+    ("weights near the float limit",
+     BASE + "contrasts:\n  - {id: C1, kind: custom, label: x, weights: {placebo: 1e308, low: 1e308, high: 1e308}}\n",
+     ["20: contrasts[0].weights: got weights summing to inf; allowed: weights summing to 0 "
+      "(levels not listed weigh 0)"]),
     ("custom without weights",
      BASE + "contrasts:\n  - {id: C1, kind: custom, label: x}\n",
      ["20: contrasts[0].weights: required key is missing for kind 'custom' "
@@ -143,7 +151,8 @@ CASES = [
     ("unknown multiplicity method",
      BASE + "multiplicity: {method: holms}\n",
      ["19: multiplicity.method: got 'holms'; allowed: 'none', 'bonferroni', 'holm', 'hochberg', "
-      "'sidak', 'benjamini-hochberg', 'tukey', 'dunnett' or 'fixed-sequence'; did you mean 'holm'?"]),
+      "'sidak', 'benjamini-hochberg', 'tukey', 'dunnett', 'fixed-sequence' or 'graphical'; did you "
+      "mean 'holm'?"]),
     ("fixed sequence without order",
      BASE + "contrasts:\n  - {id: C1, kind: helmert, label: x}\n"
             "multiplicity: {method: fixed-sequence}\n",
@@ -170,8 +179,56 @@ CASES = [
      BASE + "contrasts:\n  - {id: C1, kind: helmert, label: x}\n"
             "multiplicity: {method: sequence, order: [C1]}\n",
      ["21: multiplicity.method: got 'sequence'; allowed: 'none', 'bonferroni', 'holm', "
-      "'hochberg', 'sidak', 'benjamini-hochberg', 'tukey', 'dunnett' or 'fixed-sequence'; "
-      "did you mean 'fixed-sequence'?"]),
+      "'hochberg', 'sidak', 'benjamini-hochberg', 'tukey', 'dunnett', 'fixed-sequence' or "
+      "'graphical'; did you mean 'fixed-sequence'?"]),
+    ("graphical without weights",
+     BASE + "contrasts:\n  - {id: C1, kind: custom, label: x, weights: {placebo: -1, low: 1}}\n"
+            "multiplicity: {method: graphical}\n",
+     ["21: multiplicity.weights: required key is missing for method 'graphical' (each "
+      "contrast's initial share of alpha, summing to at most 1)"]),
+    ("graphical weights and transitions: unknown, exploratory, negative, self and sums",
+     BASE + GRAPH_CONTRASTS +
+     "exploratory:\n  - {id: E1, kind: pairwise, label: e, reason: asked by the committee}\n"
+     "multiplicity:\n  method: graphical\n  weights: {C1: 0.7, C2: 0.5}\n"
+     "  transitions:\n    C1: {C1: 0.5, C3: 0.6}\n    C2: {C1: -1, E1: 0.5}\n    C4: {C1: 1}\n"
+     "    C3: 5\n",
+     ["27: multiplicity.weights: got weights summing to 1.2; allowed: a sum of more than 0 and "
+      "at most 1",
+      "29: multiplicity.transitions.C1: got shares summing to 1.1; allowed: at most 1 in all (a "
+      "rejected contrast passes on at most its own level)",
+      "29: multiplicity.transitions.C1.C1: got 'C1', the contrast itself; allowed: another "
+      "contrast (a rejected contrast passes its level on to others)",
+      "30: multiplicity.transitions.C2.C1: got -1; allowed: a number from 0 to 1",
+      "30: multiplicity.transitions.C2.E1: got 'E1', an exploratory analysis; allowed: "
+      "registered contrast ids only (exploratory analyses are never adjusted with the plan)",
+      "31: multiplicity.transitions.C4: got 'C4'; allowed: one of the contrast ids 'C1', 'C2' "
+      "or 'C3'",
+      "32: multiplicity.transitions.C3: got 5; allowed: a mapping"]),
+    ("graphical weights all zero, or for an unknown id",
+     BASE + GRAPH_CONTRASTS + "multiplicity: {method: graphical, weights: {C1: 0, C9: 0.0}}\n",
+     ["23: multiplicity.weights: got no weight other than 0; allowed: a sum of more than 0 and "
+      "at most 1 (with none, no hypothesis could ever be rejected)",
+      "23: multiplicity.weights.C9: got 'C9'; allowed: one of the contrast ids 'C1', 'C2' or "
+      "'C3'"]),
+    ("graphical over contrasts of several hypotheses, some outcomes, the primary family",
+     BASE + "contrasts:\n  - {id: C1, kind: pairwise, label: x}\n"
+            "  - {id: C2, kind: custom, label: y, weights: {placebo: -1, low: 1}, outcomes: [pain]}\n"
+            "multiplicity: {method: graphical, scope: primary-family, weights: {C1: 1}}\n",
+     ["20: contrasts[0].kind: got 'pairwise', a contrast of 3 hypotheses, under multiplicity "
+      "method 'graphical'; allowed: a contrast of one hypothesis (custom, a trend of degree 1, "
+      "or a comparison of two levels, without 'by'): each contrast is one node of the graph",
+      "21: contrasts[1].outcomes: got a list without 'sleep' under multiplicity method "
+      "'graphical'; allowed: every outcome (or no 'outcomes'): each outcome is tested with the "
+      "whole graph",
+      "22: multiplicity.scope: got 'primary-family' with method 'graphical'; allowed: "
+      "'per-outcome' (each contrast id is one node of the graph, tested on each outcome apart)"]),
+    ("weights and transitions with another method",
+     BASE + "contrasts:\n  - {id: C1, kind: helmert, label: x}\n"
+            "multiplicity: {method: holm, weights: {C1: 1}, transitions: {}}\n",
+     ["21: multiplicity.transitions: got a mapping with method 'holm'; allowed: 'transitions' "
+      "only with method 'graphical' (remove it, or choose that method)",
+      "21: multiplicity.weights: got a mapping with method 'holm'; allowed: 'weights' only with "
+      "method 'graphical' (remove it, or choose that method)"]),
     ("unknown scope",
      BASE + "multiplicity: {scope: all}\n",
      ["19: multiplicity.scope: got 'all'; allowed: 'per-outcome' or 'primary-family'"]),

@@ -67,13 +67,16 @@ def test_defaults_without_new_keys(write_study):
               " {id: C2, kind: pairwise, label: y, outcomes: [sleep]}]"),
     ("dunnett", "[{id: C1, kind: versus-control, label: x, alternative: greater, justification: j}]"),
     ("fixed-sequence", "[{id: C1, kind: versus-control, label: x}, {id: C2, kind: trend, label: y}]"),
+    ("graphical", "[{id: C1, kind: custom, label: x, weights: {low: 1, placebo: -1}},"
+                  " {id: C2, kind: trend, label: y}]"),
 ])
 def test_every_multiplicity_method(write_study, method, contrasts):
-    order = ", order: [C2, C1]" if method == "fixed-sequence" else ""
+    order = {"fixed-sequence": ", order: [C2, C1]",
+             "graphical": ", weights: {C1: 1}, transitions: {C1: {C2: 1}}"}.get(method, "")
     text = ORDERED + f"contrasts: {contrasts}\nmultiplicity: {{method: {method}{order}}}\n"
     plan = load_plan(write_study(text)).plan
     assert plan.multiplicity.method == method
-    assert plan.multiplicity.order == (("C2", "C1") if order else None)
+    assert plan.multiplicity.order == (("C2", "C1") if method == "fixed-sequence" else None)
     jsonschema.validate(read_tree(text).value, study_schema())
 
 

@@ -61,3 +61,19 @@ def test_documented_design_example_loads(tmp_path):
     assert [plan.hypotheses_of(c) for c in plan.contrasts] == [2, 6, 1]
     assert plan.hypothesis_count("height") == 9
     assert plan.repeated.missing == "complete-units"
+
+
+def test_documented_graph_loads(tmp_path):
+    from tests.plan.plans import BASE
+
+    text = DOC.read_text(encoding="utf-8")
+    block = re.search(r"  ```\n(  multiplicity:\n.*?)  ```", text, re.S).group(1)
+    contrasts = "".join(f"  - {{id: {cid}, kind: custom, label: {cid}, weights: {{placebo: -1, {level}: 1}}}}\n"
+                        for cid, level in [("H1", "high"), ("H2", "low"), ("S1", "high"), ("S2", "low")])
+    study = tmp_path / "study.yaml"
+    study.write_text(BASE + "contrasts:\n" + contrasts + "\n".join(line[2:] for line in block.splitlines()) + "\n",
+                     encoding="utf-8")
+    settings = load_plan(study).plan.multiplicity
+    assert settings.method == "graphical" and settings.weights == {"H1": 0.5, "H2": 0.5}
+    assert settings.transitions == {"H1": {"S1": 1.0}, "H2": {"S2": 1.0}, "S1": {"H2": 1.0},
+                                    "S2": {"H1": 1.0}}

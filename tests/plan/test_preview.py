@@ -78,3 +78,21 @@ def test_primary_family_size(demo_study):
     lines = describe_contrasts(_loaded(demo_study, text).plan)
     assert lines[5] == ("multiplicity: bonferroni, primary-family; hypotheses per outcome: "
                         "dry_mass 9, chlorophyll 8; primary family 9")
+
+
+def test_graphical_plan_lists_its_graph(demo_study):
+    contrasts = PLAN[PLAN.index("contrasts:"):PLAN.index("exploratory:")]
+    text = PLAN.replace(contrasts, """\
+contrasts:
+  - {id: C1, kind: custom, label: coated versus uncoated, weights: {uncoated: -3, chitosan: 1, seaweed: 1, humic: 1}}
+  - {id: C2, kind: trend, label: dose trend}
+  - {id: C3, kind: custom, label: seaweed versus chitosan, weights: {chitosan: -1, seaweed: 1}}
+multiplicity:
+  method: graphical
+  weights: {C1: 0.75, C2: 0.25}
+  transitions: {C1: {C2: 0.5, C3: 0.5}, C2: {C3: 1}}
+""")
+    lines = describe_contrasts(_loaded(demo_study, text).plan)
+    assert lines[-3:-1] == [
+        "multiplicity: graphical, per-outcome; hypotheses per outcome: dry_mass 3, chlorophyll 3",
+        "graph: weights C1 0.75, C2 0.25; transitions C1 -> C2 0.5, C1 -> C3 0.5, C2 -> C3 1"]

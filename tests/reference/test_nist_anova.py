@@ -1,4 +1,6 @@
-"""The variance table against the NIST StRD one-way ANOVA certified values.
+"""The variance table the appendix reports for a one-factor outcome (the design engine's
+one-term model, `appendix.nist.engine_table`) against the NIST StRD one-way ANOVA
+certified values.
 
 Source of every expected value: NIST Statistical Reference Datasets, ANOVA
 (https://www.itl.nist.gov/div898/strd/anova/anova.html), certified values read from the
@@ -10,9 +12,8 @@ from __future__ import annotations
 
 import pytest
 
-from appendix.stats.cells import cell_stats
-from appendix.stats.oneway import variance_table
-from appendix.nist import HIGHER_DIFFICULTY, NAMES, engine_values, exact_sums_of_squares, lre, read_case
+from appendix.nist import (HIGHER_DIFFICULTY, NAMES, engine_table, engine_values,
+                           exact_sums_of_squares, lre, one_factor_cells, read_case)
 
 # Exact path (decimals counted on the data text, exact integer sums): every value to the
 # certified 15 digits, up to the rounding of the certified value itself (AtmWtAg: 14.5).
@@ -29,10 +30,11 @@ HIGHER_FLOOR = 3.8
 
 def _scores(name: str, exact: bool) -> dict[str, float]:
     case = read_case(name)
-    cells = cell_stats(case.values, case.codes, case.k, decimals=case.decimals if exact else None)
+    cells = one_factor_cells(case, exact=exact)
     assert cells.arithmetic == ("exact-decimal" if exact else "float64")
-    assert (cells.exact is not None) == exact
-    got = engine_values(variance_table(cells, alpha=0.05))
+    table = engine_table(cells)
+    assert [row.term for row in table.rows] == [("group",)]
+    got = engine_values(table)
     scores = {key: lre(got[key], certified) for key, certified in case.certified.items()}
     print(name, "exact" if exact else "float64",
           " ".join(f"{key}={score:.1f}" for key, score in sorted(scores.items())))
@@ -71,7 +73,7 @@ def test_float64_path_matches_exact_arithmetic_on_the_same_inputs(name: str) -> 
     # Oracle: exact rational arithmetic (fractions.Fraction) on the float64 data. The
     # float path should lose almost nothing beyond the float64 storage of the data itself.
     case = read_case(name)
-    table = variance_table(cell_stats(case.values, case.codes, case.k), alpha=0.05)
+    table = engine_table(one_factor_cells(case, exact=False))
     exact_between, exact_within = exact_sums_of_squares(case)
     assert lre(table.rows[0].sum_of_squares, exact_between) >= 12
-    assert lre(table.rows[1].sum_of_squares, exact_within) >= 12
+    assert lre(table.residual_ss, exact_within) >= 12

@@ -76,7 +76,7 @@ def _study(tmp_path, *, kind, method, interaction=True, balanced=True, covariate
 
 def _family(tmp_path):
     computed = compute(tmp_path / "study.yaml")
-    (model,) = computed.results.models
+    (model,) = computed.results.outcomes
     (family,) = model.contrasts
     return computed, family
 

@@ -26,6 +26,7 @@ from appendix import results as R
 from appendix.numbers import p_clause
 from appendix.data.dataset import Dataset, OutcomeData, frozen_array
 from appendix.figures import make_figures
+from appendix.models import Residuals
 from appendix.render import RenderOptions, render_html
 from render_helpers import parse
 
@@ -62,14 +63,9 @@ def _primary(values: np.ndarray, codes: np.ndarray) -> R.OutcomeResult:
     ms_b, ms_w = ss_between / df_b, ss_within / df_w
     f = ms_b / ms_w
     p = float(stats.f.sf(f, df_b, df_w))
-    table = R.OneWayTable(
-        rows=(R.VarianceRow("between", df_b, ss_between, ms_b, f, p),
-              R.VarianceRow("within", df_w, ss_within, ms_w, None, None),
-              R.VarianceRow("total", df_b + df_w, ss_between + ss_within, None, None, None)),
-        df_between=df_b, df_within=df_w, f=f, p=p, alpha=0.05,
-        critical_f=float(stats.f.isf(0.05, df_b, df_w)),
-        r_squared=ss_between / (ss_between + ss_within), residual_sd=float(np.sqrt(ms_w)))
-    eta = table.r_squared
+    eta = ss_between / (ss_between + ss_within)
+    table = _one_term_table(df_b, df_w, ss_between, ss_within, f, p,
+                            effects=(eta, (0.05, 0.61), eta - 0.06, (0.0, 0.55), 0.86, (0.23, 1.25)))
     diagnostics = R.Diagnostics(
         normality=R.NormalityTest("shapiro-wilk", 0.9712, 0.6843, len(values)),
         equal_variance=(R.VarianceTest("brown-forsythe", 3.99, 2, 21, 0.0312),
@@ -86,18 +82,16 @@ def _primary(values: np.ndarray, codes: np.ndarray) -> R.OutcomeResult:
     registered = _family("sbp_change", "welch", groups, REGISTERED, registered=True)
     return R.OutcomeResult(
         name="sbp_change", label="Change in systolic blood pressure", unit="mmHg",
-        role="primary", n_analysed=len(values),
+        role="primary", design="one treatment factor", n_units=len(values),
+        n_observations=len(values), arithmetic="float64",
         descriptives=R.Descriptives(0.95, tuple(_group(lv, g) for lv, g in zip(LEVELS, groups))),
-        table=table,
-        welch=R.WelchAnova(5.87, 2.0, 13.62, 0.0146),
-        kruskal=R.KruskalWallis(8.04, 2, 0.0180, 0.9996),
-        effect_sizes=(R.EffectSize("eta_squared", eta, 0.05, 0.61, 0.95),
-                      R.EffectSize("omega_squared", eta - 0.06, 0.0, 0.55, 0.95),
-                      R.EffectSize("cohens_f", 0.86, 0.23, 1.25, 0.95)),
+        tables=(table,), marginal_means=(), slopes=(), sphericity=None,
         diagnostics=diagnostics,
-        conclusion=R.Conclusion(
+        conclusions=(R.Conclusion(
             f"Mean change in systolic blood pressure differed between the groups, "
-            f"F({df_b}, {df_w}) = {f:.2f}, {p_clause(p)}.", "reject", p, 0.05),
+            f"F({df_b}, {df_w}) = {f:.2f}, {p_clause(p)}.", "reject", p, 0.05),),
+        robust=R.RobustTests(welch=R.WelchAnova(5.87, 2.0, 13.62, 0.0146),
+                             kruskal=R.KruskalWallis(8.04, 2, 0.0180, 0.9996)),
         selected_method="welch",
         contrasts=(registered,
                    _family("sbp_change", "classical", groups, REGISTERED, registered=False)),
@@ -107,6 +101,25 @@ def _primary(values: np.ndarray, codes: np.ndarray) -> R.OutcomeResult:
             R.Contingency("assumptions.fallbacks[1]", "unequal-variance", "brown-forsythe",
                           0.0312, 0.05, True, "welch")),
         hypothesis_conclusions=tuple(_sentence(h) for h in registered.hypotheses))
+
+
+def _one_term_table(df_b, df_w, ss_between, ss_within, f, p, effects=None, warnings=()):
+    """The one-term variance table of the arm factor; `effects` is (eta squared, its CI,
+    omega squared, its CI, Cohen's f, its CI) at 95%, or None."""
+    eta, eta_ci, omega, omega_ci, cohens_f, f_ci = effects or (None,) * 6
+    ms_b, ms_w = ss_between / df_b, ss_within / df_w
+    row = R.ModelRow(term=("arm",), label="Treatment arm", kind="factor", df=df_b,
+                     sum_of_squares=ss_between, mean_square=ms_b, f=f, p=p,
+                     partial_eta_squared=eta, partial_eta_ci=eta_ci, partial_omega_squared=omega,
+                     partial_omega_ci=omega_ci, confidence_level=0.95, cohens_f=cohens_f,
+                     cohens_f_ci=f_ci, critical_f=float(stats.f.isf(0.05, df_b, df_w)),
+                     warnings=warnings)
+    total = ss_between + ss_within
+    return R.ModelTable(ss_type=2, rows=(row,), residual_df=df_w, residual_ss=ss_within,
+                        residual_ms=ms_w, total_df=df_b + df_w, total_ss=total,
+                        r_squared=ss_between / total if total > 0 else None,
+                        estimability="All effects are estimable.",
+                        residual_sd=float(np.sqrt(ms_w)), ss_type_stated=False, warnings=warnings)
 
 
 # (id, contrast, kind, label, weights, alternative) in registered order
@@ -222,21 +235,18 @@ def _degenerate() -> R.OutcomeResult:
     gap = R.StatWarning("within-variance-zero", "Every group's values are identical, so F is undefined.")
     summaries = tuple(R.GroupSummary(lv, 3, 1, 2.0, 0.0, 0.0, 2.0, 2.0, 2.0, 2.0, 2.0, 2.0, 2.0)
                       for lv in LEVELS)
+    table = dataclasses.replace(_one_term_table(2, 6, 0.0, 0.0, None, None, warnings=(gap,)),
+                                residual_sd=0.0)
     return R.OutcomeResult(
-        name="pain", label="Pain score", unit=None, role="secondary", n_analysed=9,
+        name="pain", label="Pain score", unit=None, role="secondary", design="one treatment factor",
+        n_units=9, n_observations=9, arithmetic="float64",
         descriptives=R.Descriptives(0.95, summaries),
-        table=R.OneWayTable(
-            rows=(R.VarianceRow("between", 2, 0.0, 0.0, None, None),
-                  R.VarianceRow("within", 6, 0.0, 0.0, None, None),
-                  R.VarianceRow("total", 8, 0.0, None, None, None)),
-            df_between=2, df_within=6, f=None, p=None, alpha=0.05, critical_f=5.1433,
-            r_squared=None, residual_sd=0.0, warnings=(gap,)),
-        welch=R.WelchAnova(None, None, None, None, (gap,)),
-        kruskal=R.KruskalWallis(None, 2, None, None, (gap,)),
-        effect_sizes=(),
+        tables=(table,), marginal_means=(), slopes=(), sphericity=None,
         diagnostics=R.Diagnostics(None, (), None, ()),
-        conclusion=R.Conclusion("The pain score could not be compared: every value was 2.",
-                                "unavailable", None, 0.05),
+        conclusions=(R.Conclusion("The pain score could not be compared: every value was 2.",
+                                  "unavailable", None, 0.05),),
+        robust=R.RobustTests(welch=R.WelchAnova(None, None, None, None, (gap,)),
+                             kruskal=R.KruskalWallis(None, 2, None, None, (gap,))),
         contrasts=(R.ContrastFamily("pain", "per-outcome", "fixed-sequence", "classical", 0.05,
                                     True, (_unavailable(gap),)),),
         contingencies=(R.Contingency("assumptions.fallbacks[0]", "non-normal", "shapiro-wilk",
@@ -269,9 +279,9 @@ def build_dataset() -> Dataset:
         unit_flow=_flow(),
         outcomes=(
             OutcomeData("sbp_change", frozen_array(values), frozen_array(codes), units,
-                        tuple(range(2, len(values) + 2))),
+                        tuple(range(2, len(values) + 2)), factors=(frozen_array(codes),)),
             OutcomeData("pain", frozen_array(np.full(9, 2.0)), frozen_array(pain_codes),
-                        units[:9], tuple(range(2, 11))),
+                        units[:9], tuple(range(2, 11)), factors=(frozen_array(pain_codes),)),
         ),
         findings=(),
     )
@@ -312,7 +322,18 @@ def build_results() -> R.StudyResults:
             "put the Welch analysis in force; the classical analysis is shown for comparison.",
             True, "Fallback assumptions.fallbacks[1] of the registered plan."),),
         multiplicity="fixed-sequence", multiplicity_scope="per-outcome",
+        factors=(R.FactorInfo("arm", "Treatment arm", LEVELS, "placebo", True),),
     )
+
+
+def build_residuals(dataset: Dataset) -> dict[str, Residuals]:
+    """The one-way model's residuals of each outcome: each value minus its group mean."""
+    out = {}
+    for data in dataset.outcomes:
+        means = np.array([data.values[data.codes == i].mean() for i in range(len(LEVELS))])
+        fitted = means[data.codes]
+        out[data.name] = Residuals(data.name, fitted, data.values - fitted, data.codes)
+    return out
 
 
 @pytest.fixture(scope="session")
@@ -331,8 +352,13 @@ def plain_results(study_results) -> dict:
 
 
 @pytest.fixture(scope="session")
-def figures(dataset, study_results) -> dict[str, str]:
-    return make_figures(dataset, study_results)
+def residuals(dataset) -> dict[str, Residuals]:
+    return build_residuals(dataset)
+
+
+@pytest.fixture(scope="session")
+def figures(dataset, study_results, residuals) -> dict[str, str]:
+    return make_figures(dataset, study_results, residuals)
 
 
 @pytest.fixture(scope="session")

@@ -27,7 +27,8 @@ EXPLORATORY = ("Exploratory contrasts of Change in systolic blood pressure, clas
 CONTRAST_KEYS = {"contrasts-classical", "contrasts-welch", "contrasts-rank", "trend", "helmert",
                  "tukey", "games-howell", "nemenyi", "dunnett", "dunnett-welch", "dunnett-rank",
                  "bonferroni", "sidak", "holm", "hochberg",
-                 "benjamini-hochberg", "fixed-sequence", "unadjusted", "hedges", "one-sided"}
+                 "benjamini-hochberg", "fixed-sequence", "graphical", "unadjusted", "hedges",
+                 "one-sided"}
 
 
 @pytest.fixture(scope="module")
@@ -283,6 +284,7 @@ def _set_families(plain, multiplicity, method):
     ("benjamini-hochberg", "classical", ["contrasts-classical", "benjamini-hochberg"],
      "benjamini1995"),
     ("fixed-sequence", "welch", ["contrasts-welch", "fixed-sequence"], "westfall2001"),
+    ("graphical", "classical", ["contrasts-classical", "graphical"], "bretz2009"),
     ("none", "classical", ["contrasts-classical", "unadjusted"], "ich1998"),
 ])
 def test_methods_name_exactly_the_contrast_methods_used(plain_results, multiplicity, method,

@@ -15,8 +15,16 @@ import pytest
 
 from appendix.data.dataset import Dataset, OutcomeData, frozen_array
 from appendix.figures import DENSE_POINTS, FIGURE_KINDS, PALETTE, make_figures
+from conftest import build_residuals
 
 SVG = "{http://www.w3.org/2000/svg}svg"
+
+
+def _with_row(outcome, **changes):
+    """`outcome` with its factor's row of the variance table changed."""
+    table = outcome.tables[0]
+    row = dataclasses.replace(table.rows[0], **changes)
+    return dataclasses.replace(outcome, tables=(dataclasses.replace(table, rows=(row,)),))
 
 
 def test_every_figure_is_valid_svg(figures):
@@ -28,8 +36,8 @@ def test_every_figure_is_valid_svg(figures):
         assert ET.fromstring(svg.encode()).tag == SVG
 
 
-def test_figures_are_deterministic_and_undated(dataset, study_results, figures):
-    assert make_figures(dataset, study_results) == figures
+def test_figures_are_deterministic_and_undated(dataset, study_results, figures, residuals):
+    assert make_figures(dataset, study_results, residuals) == figures
     for svg in figures.values():
         assert "<dc:date>" not in svg
 
@@ -51,53 +59,54 @@ def test_text_stays_text_with_units_in_axis_labels(figures):
     assert "Residual (mmHg)" in figures["sbp_change-qq"]
 
 
-def test_plan_and_data_strings_stay_plain_text(dataset, study_results):
+def test_plan_and_data_strings_stay_plain_text(dataset, study_results, residuals):
     levels = ("<script>alert(1)</script>", "cost $5 & $6 -->", "x")
     primary = dataclasses.replace(study_results.outcomes[1], label="Cost ($) <b>", unit="$")
     figures = make_figures(dataclasses.replace(dataset, levels=levels),
-                           dataclasses.replace(study_results, outcomes=(primary,)))
+                           dataclasses.replace(study_results, outcomes=(primary,)), residuals)
     svg = figures["sbp_change-distribution"]
     assert "<script" not in svg and "<b>" not in svg and "<!--" not in svg
     texts = [t.text for t in ET.fromstring(svg.encode()).iter("{http://www.w3.org/2000/svg}text")]
     assert "cost $5 & $6 -->" in texts and "Cost ($) <b> ($)" in texts
 
 
-def test_f_figure_is_skipped_when_f_is_missing(dataset, study_results):
+def test_f_figure_is_skipped_when_f_is_missing(dataset, study_results, residuals):
     primary = study_results.outcomes[1]
-    no_f = dataclasses.replace(primary, table=dataclasses.replace(primary.table, f=None, p=None))
+    no_f = _with_row(primary, f=None, p=None)
     results = dataclasses.replace(study_results, outcomes=(no_f,))
-    figures = make_figures(dataset, results)
+    figures = make_figures(dataset, results, residuals)
     assert "sbp_change-f-reference" not in figures
     assert "sbp_change-distribution" in figures
 
 
-def test_huge_f_is_marked_off_scale(dataset, study_results):
+def test_huge_f_is_marked_off_scale(dataset, study_results, residuals):
     primary = study_results.outcomes[1]
-    huge = dataclasses.replace(primary, table=dataclasses.replace(primary.table, f=412.5))
-    svg = make_figures(dataset, dataclasses.replace(study_results, outcomes=(huge,)))[
+    huge = _with_row(primary, f=412.5)
+    svg = make_figures(dataset, dataclasses.replace(study_results, outcomes=(huge,)), residuals)[
         "sbp_change-f-reference"]
     assert "Observed F = 412.50 \u2192" in svg
     ticks = [float(t.text.replace("\u2212", "-")) for t in ET.fromstring(svg.encode()).iter(
         "{http://www.w3.org/2000/svg}text") if re.fullmatch(r"[\d.]+", t.text or "")]
     assert max(ticks) < 20  # the axis keeps the density's scale
-    normal = make_figures(dataset, study_results)["sbp_change-f-reference"]
+    normal = make_figures(dataset, study_results, residuals)["sbp_change-f-reference"]
     assert "Observed F = 5.73" in normal and "\u2192" not in normal
 
 
 def test_many_levels_get_slanted_labels_and_cycle_colours(dataset, study_results):
     levels = tuple(f"dose {i}" for i in range(9))
     data = dataset.outcomes[0]
+    codes = frozen_array(np.arange(len(data.values)) % 9)
     many = dataclasses.replace(dataset, levels=levels, outcomes=(dataclasses.replace(
-        data, codes=frozen_array(np.arange(len(data.values)) % 9)),))
+        data, codes=codes, factors=(codes,)),))
     svg = make_figures(many, dataclasses.replace(
-        study_results, outcomes=(study_results.outcomes[1],)))["sbp_change-distribution"]
+        study_results, outcomes=(study_results.outcomes[1],)), {})["sbp_change-distribution"]
     slanted = [t for t in ET.fromstring(svg.encode()).iter("{http://www.w3.org/2000/svg}text")
                if t.text in levels and "rotate(-30" in t.get("transform", "")]
     assert len(slanted) == 9
     assert PALETTE[7].lower() in svg.lower()  # eight colours used, the ninth level cycles
 
 
-def test_each_level_keeps_its_colour(figures):
+def test_each_level_keeps_its_colour(figures, residuals):
     for kind in ("distribution", "means", "qq", "residuals"):
         svg = figures[f"sbp_change-{kind}"].lower()
         for colour in PALETTE[:3]:
@@ -105,7 +114,7 @@ def test_each_level_keeps_its_colour(figures):
         assert PALETTE[3].lower() not in svg  # no fourth level, no fourth colour
 
 
-def test_dense_clouds_are_rasterised(study_results, figures):
+def test_dense_clouds_are_rasterised(study_results, figures, residuals):
     rng = np.random.default_rng(99)  # INVENTED dense data
     n = DENSE_POINTS + 600
     codes = np.arange(n) % 3
@@ -113,9 +122,10 @@ def test_dense_clouds_are_rasterised(study_results, figures):
     dense = Dataset(levels=study_results.factor.levels, inputs=(), unit_flow=None,
                     findings=(), outcomes=(OutcomeData(
                         "sbp_change", frozen_array(values), frozen_array(codes),
-                        tuple(str(i) for i in range(n)), tuple(range(2, n + 2))),))
+                        tuple(str(i) for i in range(n)), tuple(range(2, n + 2)),
+                        factors=(frozen_array(codes),)),))
     results = dataclasses.replace(study_results, outcomes=(study_results.outcomes[1],))
-    heavy = make_figures(dense, results)
+    heavy = make_figures(dense, results, build_residuals(dense))
     for kind in ("distribution", "qq", "residuals"):
         assert heavy[f"sbp_change-{kind}"].count("data:image/png;base64,") == 1
         assert "<image" not in figures[f"sbp_change-{kind}"]
@@ -185,7 +195,7 @@ def test_forest_labels_hypotheses_top_to_bottom_in_plan_order(figures, study_res
     assert float(gap.get("y")) == pytest.approx(ys["high dose \u2212 placebo"], abs=4)
 
 
-def test_forest_draws_an_open_bound_as_an_arrow(dataset, study_results, figures):
+def test_forest_draws_an_open_bound_as_an_arrow(dataset, study_results, figures, residuals):
     def patches(svg):
         return len(re.findall(r'<g id="[^"]*-patch_\d+"', svg))
 
@@ -194,37 +204,37 @@ def test_forest_draws_an_open_bound_as_an_arrow(dataset, study_results, figures)
     closed = dataclasses.replace(one_sided, ci_low=one_sided.ci_high - 5.0)
     hypotheses = list(study_results.outcomes[1].contrasts[0].hypotheses)
     hypotheses[1] = closed
-    svg = make_figures(dataset, _with_registered(study_results, hypotheses=tuple(hypotheses)))[
+    svg = make_figures(dataset, _with_registered(study_results, hypotheses=tuple(hypotheses)), residuals)[
         "sbp_change-contrasts"]
     assert patches(figures["sbp_change-contrasts"]) == patches(svg) + 1  # the arrow head
 
 
-def test_forest_axis_of_a_rank_based_family(dataset, study_results):
-    svg = make_figures(dataset, _with_registered(study_results, method="rank-based"))[
+def test_forest_axis_of_a_rank_based_family(dataset, study_results, residuals):
+    svg = make_figures(dataset, _with_registered(study_results, method="rank-based"), residuals)[
         "sbp_change-contrasts"]
     assert "Difference in mean ranks" in [t.text for t in _texts(svg)]
 
 
-def test_forest_only_when_the_outcome_has_drawable_contrasts(dataset, study_results):
+def test_forest_only_when_the_outcome_has_drawable_contrasts(dataset, study_results, residuals):
     primary = study_results.outcomes[1]
     bare = dataclasses.replace(study_results, outcomes=(
         dataclasses.replace(primary, contrasts=()),))
-    assert "sbp_change-contrasts" not in make_figures(dataset, bare)
+    assert "sbp_change-contrasts" not in make_figures(dataset, bare, residuals)
     gaps = tuple(dataclasses.replace(h, decision="unavailable")
                  for h in primary.contrasts[0].hypotheses)
     assert "sbp_change-contrasts" not in make_figures(
-        dataset, _with_registered(study_results, hypotheses=gaps))
+        dataset, _with_registered(study_results, hypotheses=gaps), residuals)
     # one gap among drawn rows is labelled in its row
     some = (gaps[0],) + primary.contrasts[0].hypotheses[1:]
-    svg = make_figures(dataset, _with_registered(study_results, hypotheses=some))[
+    svg = make_figures(dataset, _with_registered(study_results, hypotheses=some), residuals)[
         "sbp_change-contrasts"]
     assert "unavailable" in [t.text for t in _texts(svg)]
 
 
-def test_forest_labels_stay_plain_text(dataset, study_results):
+def test_forest_labels_stay_plain_text(dataset, study_results, residuals):
     hypotheses = list(study_results.outcomes[1].contrasts[0].hypotheses)
     hypotheses[0] = dataclasses.replace(hypotheses[0], label="<script>x</script> $a$")
-    svg = make_figures(dataset, _with_registered(study_results, hypotheses=tuple(hypotheses)))[
+    svg = make_figures(dataset, _with_registered(study_results, hypotheses=tuple(hypotheses)), residuals)[
         "sbp_change-contrasts"]
     assert "<script>" not in svg
     assert "<script>x</script> $a$" in [t.text for t in _texts(svg)]

@@ -323,3 +323,54 @@ def test_dunnett_counts_a_level_listed_twice_once() -> None:
     twice = mult.dunnett_family(vc + again[:1], cells, "two-sided", 0.05)
     assert [r.p_adjusted for r in twice[:3]] == [r.p_adjusted for r in once]
     assert twice[3].p_adjusted == once[0].p_adjusted and twice[3].id == "C6:chitosan"
+
+
+# --- graphical (Bretz et al. 2009) ---------------------------------------------------------
+
+def _one_per_contrast(ps, ids):
+    """`_results` with each hypothesis standing alone as the contrast named in `ids`."""
+    import dataclasses
+
+    return tuple(dataclasses.replace(r, contrast=cid) for r, cid in zip(_results(ps), ids))
+
+
+def test_graphical_family_by_contrast_id() -> None:
+    from appendix.stats.graphical import Graph
+
+    # The hand-worked example of tests/stats/test_graphical.py (p = .01, .03, .02 on H1, H2,
+    # H3; adjusted .02, .04, .04), with the results given in another order than the nodes.
+    graph = Graph(weights={"H1": 0.5, "H2": 0.5},
+                  transitions={"H1": {"H2": 0.5, "H3": 0.5}, "H2": {"H1": 0.5, "H3": 0.5},
+                               "H3": {"H1": 0.5, "H2": 0.5}})
+    results = _one_per_contrast([0.02, 0.01, 0.03], ["H3", "H1", "H2"])
+    tested = mult.apply_multiplicity(results, "graphical", 0.03, graph=graph)
+    assert [r.contrast for r in tested] == ["H3", "H1", "H2"]
+    assert [r.p_adjusted for r in tested] == pytest.approx([0.04, 0.02, 0.04], rel=1e-12)
+    assert [r.decision for r in tested] == ["retain", "reject", "retain"]
+    assert not any(r.ci_simultaneous for r in tested)
+    # Intervals are the unadjusted 1 - alpha ones.
+    assert all(r.confidence_level == pytest.approx(0.97) for r in tested)
+
+
+def test_graphical_family_errors_and_unavailable_hypotheses() -> None:
+    import dataclasses
+
+    from appendix.stats.graphical import Graph
+
+    graph = Graph(weights={"A": 0.5, "B": 0.5}, transitions={"A": {"B": 1}, "B": {"A": 1}})
+    results = list(_one_per_contrast([0.01, 0.04], ["A", "B"]))
+    results[1] = dataclasses.replace(results[1], p=None, p_adjusted=None, decision="unavailable")
+    tested = mult.apply_multiplicity(results, "graphical", 0.05, graph=graph)
+    assert tested[1] is results[1]  # passes through, never rejected
+    assert (tested[0].decision, tested[0].p_adjusted) == ("reject", pytest.approx(0.02))
+    with pytest.raises(InternalError, match="one hypothesis per contrast"):
+        mult.apply_multiplicity(_results([0.01] * 6), "graphical", 0.05, graph=graph)
+    with pytest.raises(InternalError, match="not among"):
+        mult.apply_multiplicity(_one_per_contrast([0.01, 0.02], ["A", "C"]), "graphical", 0.05,
+                                graph=graph)
+    with pytest.raises(InternalError, match="a graph belongs to method graphical only"):
+        mult.apply_multiplicity(results, "holm", 0.05, graph=graph)
+    with pytest.raises(InternalError, match="a graph belongs to method graphical only"):
+        mult.apply_multiplicity(results, "graphical", 0.05)
+    with pytest.raises(InternalError, match="cannot adjust across outcomes"):
+        mult.adjust_across([results], "graphical", 0.05)
