@@ -10,6 +10,8 @@ publishers' records before a release.
 
 from __future__ import annotations
 
+import dataclasses
+
 import unicodedata
 from collections.abc import Mapping
 from dataclasses import dataclass
@@ -723,7 +725,17 @@ def methods_used(results: Mapping[str, Any]) -> tuple[Method, ...]:
     # with a registered fallback the diagnostics can choose the analysis: say so instead
     chosen += ["contingency"] if _ran(outcomes, lambda o: o.get("contingencies")) else ["pretest"]
     chosen += ["reporting"]
-    return tuple(METHODS[key] for key in chosen)
+    return tuple(_as_stated(METHODS[key], results.get("plan_defaults", ())) for key in chosen)
+
+
+def _as_stated(method: Method, defaults) -> Method:
+    """The method's text with "as registered" only for rules the study file states: the
+    complete-units rule of a repeated-measures analysis holds by default otherwise."""
+    if method.key in ("repeated", "repeated-two-levels") and "repeated.missing" in defaults:
+        return dataclasses.replace(method, text=method.text.replace(
+            "complete units only, as registered", "complete units only, by default (the plan "
+            "states no rule for missing occasions)"))
+    return method
 
 
 def _alphabetical(text: str) -> str:

@@ -773,5 +773,8 @@ def _repeated_row(plan: Plan, row) -> ModelRow:
                     mean_square=row.ms, f=row.f, p=row.p, partial_eta_squared=row.partial_eta_squared,
                     partial_eta_ci=row.partial_eta_ci, partial_omega_squared=row.partial_omega_squared,
                     partial_omega_ci=row.partial_omega_ci, confidence_level=row.confidence_level,
+                    cohens_f=_cohens_f(row.partial_eta_squared),
+                    cohens_f_ci=(tuple(_cohens_f(v) for v in row.partial_eta_ci)
+                                 if row.partial_eta_ci is not None else None),
                     gg_df=row.gg_df, gg_p=row.gg_p, hf_df=row.hf_df, hf_p=row.hf_p,
                     effect_ci_df=row.effect_ci_df, warnings=tuple(row.warnings))

@@ -21,7 +21,7 @@ def _hypotheses(n: int) -> str:
 
 def _contrast(word: str, contrast: Contrast, plan: Plan) -> str:
     outcomes = ", ".join(contrast.outcomes) if contrast.outcomes else "every outcome"
-    where = "" if plan.is_one_way else (f" of {plan.factor_of(contrast).name}"
+    where = "" if plan.robust_absent is None else (f" of {plan.factor_of(contrast).name}"
                                         + (f" within each level of {contrast.by}" if contrast.by else ""))
     return (f"{word} {contrast.id} ({contrast.kind}{where}): {contrast.label}; "
             f"{_hypotheses(plan.hypotheses_of(contrast))}, {contrast.alternative}; "
@@ -31,7 +31,7 @@ def _contrast(word: str, contrast: Contrast, plan: Plan) -> str:
 def describe_contrasts(plan: Plan) -> list[str]:
     """The registered analysis, fallbacks, contrasts with their hypothesis counts, the
     multiplicity control and the exploratory analyses, one line each."""
-    lines = [f"registered analysis: {plan.analysis.method}"] if plan.is_one_way else []
+    lines = [f"registered analysis: {plan.analysis.method}"] if plan.robust_absent is None else []
     lines += [f"registered fallback {i}: if {rule.test} gives p < {rule.threshold:g} "
               f"({rule.when}), use {rule.use}"
               for i, rule in enumerate(plan.assumptions.fallbacks, start=1)]
@@ -80,7 +80,7 @@ def describe_run(loaded: LoadedPlan, dataset: Dataset) -> list[str]:
     ]
     lines += [f"{item.role} {item.path}  SHA-256 {item.sha256}" for item in dataset.inputs]
     for factor in plan.design.factors:
-        role = "" if plan.is_one_way else f" ({factor.role})"
+        role = "" if plan.robust_absent is None else f" ({factor.role})"
         lines.append(f"factor {factor.name}{role}: {len(factor.levels)} levels "
                      f"({', '.join(factor.levels)})"
                      + (f", control {factor.control}" if factor.control else ""))
@@ -100,7 +100,7 @@ def describe_run(loaded: LoadedPlan, dataset: Dataset) -> list[str]:
     checks = [settings.normality] if settings.normality != "none" else []
     checks += list(settings.equal_variance)
     checks.append(f"studentized residuals beyond {settings.outliers.threshold:g}")
-    if plan.is_one_way:
+    if plan.robust_absent is None:  # the one-factor layout, with its robust block
         lines.append(
             f"per outcome, at alpha {plan.alpha:g}: descriptives; one-way variance table (F test); "
             f"Welch's ANOVA; Kruskal-Wallis; eta squared, omega squared and Cohen's f with CIs; "
@@ -111,11 +111,14 @@ def describe_run(loaded: LoadedPlan, dataset: Dataset) -> list[str]:
                   + ", ".join(" x ".join(t) for t in plan.within_terms)
                   + ", with Mauchly's test and Greenhouse-Geisser / Huynh-Feldt corrections"
                   if plan.within else "")
+        spread = ("" if plan.within is None else
+                  " (no equal-variance test on repeated observations; outliers on unit means)")
         lines.append(
             f"per outcome, at alpha {plan.alpha:g}: descriptives by cell; variance table with "
             f"type {plan.design.sums_of_squares or 2} sums of squares of {terms}{within}; "
-            "partial eta and omega squared with CIs; estimated marginal means"
-            + ("; homogeneity of slopes" if plan.design.covariates else ""))
+            "partial eta and omega squared and Cohen's f with CIs; estimated marginal means"
+            + ("; homogeneity of slopes" if plan.design.covariates else "")
+            + f"; diagnostics: {', '.join(checks)}{spread}")
     lines += describe_contrasts(plan)
     lines += [f"finding: {finding.message}" for finding in dataset.findings]
     lines += [f"note: {note}" for note in lint(plan)]

@@ -687,7 +687,11 @@ class Software:
 
 @dataclass(frozen=True)
 class StudyResults:
-    """Everything a run computed; serialised by `to_json` as results.json."""
+    """Everything a run computed; serialised by `to_json` as results.json.
+
+    `plan_defaults` lists the plan keys with a default that the study file does not state
+    (`appendix.plan.load.DEFAULTED_KEYS`): the appendix says "as registered" only for the
+    others."""
 
     study: StudyInfo
     plan_sha256: str
@@ -704,6 +708,7 @@ class StudyResults:
     multiplicity_scope: str | None = None
     factors: tuple[FactorInfo, ...] = ()
     registration: Registration | None = None
+    plan_defaults: tuple[str, ...] = ()
     format_version: int = field(default=FORMAT_VERSION)
 
 

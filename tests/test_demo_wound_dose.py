@@ -126,4 +126,9 @@ def test_check_lists_the_run_and_writes_nothing(tmp_path):
     assert "eligible: vehicle 11, 1 mg/kg 12, 3 mg/kg 10, 10 mg/kg 12, 30 mg/kg 12" in lines
     assert ("outcome wound_area (primary): analysed vehicle 10, 1 mg/kg 11, 3 mg/kg 10, "
             "10 mg/kg 12, 30 mg/kg 12; missing 2") in lines
+    # every registered check of the study file is announced for this design too
+    design = next(line for line in lines if line.startswith("per outcome, at alpha 0.05:"))
+    assert design.endswith("partial eta and omega squared and Cohen's f with CIs; estimated "
+                           "marginal means; homogeneity of slopes; diagnostics: shapiro-wilk, "
+                           "brown-forsythe, studentized residuals beyond 3")
     assert lines[-1] == "nothing was written"

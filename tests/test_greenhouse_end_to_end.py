@@ -75,3 +75,18 @@ def test_an_interaction_with_the_within_factor_is_concluded_on_as_an_interaction
     sentences = [c["sentence"] for c in model["conclusions"]]
     (visit,) = [s for s in sentences if s.startswith("Seed coating × visit")]
     assert "the hypothesis of no interaction is rejected" in visit
+
+
+def test_every_tested_term_of_both_strata_has_cohens_f(run):
+    # Cohen's f = sqrt(eta^2 / (1 - eta^2)) of the partial share (Cohen 1988, Statistical
+    # Power Analysis, 2nd ed., ch. 8), its interval the image of the share's interval
+    results = json.loads((run / "results.json").read_text(encoding="utf-8"))
+    (model,) = results["outcomes"]
+    rows = [row for table in model["tables"] for row in table["rows"]]
+    assert {row["kind"] for row in rows} >= {"factor", "interaction"}
+    for row in rows:
+        share = row["partial_eta_squared"]
+        assert row["cohens_f"] == pytest.approx((share / (1 - share)) ** 0.5, rel=1e-12)
+        low, high = row["partial_eta_ci"]
+        assert row["cohens_f_ci"] == pytest.approx([(low / (1 - low)) ** 0.5,
+                                                    (high / (1 - high)) ** 0.5], rel=1e-12)

@@ -103,14 +103,15 @@ def build_from_table(loaded: LoadedPlan, table: Table, inputs: tuple, delimited:
     lacking = {c.name: sum(covariates[c.name][u] is None for u in eligible)
                for c in plan.design.covariates}
     return Dataset(levels=labels, inputs=inputs, unit_flow=flow, outcomes=tuple(outcomes),
-                   findings=design_findings(plan, flow, lacking, respelled))
+                   findings=design_findings(loaded, flow, lacking, respelled))
 
 
-def design_findings(plan, flow: UnitFlow, lacking: dict[str, int],
+def design_findings(loaded: LoadedPlan, flow: UnitFlow, lacking: dict[str, int],
                     respelled: dict[str, dict[tuple[str, int], int]]) -> tuple[Finding, ...]:
     """Cells read as a level by value (`respelled`: per factor name, cells per (spelling,
     code)), the flow's findings, eligible units without a covariate value (`lacking`, per
     covariate name), and, with a within factor, units left out as incomplete."""
+    plan = loaded.plan
     findings = tuple(f for factor in plan.design.factors
                      for f in reading_findings(factor.name, factor.levels, respelled.get(factor.name, {})))
     crossed = len(plan.treatments) != 1
@@ -118,7 +119,7 @@ def design_findings(plan, flow: UnitFlow, lacking: dict[str, int],
                                                     or ALL_UNITS) if crossed else None)
     findings += _lacking_covariates(plan, lacking)
     if plan.within is not None:
-        findings += _incomplete(plan, flow.outcomes)
+        findings += _incomplete(plan, flow.outcomes, "repeated.missing" not in loaded.defaulted)
     return findings
 
 
@@ -304,7 +305,7 @@ def _lacking_covariates(plan, counts: dict[str, int]) -> tuple[Finding, ...]:
     return tuple(found)
 
 
-def _incomplete(plan, flows) -> tuple[Finding, ...]:
+def _incomplete(plan, flows, stated: bool) -> tuple[Finding, ...]:
     within = plan.within
     found = []
     for flow in flows:
@@ -313,5 +314,7 @@ def _incomplete(plan, flows) -> tuple[Finding, ...]:
             found.append(Finding("incomplete-units",
                                  f"Outcome {flow.outcome}: {left} eligible unit{'s' if left != 1 else ''} "
                                  f"without a value at every level of {within.label or within.name} (or "
-                                 "without a covariate value) left out: complete units only, as registered."))
+                                 "without a covariate value) left out: complete units only, "
+                                 + ("as registered." if stated else "by default (the plan states no "
+                                    "rule for missing occasions).")))
     return tuple(found)

@@ -105,7 +105,7 @@ def build_design_vectorised(loaded: LoadedPlan, columns: Columns) -> Dataset | N
     lacking = {name: int(np.count_nonzero(eligible & np.isnan(values)))
                for name, values in covariates.items()}
     return Dataset(levels=labels, inputs=(), unit_flow=flow, outcomes=tuple(outcomes),
-                   findings=design_findings(plan, flow, lacking, respelled))
+                   findings=design_findings(loaded, flow, lacking, respelled))
 
 
 def _outcome(plan, outcome, columns, unit, first, codes, covariates, cell, labels, eligible,

@@ -26,6 +26,12 @@ from appendix.plan.yamltree import YamlSyntaxError, read_tree
 MAX_BYTES = 1 << 20
 
 
+#: Plan keys with a default that the appendix names when it reports what was done.
+DEFAULTED_KEYS = ("alpha", "analysis.method", "design.sums_of_squares", "repeated.missing",
+                  "assumptions.normality", "assumptions.equal_variance",
+                  "assumptions.outliers.threshold", "multiplicity.method", "multiplicity.scope")
+
+
 @dataclass(frozen=True)
 class LoadedPlan:
     """A validated plan with where it came from.
@@ -50,6 +56,12 @@ class LoadedPlan:
     @property
     def data_path(self) -> Path:
         return self.folder / self.plan.data.source
+
+    @property
+    def defaulted(self) -> tuple[str, ...]:
+        """The keys of `DEFAULTED_KEYS` that the study file does not state: their defaults
+        hold, and the appendix says "by default" where it would say "as registered"."""
+        return tuple(key for key in DEFAULTED_KEYS if key not in self.lines)
 
     def line_of(self, path: str) -> int | None:
         """The line of a key path, or of its nearest enclosing key when absent."""

@@ -300,3 +300,14 @@ def test_exploratory_decisions_read_as_nominal(html):
     assert "(nominal)" in exploratory
     planned = html[:html.index('id="exploratory"')]
     assert "(nominal)" not in planned
+
+
+@pytest.mark.parametrize("unit, squared", [("mmHg", "mmHg²"), ("mm²", "mm⁴"), ("%", "%²"),
+                                           ("mg/L", "(mg/L)²"), ("index units", "(index units)²")])
+def test_sums_of_squares_carry_the_squared_unit(plain_results, figures, unit, squared):
+    # a square of a squared unit is a fourth power (mm² squared is mm⁴), never "mm²²"
+    changed = copy.deepcopy(plain_results)
+    changed["outcomes"][1]["unit"] = unit
+    page = parse(render_html(changed, figures, RenderOptions()))
+    headers = [squash(e.text) for e in page.by_tag("th") if "Sum of squares" in e.text]
+    assert f"Sum of squares ({squared})" in headers
