@@ -590,7 +590,7 @@ def test_fixed_sequence_skips_contrasts_limited_to_other_outcomes(tmp_path, scop
     (tmp_path / "study.yaml").write_text(study)
     check(tmp_path / "study.yaml")  # the plan passes check
     results = compute(tmp_path / "study.yaml").results
-    (mass,), (height,) = (m.contrasts for m in results.models)
+    (mass,), (height,) = (m.contrasts for m in results.outcomes)
     assert [h.contrast for h in mass.hypotheses] == ["C1"] * 2 + ["C2"] * 6
     assert [h.contrast for h in height.hypotheses] == ["C1", "C1", "S1"]  # listed in plan order
     walks = [list(mass.hypotheses), [height.hypotheses[i] for i in (2, 0, 1)]]

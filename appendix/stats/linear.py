@@ -597,27 +597,57 @@ def fitted_values(fit: ModelFit, cell_codes: np.ndarray,
                   covariates: Mapping[str, np.ndarray] | None = None) -> np.ndarray:
     """The model's prediction for each row (its cell and covariate values).
 
-    NaN for a row whose cell's prediction is not estimable (an empty cell that the
-    model's terms do not reach).
+    NaN for a row whose prediction is not estimable (an empty cell that the model's terms
+    do not reach). Estimability is that of the row's whole design vector: a slope that is
+    not estimable on its own (a constant covariate, or one that the cells determine) still
+    gives an estimable prediction for every observed row.
     """
     covariates = dict(covariates or {})
     missing = [name for name in fit.covariates if name not in covariates]
     if missing:
         raise ValueError(f"fitted values need the covariate(s) {missing}")
     cell_codes = np.asarray(cell_codes)
-    b = fit.coefficients
     design = fit.cell_design
     plain = np.array([c is None for c in fit.column_covariate])
     level = np.where(plain, design, 0.0)
-    prediction = fit.y_mean + level @ b
-    ok = np.array([fit.estimable(row) for row in level])
-    slopes = {}
+    if not fit.covariate_means:  # one design vector per cell: check each cell once
+        prediction = fit.y_mean + level @ fit.coefficients
+        return np.where(_estimable_rows(fit, level), prediction, np.nan)[cell_codes]
+    rows = level[cell_codes]
     for name, centre in fit.covariate_means:
         part = np.where(np.array([c == name for c in fit.column_covariate]), design, 0.0)
-        slopes[name] = (part @ b, centre)
-        ok &= np.array([fit.estimable(row) for row in part])
-    prediction = np.where(ok, prediction, np.nan)
-    out = prediction[cell_codes]
-    for name, (slope, centre) in slopes.items():
-        out = out + slope[cell_codes] * (np.asarray(covariates[name], dtype=np.float64) - centre)
-    return out
+        rows = rows + part[cell_codes] * (np.asarray(covariates[name], dtype=np.float64) - centre)[:, None]
+    prediction = fit.y_mean + rows @ fit.coefficients
+    return np.where(_estimable_rows(fit, rows), prediction, np.nan)
+
+
+def _estimable_rows(fit: ModelFit, rows: np.ndarray) -> np.ndarray:
+    """`ModelFit.estimable` of every row of `rows` at once."""
+    scaled = rows / fit.column_scale
+    length = np.linalg.norm(scaled, axis=1)
+    outside = scaled - (scaled @ fit.row_space) @ fit.row_space.T
+    return np.linalg.norm(outside, axis=1) <= ESTIMABLE_TOLERANCE * length
+
+
+def leverages(fit: ModelFit, cell_codes: np.ndarray,
+              covariates: Mapping[str, np.ndarray] | None = None) -> np.ndarray:
+    """The diagonal of the hat matrix H = X (X'X)^+ X' of the fitted model, one value per
+    row (its cell and covariate values), from a QR factorisation of the row design X
+    (columns scaled to unit length; columns beyond the numerical rank, `RANK_TOLERANCE`,
+    dropped). h_i is the row's leverage: its residual has variance sigma^2 (1 - h_i)
+    (Belsley, Kuh & Welsch 1980, ch. 2)."""
+    covariates = dict(covariates or {})
+    rows = fit.cell_design[np.asarray(cell_codes)]
+    columns = []
+    for j, name in enumerate(fit.column_covariate):
+        column = rows[:, j]
+        if name is not None:
+            centre = dict(fit.covariate_means)[name]
+            column = column * (np.asarray(covariates[name], dtype=np.float64) - centre)
+        columns.append(column)
+    x = np.column_stack(columns) if columns else np.ones((rows.shape[0], 1))
+    norms = np.linalg.norm(x, axis=0)
+    x = x[:, norms > 0] / norms[norms > 0]
+    u, sv, _ = np.linalg.svd(x, full_matrices=False)
+    rank = int((sv > RANK_TOLERANCE * sv[0]).sum()) if sv.size else 0
+    return np.einsum("ij,ij->i", u[:, :rank], u[:, :rank])

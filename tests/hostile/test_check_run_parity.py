@@ -129,7 +129,7 @@ def test_type_3_repeated_measures_with_a_score_its_model_fits_exactly(tmp_path):
     plan = WITHIN_ONLY + "  sums_of_squares: 3\noutcomes:\n  - {name: y, label: Score, role: primary}\n"
     values = {"u1": [10.0, 12.0, 10.0], "u2": [8.0, 10.0, 10.0]}
     study = _study(tmp_path, plan, _long(values))
-    (model,) = api.compute(study).results.models
+    (model,) = api.compute(study).results.outcomes
     row = model.tables[1].rows[0]
     frame = pd.DataFrame([(u, f"v{j + 1}", v) for u, r in values.items() for j, v in enumerate(r)],
                          columns=["unit", "visit", "y"])
@@ -145,7 +145,7 @@ def test_sphericity_of_repeated_measures_without_residual_variation(tmp_path):
     variation): sphericity is then undefined and says so, and the within F is undefined."""
     plan = WITHIN_ONLY + "outcomes:\n  - {name: y, label: Score, role: primary}\n"
     values = {"u1": [10, 11, 13], "u2": [12, 13, 15], "u3": [9, 10, 12], "u4": [7, 8, 10]}
-    (model,) = api.compute(_study(tmp_path, plan, _long(values))).results.models
+    (model,) = api.compute(_study(tmp_path, plan, _long(values))).results.outcomes
     assert model.sphericity.greenhouse_geisser is None and model.sphericity.huynh_feldt is None
     assert [w.code for w in model.sphericity.warnings] == ["sphericity-undefined"]
     assert model.tables[1].rows[0].f is None
@@ -158,7 +158,7 @@ def test_repeated_measures_with_no_complete_unit(tmp_path):
     plan = WITHIN_ONLY + "outcomes:\n  - {name: y, label: Score, role: primary}\n"
     values = {"u1": [10, None, 13], "u2": [None, 13, 15], "u3": [9, 10, None]}
     computed = api.compute(_study(tmp_path, plan, _long(values)))
-    (model,) = computed.results.models
+    (model,) = computed.results.outcomes
     assert model.n_units == 0
     assert [row.f for table in model.tables for row in table.rows] == [None]
     assert "no-residual-df" in [w.code for w in model.tables[0].warnings]
@@ -186,7 +186,7 @@ multiplicity: {method: dunnett}
         for unit, arm, base, step in [("u1", "a", 10, 1), ("u2", "a", 12, 2), ("u3", "a", 9, 1.5),
                                       ("u4", "b", 11, 0), ("u5", "b", 8, 1), ("u6", "b", 10, -1)]
         for j, noise in enumerate([0.3, -0.2, 0.1])]
-    (model,) = api.compute(_study(tmp_path, plan, rows)).results.models
+    (model,) = api.compute(_study(tmp_path, plan, rows)).results.outcomes
     (family,) = model.contrasts
     by_slice = {h.within: h for h in family.hypotheses if h.id.startswith("C1:v2")}
     assert by_slice["c"].p is None and by_slice["c"].decision == "unavailable"
@@ -210,7 +210,7 @@ def test_covariate_in_a_design_without_treatment_factor(tmp_path):
     rows = ["unit_id,visit,y,base"] + [f"{u},v{j + 1},{v},{base[u]}" for u, r in values.items()
                                        for j, v in enumerate(r)]
     computed = api.compute(_study(tmp_path, plan, rows))
-    (model,) = computed.results.models
+    (model,) = computed.results.outcomes
     (check,) = model.slopes
     assert (check.f, check.p, check.by) == (None, None, ())
     assert [w.code for w in check.warnings] == ["slopes-check-undefined"]

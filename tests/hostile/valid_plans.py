@@ -168,6 +168,12 @@ def _contrasts(draw, factors: list[dict], outcomes: list[str], method: str) -> l
         else:
             chosen = _subset(draw, outcomes, 1)
             entries = [{**draw(_contrast(factors, outcomes, kind)), "outcomes": [o]} for o in chosen]
+    elif method == "graphical":
+        # each node of the graph is one hypothesis tested on every outcome: custom contrasts
+        entries = draw(st.lists(_contrast(factors, outcomes, "custom"), max_size=3))
+        for entry in entries:
+            entry.pop("by", None)
+            entry.pop("outcomes", None)
     else:
         entries = draw(st.lists(_contrast(factors, outcomes), max_size=3))
     for i, entry in enumerate(entries):
@@ -257,10 +263,17 @@ def plans(draw) -> dict:
     if contrasts:
         plan["contrasts"] = contrasts
     multiplicity: dict = {"method": method}
-    if method not in ("tukey", "dunnett") and draw(st.booleans()):
+    if method not in ("tukey", "dunnett", "graphical") and draw(st.booleans()):
         multiplicity["scope"] = draw(st.sampled_from(["per-outcome", "primary-family"]))
     if method == "fixed-sequence" and contrasts:
         multiplicity["order"] = list(draw(st.permutations([c["id"] for c in contrasts])))
+    if method == "graphical" and contrasts:
+        ids = [c["id"] for c in contrasts]
+        share = draw(st.sampled_from([1.0, 0.5]))  # all of alpha, or half of it left unspent
+        multiplicity["weights"] = {i: share / len(ids) for i in ids}
+        if len(ids) > 1 and draw(st.booleans()):  # Holm's graph: pass the level on evenly
+            multiplicity["transitions"] = {i: {j: 1.0 / (len(ids) - 1) for j in ids if j != i}
+                                           for i in ids}
     if method != "holm" or len(multiplicity) > 1 or draw(st.booleans()):
         plan["multiplicity"] = multiplicity
     if draw(st.integers(0, 2)) == 0:
