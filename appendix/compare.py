@@ -32,6 +32,7 @@ from typing import Any, TextIO
 
 from appendix.errors import UserError
 from appendix.jsonread import checked, read_json
+from appendix.numbers import write_parts
 from appendix.publish import RunManifest
 from appendix.records import Records, RowRecord, read_records
 from appendix.results import FORMAT_VERSION, StudyResults
@@ -249,7 +250,7 @@ def _hypotheses(outcome: Mapping[str, Any]) -> Iterator[tuple[Mapping[str, Any],
     """Registered hypotheses with their sentence (the results list the sentences in the
     same order as the registered families' hypotheses)."""
     hypotheses = [h for f in outcome.get("contrasts", []) if f["registered"] for h in f["hypotheses"]]
-    sentences = [c["sentence"] for c in outcome.get("hypothesis_conclusions", [])]
+    sentences = [write_parts(c["parts"]) for c in outcome.get("hypothesis_conclusions", [])]
     if len(sentences) != len(hypotheses):
         sentences = [""] * len(hypotheses)
     yield from zip(hypotheses, sentences)
@@ -276,10 +277,10 @@ def _term_conclusions(results: Mapping[str, Any],
     if len(rows) == len(o["conclusions"]):
         for row, c in zip(rows, o["conclusions"]):
             yield (CROSS.join(row["term"]), f"{o['label']}: {row['label']}{test}",
-                   Decision(c["decision"], c["p"], c["sentence"]))
+                   Decision(c["decision"], c["p"], write_parts(c["parts"])))
     else:  # a results file whose conclusions do not pair with its rows: by position
         for i, c in enumerate(o["conclusions"], start=1):
-            yield f"term {i}", f"{o['label']}: term {i}", Decision(c["decision"], c["p"], c["sentence"])
+            yield f"term {i}", f"{o['label']}: term {i}", Decision(c["decision"], c["p"], write_parts(c["parts"]))
 
 
 def conclusions_of(results: Mapping[str, Any]) -> dict[tuple[str, str, str], tuple[str, str, Decision]]:

@@ -2,12 +2,14 @@
 
 Wording follows two rules that reviewers check: not rejecting is not evidence of
 equality, and significance is not importance (Wasserstein & Lazar 2016, The ASA
-statement on p-values, The American Statistician 70:129-133). Numbers are written with
-appendix.numbers (APA 7).
+statement on p-values, The American Statistician 70:129-133). A sentence is built as
+parts: words from the plan and the results, and each number as a `Number` that is
+written at render time by appendix.numbers (APA 7), with the tables' decimals.
 """
 
 from __future__ import annotations
 
+from collections.abc import Iterable
 from dataclasses import dataclass
 
 from appendix import numbers as fmt
@@ -18,6 +20,7 @@ from appendix.results import (
     Conclusion,
     HypothesisResult,
     NormalityTest,
+    Number,
     StatWarning,
     VarianceTest,
 )
@@ -29,33 +32,58 @@ _TEST_NAMES = {
 }
 
 
-def _alpha(alpha: float) -> str:
-    return f"\u03b1 = {fmt.no_leading_zero(f'{alpha:g}')}"
+Parts = tuple[str | Number, ...]
 
 
-def f_clause(row, df_error: float) -> str:
+def parts(*items: str | Number | Iterable) -> Parts:
+    """A sentence's parts from words, `Number`s and nested parts, adjacent words joined."""
+    out: list[str | Number] = []
+    for item in items:
+        for part in (item,) if isinstance(item, (str, Number)) else parts(*item):
+            if isinstance(part, str) and out and isinstance(out[-1], str):
+                out[-1] += part
+            elif part != "":
+                out.append(part)
+    return tuple(out)
+
+
+def _alpha(alpha: float) -> Number:
+    return Number("alpha", alpha)
+
+
+def _test(name: str, df1: float | None, df2: float | None, statistic: float | None,
+          p: float | None) -> Parts:
+    """``F(3, 39) = 7.89, p < .001`` (``H(3) = ...`` without `df2`)."""
+    dfs = ("(", Number("df", df1), *((", ", Number("df", df2)) if df2 is not None else ()), ")")
+    return parts(name, dfs, " = ", Number("statistic", statistic), ", ", Number("p", p))
+
+
+def f_clause(row, df_error: float) -> Parts:
     """``F(3, 39) = 7.89, p < .001`` for a model row tested on `df_error`."""
-    return (f"F({fmt.df_value(row.df)}, {fmt.df_value(df_error)}) = {fmt.fixed(row.f, 2)}, "
-            f"{fmt.p_clause(row.p)}")
+    return _test("F", row.df, df_error, row.f, row.p)
 
 
-def eta_clause(row) -> str:
-    """``η² = .38 (90% CI [.14, .52])`` (a one-term model's partial eta squared is eta
-    squared), or empty when it is unavailable."""
+def _eta(name: str, row) -> Parts:
+    """``, η² = .38 (90% CI [.14, .52])`` under `name`, or nothing when unavailable."""
     if row.partial_eta_squared is None:
-        return ""
-    ci = ""
-    if row.partial_eta_ci is not None:
-        ci = (f" ({fmt.percent(row.confidence_level)} CI "
-              f"{fmt.interval(*row.partial_eta_ci, 2, bounded=True)})")
-    return f", \u03b7\u00b2 = {fmt.proportion(row.partial_eta_squared)}{ci}"
+        return ()
+    ci = () if row.partial_eta_ci is None else (
+        " (", Number("percent", row.confidence_level), " CI ",
+        Number("proportion-interval", *row.partial_eta_ci), ")")
+    return parts(f", {name} = ", Number("proportion", row.partial_eta_squared), ci)
 
 
-def _compatible(row) -> str:
+def eta_clause(row) -> Parts:
+    """``, η² = .38 (90% CI [.14, .52])`` (a one-term model's partial eta squared is eta
+    squared), or nothing when it is unavailable."""
+    return _eta("\u03b7\u00b2", row)
+
+
+def _compatible(row) -> Parts:
     if row.partial_eta_ci is None:
-        return "the data cannot rule out differences of a size that would matter."
-    return (f"an effect as large as \u03b7\u00b2 = {fmt.proportion(row.partial_eta_ci[1])}, the upper "
-            "confidence limit, remains compatible with the data.")
+        return ("the data cannot rule out differences of a size that would matter.",)
+    return parts("an effect as large as \u03b7\u00b2 = ", Number("proportion", row.partial_eta_ci[1]),
+                 ", the upper confidence limit, remains compatible with the data.")
 
 
 @dataclass(frozen=True)
@@ -64,7 +92,7 @@ class _Omnibus:
 
     name: str
     short: str
-    clause: str
+    clause: Parts
     p: float | None
     warnings: tuple[StatWarning, ...]
     hypothesis: str = "equal means"
@@ -76,19 +104,17 @@ def _omnibus(method: str, row, df_error: float, robust) -> _Omnibus:
     welch = robust.welch if robust is not None else None
     kruskal = robust.kruskal if robust is not None else None
     if method == "welch" and welch is not None:
-        clause = (f"Welch's F({fmt.df_value(welch.df_num)}, {fmt.df_value(welch.df_den)}) = "
-                  f"{fmt.fixed(welch.f, 2)}, {fmt.p_clause(welch.p)}")
+        clause = _test("Welch's F", welch.df_num, welch.df_den, welch.f, welch.p)
         return _Omnibus("Welch's F test", "Welch's F", clause,
                         welch.p if welch.f is not None else None, welch.warnings)
     if method == "rank-based" and kruskal is not None:
-        clause = (f"Kruskal-Wallis H({kruskal.df}) = {fmt.fixed(kruskal.h, 2)}, "
-                  f"{fmt.p_clause(kruskal.p)}")
+        clause = _test("Kruskal-Wallis H", kruskal.df, None, kruskal.h, kruskal.p)
         return _Omnibus("The Kruskal-Wallis test", "H", clause,
                         kruskal.p if kruskal.h is not None else None, kruskal.warnings,
                         hypothesis="identical distributions",
                         unequal="the distributions are not all identical",
                         equal="the distributions are identical")
-    clause = f"{f_clause(row, df_error)}{eta_clause(row)}" if row.f is not None else ""
+    clause = parts(f_clause(row, df_error), eta_clause(row)) if row.f is not None else ()
     return _Omnibus("The F test", "F", clause, row.p if row.f is not None else None,
                     tuple(row.warnings))
 
@@ -106,26 +132,24 @@ def conclusion(plan: Plan, outcome: Outcome, row, df_error: float, *, method: st
     test = _omnibus(method, row, df_error, robust)
     if test.p is None:
         reasons = " ".join(w.message for w in test.warnings) or "See the warnings."
-        sentence = f"{test.name} for {outcome.label} could not be computed. {reasons}"
-        return Conclusion(sentence=sentence, decision="unavailable", p=None, alpha=alpha)
+        sentence = (f"{test.name} for {outcome.label} could not be computed. {reasons}",)
+        return Conclusion(sentence, decision="unavailable", p=None, alpha=alpha)
     if test.p < alpha:
-        sentence = (
-            f"{what} differed {across}, {test.clause}; the hypothesis of {test.hypothesis} "
-            f"is rejected at {_alpha(alpha)}. A significant {test.short} shows that "
+        sentence = parts(
+            f"{what} differed {across}, ", test.clause, f"; the hypothesis of {test.hypothesis} "
+            "is rejected at ", _alpha(alpha), f". A significant {test.short} shows that "
             f"{test.unequal}, not which levels differ nor whether the differences "
-            "matter in practice."
-        )
+            "matter in practice.")
         decision = "reject"
     else:
         caveat = (_compatible(row) if method == "classical" else
                   "the data cannot rule out differences of a size that would matter.")
-        sentence = (
-            f"{what} did not differ detectably {across}, {test.clause}; the hypothesis of "
-            f"{test.hypothesis} is not rejected at {_alpha(alpha)}. This is not evidence "
-            f"that {test.equal}: {caveat}"
-        )
+        sentence = parts(
+            f"{what} did not differ detectably {across}, ", test.clause, "; the hypothesis of "
+            f"{test.hypothesis} is not rejected at ", _alpha(alpha), ". This is not evidence "
+            f"that {test.equal}: ", caveat)
         decision = "retain"
-    return Conclusion(sentence=sentence, decision=decision, p=test.p, alpha=alpha)
+    return Conclusion(sentence, decision=decision, p=test.p, alpha=alpha)
 
 
 def upper_first(text: str) -> str:
@@ -142,14 +166,12 @@ def _levels_compared(h: HypothesisResult, levels: tuple[str, ...]) -> tuple[str,
     return None
 
 
-def _interval_words(h: HypothesisResult, unit: str) -> str:
-    kind = " simultaneous" if h.ci_simultaneous else ""
-    level = f"{fmt.percent(h.confidence_level)}{kind} CI"
+def _interval_words(h: HypothesisResult, unit: str) -> Parts:
+    level = (Number("percent", h.confidence_level), " simultaneous CI" if h.ci_simultaneous else " CI")
     if h.ci_low is None and h.ci_high is None:
-        return f"{level} not available"
-    low = "−∞" if h.ci_low is None else fmt.fixed(h.ci_low, 2)
-    high = "∞" if h.ci_high is None else fmt.fixed(h.ci_high, 2)
-    return f"{level} {low} to {high}{unit}"
+        return parts(level, " not available")
+    return parts(level, " ", Number("lower-limit", h.ci_low), " to ",
+                 Number("upper-limit", h.ci_high), unit)
 
 
 def hypothesis_conclusion(plan: Plan, outcome: Outcome, h: HypothesisResult,
@@ -165,49 +187,51 @@ def hypothesis_conclusion(plan: Plan, outcome: Outcome, h: HypothesisResult,
     ref = f"{h.label} ({h.id})"
     if h.decision == "not-tested":
         sentence = (f"{upper_first(ref)} was not tested under the plan: fixed-sequence testing "
-                    "stopped at an earlier hypothesis that was not rejected.")
-        return Conclusion(sentence=sentence, decision="unavailable", p=None, alpha=alpha)
+                    "stopped at an earlier hypothesis that was not rejected.",)
+        return Conclusion(sentence, decision="unavailable", p=None, alpha=alpha)
     if h.estimate is None or h.p is None:
         reasons = " ".join(w.message for w in h.warnings) or "See the warnings."
-        sentence = f"{upper_first(ref)} could not be estimated. {reasons}"
-        return Conclusion(sentence=sentence, decision="unavailable", p=None, alpha=alpha)
+        sentence = (f"{upper_first(ref)} could not be estimated. {reasons}",)
+        return Conclusion(sentence, decision="unavailable", p=None, alpha=alpha)
     unit = f" {outcome.unit}" if outcome.unit and h.method != "rank-based" else ""
     if h.scale is not None:  # a trend: outcome units per step (or per spacing unit, squared, ...)
         unit = f"{unit} {h.scale.per}"
-    adjusted = (f"adjusted {fmt.p_clause(h.p_adjusted)}"
-                if h.p_adjusted is not None and multiplicity != "none" else fmt.p_clause(h.p))
+    adjusted = (("adjusted ", Number("p", h.p_adjusted))
+                if h.p_adjusted is not None and multiplicity != "none" else Number("p", h.p))
     how = adjustment(multiplicity, h.method).plain  # the procedure computed, e.g. Games-Howell
-    evidence = f"{_interval_words(h, unit)}, {adjusted}, {how}"
+    evidence = parts(" (", _interval_words(h, unit), ", ", adjusted, f", {how})")
     factor = plan.factor_named(_contrast_factor(plan, h))
     pair = _levels_compared(h, factor.levels)
     size = abs(h.estimate)
     measure = "mean rank" if h.method == "rank-based" else f"mean {outcome.label}{_adjusted_for(plan, h)}"
     if pair is not None:
         higher_lower = "higher" if h.estimate >= 0 else "lower"
-        first = (f"{upper_first(measure)} under {pair[0]} was {fmt.fixed(size, 2)}{unit} "
-                 f"{higher_lower} than under {pair[1]} ({evidence})")
+        first = parts(f"{upper_first(measure)} under {pair[0]} was ", Number("estimate", size),
+                      f"{unit} {higher_lower} than under {pair[1]}", evidence)
         null = absent = "no difference"
     elif h.scale is not None:
-        first = (f"The {ref} of {measure.rstrip(',')}, its {h.scale.meaning}, was estimated at "
-                 f"{fmt.fixed(h.estimate, 2)}{unit} ({evidence})")
+        first = parts(f"The {ref} of {measure.rstrip(',')}, its {h.scale.meaning}, was estimated at ",
+                      Number("estimate", h.estimate), unit, evidence)
         null = absent = f"no {h.label}"
     else:
-        first = (f"The contrast {ref} of {measure} was estimated at "
-                 f"{fmt.fixed(h.estimate, 2)}{unit} ({evidence})")
+        first = parts(f"The contrast {ref} of {measure} was estimated at ",
+                      Number("estimate", h.estimate), unit, evidence)
         null, absent = "a zero contrast", "no difference"
     if h.within is not None:  # a simple effect: the comparison within one level of another factor
         by = plan.factor_named(_contrast_of(plan, h).by)
-        first = f"Within {by.label or by.name} {h.within}, {first[:1].lower()}{first[1:]}"
+        opening = first[0]  # words: every branch above starts with them
+        first = (f"Within {by.label or by.name} {h.within}, {opening[:1].lower()}{opening[1:]}",
+                 *first[1:])
     if h.alternative != "two-sided":
         null += f" against the one-sided alternative '{h.alternative}'"
     if h.decision == "reject":
-        rest = f"the hypothesis of {null} is rejected at {_alpha(alpha)}."
+        rest = parts(f"the hypothesis of {null} is rejected at ", _alpha(alpha), ".")
         decision = "reject"
     else:
-        rest = (f"the hypothesis of {null} is not rejected at {_alpha(alpha)}, which is not "
-                f"evidence that there is {absent}.")
+        rest = parts(f"the hypothesis of {null} is not rejected at ", _alpha(alpha),
+                     f", which is not evidence that there is {absent}.")
         decision = "retain"
-    return Conclusion(sentence=f"{first}; {rest}", decision=decision,
+    return Conclusion(parts(first, "; ", rest), decision=decision,
                       p=h.p_adjusted if h.p_adjusted is not None else h.p, alpha=alpha)
 
 
@@ -231,26 +255,26 @@ def _listed(names) -> str:
     return ", ".join(names[:-1]) + (" and " if len(names) > 1 else "") + names[-1]
 
 
-def slopes_caveat(slopes, alpha: float) -> str:
+def slopes_caveat(slopes, alpha: float) -> Parts:
     """The caveat a covariate-adjusted conclusion carries when a registered test of equal
-    covariate slopes rejected at `alpha` ("" when none did): the adjusted differences then
+    covariate slopes rejected at `alpha` (nothing when none did): the adjusted differences then
     hold at the covariate's mean and may differ elsewhere (Huitema 2011, *The Analysis of
     Covariance and Alternatives*, 2nd ed., ch. 11, from memory)."""
     rejected = [c for c in slopes if c.p is not None and c.p < alpha]
     if not rejected:
-        return ""
-    tests = "; ".join(f"{c.covariate}: F({fmt.df_value(c.df)}, {fmt.df_value(c.df_residual)}) = "
-                      f"{fmt.fixed(c.f, 2)}, {fmt.p_clause(c.p)}" for c in rejected)
-    return (f" Caution: the slopes of the outcome on the covariate differ across the treatment "
-            f"cells ({tests}), so this covariate-adjusted comparison holds at the covariate's "
-            "mean and may differ at other covariate values.")
+        return ()
+    tests = [parts("; " if i else "", f"{c.covariate}: ", _test("F", c.df, c.df_residual, c.f, c.p))
+             for i, c in enumerate(rejected)]
+    return parts(" Caution: the slopes of the outcome on the covariate differ across the treatment "
+                 "cells (", tests, "), so this covariate-adjusted comparison holds at the "
+                 "covariate's mean and may differ at other covariate values.")
 
 
-def with_caveat(conclusion: Conclusion, caveat: str) -> Conclusion:
+def with_caveat(conclusion: Conclusion, caveat: Parts) -> Conclusion:
     """The conclusion with a caveat sentence appended (unchanged for an empty caveat)."""
     if not caveat or conclusion.decision == "unavailable":
         return conclusion
-    return Conclusion(sentence=conclusion.sentence + caveat, decision=conclusion.decision,
+    return Conclusion(parts(conclusion.parts, caveat), decision=conclusion.decision,
                       p=conclusion.p, alpha=conclusion.alpha)
 
 
@@ -360,33 +384,29 @@ def term_conclusion(plan: Plan, outcome: Outcome, row, ss_type: int, df_error: f
     how = _SS_TYPES.get(ss_type, f"type {ss_type} sums of squares")
     if row.f is None or row.p is None:
         reasons = " ".join(w.message for w in row.warnings) or "See the warnings."
-        return Conclusion(sentence=f"The test of {row.label} for {outcome.label} could not be computed. "
-                                   f"{reasons}", decision="unavailable", p=None, alpha=alpha)
+        return Conclusion((f"The test of {row.label} for {outcome.label} could not be computed. "
+                           f"{reasons}",), decision="unavailable", p=None, alpha=alpha)
     df1, df2, p, corrected = row.df, df_error, row.p, ""
     if row.gg_df is not None and row.gg_p is not None:
         (df1, df2), p, corrected = row.gg_df, row.gg_p, ", Greenhouse-Geisser corrected"
-    clause = f"F({fmt.df_value(df1)}, {fmt.df_value(df2)}) = {fmt.fixed(row.f, 2)}, {fmt.p_clause(p)}"
-    if row.partial_eta_squared is not None:
-        ci = ""
-        if row.partial_eta_ci is not None:
-            ci = (f" ({fmt.percent(row.confidence_level)} CI "
-                  f"{fmt.interval(*row.partial_eta_ci, 2, bounded=True)})")
-        clause += f", partial \u03b7\u00b2 = {fmt.proportion(row.partial_eta_squared)}{ci}"
+    clause = parts(_test("F", df1, df2, row.f, p), _eta("partial \u03b7\u00b2", row))
     if p < alpha:
-        rest = f"the hypothesis of {what} is rejected at {_alpha(alpha)}"
+        rest = parts(f"the hypothesis of {what} is rejected at ", _alpha(alpha))
         decision = "reject"
     else:
-        rest = (f"the hypothesis of {what} is not rejected at {_alpha(alpha)}, which is not "
-                "evidence that there is no effect")
+        rest = parts(f"the hypothesis of {what} is not rejected at ", _alpha(alpha),
+                     ", which is not evidence that there is no effect")
         decision = "retain"
-    sentence = f"{upper_first(row.label)} ({outcome.label}): {clause}{corrected}; {rest}; {how}."
+    sentence = parts(f"{upper_first(row.label)} ({outcome.label}): ", clause, corrected, "; ",
+                     rest, f"; {how}.")
     adjusted = _model_adjustment(plan, row)
     if adjusted:
-        sentence += f" The test is {adjusted}."
+        sentence = parts(sentence, f" The test is {adjusted}.")
     if decision == "reject" and row.kind == "factor" and row.df > 1:
-        sentence += (" A significant F shows that the marginal means are not all equal, not "
-                     "which levels differ nor whether the differences matter in practice.")
-    return Conclusion(sentence=sentence, decision=decision, p=p, alpha=alpha)
+        sentence = parts(sentence, " A significant F shows that the marginal means are not all "
+                         "equal, not which levels differ nor whether the differences matter in "
+                         "practice.")
+    return Conclusion(sentence, decision=decision, p=p, alpha=alpha)
 
 
 def _model_adjustment(plan: Plan, row) -> str:

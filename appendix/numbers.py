@@ -104,3 +104,59 @@ def decimals_for(values: list[float | None], minimum: int = 1, maximum: int = 4,
     exponent = math.floor(math.log10(min(magnitudes)))
     wanted = significant - 1 - exponent
     return max(minimum, min(maximum, wanted))
+
+
+#: The kinds of number a conclusion holds, each written by one rule of this module.
+NUMBER_KINDS = ("statistic", "df", "p", "proportion", "proportion-interval", "estimate",
+                "lower-limit", "upper-limit", "percent", "alpha")
+
+
+def write_number(kind: str, value: float | None, high: float | None = None, *,
+                 statistic_decimals: int = 2, effect_decimals: int = 2,
+                 estimate_decimals: int = 2) -> str:
+    """One number of a sentence by the rule of its `kind` (`NUMBER_KINDS`), with the
+    same decimals as the tables: a test statistic (F, t, H) to `statistic_decimals`; a
+    proportion (eta squared) and its bracketed interval (`value` to `high`) to
+    `effect_decimals`, without a leading zero; an estimate in the outcome's units to
+    `estimate_decimals` (an open confidence limit is written −∞ or ∞); p as ``p = .041``;
+    alpha as ``α = .05``; a confidence level as ``95%``.
+
+    >>> write_number("statistic", 7.891, statistic_decimals=3), write_number("p", 0.0004)
+    ('7.891', 'p < .001')
+    """
+    if kind == "statistic":
+        return fixed(value, statistic_decimals)
+    if kind == "df":
+        return df_value(value)
+    if kind == "p":
+        return p_clause(value)
+    if kind == "proportion":
+        return proportion(value, effect_decimals)
+    if kind == "proportion-interval":
+        return interval(value, high, effect_decimals, bounded=True)
+    if kind == "estimate":
+        return fixed(value, estimate_decimals)
+    if kind == "lower-limit":
+        return f"{MINUS}\u221e" if value is None else fixed(value, estimate_decimals)
+    if kind == "upper-limit":
+        return "\u221e" if value is None else fixed(value, estimate_decimals)
+    if kind == "percent":
+        return percent(value)
+    if kind == "alpha":
+        return f"\u03b1 = {no_leading_zero(f'{value:g}')}"
+    raise ValueError(f"unknown number kind {kind!r}")
+
+
+def write_parts(parts, **decimals: int) -> str:
+    """A sentence from its parts: text as it stands, each number (a `Number` of
+    `appendix.results`, or its plain mapping from results.json) by `write_number` with
+    the given decimals."""
+    out = []
+    for part in parts:
+        if isinstance(part, str):
+            out.append(part)
+        elif isinstance(part, dict):
+            out.append(write_number(part["kind"], part["value"], part.get("high"), **decimals))
+        else:
+            out.append(write_number(part.kind, part.value, part.high, **decimals))
+    return "".join(out)

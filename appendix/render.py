@@ -97,6 +97,10 @@ def _filters(options: RenderOptions) -> dict[str, Any]:
         "percent": numbers.percent,
         "alpha": _alpha,
         "column_decimals": column_decimals,
+        "sentence": lambda conclusion: numbers.write_parts(
+            conclusion["parts"], statistic_decimals=options.statistic_decimals,
+            effect_decimals=options.effect_decimals,
+            estimate_decimals=2 if options.decimals is None else options.decimals),
         "short_hash": lambda digest: digest[:12],
         "level_counts": _level_counts,
         "upper_first": _upper_first,

@@ -16,7 +16,8 @@ import dataclasses
 import json
 import math
 from dataclasses import dataclass, field
-from typing import Any, Literal
+from functools import cache
+from typing import Any, Literal, get_args, get_type_hints
 
 FORMAT_VERSION = 2
 
@@ -234,17 +235,40 @@ class Diagnostics:
 
 
 @dataclass(frozen=True)
+class Number:
+    """A number inside a conclusion, kept as a number so that it is written when the
+    appendix is rendered, by the same rule and decimals as the tables
+    (`appendix.numbers.write_number`; `kind` is one of `appendix.numbers.NUMBER_KINDS`).
+    `high` is the upper end of an interval kind."""
+
+    kind: Literal["statistic", "df", "p", "proportion", "proportion-interval", "estimate",
+                  "lower-limit", "upper-limit", "percent", "alpha"]
+    value: float | None
+    high: float | None = None
+
+
+@dataclass(frozen=True)
 class Conclusion:
-    """The plain-language conclusion for one outcome, and the decision it states.
+    """A plain-language conclusion, and the decision it states.
 
     `decision` is ``reject`` (H0 rejected at `alpha`), ``retain`` (not rejected; not
-    evidence of equality) or ``unavailable`` (the test could not be computed).
+    evidence of equality) or ``unavailable`` (the test could not be computed), for the
+    test whose `p` it reports. `parts` is the sentence as words and `Number`s; the words
+    come from the resolved plan and the results, the numbers are written at render time
+    (`appendix.numbers.write_parts`), so the render options' decimals apply to text and
+    tables alike. `sentence` is the sentence with the default decimals.
     """
 
-    sentence: str
+    parts: tuple[str | Number, ...]
     decision: Literal["reject", "retain", "unavailable"]
     p: float | None
     alpha: float
+
+    @property
+    def sentence(self) -> str:
+        from appendix.numbers import write_parts
+
+        return write_parts(self.parts)
 
 
 @dataclass(frozen=True)
@@ -715,10 +739,32 @@ class StudyResults:
 # --- canonical JSON ---------------------------------------------------------------------
 
 
+def _mentions(hint: Any, kind: type) -> bool:
+    return hint is kind or any(_mentions(arg, kind) for arg in get_args(hint))
+
+
+@cache
+def _float_fields(cls: type) -> frozenset[str]:
+    """The fields of `cls` declared as floats (alone, optional or in tuples), which are
+    written as floats even when they hold an integer (a df of 39 is 39.0), so that the
+    text `from_json` reads back writes out byte for byte the same."""
+    return frozenset(name for name, hint in get_type_hints(cls).items()
+                     if _mentions(hint, float) and not _mentions(hint, int))
+
+
+def _as_float(value: Any) -> Any:
+    if isinstance(value, (list, tuple)):
+        return [_as_float(v) for v in value]
+    return float(value) if isinstance(value, int) and not isinstance(value, bool) else value
+
+
 def _plain(value: Any) -> Any:
     """Dataclasses, tuples and floats to JSON-ready values; NaN and infinities to None."""
     if dataclasses.is_dataclass(value) and not isinstance(value, type):
-        return {f.name: _plain(getattr(value, f.name)) for f in dataclasses.fields(value)}
+        floats = _float_fields(type(value))
+        return {f.name: _plain(_as_float(getattr(value, f.name)) if f.name in floats
+                               else getattr(value, f.name))
+                for f in dataclasses.fields(value)}
     if isinstance(value, (list, tuple)):
         return [_plain(v) for v in value]
     if isinstance(value, dict):
@@ -742,3 +788,44 @@ def to_json(results: StudyResults) -> str:
 def to_plain(results: Any) -> Any:
     """The same JSON-ready structure `to_json` writes, for rendering without a file."""
     return json.loads(json.dumps(_plain(results), allow_nan=False))
+
+
+class ResultsFormatError(ValueError):
+    """A results.json text that is not of this results format; the message names the
+    first keys that do not fit."""
+
+
+def from_json(text: str | bytes) -> StudyResults:
+    """The typed `StudyResults` of a results.json text of `FORMAT_VERSION`: every key
+    checked against its declared type, so `to_json(from_json(text)) == text` for a text
+    that `to_json` wrote. Raises `ResultsFormatError` for anything else (another format,
+    a missing or misspelled key, a value of the wrong type, text that is not JSON)."""
+    from pydantic import TypeAdapter, ValidationError
+
+    try:
+        data = json.loads(text)
+    except (json.JSONDecodeError, UnicodeDecodeError) as error:
+        raise ResultsFormatError(f"not JSON ({error})") from None
+    version = data.get("format_version") if isinstance(data, dict) else None
+    if version != FORMAT_VERSION:
+        raise ResultsFormatError(f"results format {version!r}; this version reads {FORMAT_VERSION}")
+    try:
+        return _reader().validate_python(data)
+    except ValidationError as error:
+        shown = [f"{'.'.join(str(p) for p in e['loc']) or '(top)'}: {e['msg']}"
+                 for e in error.errors()[:3]]
+        raise ResultsFormatError("; ".join(shown)) from None
+
+
+@cache
+def _reader():
+    from pydantic import TypeAdapter
+
+    return TypeAdapter(StudyResults)
+
+
+# A key that no field declares is an error when a results file is read back (pydantic reads
+# this plain-dict config of each dataclass).
+for _type in list(globals().values()):
+    if isinstance(_type, type) and dataclasses.is_dataclass(_type):
+        _type.__pydantic_config__ = {"extra": "forbid"}

@@ -18,3 +18,13 @@ def demo_study(tmp_path: Path) -> Path:
     target = tmp_path / "seed-coating"
     shutil.copytree(DEMO, target, ignore=shutil.ignore_patterns("__pycache__"))
     return target / "study.yaml"
+
+
+@pytest.fixture(scope="session")
+def computed_demos() -> dict:
+    """Each invented demo in studies/ computed once per session (`api.compute`, read-only:
+    nothing is written), by folder name."""
+    from appendix import api
+
+    return {name: api.compute(REPO / "studies" / name / "study.yaml")
+            for name in ("seed-coating", "greenhouse-split", "wound-dose")}

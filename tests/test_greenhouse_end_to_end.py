@@ -10,6 +10,8 @@ from pathlib import Path
 import pytest
 from pypdf import PdfReader
 
+from appendix.numbers import write_parts
+
 from tests.conftest import REPO
 from tests.test_cli import run_cli
 from tests.test_end_to_end import _Ids
@@ -72,7 +74,7 @@ def test_the_pdf_names_the_design_and_carries_the_caution(run):
 def test_an_interaction_with_the_within_factor_is_concluded_on_as_an_interaction(run):
     results = json.loads((run / "results.json").read_text(encoding="utf-8"))
     (model,) = results["outcomes"]
-    sentences = [c["sentence"] for c in model["conclusions"]]
+    sentences = [write_parts(c["parts"]) for c in model["conclusions"]]
     (visit,) = [s for s in sentences if s.startswith("Seed coating × visit")]
     assert "the hypothesis of no interaction is rejected" in visit
 

@@ -88,8 +88,9 @@ def _primary(values: np.ndarray, codes: np.ndarray) -> R.OutcomeResult:
         tables=(table,), marginal_means=(), slopes=(), sphericity=None,
         diagnostics=diagnostics,
         conclusions=(R.Conclusion(
-            f"Mean change in systolic blood pressure differed between the groups, "
-            f"F({df_b}, {df_w}) = {f:.2f}, {p_clause(p)}.", "reject", p, 0.05),),
+            (f"Mean change in systolic blood pressure differed between the groups, "
+             f"F({df_b}, {df_w}) = ", R.Number("statistic", f), ", ", R.Number("p", p), "."),
+            "reject", p, 0.05),),
         robust=R.RobustTests(welch=R.WelchAnova(5.87, 2.0, 13.62, 0.0146),
                              kruskal=R.KruskalWallis(8.04, 2, 0.0180, 0.9996)),
         selected_method="welch",
@@ -214,7 +215,7 @@ def _sentence(h: R.HypothesisResult) -> R.Conclusion:
     if h.p_adjusted is not None:
         text += f", adjusted {p_clause(h.p_adjusted)}"
     decision = "retain" if h.decision == "not-tested" else h.decision
-    return R.Conclusion(text + ".", decision, h.p_adjusted, 0.05)
+    return R.Conclusion((text + ".",), decision, h.p_adjusted, 0.05)
 
 
 def _exploratory(values: np.ndarray, codes: np.ndarray) -> R.ExploratoryAnalysis:
@@ -243,7 +244,7 @@ def _degenerate() -> R.OutcomeResult:
         descriptives=R.Descriptives(0.95, summaries),
         tables=(table,), marginal_means=(), slopes=(), sphericity=None,
         diagnostics=R.Diagnostics(None, (), None, ()),
-        conclusions=(R.Conclusion("The pain score could not be compared: every value was 2.",
+        conclusions=(R.Conclusion(("The pain score could not be compared: every value was 2.",),
                                   "unavailable", None, 0.05),),
         robust=R.RobustTests(welch=R.WelchAnova(None, None, None, None, (gap,)),
                              kruskal=R.KruskalWallis(None, 2, None, None, (gap,))),
@@ -254,8 +255,8 @@ def _degenerate() -> R.OutcomeResult:
                        R.Contingency("assumptions.fallbacks[1]", "unequal-variance",
                                      "brown-forsythe", None, 0.05, False, "welch")),
         hypothesis_conclusions=(R.Conclusion(
-            "The hypothesis C1 (active doses versus placebo) could not be tested for the pain "
-            "score: every value was 2.", "unavailable", None, 0.05),))
+            ("The hypothesis C1 (active doses versus placebo) could not be tested for the pain "
+             "score: every value was 2.",), "unavailable", None, 0.05),))
 
 
 def _unavailable(gap: R.StatWarning) -> R.HypothesisResult:

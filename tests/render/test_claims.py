@@ -32,16 +32,12 @@ def _defaulted_greenhouse(folder: Path) -> Path:
 
 
 @pytest.fixture(scope="module")
-def rendered(tmp_path_factory) -> dict[str, tuple[dict, str]]:
+def rendered(tmp_path_factory, computed_demos) -> dict[str, tuple[dict, str]]:
     """Name -> (results as plain data, HTML) of each rendered study."""
-    studies = {name: STUDIES / name / "study.yaml"
-               for name in ("seed-coating", "greenhouse-split", "wound-dose")}
-    studies["greenhouse-defaulted"] = _defaulted_greenhouse(tmp_path_factory.mktemp("g") / "g")
-    out = {}
-    for name, path in studies.items():
-        computed = api.compute(path)
-        out[name] = (to_plain(computed.results), api.render(computed).html)
-    return out
+    computed = dict(computed_demos)
+    computed["greenhouse-defaulted"] = api.compute(
+        _defaulted_greenhouse(tmp_path_factory.mktemp("g") / "g"))
+    return {name: (to_plain(c.results), api.render(c).html) for name, c in computed.items()}
 
 
 def _sections(html: str) -> dict[str, str]:

@@ -251,7 +251,7 @@ def test_labels_reasons_and_messages_are_escaped(plain_results, figures):
     primary["contingencies"][0]["rule"] = "<i>rule</i>"
     hostile["exploratory"][0]["reason"] = "<script>alert(5)</script>"
     hostile["deviations"][0]["message"] = "<b onclick=x>moved</b>"
-    primary["hypothesis_conclusions"][0]["sentence"] = "<u>said</u>"
+    primary["hypothesis_conclusions"][0]["parts"] = ["<u>said</u>"]
     html = render_html(hostile, figures, RenderOptions())
     for raw in ("<img src=x", "<i>rule</i>", "<script>", "<b onclick", "<u>said"):
         assert raw not in html

@@ -1,0 +1,48 @@
+"""Conclusions are stored as words and numbers and worded at render time, so that the
+render options' decimals reach the sentences as they reach the tables."""
+
+from __future__ import annotations
+
+import re
+
+from appendix import api
+from appendix.numbers import write_number, write_parts
+from appendix.render import RenderOptions
+from appendix.results import Number
+
+
+def test_a_conclusion_keeps_its_numbers_as_numbers(computed_demos):
+    (conclusion,) = computed_demos["seed-coating"].results.outcomes[0].conclusions
+    row = computed_demos["seed-coating"].results.outcomes[0].tables[0].rows[0]
+    numbers = [p for p in conclusion.parts if isinstance(p, Number)]
+    assert Number("statistic", row.f) in numbers and Number("p", row.p) in numbers
+    assert Number("proportion", row.partial_eta_squared) in numbers
+    assert all(isinstance(p, (str, Number)) for p in conclusion.parts)
+
+
+def test_statistic_and_effect_decimals_apply_to_the_sentences(computed_demos):
+    computed = computed_demos["seed-coating"]
+    outcome = computed.results.outcomes[0]
+    row = outcome.tables[0].rows[0]
+    html = api.render(computed, RenderOptions(statistic_decimals=4, effect_decimals=3)).html
+    f_text = f"{row.f:.4f}"  # four decimals, as asked, not the default two
+    eta = f"{row.partial_eta_squared:.3f}".lstrip("0")
+    sentence = next(s for s in re.findall(r'<p class="conclusion">(.*?)</p>', html, re.S)
+                    if "shoot dry mass" in s)
+    assert f"F(3, 39) = {f_text}" in sentence and f"\u03b7\u00b2 = {eta}" in sentence
+    assert f_text in html.split('<p class="conclusion">')[0]  # the variance table above shows it too
+
+
+def test_estimate_decimals_follow_the_decimals_option(computed_demos):
+    computed = computed_demos["seed-coating"]
+    (family,) = computed.results.outcomes[0].contrasts
+    estimate = family.hypotheses[0].estimate
+    html = api.render(computed, RenderOptions(decimals=3)).html
+    assert f"was estimated at {write_number('estimate', estimate, estimate_decimals=3)} mg" in html
+
+
+def test_parts_read_back_from_results_json_word_the_same():
+    parts = [{"kind": "statistic", "value": 7.891, "high": None}, " and ",
+             Number("proportion-interval", 0.141, 0.502), ", ",
+             {"kind": "lower-limit", "value": None, "high": None}]
+    assert write_parts(parts, statistic_decimals=1) == "7.9 and [.14, .50], \u2212\u221e"
