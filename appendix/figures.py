@@ -131,7 +131,7 @@ def make_figures(dataset: Dataset, results: StudyResults,
             panel = _panel(dataset, results, outcome, residuals.get(outcome.name))
             for kind, draw in _DRAWERS.items():
                 _draw(figures, f"{outcome.name}-{kind}", draw, panel)
-            figures.update(_covariate_figures(dataset, results, outcome))
+            figures.update(_covariate_figures(dataset, results, outcome, residuals.get(outcome.name)))
         figures.update(_lines_of_means(results, outcome))
         family = next((f for f in outcome.contrasts if f.registered), None)
         if family is not None and family.hypotheses:
@@ -728,10 +728,17 @@ def _xml_text(text: str) -> str:
 # --- figures of marginal means, occasions and covariates ----------------------------
 
 
-def _covariate_figures(dataset: Dataset, results: StudyResults, model: OutcomeResult) -> dict[str, str]:
+def _covariate_figures(dataset: Dataset, results: StudyResults, model: OutcomeResult,
+                       residual: Residuals | None) -> dict[str, str]:
     """Outcome against each covariate by treatment cell (unit means over the occasions
     of a repeated-measures design), with the common slope through each cell's adjusted
-    mean at the covariate mean, keyed ``f"{outcome}-covariate-{i}"``."""
+    mean at the covariate mean, keyed ``f"{outcome}-covariate-{i}"``.
+
+    Where the model also adjusts for blocks or other covariates, a point is the unit's
+    partial residual for this covariate: its cell's line at its covariate value plus its
+    model residual, i.e. its value with the blocks' and the other covariates' effects taken
+    out (Larsen & McCleary 1972, Technometrics 14:781-790), so that points and lines show
+    the same adjustment. Without them that sum is the unit's own value."""
     treatments = [f for f in results.factors if f.role == "treatment"]
     names = {f.name for f in treatments}
     group = next((g for g in model.marginal_means if set(g.factors) == names), None)
@@ -749,15 +756,23 @@ def _covariate_figures(dataset: Dataset, results: StudyResults, model: OutcomeRe
     names_in_order = [f.name for f in treatments]
     intercepts = [by_levels.get(tuple(cell[names_in_order.index(f)] for f in group.factors))
                   for cell in itertools.product(*(f.levels for f in treatments))]
+    lines = np.array([np.nan if v is None else v for v in intercepts], dtype=float)
+    adjusted = (any(f.role == "block" for f in results.factors) or len(model.covariate_slopes) > 1)
     out = {}
     y_label = f"{model.label} ({model.unit})" if model.unit else model.label
     for i, slope in enumerate(model.covariate_slopes, 1):
         if slope.estimate is None:
             continue
+        x = data.covariates[i - 1][every]
+        shown = y
+        if adjusted:  # the caption says the points are adjusted: without residuals, no figure
+            if residual is None or residual.residuals.shape != y.shape:
+                continue
+            shown = lines[cells[every]] + slope.estimate * (x - slope.mean) + residual.residuals
         stem = f"{model.name}-covariate-{i}"
-        svg = covariate_scatter(data.covariates[i - 1][every], y, cells[every], labels, slope.estimate,
-                                intercepts, x_label=slope.label, y_label=y_label, centre=slope.mean,
-                                stem=stem)
+        x_label = f"{slope.label} ({slope.unit})" if slope.unit else slope.label
+        svg = covariate_scatter(x, shown, cells[every], labels, slope.estimate, intercepts,
+                                x_label=x_label, y_label=y_label, centre=slope.mean, stem=stem)
         if svg is not None:
             out[stem] = svg
     return out
