@@ -372,9 +372,9 @@ def _term_numbers(found: dict, name: str, o: Mapping[str, Any]) -> None:
             found[(name, f"{term}.hf_p")] = (f"p Huynh-Feldt, {label}", row.get("hf_p"))
     robust = o.get("robust")
     if robust is not None:
-        found[(name, "welch.f")] = ("F (Welch)", robust["welch"]["f"])
+        found[(name, "welch.statistic")] = ("F (Welch)", robust["welch"]["statistic"])
         found[(name, "welch.p")] = ("p (Welch)", robust["welch"]["p"])
-        found[(name, "kruskal.h")] = ("H (Kruskal-Wallis)", robust["kruskal"]["h"])
+        found[(name, "kruskal.statistic")] = ("H (Kruskal-Wallis)", robust["kruskal"]["statistic"])
         found[(name, "kruskal.p")] = ("p (Kruskal-Wallis)", robust["kruskal"]["p"])
     one_term = len(o["tables"]) == 1 and len(o["tables"][0]["rows"]) == 1
     for term, label, row in _rows(o):

@@ -104,13 +104,13 @@ def _omnibus(method: str, row, df_error: float, robust) -> _Omnibus:
     welch = robust.welch if robust is not None else None
     kruskal = robust.kruskal if robust is not None else None
     if method == "welch" and welch is not None:
-        clause = _test("Welch's F", welch.df_num, welch.df_den, welch.f, welch.p)
+        clause = _test("Welch's F", welch.df1, welch.df2, welch.statistic, welch.p)
         return _Omnibus("Welch's F test", "Welch's F", clause,
-                        welch.p if welch.f is not None else None, welch.warnings)
+                        welch.p if welch.statistic is not None else None, welch.warnings)
     if method == "rank-based" and kruskal is not None:
-        clause = _test("Kruskal-Wallis H", kruskal.df, None, kruskal.h, kruskal.p)
+        clause = _test("Kruskal-Wallis H", kruskal.df1, None, kruskal.statistic, kruskal.p)
         return _Omnibus("The Kruskal-Wallis test", "H", clause,
-                        kruskal.p if kruskal.h is not None else None, kruskal.warnings,
+                        kruskal.p if kruskal.statistic is not None else None, kruskal.warnings,
                         hypothesis="identical distributions",
                         unequal="the distributions are not all identical",
                         equal="the distributions are identical")
@@ -263,7 +263,7 @@ def slopes_caveat(slopes, alpha: float) -> Parts:
     rejected = [c for c in slopes if c.p is not None and c.p < alpha]
     if not rejected:
         return ()
-    tests = [parts("; " if i else "", f"{c.covariate}: ", _test("F", c.df, c.df_residual, c.f, c.p))
+    tests = [parts("; " if i else "", f"{c.covariate}: ", _test("F", c.df1, c.df2, c.statistic, c.p))
              for i, c in enumerate(rejected)]
     return parts(" Caution: the slopes of the outcome on the covariate differ across the treatment "
                  "cells (", tests, "), so this covariate-adjusted comparison holds at the "
@@ -293,11 +293,11 @@ def _variance_detail(test: VarianceTest) -> str:
     name = _TEST_NAMES.get(test.method, test.method)
     if test.statistic is None:
         return f"{name}: not computed ({' '.join(w.message for w in test.warnings)})"
-    if test.df_den is not None:
-        stat = (f"F({fmt.df_value(test.df_num)}, {fmt.df_value(test.df_den)}) = "
+    if test.df2 is not None:
+        stat = (f"F({fmt.df_value(test.df1)}, {fmt.df_value(test.df2)}) = "
                 f"{fmt.fixed(test.statistic, 2)}")
     else:
-        stat = f"\u03c7\u00b2({fmt.df_value(test.df_num)}) = {fmt.fixed(test.statistic, 2)}"
+        stat = f"\u03c7\u00b2({fmt.df_value(test.df1)}) = {fmt.fixed(test.statistic, 2)}"
     return f"{name}: {stat}, {fmt.p_clause(test.p)}"
 
 

@@ -708,8 +708,8 @@ def methods_used(results: Mapping[str, Any]) -> tuple[Method, ...]:
         # one within factor per plan: a lower bound 1/d of 1 means two levels, no correction
         two_levels = all(o["sphericity"]["lower_bound"] >= 1 for o in outcomes if o["sphericity"])
         chosen.append("repeated-two-levels" if two_levels else "repeated")
-    chosen += ["welch"] if _ran(one_factor, lambda o: o["robust"]["welch"]["f"] is not None) else []
-    chosen += ["kruskal"] if _ran(one_factor, lambda o: o["robust"]["kruskal"]["h"] is not None) else []
+    chosen += ["welch"] if _ran(one_factor, lambda o: o["robust"]["welch"]["statistic"] is not None) else []
+    chosen += ["kruskal"] if _ran(one_factor, lambda o: o["robust"]["kruskal"]["statistic"] is not None) else []
     chosen += ["effect_sizes"] if _ran(outcomes, lambda o: any(
         r["partial_eta_squared"] is not None for t in o["tables"] for r in t["rows"])) else []
     chosen += ["shapiro"] if _ran(one_factor, lambda o: o["diagnostics"]["normality"]) else []

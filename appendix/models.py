@@ -319,14 +319,14 @@ def _slopes_checks(plan: Plan, cells, fit) -> tuple[SlopesCheck, ...]:
                           "The design has no treatment factor, so there are no treatment cells "
                           "across which the covariate's slope could differ; the homogeneity-of-"
                           "slopes check is not defined and one common slope is fitted.")
-        return tuple(SlopesCheck(covariate=c.label, by=(), df=0.0, df_residual=fit.residual_df,
-                                 f=None, p=None, warnings=(why,)) for c in plan.design.covariates)
+        return tuple(SlopesCheck(covariate=c.label, by=(), df1=0.0, df2=fit.residual_df,
+                                 statistic=None, p=None, warnings=(why,)) for c in plan.design.covariates)
     checks = []
     for covariate in plan.design.covariates:
         row = slopes_homogeneity(cells, plan.model_terms, covariate.name, by, plan.alpha)
         checks.append(SlopesCheck(covariate=covariate.label, by=tuple(plan.factor_named(n).label or n
                                                                       for n in by),
-                                  df=row.df, df_residual=fit.residual_df - row.df, f=row.f, p=row.p,
+                                  df1=row.df, df2=fit.residual_df - row.df, statistic=row.f, p=row.p,
                                   warnings=tuple(row.warnings)))
     return tuple(checks)
 

@@ -120,21 +120,23 @@ class OneWayTable:
 
 @dataclass(frozen=True)
 class WelchAnova:
-    """Welch's (1951) heteroscedastic one-way test: F on (df_num, df_den), df_den fractional."""
+    """Welch's (1951) heteroscedastic one-way test: the F `statistic` on (`df1`, `df2`),
+    `df2` fractional."""
 
-    f: float | None
-    df_num: float | None
-    df_den: float | None
+    statistic: float | None
+    df1: float | None
+    df2: float | None
     p: float | None
     warnings: Warnings = ()
 
 
 @dataclass(frozen=True)
 class KruskalWallis:
-    """Kruskal & Wallis (1952) rank test, H corrected for ties, chi-squared on `df`."""
+    """Kruskal & Wallis (1952) rank test: the `statistic` H corrected for ties, referred to
+    chi-squared on `df1`."""
 
-    h: float | None
-    df: int | None
+    statistic: float | None
+    df1: int | None
     p: float | None
     tie_correction: float | None
     warnings: Warnings = ()
@@ -176,12 +178,13 @@ class NormalityTest:
 
 @dataclass(frozen=True)
 class VarianceTest:
-    """A test of equal group variances: ``brown-forsythe`` (F) or ``bartlett`` (chi-squared)."""
+    """A test of equal group variances: ``brown-forsythe`` (F on `df1`, `df2`) or
+    ``bartlett`` (chi-squared on `df1`; `df2` None)."""
 
     method: str
     statistic: float | None
-    df_num: float | None
-    df_den: float | None
+    df1: float | None
+    df2: float | None
     p: float | None
     warnings: Warnings = ()
 
@@ -459,13 +462,13 @@ class MarginalMeans:
 @dataclass(frozen=True)
 class SlopesCheck:
     """Homogeneity of regression slopes: the covariate by treatment-cell interaction added
-    to the model, F test."""
+    to the model: the F `statistic` on the interaction's `df1` and the residual `df2`."""
 
     covariate: str
     by: tuple[str, ...]
-    df: float
-    df_residual: float
-    f: float | None
+    df1: float
+    df2: float
+    statistic: float | None
     p: float | None
     warnings: Warnings = ()
 

@@ -144,9 +144,9 @@ def test_one_factor_numbers_are_its_terms_test_the_robust_tests_and_effect_sizes
     kruskal, eta = scipy.stats.kruskal(*groups), float(pingouin.anova(frame, dv="y", between="g")["np2"][0])
     assert numbers["units/coating.f"] == ("F, seed coating", pytest.approx(classical.statistic, rel=1e-10))
     assert numbers["units/coating.p"] == ("p, seed coating", pytest.approx(classical.pvalue, rel=1e-8))
-    assert numbers["welch.f"] == ("F (Welch)", pytest.approx(float(welch["F"][0]), rel=1e-10))
+    assert numbers["welch.statistic"] == ("F (Welch)", pytest.approx(float(welch["F"][0]), rel=1e-10))
     assert numbers["welch.p"] == ("p (Welch)", pytest.approx(float(welch["p_unc"][0]), rel=1e-8))
-    assert numbers["kruskal.h"] == ("H (Kruskal-Wallis)", pytest.approx(kruskal.statistic, rel=1e-10))
+    assert numbers["kruskal.statistic"] == ("H (Kruskal-Wallis)", pytest.approx(kruskal.statistic, rel=1e-10))
     assert numbers["kruskal.p"] == ("p (Kruskal-Wallis)", pytest.approx(kruskal.pvalue, rel=1e-8))
     # one term in one table: its partial share is the share itself, and is called so
     label, value = numbers["units/coating.partial_eta_squared.estimate"]
@@ -403,5 +403,5 @@ def test_fields_the_results_format_gives_a_default_may_be_absent(demo_runs, tmp_
     assert gone == {h["id"] for o in json.loads((demo_runs[0] / "results.json").read_text(encoding="utf-8"))[
         "outcomes"] for f in o["contrasts"] if f["registered"] for h in f["hypotheses"]}
     moved = {(m.outcome, m.quantity): m for m in diff.numbers}
-    assert moved[("dry_mass", "welch.f")].b is None and moved[("dry_mass", "units/coating.cohens_f.estimate")].b is None
+    assert moved[("dry_mass", "welch.statistic")].b is None and moved[("dry_mass", "units/coating.cohens_f.estimate")].b is None
     assert moved[("dry_mass", "units/coating.f")].b is not None

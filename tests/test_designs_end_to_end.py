@@ -549,9 +549,9 @@ multiplicity: {method: holm}
     reduced = smf.ols("mass ~ baseline + C(coating)", data=data).fit()
     full = smf.ols("mass ~ baseline * C(coating)", data=data).fit()
     reference = anova_lm(reduced, full)
-    assert check.f == pytest.approx(reference["F"].iloc[1], rel=1e-9)
+    assert check.statistic == pytest.approx(reference["F"].iloc[1], rel=1e-9)
     assert check.p < 0.05
-    text = f"F(2, {int(full.df_resid)}) = {check.f:.2f}"
+    text = f"F(2, {int(full.df_resid)}) = {check.statistic:.2f}"
     sentences = [c.sentence for c in (*model.conclusions, *model.hypothesis_conclusions)]
     assert len(sentences) == 3
     for sentence in sentences:

@@ -77,7 +77,7 @@ def test_pdf_text_holds_the_variance_table(demo_run: Path):
     for outcome in results["outcomes"]:
         table = outcome["tables"][0]
         row = table["rows"][0]
-        assert f"F({row['df']}, {table['residual_df']}) = " \
+        assert f"F({numbers.df_value(row['df'])}, {numbers.df_value(table['residual_df'])}) = " \
                f"{numbers.fixed(row['f'], 2)}" in text
         assert numbers.p_value(row["p"]) in text
     # The demo builds a coating effect into dry mass only (see studies/seed-coating/generate.py).

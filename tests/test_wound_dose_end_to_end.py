@@ -200,8 +200,8 @@ def test_covariate_slope_and_homogeneity_of_slopes_match_statsmodels(results, na
     full = ols(MODEL + " + C(dose, Treatment('vehicle')):baseline", data=data).fit()
     comparison = anova_lm(fit, full)
     (check,) = _model(results, name)["slopes"]
-    assert (check["df"], check["df_residual"]) == (comparison["df_diff"][1], full.df_resid)
-    assert check["f"] == pytest.approx(comparison["F"][1], rel=1e-8)
+    assert (check["df1"], check["df2"]) == (comparison["df_diff"][1], full.df_resid)
+    assert check["statistic"] == pytest.approx(comparison["F"][1], rel=1e-8)
     assert check["p"] == pytest.approx(comparison["Pr(>F)"][1], rel=1e-7)
 
 

@@ -22,7 +22,7 @@ def kruskal_wallis(
     tie correction C = 1 - sum (t^3 - t) / (N^3 - N), and avoids its cancellation.
     H is referred to chi-squared on (occupied levels - 1) df, right tail.
 
-    >>> kruskal_wallis(np.array([1.0, 3, 5, 7, 9, 2, 4, 6, 8, 10]), np.repeat([0, 1], 5), 2).h
+    >>> kruskal_wallis(np.array([1.0, 3, 5, 7, 9, 2, 4, 6, 8, 10]), np.repeat([0, 1], 5), 2).statistic
     0.2727272727272727
     """
     values, codes = check_inputs(values, codes, k)

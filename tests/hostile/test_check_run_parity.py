@@ -212,7 +212,7 @@ def test_covariate_in_a_design_without_treatment_factor(tmp_path):
     computed = api.compute(_study(tmp_path, plan, rows))
     (model,) = computed.results.outcomes
     (check,) = model.slopes
-    assert (check.f, check.p, check.by) == (None, None, ())
+    assert (check.statistic, check.p, check.by) == (None, None, ())
     assert [w.code for w in check.warnings] == ["slopes-check-undefined"]
     (slope,) = model.covariate_slopes
     means = [sum(r) / 3 for r in values.values()]

@@ -64,9 +64,9 @@ def test_welch_pain_threshold() -> None:
     values, codes, levels = _pain_threshold()
     welch = welch_anova(cell_stats(values, codes, len(levels), levels))
     # Expected: pingouin 0.7.0 docstring of pingouin.welch_anova.
-    assert welch.df_num == 3
-    assert welch.df_den == pytest.approx(8.329841, abs=5e-7)
-    assert welch.f == pytest.approx(5.890115, abs=5e-7)
+    assert welch.df1 == 3
+    assert welch.df2 == pytest.approx(8.329841, abs=5e-7)
+    assert welch.statistic == pytest.approx(5.890115, abs=5e-7)
     assert welch.p == pytest.approx(0.018813, abs=5e-7)
 
 
@@ -74,8 +74,8 @@ def test_kruskal_wallis_pain_threshold() -> None:
     values, codes, levels = _pain_threshold()
     result = kruskal_wallis(values, codes, len(levels))
     # Expected: pingouin 0.7.0 docstring of pingouin.kruskal.
-    assert result.df == 3
-    assert result.h == pytest.approx(10.58863, abs=5e-6)
+    assert result.df1 == 3
+    assert result.statistic == pytest.approx(10.58863, abs=5e-6)
     assert result.p == pytest.approx(0.014172, abs=5e-7)
 
 
@@ -85,7 +85,7 @@ def test_kruskal_wallis_hand_computed_ties() -> None:
     # TestKruskal.test_three_groups; checked by hand from the definition).
     result = kruskal_wallis(np.array([1.0, 1, 1, 2, 2, 2, 2, 2]), np.array([0, 0, 0, 1, 1, 1, 2, 2]), 3)
     assert result.tie_correction == pytest.approx(1 - 144 / 504, rel=1e-15)
-    assert result.h == pytest.approx(7.0, rel=1e-14)
+    assert result.statistic == pytest.approx(7.0, rel=1e-14)
 
 
 def test_brown_forsythe_gear() -> None:
@@ -94,7 +94,7 @@ def test_brown_forsythe_gear() -> None:
     # NIST/SEMATECH e-Handbook 1.3.5.10, gear data: W = 1.705910 on (9, 90) df (from the
     # handbook page as quoted with more digits in scipy 1.17 TestLevene.test_data:
     # W = 1.7059176930008939, p = 0.0990829755522).
-    assert (result.df_num, result.df_den) == (9.0, 90.0)
+    assert (result.df1, result.df2) == (9.0, 90.0)
     assert result.statistic == pytest.approx(1.7059176930008939, rel=1e-12)
     assert result.p == pytest.approx(0.0990829755522, rel=1e-9)
 
@@ -104,7 +104,7 @@ def test_bartlett_gear() -> None:
     result = bartlett(cell_stats(values, codes, 10))
     # NIST/SEMATECH e-Handbook 1.3.5.7, gear data: T = 20.78587 on 9 df (quoted in scipy
     # 1.17 TestBartlett.test_data as T = 20.78587342806484, p = 0.0136358632781).
-    assert result.df_num == 9.0
+    assert result.df1 == 9.0
     assert result.statistic == pytest.approx(20.78587342806484, rel=1e-12)
     assert result.p == pytest.approx(0.0136358632781, rel=1e-9)
 
