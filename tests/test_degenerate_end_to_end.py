@@ -62,7 +62,7 @@ def test_single_unit_empty_level_and_constant_group_render(tmp_path: Path):
     # Three non-empty groups, 7 units: the F test exists (df 2 and 4).
     assert (outcome["tables"][0]["rows"][0]["df"], outcome["tables"][0]["residual_df"]) == (2, 4)
     assert outcome["tables"][0]["rows"][0]["f"] is not None
-    assert outcome["robust"]["welch"]["f"] is None  # Welch needs n >= 2 and variance > 0 in every group
+    assert outcome["robust"]["welch"]["statistic"] is None  # Welch needs n >= 2 and variance > 0 in every group
     assert {f["code"] for f in results["findings"]} >= {"level-without-units"}
     html = (tmp_path / "run" / "appendix.html").read_text(encoding="utf-8")
     for group_warning in outcome["robust"]["welch"]["warnings"]:

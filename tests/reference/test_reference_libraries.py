@@ -90,7 +90,7 @@ def test_welch_matches_pingouin(seed: int, decimals: int | None) -> None:
     reference = pingouin.welch_anova(data=_frame(values, codes), dv="y", between="g")  # pingouin 0.7.0
     assert ours.df1 == reference["ddof1"].iloc[0]
     assert ours.df2 == pytest.approx(reference["ddof2"].iloc[0], rel=REL)
-    assert ours.f == pytest.approx(reference["F"].iloc[0], rel=REL)
+    assert ours.statistic == pytest.approx(reference["F"].iloc[0], rel=REL)
     assert ours.p == pytest.approx(reference["p_unc"].iloc[0], rel=1e-8)
 
 
