@@ -725,7 +725,8 @@ def methods_used(results: Mapping[str, Any]) -> tuple[Method, ...]:
     # with a registered fallback the diagnostics can choose the analysis: say so instead
     chosen += ["contingency"] if _ran(outcomes, lambda o: o.get("contingencies")) else ["pretest"]
     chosen += ["reporting"]
-    return tuple(_as_stated(METHODS[key], results.get("plan_defaults", ())) for key in chosen)
+    defaults = {s["key"] for s in results.get("plan_settings", ()) if not s["stated"]}
+    return tuple(_as_stated(METHODS[key], defaults) for key in chosen)
 
 
 def _as_stated(method: Method, defaults) -> Method:

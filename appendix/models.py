@@ -150,7 +150,7 @@ def _between_outcome(plan, outcome, data, missing_by_cell, cell_labels):
     grid = Grid(names=tuple(f.name for f in plan.between), levels=tuple(f.levels for f in plan.between))
     codes = _between_codes(plan, data)
     covariates = {c.name: data.covariates[j] for j, c in enumerate(plan.design.covariates)}
-    ss_type = plan.design.sums_of_squares or 2
+    ss_type = plan.ss_type
     treatment = _treatment_cells(plan, data)
     if data.summary is not None:
         # Out of core (one factor): every test on cell statistics uses all units; row-level
@@ -659,7 +659,7 @@ def _repeated_outcome(plan, outcome, data, missing_by_cell, cell_labels):
     covariates = {c.name: data.covariates[j][rows_of_units] for j, c in enumerate(plan.design.covariates)}
     interacting = _interacting(plan)
     fit = split_plot(grid, codes, complete.y, covariates or None, plan.model_terms, interacting,
-                     plan.design.sums_of_squares or 2, within.name, plan.alpha)
+                     plan.ss_type, within.name, plan.alpha)
     between = _model_table(plan, fit.between, scale=m, stratum="between units")
     within_rows = tuple(_repeated_row(plan, r) for r in fit.within_rows)
     error = within_rows[-1]
@@ -696,7 +696,7 @@ def _repeated_outcome(plan, outcome, data, missing_by_cell, cell_labels):
 
         y = complete.y[:, within.levels.index(level)]
         return fit_linear(design_cells(grid, codes, y, covariates or None), plan.model_terms,
-                          plan.design.sums_of_squares or 2, plan.alpha)
+                          plan.ss_type, plan.alpha)
 
     occasion_residuals = np.column_stack([
         complete.y[:, j] - fitted_values(occasion_fit(level), cell_codes, covariates or None)

@@ -115,7 +115,7 @@ def describe_run(loaded: LoadedPlan, dataset: Dataset) -> list[str]:
                   " (no equal-variance test on repeated observations; outliers on unit means)")
         lines.append(
             f"per outcome, at alpha {plan.alpha:g}: descriptives by cell; variance table with "
-            f"type {plan.design.sums_of_squares or 2} sums of squares of {terms}{within}; "
+            f"type {plan.ss_type} sums of squares of {terms}{within}; "
             "partial eta and omega squared and Cohen's f with CIs; estimated marginal means"
             + ("; homogeneity of slopes" if plan.design.covariates else "")
             + f"; diagnostics: {', '.join(checks)}{spread}")

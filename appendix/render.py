@@ -163,6 +163,17 @@ WORDS: Mapping[str, Mapping[str, str]] = MappingProxyType({
         "brown-forsythe": "Brown\u2013Forsythe", "bartlett": "Bartlett",
         "shapiro-wilk": "Shapiro\u2013Wilk"}),
     "deviations": MappingProxyType({"registered-contingency": "Registered contingency applied"}),
+    "settings": MappingProxyType({  # keys of PlanSetting.key; an unlisted key is shown as is
+        "alpha": "Significance level α",
+        "design.sums_of_squares": "Type of sums of squares",
+        "assumptions.normality": "Normality test",
+        "assumptions.equal_variance": "Equal-variance tests",
+        "assumptions.outliers.method": "Outlier rule",
+        "assumptions.outliers.threshold": "Outlier threshold, |studentized residual|",
+        "analysis.method": "Primary analysis",
+        "multiplicity.method": "Multiplicity adjustment",
+        "multiplicity.scope": "Multiplicity family",
+        "repeated.missing": "Missing repeated observations"}),
 })
 
 

@@ -670,6 +670,17 @@ class PlanRevision:
 
 
 @dataclass(frozen=True)
+class PlanSetting:
+    """One plan key with a default, resolved: its `value` as the study file would write
+    it, and whether the file `stated` it (the appendix says "as registered") or the
+    default held (it says "by default")."""
+
+    key: str
+    value: str
+    stated: bool
+
+
+@dataclass(frozen=True)
 class Registration:
     """The registration lock the run compared the plan with (``study.lock.json``).
 
@@ -716,9 +727,9 @@ class Software:
 class StudyResults:
     """Everything a run computed; serialised by `to_json` as results.json.
 
-    `plan_defaults` lists the plan keys with a default that the study file does not state
-    (`appendix.plan.load.DEFAULTED_KEYS`): the appendix says "as registered" only for the
-    others."""
+    `plan_settings` holds every plan key with a default, its resolved value and whether the
+    study file states it (`appendix.plan.settings`): the appendix says "as registered" only
+    for stated keys."""
 
     study: StudyInfo
     plan_sha256: str
@@ -735,7 +746,7 @@ class StudyResults:
     multiplicity_scope: str | None = None
     factors: tuple[FactorInfo, ...] = ()
     registration: Registration | None = None
-    plan_defaults: tuple[str, ...] = ()
+    plan_settings: tuple[PlanSetting, ...] = ()
     format_version: int = field(default=FORMAT_VERSION)
 
 

@@ -112,7 +112,7 @@ def study_analysis(loaded: LoadedPlan, dataset: Dataset, software: tuple[Softwar
         multiplicity_scope=plan.multiplicity.scope if plan.contrasts else None,
         factors=tuple(_factor_info(f) for f in plan.design.factors),
         registration=registration(lock),
-        plan_defaults=loaded.defaulted,
+        plan_settings=loaded.settings,
     )
     return Analysis(results, {r.outcome: r for _, _, _, r in work})
 

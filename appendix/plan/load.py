@@ -10,6 +10,7 @@ import hashlib
 import json
 from collections.abc import Mapping
 from dataclasses import dataclass
+from functools import cached_property
 from pathlib import Path
 from types import MappingProxyType
 
@@ -19,17 +20,13 @@ from appendix.errors import PlanError, Problem, UserError
 from appendix.plan.checks import consistency_problems
 from appendix.plan.messages import translate
 from appendix.plan.model import Plan
+from appendix.plan.settings import plan_settings
 from appendix.plan.wording import Loc, key_path, show
+from appendix.results import PlanSetting
 from appendix.plan.yamltree import YamlSyntaxError, read_tree
 
 #: Largest study file read. A plan is a page of text; anything far larger is a mistake.
 MAX_BYTES = 1 << 20
-
-
-#: Plan keys with a default that the appendix names when it reports what was done.
-DEFAULTED_KEYS = ("alpha", "analysis.method", "design.sums_of_squares", "repeated.missing",
-                  "assumptions.normality", "assumptions.equal_variance",
-                  "assumptions.outliers.threshold", "multiplicity.method", "multiplicity.scope")
 
 
 @dataclass(frozen=True)
@@ -57,11 +54,16 @@ class LoadedPlan:
     def data_path(self) -> Path:
         return self.folder / self.plan.data.source
 
+    @cached_property
+    def settings(self) -> tuple[PlanSetting, ...]:
+        """Every key with a default, resolved, with whether the study file states it."""
+        return plan_settings(self.plan, self.lines)
+
     @property
     def defaulted(self) -> tuple[str, ...]:
-        """The keys of `DEFAULTED_KEYS` that the study file does not state: their defaults
-        hold, and the appendix says "by default" where it would say "as registered"."""
-        return tuple(key for key in DEFAULTED_KEYS if key not in self.lines)
+        """The keys whose defaults hold: the appendix says "by default" for them where it
+        would say "as registered"."""
+        return tuple(s.key for s in self.settings if not s.stated)
 
     def line_of(self, path: str) -> int | None:
         """The line of a key path, or of its nearest enclosing key when absent."""

@@ -448,6 +448,12 @@ class Plan(_Frozen):
         return tuple(f for f in self.design.factors if f.role == "block")
 
     @property
+    def ss_type(self) -> int:
+        """The type of sums of squares: as stated, else 2 (which a design whose one
+        between-unit term makes every type agree on never needs to state)."""
+        return self.design.sums_of_squares or 2
+
+    @property
     def within(self) -> Factor | None:
         """The within-unit (repeated-measures) factor, if any."""
         return next((f for f in self.design.factors if f.role == "within"), None)

@@ -83,10 +83,31 @@ def test_each_claim_of_an_outcome_has_its_object(rendered, name):
                              r'<div class="figure-art"><svg', page), figure
 
 
+def _defaults(results: dict) -> set[str]:
+    return {s["key"] for s in results["plan_settings"] if not s["stated"]}
+
+
+@pytest.mark.parametrize("name", CASES)
+def test_settings_table_says_the_source_of_every_plan_level_setting(rendered, name):
+    results, html = rendered[name]
+    text = " ".join(re.sub(r"<[^>]+>", " ", html).split())
+    block = html[html.index("Analysis settings, as the study file states them"):]
+    block = block[:block.index("</table>")]
+    rows = {key: (value, source) for key, value, source in re.findall(
+        r'<code>([^<]+)</code></td><td class="text">([^<]*)</td><td class="text">'
+        r'(as registered|by default)</td>', block)}
+    top = {s["key"]: s for s in results["plan_settings"] if "[" not in s["key"]}
+    assert top and set(rows) == set(top)
+    for key, (value, source) in rows.items():
+        assert (value, source) == (top[key]["value"], "as registered" if top[key]["stated"] else "by default"), key
+    alpha = "as registered" if top["alpha"]["stated"] else "by default"
+    assert f"Every test uses the significance level &#945; = .05, {alpha}" in text
+
+
 @pytest.mark.parametrize("name", CASES)
 def test_as_registered_only_for_what_the_study_file_states(rendered, name):
     results, html = rendered[name]
-    defaults = set(results["plan_defaults"])
+    defaults = _defaults(results)
     text = " ".join(re.sub(r"<[^>]+>", " ", html).split())
     stated_ss = "design.sums_of_squares" not in defaults
     said = re.findall(r"Sums of squares are type \d \([^)]*\), (as registered|by default)", text)
@@ -102,8 +123,8 @@ def test_as_registered_only_for_what_the_study_file_states(rendered, name):
 
 def test_the_defaulted_variant_names_its_defaults(rendered):
     results, html = rendered["greenhouse-defaulted"]
-    assert "repeated.missing" in results["plan_defaults"]
+    assert "repeated.missing" in _defaults(results)
     assert "by default (the plan states no rule for missing occasions)" in html
     stated, _ = rendered["greenhouse-split"]
-    assert "design.sums_of_squares" not in stated["plan_defaults"]
-    assert "repeated.missing" not in stated["plan_defaults"]
+    assert "design.sums_of_squares" not in _defaults(stated)
+    assert "repeated.missing" not in _defaults(stated)
