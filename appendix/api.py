@@ -2,7 +2,7 @@
 
 >>> from appendix import api
 >>> computed = api.compute("studies/seed-coating/study.yaml")        # doctest: +SKIP
->>> computed.results.outcomes[0].tables[0].rows[0].f                # doctest: +SKIP
+>>> computed.results.outcomes[0].tables[0].rows[0].statistic                # doctest: +SKIP
 >>> api.run("studies/seed-coating/study.yaml", out_dir="out/demo")  # doctest: +SKIP
 
 Stages: `load_plan` -> `load_data` -> `analyse` -> `render` -> `run` writes the folder.

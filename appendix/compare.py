@@ -38,7 +38,7 @@ from appendix.records import Records, RowRecord, read_records
 from appendix.results import FORMAT_VERSION, StudyResults
 from appendix.targets import check_file_target, is_diff_page, write_atomically
 
-#: 2: quantities are named after the results of format 2 (``units/coating.f``, ``n_units``).
+#: 2: quantities are named after the results of format 2 (``units/coating.statistic``, ``n_units``).
 DIFF_FORMAT = 2
 
 #: Joins the factors of an interaction in a term's id, as the appendix writes it.
@@ -365,7 +365,7 @@ def _term_numbers(found: dict, name: str, o: Mapping[str, Any]) -> None:
     """Each term's F and p (corrected p of within-unit terms), then Welch and Kruskal-Wallis
     where they are computed, then each term's effect sizes with their intervals."""
     for term, label, row in _rows(o):
-        found[(name, f"{term}.f")] = (f"F, {label}", row["f"])
+        found[(name, f"{term}.statistic")] = (f"F, {label}", row["statistic"])
         found[(name, f"{term}.p")] = (f"p, {label}", row["p"])
         if row["kind"] == "within":
             found[(name, f"{term}.gg_p")] = (f"p Greenhouse-Geisser, {label}", row.get("gg_p"))

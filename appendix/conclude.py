@@ -60,7 +60,7 @@ def _test(name: str, df1: float | None, df2: float | None, statistic: float | No
 
 def f_clause(row, df_error: float) -> Parts:
     """``F(3, 39) = 7.89, p < .001`` for a model row tested on `df_error`."""
-    return _test("F", row.df, df_error, row.f, row.p)
+    return _test("F", row.df, df_error, row.statistic, row.p)
 
 
 def _eta(name: str, row) -> Parts:
@@ -114,8 +114,8 @@ def _omnibus(method: str, row, df_error: float, robust) -> _Omnibus:
                         hypothesis="identical distributions",
                         unequal="the distributions are not all identical",
                         equal="the distributions are identical")
-    clause = parts(f_clause(row, df_error), eta_clause(row)) if row.f is not None else ()
-    return _Omnibus("The F test", "F", clause, row.p if row.f is not None else None,
+    clause = parts(f_clause(row, df_error), eta_clause(row)) if row.statistic is not None else ()
+    return _Omnibus("The F test", "F", clause, row.p if row.statistic is not None else None,
                     tuple(row.warnings))
 
 
@@ -382,14 +382,14 @@ def term_conclusion(plan: Plan, outcome: Outcome, row, ss_type: int, df_error: f
     what = ("no interaction" if len(row.term) > 1 else
             "no association with the covariate" if row.kind == "covariate" else "equal marginal means")
     how = _SS_TYPES.get(ss_type, f"type {ss_type} sums of squares")
-    if row.f is None or row.p is None:
+    if row.statistic is None or row.p is None:
         reasons = " ".join(w.message for w in row.warnings) or "See the warnings."
         return Conclusion((f"The test of {row.label} for {outcome.label} could not be computed. "
                            f"{reasons}",), decision="unavailable", p=None, alpha=alpha)
     df1, df2, p, corrected = row.df, df_error, row.p, ""
     if row.gg_df is not None and row.gg_p is not None:
         (df1, df2), p, corrected = row.gg_df, row.gg_p, ", Greenhouse-Geisser corrected"
-    clause = parts(_test("F", df1, df2, row.f, p), _eta("partial \u03b7\u00b2", row))
+    clause = parts(_test("F", df1, df2, row.statistic, p), _eta("partial \u03b7\u00b2", row))
     if p < alpha:
         rest = parts(f"the hypothesis of {what} is rejected at ", _alpha(alpha))
         decision = "reject"

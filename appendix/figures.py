@@ -304,7 +304,7 @@ def tested_row(results: StudyResults, outcome: OutcomeResult):
     treatments = [f.name for f in results.factors if f.role == "treatment"]
     for table in outcome.tables[:1]:
         for row in table.rows:
-            if row.term == tuple(treatments[:1]) and row.f is not None:
+            if row.term == tuple(treatments[:1]) and row.statistic is not None:
                 return row, table
     return None, None
 
@@ -319,8 +319,8 @@ def _f_reference(panel: _Panel) -> Figure | None:
     scale = max(float(dist.ppf(0.999)), critical * 1.3)
     # a huge F would squash the density into the left edge: past 3x the scale it is
     # marked by an arrow at the right edge instead of a line at its place
-    on_scale = row.f * 1.15 <= 3 * scale
-    right = max(scale, row.f * 1.15) if on_scale else scale
+    on_scale = row.statistic * 1.15 <= 3 * scale
+    right = max(scale, row.statistic * 1.15) if on_scale else scale
     x = np.linspace(right / 2000, right, 1200)
     y = dist.pdf(x)
     figure, ax = _new_figure(height=2.8)
@@ -332,9 +332,9 @@ def _f_reference(panel: _Panel) -> Figure | None:
                     label=f"Rejection region, \u03b1 = {alpha}")
     ax.axvline(critical, color=PALETTE[1], linewidth=1.0,
                label=f"Critical F = {numbers.fixed(critical, 2)}")
-    observed = f"Observed F = {numbers.fixed(row.f, 2)}"
+    observed = f"Observed F = {numbers.fixed(row.statistic, 2)}"
     if on_scale:
-        ax.axvline(row.f, color="#000000", linewidth=1.0, linestyle="--", label=observed)
+        ax.axvline(row.statistic, color="#000000", linewidth=1.0, linestyle="--", label=observed)
     else:
         ax.annotate(f"{observed} \u2192", xy=(0.99, 0.5), xycoords="axes fraction",
                     ha="right", va="center")

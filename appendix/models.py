@@ -221,7 +221,7 @@ def _one_factor_notes(table: ModelTable, cells, alpha: float) -> ModelTable:
     notes = tuple(variance_table(cells, alpha).warnings)
     row = table.rows[0]
     return replace(table, warnings=notes,
-                   rows=(replace(row, warnings=notes if row.f is None else ()),))
+                   rows=(replace(row, warnings=notes if row.statistic is None else ()),))
 
 
 def _full_data_moments(descriptives: Descriptives, cells, data: OutcomeData) -> Descriptives:
@@ -269,7 +269,7 @@ def model_table(fit, label, scale: float = 1.0, stratum: str = "units", *, alpha
         return None if value is None else value * scale
 
     rows = tuple(ModelRow(term=r.term, label=label(r.term), kind=r.kind, df=r.df,
-                          sum_of_squares=times(r.ss), mean_square=times(r.ms), f=r.f, p=r.p,
+                          sum_of_squares=times(r.ss), mean_square=times(r.ms), statistic=r.f, p=r.p,
                           partial_eta_squared=r.partial_eta_squared, partial_eta_ci=r.partial_eta_ci,
                           partial_omega_squared=r.partial_omega_squared,
                           partial_omega_ci=r.partial_omega_ci, confidence_level=r.confidence_level,
@@ -770,7 +770,7 @@ def _interacting(plan: Plan) -> tuple[tuple[str, ...], ...]:
 def _repeated_row(plan: Plan, row) -> ModelRow:
     label = _label(plan, [n for n in row.term if n != "units"]) if row.kind != "error" else row.label
     return ModelRow(term=row.term, label=label, kind=row.kind, df=row.df, sum_of_squares=row.ss,
-                    mean_square=row.ms, f=row.f, p=row.p, partial_eta_squared=row.partial_eta_squared,
+                    mean_square=row.ms, statistic=row.f, p=row.p, partial_eta_squared=row.partial_eta_squared,
                     partial_eta_ci=row.partial_eta_ci, partial_omega_squared=row.partial_omega_squared,
                     partial_omega_ci=row.partial_omega_ci, confidence_level=row.confidence_level,
                     cohens_f=_cohens_f(row.partial_eta_squared),

@@ -120,7 +120,7 @@ def engine_values(table: ModelTable) -> dict[str, float]:
         "df_between": float(between.df),
         "ss_between": between.sum_of_squares,
         "ms_between": between.mean_square,
-        "f": between.f,
+        "f": between.statistic,
         "df_within": float(table.residual_df),
         "ss_within": table.residual_ss,
         "ms_within": table.residual_ms,

@@ -396,7 +396,7 @@ class ModelRow:
     df: float
     sum_of_squares: float | None
     mean_square: float | None
-    f: float | None
+    statistic: float | None
     p: float | None
     partial_eta_squared: float | None
     partial_eta_ci: tuple[float, float] | None

@@ -210,15 +210,15 @@ def test_forged_results_with_fresh_hashes_are_caught_by_recomputation(packed, tm
     PDF's embedded copy and the recomputation still disagree."""
     entries = entries_of(packed[2])
     results = json.loads(entries["run/results.json"])
-    f_value = results["outcomes"][0]["tables"][0]["rows"][0]["f"]
-    results["outcomes"][0]["tables"][0]["rows"][0]["f"] = f_value * (1 + 1e-6)
+    f_value = results["outcomes"][0]["tables"][0]["rows"][0]["statistic"]
+    results["outcomes"][0]["tables"][0]["rows"][0]["statistic"] = f_value * (1 + 1e-6)
     forged = json.dumps(results, sort_keys=True, indent=2, ensure_ascii=False) + "\n"
     code, lines = verify_lines(_forge(entries, "results.json", forged.encode("utf-8"),
                                       tmp_path / "forged.zip"))
     assert code == 1
     assert not any(line.startswith("  changed:") for line in lines)
     assert "  the results.json embedded in run/appendix.pdf differs from the package's" in lines
-    assert (f"  outcomes[0].tables[0].rows[0].f: {f_value * (1 + 1e-6)!r} packaged, {f_value!r} "
+    assert (f"  outcomes[0].tables[0].rows[0].statistic: {f_value * (1 + 1e-6)!r} packaged, {f_value!r} "
             "recomputed") in lines
 
 

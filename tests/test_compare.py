@@ -114,7 +114,7 @@ def test_demo_diff_sizes_the_moves(demo_runs):
     assert moves[("dry_mass", "C2:humic.estimate")].change == pytest.approx(b - a, rel=1e-9)
     assert ("dry_mass", "C2:chitosan.estimate") not in moves
     assert ("dry_mass", "mean[uncoated].estimate") not in moves
-    assert next(iter(moves)) == ("dry_mass", "units/coating.f")  # primary outcome, its factor's F first
+    assert next(iter(moves)) == ("dry_mass", "units/coating.statistic")  # primary outcome, its factor's F first
 
 
 LEVELS = ("uncoated", "chitosan", "seaweed", "humic")
@@ -142,7 +142,7 @@ def test_one_factor_numbers_are_its_terms_test_the_robust_tests_and_effect_sizes
                           "g": [level for level, g in zip(LEVELS, groups) for _ in g]})
     classical, welch = scipy.stats.f_oneway(*groups), pingouin.welch_anova(frame, dv="y", between="g")
     kruskal, eta = scipy.stats.kruskal(*groups), float(pingouin.anova(frame, dv="y", between="g")["np2"][0])
-    assert numbers["units/coating.f"] == ("F, seed coating", pytest.approx(classical.statistic, rel=1e-10))
+    assert numbers["units/coating.statistic"] == ("F, seed coating", pytest.approx(classical.statistic, rel=1e-10))
     assert numbers["units/coating.p"] == ("p, seed coating", pytest.approx(classical.pvalue, rel=1e-8))
     assert numbers["welch.statistic"] == ("F (Welch)", pytest.approx(float(welch["F"][0]), rel=1e-10))
     assert numbers["welch.p"] == ("p (Welch)", pytest.approx(float(welch["p_unc"][0]), rel=1e-8))
@@ -404,4 +404,4 @@ def test_fields_the_results_format_gives_a_default_may_be_absent(demo_runs, tmp_
         "outcomes"] for f in o["contrasts"] if f["registered"] for h in f["hypotheses"]}
     moved = {(m.outcome, m.quantity): m for m in diff.numbers}
     assert moved[("dry_mass", "welch.statistic")].b is None and moved[("dry_mass", "units/coating.cohens_f.estimate")].b is None
-    assert moved[("dry_mass", "units/coating.f")].b is not None
+    assert moved[("dry_mass", "units/coating.statistic")].b is not None

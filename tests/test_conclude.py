@@ -23,7 +23,7 @@ def row(f, p, effect=None, warnings=()):
     and its 90% interval, or None."""
     estimate, low, high = effect if effect is not None else (None, None, None)
     return ModelRow(term=("coating",), label="seed coating", kind="factor", df=3,
-                    sum_of_squares=30.0, mean_square=10.0, f=f, p=p,
+                    sum_of_squares=30.0, mean_square=10.0, statistic=f, p=p,
                     partial_eta_squared=estimate,
                     partial_eta_ci=(low, high) if effect is not None else None,
                     partial_omega_squared=None, partial_omega_ci=None, confidence_level=0.9,

@@ -61,7 +61,7 @@ def test_single_unit_empty_level_and_constant_group_render(tmp_path: Path):
     assert groups["d"]["sd"] == 0.0
     # Three non-empty groups, 7 units: the F test exists (df 2 and 4).
     assert (outcome["tables"][0]["rows"][0]["df"], outcome["tables"][0]["residual_df"]) == (2, 4)
-    assert outcome["tables"][0]["rows"][0]["f"] is not None
+    assert outcome["tables"][0]["rows"][0]["statistic"] is not None
     assert outcome["robust"]["welch"]["statistic"] is None  # Welch needs n >= 2 and variance > 0 in every group
     assert {f["code"] for f in results["findings"]} >= {"level-without-units"}
     html = (tmp_path / "run" / "appendix.html").read_text(encoding="utf-8")
@@ -75,7 +75,7 @@ def test_a_single_group_gives_no_test_and_says_why(tmp_path: Path):
     study = write_study(tmp_path, "a, b", [("a", "1.0"), ("a", "2.0"), ("a", "4.0")])
     record = api.run(study, tmp_path / "run", pdf=False)
     outcome = record.results.outcomes[0]
-    assert outcome.tables[0].rows[0].f is None and outcome.tables[0].rows[0].p is None
+    assert outcome.tables[0].rows[0].statistic is None and outcome.tables[0].rows[0].p is None
     assert outcome.conclusions[0].decision == "unavailable"
     assert outcome.conclusions[0].sentence == (
         "The F test for response could not be computed. Level 'b' has no analysed units; it "

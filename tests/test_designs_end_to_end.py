@@ -97,7 +97,7 @@ def test_blocked_factorial_tables_match_statsmodels(tmp_path, ss, covariate, int
         ref = reference.loc[matches[0]]
         assert row.df == int(ref["df"])
         assert row.sum_of_squares == pytest.approx(ref["sum_sq"], rel=1e-9)
-        assert row.f == pytest.approx(ref["F"], rel=1e-9)
+        assert row.statistic == pytest.approx(ref["F"], rel=1e-9)
         assert row.p == pytest.approx(ref["PR(>F)"], rel=1e-7)
     assert table.residual_df == int(fit.df_resid)
     assert table.residual_ss == pytest.approx(fit.ssr, rel=1e-9)
@@ -183,7 +183,7 @@ def test_repeated_measures_match_pingouin(tmp_path):
         ref = reference[reference.Source == source].iloc[0]
         assert terms[term].sum_of_squares == pytest.approx(ref["SS"], rel=1e-9)
         assert terms[term].df == ref["DF1"]
-        assert terms[term].f == pytest.approx(ref["F"], rel=1e-9)
+        assert terms[term].statistic == pytest.approx(ref["F"], rel=1e-9)
     assert between.residual_df == reference.iloc[0]["DF2"]
     assert within.residual_df == reference[reference.Source == "visit"].iloc[0]["DF2"]
     ref_visit = reference[reference.Source == "visit"].iloc[0]
@@ -261,7 +261,7 @@ multiplicity: {method: none}
     reference = pingouin.rm_anova(data=frame, dv="index", within="visit", subject="unit_id",
                                   correction=True).iloc[0]
     visit = next(r for r in model.tables[1].rows if r.term == ("visit",))
-    assert visit.f == pytest.approx(reference["F"], rel=1e-9)
+    assert visit.statistic == pytest.approx(reference["F"], rel=1e-9)
     assert (visit.df, model.tables[1].residual_df) == (reference["ddof1"], reference["ddof2"])
     assert model.sphericity.greenhouse_geisser == pytest.approx(reference["eps"], rel=1e-9)
     # The linear trend is a one-sample t test of each unit's trend score (scipy as reference).

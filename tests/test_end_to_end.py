@@ -78,7 +78,7 @@ def test_pdf_text_holds_the_variance_table(demo_run: Path):
         table = outcome["tables"][0]
         row = table["rows"][0]
         assert f"F({numbers.df_value(row['df'])}, {numbers.df_value(table['residual_df'])}) = " \
-               f"{numbers.fixed(row['f'], 2)}" in text
+               f"{numbers.fixed(row['statistic'], 2)}" in text
         assert numbers.p_value(row["p"]) in text
     # The demo builds a coating effect into dry mass only (see studies/seed-coating/generate.py).
     decisions = {o["name"]: o["conclusions"][0]["decision"] for o in results["outcomes"]}

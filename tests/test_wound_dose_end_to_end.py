@@ -161,7 +161,7 @@ def test_variance_table_matches_statsmodels_type_2(results, name):
         row, ref = rows[term], reference.loc[label]
         assert row["df"] == ref["df"]
         assert row["sum_of_squares"] == pytest.approx(ref["sum_sq"], rel=REL)
-        assert row["f"] == pytest.approx(ref["F"], rel=REL)
+        assert row["statistic"] == pytest.approx(ref["F"], rel=REL)
         assert row["p"] == pytest.approx(ref["PR(>F)"], rel=1e-7)
         assert row["partial_eta_squared"] == pytest.approx(ref["sum_sq"] / (ref["sum_sq"] + residual_ss),
                                                            rel=REL)

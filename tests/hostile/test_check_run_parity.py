@@ -134,7 +134,7 @@ def test_type_3_repeated_measures_with_a_score_its_model_fits_exactly(tmp_path):
     frame = pd.DataFrame([(u, f"v{j + 1}", v) for u, r in values.items() for j, v in enumerate(r)],
                          columns=["unit", "visit", "y"])
     reference = AnovaRM(frame, depvar="y", subject="unit", within=["visit"]).fit().anova_table.iloc[0]
-    assert row.f == pytest.approx(reference["F Value"], rel=1e-12)  # 3.0 by hand too
+    assert row.statistic == pytest.approx(reference["F Value"], rel=1e-12)  # 3.0 by hand too
     assert row.p == pytest.approx(reference["Pr > F"], rel=1e-12)  # 0.25: F(2, 2) sf 3 = 1/(1+F)
 
 
@@ -148,7 +148,7 @@ def test_sphericity_of_repeated_measures_without_residual_variation(tmp_path):
     (model,) = api.compute(_study(tmp_path, plan, _long(values))).results.outcomes
     assert model.sphericity.greenhouse_geisser is None and model.sphericity.huynh_feldt is None
     assert [w.code for w in model.sphericity.warnings] == ["sphericity-undefined"]
-    assert model.tables[1].rows[0].f is None
+    assert model.tables[1].rows[0].statistic is None
 
 
 @pytest.mark.filterwarnings("error::RuntimeWarning")
@@ -160,7 +160,7 @@ def test_repeated_measures_with_no_complete_unit(tmp_path):
     computed = api.compute(_study(tmp_path, plan, _long(values)))
     (model,) = computed.results.outcomes
     assert model.n_units == 0
-    assert [row.f for table in model.tables for row in table.rows] == [None]
+    assert [row.statistic for table in model.tables for row in table.rows] == [None]
     assert "no-residual-df" in [w.code for w in model.tables[0].warnings]
     assert render_html(to_plain(computed.results), {}, RenderOptions())
 

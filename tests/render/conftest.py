@@ -110,7 +110,7 @@ def _one_term_table(df_b, df_w, ss_between, ss_within, f, p, effects=None, warni
     eta, eta_ci, omega, omega_ci, cohens_f, f_ci = effects or (None,) * 6
     ms_b, ms_w = ss_between / df_b, ss_within / df_w
     row = R.ModelRow(term=("arm",), label="Treatment arm", kind="factor", df=df_b,
-                     sum_of_squares=ss_between, mean_square=ms_b, f=f, p=p,
+                     sum_of_squares=ss_between, mean_square=ms_b, statistic=f, p=p,
                      partial_eta_squared=eta, partial_eta_ci=eta_ci, partial_omega_squared=omega,
                      partial_omega_ci=omega_ci, confidence_level=0.95, cohens_f=cohens_f,
                      cohens_f_ci=f_ci, critical_f=float(stats.f.isf(0.05, df_b, df_w)),

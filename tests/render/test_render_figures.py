@@ -72,7 +72,7 @@ def test_plan_and_data_strings_stay_plain_text(dataset, study_results, residuals
 
 def test_f_figure_is_skipped_when_f_is_missing(dataset, study_results, residuals):
     primary = study_results.outcomes[1]
-    no_f = _with_row(primary, f=None, p=None)
+    no_f = _with_row(primary, statistic=None, p=None)
     results = dataclasses.replace(study_results, outcomes=(no_f,))
     figures = make_figures(dataset, results, residuals)
     assert "sbp_change-f-reference" not in figures
@@ -81,7 +81,7 @@ def test_f_figure_is_skipped_when_f_is_missing(dataset, study_results, residuals
 
 def test_huge_f_is_marked_off_scale(dataset, study_results, residuals):
     primary = study_results.outcomes[1]
-    huge = _with_row(primary, f=412.5)
+    huge = _with_row(primary, statistic=412.5)
     svg = make_figures(dataset, dataclasses.replace(study_results, outcomes=(huge,)), residuals)[
         "sbp_change-f-reference"]
     assert "Observed F = 412.50 \u2192" in svg

@@ -27,7 +27,7 @@ def test_pdf_has_pages_tables_and_running_header(pdf_path, study_results):
     reader = pypdf.PdfReader(pdf_path)
     assert len(reader.pages) >= 2
     texts = [page.extract_text() for page in reader.pages]
-    f_text = numbers.fixed(study_results.outcomes[1].tables[0].rows[0].f, 2)
+    f_text = numbers.fixed(study_results.outcomes[1].tables[0].rows[0].statistic, 2)
     assert f_text == "5.73"
     assert any("Between groups (Treatment arm)" in t and f_text in t for t in texts)
     short = study_results.inputs[1].sha256[:12]  # the data file's

@@ -15,7 +15,7 @@ def test_a_conclusion_keeps_its_numbers_as_numbers(computed_demos):
     (conclusion,) = computed_demos["seed-coating"].results.outcomes[0].conclusions
     row = computed_demos["seed-coating"].results.outcomes[0].tables[0].rows[0]
     numbers = [p for p in conclusion.parts if isinstance(p, Number)]
-    assert Number("statistic", row.f) in numbers and Number("p", row.p) in numbers
+    assert Number("statistic", row.statistic) in numbers and Number("p", row.p) in numbers
     assert Number("proportion", row.partial_eta_squared) in numbers
     assert all(isinstance(p, (str, Number)) for p in conclusion.parts)
 
@@ -25,7 +25,7 @@ def test_statistic_and_effect_decimals_apply_to_the_sentences(computed_demos):
     outcome = computed.results.outcomes[0]
     row = outcome.tables[0].rows[0]
     html = api.render(computed, RenderOptions(statistic_decimals=4, effect_decimals=3)).html
-    f_text = f"{row.f:.4f}"  # four decimals, as asked, not the default two
+    f_text = f"{row.statistic:.4f}"  # four decimals, as asked, not the default two
     eta = f"{row.partial_eta_squared:.3f}".lstrip("0")
     sentence = next(s for s in re.findall(r'<p class="conclusion">(.*?)</p>', html, re.S)
                     if "shoot dry mass" in s)
