@@ -177,30 +177,32 @@ def _rows(loaded: LoadedPlan, dataset: Dataset, table: Table) -> list[dict[str, 
     analysed = _analysed_by_line(dataset)
     data = {o.name: o for o in dataset.outcomes}
     columns = named_columns(loaded)
-    covariate_index = {c.name: j for j, c in enumerate(plan.design.covariates)}
+    # each outcome's covariates are its own (`Plan.covariates_for`), in plan order
+    covariate_index = {o.name: {c.name: j for j, c in enumerate(plan.covariates_for(o.name))}
+                       for o in plan.outcomes}
     within = plan.within.name if plan.within else None
     rows = []
     for i, line in enumerate(table.lines):
         unit = units[i]
         statuses: dict[str, str] = {}
         values: dict[str, float | None] = {}
-        used_in = None  # the first outcome that analysed the row (covariate values from it)
+        used_in = []  # the outcomes that analysed the row (covariate values from them)
         for outcome in plan.outcomes:
             index = analysed[outcome.name].get(line)
             cell = table.column(outcome.data_column)[i]
             if index is not None:
                 statuses[outcome.name] = "analysed"
                 values[outcome.data_column] = float(data[outcome.name].values[index])
-                used_in = used_in or (outcome.name, index)
+                used_in.append((outcome.name, index))
             else:
                 statuses[outcome.name] = ("excluded" if unit in excluded else
                                           "missing" if is_missing(cell) else "left-out")
                 values.setdefault(outcome.data_column, None)
         for info in columns:
             if info.role == "covariate":
-                value = None
-                if used_in is not None:
-                    value = float(data[used_in[0]].covariates[covariate_index[info.name]][used_in[1]])
+                # from the first outcome that analysed the row with this covariate
+                value = next((float(data[name].covariates[covariate_index[name][info.name]][index])
+                              for name, index in used_in if info.name in covariate_index[name]), None)
                 values.setdefault(info.column, value)
         rows.append({
             "unit": unit,

@@ -28,6 +28,7 @@ from appendix.results import (
 
 
 def _with_hypothesis_conclusions(plan: Plan, result: OutcomeResult) -> OutcomeResult:
+    plan = plan.for_outcome(result.name)
     outcome = next(o for o in plan.outcomes if o.name == result.name)
     caveat = conclude.slopes_caveat(getattr(result, "slopes", ()), plan.alpha)
     sentences = tuple(
@@ -74,7 +75,7 @@ def study_analysis(loaded: LoadedPlan, dataset: Dataset, software: tuple[Softwar
     plan = loaded.plan
     flows = {flow.outcome: flow for flow in dataset.unit_flow.outcomes}
     ordered = sorted(plan.outcomes, key=lambda o: o.role != "primary")
-    work = [analyse_outcome(plan, outcome, dataset.outcome(outcome.name),
+    work = [analyse_outcome(plan.for_outcome(outcome.name), outcome, dataset.outcome(outcome.name),
                             [c.n for c in flows[outcome.name].missing], dataset.levels)
             for outcome in ordered]
     outcomes = tuple(result for result, _, _, _ in work)

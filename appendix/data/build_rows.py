@@ -15,7 +15,9 @@ Checks, all collected into one `DataError` and worded by `appendix.data.problems
 
 Exclusions apply in plan order and set a whole unit aside when any of its rows matches
 (`appendix.data.exclusions`); cells of excluded units are not checked as outcomes. A unit
-without a covariate value is not analysed (counted as missing); with a within factor,
+without a value of a covariate is not analysed for the outcomes that covariate adjusts
+(`Covariate.outcomes`; counted as missing); an outcome's `OutcomeData.covariates` hold
+its own covariates, in plan order (`Plan.covariates_for`); with a within factor,
 only units with a value at every within level are analysed (the registered rule
 ``complete-units``). Counts in the unit flow are of units, per cell of the crossed
 treatment factors (per level when there is one).
@@ -260,7 +262,7 @@ def _outcome(plan, table, outcome, eligible, rows_of, codes, covariates, cell, l
     bad.sort()
     problems = _number_problems(table, column, bad, where)
     levels_needed = len(within.levels) if within is not None else 1
-    of_units = [covariates[c.name] for c in plan.design.covariates]
+    of_units = [covariates[c.name] for c in plan.covariates_for(outcome.name)]
     analysed = [u for u in eligible
                 if len(rows_of[u]) == levels_needed and None not in [values[i] for i in rows_of[u]]
                 and all(values_of[u] is not None for values_of in of_units)]
@@ -299,9 +301,13 @@ def _lacking_covariates(plan, counts: dict[str, int]) -> tuple[Finding, ...]:
     for covariate in plan.design.covariates:
         lacking = counts[covariate.name]
         if lacking:
+            named = covariate.outcomes
+            where = ("" if named is None or set(named) == {o.name for o in plan.outcomes}
+                     else f" for {'outcome' if len(named) == 1 else 'outcomes'} {', '.join(named)}"
+                          " (the outcomes it adjusts)")
             found.append(Finding("covariate-missing",
                                  f"{lacking} eligible unit{'s' if lacking != 1 else ''} without a value of "
-                                 f"the covariate {covariate.label}: not analysed."))
+                                 f"the covariate {covariate.label}: not analysed{where}."))
     return tuple(found)
 
 

@@ -88,14 +88,12 @@ def build_design_vectorised(loaded: LoadedPlan, columns: Columns) -> Dataset | N
                                          reason=rule.reason, by_level=count_levels(cell[hit], labels),
                                          total=int(hit.sum())))
     eligible = ~excluded
-    has_covariates = np.ones(n_units, dtype=bool)
-    for values in covariates.values():
-        has_covariates &= ~np.isnan(values)
     needed = len(within.levels) if within is not None else 1
     outcomes, flows = [], []
     for outcome in plan.outcomes:
-        built = _outcome(plan, outcome, columns, unit, first, codes, covariates, cell, labels,
-                         eligible, has_covariates, needed)
+        own = {c.name: covariates[c.name] for c in plan.covariates_for(outcome.name)}
+        built = _outcome(plan, outcome, columns, unit, first, codes, own, cell, labels,
+                         eligible, needed)
         if built is None:
             return None
         outcomes.append(built[0])
@@ -109,8 +107,9 @@ def build_design_vectorised(loaded: LoadedPlan, columns: Columns) -> Dataset | N
 
 
 def _outcome(plan, outcome, columns, unit, first, codes, covariates, cell, labels, eligible,
-             has_covariates, needed):
-    """(OutcomeData, OutcomeFlow) of one outcome, or None when a cell is not a number."""
+             needed):
+    """(OutcomeData, OutcomeFlow) of one outcome, or None when a cell is not a number;
+    `covariates` are the outcome's own (each unit's value, NaN where missing)."""
     import pyarrow.compute as pc
 
     texts = columns.cells[outcome.data_column]
@@ -126,6 +125,9 @@ def _outcome(plan, outcome, columns, unit, first, codes, covariates, cell, label
         return None
     values[rows] = parsed
     present = np.bincount(unit[rows], minlength=first.size)
+    has_covariates = np.ones(first.size, dtype=bool)
+    for known in covariates.values():
+        has_covariates &= ~np.isnan(known)
     analysed = eligible & has_covariates & (present == needed)
     rows = np.flatnonzero(analysed[unit])
     within = plan.within
@@ -139,7 +141,7 @@ def _outcome(plan, outcome, columns, unit, first, codes, covariates, cell, label
         lines=LineRows(rows, 2, columns.line_of),
         decimals=decimal_places(texts.take(arrow_indices(rows)), kept),
         factors=tuple(_read_only(codes[f.name][rows]) for f in plan.design.factors),
-        covariates=tuple(_read_only(covariates[c.name][unit[rows]]) for c in plan.design.covariates))
+        covariates=tuple(_read_only(known[unit[rows]]) for known in covariates.values()))
     flow = OutcomeFlow(outcome=outcome.name, missing=count_levels(cell[eligible & ~analysed], labels),
                        analysed=count_levels(cell[analysed], labels))
     return data, flow

@@ -202,7 +202,16 @@ class _Measured(_Frozen):
 
 
 class Covariate(_Measured):
-    """A registered covariate: adjusted for at its mean, one common slope across cells."""
+    """A registered covariate: adjusted for at its mean, one common slope across cells, in
+    the analyses of the outcomes it names (default: every outcome; a baseline of one
+    outcome is no covariate of another)."""
+
+    outcomes: tuple[str, ...] | None = Field(
+        default=None, min_length=1, exclude_if=_is(None),
+        description="Outcome names it adjusts (default: all outcomes).")
+
+    def applies_to(self, outcome: str) -> bool:
+        return self.outcomes is None or outcome in self.outcomes
 
 
 class Design(_Frozen):
@@ -456,6 +465,21 @@ class Plan(_Frozen):
     def between(self) -> tuple[Factor, ...]:
         """The between-unit factors (treatments and blocks), in plan order."""
         return tuple(f for f in self.design.factors if f.role != "within")
+
+    def for_outcome(self, name: str) -> Plan:
+        """The plan as the outcome called `name` sees it: its design holds only the
+        covariates that apply to that outcome (`Covariate.outcomes`). Every stage that
+        analyses, words or draws one outcome takes this plan, so there is one path.
+
+        The copy is not validated again (its checks held on the whole plan)."""
+        kept = self.covariates_for(name)
+        if kept == self.design.covariates:
+            return self
+        return self.model_copy(update={"design": self.design.model_copy(update={"covariates": kept})})
+
+    def covariates_for(self, name: str) -> tuple[Covariate, ...]:
+        """The covariates that adjust the outcome called `name`, in plan order."""
+        return tuple(c for c in self.design.covariates if c.applies_to(name))
 
     def factor_named(self, name: str) -> Factor:
         """The factor called `name`; KeyError when the design has none."""

@@ -106,6 +106,14 @@ CASES = [
     ("covariate named as a factor", factorial("{name: baseline,", "{name: visit,"),
      ["18: design.covariates[0].name: got 'visit', which names a factor; allowed: a name of its "
       "own (terms are named by it)"]),
+    ("covariate for an outcome the plan does not register",
+     factorial("unit: g}\n", "unit: g, outcomes: [mas, mass, mass]}\n"),
+     ["18: design.covariates[0].outcomes[0]: got 'mas'; allowed: one of the outcomes 'mass' or "
+      "'height'; did you mean 'mass'?",
+      "18: design.covariates[0].outcomes[2]: got 'mass' again; each outcome must be named once "
+      "(first at outcomes[1])"]),
+    ("covariate for no outcome", factorial("unit: g}\n", "unit: g, outcomes: []}\n"),
+     ["18: design.covariates[0].outcomes: got 0 items; allowed: at least 1 item"]),
     # Sums of squares.
     ("sums of squares missing", factorial("  sums_of_squares: 2\n", ""),
      [f"8: design.sums_of_squares: required key is missing for a design with {FACTORIAL_EXTENT}; "
