@@ -704,6 +704,7 @@ def methods_used(results: Mapping[str, Any]) -> tuple[Method, ...]:
     chosen += ["simple-effects"] if any(h.get("within") for f in all_families(results)
                                         for h in f["hypotheses"]) else []
     chosen += ["slopes"] if _ran(outcomes, lambda o: any(c["by"] for c in o["slopes"])) else []
+    chosen += ["covariates-per-outcome"] if len(_covariate_sets(outcomes)) > 1 else []
     if _ran(outcomes, lambda o: o["sphericity"]):
         # one within factor per plan: a lower bound 1/d of 1 means two levels, no correction
         two_levels = all(o["sphericity"]["lower_bound"] >= 1 for o in outcomes if o["sphericity"])
@@ -725,7 +726,26 @@ def methods_used(results: Mapping[str, Any]) -> tuple[Method, ...]:
     # with a registered fallback the diagnostics can choose the analysis: say so instead
     chosen += ["contingency"] if _ran(outcomes, lambda o: o.get("contingencies")) else ["pretest"]
     chosen += ["reporting"]
-    return tuple(_as_stated(METHODS[key], results.get("plan_defaults", ())) for key in chosen)
+    return tuple(_as_stated(METHODS[key], results.get("plan_defaults", ())) if key in METHODS
+                 else _per_outcome_covariates(outcomes) for key in chosen)
+
+
+def _covariate_sets(outcomes) -> set[tuple[str, ...]]:
+    return {tuple(c["label"] for c in o["covariate_slopes"]) for o in outcomes}
+
+
+def _per_outcome_covariates(outcomes) -> Method:
+    """Which covariates adjust which outcome, when they differ between outcomes."""
+    def adjusted(o) -> str:
+        labels = [c["label"] for c in o["covariate_slopes"]]
+        if not labels:
+            return f"{o['label']} is adjusted for no covariate"
+        listed = ", ".join(labels[:-1]) + (" and " if len(labels) > 1 else "") + labels[-1]
+        return f"{o['label']} is adjusted for {listed}"
+
+    return Method("covariates-per-outcome", "Covariates by outcome",
+                  "Each outcome is adjusted only for the covariates the plan registers for it: "
+                  + "; ".join(adjusted(o) for o in outcomes) + ".", ())
 
 
 def _as_stated(method: Method, defaults) -> Method:

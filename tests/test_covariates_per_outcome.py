@@ -118,6 +118,16 @@ def test_the_key_is_left_out_of_the_canonical_plan_at_its_default(tmp_path):
     assert dumped["design"]["covariates"][0]["outcomes"] == ["grip"]
 
 
+def test_a_changed_covariate_scope_is_a_deviation_from_the_lock(tmp_path):
+    _write(tmp_path)
+    assert main(["lock", "study.yaml"], stdout=io.StringIO(), stderr=io.StringIO(), cwd=tmp_path) == 0
+    (tmp_path / "study.yaml").write_text(STUDY.replace("outcomes: [grip]", "outcomes: [grip, walk]"),
+                                         encoding="utf-8")
+    deviations = compute(tmp_path / "study.yaml").results.deviations
+    changed = [d for d in deviations if d.kind == "plan-changed"]
+    assert [d.subject for d in changed] == ["design.covariates[grip_base].outcomes"]
+
+
 def test_check_refuses_an_outcome_it_does_not_know(tmp_path):
     _write(tmp_path, STUDY.replace("outcomes: [grip]", "outcomes: [grips]"))
     err = io.StringIO()
@@ -143,6 +153,9 @@ def test_run_words_the_covariate_per_outcome(tmp_path):
     assert code in (0, 1), err.getvalue()
     html = (tmp_path / "run" / "appendix.html").read_text(encoding="utf-8")
     assert "<dt>Covariate</dt><dd>grip strength at entry (adjusting grip strength only)</dd>" in html
+    assert ("Each outcome is adjusted only for the covariates the plan registers for it: grip "
+            "strength is adjusted for grip strength at entry; walking speed is adjusted for no "
+            "covariate.") in html
     figures = sorted(p.name for p in (tmp_path / "run" / "figures").iterdir())
     assert "grip-covariate-1.svg" in figures and not any(f.startswith("walk-covariate") for f in figures)
     records = (tmp_path / "run" / "records.json").read_text(encoding="utf-8").splitlines()
