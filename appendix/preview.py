@@ -89,11 +89,14 @@ def _analysis_line(plan: Plan, scope: str) -> str:
             f"Welch's ANOVA; Kruskal-Wallis; eta squared, omega squared and Cohen's f with CIs; "
             f"diagnostics: {', '.join(checks)}")
     terms = ", ".join(" x ".join(t) for t in plan.model_terms)
-    within = (f"; within units over {plan.within.name} (complete units): "
-              + ", ".join(" x ".join(t) for t in plan.within_terms)
-              + ", with Mauchly's test and Greenhouse-Geisser / Huynh-Feldt corrections"
-              if plan.within else "")
-    spread = ("" if plan.within is None else
+    within = (f"; within units over {' x '.join(f.name for f in plan.within_factors)} "
+              "(complete units): "
+              + "; ".join(f"stratum units x {' x '.join(stratum)}: "
+                          + ", ".join(" x ".join(t) for t in plan.stratum_terms(stratum))
+                          for stratum in plan.within_strata)
+              + ", with Mauchly's test and Greenhouse-Geisser / Huynh-Feldt corrections per stratum"
+              if plan.within_factors else "")
+    spread = ("" if not plan.within_factors else
               " (no equal-variance test on repeated observations; outliers on unit means)")
     return (
         f"{scope}, at alpha {plan.alpha:g}: descriptives by cell; variance table with "

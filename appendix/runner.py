@@ -42,8 +42,7 @@ def _between_units(plan: Plan, h) -> bool:
     """Whether hypothesis `h` compares covariate-adjusted between-unit means (not a within
     factor's levels, whose contrasts are taken on the units' own scores)."""
     contrast = next((c for c in plan.contrasts if c.id == h.contrast), None)
-    return not (plan.within is not None and contrast is not None
-                and plan.factor_of(contrast).name == plan.within.name)
+    return not (contrast is not None and plan.is_within(plan.factor_of(contrast).name))
 
 
 def _exploratory(plan: Plan, found: list[dict[str, ContrastFamily]]) -> tuple[ExploratoryAnalysis, ...]:

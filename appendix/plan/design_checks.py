@@ -33,11 +33,6 @@ def design_problems(raw: Mapping) -> list[Found]:
 
 def _roles(design: RawDesign) -> list[Found]:
     found: list[Found] = []
-    within = design.with_role("within")
-    for factor in within[1:]:
-        found.append(((*factor.loc, "role"),
-                      f"got 'within' again; allowed: at most one within factor "
-                      f"(first at factors[{within[0].index}])"))
     for factor in design.with_role("block"):
         found += _block(factor)
     if (design.roles_valid and design.factors and not design.with_role("treatment")

@@ -29,10 +29,6 @@ CASES = [
     # Roles.
     ("unknown role", factorial("role: block", "role: nuisance"),
      ["12: design.factors[2].role: got 'nuisance'; allowed: 'treatment', 'block' or 'within'"]),
-    ("two within factors",
-     factorial("{name: variety, levels", "{name: variety, role: within, levels"),
-     ["13: design.factors[3].role: got 'within' again; allowed: at most one within factor "
-      "(first at factors[1])"]),
     ("block with a control and an order",
      factorial("levels: [B1, B2, B3, B4]}", "levels: [B1, B2, B3, B4], control: B1, ordered: true}"),
      ["12: design.factors[2].control: got 'B1' for the block 'field_block'; allowed: no control "
