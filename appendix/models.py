@@ -841,10 +841,11 @@ def _term_means(plan: Plan, complete, cell_labels, term) -> list[MarginalMeans]:
     reduced = complete if alone else CompleteUnits(y=complete.y @ average, units=complete.units,
                                                    groups=complete.groups, dropped=())
     names = list(itertools.product(*(f.levels for f in factors)))
-    where = "level" if len(term) == 1 else "cell"
-    over = "" if alone else ", each unit's mean over the other within factors"
+    where = "level" if len(term) == 1 else "combination of levels"
+    over = ("" if len(term) == len(plan.within_factors)
+            else ", each unit's mean over the other within factors")
     basis = (f"the mean of the complete units at each {where}{over}, with an interval from their "
-             f"spread at that {where} (pooled within the treatment cells; Student's t on the units' "
+             f"spread {'at that level' if len(term) == 1 else 'there'} (pooled within the treatment cells; Student's t on the units' "
              "degrees of freedom)")
 
     def group(means, prefix=()):
