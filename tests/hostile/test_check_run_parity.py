@@ -59,6 +59,8 @@ def _checked(folder: Path, case: Case) -> bool:
     assert "Traceback" not in err.getvalue()
     event("check accepted" if code == 0 else "check refused the data")
     event(f"design: {case.shape}")
+    if any("outcomes" in c for c in case.plan["design"].get("covariates", [])):
+        event("a covariate of some outcomes only")
     event(f"multiplicity: {case.plan.get('multiplicity', {}).get('method', 'holm')}")
     return code == 0
 
