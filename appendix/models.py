@@ -1,9 +1,10 @@
 """Plan + dataset -> results of one outcome: the one analysis engine, for every design.
 
 A one-factor study is the one-term case of the design engine: crossed treatment factors,
-blocks and covariates are fitted by `appendix.stats.linear` from cell statistics, and a
-within-unit factor by `appendix.stats.split_plot` (the univariate approach with
-sphericity corrections). Pure, like `appendix.runner`, which calls it.
+blocks and covariates are fitted by `appendix.stats.linear` from cell statistics, and
+within-unit factors by `appendix.stats.split_plot` (the univariate approach with
+sphericity corrections). Pure, like `appendix.runner`, which calls it with the plan as
+each outcome sees it (`Plan.for_outcome`: its own covariates).
 
 What is computed per outcome:
 - between units: the variance table of the registered model (terms in `Plan.model_terms`
@@ -12,9 +13,10 @@ What is computed per outcome:
   registered interaction of treatment factors; the homogeneity-of-slopes check of every
   covariate; residual diagnostics (normality, equal variances, the outlier screen on the
   model's externally studentized residuals);
-- with a within factor: the repeated-measures table over complete units, with the
-  between grouping the cells of the crossed treatment factors, Mauchly's test and the
-  Greenhouse-Geisser and Huynh-Feldt corrections, and within-level means;
+- with within factors: over the units complete on the whole within grid, one table per
+  within stratum (each within factor, each listed interaction of within factors, with its
+  listed interactions with between-unit terms), each with its Mauchly test and
+  Greenhouse-Geisser and Huynh-Feldt corrections, and the means of every stratum's term;
 - where they are defined (`Plan.robust_absent` is None: one treatment factor, nothing
   else): Welch's and the Kruskal-Wallis tests, the registered contingencies that may put
   one in force, and contrasts under every analysis the plan allows (Games-Howell, Welch

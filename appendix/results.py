@@ -536,7 +536,8 @@ class OutcomeResult:
     """Everything computed for one registered outcome, for every design.
 
     `tables` holds the between-unit variance table and, with within factors, one table
-    per within stratum, each with its sphericity (`ModelTable.sphericity`); `conclusions` one sentence per tested term, in table order.
+    per within stratum, each with its sphericity (`ModelTable.sphericity`);
+    `conclusions` one sentence per tested term, in table order.
     `robust` is set where its tests are defined (`RobustTests`), else `robust_absent`
     says why not. `selected_method` is the analysis in force after the registered
     contingencies (`contingencies`), ``classical`` when none fired.
