@@ -139,12 +139,17 @@ def _between_codes(plan: Plan, data: OutcomeData) -> list[np.ndarray]:
     return [data.factors[index[f.name]] for f in plan.between]
 
 
-def _treatment_cells(plan: Plan, data: OutcomeData) -> np.ndarray:
+def _crossed_cells(plan: Plan, data: OutcomeData, factors) -> np.ndarray:
+    """Each row's cell of the crossed `factors` (first slowest)."""
     index = {f.name: j for j, f in enumerate(plan.design.factors)}
     cell = np.zeros(data.values.size, dtype=np.int64)
-    for factor in plan.treatments:
+    for factor in factors:
         cell = cell * len(factor.levels) + data.factors[index[factor.name]]
     return cell
+
+
+def _treatment_cells(plan: Plan, data: OutcomeData) -> np.ndarray:
+    return _crossed_cells(plan, data, plan.treatments)
 
 
 def _between_outcome(plan, outcome, data, missing_by_cell, cell_labels):
@@ -689,15 +694,6 @@ def _units_at(plan: Plan, complete, by, level):
 # --- repeated measures ------------------------------------------------------------------
 
 
-def _within_cell_codes(plan: Plan, data: OutcomeData) -> np.ndarray:
-    """Each row's cell of the within grid (`Plan.within_cells`, first factor slowest)."""
-    index = {f.name: j for j, f in enumerate(plan.design.factors)}
-    cell = np.zeros(data.values.size, dtype=np.int64)
-    for factor in plan.within_factors:
-        cell = cell * len(factor.levels) + data.factors[index[factor.name]]
-    return cell
-
-
 def _stratum_name(plan: Plan, term: tuple[str, ...]) -> str:
     """``within units`` for the one stratum of a single within factor, else
     ``units × Phase × Hour``: the error stratum a term of those within factors is tested in."""
@@ -716,7 +712,7 @@ def _repeated_outcome(plan, outcome, data, missing_by_cell, cell_labels):
     grid_cells = plan.within_cells
     index = {f.name: j for j, f in enumerate(plan.design.factors)}
     m = len(grid_cells)
-    occasion_codes = _within_cell_codes(plan, data)
+    occasion_codes = _crossed_cells(plan, data, plan.within_factors)  # `Plan.within_cells`
     complete = complete_units(list(data.units), occasion_codes, data.values, m,
                               _treatment_cells(plan, data), level_names=grid_cells)
     first = {}

@@ -41,10 +41,12 @@ def taken(monkeypatch):
 
 
 def _both(tmp_path, monkeypatch, text: str, within: bool, arm: str = "[a, b, c]",
-          visits: str = "[v1, v2]"):
+          visits: str = "[v1, v2]", study: str | None = None):
+    """The Dataset (or DataError) of `text` by the fast path and by the row-by-row one;
+    `study` replaces the plan built from STUDY."""
     (tmp_path / "rows.csv").write_text(text, encoding="utf-8")
     extra = f"    - {{name: visit, role: within, levels: {visits}}}\n" if within else ""
-    (tmp_path / "study.yaml").write_text(STUDY.format(within=extra, arm=arm), encoding="utf-8")
+    (tmp_path / "study.yaml").write_text(study or STUDY.format(within=extra, arm=arm), encoding="utf-8")
     loaded = load_plan(tmp_path / "study.yaml")
 
     def built():
@@ -176,21 +178,7 @@ outcomes:
 
 
 def _both_grid(tmp_path, monkeypatch, text: str):
-    (tmp_path / "rows.csv").write_text(text, encoding="utf-8")
-    (tmp_path / "study.yaml").write_text(TWO_WITHIN, encoding="utf-8")
-    loaded = load_plan(tmp_path / "study.yaml")
-
-    def built():
-        try:
-            return build_dataset(loaded)
-        except DataError as error:
-            return error
-
-    first = built()
-    with monkeypatch.context() as patch:
-        patch.setattr(fast, "build_design_vectorised", lambda *args: None)
-        second = built()
-    return first, second
+    return _both(tmp_path, monkeypatch, text, True, study=TWO_WITHIN)
 
 
 @settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
