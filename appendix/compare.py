@@ -405,7 +405,7 @@ def numbers_of(results: Mapping[str, Any]) -> dict[tuple[str, str], tuple[str, f
         for slope in o.get("covariate_slopes", []):
             _interval(found, name, f"slope[{slope['covariate']}]", f"slope on {slope['covariate']}", slope)
         found[(name, "n_units")] = ("units analysed", o["n_units"])
-        if any(table.get("stratum") == "within units" for table in o["tables"]):
+        if any(table.get("within") for table in o["tables"]):
             found[(name, "n_observations")] = ("observations analysed", o["n_observations"])
         _group_numbers(found, name, o["descriptives"])
     return found

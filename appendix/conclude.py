@@ -242,7 +242,7 @@ def _adjusted_for(plan: Plan, h: HypothesisResult) -> str:
     if h.method != "marginal-means":
         return ""
     contrast = _contrast_of(plan, h)
-    if contrast is None or (plan.within is not None and plan.factor_of(contrast).name == plan.within.name):
+    if contrast is None or plan.is_within(plan.factor_of(contrast).name):
         return ""
     names = [f.label or f.name for f in plan.blocks] + [c.label for c in plan.design.covariates]
     if not names:
@@ -412,7 +412,7 @@ def term_conclusion(plan: Plan, outcome: Outcome, row, ss_type: int, df_error: f
 def _model_adjustment(plan: Plan, row) -> str:
     """``adjusted for cohort and wound area at day 0`` for a between-unit treatment term
     of a model with blocks or covariates; empty for other terms and designs."""
-    if row.kind == "covariate" or (plan.within is not None and plan.within.name in row.term):
+    if row.kind == "covariate" or any(plan.is_within(n) for n in row.term):
         return ""
     names = [f.label or f.name for f in plan.blocks] + [c.label for c in plan.design.covariates]
     names = [n for n in names if n != row.label]

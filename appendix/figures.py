@@ -206,7 +206,7 @@ def _distribution(panel: _Panel) -> Figure | None:
 
 def _means(panel: _Panel) -> Figure | None:
     """Raw cell means with their CIs; a repeated-measures outcome has its profile plot."""
-    if panel.outcome.sphericity is not None:
+    if is_repeated(panel.outcome):
         return None
     groups = {g.level: g for g in panel.outcome.descriptives.groups}
     if all(groups.get(level) is None or groups[level].mean is None for level in panel.levels):
@@ -227,6 +227,11 @@ def _means(panel: _Panel) -> Figure | None:
     ax.set_xlim(-0.6, len(panel.levels) - 0.4)
     ax.set_ylabel(panel.axis_label)  # the caption says these are means
     return figure
+
+
+def is_repeated(outcome: OutcomeResult) -> bool:
+    """Whether the outcome was analysed with repeated measures (it has a within stratum)."""
+    return any(t.sphericity is not None for t in outcome.tables)
 
 
 def _thin(n: int) -> np.ndarray:
@@ -747,9 +752,9 @@ def _covariate_figures(dataset: Dataset, results: StudyResults, model: OutcomeRe
     data = dataset.outcome(model.name)
     cells = treatment_cells(results, data)
     y, every = data.values, slice(None)
-    within = next((f for f in results.factors if f.role == "within"), None)
-    if within is not None:  # rows are unit by unit, one per occasion (complete units)
-        m = len(within.levels)
+    within = [f for f in results.factors if f.role == "within"]
+    if within:  # rows are unit by unit, one per cell of the within grid (complete units)
+        m = int(np.prod([len(f.levels) for f in within]))
         y, every = data.values.reshape(-1, m).mean(axis=1), slice(None, None, m)
     labels = [c.level for c in results.unit_flow.read]
     by_levels = {mm.levels: mm.estimate for mm in group.means}
@@ -779,17 +784,20 @@ def _covariate_figures(dataset: Dataset, results: StudyResults, model: OutcomeRe
 
 
 def _lines_of_means(results: StudyResults, model: OutcomeResult) -> dict[str, str]:
-    """Interaction plots of every two-factor table of marginal means, and the profile
-    plot of a repeated-measures outcome, keyed ``f"{outcome}-interaction-{i}"`` (i counts
-    the outcome's marginal-means tables from 1) and ``f"{outcome}-profile"``."""
+    """Interaction plots of every two-factor table of marginal means that holds at most one
+    within factor's levels, and a profile plot of a repeated-measures outcome per within
+    factor, keyed ``f"{outcome}-interaction-{i}"`` (i counts the outcome's marginal-means
+    tables from 1) and ``f"{outcome}-profile"`` (one within factor) or
+    ``f"{outcome}-profile-{j}"`` (the j-th of several, from 1)."""
     labels = {f.name: f.label for f in results.factors}
     levels = {f.name: f.levels for f in results.factors}
     y_label = f"{model.label} ({model.unit})" if model.unit else model.label
     out: dict[str, str] = {}
-    within = next((f for f in results.factors if f.role == "within"), None)
+    within = [f for f in results.factors if f.role == "within"]
+    names = {f.name for f in within}
     for i, group in enumerate(model.marginal_means, 1):
-        if len(group.factors) != 2 or (within is not None and within.name in group.factors):
-            continue  # the profile plot shows the within factor
+        if len(group.factors) != 2 or len(names & set(group.factors)) == 1:
+            continue  # the profile plot shows a within factor by treatment cell
         a, b = group.factors
         by_levels = {m.levels: m for m in group.means}
 
@@ -801,17 +809,25 @@ def _lines_of_means(results: StudyResults, model: OutcomeResult) -> dict[str, st
                                x_label=labels[a], trace_label=labels[b], y_label=y_label, stem=stem)
         if svg is not None:
             out[stem] = svg
-    if model.sphericity is not None and within is not None:
-        cells = [c.level for c in results.unit_flow.read]
-        m = len(within.levels)
-        groups = model.descriptives.groups
+    if not is_repeated(model):
+        return out
+    treatments = tuple(f.name for f in results.factors if f.role == "treatment")
+    cells = [c.level for c in results.unit_flow.read]
+    for j, factor in enumerate(within, 1):
+        # the means at each level of the factor by treatment cell (all units without one)
+        group = next((g for g in model.marginal_means if g.factors == (*treatments, factor.name)), None)
+        if group is None:
+            continue
+        by_levels = {m.levels: m for m in group.means}
+        prefixes = [(c,) for c in cells] if treatments else [()]
 
         def rows(field):
-            return [[getattr(groups[g * m + w], field) for w in range(m)] for g in range(len(cells))]
+            return [[getattr(by_levels.get((*p, level)), field, None) for level in factor.levels]
+                    for p in prefixes]
 
-        stem = f"{model.name}-profile"
-        svg = profile_plot(within.levels, cells, rows("mean"), rows("ci_low"), rows("ci_high"),
-                           x_label=within.label, y_label=y_label,
+        stem = f"{model.name}-profile" if len(within) == 1 else f"{model.name}-profile-{j}"
+        svg = profile_plot(factor.levels, cells, rows("estimate"), rows("ci_low"), rows("ci_high"),
+                           x_label=factor.label, y_label=y_label,
                            group_label=" \u00d7 ".join(f.label for f in results.factors
                                                         if f.role == "treatment"), stem=stem)
         if svg is not None:

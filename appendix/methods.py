@@ -321,6 +321,19 @@ METHODS: Mapping[str, Method] = MappingProxyType({m.key: m for m in (
            "the noncentral-F intervals of their effect sizes (Steiger, 2004) use the "
            "uncorrected degrees of freedom. " + _REPEATED_CONTRASTS,
            ("obrien1985", "steiger2004")),
+    Method("within-strata", "Several within-unit factors",
+           "With more than one within-unit factor every unit is observed at each cell of their "
+           "crossed levels, and the complete-units rule applies to that whole grid. Each within "
+           "factor, and each listed interaction of within factors, is tested in its own error "
+           "stratum, the units by that term: its contrasts are the orthonormal contrasts of its "
+           "factors crossed with the means over the other within factors, its listed "
+           "interactions with between-unit terms are tested in the same stratum, and Mauchly's "
+           "test and the Greenhouse\u2013Geisser and Huynh\u2013Feldt epsilons are computed for "
+           "each stratum from its own contrasts (a term of one degree of freedom has epsilon 1). "
+           "An interaction of within factors that the plan does not list is not tested, and its "
+           "contrasts enter no error term. Contrasts of one within factor are taken on each "
+           "unit's mean over the other within factors.",
+           ("obrien1985", "mauchly1940", "greenhouse1959")),
     Method("welch", "Welch's heteroscedastic F test",
            "Welch's (1951) test compares the group means without assuming equal variances; "
            "groups are weighted by n/s\u00b2 and the denominator degrees of freedom are "
@@ -699,15 +712,17 @@ def methods_used(results: Mapping[str, Any]) -> tuple[Method, ...]:
     chosen = ["descriptives"] if one_factor else []
     chosen += ["model-descriptives"] if beyond else []
     chosen += ["anova"] if one_factor else []
-    chosen += ["linear-model"] if _ran(beyond, lambda o: o["marginal_means"] or not o["sphericity"]) else []
+    chosen += ["linear-model"] if _ran(beyond, lambda o: o["marginal_means"] or not _strata(o)) else []
     chosen += ["marginal-means"] if _ran(beyond, lambda o: o["marginal_means"]) else []
     chosen += ["simple-effects"] if any(h.get("within") for f in all_families(results)
                                         for h in f["hypotheses"]) else []
     chosen += ["slopes"] if _ran(outcomes, lambda o: any(c["by"] for c in o["slopes"])) else []
-    if _ran(outcomes, lambda o: o["sphericity"]):
-        # one within factor per plan: a lower bound 1/d of 1 means two levels, no correction
-        two_levels = all(o["sphericity"]["lower_bound"] >= 1 for o in outcomes if o["sphericity"])
+    chosen += ["covariates-per-outcome"] if len(_covariate_sets(outcomes)) > 1 else []
+    if _ran(outcomes, _strata):
+        # a lower bound 1/d of 1 in every stratum: single contrasts, no correction anywhere
+        two_levels = all(t["sphericity"]["lower_bound"] >= 1 for o in outcomes for t in _strata(o))
         chosen.append("repeated-two-levels" if two_levels else "repeated")
+        chosen += ["within-strata"] if _ran(outcomes, lambda o: len(_strata(o)) > 1) else []
     chosen += ["welch"] if _ran(one_factor, lambda o: o["robust"]["welch"]["statistic"] is not None) else []
     chosen += ["kruskal"] if _ran(one_factor, lambda o: o["robust"]["kruskal"]["statistic"] is not None) else []
     chosen += ["effect_sizes"] if _ran(outcomes, lambda o: any(
@@ -726,7 +741,31 @@ def methods_used(results: Mapping[str, Any]) -> tuple[Method, ...]:
     chosen += ["contingency"] if _ran(outcomes, lambda o: o.get("contingencies")) else ["pretest"]
     chosen += ["reporting"]
     defaults = {s["key"] for s in results.get("plan_settings", ()) if not s["stated"]}
-    return tuple(_as_stated(METHODS[key], defaults) for key in chosen)
+    return tuple(_as_stated(METHODS[key], defaults) if key in METHODS
+                 else _per_outcome_covariates(outcomes) for key in chosen)
+
+
+def _strata(outcome) -> list:
+    """The within strata's tables of an outcome (none without a within factor)."""
+    return [t for t in outcome["tables"] if t.get("sphericity")]
+
+
+def _covariate_sets(outcomes) -> set[tuple[str, ...]]:
+    return {tuple(c["label"] for c in o["covariate_slopes"]) for o in outcomes}
+
+
+def _per_outcome_covariates(outcomes) -> Method:
+    """Which covariates adjust which outcome, when they differ between outcomes."""
+    def adjusted(o) -> str:
+        labels = [c["label"] for c in o["covariate_slopes"]]
+        if not labels:
+            return f"{o['label']} is adjusted for no covariate"
+        listed = ", ".join(labels[:-1]) + (" and " if len(labels) > 1 else "") + labels[-1]
+        return f"{o['label']} is adjusted for {listed}"
+
+    return Method("covariates-per-outcome", "Covariates by outcome",
+                  "Each outcome is adjusted only for the covariates the plan registers for it: "
+                  + "; ".join(adjusted(o) for o in outcomes) + ".", ())
 
 
 def _as_stated(method: Method, defaults) -> Method:

@@ -1,9 +1,10 @@
 """Plan + dataset -> results of one outcome: the one analysis engine, for every design.
 
 A one-factor study is the one-term case of the design engine: crossed treatment factors,
-blocks and covariates are fitted by `appendix.stats.linear` from cell statistics, and a
-within-unit factor by `appendix.stats.split_plot` (the univariate approach with
-sphericity corrections). Pure, like `appendix.runner`, which calls it.
+blocks and covariates are fitted by `appendix.stats.linear` from cell statistics, and
+within-unit factors by `appendix.stats.split_plot` (the univariate approach with
+sphericity corrections). Pure, like `appendix.runner`, which calls it with the plan as
+each outcome sees it (`Plan.for_outcome`: its own covariates).
 
 What is computed per outcome:
 - between units: the variance table of the registered model (terms in `Plan.model_terms`
@@ -12,9 +13,10 @@ What is computed per outcome:
   registered interaction of treatment factors; the homogeneity-of-slopes check of every
   covariate; residual diagnostics (normality, equal variances, the outlier screen on the
   model's externally studentized residuals);
-- with a within factor: the repeated-measures table over complete units, with the
-  between grouping the cells of the crossed treatment factors, Mauchly's test and the
-  Greenhouse-Geisser and Huynh-Feldt corrections, and within-level means;
+- with within factors: over the units complete on the whole within grid, one table per
+  within stratum (each within factor, each listed interaction of within factors, with its
+  listed interactions with between-unit terms), each with its Mauchly test and
+  Greenhouse-Geisser and Huynh-Feldt corrections, and the means of every stratum's term;
 - where they are defined (`Plan.robust_absent` is None: one treatment factor, nothing
   else): Welch's and the Kruskal-Wallis tests, the registered contingencies that may put
   one in force, and contrasts under every analysis the plan allows (Games-Howell, Welch
@@ -24,6 +26,7 @@ What is computed per outcome:
 
 from __future__ import annotations
 
+import itertools
 import math
 from dataclasses import dataclass, replace
 
@@ -84,8 +87,10 @@ def design_words(plan: Plan) -> str:
         parts.append("in blocks")
     if plan.design.covariates:
         parts.append("covariate-adjusted")
-    if plan.within is not None:
-        parts.append(f"with repeated measures over {plan.within.label or plan.within.name}")
+    if plan.within_factors:
+        words = [f.label or f.name for f in plan.within_factors]
+        parts.append("with repeated measures over " + ", ".join(words[:-1])
+                     + (" and " if len(words) > 1 else "") + words[-1])
     return ", ".join(parts)
 
 
@@ -115,7 +120,7 @@ def analyse_outcome(plan: Plan, outcome: Outcome, data: OutcomeData, missing_by_
     deviations it caused (a registered contingency applied), which the caller reports
     apart, and the model's residuals for the figures. Hypothesis sentences are added once
     any primary-family adjustment is done."""
-    if plan.within is not None:
+    if plan.within_factors:
         return _repeated_outcome(plan, outcome, data, missing_by_cell, cell_labels)
     return _between_outcome(plan, outcome, data, missing_by_cell, cell_labels)
 
@@ -134,12 +139,17 @@ def _between_codes(plan: Plan, data: OutcomeData) -> list[np.ndarray]:
     return [data.factors[index[f.name]] for f in plan.between]
 
 
-def _treatment_cells(plan: Plan, data: OutcomeData) -> np.ndarray:
+def _crossed_cells(plan: Plan, data: OutcomeData, factors) -> np.ndarray:
+    """Each row's cell of the crossed `factors` (first slowest)."""
     index = {f.name: j for j, f in enumerate(plan.design.factors)}
     cell = np.zeros(data.values.size, dtype=np.int64)
-    for factor in plan.treatments:
+    for factor in factors:
         cell = cell * len(factor.levels) + data.factors[index[factor.name]]
     return cell
+
+
+def _treatment_cells(plan: Plan, data: OutcomeData) -> np.ndarray:
+    return _crossed_cells(plan, data, plan.treatments)
 
 
 def _between_outcome(plan, outcome, data, missing_by_cell, cell_labels):
@@ -203,7 +213,7 @@ def _between_outcome(plan, outcome, data, missing_by_cell, cell_labels):
         design=design_words(plan), n_units=n, n_observations=n,
         arithmetic=cells.arithmetic,
         descriptives=descriptives, tables=(table,), marginal_means=means, slopes=slopes,
-        sphericity=None, diagnostics=diagnostics, conclusions=conclusions,
+        diagnostics=diagnostics, conclusions=conclusions,
         robust=robust, robust_absent=plan.robust_absent, selected_method=selected,
         contingencies=contingencies, sample_of=data.sample_of,
         sample_size=int(data.values.size) if data.sample_of is not None else None,
@@ -249,7 +259,7 @@ def _full_data_moments(descriptives: Descriptives, cells, data: OutcomeData) -> 
 def _concluded(plan: Plan, term: tuple[str, ...]) -> bool:
     """Whether a term's test is a conclusion: terms of treatment and within factors only;
     blocks and covariates adjust the model and are reported in its table."""
-    tested = {f.name for f in plan.treatments} | ({plan.within.name} if plan.within else set())
+    tested = {f.name for f in plan.treatments} | {f.name for f in plan.within_factors}
     return set(term) <= tested
 
 
@@ -524,58 +534,76 @@ def _family_correlation(plan: Plan, members, fit, complete, occasion_residuals):
     - Contrasts on the model's marginal means, simple effects within levels of another
       between-unit factor included: Cov = L V L' from the coefficients' covariance V, one
       variance estimate for all (exact).
-    - Between-unit contrasts at each level of the within factor (one fit per occasion,
-      same design): Cov_ij = (l_i G l_j) Sigma_ab with G = (X'X)^- and Sigma the
-      occasions' residual covariance; each occasion has its own error variance.
-    - Contrasts of the within factor on the units' scores: Cov_ij = w_i' C w_j / n with C
-      the scores' cross-products pooled within the treatment cells (of the units at one
-      level of `by` for a simple effect; different levels use different units, so their
-      covariance is 0); each contrast has its own variance estimate.
+    - Between-unit contrasts at each level of a within factor (one fit per occasion,
+      same design): Cov_ij = (l_i G l_j) Sigma_ij with G = (X'X)^- and Sigma_ij the
+      cross-product of the two occasions' residuals (`occasion_residuals()`: one column per
+      cell of the within grid, combined by each occasion's weights u: R u); each occasion
+      has its own error variance.
+    - Contrasts of a within factor on the units' scores: Cov_ij = v_i' C v_j / n with v the
+      contrasts' weights over the within grid and C the cross-products of the units'
+      values pooled within the treatment cells, over the units both use: every complete
+      unit, or those at one level of a treatment factor `by` (different levels use
+      different units, so their covariance is 0); each contrast has its own variance
+      estimate.
     """
     from appendix.stats.marginal import contrast_row
 
-    within = plan.within
     factor, by = members[0][1], members[0][3]
     m = len(members)
-    occasions = by is not None and within is not None and by.name == within.name
-    if within is None or factor.name != within.name:
+    occasions = by is not None and plan.is_within(by.name)
+    if not plan.is_within(factor.name):
         rows = np.array([contrast_row(fit, f.name, h.weights,
                                       None if level is None or occasions else {b.name: level})
                          for _, f, h, b, level in members])
         if occasions:
-            residuals = np.asarray(occasion_residuals)
-            sigma = residuals.T @ residuals
-            places = [within.levels.index(level) for *_, level in members]
+            residuals = np.asarray(occasion_residuals())
+            weights = np.column_stack([_occasion_weights(plan, b, level) for *_, b, level in members])
+            combined = residuals @ weights
             design = rows @ fit.inverse @ rows.T
-            covariance = design * sigma[np.ix_(places, places)]
+            covariance = design * (combined.T @ combined)
+            words = _factors_words(plan, {b.name for *_, b, _ in members})
             why = StatWarning("joint-law-approximate",
-                              f"The comparisons at each level of {within.label or within.name} come "
-                              "from separate fits, each with its own error variance; their joint law "
-                              "is taken as the multivariate t with the correlations of the occasions' "
-                              "residuals, an approximation.")
+                              f"The comparisons at each level of {words} come from separate fits, "
+                              "each with its own error variance; their joint law is taken as the "
+                              "multivariate t with the correlations of the occasions' residuals, "
+                              "an approximation.")
         else:
             covariance, why = rows @ fit.covariance @ rows.T, None
     else:
         covariance = np.zeros((m, m))
-        slices = {level: _units_at(plan, complete, by, level) for *_, by, level in members}
-        for i, (_, _, hi, _, li) in enumerate(members):
-            for j, (_, _, hj, _, lj) in enumerate(members):
-                units = slices[li]
-                if li == lj and units.y.shape[0]:  # a slice without units has no covariance
-                    covariance[i, j] = (np.asarray(hi.weights) @ _pooled_cross(units)
-                                        @ np.asarray(hj.weights)) / units.y.shape[0]
+        keys = [_slice_key(plan, b, level) for *_, b, level in members]
+        vectors = [_within_weights(plan, f, h.weights, b, level) for _, f, h, b, level in members]
+        slices = {key: _units_at(plan, complete, *key) if key else complete for key in keys}
+        for i in range(m):
+            for j in range(m):
+                units = slices[keys[i]]
+                if keys[i] == keys[j] and units.y.shape[0]:  # a slice without units has no covariance
+                    covariance[i, j] = (vectors[i] @ _pooled_cross(units) @ vectors[j]) / units.y.shape[0]
+        split = [b for *_, b, level in members if b is not None and not plan.is_within(b.name)]
         why = None if m < 2 else StatWarning(
             "joint-law-approximate",
             "Each within-unit comparison has its own variance estimate from the units' scores; "
             "their joint law is taken as the multivariate t with the correlations of the pooled "
-            "scores" + (f" (independent between levels of {by.label or by.name}, which have "
-                        "different units)" if by is not None else "") + ", an approximation.")
+            "scores" + (f" (independent between levels of {split[0].label or split[0].name}, which "
+                        "have different units)" if split else "") + ", an approximation.")
     scale = np.sqrt(np.clip(np.diag(covariance), 0.0, None))
     with np.errstate(divide="ignore", invalid="ignore"):
         corr = covariance / np.outer(scale, scale)
     corr = np.where(np.isfinite(corr), corr, 0.0)
     np.fill_diagonal(corr, 1.0)
     return corr, why
+
+
+def _factors_words(plan: Plan, names) -> str:
+    """The factors called `names`, in plan order, in prose: ``Visit``, ``Phase or Hour``."""
+    words = [f.label or f.name for f in plan.design.factors if f.name in names]
+    return ", ".join(words[:-1]) + (" or " if len(words) > 1 else "") + words[-1]
+
+
+def _slice_key(plan: Plan, by, level):
+    """Which units a within-unit comparison uses: None for every complete unit (no `by`,
+    or `by` a within factor), else (`by`, `level`) for the units at that treatment level."""
+    return None if by is None or plan.is_within(by.name) else (by, level)
 
 
 def _pooled_cross(units) -> np.ndarray:
@@ -589,39 +617,71 @@ def _pooled_cross(units) -> np.ndarray:
     return centred.T @ centred
 
 
+def _grid_weights(plan: Plan, given) -> np.ndarray:
+    """Weights over the within grid (first within factor slowest): the Kronecker product
+    over the within factors of `given[name]`, or of equal weights 1/m (the mean over the
+    factor's m levels) for a factor not given."""
+    vector = np.ones(1)
+    for f in plan.within_factors:
+        part = given.get(f.name)
+        vector = np.kron(vector, np.full(len(f.levels), 1.0 / len(f.levels)) if part is None
+                         else np.asarray(part, dtype=np.float64))
+    return vector
+
+
+def _at_level(factor, level: str) -> np.ndarray:
+    return (np.asarray(factor.levels) == level).astype(np.float64)
+
+
+def _occasion_weights(plan: Plan, by, level: str) -> np.ndarray:
+    """The grid weights of one occasion: level `level` of the within factor `by`, averaged
+    over the other within factors."""
+    return _grid_weights(plan, {by.name: _at_level(by, level)})
+
+
+def _within_weights(plan: Plan, factor, weights, by, level) -> np.ndarray:
+    """The grid weights of a contrast of the within factor `factor`: its level weights,
+    averaged over the other within factors, or, with `by` a within factor, taken at
+    `level` of `by` (a simple effect on the same units)."""
+    given = {factor.name: weights}
+    if by is not None and level is not None and plan.is_within(by.name):
+        given[by.name] = _at_level(by, level)
+    return _grid_weights(plan, given)
+
+
 def _estimate(plan: Plan, contrast, factor, weights, by, level, fit, complete, confidence,
               occasion_fit=None):
     """One contrast estimate.
 
     - A between-unit factor: on the model's marginal means, within one level of `by`
-      when given; `by` the within factor: on the model fitted to that occasion's values
-      alone (`occasion_fit(level)`).
-    - The within factor: on the complete units' contrast scores (no sphericity needed),
-      their variance pooled within the treatment cells; `by` a treatment factor: on the
-      units at that level only.
+      when given; `by` a within factor: on the model fitted to that occasion's values
+      alone (`occasion_fit(by, level)`: each unit's mean over the other within factors).
+    - A within factor: on the complete units' contrast scores (no sphericity needed),
+      averaged over the other within factors, their variance pooled within the treatment
+      cells; `by` a treatment factor: on the units at that level only; `by` another
+      within factor: on every unit's scores at that level of it.
     """
     from appendix.stats.marginal import marginal_contrast
     from appendix.stats.repeated import within_contrast
 
-    within = plan.within
-    if within is None or factor.name != within.name:
-        if level is not None and within is not None and by.name == within.name:
-            return marginal_contrast(occasion_fit(level), factor.name, weights,
+    if not plan.is_within(factor.name):
+        if level is not None and plan.is_within(by.name):
+            return marginal_contrast(occasion_fit(by, level), factor.name, weights,
                                      alternative=contrast.alternative, confidence=confidence)
         at = None if level is None else {by.name: level}
         return marginal_contrast(fit, factor.name, weights, at=at, alternative=contrast.alternative,
                                  confidence=confidence)
-    return within_contrast(_units_at(plan, complete, by, level), weights,
+    key = _slice_key(plan, by, level)
+    units = complete if key is None else _units_at(plan, complete, *key)
+    return within_contrast(units, _within_weights(plan, factor, weights, by, level),
                            alternative=contrast.alternative, confidence=confidence)
 
 
 def _units_at(plan: Plan, complete, by, level):
-    """The complete units whose treatment cell has `level` of `by` (all units when `level`
-    is None), their cells recoded from 0."""
+    """The complete units whose treatment cell has `level` of the treatment factor `by`,
+    their cells recoded from 0."""
     from appendix.stats.repeated import CompleteUnits
 
-    if level is None:
-        return complete
     position = [f.name for f in plan.treatments].index(by.name)
     sizes = [len(f.levels) for f in plan.treatments]
     step = int(np.prod(sizes[position + 1:], dtype=np.int64))
@@ -634,18 +694,27 @@ def _units_at(plan: Plan, complete, by, level):
 # --- repeated measures ------------------------------------------------------------------
 
 
+def _stratum_name(plan: Plan, term: tuple[str, ...]) -> str:
+    """``within units`` for the one stratum of a single within factor, else
+    ``units × Phase × Hour``: the error stratum a term of those within factors is tested in."""
+    return "within units" if len(plan.within_strata) == 1 else f"units{CROSS}{_label(plan, term)}"
+
+
 def _repeated_outcome(plan, outcome, data, missing_by_cell, cell_labels):
-    """The split-plot analysis (`appendix.stats.split_plot`) over complete units."""
+    """The split-plot analysis (`appendix.stats.split_plot`) over complete units, each
+    within term in its own error stratum."""
     from appendix.stats.design import Grid
     from appendix.stats.linear import fitted_values
     from appendix.stats.repeated import complete_units
-    from appendix.stats.split_plot import split_plot
+    from appendix.stats.split_plot import split_plot, strata_of
 
-    within = plan.within
+    within = plan.within_factors
+    grid_cells = plan.within_cells
     index = {f.name: j for j, f in enumerate(plan.design.factors)}
-    m = len(within.levels)
-    complete = complete_units(list(data.units), data.factors[index[within.name]], data.values, m,
-                              _treatment_cells(plan, data), level_names=within.levels)
+    m = len(grid_cells)
+    occasion_codes = _crossed_cells(plan, data, plan.within_factors)  # `Plan.within_cells`
+    complete = complete_units(list(data.units), occasion_codes, data.values, m,
+                              _treatment_cells(plan, data), level_names=grid_cells)
     first = {}
     for row, unit in enumerate(data.units):
         first.setdefault(unit, row)
@@ -657,23 +726,16 @@ def _repeated_outcome(plan, outcome, data, missing_by_cell, cell_labels):
         # is in no model term, so nothing the fit reports (warnings, notes) mentions it
         grid, codes = Grid(names=("all",), levels=(tuple(cell_labels),)), [np.zeros(rows_of_units.size, np.int64)]
     covariates = {c.name: data.covariates[j][rows_of_units] for j, c in enumerate(plan.design.covariates)}
-    interacting = _interacting(plan)
-    fit = split_plot(grid, codes, complete.y, covariates or None, plan.model_terms, interacting,
-                     plan.ss_type, within.name, plan.alpha)
+    strata = strata_of([(f.name, len(f.levels)) for f in within],
+                       {term: _interacting(plan, term) for term in plan.within_strata})
+    fit = split_plot(grid, codes, complete.y, covariates or None, plan.model_terms, strata,
+                     plan.ss_type, plan.alpha)
     between = _model_table(plan, fit.between, scale=m, stratum="between units")
-    within_rows = tuple(_repeated_row(plan, r) for r in fit.within_rows)
-    error = within_rows[-1]
-    within_table = ModelTable(
-        ss_type=fit.between.ss_type, rows=within_rows[:-1], residual_df=error.df,
-        residual_ss=error.sum_of_squares, residual_ms=error.mean_square,
-        total_df=sum(r.df for r in within_rows), total_ss=sum(r.sum_of_squares or 0.0 for r in within_rows),
-        r_squared=None, estimability=("Within units every listed effect is estimable from the "
-                                      f"{fit.n_units} complete units."), stratum="within units",
-        ss_type_stated=between.ss_type_stated)
-    sphericity = fit.sphericity
+    within_tables = tuple(_stratum_table(plan, stratum, fit.between.ss_type, fit.n_units,
+                                         between.ss_type_stated) for stratum in fit.strata)
     cells = _treatment_cells(plan, data)
-    descriptives = describe(data.values, cells * m + data.factors[index[within.name]],
-                            tuple(f"{c}{CROSS}{w}" for c in cell_labels for w in within.levels),
+    descriptives = describe(data.values, cells * m + occasion_codes,
+                            tuple(f"{c}{CROSS}{w}" for c in cell_labels for w in grid_cells),
                             [0] * (len(cell_labels) * m), 0.95)
     unit_means = complete.y.mean(axis=1)
     slopes = ()
@@ -689,18 +751,25 @@ def _repeated_outcome(plan, outcome, data, missing_by_cell, cell_labels):
     diagnostics = _diagnostics(plan, unit_means, complete.groups, cell_labels, complete.units, screen,
                                within_residuals=fit.within_residuals, spread=False)
 
-    def occasion_fit(level: str):
-        """The between-unit model fitted to one occasion's values."""
+    def fit_to(y):
+        """The between-unit model fitted to one value per complete unit."""
         from appendix.stats.design import design_cells
         from appendix.stats.linear import fit_linear
 
-        y = complete.y[:, within.levels.index(level)]
         return fit_linear(design_cells(grid, codes, y, covariates or None), plan.model_terms,
                           plan.ss_type, plan.alpha)
 
-    occasion_residuals = np.column_stack([
-        complete.y[:, j] - fitted_values(occasion_fit(level), cell_codes, covariates or None)
-        for j, level in enumerate(within.levels)])
+    def occasion_fit(by, level: str):
+        """The between-unit model fitted to one occasion's values: level `level` of the
+        within factor `by`, each unit's mean over the other within factors."""
+        return fit_to(complete.y @ _occasion_weights(plan, by, level))
+
+    def occasion_residuals():
+        """The between-unit model's residuals at each cell of the within grid."""
+        return np.column_stack([complete.y[:, j] - fitted_values(fit_to(complete.y[:, j]), cell_codes,
+                                                                 covariates or None)
+                                for j in range(m)])
+
     families, exploratory = _contrast_families(plan, outcome, fit=fit.between, complete=complete,
                                                occasion_fit=occasion_fit,
                                                occasion_residuals=occasion_residuals)
@@ -708,62 +777,100 @@ def _repeated_outcome(plan, outcome, data, missing_by_cell, cell_labels):
         conclude.term_conclusion(plan, outcome, row, between.ss_type, between.residual_df),
         conclude.slopes_caveat(slopes, plan.alpha))
         for row in between.rows if _concluded(plan, row.term))
-    conclusions += tuple(conclude.term_conclusion(plan, outcome, row, between.ss_type, error.df)
-                         for row in within_table.rows if _concluded(plan, row.term))
+    conclusions += tuple(conclude.term_conclusion(plan, outcome, row, table.ss_type, table.residual_df)
+                         for table in within_tables for row in table.rows if _concluded(plan, row.term))
     notes = tuple(fit.warnings)
     if complete.dropped:
+        grid_words = (f"level of {within[0].label or within[0].name}" if len(within) == 1
+                      else f"cell of {_label(plan, [f.name for f in within])}")
         notes += (StatWarning("units-dropped", f"{len(complete.dropped)} units without a value at every "
-                              f"level of {within.label or within.name} were left out."),)
+                              f"{grid_words} were left out."),)
+    over = (within[0].label or within[0].name if len(within) == 1
+            else f"the cells of {_label(plan, [f.name for f in within])}")
     return OutcomeResult(
         name=outcome.name, label=outcome.label, unit=outcome.unit, role=outcome.role,
         design=design_words(plan), n_units=fit.n_units, n_observations=int(complete.y.size),
-        arithmetic="float64", descriptives=descriptives, tables=(between, within_table),
-        marginal_means=(_marginal(plan, fit.between, over=within.label or within.name)
+        arithmetic="float64", descriptives=descriptives, tables=(between, *within_tables),
+        marginal_means=(_marginal(plan, fit.between, over=over)
                         + _occasion_means(plan, complete, cell_labels)),
-        slopes=slopes, sphericity=sphericity, diagnostics=diagnostics, conclusions=conclusions,
+        slopes=slopes, diagnostics=diagnostics, conclusions=conclusions,
         robust_absent=plan.robust_absent, contrasts=families,
         covariate_slopes=_covariate_slopes(plan, fit.between), warnings=notes), exploratory, (), Residuals(
             outcome.name, _read_only(unit_means - residuals), _read_only(residuals), complete.groups,
             of="unit means")
 
 
+def _stratum_table(plan: Plan, stratum, ss_type: int, n_units: int, stated: bool) -> ModelTable:
+    """The variance table of one within stratum: its tested terms, its error as the
+    residual, its sphericity."""
+    rows = tuple(_repeated_row(plan, r) for r in stratum.rows)
+    error = rows[-1]
+    return ModelTable(
+        ss_type=ss_type, rows=rows[:-1], residual_df=error.df,
+        residual_ss=error.sum_of_squares, residual_ms=error.mean_square,
+        total_df=sum(r.df for r in rows), total_ss=sum(r.sum_of_squares or 0.0 for r in rows),
+        r_squared=None, estimability=("Within units every listed effect is estimable from the "
+                                      f"{n_units} complete units."),
+        stratum=_stratum_name(plan, stratum.term), ss_type_stated=stated,
+        within=stratum.term, sphericity=stratum.sphericity)
+
+
 def _occasion_means(plan: Plan, complete, cell_labels) -> tuple[MarginalMeans, ...]:
-    """Means at each level of the within factor over the complete units, and per cell of
-    the treatment factors; each mean's interval uses its own spread across units
-    (`appendix.stats.repeated.within_means`), not the within-units error term."""
-    from appendix.stats.repeated import within_means
-
-    within = plan.within
-    basis = ("the mean of the complete units at each level, with an interval from their "
-             "spread at that level (pooled within the treatment cells; Student's t on the units' "
-             "degrees of freedom)")
-
-    def group(means, prefix=()):
-        return tuple(MarginalMean(levels=(*prefix, within.levels[m.level]), estimate=m.mean, se=m.se,
-                                  df=m.df, ci_low=m.ci_low, ci_high=m.ci_high,
-                                  warnings=tuple(m.warnings)) for m in means.means)
-
-    overall = within_means(complete, 0.95)
-    out = [MarginalMeans(factors=(within.name,), label=within.label or within.name,
-                         confidence_level=overall.confidence_level, means=group(overall), basis=basis)]
-    if plan.treatments:
-        rows = tuple(m for g, label in enumerate(cell_labels)
-                     for m in group(within_means(complete, 0.95, group=g), (label,)))
-        names = tuple(f.name for f in plan.treatments) + (within.name,)
-        out.append(MarginalMeans(factors=names, label=_label(plan, names),
-                                 confidence_level=overall.confidence_level, means=rows,
-                                 basis="the mean of each cell's complete units at each level, with "
-                                       "an interval from that cell's own units (Student's t on their "
-                                       "degrees of freedom)"))
+    """Means of each within term of within factors alone (every within factor, each listed
+    interaction of within factors) over the complete units, each unit's mean over the
+    other within factors, and per cell of the treatment factors; each mean's interval
+    uses its own spread across units (`appendix.stats.repeated.within_means`), not a
+    within-units error term."""
+    out = []
+    for term in plan.within_strata:
+        out += _term_means(plan, complete, cell_labels, term)
     return tuple(out)
 
 
-def _interacting(plan: Plan) -> tuple[tuple[str, ...], ...]:
-    """The between terms T whose T x within the plan lists, lower order first."""
-    within = plan.within.name
+def _term_means(plan: Plan, complete, cell_labels, term) -> list[MarginalMeans]:
+    from appendix.stats.repeated import CompleteUnits, within_means
+
+    factors = [plan.factor_named(n) for n in term]
+    alone = len(plan.within_factors) == 1
+    # each unit's mean at every cell of `term`, over the other within factors
+    average = np.column_stack([_grid_weights(plan, {f.name: _at_level(f, level)
+                                                    for f, level in zip(factors, levels)})
+                               for levels in itertools.product(*(f.levels for f in factors))])
+    reduced = complete if alone else CompleteUnits(y=complete.y @ average, units=complete.units,
+                                                   groups=complete.groups, dropped=())
+    names = list(itertools.product(*(f.levels for f in factors)))
+    where = "level" if len(term) == 1 else "combination of levels"
+    over = ("" if len(term) == len(plan.within_factors)
+            else ", each unit's mean over the other within factors")
+    basis = (f"the mean of the complete units at each {where}{over}, with an interval from their "
+             f"spread {'at that level' if len(term) == 1 else 'there'} (pooled within the treatment cells; Student's t on the units' "
+             "degrees of freedom)")
+
+    def group(means, prefix=()):
+        return tuple(MarginalMean(levels=(*prefix, *names[m.level]), estimate=m.mean, se=m.se,
+                                  df=m.df, ci_low=m.ci_low, ci_high=m.ci_high,
+                                  warnings=tuple(m.warnings)) for m in means.means)
+
+    overall = within_means(reduced, 0.95)
+    out = [MarginalMeans(factors=tuple(term), label=_label(plan, term),
+                         confidence_level=overall.confidence_level, means=group(overall), basis=basis)]
+    if plan.treatments:
+        rows = tuple(m for g, label in enumerate(cell_labels)
+                     for m in group(within_means(reduced, 0.95, group=g), (label,)))
+        names_all = tuple(f.name for f in plan.treatments) + tuple(term)
+        out.append(MarginalMeans(factors=names_all, label=_label(plan, names_all),
+                                 confidence_level=overall.confidence_level, means=rows,
+                                 basis=f"the mean of each cell's complete units at each {where}{over}, "
+                                       "with an interval from that cell's own units (Student's t on "
+                                       "their degrees of freedom)"))
+    return out
+
+
+def _interacting(plan: Plan, stratum: tuple[str, ...]) -> tuple[tuple[str, ...], ...]:
+    """The between terms T whose T x `stratum` the plan lists, lower order first."""
     order = [f.name for f in plan.between]
-    terms = {tuple(sorted((n for n in i if n != within), key=order.index))
-             for i in plan.design.interactions if within in i}
+    terms = {tuple(sorted((n for n in t if not plan.is_within(n)), key=order.index))
+             for t in plan.stratum_terms(stratum)[1:]}
     return tuple(sorted(terms, key=lambda t: (len(t), [order.index(n) for n in t])))
 
 

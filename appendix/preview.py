@@ -69,6 +69,43 @@ def _exclusion_detail(loaded: LoadedPlan, dataset: Dataset) -> list[str]:
     return exclusion_lines(table, rules, loaded.plan.data.unit)
 
 
+def _analysis_lines(plan: Plan) -> list[str]:
+    """What is computed per outcome: one line when every outcome has the same covariates,
+    else one line per outcome, each for the plan as that outcome sees it."""
+    seen = [plan.for_outcome(o.name) for o in plan.outcomes]
+    if all(p.design.covariates == plan.design.covariates for p in seen):
+        return [_analysis_line(plan, "per outcome")]
+    return [_analysis_line(p, f"outcome {o.name}") for o, p in zip(plan.outcomes, seen)]
+
+
+def _analysis_line(plan: Plan, scope: str) -> str:
+    settings = plan.assumptions
+    checks = [settings.normality] if settings.normality != "none" else []
+    checks += list(settings.equal_variance)
+    checks.append(f"studentized residuals beyond {settings.outliers.threshold:g}")
+    if plan.robust_absent is None:  # the one-factor layout, with its robust block
+        return (
+            f"{scope}, at alpha {plan.alpha:g}: descriptives; one-way variance table (F test); "
+            f"Welch's ANOVA; Kruskal-Wallis; eta squared, omega squared and Cohen's f with CIs; "
+            f"diagnostics: {', '.join(checks)}")
+    terms = ", ".join(" x ".join(t) for t in plan.model_terms)
+    within = (f"; within units over {' x '.join(f.name for f in plan.within_factors)} "
+              "(complete units): "
+              + "; ".join(f"stratum units x {' x '.join(stratum)}: "
+                          + ", ".join(" x ".join(t) for t in plan.stratum_terms(stratum))
+                          for stratum in plan.within_strata)
+              + ", with Mauchly's test and Greenhouse-Geisser / Huynh-Feldt corrections per stratum"
+              if plan.within_factors else "")
+    spread = ("" if not plan.within_factors else
+              " (no equal-variance test on repeated observations; outliers on unit means)")
+    return (
+        f"{scope}, at alpha {plan.alpha:g}: descriptives by cell; variance table with "
+        f"type {plan.ss_type} sums of squares of {terms}{within}; "
+        "partial eta and omega squared and Cohen's f with CIs; estimated marginal means"
+        + ("; homogeneity of slopes" if plan.design.covariates else "")
+        + f"; diagnostics: {', '.join(checks)}{spread}")
+
+
 def describe_run(loaded: LoadedPlan, dataset: Dataset) -> list[str]:
     """Lines of text: the plan, the data and its unit flow, every analysis a run makes, and
     notes on plan choices the literature warns against."""
@@ -85,7 +122,8 @@ def describe_run(loaded: LoadedPlan, dataset: Dataset) -> list[str]:
                      f"({', '.join(factor.levels)})"
                      + (f", control {factor.control}" if factor.control else ""))
     for covariate in plan.design.covariates:
-        lines.append(f"covariate {covariate.name}: column {covariate.data_column}")
+        lines.append(f"covariate {covariate.name}: column {covariate.data_column}"
+                     + (f"; adjusts {', '.join(covariate.outcomes)} only" if covariate.outcomes else ""))
     lines.append(f"units read: {_counts(flow.read)}")
     for rule in flow.exclusions:
         lines.append(f"excluded by {rule.rule} ({rule.reason}): {rule.total}")
@@ -96,29 +134,7 @@ def describe_run(loaded: LoadedPlan, dataset: Dataset) -> list[str]:
         missing = sum(c.n for c in item.missing)
         lines.append(f"outcome {outcome.name} ({outcome.role}): analysed {_counts(item.analysed)}"
                      f"; missing {missing}")
-    settings = plan.assumptions
-    checks = [settings.normality] if settings.normality != "none" else []
-    checks += list(settings.equal_variance)
-    checks.append(f"studentized residuals beyond {settings.outliers.threshold:g}")
-    if plan.robust_absent is None:  # the one-factor layout, with its robust block
-        lines.append(
-            f"per outcome, at alpha {plan.alpha:g}: descriptives; one-way variance table (F test); "
-            f"Welch's ANOVA; Kruskal-Wallis; eta squared, omega squared and Cohen's f with CIs; "
-            f"diagnostics: {', '.join(checks)}")
-    else:
-        terms = ", ".join(" x ".join(t) for t in plan.model_terms)
-        within = (f"; within units over {plan.within.name} (complete units): "
-                  + ", ".join(" x ".join(t) for t in plan.within_terms)
-                  + ", with Mauchly's test and Greenhouse-Geisser / Huynh-Feldt corrections"
-                  if plan.within else "")
-        spread = ("" if plan.within is None else
-                  " (no equal-variance test on repeated observations; outliers on unit means)")
-        lines.append(
-            f"per outcome, at alpha {plan.alpha:g}: descriptives by cell; variance table with "
-            f"type {plan.ss_type} sums of squares of {terms}{within}; "
-            "partial eta and omega squared and Cohen's f with CIs; estimated marginal means"
-            + ("; homogeneity of slopes" if plan.design.covariates else "")
-            + f"; diagnostics: {', '.join(checks)}{spread}")
+    lines += _analysis_lines(plan)
     lines += describe_contrasts(plan)
     lines += [f"finding: {finding.message}" for finding in dataset.findings]
     lines += [f"note: {note}" for note in lint(plan)]

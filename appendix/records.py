@@ -5,7 +5,7 @@
 factor levels, and for each outcome, covariate and exclusion column the cell as text and
 the value the analysis used, plus what became of the row in each outcome (``analysed``,
 ``excluded``, ``missing`` or ``left-out``: eligible with a value, yet not analysed, e.g. a
-unit without a value at every level of a within factor). It also holds the canonical plan,
+unit without a value at every cell of the within factors). It also holds the canonical plan,
 so that `appendix.compare` can say key by key what changed in it.
 
 Format (our own): canonical JSON (sorted keys, no NaN, UTF-8), one data row per line of
@@ -59,7 +59,8 @@ class ColumnInfo:
 
 @dataclass(frozen=True)
 class RowRecord:
-    """One data row. `within` is its level of the within factor (None without one);
+    """One data row. `within` is its cell of the within factors, their cells' texts joined
+    by ' × ' (a single within factor: its level; None without one);
     `cells` the text of each named column (None where the format stores no value);
     `values` the number the analysis used from each outcome or covariate column (None
     where the row was not analysed); `outcomes` the row's status per outcome name."""
@@ -111,7 +112,7 @@ def records_text(loaded: LoadedPlan, dataset: Dataset, *, max_rows: int = MAX_RO
         "format_version": RECORDS_FORMAT,
         "source": plan.data.source,
         "unit_column": plan.data.unit,
-        "within_factor": plan.within.name if plan.within else None,
+        "within_factor": " \u00d7 ".join(f.name for f in plan.within_factors) or None,
         "columns": [_plain_column(c) for c in named_columns(loaded)],
         "plan": plan.model_dump(mode="json"),
         "plan_sha256": loaded.sha256,
@@ -146,7 +147,7 @@ def _skip_reason(loaded: LoadedPlan, dataset: Dataset, max_rows: int) -> str | N
         return ("the source was aggregated out of core; rows are not recorded, the data "
                 "are identified by their checksum")
     units = sum(count.n for count in dataset.unit_flow.read)
-    rows = units * (len(loaded.plan.within.levels) if loaded.plan.within else 1)
+    rows = units * (len(loaded.plan.within_cells) or 1)
     if rows > max_rows:
         return (f"about {rows} rows, more than the {max_rows} rows recorded row by row; "
                 "the data are identified by their checksum")
@@ -177,34 +178,37 @@ def _rows(loaded: LoadedPlan, dataset: Dataset, table: Table) -> list[dict[str, 
     analysed = _analysed_by_line(dataset)
     data = {o.name: o for o in dataset.outcomes}
     columns = named_columns(loaded)
-    covariate_index = {c.name: j for j, c in enumerate(plan.design.covariates)}
-    within = plan.within.name if plan.within else None
+    # each outcome's covariates are its own (`Plan.covariates_for`), in plan order
+    covariate_index = {o.name: {c.name: j for j, c in enumerate(plan.covariates_for(o.name))}
+                       for o in plan.outcomes}
+    within = [table.column(f.name) for f in plan.within_factors]
     rows = []
     for i, line in enumerate(table.lines):
         unit = units[i]
         statuses: dict[str, str] = {}
         values: dict[str, float | None] = {}
-        used_in = None  # the first outcome that analysed the row (covariate values from it)
+        used_in = []  # the outcomes that analysed the row (covariate values from them)
         for outcome in plan.outcomes:
             index = analysed[outcome.name].get(line)
             cell = table.column(outcome.data_column)[i]
             if index is not None:
                 statuses[outcome.name] = "analysed"
                 values[outcome.data_column] = float(data[outcome.name].values[index])
-                used_in = used_in or (outcome.name, index)
+                used_in.append((outcome.name, index))
             else:
                 statuses[outcome.name] = ("excluded" if unit in excluded else
                                           "missing" if is_missing(cell) else "left-out")
                 values.setdefault(outcome.data_column, None)
         for info in columns:
             if info.role == "covariate":
-                value = None
-                if used_in is not None:
-                    value = float(data[used_in[0]].covariates[covariate_index[info.name]][used_in[1]])
+                # from the first outcome that analysed the row with this covariate
+                value = next((float(data[name].covariates[covariate_index[name][info.name]][index])
+                              for name, index in used_in if info.name in covariate_index[name]), None)
                 values.setdefault(info.column, value)
         rows.append({
             "unit": unit,
-            "within": table.column(within)[i] if within else None,
+            "within": (None if not within else within[0][i] if len(within) == 1
+                       else " \u00d7 ".join(str(column[i] or "") for column in within)),
             "line": line,
             "levels": {f.name: table.column(f.name)[i] for f in plan.design.factors},
             "excluded_by": excluded.get(unit),

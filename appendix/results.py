@@ -418,7 +418,13 @@ class ModelRow:
 @dataclass(frozen=True)
 class ModelTable:
     """A variance table of a linear model with its sums-of-squares type (1 sequential,
-    2 marginal-hierarchical, 3 each term adjusted for all others under sum-to-zero coding)."""
+    2 marginal-hierarchical, 3 each term adjusted for all others under sum-to-zero coding).
+
+    `stratum` names the error stratum: ``units`` (no within factor), ``between units``, or
+    for a within stratum ``within units`` (one within factor) or ``units × <its factors>``
+    (several within strata). A within stratum's table has `within`, the within factors of
+    its term, and `sphericity`, Mauchly's test and the epsilons of its contrasts; both
+    are empty for between-unit tables."""
 
     ss_type: int
     rows: tuple[ModelRow, ...]
@@ -433,6 +439,8 @@ class ModelTable:
     residual_sd: float | None = None
     ss_type_stated: bool = True
     stratum: str = "units"
+    within: tuple[str, ...] = ()
+    sphericity: Sphericity | None = None
     warnings: Warnings = ()
 
 
@@ -493,7 +501,8 @@ class CovariateSlope:
 
 @dataclass(frozen=True)
 class Sphericity:
-    """Mauchly's (1940) test and the epsilon estimates for one within factor.
+    """Mauchly's (1940) test and the epsilon estimates for one within stratum (a within
+    factor, or an interaction of within factors: the contrasts of its term).
 
     `df` is the df of Mauchly's chi-square, d(d + 1)/2 - 1. `lower_bound` is 1/d
     (Greenhouse & Geisser 1959). `huynh_feldt` (Huynh & Feldt 1976, with Lecoutre's 1991
@@ -526,8 +535,9 @@ class RobustTests:
 class OutcomeResult:
     """Everything computed for one registered outcome, for every design.
 
-    `tables` holds the between-unit variance table and, with a within factor, the
-    repeated-measures table; `conclusions` one sentence per tested term, in table order.
+    `tables` holds the between-unit variance table and, with within factors, one table
+    per within stratum, each with its sphericity (`ModelTable.sphericity`);
+    `conclusions` one sentence per tested term, in table order.
     `robust` is set where its tests are defined (`RobustTests`), else `robust_absent`
     says why not. `selected_method` is the analysis in force after the registered
     contingencies (`contingencies`), ``classical`` when none fired.
@@ -552,7 +562,6 @@ class OutcomeResult:
     tables: tuple[ModelTable, ...]
     marginal_means: tuple[MarginalMeans, ...]
     slopes: tuple[SlopesCheck, ...]
-    sphericity: Sphericity | None
     diagnostics: Diagnostics
     conclusions: tuple[Conclusion, ...]
     robust: RobustTests | None = None

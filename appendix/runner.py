@@ -28,6 +28,7 @@ from appendix.results import (
 
 
 def _with_hypothesis_conclusions(plan: Plan, result: OutcomeResult) -> OutcomeResult:
+    plan = plan.for_outcome(result.name)
     outcome = next(o for o in plan.outcomes if o.name == result.name)
     caveat = conclude.slopes_caveat(getattr(result, "slopes", ()), plan.alpha)
     sentences = tuple(
@@ -41,8 +42,7 @@ def _between_units(plan: Plan, h) -> bool:
     """Whether hypothesis `h` compares covariate-adjusted between-unit means (not a within
     factor's levels, whose contrasts are taken on the units' own scores)."""
     contrast = next((c for c in plan.contrasts if c.id == h.contrast), None)
-    return not (plan.within is not None and contrast is not None
-                and plan.factor_of(contrast).name == plan.within.name)
+    return not (contrast is not None and plan.is_within(plan.factor_of(contrast).name))
 
 
 def _exploratory(plan: Plan, found: list[dict[str, ContrastFamily]]) -> tuple[ExploratoryAnalysis, ...]:
@@ -74,7 +74,7 @@ def study_analysis(loaded: LoadedPlan, dataset: Dataset, software: tuple[Softwar
     plan = loaded.plan
     flows = {flow.outcome: flow for flow in dataset.unit_flow.outcomes}
     ordered = sorted(plan.outcomes, key=lambda o: o.role != "primary")
-    work = [analyse_outcome(plan, outcome, dataset.outcome(outcome.name),
+    work = [analyse_outcome(plan.for_outcome(outcome.name), outcome, dataset.outcome(outcome.name),
                             [c.n for c in flows[outcome.name].missing], dataset.levels)
             for outcome in ordered]
     outcomes = tuple(result for result, _, _, _ in work)

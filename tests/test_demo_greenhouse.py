@@ -108,7 +108,7 @@ def test_study_file_registers_the_design_and_matches_the_data(rows):
     plan = load_plan(DEMO / "study.yaml").plan
     assert [f.name for f in plan.treatments] == ["coating", "irrigation"]
     assert [f.name for f in plan.blocks] == ["bench"]
-    assert plan.within.name == "visit" and plan.repeated.missing == "complete-units"
+    assert [f.name for f in plan.within_factors] == ["visit"] and plan.repeated.missing == "complete-units"
     assert plan.design.interactions == (("coating", "irrigation"), ("coating", "visit"))
     assert [c.data_column for c in plan.design.covariates] == ["baseline_height_mm"]
     assert plan.design.sums_of_squares == 3

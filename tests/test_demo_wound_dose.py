@@ -86,7 +86,7 @@ def test_study_file_registers_the_design_and_matches_the_data(rows):
     plan = load_plan(DEMO / "study.yaml").plan
     assert [f.name for f in plan.treatments] == ["dose"]
     assert [f.name for f in plan.blocks] == ["cohort"]
-    assert plan.within is None and plan.design.interactions == ()
+    assert plan.within_factors == () and plan.design.interactions == ()
     assert [c.data_column for c in plan.design.covariates] == ["wound_area_d0_mm2"]
     assert plan.design.sums_of_squares == 2
     assert plan.model_terms == (("baseline_area",), ("cohort",), ("dose",))

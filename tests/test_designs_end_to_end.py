@@ -187,8 +187,8 @@ def test_repeated_measures_match_pingouin(tmp_path):
     assert between.residual_df == reference.iloc[0]["DF2"]
     assert within.residual_df == reference[reference.Source == "visit"].iloc[0]["DF2"]
     ref_visit = reference[reference.Source == "visit"].iloc[0]
-    assert model.sphericity.greenhouse_geisser == pytest.approx(ref_visit["eps"], rel=1e-9)
-    assert model.sphericity.mauchly_w == pytest.approx(ref_visit["W_spher"], rel=1e-9)
+    assert model.tables[1].sphericity.greenhouse_geisser == pytest.approx(ref_visit["eps"], rel=1e-9)
+    assert model.tables[1].sphericity.mauchly_w == pytest.approx(ref_visit["W_spher"], rel=1e-9)
 
 
 def test_dunnett_on_marginal_means_of_a_balanced_design(tmp_path):
@@ -263,7 +263,7 @@ multiplicity: {method: none}
     visit = next(r for r in model.tables[1].rows if r.term == ("visit",))
     assert visit.statistic == pytest.approx(reference["F"], rel=1e-9)
     assert (visit.df, model.tables[1].residual_df) == (reference["ddof1"], reference["ddof2"])
-    assert model.sphericity.greenhouse_geisser == pytest.approx(reference["eps"], rel=1e-9)
+    assert model.tables[1].sphericity.greenhouse_geisser == pytest.approx(reference["eps"], rel=1e-9)
     # The linear trend is a one-sample t test of each unit's trend score (scipy as reference).
     from scipy import stats
 

@@ -50,7 +50,7 @@ def test_both_strata_sphericity_slopes_and_the_registered_family(run):
     assert [r["term"] for r in within["rows"]] == [["visit"], ["coating", "visit"]]
     assert all(r["gg_p"] is not None for r in within["rows"])
     assert model["n_units"] == 67  # 72 pots, 5 with a missed visit (complete units only)
-    assert model["sphericity"]["greenhouse_geisser"] <= 1.0
+    assert model["tables"][1]["sphericity"]["greenhouse_geisser"] <= 1.0
     assert [s["covariate"] for s in model["slopes"]] == ["baseline seedling height"]
     (family,) = model["contrasts"]
     assert family["multiplicity"] == "holm" and len(family["hypotheses"]) == 2 + 3 * 2

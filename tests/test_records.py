@@ -86,11 +86,12 @@ def test_within_design_records_one_row_per_unit_and_level(tmp_path):
     records = read_records(tmp_path)
     source = _csv_rows(GREENHOUSE.parent / computed.loaded.plan.data.source)
     plan = computed.loaded.plan
-    within = plan.within.name
+    (within_factor,) = plan.within_factors
+    within = within_factor.name
     assert records.within_factor == within
     assert [r.key for r in records.rows] == [(row[plan.data.unit], row[within]) for row in source]
     data = computed.dataset.outcomes[0]
-    levels = plan.within.levels
+    levels = within_factor.levels
     position = [f.name for f in plan.design.factors].index(within)
     analysed = {(u, levels[int(c)]) for u, c in zip(data.units, data.factors[position])}
     column = plan.outcomes[0].data_column

@@ -55,7 +55,7 @@ def test_the_effect_interval_is_on_the_corrected_df_and_the_appendix_says_so(tmp
         computed = _within_only(tmp_path, seed)
         (model,) = computed.results.outcomes
         row = _within_row(model)
-        assert model.sphericity.greenhouse_geisser < 0.5
+        assert model.tables[1].sphericity.greenhouse_geisser < 0.5
         (sentence,) = [c.sentence for c in model.conclusions]
         stated = re.search(r"partial η² = \S+ \(90% CI \[([.\d]+), ([.\d]+)\]\)", sentence)
         rejected = "is rejected" in sentence

@@ -1,11 +1,11 @@
 """Plan + `Table` -> `Dataset`: the one builder, for every design (one factor or several,
-blocks, covariates, a within-unit factor with one row per unit and within level).
+blocks, covariates, within-unit factors with one row per unit and cell of their grid).
 
 Checks, all collected into one `DataError` and worded by `appendix.data.problems`:
 
 - every column the plan names exists;
-- unit identifiers are present, each unit once, or, with a within factor, each (unit,
-  within level) once;
+- unit identifiers are present, each unit once, or, with within factors, each unit once
+  per cell of their grid;
 - every cell of a factor is one of its levels (its text, spaces trimmed, or for
   number-like levels its value: `appendix.data.levels`, each spelling read by value
   becoming a finding);
@@ -15,8 +15,10 @@ Checks, all collected into one `DataError` and worded by `appendix.data.problems
 
 Exclusions apply in plan order and set a whole unit aside when any of its rows matches
 (`appendix.data.exclusions`); cells of excluded units are not checked as outcomes. A unit
-without a covariate value is not analysed (counted as missing); with a within factor,
-only units with a value at every within level are analysed (the registered rule
+without a value of a covariate is not analysed for the outcomes that covariate adjusts
+(`Covariate.outcomes`; counted as missing); an outcome's `OutcomeData.covariates` hold
+its own covariates, in plan order (`Plan.covariates_for`); with within factors, only
+units with a value at every cell of the within grid are analysed (the registered rule
 ``complete-units``). Counts in the unit flow are of units, per cell of the crossed
 treatment factors (per level when there is one).
 """
@@ -70,14 +72,14 @@ def build_from_table(loaded: LoadedPlan, table: Table, inputs: tuple, delimited:
         codes[factor.name], found, respelled[factor.name] = _level_codes(table, factor.name,
                                                                          factor.levels, where)
         problems += found
-    within = plan.within
+    within = plan.within_factors
     rows_of = table.rows_of(plan.data.unit)
     problems += _unit_problems(table, rows_of, plan.data.unit, where, within,
-                               codes[within.name] if within is not None else None)
+                               within_codes(plan, codes) if within else None)
     if problems:
         raise DataError(problems)
     # A between-unit factor must name one level on all of a unit's rows (1 and 1.0 do).
-    if within is not None:
+    if within:
         problems += _varying(table, rows_of, [f.name for f in plan.between], where, codes)
         problems += _varying(table, rows_of, [c.data_column for c in plan.design.covariates], where)
     covariates, bad = _covariates(loaded, table, rows_of, where)
@@ -110,7 +112,7 @@ def design_findings(loaded: LoadedPlan, flow: UnitFlow, lacking: dict[str, int],
                     respelled: dict[str, dict[tuple[str, int], int]]) -> tuple[Finding, ...]:
     """Cells read as a level by value (`respelled`: per factor name, cells per (spelling,
     code)), the flow's findings, eligible units without a covariate value (`lacking`, per
-    covariate name), and, with a within factor, units left out as incomplete."""
+    covariate name), and, with within factors, units left out as incomplete."""
     plan = loaded.plan
     findings = tuple(f for factor in plan.design.factors
                      for f in reading_findings(factor.name, factor.levels, respelled.get(factor.name, {})))
@@ -118,7 +120,7 @@ def design_findings(loaded: LoadedPlan, flow: UnitFlow, lacking: dict[str, int],
     findings += flow_findings(plan, flow, grouping=(CROSS.join(f.label or f.name for f in plan.treatments)
                                                     or ALL_UNITS) if crossed else None)
     findings += _lacking_covariates(plan, lacking)
-    if plan.within is not None:
+    if plan.within_factors:
         findings += _incomplete(plan, flow.outcomes, "repeated.missing" not in loaded.defaulted)
     return findings
 
@@ -153,35 +155,57 @@ def _level_codes(table: Table, column: str, levels: Sequence[str], where: str
     return codes, problems, respelled
 
 
+def within_codes(plan, codes: dict[str, Sequence[int]]) -> list[int]:
+    """Each row's cell of the within grid (`Plan.within_cells`, first factor slowest);
+    -1 where a within factor's cell is read as no level."""
+    cells = [0] * len(codes[plan.within_factors[0].name])
+    for factor in plan.within_factors:
+        column, size = codes[factor.name], len(factor.levels)
+        cells = [-1 if cell < 0 or column[i] < 0 else cell * size + column[i]
+                 for i, cell in enumerate(cells)]
+    return cells
+
+
 def _unit_problems(table: Table, rows_of: dict[str, list[int]], column: str, where: str,
-                   within=None, within_codes: Sequence[int] | None = None) -> list[Problem]:
-    """Rows without a unit identifier, and units (with a within factor: (unit, within
-    level) pairs) on more than one row; `rows_of` holds the rows of each unit text."""
+                   within=(), within_codes: Sequence[int] | None = None) -> list[Problem]:
+    """Rows without a unit identifier, and units (with within factors: a unit at one cell
+    of their grid) on more than one row; `rows_of` holds the rows of each unit text."""
     absent = MISSING_TEXTS.intersection(rows_of)  # the keys are trimmed texts
     empty = sorted(i for unit in absent for i in rows_of[unit])
-    if within is None:
+    if not within:
         repeated = [(unit, rows) for unit, rows in rows_of.items() if len(rows) > 1 and unit not in absent]
     else:
         pairs: dict[tuple[str, int], list[int]] = defaultdict(list)
         for unit, rows in rows_of.items():
             for i in rows if unit not in absent else ():
                 pairs[(unit, within_codes[i])].append(i)
-        repeated = sorted(((pair, rows) for pair, rows in pairs.items() if len(rows) > 1),
+        # a cell read as no level (code -1) is reported as such, not as a repeat
+        repeated = sorted(((pair, rows) for pair, rows in pairs.items()
+                           if len(rows) > 1 and pair[1] >= 0),
                           key=lambda item: item[1][0])
     problems = [say.no_unit(where, column, table.lines_of(empty))] if empty else []
     for key, rows in repeated[:LISTED]:
-        if within is None:
+        if not within:
             problems.append(say.repeated_unit(where, column, key, table.lines_of(rows)))
         else:
             unit, code = key
             problems.append(say.repeated_unit(where, column, unit, table.lines_of(rows),
-                                              within=within, level=within.levels[code]))
+                                              within=within, levels=_cell_levels(within, code)))
     problems.sort(key=lambda p: p.line or 0)
     if len(repeated) > LISTED:
-        kind = "repeated units" if within is None else "repeated pairs"
+        kind = "repeated units" if not within else "repeated pairs"
         problems.append(say.more(where, column, len(repeated) - LISTED, kind,
                                  table.lines[repeated[LISTED][1][1]]))
     return problems
+
+
+def _cell_levels(within, code: int) -> list[str]:
+    """The level of each within factor at cell `code` of their grid (first slowest)."""
+    levels = []
+    for factor in reversed(within):
+        code, at = divmod(code, len(factor.levels))
+        levels.append(factor.levels[at])
+    return levels[::-1]
 
 
 def _varying(table: Table, rows_of: dict[str, list[int]], columns: list[str], where: str,
@@ -247,7 +271,6 @@ def _outcome(plan, table, outcome, eligible, rows_of, codes, covariates, cell, l
     """(OutcomeData, OutcomeFlow, problems) of one outcome."""
     column = outcome.data_column
     cells = table.column(column)
-    within = plan.within
     values: list[float | None] = [None] * table.n_rows
     bad = []
     for unit in eligible:
@@ -259,17 +282,17 @@ def _outcome(plan, table, outcome, eligible, rows_of, codes, covariates, cell, l
                     bad.append(i)
     bad.sort()
     problems = _number_problems(table, column, bad, where)
-    levels_needed = len(within.levels) if within is not None else 1
-    of_units = [covariates[c.name] for c in plan.design.covariates]
+    levels_needed = len(plan.within_cells) or 1
+    of_units = [covariates[c.name] for c in plan.covariates_for(outcome.name)]
     analysed = [u for u in eligible
                 if len(rows_of[u]) == levels_needed and None not in [values[i] for i in rows_of[u]]
                 and all(values_of[u] is not None for values_of in of_units)]
     kept = set(analysed)
-    # Rows unit by unit (units in order of first appearance), a unit's rows by within level.
-    if within is None:
+    # Rows unit by unit (units in order of first appearance), a unit's rows by within cell.
+    if not plan.within_factors:
         rows = [rows_of[u][0] for u in analysed]
     else:
-        occasion = codes[within.name]
+        occasion = within_codes(plan, codes)
         rows = [i for u in analysed for i in sorted(rows_of[u], key=occasion.__getitem__)]
     unit_cells = table.column(plan.data.unit)
     units = tuple(str(unit_cells[i]).strip() for i in rows)
@@ -299,21 +322,27 @@ def _lacking_covariates(plan, counts: dict[str, int]) -> tuple[Finding, ...]:
     for covariate in plan.design.covariates:
         lacking = counts[covariate.name]
         if lacking:
+            named = covariate.outcomes
+            where = ("" if named is None or set(named) == {o.name for o in plan.outcomes}
+                     else f" for {'outcome' if len(named) == 1 else 'outcomes'} {', '.join(named)}"
+                          " (the outcomes it adjusts)")
             found.append(Finding("covariate-missing",
                                  f"{lacking} eligible unit{'s' if lacking != 1 else ''} without a value of "
-                                 f"the covariate {covariate.label}: not analysed."))
+                                 f"the covariate {covariate.label}: not analysed{where}."))
     return tuple(found)
 
 
 def _incomplete(plan, flows, stated: bool) -> tuple[Finding, ...]:
-    within = plan.within
+    within = plan.within_factors
+    grid = (f"level of {within[0].label or within[0].name}" if len(within) == 1 else
+            "cell of " + CROSS.join(f.label or f.name for f in within))
     found = []
     for flow in flows:
         left = sum(c.n for c in flow.missing)
         if left:
             found.append(Finding("incomplete-units",
                                  f"Outcome {flow.outcome}: {left} eligible unit{'s' if left != 1 else ''} "
-                                 f"without a value at every level of {within.label or within.name} (or "
+                                 f"without a value at every {grid} (or "
                                  "without a covariate value) left out: complete units only, "
                                  + ("as registered." if stated else "by default (the plan states no "
                                     "rule for missing occasions).")))

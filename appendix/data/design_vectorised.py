@@ -53,12 +53,12 @@ def build_design_vectorised(loaded: LoadedPlan, columns: Columns) -> Dataset | N
         codes[factor.name], respelled[factor.name] = found
     unit = _dictionary_codes(units)  # unit index of every row, in order of first appearance
     n_units = int(unit.max()) + 1
-    within = plan.within
+    within = _within_codes(plan, codes)
     if within is None:
         if not all_distinct(units):
             return None
     else:
-        pair = unit * len(within.levels) + codes[within.name]
+        pair = unit * len(plan.within_cells) + within
         if np.unique(pair).size != n:
             return None
     first = _first_rows(unit, n_units)
@@ -88,14 +88,12 @@ def build_design_vectorised(loaded: LoadedPlan, columns: Columns) -> Dataset | N
                                          reason=rule.reason, by_level=count_levels(cell[hit], labels),
                                          total=int(hit.sum())))
     eligible = ~excluded
-    has_covariates = np.ones(n_units, dtype=bool)
-    for values in covariates.values():
-        has_covariates &= ~np.isnan(values)
-    needed = len(within.levels) if within is not None else 1
+    needed = len(plan.within_cells) or 1
     outcomes, flows = [], []
     for outcome in plan.outcomes:
-        built = _outcome(plan, outcome, columns, unit, first, codes, covariates, cell, labels,
-                         eligible, has_covariates, needed)
+        own = {c.name: covariates[c.name] for c in plan.covariates_for(outcome.name)}
+        built = _outcome(plan, outcome, columns, unit, first, codes, within, own, cell, labels,
+                         eligible, needed)
         if built is None:
             return None
         outcomes.append(built[0])
@@ -108,9 +106,10 @@ def build_design_vectorised(loaded: LoadedPlan, columns: Columns) -> Dataset | N
                    findings=design_findings(loaded, flow, lacking, respelled))
 
 
-def _outcome(plan, outcome, columns, unit, first, codes, covariates, cell, labels, eligible,
-             has_covariates, needed):
-    """(OutcomeData, OutcomeFlow) of one outcome, or None when a cell is not a number."""
+def _outcome(plan, outcome, columns, unit, first, codes, within, covariates, cell, labels,
+             eligible, needed):
+    """(OutcomeData, OutcomeFlow) of one outcome, or None when a cell is not a number;
+    `covariates` are the outcome's own (each unit's value, NaN where missing)."""
     import pyarrow.compute as pc
 
     texts = columns.cells[outcome.data_column]
@@ -126,11 +125,13 @@ def _outcome(plan, outcome, columns, unit, first, codes, covariates, cell, label
         return None
     values[rows] = parsed
     present = np.bincount(unit[rows], minlength=first.size)
+    has_covariates = np.ones(first.size, dtype=bool)
+    for known in covariates.values():
+        has_covariates &= ~np.isnan(known)
     analysed = eligible & has_covariates & (present == needed)
     rows = np.flatnonzero(analysed[unit])
-    within = plan.within
-    if within is not None:  # unit by unit (first appearance), a unit's rows by within level
-        rows = rows[np.lexsort((codes[within.name][rows], unit[rows]))]
+    if within is not None:  # unit by unit (first appearance), a unit's rows by within cell
+        rows = rows[np.lexsort((within[rows], unit[rows]))]
     kept = values[rows]
     data = OutcomeData(
         name=outcome.name, values=_read_only(kept),
@@ -139,10 +140,20 @@ def _outcome(plan, outcome, columns, unit, first, codes, covariates, cell, label
         lines=LineRows(rows, 2, columns.line_of),
         decimals=decimal_places(texts.take(arrow_indices(rows)), kept),
         factors=tuple(_read_only(codes[f.name][rows]) for f in plan.design.factors),
-        covariates=tuple(_read_only(covariates[c.name][unit[rows]]) for c in plan.design.covariates))
+        covariates=tuple(_read_only(known[unit[rows]]) for known in covariates.values()))
     flow = OutcomeFlow(outcome=outcome.name, missing=count_levels(cell[eligible & ~analysed], labels),
                        analysed=count_levels(cell[analysed], labels))
     return data, flow
+
+
+def _within_codes(plan, codes) -> np.ndarray | None:
+    """Each row's cell of the within grid (first within factor slowest); None without one."""
+    if not plan.within_factors:
+        return None
+    cell = np.zeros(len(codes[plan.within_factors[0].name]), dtype=np.int64)
+    for factor in plan.within_factors:
+        cell = cell * len(factor.levels) + codes[factor.name]
+    return cell
 
 
 def _factor_codes(column, levels) -> tuple[np.ndarray, dict] | None:

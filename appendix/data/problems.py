@@ -68,14 +68,19 @@ def no_unit(where: str, column: str, lines: Sequence[int], total: int | None = N
 
 
 def repeated_unit(where: str, column: str, unit: str, lines: Sequence[int],
-                  total: int | None = None, within=None, level: str | None = None) -> Problem:
-    """A unit on several rows; with a within factor, a (unit, within level) pair."""
-    if within is None:
+                  total: int | None = None, within: Sequence = (),
+                  levels: Sequence[str] = ()) -> Problem:
+    """A unit on several rows; with within factors (`within`), a unit at one cell of their
+    grid (`levels`, one per within factor)."""
+    if not within:
         return Problem(where, lines[1], column, f"unit {show(unit)} appears on "
                        f"{on_lines(lines, total)}; each unit must appear once")
+    at = ", ".join(f"{factor.name} {show(level)}" for factor, level in zip(within, levels))
+    per = (f"level of {within[0].name}" if len(within) == 1
+           else "cell of " + " \u00d7 ".join(f.name for f in within))
     return Problem(where, lines[1], column,
-                   f"unit {show(unit)} at {within.name} {show(level)} appears on "
-                   f"{on_lines(lines, total)}; each unit must appear once per level of {within.name}")
+                   f"unit {show(unit)} at {at} appears on {on_lines(lines, total)}; each unit must "
+                   f"appear once per {per}")
 
 
 def not_a_level(where: str, column: str, text: str, lines: Sequence[int], levels: Sequence[str],

@@ -10,7 +10,7 @@ from __future__ import annotations
 from collections.abc import Mapping
 from itertools import combinations
 
-from appendix.plan.raw import Found, items, mapping, unique
+from appendix.plan.raw import Found, items, mapping, repeats, unique
 from appendix.plan.raw_design import RawDesign, RawFactor
 from appendix.plan.wording import Loc, did_you_mean, one_of, show
 
@@ -25,7 +25,7 @@ def design_problems(raw: Mapping) -> list[Found]:
     found = unique([(("design", "factors"), section.get("factors"))], "name", "factor names")
     found += _roles(design)
     found += _interactions(section.get("interactions"), design)
-    found += _covariates(section.get("covariates"), design)
+    found += _covariates(section.get("covariates"), design, _outcome_names(raw))
     if design.roles_valid:
         found += _terms(section, raw, design)
     return found
@@ -33,11 +33,6 @@ def design_problems(raw: Mapping) -> list[Found]:
 
 def _roles(design: RawDesign) -> list[Found]:
     found: list[Found] = []
-    within = design.with_role("within")
-    for factor in within[1:]:
-        found.append(((*factor.loc, "role"),
-                      f"got 'within' again; allowed: at most one within factor "
-                      f"(first at factors[{within[0].index}])"))
     for factor in design.with_role("block"):
         found += _block(factor)
     if (design.roles_valid and design.factors and not design.with_role("treatment")
@@ -129,9 +124,15 @@ def _interaction_names(loc: Loc, entry: list | tuple, names: list[str],
     return found
 
 
-def _covariates(listed: object, design: RawDesign) -> list[Found]:
+def _outcome_names(raw: Mapping) -> tuple[str, ...]:
+    return tuple(o["name"] for _, o in items(raw.get("outcomes")) if isinstance(o.get("name"), str))
+
+
+def _covariates(listed: object, design: RawDesign, outcomes: tuple[str, ...]) -> list[Found]:
     found = unique([(("design", "covariates"), listed)], "name", "covariate names")
     for i, entry in items(listed):
+        found += _covariate_outcomes(("design", "covariates", i, "outcomes"), entry.get("outcomes"),
+                                     outcomes)
         name = entry.get("name")
         # Without `column` the name is the column, and the column check reports it.
         if design.named(name) is not None and entry.get("column") is not None:
@@ -139,6 +140,17 @@ def _covariates(listed: object, design: RawDesign) -> list[Found]:
                           f"got {show(name)}, which names a factor; allowed: a name of its own "
                           "(terms are named by it)"))
     return found
+
+
+def _covariate_outcomes(loc: Loc, named: object, outcomes: tuple[str, ...]) -> list[Found]:
+    """A covariate's `outcomes` name registered outcomes, each once."""
+    if not isinstance(named, (list, tuple)):
+        return []
+    found: list[Found] = [((*loc, j), f"got {show(name)}; allowed: one of the outcomes "
+                                      f"{one_of(outcomes)}{did_you_mean(name, outcomes)}")
+                          for j, name in enumerate(named)
+                          if isinstance(name, str) and outcomes and name not in outcomes]
+    return found + repeats(loc, named, "each outcome must be named once")
 
 
 def _terms(section: Mapping, raw: Mapping, design: RawDesign) -> list[Found]:

@@ -4,8 +4,8 @@ These models are the single source of the study-file schema: validation, the pub
 JSON Schema (`schema/study.schema.json`) and the frozen plan that the pipeline passes on
 are all derived from them. Unknown keys are errors (``extra="forbid"``).
 
-Format 1 holds one or more crossed factors (treatments, blocks, at most one within-unit
-factor), explicit interactions and covariates; a plan written for one treatment factor
+Format 1 holds one or more crossed factors (treatments, blocks, within-unit factors),
+explicit interactions and covariates; a plan written for one treatment factor
 keeps its meaning and its canonical JSON, because every key added since is left out of
 the dump while it holds its default. Planned contrasts, their multiplicity control,
 registered fallbacks and exploratory analyses are optional keys.
@@ -14,6 +14,7 @@ registered fallbacks and exploratory analyses are optional keys.
 from __future__ import annotations
 
 import datetime as _dt
+import itertools
 from typing import Annotated, Literal
 
 from pydantic import (
@@ -202,7 +203,16 @@ class _Measured(_Frozen):
 
 
 class Covariate(_Measured):
-    """A registered covariate: adjusted for at its mean, one common slope across cells."""
+    """A registered covariate: adjusted for at its mean, one common slope across cells, in
+    the analyses of the outcomes it names (default: every outcome; a baseline of one
+    outcome is no covariate of another)."""
+
+    outcomes: tuple[str, ...] | None = Field(
+        default=None, min_length=1, exclude_if=_is(None),
+        description="Outcome names it adjusts (default: all outcomes).")
+
+    def applies_to(self, outcome: str) -> bool:
+        return self.outcomes is None or outcome in self.outcomes
 
 
 class Design(_Frozen):
@@ -227,11 +237,11 @@ class Outcome(_Measured):
 
 
 class Repeated(_Frozen):
-    """The registered rule for missing repeated observations of a within factor."""
+    """The registered rule for missing repeated observations of the within factors."""
 
     missing: Literal["complete-units"] = Field(
         default="complete-units",
-        description="complete-units: a unit missing any level of the within factor is left out.")
+        description="complete-units: a unit missing any cell of the within factors' grid is left out.")
 
 
 class Outliers(_Frozen):
@@ -402,7 +412,7 @@ class Plan(_Frozen):
         default=(), description="Analyses not in the plan: reported apart, never in conclusions.")
     repeated: Repeated | None = Field(
         default=None, exclude_if=_is(None),
-        description="With a within factor only: the rule for missing repeated observations.")
+        description="With within factors only: the rule for missing repeated observations.")
     deviations: tuple[Acknowledgement, ...] = Field(
         default=(), exclude_if=_is(()),
         description="Acknowledged deviations from the registered plan, each with a justification; "
@@ -434,8 +444,8 @@ class Plan(_Frozen):
     @property
     def factor(self) -> Factor:
         """The single treatment factor of a one-way plan; otherwise the first treatment
-        factor, or, in a design of repeated measures alone, the within factor."""
-        return (self.treatments or (self.within,))[0]
+        factor, or, in a design of repeated measures alone, the first within factor."""
+        return (self.treatments or self.within_factors)[0]
 
     @property
     def treatments(self) -> tuple[Factor, ...]:
@@ -454,14 +464,43 @@ class Plan(_Frozen):
         return self.design.sums_of_squares or 2
 
     @property
-    def within(self) -> Factor | None:
-        """The within-unit (repeated-measures) factor, if any."""
-        return next((f for f in self.design.factors if f.role == "within"), None)
+    def within_factors(self) -> tuple[Factor, ...]:
+        """The within-unit (repeated-measures) factors, in plan order; every unit is observed
+        at each cell of their crossed levels (the within grid, first factor slowest)."""
+        return tuple(f for f in self.design.factors if f.role == "within")
+
+    def is_within(self, name: str) -> bool:
+        """Whether `name` is a within-unit factor of the design."""
+        return any(f.name == name for f in self.within_factors)
+
+    @property
+    def within_cells(self) -> tuple[str, ...]:
+        """The cells of the within grid, first within factor slowest, each named by its
+        levels joined by ' × ' (a single within factor: its levels); empty without one."""
+        if not self.within_factors:
+            return ()
+        return tuple(" \u00d7 ".join(levels) for levels in
+                     itertools.product(*(f.levels for f in self.within_factors)))
 
     @property
     def between(self) -> tuple[Factor, ...]:
         """The between-unit factors (treatments and blocks), in plan order."""
         return tuple(f for f in self.design.factors if f.role != "within")
+
+    def for_outcome(self, name: str) -> Plan:
+        """The plan as the outcome called `name` sees it: its design holds only the
+        covariates that apply to that outcome (`Covariate.outcomes`). Every stage that
+        analyses, words or draws one outcome takes this plan, so there is one path.
+
+        The copy is not validated again (its checks held on the whole plan)."""
+        kept = self.covariates_for(name)
+        if kept == self.design.covariates:
+            return self
+        return self.model_copy(update={"design": self.design.model_copy(update={"covariates": kept})})
+
+    def covariates_for(self, name: str) -> tuple[Covariate, ...]:
+        """The covariates that adjust the outcome called `name`, in plan order."""
+        return tuple(c for c in self.design.covariates if c.applies_to(name))
 
     def factor_named(self, name: str) -> Factor:
         """The factor called `name`; KeyError when the design has none."""
@@ -489,7 +528,7 @@ class Plan(_Frozen):
             ("more than one treatment factor", len(self.treatments) > 1),
             ("blocks", bool(self.blocks)),
             ("covariates", bool(design.covariates)),
-            ("repeated measures", self.within is not None)) if present]
+            ("repeated measures", bool(self.within_factors))) if present]
         listed = ", ".join(has[:-1]) + (" and " if len(has) > 1 else "") + has[-1] if has else "another layout"
         return ("Welch's test and the Kruskal-Wallis test are defined for one treatment factor "
                 f"without blocks, covariates or repeated measures; this design has {listed}, "
@@ -511,15 +550,32 @@ class Plan(_Frozen):
                 *sorted(interactions, key=len))
 
     @property
-    def within_terms(self) -> tuple[tuple[str, ...], ...]:
-        """The within-unit terms: the within factor, then the listed interactions that contain
-        it (lower orders first, names in plan order); empty without a within factor."""
-        if self.within is None:
-            return ()
+    def within_strata(self) -> tuple[tuple[str, ...], ...]:
+        """The within-unit error strata, each named by its term of within factors alone: every
+        within factor (plan order), then the listed interactions among within factors only
+        (lower orders first, names in plan order). A term's within factors name the
+        stratum it is tested in (unit x those factors); an interaction of within factors
+        that is not listed is no stratum, and nothing is tested in its contrasts."""
+        within = [f.name for f in self.within_factors]
+        crossed = [tuple(n for n in within if n in term) for term in self.design.interactions
+                   if set(term) <= set(within)]
+        return (*((n,) for n in within), *sorted(crossed, key=len))
+
+    def stratum_terms(self, stratum: tuple[str, ...]) -> tuple[tuple[str, ...], ...]:
+        """The terms tested in the within stratum `stratum`: the stratum's own term, then
+        the listed interactions of between-unit factors with exactly its within factors
+        (lower orders first, names in plan order)."""
         names = [f.name for f in self.design.factors]
-        interactions = [tuple(n for n in names if n in term) for term in self.design.interactions
-                        if self.within.name in term]
-        return ((self.within.name,), *sorted(interactions, key=len))
+        within = {f.name for f in self.within_factors}
+        mixed = [tuple(n for n in names if n in term) for term in self.design.interactions
+                 if set(term) & within == set(stratum) and not set(term) <= within]
+        return (tuple(stratum), *sorted(mixed, key=len))
+
+    @property
+    def within_terms(self) -> tuple[tuple[str, ...], ...]:
+        """The within-unit terms, stratum by stratum (`within_strata`, `stratum_terms`);
+        empty without a within factor."""
+        return tuple(term for stratum in self.within_strata for term in self.stratum_terms(stratum))
 
     def factor_of(self, contrast: Contrast) -> Factor:
         """The factor a contrast compares the levels of: its `factor`, else `Plan.factor`."""

@@ -59,6 +59,8 @@ def _checked(folder: Path, case: Case) -> bool:
     assert "Traceback" not in err.getvalue()
     event("check accepted" if code == 0 else "check refused the data")
     event(f"design: {case.shape}")
+    if any("outcomes" in c for c in case.plan["design"].get("covariates", [])):
+        event("a covariate of some outcomes only")
     event(f"multiplicity: {case.plan.get('multiplicity', {}).get('method', 'holm')}")
     return code == 0
 
@@ -146,8 +148,8 @@ def test_sphericity_of_repeated_measures_without_residual_variation(tmp_path):
     plan = WITHIN_ONLY + "outcomes:\n  - {name: y, label: Score, role: primary}\n"
     values = {"u1": [10, 11, 13], "u2": [12, 13, 15], "u3": [9, 10, 12], "u4": [7, 8, 10]}
     (model,) = api.compute(_study(tmp_path, plan, _long(values))).results.outcomes
-    assert model.sphericity.greenhouse_geisser is None and model.sphericity.huynh_feldt is None
-    assert [w.code for w in model.sphericity.warnings] == ["sphericity-undefined"]
+    assert model.tables[1].sphericity.greenhouse_geisser is None and model.tables[1].sphericity.huynh_feldt is None
+    assert [w.code for w in model.tables[1].sphericity.warnings] == ["sphericity-undefined"]
     assert model.tables[1].rows[0].statistic is None
 
 

@@ -1,11 +1,12 @@
 """Valid study files and data that fit them, as a hypothesis strategy.
 
 `cases()` draws a plan that the study-file schema accepts (every choice of the plan model:
-factor roles and levels, blocks, covariates, a within factor, interactions, outcome roles,
+factor roles and levels, blocks, covariates (for every outcome or some), one or two within
+factors, interactions, outcome roles,
 every contrast kind with `by`, `outcomes` and one-sided alternatives, every multiplicity
 method and scope, exploratory entries, exclusions, fallbacks, outlier thresholds, planned
 numbers, acknowledgements) together with a small CSV of invented values laid out as the
-plan says (one row per unit, or per unit and within level). Some data are awkward on
+plan says (one row per unit, or per unit and cell of the within grid). Some data are awkward on
 purpose: missing cells, a level or a whole cell without units, excluded units, constant
 outcomes or covariates, a single unit per cell, levels spelled by value.
 
@@ -44,11 +45,12 @@ class Case:
 
     @property
     def shape(self) -> str:
-        """The kind of design: one factor, between-unit factors only, or a within factor."""
+        """The kind of design: one factor, between-unit factors only, a within factor, or two."""
         roles = [_role(f) for f in self.plan["design"]["factors"]]
         if roles == ["treatment"] and not self.plan["design"].get("covariates"):
             return "one factor"
-        return "with a within factor" if "within" in roles else "between-unit factors"
+        return {0: "between-unit factors", 1: "with a within factor"}.get(roles.count("within"),
+                                                                          "with two within factors")
 
 
 def _subset(draw, items, least: int, most: int | None = None) -> list:
@@ -84,14 +86,15 @@ def _factor(draw, name: str, role: str, count: int) -> dict:
 
 
 def _roles(draw) -> list[str]:
-    """One treatment factor, several between-unit factors, or a within factor with others."""
-    shape = draw(st.sampled_from(["one factor", "between", "within", "one factor"]))
+    """One treatment factor, several between-unit factors, or one or two within factors with
+    others."""
+    shape = draw(st.sampled_from(["one factor", "between", "within", "one factor", "two within"]))
     if shape == "one factor":
         return ["treatment"]
-    first = "within" if shape == "within" else "treatment"
+    first = {"within": ["within"], "two within": ["within", "within"]}.get(shape, ["treatment"])
     extra = draw(st.lists(st.sampled_from(["treatment", "block"]), min_size=shape == "between",
-                          max_size=2))
-    return list(draw(st.permutations([first, *extra])))
+                          max_size=2 if shape != "two within" else 1))
+    return list(draw(st.permutations([*first, *extra])))
 
 
 def _closed(terms: list[frozenset]) -> list[list[str]]:
@@ -235,6 +238,9 @@ def plans(draw) -> dict:
     if len(outcomes) > 1 and draw(st.integers(0, 3)) == 0:  # two outcomes may read one column
         outcomes[1]["column"] = outcomes[0].get("column", outcomes[0]["name"])
     outcome_names = [o["name"] for o in outcomes]
+    for covariate in covariates:  # a baseline of one outcome is no covariate of the other
+        if draw(st.integers(0, 2)) == 0:
+            covariate["outcomes"] = _subset(draw, outcome_names, 1)
     method = draw(st.sampled_from((*METHODS, "fixed-sequence")))
     if method == "dunnett" and not any("control" in f for f in factors if _role(f) != "block"):
         method = "holm"
@@ -287,15 +293,16 @@ def plans(draw) -> dict:
     return plan
 
 
-def _cells(plan: dict) -> tuple[list[dict], dict | None]:
+def _cells(plan: dict) -> tuple[list[dict], list[dict]]:
     factors = plan["design"]["factors"]
-    within = next((f for f in factors if _role(f) == "within"), None)
-    return [f for f in factors if f is not within], within
+    within = [f for f in factors if _role(f) == "within"]
+    return [f for f in factors if _role(f) != "within"], within
 
 
 def data_for(plan: dict, quirks: tuple[str, ...], seed: int) -> str:
     """A CSV that fits `plan`: every cell of the between-unit factors crossed, 1 to 4 units
-    in each, values drawn from a seeded generator, with the awkward `quirks`."""
+    in each, each unit on one row per cell of the within grid, values drawn from a seeded
+    generator, with the awkward `quirks`."""
     rng = np.random.default_rng(seed)
     between, within = _cells(plan)
     outcomes = list(dict.fromkeys(o.get("column", o["name"]) for o in plan["outcomes"]))
@@ -307,8 +314,8 @@ def data_for(plan: dict, quirks: tuple[str, ...], seed: int) -> str:
         cells = [c for c in cells if c[factor] != gone]
     if "empty-cell" in quirks and len(cells) > 1:
         del cells[int(rng.integers(len(cells)))]
-    occasions = within["levels"] if within is not None else [None]
-    columns = [UNIT, *(f["name"] for f in between), *([within["name"]] if within else []),
+    occasions = list(itertools.product(*(f["levels"] for f in within))) if within else [None]
+    columns = [UNIT, *(f["name"] for f in between), *(f["name"] for f in within),
                *(c.get("column", c["name"]) for c in covariates),
                *outcomes, FLAG]
     rows = []
@@ -335,7 +342,7 @@ def data_for(plan: dict, quirks: tuple[str, ...], seed: int) -> str:
                 if "within-gap" in quirks and occasion is not None and rng.random() < 0.2:
                     continue  # no row for this unit at this level: the unit is incomplete
                 row = [f"u{unit}", *(level_text(v) for v in cell),
-                       *([level_text(occasion)] if within else []), *covariate_texts]
+                       *(level_text(v) for v in (occasion or ())), *covariate_texts]
                 for j in range(len(outcomes)):
                     if "constant-outcome" in quirks and j == 0:
                         value = 7.0

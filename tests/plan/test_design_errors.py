@@ -29,10 +29,6 @@ CASES = [
     # Roles.
     ("unknown role", factorial("role: block", "role: nuisance"),
      ["12: design.factors[2].role: got 'nuisance'; allowed: 'treatment', 'block' or 'within'"]),
-    ("two within factors",
-     factorial("{name: variety, levels", "{name: variety, role: within, levels"),
-     ["13: design.factors[3].role: got 'within' again; allowed: at most one within factor "
-      "(first at factors[1])"]),
     ("block with a control and an order",
      factorial("levels: [B1, B2, B3, B4]}", "levels: [B1, B2, B3, B4], control: B1, ordered: true}"),
      ["12: design.factors[2].control: got 'B1' for the block 'field_block'; allowed: no control "
@@ -106,6 +102,14 @@ CASES = [
     ("covariate named as a factor", factorial("{name: baseline,", "{name: visit,"),
      ["18: design.covariates[0].name: got 'visit', which names a factor; allowed: a name of its "
       "own (terms are named by it)"]),
+    ("covariate for an outcome the plan does not register",
+     factorial("unit: g}\n", "unit: g, outcomes: [mas, mass, mass]}\n"),
+     ["18: design.covariates[0].outcomes[0]: got 'mas'; allowed: one of the outcomes 'mass' or "
+      "'height'; did you mean 'mass'?",
+      "18: design.covariates[0].outcomes[2]: got 'mass' again; each outcome must be named once "
+      "(first at outcomes[1])"]),
+    ("covariate for no outcome", factorial("unit: g}\n", "unit: g, outcomes: []}\n"),
+     ["18: design.covariates[0].outcomes: got 0 items; allowed: at least 1 item"]),
     # Sums of squares.
     ("sums of squares missing", factorial("  sums_of_squares: 2\n", ""),
      [f"8: design.sums_of_squares: required key is missing for a design with {FACTORIAL_EXTENT}; "

@@ -26,7 +26,9 @@ def test_factorial_accessors(write_study):
     assert [f.role for f in plan.design.factors] == ["treatment", "treatment", "block", "within"]
     assert [f.name for f in plan.treatments] == ["coating", "variety"]
     assert [f.name for f in plan.blocks] == ["field_block"]
-    assert plan.within.name == "visit" and plan.within.levels == ("day7", "day14", "day21")
+    (visit,) = plan.within_factors
+    assert visit.name == "visit" and visit.levels == ("day7", "day14", "day21")
+    assert plan.within_cells == ("day7", "day14", "day21") and plan.within_strata == (("visit",),)
     assert [f.name for f in plan.between] == ["coating", "variety", "field_block"]
     assert plan.factor_named("field_block").levels == ("B1", "B2", "B3", "B4")
     assert plan.factor.name == "coating"  # the first treatment factor
@@ -69,7 +71,7 @@ def test_contrast_factor_defaults_to_the_only_treatment_factor(write_study):
     plan = load_plan(write_study(BLOCKED + "contrasts:\n  - {id: C1, kind: pairwise, label: x}\n")).plan
     assert plan.factor_of(plan.contrasts[0]).name == "arm"
     assert plan.hypothesis_count("pain") == 3
-    assert [f.name for f in plan.blocks] == ["site"] and plan.within is None
+    assert [f.name for f in plan.blocks] == ["site"] and plan.within_factors == ()
     assert plan.model_terms == (("site",), ("arm",))
     assert plan.is_one_way is False and plan.repeated is None
 
@@ -77,8 +79,8 @@ def test_contrast_factor_defaults_to_the_only_treatment_factor(write_study):
 def test_one_way_plan_keeps_its_meaning_and_canonical_json(write_study):
     plan = load_plan(write_study(BASE)).plan
     assert plan.is_one_way and plan.factor.role == "treatment"
-    assert (plan.treatments, plan.blocks, plan.within, plan.between) == (
-        (plan.factor,), (), None, (plan.factor,))
+    assert (plan.treatments, plan.blocks, plan.within_factors, plan.between) == (
+        (plan.factor,), (), (), (plan.factor,))
     assert plan.model_terms == (("arm",),) and plan.within_terms == ()
     assert (plan.design.interactions, plan.design.covariates, plan.design.sums_of_squares,
             plan.repeated) == ((), (), None, None)
@@ -108,6 +110,28 @@ def test_model_terms_put_lower_orders_first_and_names_in_plan_order(write_study)
         ("coating", "variety"), ("coating", "field_block"), ("variety", "field_block"),
         ("coating", "variety", "field_block"))
     assert plan.within_terms == (("visit",), ("variety", "visit"))
+
+
+def test_two_within_factors_and_their_strata(write_study):
+    # hour crossed with visit, both within units; [coating, visit, hour] needs every
+    # lower-order interaction it contains
+    text = variant("    - {name: visit, role: within, levels: [day7, day14, day21], ordered: true}\n",
+                   "    - {name: visit, role: within, levels: [day7, day14, day21], ordered: true}\n"
+                   "    - {name: hour, role: within, levels: [am, pm]}\n", FACTORIAL)
+    text = variant("    - [coating, visit]\n", "    - [coating, visit]\n    - [hour, visit]\n"
+                   "    - [coating, hour]\n    - [hour, coating, visit]\n", text)
+    plan = load_plan(write_study(text)).plan
+    assert [f.name for f in plan.within_factors] == ["visit", "hour"]
+    assert plan.within_cells == ("day7 \u00d7 am", "day7 \u00d7 pm", "day14 \u00d7 am",
+                                 "day14 \u00d7 pm", "day21 \u00d7 am", "day21 \u00d7 pm")
+    assert plan.within_strata == (("visit",), ("hour",), ("visit", "hour"))
+    assert plan.stratum_terms(("visit",)) == (("visit",), ("coating", "visit"))
+    assert plan.stratum_terms(("hour",)) == (("hour",), ("coating", "hour"))
+    assert plan.stratum_terms(("visit", "hour")) == (("visit", "hour"), ("coating", "visit", "hour"))
+    assert plan.within_terms == (("visit",), ("coating", "visit"), ("hour",), ("coating", "hour"),
+                                 ("visit", "hour"), ("coating", "visit", "hour"))
+    assert plan.model_terms[-1] == ("coating", "variety")  # within terms stay out of it
+    assert plan.factor.name == "coating" and plan.is_within("hour") and not plan.is_within("coating")
 
 
 def test_covariate_column_defaults_to_its_name(write_study):

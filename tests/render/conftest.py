@@ -85,7 +85,7 @@ def _primary(values: np.ndarray, codes: np.ndarray) -> R.OutcomeResult:
         role="primary", design="one treatment factor", n_units=len(values),
         n_observations=len(values), arithmetic="float64",
         descriptives=R.Descriptives(0.95, tuple(_group(lv, g) for lv, g in zip(LEVELS, groups))),
-        tables=(table,), marginal_means=(), slopes=(), sphericity=None,
+        tables=(table,), marginal_means=(), slopes=(),
         diagnostics=diagnostics,
         conclusions=(R.Conclusion(
             (f"Mean change in systolic blood pressure differed between the groups, "
@@ -242,7 +242,7 @@ def _degenerate() -> R.OutcomeResult:
         name="pain", label="Pain score", unit=None, role="secondary", design="one treatment factor",
         n_units=9, n_observations=9, arithmetic="float64",
         descriptives=R.Descriptives(0.95, summaries),
-        tables=(table,), marginal_means=(), slopes=(), sphericity=None,
+        tables=(table,), marginal_means=(), slopes=(),
         diagnostics=R.Diagnostics(None, (), None, ()),
         conclusions=(R.Conclusion(("The pain score could not be compared: every value was 2.",),
                                   "unavailable", None, 0.05),),

@@ -115,7 +115,7 @@ def test_as_registered_only_for_what_the_study_file_states(rendered, name):
                   for o in results["outcomes"] for t in o["tables"])
     assert bool(said) == several  # one term: every type gives the same table, none is named
     assert set(said) <= {"as registered" if stated_ss else "by default"}
-    if any(o["sphericity"] for o in results["outcomes"]):
+    if any(t.get("sphericity") for o in results["outcomes"] for t in o["tables"]):
         rule = "as registered" if "repeated.missing" not in defaults else "by default"
         assert f"complete units only, {rule}" in text
         assert f"complete units only, {'by default' if rule == 'as registered' else 'as registered'}" not in text
