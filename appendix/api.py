@@ -65,7 +65,6 @@ def load_data(loaded: LoadedPlan, *, out_of_core: bool | None = None) -> Dataset
     CSV/TSV by an estimate; see `appendix.data.outofcore.should_go_out_of_core`) is
     aggregated out of core by DuckDB; `out_of_core` forces either way.
     """
-    from appendix.data import outofcore
     from appendix.data.checksums import confirm_unchanged, fingerprint
 
     before = fingerprint(loaded.data_path)
@@ -77,10 +76,11 @@ def load_data(loaded: LoadedPlan, *, out_of_core: bool | None = None) -> Dataset
 def _load_data(loaded: LoadedPlan, out_of_core: bool | None) -> Dataset:
     from appendix.data import outofcore
 
+    one_factor = loaded.plan.data_route == "one-factor"
     if out_of_core is None:
-        out_of_core = loaded.plan.is_one_way and outofcore.should_go_out_of_core(loaded.data_path)
+        out_of_core = one_factor and outofcore.should_go_out_of_core(loaded.data_path)
     if out_of_core:
-        if not loaded.plan.is_one_way:
+        if not one_factor:
             raise UserError("out-of-core aggregation handles one-factor designs only in this "
                             "version; this plan has several factors, covariates or a within factor")
         return outofcore.build_dataset_out_of_core(loaded)
