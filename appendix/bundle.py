@@ -117,7 +117,7 @@ def _run_entries(run: Path, manifest: Mapping[str, Any]) -> dict[str, Content]:
     entries = {}
     for item in manifest.get("outputs", []):
         if not _inside(item["path"]):
-            raise UserError(f"{run / 'manifest.json'} lists an output outside the run folder: "
+            raise UserError(f"{run / MANIFEST_FILE} lists an output outside the run folder: "
                             f"{item['path']!r}")
         entries[f"run/{item['path']}"] = _checked(run / item["path"], item["sha256"],
                                                   "the run's output")
@@ -132,7 +132,7 @@ def _run_entries(run: Path, manifest: Mapping[str, Any]) -> dict[str, Content]:
 def _study_entries(manifest: Mapping[str, Any], run: Path) -> dict[str, Content]:
     """The study file, its lock and data under ``study/``, checked against the run's inputs."""
     if "study_file" not in manifest:
-        raise UserError(f"{run / 'manifest.json'} does not record where the study file is; "
+        raise UserError(f"{run / MANIFEST_FILE} does not record where the study file is; "
                         "rerun the study with this version of appendix, then pack")
     study_file = Path(manifest["study_file"])
     folder = study_file.parent
@@ -236,7 +236,7 @@ def pack(run: Path, out: Path | None = None) -> Path:
     try:
         body = {**_study_entries(manifest, run), **_run_entries(run, manifest)}
     except (KeyError, TypeError, AttributeError) as error:
-        raise UserError(f"{run / 'manifest.json'} is not a run manifest (at {error!r}); "
+        raise UserError(f"{run / MANIFEST_FILE} is not a run manifest (at {error!r}); "
                         "rerun the study, then pack") from None
     body[ENVIRONMENT_FILE] = (json.dumps(_environment_record(manifest), sort_keys=True, indent=2,
                                     ensure_ascii=False) + "\n").encode("utf-8")

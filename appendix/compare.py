@@ -209,9 +209,9 @@ def _load_run(folder: Path) -> _Run:
     results = _read_json(folder / RESULTS_FILE)
     version = results.get("format_version") if isinstance(results, dict) else None
     if type(version) is not int:
-        raise UserError(f"{folder / 'results.json'}: not a results file of format {FORMAT_VERSION}")
+        raise UserError(f"{folder / RESULTS_FILE}: not a results file of format {FORMAT_VERSION}")
     if version != FORMAT_VERSION:
-        raise UserError(f"{folder / 'results.json'} is a results file of format {version}, and this "
+        raise UserError(f"{folder / RESULTS_FILE} is a results file of format {version}, and this "
                         f"version of appendix compares results of format {FORMAT_VERSION} only: rerun "
                         "both studies with it, then compare the new run folders")
     checked(results, StudyResults, folder / RESULTS_FILE, "a results file of this version")
