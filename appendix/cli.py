@@ -11,7 +11,6 @@ from __future__ import annotations
 import argparse
 import datetime as _dt
 import errno
-import importlib
 import os
 import sys
 import traceback
@@ -83,6 +82,15 @@ def _parser() -> argparse.ArgumentParser:
     return parser
 
 
+def _command(name: str):
+    """The module of a command (`appendix.commands`); loaded only once a command is parsed,
+    and each loads its libraries only when it runs, so `--version` loads none."""
+    from appendix.commands import check, diff, lock, pack, run, selftest, verify
+
+    return {"check": check, "diff": diff, "lock": lock, "pack": pack, "run": run,
+            "selftest": selftest, "verify": verify}[name]
+
+
 def _log_bug(error: BaseException, directory: Path, now: _dt.datetime) -> Path:
     from appendix.versions import software_versions
 
@@ -107,9 +115,7 @@ def main(argv: Sequence[str] | None = None, *, stdout: TextIO | None = None,
         if args.command is None:
             print(_parser().format_help(), file=err)
             return USAGE
-        # each command's module is loaded only when it runs: `--version` loads none
-        command = importlib.import_module(f"appendix.commands.{args.command}")
-        return command.run(args, CommandIO(out=out, err=err, cwd=cwd, clock=clock))
+        return _command(args.command).run(args, CommandIO(out=out, err=err, cwd=cwd, clock=clock))
     except SystemExit as done:  # --help and --version print, then ask to exit
         return int(done.code or 0)
     except KeyboardInterrupt:  # Ctrl-C: staging folders are already removed on the way out
