@@ -29,7 +29,8 @@ from appendix.runner import Residuals, study_analysis
 from appendix.versions import software_versions
 
 __all__ = ["Computed", "Rendered", "RunRecord", "load_plan", "load_data", "analyse",
-           "compute", "check", "render", "run", "lock", "unacknowledged", "software_versions"]
+           "compute", "check", "render", "run", "lock", "verify", "unacknowledged",
+           "software_versions"]
 
 @dataclass(frozen=True)
 class Computed:
@@ -64,7 +65,6 @@ def load_data(loaded: LoadedPlan, *, out_of_core: bool | None = None) -> Dataset
     CSV/TSV by an estimate; see `appendix.data.outofcore.should_go_out_of_core`) is
     aggregated out of core by DuckDB; `out_of_core` forces either way.
     """
-    from appendix.data import outofcore
     from appendix.data.checksums import confirm_unchanged, fingerprint
 
     before = fingerprint(loaded.data_path)
@@ -76,10 +76,11 @@ def load_data(loaded: LoadedPlan, *, out_of_core: bool | None = None) -> Dataset
 def _load_data(loaded: LoadedPlan, out_of_core: bool | None) -> Dataset:
     from appendix.data import outofcore
 
+    one_factor = loaded.plan.data_route == "one-factor"
     if out_of_core is None:
-        out_of_core = loaded.plan.is_one_way and outofcore.should_go_out_of_core(loaded.data_path)
+        out_of_core = one_factor and outofcore.should_go_out_of_core(loaded.data_path)
     if out_of_core:
-        if not loaded.plan.is_one_way:
+        if not one_factor:
             raise UserError("out-of-core aggregation handles one-factor designs only in this "
                             "version; this plan has several factors, covariates or a within factor")
         return outofcore.build_dataset_out_of_core(loaded)
@@ -153,7 +154,9 @@ def run(study: str | Path, out_dir: str | Path | None = None, *,
     `notice` hears what was put right of an earlier run that was killed (default: `progress`)."""
     from appendix import publish, render as html
     from appendix.data.checksums import confirm_unchanged, fingerprint
-    from appendix.records import RECORDS_FILE, records_text
+    from appendix.names import RECORDS_FILE
+    from appendix.records import records_text
+    from appendix.staging import recover, staged_folder
     from appendix.targets import check_run_target
 
     say = progress or (lambda _message: None)
@@ -161,7 +164,7 @@ def run(study: str | Path, out_dir: str | Path | None = None, *,
     loaded = load_plan(Path(study))
     folder = Path(out_dir) if out_dir is not None else Path(out_root) / loaded.plan.study.id
     inputs = (loaded.path, loaded.data_path, lock_path(loaded.path))
-    for note in publish.recover(folder):  # what a killed run left, put right first
+    for note in recover(folder):  # what a killed run left, put right first
         (notice or say)(note)
     check_run_target(folder, inputs)  # before any work: a refused folder costs nothing
     before = fingerprint(loaded.data_path)
@@ -174,7 +177,7 @@ def run(study: str | Path, out_dir: str | Path | None = None, *,
     records = records_text(computed.loaded, computed.dataset)
     confirm_unchanged(loaded.data_path, before)  # the records read the file once more
 
-    with publish.staged_folder(folder, inputs) as staging:
+    with staged_folder(folder, check=lambda: check_run_target(folder, inputs)) as staging:
         written = publish.write_run(
             staging, results=computed.results, results_json=rendered.results_json,
             html=rendered.html, figures=rendered.figures, options=options,
@@ -183,3 +186,12 @@ def run(study: str | Path, out_dir: str | Path | None = None, *,
             environment={"python": sys.version.split()[0], "platform": platform.platform()})
     say(f"wrote {folder}")
     return RunRecord(folder=folder, results=computed.results, files=written)
+
+
+def verify(package: str | Path):
+    """Check a reviewer package (`appendix.bundle.verify`): every hash, the run manifest and
+    the PDF's evidence, and its results recomputed by `run` from the packaged plan and data;
+    returns the `appendix.bundle.Verification`."""
+    from appendix import bundle
+
+    return bundle.verify(Path(package), recompute=lambda study, folder: run(study, folder, pdf=False))

@@ -11,18 +11,17 @@ A package holds, under fixed names::
 Packing twice gives the same bytes: entries in a fixed order, each dated at the run's time
 (from its manifest), with fixed permissions. `verify` refuses unsafe entry names before
 anything is extracted, checks every hash, cross-checks the run manifest and the PDF's
-embedded evidence, recomputes in a temporary folder with `appendix.api.run` and compares
-results.json: strings (conclusions, decisions) and integers exactly, other numbers to
-`REL_TOL` relative (`ABS_TOL` absolute near zero). Packaged results of another format
+embedded evidence, recomputes in a temporary folder (with the run the caller passes in,
+`appendix.api.run` for `appendix verify`) and compares results.json: strings
+(conclusions, decisions) and integers exactly, other numbers to `appendix.tolerance`'s
+tolerance. Packaged results of another format
 than `appendix.results.FORMAT_VERSION` are not compared, and verify says so.
 """
 
 from __future__ import annotations
 
 import datetime as _dt
-import hashlib
 import json
-import os
 import platform
 import re
 import shutil
@@ -30,31 +29,27 @@ import stat
 import sys
 import tempfile
 import zipfile
-from collections.abc import Iterable, Mapping
+from collections.abc import Callable, Iterable, Mapping
 from dataclasses import dataclass
 from pathlib import Path, PurePosixPath
-from typing import Any, TextIO
+from typing import Any
 
 from appendix.errors import UserError
+from appendix.hashing import copy_hashed, sha256_bytes, sha256_file
 from appendix.jsonread import checked, read_json
-from appendix.publish import PDF_NAME, RunManifest, manifest_text, pdf_evidence, sha256_file
+from appendix.names import (ENVIRONMENT_FILE, HTML_FILE, LOCK_FILE, MANIFEST_FILE, NOTE_FILE, PDF_FILE,
+                            RESULTS_FILE, RUN_FILES, SUMS_FILE)
+from appendix.publish import RunManifest, manifest_text, pdf_evidence
 from appendix.results import FORMAT_VERSION
+from appendix.staging import staged_file
 from appendix.targets import check_file_target, is_package
+from appendix.tolerance import DEFAULT as TOLERANCE
 from appendix.versions import installed_distributions
 
-SUMS = "SHA256SUMS"
-ENVIRONMENT = "environment.json"
-NOTE = "VERIFY.txt"
-LOCK_NAME = "study.lock.json"
-RUN_FILES = ("results.json", "appendix.html", PDF_NAME, "manifest.json")
+TOLERANCE_TEXT = f"numbers to {TOLERANCE.words()}; conclusions, decisions and every other text exactly"
 
-# Numbers computed by the same code on the same inputs agree to the last bit on one
-# machine; across CPUs and BLAS builds the last few bits can move. 1e-9 relative keeps
-# every printed digit and is common practice, no source.
-REL_TOL = 1e-9
-ABS_TOL = 1e-12
-TOLERANCE_TEXT = (f"numbers to a relative tolerance of {REL_TOL:g} (absolute {ABS_TOL:g} "
-                  "near zero); conclusions, decisions and every other text exactly")
+#: Rerun a study file into a new run folder (results.json and appendix.html at least).
+Recompute = Callable[[Path, Path], object]
 
 _ZIP_EPOCH = _dt.datetime(1980, 1, 1, tzinfo=_dt.timezone.utc)  # the earliest zip date
 _SUM_LINE = re.compile(r"([0-9a-f]{64})  (\S(?:.*\S)?)")
@@ -122,11 +117,11 @@ def _run_entries(run: Path, manifest: Mapping[str, Any]) -> dict[str, Content]:
     entries = {}
     for item in manifest.get("outputs", []):
         if not _inside(item["path"]):
-            raise UserError(f"{run / 'manifest.json'} lists an output outside the run folder: "
+            raise UserError(f"{run / MANIFEST_FILE} lists an output outside the run folder: "
                             f"{item['path']!r}")
         entries[f"run/{item['path']}"] = _checked(run / item["path"], item["sha256"],
                                                   "the run's output")
-    entries["run/manifest.json"] = run / "manifest.json"
+    entries[f"run/{MANIFEST_FILE}"] = run / MANIFEST_FILE
     missing = [name for name in RUN_FILES if f"run/{name}" not in entries]
     if missing:
         raise UserError(f"the run folder {run} has no {', '.join(missing)}; run the study "
@@ -137,7 +132,7 @@ def _run_entries(run: Path, manifest: Mapping[str, Any]) -> dict[str, Content]:
 def _study_entries(manifest: Mapping[str, Any], run: Path) -> dict[str, Content]:
     """The study file, its lock and data under ``study/``, checked against the run's inputs."""
     if "study_file" not in manifest:
-        raise UserError(f"{run / 'manifest.json'} does not record where the study file is; "
+        raise UserError(f"{run / MANIFEST_FILE} does not record where the study file is; "
                         "rerun the study with this version of appendix, then pack")
     study_file = Path(manifest["study_file"])
     folder = study_file.parent
@@ -149,9 +144,9 @@ def _study_entries(manifest: Mapping[str, Any], run: Path) -> dict[str, Content]
                             "so move it inside that folder and rerun")
         entries[f"study/{item['path']}"] = _checked(folder / item["path"], item["sha256"],
                                                     f"the {item['role']} file")
-    lock = folder / LOCK_NAME
-    if f"study/{LOCK_NAME}" not in entries and lock.is_file():
-        entries[f"study/{LOCK_NAME}"] = lock
+    lock = folder / LOCK_FILE
+    if f"study/{LOCK_FILE}" not in entries and lock.is_file():
+        entries[f"study/{LOCK_FILE}"] = lock
     return entries
 
 
@@ -168,7 +163,7 @@ def _environment_record(manifest: Mapping[str, Any]) -> dict[str, Any]:
 def _sha256(content: Content) -> str:
     if isinstance(content, Path):
         return sha256_file(content)
-    return hashlib.sha256(content).hexdigest()
+    return sha256_bytes(content)
 
 
 def sums_text(entries: Mapping[str, Content]) -> str:
@@ -197,12 +192,9 @@ def _zip_time(run_time: str | None) -> tuple[int, int, int, int, int, int]:
 
 def _copy_checked(source_path: Path, sink, expected: str) -> None:
     """Copy a file into the archive, refusing if it changed after it was hashed."""
-    digest = hashlib.sha256()
     with open(source_path, "rb") as source:
-        while block := source.read(1 << 20):
-            digest.update(block)
-            sink.write(block)
-    if digest.hexdigest() != expected:
+        digest = copy_hashed(source, sink)
+    if digest != expected:
         raise UserError(f"{source_path} changed while the package was being written; "
                         "pack again")
 
@@ -211,26 +203,19 @@ def _write_zip(target: Path, entries: Mapping[str, Content], digests: Mapping[st
                when) -> None:
     """Entries in the given order, one date, fixed permissions, zlib's default level:
     the same bytes every time. Files are copied in as streams."""
-    handle, temporary = tempfile.mkstemp(prefix=f".{target.name}.", dir=target.parent)
-    os.close(handle)
-    try:
-        with zipfile.ZipFile(temporary, "w") as archive:
-            for name, content in entries.items():
-                info = zipfile.ZipInfo(name, date_time=when)
-                info.compress_type = zipfile.ZIP_DEFLATED
-                info.create_system = 3  # Unix, whatever the packing platform
-                info.external_attr = (stat.S_IFREG | 0o644) << 16
-                info.file_size = content.stat().st_size if isinstance(content, Path) \
-                    else len(content)  # decides ZIP64 before writing
-                with archive.open(info, "w") as sink:
-                    if isinstance(content, Path):
-                        _copy_checked(content, sink, digests[name])
-                    else:
-                        sink.write(content)
-        os.replace(temporary, target)
-    except BaseException:
-        Path(temporary).unlink(missing_ok=True)
-        raise
+    with staged_file(target) as temporary, zipfile.ZipFile(temporary, "w") as archive:
+        for name, content in entries.items():
+            info = zipfile.ZipInfo(name, date_time=when)
+            info.compress_type = zipfile.ZIP_DEFLATED
+            info.create_system = 3  # Unix, whatever the packing platform
+            info.external_attr = (stat.S_IFREG | 0o644) << 16
+            info.file_size = content.stat().st_size if isinstance(content, Path) \
+                else len(content)  # decides ZIP64 before writing
+            with archive.open(info, "w") as sink:
+                if isinstance(content, Path):
+                    _copy_checked(content, sink, digests[name])
+                else:
+                    sink.write(content)
 
 
 def default_package_path(run: Path) -> Path:
@@ -245,33 +230,26 @@ def pack(run: Path, out: Path | None = None) -> Path:
     run = Path(run)
     if not run.is_dir():
         raise UserError(f"{run} is not a run folder (no such folder)")
-    manifest = checked(_load_json(run / "manifest.json", "a run folder holds the manifest.json "
+    manifest = checked(_load_json(run / MANIFEST_FILE, f"a run folder holds the {MANIFEST_FILE} "
                                   "that `appendix run` writes"),
-                       RunManifest, run / "manifest.json", "a run manifest of this version")
+                       RunManifest, run / MANIFEST_FILE, "a run manifest of this version")
     try:
         body = {**_study_entries(manifest, run), **_run_entries(run, manifest)}
     except (KeyError, TypeError, AttributeError) as error:
-        raise UserError(f"{run / 'manifest.json'} is not a run manifest (at {error!r}); "
+        raise UserError(f"{run / MANIFEST_FILE} is not a run manifest (at {error!r}); "
                         "rerun the study, then pack") from None
-    body[ENVIRONMENT] = (json.dumps(_environment_record(manifest), sort_keys=True, indent=2,
+    body[ENVIRONMENT_FILE] = (json.dumps(_environment_record(manifest), sort_keys=True, indent=2,
                                     ensure_ascii=False) + "\n").encode("utf-8")
-    body[NOTE] = VERIFY_TEXT.format(study=manifest.get("study", "?"),
+    body[NOTE_FILE] = VERIFY_TEXT.format(study=manifest.get("study", "?"),
                                     tolerance=TOLERANCE_TEXT).encode("utf-8")
     digests = _digests(body)
-    entries = {NOTE: body[NOTE], SUMS: _sums(digests).encode("ascii")}
-    entries.update((name, body[name]) for name in sorted(body) if name != NOTE)
+    entries = {NOTE_FILE: body[NOTE_FILE], SUMS_FILE: _sums(digests).encode("ascii")}
+    entries.update((name, body[name]) for name in sorted(body) if name != NOTE_FILE)
     target = Path(out) if out is not None else default_package_path(run)
     inputs = [run, *(content for content in body.values() if isinstance(content, Path))]
     check_file_target(target, inputs, "package", is_package, "--out")
     _write_zip(target, entries, digests, _zip_time(manifest.get("run_time")))
     return target
-
-
-def pack_command(run: Path, out: Path | None, out_stream: TextIO) -> int:
-    """`appendix pack RUN [--out FILE]`: write the package, print its path; exit 0."""
-    target = pack(run, out)
-    print(f"wrote {target}", file=out_stream)
-    return 0
 
 
 # --------------------------------------------------------------------------- verify
@@ -337,17 +315,12 @@ def _extract(archive: zipfile.ZipFile, folder: Path) -> tuple[dict[str, str], li
         if info.is_dir():
             continue
         target = folder.joinpath(*info.filename.split("/"))
-        digest = hashlib.sha256()
         try:
             target.parent.mkdir(parents=True, exist_ok=True)
             with archive.open(info) as source, open(target, "wb") as sink:
-                while block := source.read(1 << 20):
-                    digest.update(block)
-                    sink.write(block)
+                digests[info.filename] = copy_hashed(source, sink)
         except (zipfile.BadZipFile, OSError, EOFError, ValueError) as error:
             damaged.append(f"{info.filename} ({error})")
-            continue
-        digests[info.filename] = digest.hexdigest()
     return digests, damaged
 
 
@@ -356,14 +329,14 @@ def parse_sums(text: str) -> tuple[dict[str, str], list[str]]:
     (lower-case hex, two spaces, a name, a final newline)."""
     listed, problems = {}, []
     if text and not text.endswith("\n"):
-        problems.append(f"{SUMS} does not end with a newline")
+        problems.append(f"{SUMS_FILE} does not end with a newline")
     for number, line in enumerate(text.split("\n")[:-1] if text.endswith("\n")
                                   else text.split("\n"), start=1):
         match = _SUM_LINE.fullmatch(line)
         if match is None:
-            problems.append(f"{SUMS} line {number} is malformed: {line!r}")
+            problems.append(f"{SUMS_FILE} line {number} is malformed: {line!r}")
         elif match.group(2) in listed:
-            problems.append(f"{SUMS} line {number} lists {match.group(2)} again")
+            problems.append(f"{SUMS_FILE} line {number} lists {match.group(2)} again")
         else:
             listed[match.group(2)] = match.group(1)
     return listed, problems
@@ -371,24 +344,24 @@ def parse_sums(text: str) -> tuple[dict[str, str], list[str]]:
 
 def _hash_problems(digests: Mapping[str, str], folder: Path) -> list[str]:
     """Every changed, missing or extra file, against SHA256SUMS."""
-    if SUMS not in digests:
-        return [f"missing: {SUMS} (the package's list of hashes)"]
+    if SUMS_FILE not in digests:
+        return [f"missing: {SUMS_FILE} (the package's list of hashes)"]
     try:
-        text = (folder / SUMS).read_bytes().decode("ascii")
+        text = (folder / SUMS_FILE).read_bytes().decode("ascii")
     except UnicodeDecodeError:
-        return [f"{SUMS} is not plain ASCII text"]
+        return [f"{SUMS_FILE} is not plain ASCII text"]
     listed, problems = parse_sums(text)
-    present = {name for name in digests if name != SUMS}
+    present = {name for name in digests if name != SUMS_FILE}
     problems += [f"changed: {name}" for name in sorted(present & listed.keys())
                  if digests[name] != listed[name]]
     problems += [f"missing: {name}" for name in sorted(listed.keys() - present)]
-    problems += [f"extra (not in {SUMS}): {name}" for name in sorted(present - listed.keys())]
+    problems += [f"extra (not in {SUMS_FILE}): {name}" for name in sorted(present - listed.keys())]
     return problems
 
 
 def _manifest_problems(folder: Path) -> tuple[list[str], dict[str, Any] | None]:
     """The run manifest against the packaged files: each output and input it records."""
-    path = folder / "run" / "manifest.json"
+    path = folder / "run" / MANIFEST_FILE
     if not path.is_file():
         return ["missing: run/manifest.json"], None
     try:
@@ -419,33 +392,29 @@ def _pdf_problems(folder: Path, manifest: Mapping[str, Any]) -> tuple[list[str],
         return [], ["the PDF's attachments were not checked: pypdf is not installed"]
     study = next((i["path"] for i in manifest["inputs"] if i["role"] == "study"), None)
     expected = {
-        "results.json": (folder / "run" / "results.json").read_bytes(),
-        "manifest.json": manifest_text(pdf_evidence(manifest)).encode("utf-8"),
+        RESULTS_FILE: (folder / "run" / RESULTS_FILE).read_bytes(),
+        MANIFEST_FILE: manifest_text(pdf_evidence(manifest)).encode("utf-8"),
     }
     if isinstance(study, str) and _inside_package(folder / "study", study) \
             and (folder / "study" / study).is_file():
         expected[PurePosixPath(study).name] = (folder / "study" / study).read_bytes()
     try:
-        attached = pypdf.PdfReader(folder / "run" / PDF_NAME).attachments
+        attached = pypdf.PdfReader(folder / "run" / PDF_FILE).attachments
         carried = {name: attached[name] for name in attached}
     except Exception as error:  # noqa: BLE001 - any parse failure is a finding, not a crash
-        return [f"run/{PDF_NAME} could not be read as a PDF ({error!r})"], []
+        return [f"run/{PDF_FILE} could not be read as a PDF ({error!r})"], []
     problems = []
     for name, content in expected.items():
         if name not in carried:
-            problems.append(f"run/{PDF_NAME} does not carry {name}")
+            problems.append(f"run/{PDF_FILE} does not carry {name}")
         elif carried[name] != [content]:
-            problems.append(f"the {name} embedded in run/{PDF_NAME} differs from the package's")
+            problems.append(f"the {name} embedded in run/{PDF_FILE} differs from the package's")
     return problems, []
-
-
-def _numbers_agree(a: float, b: float) -> bool:
-    return abs(a - b) <= max(REL_TOL * max(abs(a), abs(b)), ABS_TOL)
 
 
 def compare_results(expected: Any, actual: Any, path: str = "") -> list[str]:
     """Each difference between two parsed results.json trees, by key path: text, booleans,
-    None and integers exactly; a float against a number to `REL_TOL` (`ABS_TOL` near 0).
+    None and integers exactly; a float against a number to `appendix.tolerance.DEFAULT`.
 
     >>> compare_results({"f": 5.0, "d": "reject"}, {"f": 5.0 + 1e-12, "d": "retain"})
     ["d: 'reject' packaged, 'retain' recomputed"]
@@ -478,7 +447,7 @@ def compare_results(expected: Any, actual: Any, path: str = "") -> list[str]:
     if isinstance(expected, int) and isinstance(actual, int):
         same = expected == actual
     else:
-        same = _numbers_agree(float(expected), float(actual))
+        same = TOLERANCE.agree(float(expected), float(actual))
     return [] if same else [f"{where}: {expected!r} packaged, {actual!r} recomputed"]
 
 
@@ -496,10 +465,9 @@ def _inside_package(root: Path, path: str | Path) -> bool:
     return place != base and base in place.parents
 
 
-def _recompute(folder: Path, manifest: Mapping[str, Any]) -> tuple[list[str], list[str]]:
+def _recompute(folder: Path, manifest: Mapping[str, Any],
+               recompute: Recompute) -> tuple[list[str], list[str]]:
     """Rerun the packaged study in `folder` and compare its results.json with the package's."""
-    from appendix import api
-
     from appendix.plan.load import load_plan
 
     study = next((i.get("path") for i in manifest["inputs"]
@@ -513,24 +481,24 @@ def _recompute(folder: Path, manifest: Mapping[str, Any]) -> tuple[list[str], li
         if not _inside_package(folder / "study", loaded.data_path):
             return [f"the packaged study names a data file outside the package "
                     f"({loaded.plan.data.source}); nothing outside it is read"], []
-        api.run(folder / "study" / study, out_dir=folder / "recomputed", pdf=False)
+        recompute(folder / "study" / study, folder / "recomputed")
     except UserError as error:
         return [f"the packaged study could not be recomputed: {error}"], []
     try:
-        packaged = json.loads((folder / "run" / "results.json").read_text(encoding="utf-8"))
+        packaged = json.loads((folder / "run" / RESULTS_FILE).read_text(encoding="utf-8"))
     except (UnicodeDecodeError, json.JSONDecodeError, RecursionError) as error:
         return [f"run/results.json is not valid JSON ({error!r}); nothing to compare"], []
     if not isinstance(packaged, dict):
         return ["run/results.json does not hold a results object; nothing to compare"], []
-    again = json.loads((folder / "recomputed" / "results.json").read_text(encoding="utf-8"))
+    again = json.loads((folder / "recomputed" / RESULTS_FILE).read_text(encoding="utf-8"))
     notes = _version_notes(packaged.pop("software", []), again.pop("software", []))
     if packaged.get("format_version") != FORMAT_VERSION:
         return [f"run/results.json is of results format {packaged.get('format_version')!r} and this "
                 f"version of appendix writes format {FORMAT_VERSION}, so the results were not "
                 "compared: verify the package with the appendix version environment.json names"], notes
     problems = compare_results(packaged, again)
-    html = folder / "run" / "appendix.html"
-    if html.is_file() and html.read_bytes() != (folder / "recomputed" / "appendix.html").read_bytes():
+    html = folder / "run" / HTML_FILE
+    if html.is_file() and html.read_bytes() != (folder / "recomputed" / HTML_FILE).read_bytes():
         # the same versions render the same bytes; other versions may draw figures differently
         if notes:
             notes.append("run/appendix.html differs from the page rendered again here, "
@@ -556,9 +524,10 @@ class Verification:
         return not self.problems
 
 
-def verify(package: Path) -> Verification:
-    """Check a package made by `pack` (see the module docstring); raises `UserError` for
-    a file that is not a zip archive or holds unsafe entry names."""
+def verify(package: Path, recompute: Recompute) -> Verification:
+    """Check a package made by `pack` (see the module docstring), rerunning its study with
+    `recompute(study file, new run folder)`; raises `UserError` for a file that is not a
+    zip archive or holds unsafe entry names."""
     package = Path(package)
     if not package.is_file():
         raise UserError(f"{package} not found: give the zip that `appendix pack` wrote")
@@ -576,12 +545,12 @@ def verify(package: Path) -> Verification:
         problems += found
         notes: list[str] = []
         if manifest is not None:
-            if (folder / "run" / PDF_NAME).is_file() and (folder / "run" / "results.json").is_file():
+            if (folder / "run" / PDF_FILE).is_file() and (folder / "run" / RESULTS_FILE).is_file():
                 found, noted = _pdf_problems(folder, manifest)
                 problems += found
                 notes += noted
-            if (folder / "run" / "results.json").is_file():
-                found, noted = _recompute(folder, manifest)
+            if (folder / "run" / RESULTS_FILE).is_file():
+                found, noted = _recompute(folder, manifest, recompute)
                 problems += found
                 notes += noted
             else:
@@ -601,10 +570,3 @@ def report(result: Verification) -> list[str]:
     return [*lines, *(f"  {problem}" for problem in result.problems),
             f"not reproduced: {count} difference{'s' if count != 1 else ''}"]
 
-
-def verify_command(package: Path, out_stream: TextIO) -> int:
-    """`appendix verify PACKAGE`: print the report; exit 0 reproduced, 1 on any mismatch."""
-    result = verify(package)
-    for line in report(result):
-        print(line, file=out_stream)
-    return 0 if result.reproduced else 1

@@ -1,4 +1,5 @@
-"""Command line: parse arguments, call one API function per command, map errors to exit codes.
+"""Command line: parse the arguments, hand them to the command's module
+(`appendix.commands.<name>.run`), and map what escapes it to an exit code.
 
 Exit codes: 0 done; 1 done, but something the user must see; 2 bad input or usage (a
 message, no traceback); 3 an internal error (a bug), with a log file naming versions; 130
@@ -18,12 +19,9 @@ from pathlib import Path
 from typing import TextIO
 
 from appendix import __version__
+from appendix.commands.context import BUG, INTERRUPTED, OK, TERMINATED, USAGE, CommandIO
 from appendix.epoch import source_date
 from appendix.errors import UserError
-
-EXIT_OK, EXIT_ATTENTION, EXIT_USAGE, EXIT_BUG = 0, 1, 2, 3
-#: The shell's convention for a process stopped by SIGINT (2) and SIGTERM (15): 128 + signal.
-EXIT_INTERRUPTED, EXIT_TERMINATED = 130, 143
 
 
 #: Errors of the machine, not of appendix: disk full, quota, read-only, permission.
@@ -84,78 +82,13 @@ def _parser() -> argparse.ArgumentParser:
     return parser
 
 
-def _check(args, out: TextIO) -> int:
-    from appendix import api
+def _command(name: str):
+    """The module of a command (`appendix.commands`); loaded only once a command is parsed,
+    and each loads its libraries only when it runs, so `--version` loads none."""
+    from appendix.commands import check, diff, lock, pack, run, selftest, verify
 
-    for line in api.check(args.study):
-        print(line, file=out)
-    return EXIT_OK
-
-
-def _selftest(out: TextIO) -> int:
-    from appendix import selftest
-
-    results = selftest.nist_checks()
-    for line in selftest.report(results):
-        print(line, file=out)
-    return EXIT_OK if results and all(r.passed for r in results) else EXIT_ATTENTION
-
-
-def _run(args, cwd: Path, out: TextIO, err: TextIO, clock) -> int:
-    from appendix import api
-    from appendix.render import RenderOptions
-
-    tty = err.isatty()
-
-    def progress(message: str) -> None:
-        if tty:  # long runs show progress on a terminal and stay quiet elsewhere
-            print(f"  {message} ...", file=err, flush=True)
-
-    record = api.run(args.study, cwd / args.out if args.out else None, out_root=cwd / "out",
-                     options=RenderOptions(paper=args.paper), pdf=not args.no_pdf,
-                     clock=clock, progress=progress,
-                     notice=lambda note: print(f"note: {note}", file=err))
-    print(f"wrote {record.folder}", file=out)
-    for line in _decision_lines(record.results):
-        print(line, file=out)
-    pending = api.unacknowledged(record.results)
-    if args.strict and pending:
-        print(f"strict: {len(pending)} deviation{'s' if len(pending) != 1 else ''} from the "
-              "registered plan not acknowledged (see the plan's deviations key):", file=err)
-        for deviation in pending:
-            print(f"  {deviation.kind} ({deviation.subject}): {deviation.message}", file=err)
-        return EXIT_ATTENTION
-    return EXIT_OK
-
-
-def _decision_lines(results) -> list[str]:
-    """One line per outcome with the decision of each of its conclusions: ``  dry_mass
-    (primary): reject`` for an outcome with one, else each tested term's, ``  yield
-    (primary): coating: reject; irrigation: retain``."""
-    from appendix.compare import conclusions_of
-    from appendix.results import to_plain
-
-    terms: dict[str, list[tuple[str, str]]] = {}
-    for (outcome, kind, term), (_, _, decision) in conclusions_of(to_plain(results)).items():
-        if kind == "term":
-            terms.setdefault(outcome, []).append((term, decision.decision))
-    lines = []
-    for outcome in results.outcomes:
-        found = terms.get(outcome.name, [])
-        said = (found[0][1] if len(found) == 1 else
-                "; ".join(f"{term}: {decision}" for term, decision in found) or "no conclusion")
-        lines.append(f"  {outcome.name} ({outcome.role}): {said}")
-    return lines
-
-
-def _lock(args, out: TextIO, clock) -> int:
-    from appendix import api
-
-    if args.reason is not None and not args.relock:
-        raise UserError("--reason goes with --relock: a first lock needs no reason")
-    outcome = api.lock(args.study, relock=args.relock, reason=args.reason, clock=clock)
-    print(outcome.message, file=out)
-    return EXIT_OK
+    return {"check": check, "diff": diff, "lock": lock, "pack": pack, "run": run,
+            "selftest": selftest, "verify": verify}[name]
 
 
 def _log_bug(error: BaseException, directory: Path, now: _dt.datetime) -> Path:
@@ -181,47 +114,27 @@ def main(argv: Sequence[str] | None = None, *, stdout: TextIO | None = None,
         args = _parser().parse_args(list(sys.argv[1:] if argv is None else argv))
         if args.command is None:
             print(_parser().format_help(), file=err)
-            return EXIT_USAGE
-        if args.command == "selftest":
-            return _selftest(out)
-        if args.command == "diff":
-            from appendix.compare import diff_command
-
-            return diff_command(cwd / args.run_a, cwd / args.run_b, as_json=args.json,
-                                html_out=cwd / args.html if args.html else None, out=out)
-        if args.command == "pack":
-            from appendix.bundle import pack_command
-
-            return pack_command(cwd / args.run, cwd / args.out if args.out else None, out)
-        if args.command == "verify":
-            from appendix.bundle import verify_command
-
-            return verify_command(cwd / args.package, out)
-        args.study = cwd / args.study
-        if args.command == "check":
-            return _check(args, out)
-        if args.command == "lock":
-            return _lock(args, out, clock)
-        return _run(args, cwd, out, err, clock)
+            return USAGE
+        return _command(args.command).run(args, CommandIO(out=out, err=err, cwd=cwd, clock=clock))
     except SystemExit as done:  # --help and --version print, then ask to exit
         return int(done.code or 0)
     except KeyboardInterrupt:  # Ctrl-C: staging folders are already removed on the way out
         print("stopped (interrupted); nothing was replaced", file=err)
-        return EXIT_INTERRUPTED
+        return INTERRUPTED
     except Terminated:
         print("stopped (terminated); nothing was replaced", file=err)
-        return EXIT_TERMINATED
+        return TERMINATED
     except BrokenPipeError:  # the reader of our output stopped early (e.g. `| head`)
-        return EXIT_OK
+        return OK
     except UserError as error:
         print(f"error: {error}", file=err)
-        return EXIT_USAGE
+        return USAGE
     except OSError as error:
         if error.errno in _MACHINE_ERRNOS:  # a full or read-only disk, no permission, full stdout
             where = f" ({error.filename})" if error.filename else ""
             print(f"error: cannot write or read{where}: {error.strerror}; nothing was replaced",
                   file=err)
-            return EXIT_USAGE
+            return USAGE
         return _bug(error, cwd, clock, err)
     except Exception as error:  # a bug: say so, log it, never a bare traceback
         return _bug(error, cwd, clock, err)
@@ -233,7 +146,7 @@ def _bug(error: BaseException, cwd: Path, clock, err: TextIO) -> int:
     except OSError as failed:  # the log itself could not be written
         where = f"no log could be written ({failed.strerror})"
     print(f"internal error (a bug in appendix): {error!r}\n{where}", file=err)
-    return EXIT_BUG
+    return BUG
 
 
 def console() -> None:
@@ -248,7 +161,7 @@ def console() -> None:
         pass
     except OSError as error:
         print(f"error: cannot write the output: {error.strerror}", file=sys.stderr)
-        code = EXIT_USAGE
+        code = USAGE
     try:  # nothing left for the interpreter's own flush to fail on
         sys.stdout = open(os.devnull, "w")  # noqa: SIM115 - held until the process ends
     except OSError:

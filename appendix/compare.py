@@ -28,38 +28,22 @@ import json
 from collections.abc import Iterator, Mapping
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any, TextIO
+from typing import Any
 
 from appendix.errors import UserError
 from appendix.jsonread import checked, read_json
+from appendix.names import MANIFEST_FILE, RESULTS_FILE
 from appendix.numbers import write_parts
 from appendix.publish import RunManifest
 from appendix.records import Records, RowRecord, read_records
 from appendix.results import FORMAT_VERSION, StudyResults
-from appendix.targets import check_file_target, is_diff_page, write_atomically
+from appendix.tolerance import DEFAULT, Tolerance
 
 #: 2: quantities are named after the results of format 2 (``units/coating.statistic``, ``n_units``).
 DIFF_FORMAT = 2
 
 #: Joins the factors of an interaction in a term's id, as the appendix writes it.
 CROSS = " × "
-
-
-@dataclass(frozen=True)
-class Tolerance:
-    """A number moved when |b - a| > max(absolute, relative * max(|a|, |b|)).
-
-    The defaults only ignore floating-point noise (last digits of a double that differ
-    between platforms or library versions); every real change is shown. They are a
-    judgement (common practice, no source)."""
-
-    relative: float = 1e-9
-    absolute: float = 1e-12
-
-    def moved(self, a: float | None, b: float | None) -> bool:
-        if a is None or b is None:
-            return (a is None) != (b is None)
-        return abs(b - a) > max(self.absolute, self.relative * max(abs(a), abs(b)))
 
 
 @dataclass(frozen=True)
@@ -219,22 +203,22 @@ def _read_json(path: Path) -> Any:
 
 def _load_run(folder: Path) -> _Run:
     folder = Path(folder)
-    if not (folder / "results.json").is_file():
+    if not (folder / RESULTS_FILE).is_file():
         raise UserError(f"not a run folder: {folder} has no results.json "
                         "(give the folders that `appendix run` wrote)")
-    results = _read_json(folder / "results.json")
+    results = _read_json(folder / RESULTS_FILE)
     version = results.get("format_version") if isinstance(results, dict) else None
     if type(version) is not int:
-        raise UserError(f"{folder / 'results.json'}: not a results file of format {FORMAT_VERSION}")
+        raise UserError(f"{folder / RESULTS_FILE}: not a results file of format {FORMAT_VERSION}")
     if version != FORMAT_VERSION:
-        raise UserError(f"{folder / 'results.json'} is a results file of format {version}, and this "
+        raise UserError(f"{folder / RESULTS_FILE} is a results file of format {version}, and this "
                         f"version of appendix compares results of format {FORMAT_VERSION} only: rerun "
                         "both studies with it, then compare the new run folders")
-    checked(results, StudyResults, folder / "results.json", "a results file of this version")
+    checked(results, StudyResults, folder / RESULTS_FILE, "a results file of this version")
     manifest = None
-    if (folder / "manifest.json").is_file():
-        manifest = checked(_read_json(folder / "manifest.json"), RunManifest,
-                           folder / "manifest.json", "a run manifest of this version")
+    if (folder / MANIFEST_FILE).is_file():
+        manifest = checked(_read_json(folder / MANIFEST_FILE), RunManifest,
+                           folder / MANIFEST_FILE, "a run manifest of this version")
     return _Run(folder, results, manifest, read_records(folder))
 
 
@@ -556,7 +540,7 @@ def _info(run: _Run) -> RunInfo:
                    alpha=r["alpha"])
 
 
-def compare_runs(run_a: Path, run_b: Path, tolerance: Tolerance = Tolerance()) -> RunDiff:
+def compare_runs(run_a: Path, run_b: Path, tolerance: Tolerance = DEFAULT) -> RunDiff:
     """Compare two run folders; raises `UserError` when either is not a run folder."""
     a, b = _load_run(run_a), _load_run(run_b)
     return RunDiff(a=_info(a), b=_info(b), tolerance=tolerance,
@@ -709,21 +693,3 @@ def render_page(diff: RunDiff) -> str:
         d=diff, decision_text=decision_text, move_text=move_text, cell_text=cell_text,
         row_name=row_name, row_identity_text=row_identity_text)
 
-
-def diff_command(run_a: Path, run_b: Path, *, as_json: bool, html_out: Path | None, out: TextIO,
-                 tolerance: Tolerance = Tolerance()) -> int:
-    """`appendix diff`: print the report (or JSON) to `out`, write the HTML page when
-    `html_out` is given; 1 when any conclusion changed, else 0."""
-    if html_out is not None:  # refused before any work, and before anything is printed
-        check_file_target(html_out, (run_a, run_b), "diff page", is_diff_page, "--html")
-    diff = compare_runs(Path(run_a), Path(run_b), tolerance)
-    if as_json:
-        out.write(to_json(diff))
-    else:
-        for line in report_lines(diff):
-            print(line, file=out)
-    if html_out is not None:
-        write_atomically(Path(html_out), render_page(diff).encode("utf-8"))
-        if not as_json:
-            print(f"wrote {html_out}", file=out)
-    return 1 if diff.conclusions_changed else 0

@@ -24,6 +24,7 @@ from __future__ import annotations
 import dataclasses
 from collections.abc import Iterable, Sequence
 
+from appendix.names import LOCK_FILE
 from appendix.plan.lock import Lock, PlanChange, compare_plans
 from appendix.plan.model import Plan
 from appendix.plan.wording import did_you_mean, show
@@ -38,7 +39,7 @@ def registration(lock: Lock | None) -> Registration | None:
     if lock is None:
         return None
     return Registration(
-        lock_file="study.lock.json", locked_at=lock.locked_at, plan_sha256=lock.plan_sha256,
+        lock_file=LOCK_FILE, locked_at=lock.locked_at, plan_sha256=lock.plan_sha256,
         tool_version=lock.tool_version, data_at_lock=lock.data.statement,
         data_sha256_at_lock=lock.data.sha256,
         revisions=tuple(PlanRevision(r.number, r.time, r.previous_sha256, r.sha256, r.reason)

@@ -41,6 +41,7 @@ from scipy import stats
 
 from appendix import numbers
 from appendix.data.dataset import Dataset, OutcomeData
+from appendix.figure_spec import FIGURE_KINDS, PLOT_POINTS
 from appendix.models import Residuals
 from appendix.results import ContrastFamily, HypothesisResult, OutcomeResult, StudyResults
 from appendix.stats.sampling import subsample_indices
@@ -59,9 +60,6 @@ PALETTE: tuple[str, ...] = (
 
 #: Beyond this many points in a figure its scatters are rasterised inside the SVG to keep files light.
 DENSE_POINTS = 5000
-#: Point clouds larger than this are drawn from a deterministic subsample of this size
-#: (appendix.stats.sampling); boxes, means and lines still use every unit.
-PLOT_POINTS = 20_000
 
 _WIDTH_IN = 6.0
 _HEIGHT_IN = 2.9
@@ -129,8 +127,8 @@ def make_figures(dataset: Dataset, results: StudyResults,
         # without data only the data figures are skipped; the appendix says "not drawn"
         if outcome.name in drawable:
             panel = _panel(dataset, results, outcome, residuals.get(outcome.name))
-            for kind, draw in _DRAWERS.items():
-                _draw(figures, f"{outcome.name}-{kind}", draw, panel)
+            for kind in FIGURE_KINDS:
+                _draw(figures, f"{outcome.name}-{kind}", _DRAWERS[kind], panel)
             figures.update(_covariate_figures(dataset, results, outcome, residuals.get(outcome.name)))
         figures.update(_lines_of_means(results, outcome))
         family = next((f for f in outcome.contrasts if f.registered), None)
@@ -437,6 +435,7 @@ def _level_axis(ax, levels: tuple[str, ...]) -> None:
     ax.set_xlabel("Group")
 
 
+#: The drawer of each kind of `FIGURE_KINDS`.
 _DRAWERS: Mapping[str, Callable[[_Panel], Figure | None]] = MappingProxyType({
     "distribution": _distribution,
     "means": _means,
@@ -444,9 +443,6 @@ _DRAWERS: Mapping[str, Callable[[_Panel], Figure | None]] = MappingProxyType({
     "residuals": _versus_fitted,
     "f-reference": _f_reference,
 })
-
-#: Figure kinds in the order the appendix shows them.
-FIGURE_KINDS: tuple[str, ...] = tuple(_DRAWERS)
 
 _ID = re.compile(r'\bid="([^"]+)"')
 _REF = re.compile(r'(xlink:href="#|href="#|url\(#)([^")]+)')

@@ -1,19 +1,16 @@
-"""Writing a run folder so that a failed or killed run leaves the previous one untouched.
+"""The files of a run folder: results, page, figures, PDF/A-3b with its evidence, and the
+manifest written last (SHA-256 of every input and output, versions, run time).
 
-Everything is written into a hidden staging folder beside the target; only when all files
-are complete is the old folder swapped out and the new one renamed into place.
+`write_run` writes into the staging folder that `appendix.staging.staged_folder` swaps
+into place, so a failed or killed run leaves the previous one untouched.
 """
 
 from __future__ import annotations
 
 import datetime as _dt
-import hashlib
 import json
 import os
-import shutil
-import tempfile
-from collections.abc import Callable, Iterable, Iterator, Mapping
-from contextlib import contextmanager
+from collections.abc import Callable, Mapping
 from pathlib import Path
 from typing import Any
 
@@ -21,9 +18,9 @@ from typing_extensions import NotRequired, TypedDict  # the form pydantic valida
 
 from appendix import __version__
 from appendix.epoch import source_date
-from appendix.errors import UserError
+from appendix.hashing import sha256_file
+from appendix.names import FIGURES_FOLDER, HTML_FILE, MANIFEST_FILE, PDF_FILE, RESULTS_FILE, figure_file
 from appendix.results import InputFile, Software, StudyResults, to_plain
-from appendix.targets import check_run_target
 from appendix.versions import installed_distributions
 
 MANIFEST_FORMAT = 1
@@ -54,93 +51,6 @@ class RunManifest(TypedDict):
     environment: dict[str, str]
     distributions: list[Software]
     study_file: NotRequired[str]
-
-
-@contextmanager
-def staged_folder(target: Path, inputs: Iterable[Path] = ()) -> Iterator[Path]:
-    """Yield an empty staging folder that replaces `target` when the block completes.
-
-    `target` must be a folder this run may replace (`appendix.targets.check_run_target`:
-    absent, empty or a run folder of ours, holding none of `inputs`), checked before the
-    block and again just before the swap. If the block raises, the staging folder is
-    removed and `target` is left as it was.
-    """
-    target = Path(target)
-    inputs = tuple(inputs)
-    check_run_target(target, inputs)
-    target.parent.mkdir(parents=True, exist_ok=True)
-    staging = Path(tempfile.mkdtemp(prefix=f".{target.name}.staging-{os.getpid()}-",
-                                    dir=target.parent))
-    try:
-        yield staging
-        check_run_target(target, inputs)
-    except BaseException:
-        shutil.rmtree(staging, ignore_errors=True)
-        raise
-    os.chmod(staging, 0o755)
-    retired = None
-    if target.exists():
-        retired = Path(tempfile.mkdtemp(prefix=f".{target.name}.old-{os.getpid()}-",
-                                        dir=target.parent))
-        os.replace(target, retired / target.name)
-    os.replace(staging, target)
-    if retired is not None:
-        shutil.rmtree(retired, ignore_errors=True)
-
-
-def _owner_alive(leftover: Path) -> bool:
-    """Whether the process that made a staging or retired folder (its pid is in the name)
-    still runs; a name without a pid counts as not running."""
-    parts = leftover.name.rsplit("-", 2)
-    if len(parts) != 3 or not parts[1].isdigit():
-        return False
-    pid = int(parts[1])
-    if pid == os.getpid():
-        return True
-    try:
-        os.kill(pid, 0)
-    except ProcessLookupError:
-        return False
-    except PermissionError:  # another user's process: alive
-        return True
-    return True
-
-
-def recover(target: Path) -> list[str]:
-    """Put right what a killed run left beside `target`, and say what was done.
-
-    A run killed between the two renames of the swap leaves the previous run folder in
-    ``.<name>.old-<pid>-*/<name>`` and nothing at `target`: it is moved back. Staging and
-    retired folders of runs that no longer run are removed.
-    """
-    target = Path(target)
-    parent = target.parent
-    if not parent.is_dir():
-        return []
-    notes = []
-    for leftover in sorted(parent.glob(f".{target.name}.old-*")):
-        if not leftover.is_dir() or _owner_alive(leftover):
-            continue
-        kept = leftover / target.name
-        if not os.path.lexists(target) and kept.is_dir():
-            os.replace(kept, target)
-            notes.append(f"restored {target} from an earlier run that was stopped while it "
-                         "replaced the folder")
-        shutil.rmtree(leftover, ignore_errors=True)
-    for leftover in sorted(parent.glob(f".{target.name}.staging-*")):
-        if leftover.is_dir() and not _owner_alive(leftover):
-            shutil.rmtree(leftover, ignore_errors=True)
-            notes.append(f"removed {leftover.name}, the unfinished output of a run that was "
-                         "stopped")
-    return notes
-
-
-def sha256_file(path: Path) -> str:
-    digest = hashlib.sha256()
-    with open(path, "rb") as handle:
-        for block in iter(lambda: handle.read(1 << 20), b""):
-            digest.update(block)
-    return digest.hexdigest()
 
 
 def run_time(clock: Callable[[], _dt.datetime] | None = None,
@@ -195,18 +105,15 @@ def write_manifest(folder: Path, results: StudyResults, now: _dt.datetime,
     of the outputs listed.
     """
     manifest = _manifest(folder, results, now, environment, study_file)
-    (folder / "manifest.json").write_text(manifest_text(manifest), encoding="utf-8")
-    return (*(item["path"] for item in manifest["outputs"]), "manifest.json")
-
-
-PDF_NAME = "appendix.pdf"
+    (folder / MANIFEST_FILE).write_text(manifest_text(manifest), encoding="utf-8")
+    return (*(item["path"] for item in manifest["outputs"]), MANIFEST_FILE)
 
 
 def pdf_evidence(manifest: Mapping[str, Any]) -> dict[str, Any]:
     """The manifest the PDF carries: the run manifest without the PDF's own entry (a file
     cannot hold its own hash). `appendix verify` checks the two agree."""
     carried = dict(manifest)
-    carried["outputs"] = [o for o in manifest["outputs"] if o["path"] != PDF_NAME]
+    carried["outputs"] = [o for o in manifest["outputs"] if o["path"] != PDF_FILE]
     return carried
 
 
@@ -222,14 +129,14 @@ def write_pdf(folder: Path, html: str, options, results: StudyResults, now: _dt.
     attachments = (
         render.PdfAttachment(study_file.name, study_file.read_bytes(), "application/yaml",
                              "The study file (registered analysis plan) of this run.", "Source"),
-        render.PdfAttachment("results.json", (folder / "results.json").read_bytes(),
+        render.PdfAttachment(RESULTS_FILE, (folder / RESULTS_FILE).read_bytes(),
                              "application/json", "Every computed result, canonical JSON.",
                              "Data"),
-        render.PdfAttachment("manifest.json", evidence.encode("utf-8"), "application/json",
+        render.PdfAttachment(MANIFEST_FILE, evidence.encode("utf-8"), "application/json",
                              "SHA-256 of the inputs and of the other outputs; versions; run "
                              "time.", "Supplement"),
     )
-    render.render_pdf(html, folder / PDF_NAME, options, attachments=attachments, dated=now)
+    render.render_pdf(html, folder / PDF_FILE, options, attachments=attachments, dated=now)
 
 
 def write_run(folder: Path, *, results: StudyResults, results_json: str, html: str,
@@ -241,13 +148,13 @@ def write_run(folder: Path, *, results: StudyResults, results_json: str, html: s
     appendix.html, figures/*.svg, `extra_files` (relative name -> text, e.g. the data
     records), appendix.pdf (PDF/A-3b with its evidence) unless `pdf` is false, and
     manifest.json last. Returns the relative paths written."""
-    (folder / "results.json").write_text(results_json, encoding="utf-8")
-    (folder / "appendix.html").write_text(html, encoding="utf-8")
+    (folder / RESULTS_FILE).write_text(results_json, encoding="utf-8")
+    (folder / HTML_FILE).write_text(html, encoding="utf-8")
     for name, text in sorted((extra_files or {}).items()):
         (folder / name).write_bytes(text.encode("utf-8"))
-    (folder / "figures").mkdir()
+    (folder / FIGURES_FOLDER).mkdir()
     for stem, svg in sorted(figures.items()):
-        (folder / "figures" / f"{stem}.svg").write_text(svg, encoding="utf-8")
+        (folder / figure_file(stem)).write_text(svg, encoding="utf-8")
     if pdf:
         if progress is not None:
             progress("rendering PDF")

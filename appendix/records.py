@@ -32,9 +32,9 @@ from appendix.data.readers import read_table
 from appendix.data.table import Table
 from appendix.data.values import is_missing, match_key
 from appendix.errors import UserError
+from appendix.names import RECORDS_FILE
 from appendix.plan.load import LoadedPlan
 
-RECORDS_FILE = "records.json"
 RECORDS_FORMAT = 1
 
 #: Rows above which the records hold no rows, only a note. A row takes about 200 bytes

@@ -34,7 +34,7 @@ from jinja2.bccache import Bucket
 from markupsafe import Markup
 
 from appendix import numbers
-from appendix.figures import FIGURE_KINDS, PLOT_POINTS
+from appendix.figure_spec import FIGURE_KINDS, PLOT_POINTS
 from appendix.methods import adjustment, methods_used, references_for
 
 PAPER_SIZES = ("A4", "Letter")

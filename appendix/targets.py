@@ -17,10 +17,8 @@ from collections.abc import Callable, Iterable
 from pathlib import Path
 
 from appendix.errors import UserError
+from appendix.names import MANIFEST_FILE, PACKAGE_ENTRIES
 
-MANIFEST = "manifest.json"
-#: Entries every reviewer package holds (see `appendix.bundle`).
-PACKAGE_ENTRIES = ("SHA256SUMS", "VERIFY.txt")
 #: The mark the diff page carries in its head (templates/diff.html.j2).
 DIFF_MARK = b'<meta name="generator" content="appendix diff'
 
@@ -37,7 +35,7 @@ def _inside(path: Path, folder: Path) -> bool:
 def run_manifest_outputs(folder: Path) -> set[str] | None:
     """The outputs a run folder's manifest lists (relative paths, the manifest included),
     or None when `folder` holds no manifest of ours."""
-    manifest = Path(folder) / MANIFEST
+    manifest = Path(folder) / MANIFEST_FILE
     try:
         if not manifest.is_file() or manifest.stat().st_size > 64 * 2**20:
             return None
@@ -48,7 +46,7 @@ def run_manifest_outputs(folder: Path) -> set[str] | None:
             or data["tool"].get("name") != "appendix" or not isinstance(data.get("outputs"), list):
         return None
     listed = {o.get("path") for o in data["outputs"] if isinstance(o, dict)}
-    return {p for p in listed if isinstance(p, str)} | {MANIFEST}
+    return {p for p in listed if isinstance(p, str)} | {MANIFEST_FILE}
 
 
 def _files_below(folder: Path) -> list[str]:
@@ -142,18 +140,3 @@ def check_file_target(target: Path, inputs: Iterable[Path], what: str,
         raise UserError(f"{target} exists and is not a {what} written by appendix; choose "
                         f"another {option} or remove it")
 
-
-def write_atomically(target: Path, data: bytes) -> None:
-    """Write `data` to a temporary file beside `target`, then rename it into place, so a
-    failed write never leaves half a file where the old one stood."""
-    import tempfile
-
-    handle, temporary = tempfile.mkstemp(prefix=f".{target.name}.", dir=target.parent)
-    try:
-        with os.fdopen(handle, "wb") as sink:
-            sink.write(data)
-        os.chmod(temporary, 0o644)
-        os.replace(temporary, target)
-    except BaseException:
-        Path(temporary).unlink(missing_ok=True)
-        raise

@@ -91,7 +91,7 @@ def measurements() -> list[Measurement]:
     import pyarrow.csv as pcsv
 
     from appendix.data.build import build_dataset
-    from appendix.data.checksums import sha256_file
+    from appendix.hashing import sha256_and_size
     from appendix.plan.load import load_plan
     from appendix.stats.design import Grid, design_cells
     from appendix.stats.linear import fit_linear
@@ -126,7 +126,7 @@ def measurements() -> list[Measurement]:
     names = ["unit_id", "group", "y"]
     as_bytes = best_time(lambda: pcsv.read_csv(data, convert_options=pcsv.ConvertOptions(
         include_columns=names, column_types={n: pa.binary() for n in names})))
-    hashing = best_time(lambda: sha256_file(data))
+    hashing = best_time(lambda: sha256_and_size(data))
     detail = (f"pyarrow read_csv {bare:.2f} s; appendix {ours:.2f} s = data stage "
               f"{parts['data']:.2f} s + design_cells/fit_linear {parts['stats']:.2f} s "
               f"({parts['arithmetic']}, decimals={parts['decimals']}); within the data stage: "

@@ -22,8 +22,12 @@ import numpy
 import pytest
 
 from appendix import api, bundle, publish
+from appendix.cli import main
 from appendix.errors import UserError
-from appendix.records import RECORDS_FILE, records_text
+from appendix.names import RECORDS_FILE
+from appendix.records import records_text
+from appendix.staging import staged_folder
+from appendix.targets import check_run_target
 from appendix.render import RenderOptions
 from tests.conftest import DEMO
 
@@ -36,7 +40,7 @@ def write_run(study: Path, folder: Path, when: _dt.datetime = RUN_TIME) -> Path:
     computed = api.compute(study)
     options = RenderOptions()
     rendered = api.render(computed, options)
-    with publish.staged_folder(folder) as staging:
+    with staged_folder(folder, check=lambda: check_run_target(folder, ())) as staging:
         publish.write_run(staging, results=computed.results,
                           results_json=rendered.results_json, html=rendered.html,
                           figures=rendered.figures, options=options,
@@ -75,7 +79,7 @@ def rezip(entries: dict[str, bytes], target: Path, extra: list[zipfile.ZipInfo] 
 
 def verify_lines(package: Path) -> tuple[int, list[str]]:
     out = io.StringIO()
-    code = bundle.verify_command(package, out)
+    code = main(["verify", str(package)], stdout=out, stderr=io.StringIO(), cwd=package.parent)
     return code, out.getvalue().splitlines()
 
 
@@ -299,7 +303,7 @@ def test_unsafe_entries_are_refused_before_anything_is_extracted(packed, tmp_pat
     else:
         package = rezip(entries, tmp_path / "unsafe.zip", extra=[entry])
     with pytest.raises(UserError) as refused:
-        bundle.verify(package)
+        api.verify(package)
     assert str(refused.value) == (f"refused {package}: unsafe entries, nothing was extracted:\n"
                                   f"  {entry.filename!r}: {reason}")
     assert extracted == []
@@ -309,9 +313,9 @@ def test_not_a_zip_is_a_user_error(tmp_path):
     fake = tmp_path / "fake.zip"
     fake.write_bytes(b"not a zip at all")
     with pytest.raises(UserError, match="is not a readable zip archive"):
-        bundle.verify(fake)
+        api.verify(fake)
     with pytest.raises(UserError, match="not found"):
-        bundle.verify(tmp_path / "absent.zip")
+        api.verify(tmp_path / "absent.zip")
 
 
 def _copy_run(packed, tmp_path) -> tuple[Path, Path]:
@@ -389,7 +393,7 @@ def test_pack_refuses_a_broken_manifest(packed, tmp_path):
 def test_pack_command_prints_the_package(packed, tmp_path):
     out = io.StringIO()
     target = tmp_path / "cmd.zip"
-    assert bundle.pack_command(packed[1], target, out) == 0
+    assert main(["pack", str(packed[1]), "--out", str(target)], stdout=out, cwd=tmp_path) == 0
     assert out.getvalue() == f"wrote {target}\n"
     assert bundle.default_package_path(packed[1]) == packed[2]
 

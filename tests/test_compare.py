@@ -19,18 +19,19 @@ import pytest
 import scipy.stats
 
 from appendix import api
+from appendix.cli import main
 from appendix.compare import (
-    Tolerance,
     compare_runs,
     conclusions_of,
-    diff_command,
     flatten_plan,
     numbers_of,
     render_page,
     to_json,
 )
 from appendix.errors import UserError
-from appendix.records import RECORDS_FILE, write_records
+from appendix.names import RECORDS_FILE
+from appendix.records import write_records
+from appendix.tolerance import Tolerance
 
 REPO = Path(__file__).resolve().parent.parent
 DEMO = REPO / "studies" / "seed-coating"
@@ -70,9 +71,17 @@ def _humic_mean(rows: dict[str, dict[str, str]]) -> float:
                             if r["coating"] == "humic" and r["damaged"] == "no" and r["shoot_dry_mass_mg"])
 
 
+def diff_command(run_a: Path, run_b: Path, *options: str) -> tuple[int, io.StringIO]:
+    """`appendix diff RUN_A RUN_B OPTIONS...`: its exit code and what it printed (no errors)."""
+    out, err = io.StringIO(), io.StringIO()
+    code = main(["diff", str(run_a), str(run_b), *options], stdout=out, stderr=err, cwd=run_a.parent)
+    assert err.getvalue() == ""
+    return code, out
+
+
 def test_demo_diff_names_the_flipped_conclusion(demo_runs):
-    out = io.StringIO()
-    assert diff_command(*demo_runs, as_json=True, html_out=None, out=out) == 1
+    code, out = diff_command(*demo_runs, "--json")
+    assert code == 1
     diff = json.loads(out.getvalue())
     assert diff["conclusions_changed"] is True
     (flip,) = diff["conclusions"]
@@ -180,8 +189,6 @@ def test_one_factor_numbers_are_its_terms_test_the_robust_tests_and_effect_sizes
 
 @pytest.mark.parametrize("side", ["A", "B"])
 def test_a_results_file_of_format_1_is_refused_with_one_sentence(demo_runs, tmp_path, side):
-    from appendix.cli import main
-
     old = tmp_path / "old"
     shutil.copytree(demo_runs[0], old)
     results = json.loads((old / "results.json").read_text(encoding="utf-8"))
@@ -210,8 +217,8 @@ def test_demo_diff_plan_and_checksums(demo_runs):
 
 
 def test_demo_diff_text_for_people(demo_runs):
-    out = io.StringIO()
-    assert diff_command(*demo_runs, as_json=False, html_out=None, out=out) == 1
+    code, out = diff_command(*demo_runs)
+    assert code == 1
     text = out.getvalue()
     assert ("   dry_mass (primary) hypothesis C2:humic: not rejected (p = 0.120608) -> rejected"
             in text)
@@ -223,8 +230,8 @@ def test_demo_diff_text_for_people(demo_runs):
 
 def test_demo_diff_page(demo_runs, tmp_path):
     page_path = tmp_path / "diff.html"
-    out = io.StringIO()
-    assert diff_command(*demo_runs, as_json=False, html_out=page_path, out=out) == 1
+    code, out = diff_command(*demo_runs, "--html", str(page_path))
+    assert code == 1 and out.getvalue().endswith(f"wrote {page_path}\n")
     page = page_path.read_text(encoding="utf-8")
     assert page == render_page(compare_runs(*demo_runs))  # same inputs, same page
     assert ("<meta http-equiv=\"Content-Security-Policy\" content=\"default-src 'none'; "
@@ -238,8 +245,8 @@ def test_demo_diff_page(demo_runs, tmp_path):
 
 
 def test_a_run_against_itself_changes_nothing(demo_runs):
-    out = io.StringIO()
-    assert diff_command(demo_runs[0], demo_runs[0], as_json=True, html_out=None, out=out) == 0
+    code, out = diff_command(demo_runs[0], demo_runs[0], "--json")
+    assert code == 0
     diff = json.loads(out.getvalue())
     assert diff["conclusions"] == [] and diff["numbers"] == []
     assert diff["data"]["added"] == diff["data"]["removed"] == diff["data"]["changed"] == []

@@ -8,7 +8,7 @@ from pathlib import Path
 import numpy as np
 
 from appendix import api
-from appendix.figures import PLOT_POINTS
+from appendix.figure_spec import PLOT_POINTS
 from appendix.stats.diagnostics import SHAPIRO_MAX_N
 
 N = 25_000

@@ -11,7 +11,8 @@ import pytest
 
 from appendix import api
 from appendix.errors import UserError
-from appendix.records import RECORDS_FILE, read_records, records_text, write_records
+from appendix.names import RECORDS_FILE
+from appendix.records import read_records, records_text, write_records
 
 REPO = Path(__file__).resolve().parent.parent
 GREENHOUSE = REPO / "studies" / "greenhouse-split" / "study.yaml"

@@ -79,7 +79,7 @@ def _fast(loaded: LoadedPlan, delimiter: str) -> Dataset | None:
     """The `Dataset` of a clean CSV/TSV file from a fast path, or None."""
     from appendix.data.columnar import read_columns
 
-    if not loaded.plan.is_one_way:  # several factors, covariates or a within factor
+    if loaded.plan.data_route == "design":  # several factors, covariates or a within factor
         from appendix.data.design_vectorised import build_design_vectorised, design_columns
 
         columns = read_columns(loaded.data_path, delimiter, design_columns(loaded))

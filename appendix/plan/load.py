@@ -6,7 +6,6 @@
 
 from __future__ import annotations
 
-import hashlib
 import json
 from collections.abc import Mapping
 from dataclasses import dataclass
@@ -17,6 +16,7 @@ from types import MappingProxyType
 from pydantic import ValidationError
 
 from appendix.errors import PlanError, Problem, UserError
+from appendix.hashing import sha256_text
 from appendix.plan.checks import consistency_problems
 from appendix.plan.messages import translate
 from appendix.plan.model import Plan
@@ -77,7 +77,7 @@ def canonical_json(plan: Plan) -> str:
 
 
 def plan_sha256(plan: Plan) -> str:
-    return hashlib.sha256(canonical_json(plan).encode("utf-8")).hexdigest()
+    return sha256_text(canonical_json(plan))
 
 
 def load_plan(path: Path | str) -> LoadedPlan:

@@ -16,7 +16,6 @@ plan's `deviations` key (acknowledgements, written after the lock) is never comp
 from __future__ import annotations
 
 import datetime as _dt
-import hashlib
 import json
 import os
 from collections.abc import Callable, Mapping
@@ -26,13 +25,15 @@ from typing import Any, Literal
 
 from appendix import __version__
 from appendix.errors import UserError
+from appendix.hashing import sha256_and_size, sha256_text
+from appendix.names import LOCK_FILE
 from appendix.plan.load import LoadedPlan, canonical_json
+from appendix.staging import write_atomically
 
-__all__ = ["LOCK_NAME", "LOCK_FORMAT", "PlanChange", "DataAtLock", "Revision", "Lock",
+__all__ = ["LOCK_FORMAT", "PlanChange", "DataAtLock", "Revision", "Lock",
            "LockOutcome", "lock_path", "read_lock", "lock_plan", "lock_text", "compare_plans",
            "lock_time"]
 
-LOCK_NAME = "study.lock.json"
 LOCK_FORMAT = 1
 
 #: Statements of whether the data existed when the plan was locked.
@@ -130,7 +131,7 @@ class LockOutcome:
 
 def lock_path(study: Path) -> Path:
     """Where the lock of a study file lives: ``study.lock.json`` in the same folder."""
-    return Path(study).parent / LOCK_NAME
+    return Path(study).parent / LOCK_FILE
 
 
 def lock_time(clock: Callable[[], _dt.datetime] | None = None,
@@ -153,10 +154,6 @@ def lock_time(clock: Callable[[], _dt.datetime] | None = None,
 def _canonical(value: Any) -> str:
     return json.dumps(value, sort_keys=True, separators=(",", ":"), ensure_ascii=False,
                       allow_nan=False)
-
-
-def _sha256(text: str) -> str:
-    return hashlib.sha256(text.encode("utf-8")).hexdigest()
 
 
 # --- comparison -------------------------------------------------------------------------
@@ -253,10 +250,7 @@ def _data_at_lock(loaded: LoadedPlan) -> DataAtLock:
     path = loaded.data_path
     if not path.is_file():
         return DataAtLock(False, BEFORE_DATA, loaded.plan.data.source, None, None)
-    from appendix.publish import sha256_file
-
-    return DataAtLock(True, WITH_DATA, loaded.plan.data.source, sha256_file(path),
-                      path.stat().st_size)
+    return DataAtLock(True, WITH_DATA, loaded.plan.data.source, *sha256_and_size(path))
 
 
 def _change_plain(change: PlanChange) -> dict[str, Any]:
@@ -317,7 +311,7 @@ def _parse(path: Path, raw: Any) -> Lock:
                 data=_data_from(r["data"])) for r in raw["revisions"]))
     except (KeyError, TypeError, ValueError) as error:
         raise _refuse(path, f"a required entry is missing or malformed ({error})") from None
-    if _sha256(plan_json) != lock.plan_sha256:
+    if sha256_text(plan_json) != lock.plan_sha256:
         raise _refuse(path, "its plan_sha256 does not match the plan it holds (the lock was "
                       "edited or damaged)")
     if lock.revisions and lock.revisions[-1].sha256 != lock.plan_sha256:
@@ -345,9 +339,7 @@ def read_lock(study: Path | str) -> Lock | None:
 
 
 def _write(path: Path, lock: Lock) -> None:
-    staging = path.with_name(f".{path.name}.tmp")
-    staging.write_text(lock_text(lock), encoding="utf-8")
-    os.replace(staging, path)
+    write_atomically(path, lock_text(lock).encode("utf-8"))
 
 
 def lock_plan(loaded: LoadedPlan, *, relock: bool = False, reason: str | None = None,

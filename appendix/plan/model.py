@@ -517,6 +517,13 @@ class Plan(_Frozen):
                 and not design.covariates and not design.interactions)
 
     @property
+    def data_route(self) -> Literal["one-factor", "design"]:
+        """How the data stage reads this plan's data: ``one-factor`` (one treatment factor,
+        nothing else: the compiled scan, the one-factor columns and aggregation out of core
+        serve it) or ``design`` (every other design: the design's columns, else the rows)."""
+        return "one-factor" if self.is_one_way else "design"
+
+    @property
     def robust_absent(self) -> str | None:
         """None when the tests of the one-factor layout that assume neither equal variances
         (Welch) nor normal errors (Kruskal-Wallis) are defined for this design: one

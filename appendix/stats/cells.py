@@ -19,14 +19,23 @@ from __future__ import annotations
 from collections.abc import Sequence
 from dataclasses import dataclass
 from fractions import Fraction
+from typing import Protocol
 
 import numpy as np
 
 from appendix.errors import InternalError
 from appendix.results import StatWarning
-from appendix.data.dataset import CellSummary
 from appendix.stats.exact import ExactSums, NotExact, exact_sums
 from appendix.stats.sweep import BadInput, FloatSweep, float_sweep
+
+
+class CellMoments(Protocol):
+    """Per-level n, mean and sum of squared deviations, each an array over the levels (the
+    data stage's `CellSummary` of a source aggregated out of core)."""
+
+    n: np.ndarray
+    mean: np.ndarray
+    ssd: np.ndarray
 
 
 def _read_only(array: np.ndarray) -> np.ndarray:
@@ -154,13 +163,14 @@ def cell_stats(
         raise InternalError("values too large to sum in float64") from None
 
 
-def cells_from_summary(summary: CellSummary, labels: Sequence[str]) -> CellStats:
+def cells_from_summary(summary: CellMoments, labels: Sequence[str]) -> CellStats:
     """Cell statistics from per-level n, mean and SSD computed elsewhere (out of core).
 
     The aggregates arrive as float64, so `arithmetic` is "float64". Empty levels must
     have n 0; their mean is set to NaN and SSD to 0.
 
-    >>> s = CellSummary(np.array([2, 2]), np.array([1.5, 4.0]), np.array([0.5, 2.0]))
+    >>> from types import SimpleNamespace
+    >>> s = SimpleNamespace(n=np.array([2, 2]), mean=np.array([1.5, 4.0]), ssd=np.array([0.5, 2.0]))
     >>> ss_between(cells_from_summary(s, ("a", "b")))
     6.25
     """

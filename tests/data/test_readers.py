@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import pytest
 
-from appendix.data.checksums import sha256_file
+from appendix.hashing import sha256_and_size
 from appendix.data.readers import formats, read_table
 from appendix.errors import DataError, UserError
 from appendix.plan.model import DATA_FORMATS
@@ -57,9 +57,9 @@ def test_every_format_reads_the_same_cells(tmp_path, ext):
 @pytest.mark.parametrize("ext", sorted(WRITERS))
 def test_input_unchanged_after_reading(tmp_path, ext):
     path = WRITERS[ext](invented_units(), tmp_path / f"units.{ext}")
-    before, mtime = sha256_file(path), path.stat().st_mtime_ns
+    before, mtime = sha256_and_size(path), path.stat().st_mtime_ns
     read_table(path)
-    assert sha256_file(path) == before
+    assert sha256_and_size(path) == before
     assert path.stat().st_mtime_ns == mtime
 
 

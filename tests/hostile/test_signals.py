@@ -15,7 +15,7 @@ from pathlib import Path
 
 import pytest
 
-from appendix import publish
+from appendix import staging
 from tests.conftest import DEMO
 from tests.hostile.helpers import hashes
 
@@ -106,7 +106,7 @@ def test_a_kill_between_the_two_renames_is_put_right(work):
     aside = work / f".run.old-{dead}-abcd"
     aside.mkdir()
     os.replace(work / "run", aside / "run")
-    notes = publish.recover(work / "run")
+    notes = staging.recover(work / "run")
     assert notes == [f"restored {work / 'run'} from an earlier run that was stopped while it "
                      "replaced the folder"]
     assert hashes(work / "run") == before and _leftovers(work) == []

@@ -147,3 +147,12 @@ def test_plan_built_in_code_checks_by_too(write_study):
     raw["contrasts"][1]["by"] = "field_block"
     with pytest.raises(ValidationError, match=r"contrasts\[1\]\.by: got 'field_block', a block"):
         Plan.model_validate(raw)
+
+
+@pytest.mark.parametrize(("text", "route"), [(BASE, "one-factor"), (BLOCKED, "design"),
+                                             (FACTORIAL, "design")])
+def test_the_plan_names_the_data_route(write_study, text, route):
+    plan = load_plan(write_study(text)).plan
+    assert plan.data_route == route
+    # the route is the one-factor layout that also decides whether Welch and Kruskal-Wallis apply
+    assert (plan.robust_absent is None) == (route == "one-factor")

@@ -14,7 +14,8 @@ import numpy as np
 import pytest
 
 from appendix.data.dataset import Dataset, OutcomeData, frozen_array
-from appendix.figures import DENSE_POINTS, FIGURE_KINDS, PALETTE, make_figures
+from appendix.figure_spec import FIGURE_KINDS
+from appendix.figures import _DRAWERS, DENSE_POINTS, PALETTE, make_figures
 from conftest import build_residuals
 
 SVG = "{http://www.w3.org/2000/svg}svg"
@@ -34,6 +35,10 @@ def test_every_figure_is_valid_svg(figures):
     assert set(figures) == expected
     for svg in figures.values():
         assert ET.fromstring(svg.encode()).tag == SVG
+
+
+def test_every_kind_the_page_shows_has_its_drawer_and_no_drawer_is_left_out():
+    assert sorted(_DRAWERS) == sorted(FIGURE_KINDS)
 
 
 def test_figures_are_deterministic_and_undated(dataset, study_results, figures, residuals):

@@ -1,0 +1,15 @@
+"""What the figure code and the page agree on, so that the page is rendered from drawn
+figures without loading the code that draws them.
+
+A figure's key is ``{outcome}-{kind}``; `FIGURE_KINDS` are the kinds drawn for every
+outcome, in the order the appendix shows them (the contrasts' forest plot, interaction,
+profile and covariate figures are added where they apply). A point cloud larger than
+`PLOT_POINTS` is drawn from a deterministic subsample of that size, and the caption says so.
+"""
+
+#: Figure kinds drawn for every outcome, in the order the appendix shows them.
+FIGURE_KINDS: tuple[str, ...] = ("distribution", "means", "qq", "residuals", "f-reference")
+
+#: Point clouds larger than this are drawn from a deterministic subsample of this size
+#: (appendix.stats.sampling); boxes, means and lines still use every unit.
+PLOT_POINTS = 20_000
