@@ -669,6 +669,54 @@ def multiplicity_method(family: Mapping[str, Any]) -> str:
     return adjustment(family["multiplicity"], family["method"]).key
 
 
+#: What each method's intervals are, and why, for the table note: (kind, sentence).
+_BESIDE = "from the reference distribution and degrees of freedom of the test beside it"
+_INTERVALS = MappingProxyType({
+    "bonferroni": ("simultaneous", "Each interval is at level 1 \u2212 \u03b1/m with m = {m}, the "
+                   f"hypotheses of the whole family, {_BESIDE}; together they hold simultaneously "
+                   "(Bonferroni's inequality)."),
+    "sidak": ("simultaneous", "Each interval is at level (1 \u2212 \u03b1)^(1/m) with m = {m}, the "
+              f"hypotheses of the whole family, {_BESIDE}; together they hold simultaneously "
+              "(\u0160id\u00e1k's inequality)."),
+    "tukey": ("simultaneous", "The intervals use the critical value of the same joint law as the "
+              "adjusted p values, with the degrees of freedom of the tests beside them, and hold "
+              "simultaneously for the family's {m} hypotheses."),
+    "holm": ("unadjusted", "Holm's step-down procedure has no simultaneous confidence intervals "
+             "that agree with its decisions in general, so each interval is the unadjusted one at "
+             f"level 1 \u2212 \u03b1, {_BESIDE}."),
+    "hochberg": ("unadjusted", "Hochberg's step-up procedure has no simultaneous confidence "
+                 "intervals that agree with its decisions, so each interval is the unadjusted one "
+                 f"at level 1 \u2212 \u03b1, {_BESIDE}."),
+    "benjamini-hochberg": ("unadjusted", "Control of the false discovery rate has no simultaneous "
+                           "confidence intervals, so each interval is the unadjusted one at level "
+                           f"1 \u2212 \u03b1, {_BESIDE}."),
+    "fixed-sequence": ("unadjusted", "No simultaneous intervals compatible with fixed-sequence "
+                       "testing are computed, so each interval is the unadjusted one at level "
+                       f"1 \u2212 \u03b1, {_BESIDE}."),
+    "graphical": ("unadjusted", "No simultaneous intervals compatible with the graphical procedure "
+                  "are computed, so each interval is the unadjusted one at level 1 \u2212 \u03b1, "
+                  f"{_BESIDE}."),
+    "none": ("unadjusted", "No multiplicity adjustment: each interval is the unadjusted one at "
+             f"level 1 \u2212 \u03b1, {_BESIDE}."),
+})
+
+
+def interval_note(method: str, m: int, tested: bool = True) -> tuple[str, str]:
+    """What the intervals of a registered family of `m` hypotheses under `method` are
+    (``simultaneous``, ``unadjusted`` or ``not-tested``) and the table note's sentence
+    saying why.
+
+    >>> interval_note("bonferroni", 4)[0]
+    'simultaneous'
+    """
+    if not tested:
+        return "not-tested", ("The family was not tested (its gate was closed), so each interval "
+                              f"is the unadjusted one at level 1 \u2212 \u03b1, {_BESIDE}, shown "
+                              "for information.")
+    kind, sentence = _INTERVALS["tukey" if method == "dunnett" else method]
+    return kind, sentence.format(m=m)
+
+
 def _contrast_methods(results: Mapping[str, Any]) -> list[str]:
     families = [f for f in all_families(results) if f["hypotheses"]]
     hypotheses = [h for f in families for h in f["hypotheses"]]

@@ -176,9 +176,18 @@ def _declared(plan: Plan) -> tuple[FamilyPlan, ...]:
             scope="declared", order=order, weights=weights, transitions=transitions,
             gate=sequence[place - 1] if place else None, index=index,
             in_sequence=place is not None))
-    by_id = {f.id: f for f in families}
-    # families of the sequence first, in its order: a gate is decided before what it opens
-    return tuple([by_id[i] for i in sequence] + [f for f in families if f.id not in sequence])
+    return tuple(families)
+
+
+def gate_order(families: tuple[FamilyPlan, ...]) -> tuple[FamilyPlan, ...]:
+    """`families` with those of the gatekeeping sequence first, in its order (a gate is
+    decided before the family it opens), then the others as listed."""
+    chain: list[FamilyPlan] = []
+    first = next((f for f in families if f.in_sequence and f.gate is None), None)
+    while first is not None:
+        chain.append(first)
+        first = next((f for f in families if f.gate == first.id), None)
+    return tuple(chain + [f for f in families if f not in chain])
 
 
 def family_of(families: tuple[FamilyPlan, ...], contrast: str, outcome: str) -> FamilyPlan | None:

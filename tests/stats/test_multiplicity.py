@@ -363,7 +363,7 @@ def test_graphical_family_errors_and_unavailable_hypotheses() -> None:
     tested = mult.apply_multiplicity(results, "graphical", 0.05, graph=graph)
     assert tested[1] is results[1]  # passes through, never rejected
     assert (tested[0].decision, tested[0].p_adjusted) == ("reject", pytest.approx(0.02))
-    with pytest.raises(InternalError, match="one hypothesis per contrast"):
+    with pytest.raises(InternalError, match="one hypothesis per node"):
         mult.apply_multiplicity(_results([0.01] * 6), "graphical", 0.05, graph=graph)
     with pytest.raises(InternalError, match="not among"):
         mult.apply_multiplicity(_one_per_contrast([0.01, 0.02], ["A", "C"]), "graphical", 0.05,
