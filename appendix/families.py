@@ -15,6 +15,7 @@ the serial gatekeeping sequence.
 from __future__ import annotations
 
 import dataclasses
+from collections.abc import Mapping
 
 import numpy as np
 
@@ -175,7 +176,7 @@ def exploratory_families(plan: Plan, outcome: str, selected: str, cells: CellSta
 Shares = dict[str, tuple[HypothesisResult, ...]]
 
 
-def _adjusted(family: FamilyPlan, shares: Shares, alpha: float) -> Shares:
+def adjust_family(family: FamilyPlan, shares: Shares, alpha: float) -> Shares:
     """Every share of `family` under its method, over all its members together.
 
     Single-step shares are final from the outcome engine. Otherwise the hypotheses are
@@ -209,25 +210,22 @@ def _adjusted(family: FamilyPlan, shares: Shares, alpha: float) -> Shares:
     return out
 
 
-def _gate(family: FamilyPlan, records: dict[str, RegisteredFamily],
-          tested: dict[str, Shares]) -> FamilyGate | None:
+def gate_before(family: FamilyPlan, before: RegisteredFamily | None,
+                shares: Shares) -> FamilyGate | None:
     """The serial gate before `family`: open when every hypothesis of the family before it
-    in the sequence was rejected and that family was tested itself."""
-    if family.gate is None:
+    in the sequence (`before`, tested as `shares`) was rejected and that family was tested
+    itself."""
+    if family.gate is None or before is None:
         return None
-    before = records[family.gate]
-    shares = tested[family.gate]
     not_rejected = tuple(HypothesisRef(o, h.id) for o, hs in shares.items() for h in hs
                          if h.decision != "reject")
     is_open = before.tested and not not_rejected and before.hypotheses > 0
-    level = before.p if before.gate is None else (
-        None if before.p is None or before.gate.p is None else max(before.p, before.gate.p))
+    # the family's largest adjusted p already holds the level of its own gate
     return FamilyGate(after=family.gate, status="open" if is_open else "closed",
-                      p=level if before.tested else None, not_rejected=not_rejected,
-                      after_tested=before.tested)
+                      p=before.p, not_rejected=not_rejected, after_tested=before.tested)
 
 
-def _through(shares: Shares, gate: FamilyGate | None, alpha: float) -> Shares:
+def through_gate(shares: Shares, gate: FamilyGate | None, alpha: float) -> Shares:
     """The shares after their gate: not tested behind a closed one, and each adjusted p at
     least the gate's level behind an open one."""
     if gate is None:
@@ -262,6 +260,21 @@ def _record(family: FamilyPlan, shares: Shares, gate: FamilyGate | None, alpha: 
         p=max(adjusted) if tested and adjusted and None not in adjusted else None)
 
 
+def run_families(families: tuple[FamilyPlan, ...], shares: Mapping[str, Shares], alpha: float
+                 ) -> tuple[dict[str, Shares], dict[str, RegisteredFamily]]:
+    """Each family of `families` tested on its shares (`shares[family id][outcome]`: the
+    hypotheses of its members there), the gatekeeping sequence first: the tested shares
+    and the record of each family, by id."""
+    tested: dict[str, Shares] = {}
+    records: dict[str, RegisteredFamily] = {}
+    for family in gate_order(families):
+        gate = gate_before(family, records.get(family.gate), tested.get(family.gate, {}))
+        tested[family.id] = through_gate(adjust_family(family, shares.get(family.id, {}), alpha),
+                                         gate, alpha)
+        records[family.id] = _record(family, tested[family.id], gate, alpha)
+    return tested, records
+
+
 def test_families(plan: Plan, outcomes: tuple[OutcomeResult, ...]
                   ) -> tuple[tuple[OutcomeResult, ...], tuple[RegisteredFamily, ...]]:
     """Every registered family tested over all its members, in the serial gatekeeping order.
@@ -278,25 +291,21 @@ def test_families(plan: Plan, outcomes: tuple[OutcomeResult, ...]
     found: dict[tuple[str, str, bool], ContrastFamily] = {
         (f.family, o.name, f.registered): f for o in outcomes for f in o.contrasts
         if f.family is not None}
-    records: dict[str, RegisteredFamily] = {}
-    tested: dict[str, Shares] = {}
-    replaced: dict[tuple[str, str, bool], ContrastFamily] = {}
-    for family in gate_order(plan.families):
-        registered = {o: found[(family.id, o, True)].hypotheses for o in family.outcomes
-                      if (family.id, o, True) in found}
-        gate = _gate(family, records, tested)
-        tested[family.id] = _through(_adjusted(family, registered, plan.alpha), gate, plan.alpha)
-        records[family.id] = _record(family, tested[family.id], gate, plan.alpha)
+    registered = {family.id: {o: found[(family.id, o, True)].hypotheses for o in family.outcomes
+                              if (family.id, o, True) in found} for family in plan.families}
+    tested, records = run_families(plan.families, registered, plan.alpha)
+    replaced: dict[tuple[str, str, bool], tuple[HypothesisResult, ...]] = {}
+    for family in plan.families:
         for o, hypotheses in tested[family.id].items():
-            replaced[(family.id, o, True)] = dataclasses.replace(found[(family.id, o, True)],
-                                                                 hypotheses=hypotheses)
+            replaced[(family.id, o, True)] = hypotheses
             comparison = found.get((family.id, o, False))
             if comparison is not None:
-                swapped = _through(_adjusted(family, {**registered, o: comparison.hypotheses},
-                                             plan.alpha), gate, plan.alpha)
-                replaced[(family.id, o, False)] = dataclasses.replace(comparison, hypotheses=swapped[o])
+                swapped = {**registered[family.id], o: comparison.hypotheses}
+                replaced[(family.id, o, False)] = through_gate(
+                    adjust_family(family, swapped, plan.alpha), records[family.id].gate, plan.alpha)[o]
     out = tuple(dataclasses.replace(o, contrasts=tuple(
-        replaced.get((f.family, o.name, f.registered), f) for f in o.contrasts)) for o in outcomes)
+        dataclasses.replace(f, hypotheses=replaced[key]) if (key := (f.family, o.name, f.registered))
+        in replaced else f for f in o.contrasts)) for o in outcomes)
     return out, tuple(records[f.id] for f in plan.families)
 
 

@@ -2,8 +2,8 @@
 
 `test_family` computes one outcome's registered family: every hypothesis under the
 registered method (classical, welch, rank-based), then the registered multiplicity
-control. `adjust_across` pools several outcomes' hypotheses into one adjustment
-(``scope: primary-family``).
+control. A family across outcomes is pooled and adjusted by `appendix.families`, with
+`apply_multiplicity` over all its hypotheses.
 
 Adjusted p-values (Wright 1992, Biometrics 48:1005-1013, for the adjusted-p forms) are
 monotone in the raw p, never below it and capped at 1:
@@ -220,43 +220,6 @@ def apply_multiplicity(results: Sequence[HypothesisResult], method: str, alpha: 
         per_level, simultaneous = math.exp(math.log1p(-alpha) / m), True
     return tuple(r if r.p is None else _decide(r, float(p_adj), alpha, per_level, simultaneous)
                  for r, p_adj in zip(results, adjusted))
-
-
-def adjust_across(families: Sequence[Sequence[HypothesisResult]], method: str, alpha: float, *,
-                  order: Sequence[str] | None = None) -> tuple[tuple[HypothesisResult, ...], ...]:
-    """One adjustment over several outcomes' hypotheses (``scope: primary-family``).
-
-    The runner computes each primary outcome's family with `test_family` (any p-value
-    method; its p_adjusted is then replaced here), passes the families in plan order,
-    and gets them back in the same shape, adjusted as one family of m = all available
-    hypotheses. For fixed-sequence the sequence is each outcome's registered order,
-    outcome after outcome in plan order. Tukey, Dunnett and graphical cannot span
-    outcomes (the plan stage forbids it), so they raise InternalError.
-    """
-    if method in ("tukey", "dunnett", "graphical"):
-        raise InternalError(f"{method} cannot adjust across outcomes (scope primary-family)")
-    sizes = [len(f) for f in families]
-    flat = [r for f in families for r in f]
-    if method == "fixed-sequence":
-        if order is None:
-            raise InternalError("fixed-sequence needs the registered order")
-        walk: list[int] = []
-        start = 0
-        for family, size in zip(families, sizes):
-            walk.extend(start + i for i in _sequence_positions(tuple(family), order))
-            start += size
-        walked = fixed_sequence([flat[i] for i in walk], alpha)
-        placed: list[HypothesisResult | None] = [None] * len(flat)
-        for i, r in zip(walk, walked):
-            placed[i] = r
-        flat = placed  # type: ignore[assignment]
-    else:
-        flat = list(apply_multiplicity(flat, method, alpha, order=order))
-    out, start = [], 0
-    for size in sizes:
-        out.append(tuple(flat[start:start + size]))
-        start += size
-    return tuple(out)
 
 
 def _alternatives(alternative: str | Sequence[str], count: int) -> tuple[str, ...]:
