@@ -13,7 +13,7 @@ import math
 from dataclasses import dataclass
 
 from appendix.plan.model import Plan
-from appendix.plan.wording import key_path
+from appendix.plan.wording import key_path, one_of
 
 # Short citations, recalled from memory (author, year, journal, volume:pages); the EMA
 # reference number was checked against the agency's document page. The appendix's methods
@@ -141,12 +141,15 @@ def _separate_families(plan: Plan) -> list[Note]:
     apart = [f.id for f in families if not f.in_sequence]
     if len(families) < 2 or not apart:
         return []
-    joint = "" if not plan.multiplicity.sequence else " (or add them to multiplicity.sequence)"
+    which = (f"family {apart[0]!r} is" if len(apart) == 1
+             else f"families {one_of(apart, 'and')} are")
+    remedy = ("adding it to the gatekeeping sequence" if len(apart) == 1 else "adding them to the "
+              "gatekeeping sequence") if plan.multiplicity.sequence else "a gatekeeping sequence"
     return [Note(
         "families-apart", "multiplicity.families",
-        f"families {', '.join(map(repr, apart))} are tested at the full alpha {plan.alpha:g} apart "
-        f"from the other families: the family-wise error rate is controlled within each, not across "
-        f"them; a gatekeeping sequence{joint} or one graphical family over their hypotheses "
+        f"{which} tested at the full alpha {plan.alpha:g} apart from the other families: the "
+        "family-wise error rate is controlled within each family, not across them; "
+        f"{remedy} (multiplicity.sequence), or one graphical family over the hypotheses, "
         "controls it across families",
         ICH_E9_MULTIPLICITY)]
 

@@ -199,3 +199,47 @@ CASES = [
 @pytest.mark.parametrize("text, lines", [c[1:] for c in CASES], ids=[c[0] for c in CASES])
 def test_broken_family_plan_message(write_study, text, lines):
     assert_refused(write_study(text), lines)
+
+
+def test_check_lists_each_family_its_graph_and_the_sequence(write_study):
+    from appendix.preview import describe_contrasts
+
+    lines = describe_contrasts(load_plan(write_study(DECLARED)).plan)
+    assert lines[-6:] == [
+        "family P: dunnett over D1@pain; 2 hypotheses",
+        "family Q: holm over C1@pain; 1 hypothesis",
+        "family M: bonferroni over C3@mobility; 3 hypotheses",
+        "family S: graphical over C1@sleep, C2@sleep, C1@mobility, C2@mobility; 4 hypotheses; "
+        "tested only if every hypothesis of family P is rejected",
+        "graph of family S: weights C1@sleep 0.5, C1@mobility 0.5; transitions C1@sleep -> "
+        "C2@sleep 1, C1@mobility -> C2@mobility 1, C2@sleep -> C1@mobility 1, C2@mobility -> "
+        "C1@sleep 1",
+        "serial gatekeeping: P -> S"]
+
+
+def test_notes_on_families_tested_apart_and_families_without_control(write_study):
+    from appendix.plan.lints import lint
+
+    text = DECLARED.replace("outcomes: [pain], method: holm}", "outcomes: [pain], method: none}")
+    text = text.replace("role: secondary}\n  - {name: mobility", "role: primary}\n  - {name: mobility")
+    notes = {n.code: n for n in lint(load_plan(write_study(text)).plan)}
+    assert notes["families-apart"].message == (
+        "families 'Q' and 'M' are tested at the full alpha 0.05 apart from the other families: "
+        "the family-wise error rate is controlled within each family, not across them; adding "
+        "them to the gatekeeping sequence (multiplicity.sequence), or one graphical family over "
+        "the hypotheses, controls it across families")
+    assert "no-multiplicity-control" not in notes  # Q holds one primary hypothesis only
+    unadjusted = THREE.replace("role: secondary}\n  - {name: mobility",
+                               "role: primary}\n  - {name: mobility") + (
+        "multiplicity:\n  families:\n"
+        "    - {id: P, contrasts: [D1], outcomes: [pain], method: dunnett}\n"
+        "    - {id: Q, contrasts: [C1], outcomes: [pain, sleep], method: none}\n"
+        "    - {id: S, contrasts: [C1, C2, C3], outcomes: [mobility], method: holm}\n"
+        "    - {id: T, contrasts: [C2], outcomes: [sleep], method: holm}\n")
+    note = next(n for n in lint(load_plan(write_study(unadjusted)).plan)
+                if n.code == "no-multiplicity-control")
+    # 1 - 0.95^2 = 0.0975, the chance of a false rejection of two independent tests
+    assert (note.path, note.message) == (
+        "multiplicity.families[1].method",
+        "method 'none' leaves the 2 hypotheses of family 'Q' unadjusted: the chance of at least "
+        "one false rejection exceeds alpha 0.05 (0.098 if the 2 tests were independent)")
