@@ -21,6 +21,7 @@ from appendix.results import (
     HypothesisResult,
     NormalityTest,
     Number,
+    RegisteredFamily,
     StatWarning,
     VarianceTest,
 )
@@ -174,21 +175,49 @@ def _interval_words(h: HypothesisResult, unit: str) -> Parts:
                  Number("upper-limit", h.ci_high), unit)
 
 
+def _family_words(family: RegisteredFamily | None) -> str:
+    """``, family S`` for a hypothesis of a declared family (with ``, tested after every
+    hypothesis of family P was rejected`` behind an open gate); empty for the family of
+    one outcome (or of the primary outcomes) that the top-level form registers."""
+    if family is None or family.scope != "declared":
+        return ""
+    words = f", family {family.id}"
+    if family.gate is not None and family.gate.status == "open":
+        words += f", tested after every hypothesis of family {family.gate.after} was rejected"
+    return words
+
+
+def _not_tested(ref: str, family: RegisteredFamily | None) -> str:
+    """Why a hypothesis was not tested: a closed gate, or a fixed sequence that stopped."""
+    gate = family.gate if family is not None else None
+    if gate is None or gate.status == "open":
+        return (f"{upper_first(ref)} was not tested under the plan: fixed-sequence testing "
+                "stopped at an earlier hypothesis that was not rejected.")
+    if not gate.after_tested:
+        why = f"family {gate.after} was not tested itself"
+    else:
+        count = len(gate.not_rejected)
+        why = f"{count} of its hypothes{'is was' if count == 1 else 'es were'} not rejected"
+    return (f"{upper_first(ref)} was not tested under the plan: its family {family.id} is tested "
+            f"only when every hypothesis of family {gate.after} is rejected, and {why} (the gate "
+            "was closed).")
+
+
 def hypothesis_conclusion(plan: Plan, outcome: Outcome, h: HypothesisResult,
-                          multiplicity: str) -> Conclusion:
+                          multiplicity: str, family: RegisteredFamily | None = None) -> Conclusion:
     """One registered contrast hypothesis in plain words, e.g. "Mean shoot dry mass under
     seaweed was 6.1 mg higher than under uncoated (95% simultaneous CI 2.0 to 10.2 mg,
     adjusted p = .002, Dunnett); the hypothesis of no difference is rejected at α = .05."
     A trend names the scale of its estimate: "The linear trend (C4:linear) of mean dry
     mass, its least-squares slope per step between adjacent levels of dose, was estimated
     at 0.80 mg per step (...)".
+    `family` is the registered family the hypothesis belongs to: a declared family is named
+    in the evidence, and a hypothesis behind a closed gate says why it was not tested.
     """
     alpha = plan.alpha
     ref = f"{h.label} ({h.id})"
     if h.decision == "not-tested":
-        sentence = (f"{upper_first(ref)} was not tested under the plan: fixed-sequence testing "
-                    "stopped at an earlier hypothesis that was not rejected.",)
-        return Conclusion(sentence, decision="unavailable", p=None, alpha=alpha)
+        return Conclusion((_not_tested(ref, family),), decision="unavailable", p=None, alpha=alpha)
     if h.estimate is None or h.p is None:
         reasons = " ".join(w.message for w in h.warnings) or "See the warnings."
         sentence = (f"{upper_first(ref)} could not be estimated. {reasons}",)
@@ -199,7 +228,7 @@ def hypothesis_conclusion(plan: Plan, outcome: Outcome, h: HypothesisResult,
     adjusted = (("adjusted ", Number("p", h.p_adjusted))
                 if h.p_adjusted is not None and multiplicity != "none" else Number("p", h.p))
     how = adjustment(multiplicity, h.method).plain  # the procedure computed, e.g. Games-Howell
-    evidence = parts(" (", _interval_words(h, unit), ", ", adjusted, f", {how})")
+    evidence = parts(" (", _interval_words(h, unit), ", ", adjusted, f", {how}{_family_words(family)})")
     factor = plan.factor_named(_contrast_factor(plan, h))
     pair = _levels_compared(h, factor.levels)
     size = abs(h.estimate)

@@ -25,6 +25,8 @@ colour (its position in the registered level order) in every figure.
 
 from __future__ import annotations
 
+import dataclasses
+
 import io
 import itertools
 import re
@@ -131,7 +133,10 @@ def make_figures(dataset: Dataset, results: StudyResults,
                 _draw(figures, f"{outcome.name}-{kind}", _DRAWERS[kind], panel)
             figures.update(_covariate_figures(dataset, results, outcome, residuals.get(outcome.name)))
         figures.update(_lines_of_means(results, outcome))
-        family = next((f for f in outcome.contrasts if f.registered), None)
+        shares = [f for f in outcome.contrasts if f.registered]
+        # one plot of every registered hypothesis of the outcome, family after family
+        family = (dataclasses.replace(shares[0], hypotheses=tuple(h for f in shares for h in f.hypotheses))
+                  if shares else None)
         if family is not None and family.hypotheses:
             _draw(figures, f"{outcome.name}-{CONTRASTS_KIND}",
                   lambda f: _forest(outcome, f), family)

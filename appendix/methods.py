@@ -115,6 +115,9 @@ REFERENCES: Mapping[str, Reference] = MappingProxyType({r.key: r for r in (
              "10.1080/01621459.1961.10482090"),
     _article("dunn1964", "Dunn, O. J.", 1964, "Multiple comparisons using rank sums",
              "Technometrics", "6", "3", "241\u2013252", "10.1080/00401706.1964.10490181"),
+    _article("dmitrienko2007", "Dmitrienko, A., & Tamhane, A. C.", 2007, "Gatekeeping procedures "
+             "with clinical trial applications", "Pharmaceutical Statistics", "6", "3",
+             "171\u2013180", "10.1002/pst.291"),
     _article("dunnett1955", "Dunnett, C. W.", 1955, "A multiple comparison procedure for "
              "comparing several treatments with a control", "Journal of the American "
              "Statistical Association", "50", "272", "1096\u20131121",
@@ -531,6 +534,16 @@ METHODS: Mapping[str, Method] = MappingProxyType({m.key: m for m in (
            "family-wise error rate under any dependence. Adjusted p values are those of Bretz "
            "et al. (2011); intervals are unadjusted.",
            ("bretz2009", "bretz2011")),
+    Method("serial-gatekeeping", "Serial gatekeeping",
+           "The registered families are tested in the registered sequence: the first at the full "
+           "\u03b1, each later one at the full \u03b1 only when every hypothesis of the family "
+           "before it was rejected, otherwise none of its hypotheses is tested (the gate is "
+           "closed). This keeps the family-wise error rate over all the families of the "
+           "sequence at \u03b1 (Maurer et al., 1995; Westfall & Krishen, 2001; Dmitrienko & "
+           "Tamhane, 2007). The adjusted p of a hypothesis behind an open gate is the larger of "
+           "its adjusted p within its family and the largest adjusted p of the families before "
+           "it.",
+           ("maurer1995", "westfall2001", "dmitrienko2007")),
     Method("unadjusted", "No multiplicity adjustment",
            "Families marked with no adjustment report raw p values and unadjusted intervals; "
            "with several hypotheses the chance of at least one false rejection exceeds "
@@ -682,6 +695,54 @@ def multiplicity_method(family: Mapping[str, Any]) -> str:
     return adjustment(family["multiplicity"], family["method"]).key
 
 
+#: What each method's intervals are, and why, for the table note: (kind, sentence).
+_BESIDE = "from the reference distribution and degrees of freedom of the test beside it"
+_INTERVALS = MappingProxyType({
+    "bonferroni": ("simultaneous", "Each interval is at level 1 \u2212 \u03b1/m with m = {m}, the "
+                   f"hypotheses of the whole family, {_BESIDE}; together they hold simultaneously "
+                   "(Bonferroni's inequality)."),
+    "sidak": ("simultaneous", "Each interval is at level (1 \u2212 \u03b1)^(1/m) with m = {m}, the "
+              f"hypotheses of the whole family, {_BESIDE}; together they hold simultaneously "
+              "(\u0160id\u00e1k's inequality)."),
+    "tukey": ("simultaneous", "The intervals use the critical value of the same joint law as the "
+              "adjusted p values, with the degrees of freedom of the tests beside them, and hold "
+              "simultaneously for the family's {m} hypotheses."),
+    "holm": ("unadjusted", "Holm's step-down procedure has no simultaneous confidence intervals "
+             "that agree with its decisions in general, so each interval is the unadjusted one at "
+             f"level 1 \u2212 \u03b1, {_BESIDE}."),
+    "hochberg": ("unadjusted", "Hochberg's step-up procedure has no simultaneous confidence "
+                 "intervals that agree with its decisions, so each interval is the unadjusted one "
+                 f"at level 1 \u2212 \u03b1, {_BESIDE}."),
+    "benjamini-hochberg": ("unadjusted", "Control of the false discovery rate has no simultaneous "
+                           "confidence intervals, so each interval is the unadjusted one at level "
+                           f"1 \u2212 \u03b1, {_BESIDE}."),
+    "fixed-sequence": ("unadjusted", "No simultaneous intervals compatible with fixed-sequence "
+                       "testing are computed, so each interval is the unadjusted one at level "
+                       f"1 \u2212 \u03b1, {_BESIDE}."),
+    "graphical": ("unadjusted", "No simultaneous intervals compatible with the graphical procedure "
+                  "are computed, so each interval is the unadjusted one at level 1 \u2212 \u03b1, "
+                  f"{_BESIDE}."),
+    "none": ("unadjusted", "No multiplicity adjustment: each interval is the unadjusted one at "
+             f"level 1 \u2212 \u03b1, {_BESIDE}."),
+})
+
+
+def interval_note(method: str, m: int, tested: bool = True) -> tuple[str, str]:
+    """What the intervals of a registered family of `m` hypotheses under `method` are
+    (``simultaneous``, ``unadjusted`` or ``not-tested``) and the table note's sentence
+    saying why.
+
+    >>> interval_note("bonferroni", 4)[0]
+    'simultaneous'
+    """
+    if not tested:
+        return "not-tested", ("The family was not tested (its gate was closed), so each interval "
+                              f"is the unadjusted one at level 1 \u2212 \u03b1, {_BESIDE}, shown "
+                              "for information.")
+    kind, sentence = _INTERVALS["tukey" if method == "dunnett" else method]
+    return kind, sentence.format(m=m)
+
+
 def _contrast_methods(results: Mapping[str, Any]) -> list[str]:
     families = [f for f in all_families(results) if f["hypotheses"]]
     hypotheses = [h for f in families for h in f["hypotheses"]]
@@ -737,12 +798,18 @@ def methods_used(results: Mapping[str, Any]) -> tuple[Method, ...]:
     chosen += [m for m in ("exact-decimal", "float64") if m in arithmetic]
     chosen += ["subsample"] if _ran(outcomes, lambda o: o.get("sample_of")) else []
     chosen += _contrast_methods(results)
+    declared = [f for f in results.get("families", ()) if f["scope"] == "declared"]
+    extra = [_families_method(declared)] if declared else []
+    if any(f["gate"] for f in declared):
+        extra.append(METHODS["serial-gatekeeping"])
     # with a registered fallback the diagnostics can choose the analysis: say so instead
     chosen += ["contingency"] if _ran(outcomes, lambda o: o.get("contingencies")) else ["pretest"]
     chosen += ["reporting"]
     defaults = {s["key"] for s in results.get("plan_settings", ()) if not s["stated"]}
-    return tuple(_as_stated(METHODS[key], defaults) if key in METHODS
-                 else _per_outcome_covariates(outcomes) for key in chosen)
+    listed = [_as_stated(METHODS[key], defaults) if key in METHODS
+              else _per_outcome_covariates(outcomes) for key in chosen]
+    # the families after the contrast methods, before the contingency (or pretest) and reporting
+    return tuple(listed[:-2] + extra + listed[-2:])
 
 
 def _strata(outcome) -> list:
@@ -766,6 +833,34 @@ def _per_outcome_covariates(outcomes) -> Method:
     return Method("covariates-per-outcome", "Covariates by outcome",
                   "Each outcome is adjusted only for the covariates the plan registers for it: "
                   + "; ".join(adjusted(o) for o in outcomes) + ".", ())
+
+
+def _families_method(declared: list[Mapping[str, Any]]) -> Method:
+    """The registered families of a plan that declares them, each with its method, members
+    and place in the gatekeeping sequence, in one paragraph."""
+    parts = []
+    for f in declared:
+        outcomes = list(dict.fromkeys(m["outcome"] for m in f["members"]))
+        name = ADJUSTMENTS[_FAMILY_KEYS.get(f["method"], f["method"])].name
+        where = ", ".join(outcomes[:-1]) + (" and " if len(outcomes) > 1 else "") + outcomes[-1]
+        text = (f"family {f['id']}{' (' + f['label'] + ')' if f['label'] else ''}: "
+                f"{f['hypotheses']} hypothes{'is' if f['hypotheses'] == 1 else 'es'} on {where}, "
+                f"{name}")
+        if f["gate"]:
+            text += f", tested only after every hypothesis of family {f['gate']['after']} is rejected"
+        parts.append(text)
+    return Method("families", "Registered families of hypotheses",
+                  "The plan registers its hypotheses in families, each tested by its own method "
+                  "over all its members (across outcomes where it spans several) at the full "
+                  "\u03b1: "
+                  + "; ".join(parts) + ". Each conclusion names its family. Families not linked "
+                  "by a gatekeeping sequence each control the family-wise error rate on their own, "
+                  "not jointly.", ())
+
+
+#: The multiplicity key of a family as the family-level name of its method (the analysis
+#: may change the single-step test computed; each table names the one it computed).
+_FAMILY_KEYS = MappingProxyType({"none": "unadjusted"})
 
 
 def _as_stated(method: Method, defaults) -> Method:

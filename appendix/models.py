@@ -34,7 +34,8 @@ import numpy as np
 
 from appendix import conclude, families as one_factor
 from appendix.data.dataset import OutcomeData
-from appendix.families import registered_graph, sequence_order
+from appendix.families import provisional, shares_on
+from appendix.plan.family_plan import SINGLE_STEP
 from appendix.plan.model import Outcome, Plan
 from appendix.results import (
     ContrastFamily,
@@ -481,8 +482,10 @@ def _raw_results(plan: Plan, contrasts, fit, complete, occasion_fit=None) -> lis
 
 def _contrast_families(plan: Plan, outcome: Outcome, *, fit=None, complete=None, occasion_fit=None,
                        occasion_residuals=None):
-    """The registered family of one outcome (all its contrasts' hypotheses) under the
-    registered multiplicity control, and its exploratory families by id (unadjusted).
+    """The share on one outcome of each registered family with members there (a
+    single-step share adjusted in full, every other share unadjusted until
+    `appendix.families.test_families` adjusts the whole family), and the outcome's
+    exploratory families by id (unadjusted).
 
     Contrasts of between-unit factors are taken on the model's marginal means (`fit`);
     contrasts of the within factor on the complete units' own contrast scores
@@ -497,25 +500,23 @@ def _contrast_families(plan: Plan, outcome: Outcome, *, fit=None, complete=None,
         exploratory[entry.id] = ContrastFamily(
             outcome=outcome.name, scope="exploratory", multiplicity="none", method="marginal-means",
             alpha=plan.alpha, registered=False, hypotheses=tuple(tested))
-    contrasts = plan.contrasts_for(outcome.name)
-    if not contrasts:
-        return (), exploratory
-    raw = _raw_results(plan, contrasts, fit, complete, occasion_fit)
-    method = plan.multiplicity.method
-    joint = error = None
-    if method in ("tukey", "dunnett"):
-        corr, approximate = _family_correlation(plan, list(_members(plan, contrasts)), fit, complete,
-                                                occasion_residuals)
-        tested, error = joint_results(raw, corr, plan.alpha, approximate)
-        joint = "multivariate-t" if approximate is None else "multivariate-t-approximate"
-    else:
-        tested = apply_multiplicity(raw, method, plan.alpha, order=sequence_order(plan, raw),
-                                    graph=registered_graph(plan))
-    family = ContrastFamily(outcome=outcome.name, scope=plan.multiplicity.scope, multiplicity=method,
-                            method="marginal-means", alpha=plan.alpha, registered=True,
-                            hypotheses=tuple(tested), joint=joint, joint_error=error,
-                            by=_slicing_label(plan, contrasts))
-    return (family,), exploratory
+    families = []
+    for registered, contrasts in shares_on(plan, outcome.name):
+        raw = _raw_results(plan, contrasts, fit, complete, occasion_fit)
+        method = registered.method
+        joint = error = None
+        if method in SINGLE_STEP:
+            corr, approximate = _family_correlation(plan, list(_members(plan, contrasts)), fit, complete,
+                                                    occasion_residuals)
+            tested, error = joint_results(raw, corr, plan.alpha, approximate)
+            joint = "multivariate-t" if approximate is None else "multivariate-t-approximate"
+        else:  # adjusted over the whole family, across outcomes, by families.test_families
+            tested = apply_multiplicity(raw, provisional(method), plan.alpha)
+        families.append(ContrastFamily(
+            outcome=outcome.name, scope=registered.scope, multiplicity=method,
+            method="marginal-means", alpha=plan.alpha, registered=True, hypotheses=tuple(tested),
+            joint=joint, joint_error=error, by=_slicing_label(plan, contrasts), family=registered.id))
+    return tuple(families), exploratory
 
 
 def _slicing_label(plan: Plan, contrasts) -> str | None:

@@ -36,7 +36,9 @@ def describe_contrasts(plan: Plan) -> list[str]:
               f"({rule.when}), use {rule.use}"
               for i, rule in enumerate(plan.assumptions.fallbacks, start=1)]
     lines += [_contrast("contrast", c, plan) for c in plan.contrasts]
-    if plan.contrasts:
+    if plan.contrasts and plan.multiplicity.families is not None:
+        lines += _family_lines(plan)
+    elif plan.contrasts:
         settings = plan.multiplicity
         order = f" in the order {', '.join(settings.order)}" if settings.order else ""
         counts = ", ".join(f"{o.name} {plan.hypothesis_count(o.name)}" for o in plan.outcomes)
@@ -48,6 +50,29 @@ def describe_contrasts(plan: Plan) -> list[str]:
             lines.append(_graph_line(settings))
     lines += [_contrast("exploratory", c, plan) + f"; not adjusted; reason: {c.reason}"
               for c in plan.exploratory]
+    return lines
+
+
+def _family_lines(plan: Plan) -> list[str]:
+    """One line per declared family (method, members, hypotheses, gate), and its graph."""
+    lines = []
+    for family in plan.families:
+        count = sum(plan.hypotheses_of(next(c for c in plan.contrasts if c.id == n.contrast))
+                    for n in family.members)
+        order = (f" in the order {', '.join(family.node_name(n) for n in family.order)}"
+                 if family.order else "")
+        gate = f"; tested only if every hypothesis of family {family.gate} is rejected" if family.gate else ""
+        lines.append(f"family {family.id}: {family.method}{order} over "
+                     f"{', '.join(family.node_name(n) for n in family.members)}; {count} "
+                     f"hypothes{'is' if count == 1 else 'es'}{gate}")
+        if family.method == "graphical":
+            weights = ", ".join(f"{family.node_name(n)} {w:g}" for n, w in (family.weights or {}).items())
+            edges = [f"{family.node_name(s)} -> {family.node_name(t)} {v:g}"
+                     for s, row in (family.transitions or {}).items() for t, v in row.items()]
+            lines.append(f"graph of family {family.id}: weights {weights or 'none'}; "
+                         f"transitions {', '.join(edges) or 'none'}")
+    if plan.multiplicity.sequence:
+        lines.append(f"serial gatekeeping: {' -> '.join(plan.multiplicity.sequence)}")
     return lines
 
 

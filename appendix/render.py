@@ -107,7 +107,14 @@ def _filters(options: RenderOptions) -> dict[str, Any]:
         "contrast_interval": _contrast_interval,
         "error_bound": _error_bound,
         "adjustment": lambda family: adjustment(family["multiplicity"], family["method"]),
+        "words_list": _words_list,
     }
+
+
+def _words_list(names) -> str:
+    """``a``, ``a and b``, ``a, b and c``."""
+    names = [str(n) for n in names]
+    return ", ".join(names[:-1]) + (" and " if len(names) > 1 else "") + (names[-1] if names else "")
 
 
 #: Words the templates show for the results' stable identifiers.
@@ -146,6 +153,7 @@ WORDS: Mapping[str, Mapping[str, str]] = MappingProxyType({
     "scopes": MappingProxyType({
         "per-outcome": "across this outcome's hypotheses",
         "primary-family": "across the hypotheses of every primary outcome",
+        "declared": "over the whole registered family",
         "exploratory": "within this exploratory analysis"}),
     "decisions": MappingProxyType({
         "reject": "rejected", "retain": "not rejected",
@@ -306,6 +314,7 @@ def render_html(results: dict, figures: dict[str, str], options: RenderOptions) 
     methods = methods_used(results)
     return env.get_template("appendix.html.j2").render(
         r=results,
+        families={f["id"]: f for f in results.get("families", ())},
         outcomes=_ordered_outcomes(results),
         figures={key: _inline_svg(svg) for key, svg in figures.items()},
         figure_kinds=FIGURE_KINDS,

@@ -340,7 +340,10 @@ class ContrastFamily:
     estimates); None for other controls. `joint_error` bounds the numerical integration
     error of its adjusted p-values (about 99%; None when they are exact to rounding).
     `by` is the label of the factor whose levels slice every contrast of the family
-    (simple effects), else None.
+    (simple effects), else None. `family` is the id of the registered family
+    (`RegisteredFamily`) this is the share of on the outcome: a family may span outcomes,
+    and an outcome hold shares of several families (None for exploratory families).
+    `scope` is then that family's: ``per-outcome``, ``primary-family`` or ``declared``.
     """
 
     outcome: str
@@ -354,6 +357,87 @@ class ContrastFamily:
     joint: str | None = None
     joint_error: float | None = None
     by: str | None = None
+    family: str | None = None
+
+
+@dataclass(frozen=True)
+class HypothesisRef:
+    """A registered hypothesis by outcome and hypothesis id."""
+
+    outcome: str
+    id: str
+
+
+@dataclass(frozen=True)
+class FamilyMember:
+    """One member of a registered family: a contrast on an outcome (`node`, as the plan
+    names it: the contrast id, or ``contrast@outcome`` in a declared family), the ids of
+    its hypotheses there, and under the graphical procedure its initial share of alpha."""
+
+    node: str
+    contrast: str
+    outcome: str
+    hypotheses: tuple[str, ...]
+    weight: float | None = None
+
+
+@dataclass(frozen=True)
+class FamilyEdge:
+    """A transition of a registered graph: the share of `source`'s level passed to `target`
+    once `source` is rejected."""
+
+    source: str
+    target: str
+    share: float
+
+
+@dataclass(frozen=True)
+class FamilyGate:
+    """Serial gatekeeping of a family: `after` is the family before it in the registered
+    sequence; `status` ``open`` when every hypothesis of that family was rejected (and it
+    was tested itself), else ``closed``. `p` is the largest adjusted p of the families
+    before it (the smallest alpha at which the gate opens; None when one is missing);
+    `not_rejected` the hypotheses of `after` that were not rejected."""
+
+    after: str
+    status: str
+    p: float | None
+    not_rejected: tuple[HypothesisRef, ...] = ()
+    after_tested: bool = True
+
+
+@dataclass(frozen=True)
+class RegisteredFamily:
+    """A family of registered hypotheses tested together, as the plan registered it and as
+    it was tested, whatever the form of the plan's multiplicity.
+
+    `method` is the registered multiplicity method and `scope` ``per-outcome`` (one
+    outcome's contrasts, id the outcome's name), ``primary-family`` (the primary
+    outcomes') or ``declared`` (under ``multiplicity.families``). `members` are its nodes
+    in listing order, `order` the fixed-sequence order of their names, `transitions` its
+    graph's edges. `gate` is None unless the family stands after another in the serial
+    gatekeeping sequence; `tested` is False when that gate was closed. `hypotheses` and
+    `rejected` count its hypotheses; `p` is its largest adjusted p (None when one is
+    missing or it was not tested). `intervals` says what its intervals are
+    (``simultaneous``, ``unadjusted`` or ``not-tested``) and `interval_note` why, in a
+    sentence for the table note.
+    """
+
+    id: str
+    method: str
+    scope: str
+    alpha: float
+    members: tuple[FamilyMember, ...]
+    tested: bool
+    hypotheses: int
+    rejected: int
+    intervals: str
+    interval_note: str
+    label: str | None = None
+    order: tuple[str, ...] = ()
+    transitions: tuple[FamilyEdge, ...] = ()
+    gate: FamilyGate | None = None
+    p: float | None = None
 
 
 @dataclass(frozen=True)
@@ -756,6 +840,7 @@ class StudyResults:
     factors: tuple[FactorInfo, ...] = ()
     registration: Registration | None = None
     plan_settings: tuple[PlanSetting, ...] = ()
+    families: tuple[RegisteredFamily, ...] = ()
     format_version: int = field(default=FORMAT_VERSION)
 
 

@@ -21,18 +21,22 @@ from appendix.results import (
     ExploratoryAnalysis,
     FactorInfo,
     OutcomeResult,
+    RegisteredFamily,
     Software,
     StudyInfo,
     StudyResults,
 )
 
 
-def _with_hypothesis_conclusions(plan: Plan, result: OutcomeResult) -> OutcomeResult:
+def _with_hypothesis_conclusions(plan: Plan, result: OutcomeResult,
+                                 tested: tuple[RegisteredFamily, ...]) -> OutcomeResult:
     plan = plan.for_outcome(result.name)
     outcome = next(o for o in plan.outcomes if o.name == result.name)
     caveat = conclude.slopes_caveat(getattr(result, "slopes", ()), plan.alpha)
+    records = {r.id: r for r in tested}
     sentences = tuple(
-        conclude.with_caveat(conclude.hypothesis_conclusion(plan, outcome, h, family.multiplicity),
+        conclude.with_caveat(conclude.hypothesis_conclusion(plan, outcome, h, family.multiplicity,
+                                                            records.get(family.family)),
                              caveat if _between_units(plan, h) else "")
         for family in result.contrasts if family.registered for h in family.hypotheses)
     return dataclasses.replace(result, hypothesis_conclusions=sentences)
@@ -77,13 +81,12 @@ def study_analysis(loaded: LoadedPlan, dataset: Dataset, software: tuple[Softwar
     work = [analyse_outcome(plan.for_outcome(outcome.name), outcome, dataset.outcome(outcome.name),
                             [c.n for c in flows[outcome.name].missing], dataset.levels)
             for outcome in ordered]
-    outcomes = tuple(result for result, _, _, _ in work)
-    if plan.contrasts and plan.multiplicity.scope == "primary-family":
-        outcomes = families.adjust_primary_family(plan, outcomes)
-    outcomes = tuple(_with_hypothesis_conclusions(plan, o) for o in outcomes)
+    outcomes, tested = families.test_families(plan, tuple(result for result, _, _, _ in work))
+    outcomes = tuple(_with_hypothesis_conclusions(plan, o, tested) for o in outcomes)
     exploratory = _exploratory(plan, [found for _, found, _, _ in work])
     factor = plan.factor
     study = plan.study
+    declared = "declared" if plan.multiplicity.families is not None else None
     results = StudyResults(
         study=StudyInfo(
             id=study.id,
@@ -108,11 +111,12 @@ def study_analysis(loaded: LoadedPlan, dataset: Dataset, software: tuple[Softwar
         exploratory=exploratory,
         deviations=all_deviations(plan, plan.model_dump(mode="json"), lock, dataset.unit_flow,
                                   [d for _, _, caused, _ in work for d in caused]),
-        multiplicity=plan.multiplicity.method if plan.contrasts else None,
-        multiplicity_scope=plan.multiplicity.scope if plan.contrasts else None,
+        multiplicity=(plan.multiplicity.method if plan.contrasts and declared is None else None),
+        multiplicity_scope=(None if not plan.contrasts else declared or plan.multiplicity.scope),
         factors=tuple(_factor_info(f) for f in plan.design.factors),
         registration=registration(lock),
         plan_settings=loaded.settings,
+        families=tested,
     )
     return Analysis(results, {r.outcome: r for _, _, _, r in work})
 

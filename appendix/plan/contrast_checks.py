@@ -12,6 +12,7 @@ from collections.abc import Mapping
 from dataclasses import dataclass
 
 from appendix.plan.choices import KINDS, METHODS, hypotheses_of_kind
+from appendix.plan.family_checks import RawContrast, family_problems
 from appendix.plan.graph_checks import graphical_problems
 from appendix.plan.raw import Found, items, mapping, number, repeats, text, unique
 from appendix.plan.raw_design import RawDesign, RawFactor
@@ -231,7 +232,15 @@ def _multiplicity(raw: Mapping, design: _Design) -> list[Found]:
     settings = mapping(raw.get("multiplicity"))
     method = settings.get("method", "holm")
     contrasts = items(raw.get("contrasts"))
-    found: list[Found] = []
+    registered = [RawContrast(index=i, id=entry["id"], kind=entry.get("kind"),
+                              outcomes=tuple(o for o in design.outcomes if _applies(entry, o)),
+                              count=_hypothesis_count(("contrasts", i), entry, design.design))
+                  for i, entry in contrasts if isinstance(entry.get("id"), str)]
+    found = family_problems(settings, registered,
+                            [entry.get("id") for _, entry in items(raw.get("exploratory"))],
+                            design.outcomes)
+    if settings.get("families") is not None:
+        return found  # the top-level keys are refused beside families; each family is checked
     if isinstance(method, str) and method in _SINGLE_KIND:
         found += _single_kind(method, contrasts, design)
         if settings.get("scope") == "primary-family":
@@ -282,7 +291,9 @@ def _single_kind(method: str, contrasts: list[tuple[int, Mapping]], design: _Des
         if entry.get("kind") in KINDS and entry.get("kind") != kind:
             found.append((("contrasts", i, "kind"),
                           f"got {show(entry.get('kind'))} under multiplicity method {show(method)}; "
-                          f"allowed: only {show(kind)} contrasts, one per outcome"))
+                          f"allowed: only {show(kind)} contrasts, one per outcome (or declare "
+                          f"multiplicity.families: a {show(method)} family beside families of "
+                          "other methods for the other contrasts)"))
     reported: set[int] = set()
     for outcome in design.outcomes:
         first: int | None = None

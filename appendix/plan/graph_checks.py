@@ -47,7 +47,7 @@ def graphical_problems(settings: Mapping, method: object, contrasts: Sequence[tu
                       "share of alpha, summing to at most 1)"))
     if isinstance(weights, Mapping):
         found += _node_keys(("multiplicity", "weights"), weights, ids, exploratory)
-        found += _shares(("multiplicity", "weights"), weights, "weights", "a sum of more than 0 "
+        found += share_problems(("multiplicity", "weights"), weights, "weights", "a sum of more than 0 "
                          "and at most 1", empty_allowed=False)
     transitions = settings.get("transitions")
     for source, row in mapping(transitions).items():
@@ -56,7 +56,7 @@ def graphical_problems(settings: Mapping, method: object, contrasts: Sequence[tu
         if not isinstance(row, Mapping):
             continue
         found += _node_keys(loc, row, ids, exploratory, own=source)
-        found += _shares(loc, row, "shares", "at most 1 in all (a rejected contrast passes on "
+        found += share_problems(loc, row, "shares", "at most 1 in all (a rejected contrast passes on "
                          "at most its own level)", empty_allowed=True)
     for i, entry in contrasts:
         found += _one_node(("contrasts", i), entry, counts.get(i), outcomes)
@@ -82,7 +82,7 @@ def _node_keys(loc: Loc, values: Mapping, ids: Sequence[str], exploratory: Seque
     return found
 
 
-def _shares(loc: Loc, values: Mapping, what: str, allowed: str, empty_allowed: bool) -> list[Found]:
+def share_problems(loc: Loc, values: Mapping, what: str, allowed: str, empty_allowed: bool) -> list[Found]:
     """Shares of alpha: each from 0 to 1, their sum at most 1 (and above 0 unless allowed)."""
     found: list[Found] = []
     shares = {key: number(value) for key, value in values.items()}

@@ -13,7 +13,7 @@ import math
 from dataclasses import dataclass
 
 from appendix.plan.model import Plan
-from appendix.plan.wording import key_path
+from appendix.plan.wording import key_path, one_of
 
 # Short citations, recalled from memory (author, year, journal, volume:pages); the EMA
 # reference number was checked against the agency's document page. The appendix's methods
@@ -46,7 +46,7 @@ class Note:
 def lint(plan: Plan) -> tuple[Note, ...]:
     """Every note on the plan, in the order of the study file's sections."""
     return (*_sequential(plan), *_slopes(plan), *_pre_tests(plan), *_unadjusted(plan),
-            *_one_sided(plan))
+            *_separate_families(plan), *_one_sided(plan))
 
 
 def _term(names: tuple[str, ...]) -> str:
@@ -105,28 +105,53 @@ def _pre_tests(plan: Plan) -> list[Note]:
 def _unadjusted(plan: Plan) -> list[Note]:
     """Several hypotheses on a primary outcome without adjustment (ICH E9 section 5.6).
 
-    Under scope primary-family the family is every primary outcome's hypotheses together.
+    Each registered family under method none that holds two or more hypotheses on primary
+    outcomes: a primary outcome's family, the primary family (scope primary-family), or a
+    declared family.
     """
-    if plan.multiplicity.method != "none":
-        return []
-    primary = [o.name for o in plan.outcomes if o.role == "primary"]
-    if plan.multiplicity.scope == "primary-family" and len(primary) > 1:
-        families = [(f"the primary family ({', '.join(map(repr, primary))})",
-                     sum(plan.hypothesis_count(name) for name in primary))]
-    else:
-        families = [(f"primary outcome {name!r}", plan.hypothesis_count(name)) for name in primary]
+    primary = {o.name for o in plan.outcomes if o.role == "primary"}
     notes = []
-    for family, m in families:
+    for family in plan.families:
+        if family.method != "none":
+            continue
+        m = sum(plan.hypotheses_of(next(c for c in plan.contrasts if c.id == n.contrast))
+                for n in family.members if n.outcome in primary)
         if m < 2:
             continue
+        on = [o for o in family.outcomes if o in primary]
+        if family.declared:
+            what, path = f"family {family.id!r}", f"multiplicity.families[{family.index}].method"
+        elif family.scope == "primary-family" and len(on) > 1:
+            what, path = f"the primary family ({', '.join(map(repr, on))})", "multiplicity.method"
+        else:
+            what, path = f"primary outcome {on[0]!r}", "multiplicity.method"
         independent = -math.expm1(m * math.log1p(-plan.alpha))
         notes.append(Note(
-            "no-multiplicity-control", "multiplicity.method",
-            f"method 'none' leaves the {m} hypotheses of {family} unadjusted: the chance of at "
+            "no-multiplicity-control", path,
+            f"method 'none' leaves the {m} hypotheses of {what} unadjusted: the chance of at "
             f"least one false rejection exceeds alpha {plan.alpha:g} ({independent:.3f} if the "
             f"{m} tests were independent)",
             ICH_E9_MULTIPLICITY))
     return notes
+
+
+def _separate_families(plan: Plan) -> list[Note]:
+    """Declared families outside a gatekeeping sequence are each tested at the full alpha."""
+    families = [f for f in plan.families if f.declared]
+    apart = [f.id for f in families if not f.in_sequence]
+    if len(families) < 2 or not apart:
+        return []
+    which = (f"family {apart[0]!r} is" if len(apart) == 1
+             else f"families {one_of(apart, 'and')} are")
+    remedy = ("adding it to the gatekeeping sequence" if len(apart) == 1 else "adding them to the "
+              "gatekeeping sequence") if plan.multiplicity.sequence else "a gatekeeping sequence"
+    return [Note(
+        "families-apart", "multiplicity.families",
+        f"{which} tested at the full alpha {plan.alpha:g} apart from the other families: the "
+        "family-wise error rate is controlled within each family, not across them; "
+        f"{remedy} (multiplicity.sequence), or one graphical family over the hypotheses, "
+        "controls it across families",
+        ICH_E9_MULTIPLICITY)]
 
 
 def _one_sided(plan: Plan) -> list[Note]:

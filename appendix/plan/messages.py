@@ -25,6 +25,8 @@ _PATTERNS = {
         "1 to 63 letters, digits or '_', starting with a letter",
     r"^[A-Za-z][A-Za-z0-9_.-]{0,31}$":
         "1 to 32 letters, digits, '.', '_' or '-', starting with a letter",
+    r"^[A-Za-z][A-Za-z0-9_.-]{0,31}(@[A-Za-z][A-Za-z0-9_]{0,62})?$":
+        "a contrast id, or 'contrast@outcome' (e.g. 'C1@pain')",
 }
 
 _TEXT = ("string_type",)

@@ -26,6 +26,7 @@ from pydantic import (
     Strict,
     StringConstraints,
     WithJsonSchema,
+    model_serializer,
     model_validator,
 )
 from pydantic_core import PydanticCustomError
@@ -357,8 +358,46 @@ class ExploratoryContrast(Contrast):
     reason: str = Field(min_length=1, description="Why it is run although not pre-registered.")
 
 
+#: A node of a declared family: a contrast id, with ``@outcome`` when the family covers
+#: more than one outcome (``C1@pain``).
+NodeName = Annotated[str, StringConstraints(
+    pattern=r"^[A-Za-z][A-Za-z0-9_.-]{0,31}(@[A-Za-z][A-Za-z0-9_]{0,62})?$")]
+
+
+class Family(_Frozen):
+    """A family of registered hypotheses tested together under one multiplicity method.
+
+    Its members are the hypotheses of each listed contrast on each listed outcome it
+    applies to; every registered contrast on every outcome belongs to exactly one family.
+    `order` (fixed-sequence), `weights` and `transitions` (graphical) name the members by
+    node: the contrast id, written ``contrast@outcome`` when the family covers more than
+    one outcome.
+    """
+
+    id: ContrastId = Field(description="Unique among the families; names the family in the appendix.")
+    label: str | None = Field(default=None, min_length=1, exclude_if=_is(None),
+                              description="The family in prose, e.g. 'key secondary endpoints'.")
+    contrasts: tuple[ContrastId, ...] = Field(
+        min_length=1, description="Registered contrast ids whose hypotheses the family holds.")
+    outcomes: tuple[str, ...] = Field(
+        min_length=1, description="Outcome names; a contrast is a member on each of them it applies to.")
+    method: MultiplicityMethod = Field(description="The family's multiplicity method.")
+    order: tuple[NodeName, ...] | None = Field(
+        default=None, min_length=1, exclude_if=_is(None),
+        description="fixed-sequence only: every node of the family exactly once, in testing order.")
+    weights: dict[NodeName, Number] | None = Field(
+        default=None, exclude_if=_is(None),
+        description="graphical only: each node's initial share of alpha (nodes left out weigh 0).")
+    transitions: dict[NodeName, dict[NodeName, Number]] | None = Field(
+        default=None, exclude_if=_is(None),
+        description="graphical only: for a node, the share of its level passed to each other "
+                    "node once it is rejected.")
+
+
 class Multiplicity(_Frozen):
-    """How the registered hypotheses of a family are adjusted together."""
+    """How the registered hypotheses are adjusted together: one `method` for a family per
+    outcome (or one over the primary outcomes, `scope`), or declared `families`, each with
+    its own method, optionally tested in a serial gatekeeping `sequence`."""
 
     method: MultiplicityMethod = Field(
         default="holm", description="The adjustment (benjamini-hochberg controls the FDR, not the FWER).")
@@ -377,6 +416,26 @@ class Multiplicity(_Frozen):
         default=None, exclude_if=_is(None),
         description="graphical only: for a contrast, the share of its level passed to each "
                     "other contrast once it is rejected; from 0 to 1 each, at most 1 in all.")
+    families: tuple[Family, ...] | None = Field(
+        default=None, min_length=1, exclude_if=_is(None),
+        description="Declared families, each with its own method; with them, no top-level "
+                    "method, scope, order, weights or transitions.")
+    sequence: tuple[ContrastId, ...] | None = Field(
+        default=None, min_length=2, exclude_if=_is(None),
+        description="Family ids in testing order (serial gatekeeping): a family is tested only "
+                    "when every hypothesis of the family before it was rejected.")
+
+    @model_serializer(mode="wrap")
+    def _without_unused_defaults(self, handler):
+        # With declared families the top-level method and scope mean nothing; left out of
+        # the canonical plan so that it states only what is in force. Plans without
+        # families keep their canonical JSON (and hash).
+        dumped = handler(self)
+        if self.families is not None and isinstance(dumped, dict):
+            for key in ("method", "scope", "order"):
+                if dumped.get(key) == Multiplicity.model_fields[key].default:
+                    dumped.pop(key, None)
+        return dumped
 
 
 class Acknowledgement(_Frozen):
@@ -600,6 +659,14 @@ class Plan(_Frozen):
     def exploratory_for(self, outcome: str) -> tuple[ExploratoryContrast, ...]:
         """The exploratory analyses that apply to the outcome named `outcome`, in plan order."""
         return tuple(c for c in self.exploratory if c.applies_to(outcome))
+
+    @property
+    def families(self):
+        """The registered families of hypotheses, resolved from either form of
+        `multiplicity` (`appendix.plan.family_plan`): a tuple of `FamilyPlan`."""
+        from appendix.plan.family_plan import resolve
+
+        return resolve(self)
 
     def hypothesis_count(self, outcome: str) -> int:
         """How many registered hypotheses the outcome named `outcome` is tested for."""

@@ -2,8 +2,8 @@
 
 `test_family` computes one outcome's registered family: every hypothesis under the
 registered method (classical, welch, rank-based), then the registered multiplicity
-control. `adjust_across` pools several outcomes' hypotheses into one adjustment
-(``scope: primary-family``).
+control. A family across outcomes is pooled and adjusted by `appendix.families`, with
+`apply_multiplicity` over all its hypotheses.
 
 Adjusted p-values (Wright 1992, Biometrics 48:1005-1013, for the adjusted-p forms) are
 monotone in the raw p, never below it and capped at 1:
@@ -100,6 +100,27 @@ def _decide(r: HypothesisResult, p_adjusted: float, alpha: float, per_level: flo
         ci_low=low, ci_high=high, confidence_level=1.0 - alpha, ci_simultaneous=simultaneous)
 
 
+def not_tested(r: HypothesisResult, alpha: float) -> HypothesisResult:
+    """`r` not tested under the plan (a closed gate): no adjusted p, no decision, the
+    unadjusted 1 - alpha interval for information. A result without a p stays unavailable."""
+    if r.p is None:
+        return r
+    decided = _decide(r, r.p, alpha, 1.0 - alpha, False)
+    return dataclasses.replace(decided, p_adjusted=None, decision="not-tested")
+
+
+def behind_gate(r: HypothesisResult, gate_p: float, alpha: float) -> HypothesisResult:
+    """`r` of a family tested after an open gate: its adjusted p is the larger of its
+    adjusted p within the family and `gate_p`, the largest adjusted p of the families
+    before it (serial gatekeeping; Dmitrienko & Tamhane 2007, Pharmaceutical Statistics
+    6:171-180, from memory), so that it is the smallest alpha at which the whole
+    sequence rejects it. The decision and the interval are the family's own (an open gate
+    has `gate_p` < alpha, so the decision cannot change)."""
+    if r.p_adjusted is None:
+        return r
+    return dataclasses.replace(r, p_adjusted=max(r.p_adjusted, gate_p))
+
+
 def fixed_sequence(results_in_order: Sequence[HypothesisResult],
                    alpha: float) -> tuple[HypothesisResult, ...]:
     """Test in the given order at full alpha while every earlier hypothesis was rejected.
@@ -140,17 +161,19 @@ def _sequence_positions(results: Sequence[HypothesisResult], order: Sequence[str
     return positions
 
 
-def graphical(results: Sequence[HypothesisResult], graph: Graph,
-              alpha: float) -> tuple[HypothesisResult, ...]:
-    """The graphical procedure over one node per result, the node being its contrast id.
+def graphical(results: Sequence[HypothesisResult], graph: Graph, alpha: float,
+              nodes: Sequence[str] | None = None) -> tuple[HypothesisResult, ...]:
+    """The graphical procedure over one node per result: `nodes[i]` names the node of
+    `results[i]` in `graph` (by default its contrast id; ``contrast@outcome`` for a family
+    across outcomes).
 
-    Each contrast of the family must have exactly one hypothesis. A result without a p
-    passes through unchanged (it is never rejected and passes nothing on); intervals are
-    the unadjusted 1 - alpha ones.
+    Each node must have exactly one hypothesis. A result without a p passes through
+    unchanged (it is never rejected and passes nothing on); intervals are the unadjusted
+    1 - alpha ones.
     """
-    nodes = [r.contrast for r in results]
-    if len(set(nodes)) != len(nodes):
-        raise InternalError(f"a graphical family needs one hypothesis per contrast, got {nodes}")
+    nodes = [r.contrast for r in results] if nodes is None else list(nodes)
+    if len(set(nodes)) != len(nodes) or len(nodes) != len(results):
+        raise InternalError(f"a graphical family needs one hypothesis per node, got {nodes}")
     weights, transitions = graph.matrices(nodes)
     tested = graphical_test([r.p for r in results], weights, transitions, alpha)
     return tuple(r if r.p is None else _decide(r, p_adj, alpha, 1.0 - alpha, False)
@@ -197,43 +220,6 @@ def apply_multiplicity(results: Sequence[HypothesisResult], method: str, alpha: 
         per_level, simultaneous = math.exp(math.log1p(-alpha) / m), True
     return tuple(r if r.p is None else _decide(r, float(p_adj), alpha, per_level, simultaneous)
                  for r, p_adj in zip(results, adjusted))
-
-
-def adjust_across(families: Sequence[Sequence[HypothesisResult]], method: str, alpha: float, *,
-                  order: Sequence[str] | None = None) -> tuple[tuple[HypothesisResult, ...], ...]:
-    """One adjustment over several outcomes' hypotheses (``scope: primary-family``).
-
-    The runner computes each primary outcome's family with `test_family` (any p-value
-    method; its p_adjusted is then replaced here), passes the families in plan order,
-    and gets them back in the same shape, adjusted as one family of m = all available
-    hypotheses. For fixed-sequence the sequence is each outcome's registered order,
-    outcome after outcome in plan order. Tukey, Dunnett and graphical cannot span
-    outcomes (the plan stage forbids it), so they raise InternalError.
-    """
-    if method in ("tukey", "dunnett", "graphical"):
-        raise InternalError(f"{method} cannot adjust across outcomes (scope primary-family)")
-    sizes = [len(f) for f in families]
-    flat = [r for f in families for r in f]
-    if method == "fixed-sequence":
-        if order is None:
-            raise InternalError("fixed-sequence needs the registered order")
-        walk: list[int] = []
-        start = 0
-        for family, size in zip(families, sizes):
-            walk.extend(start + i for i in _sequence_positions(tuple(family), order))
-            start += size
-        walked = fixed_sequence([flat[i] for i in walk], alpha)
-        placed: list[HypothesisResult | None] = [None] * len(flat)
-        for i, r in zip(walk, walked):
-            placed[i] = r
-        flat = placed  # type: ignore[assignment]
-    else:
-        flat = list(apply_multiplicity(flat, method, alpha, order=order))
-    out, start = [], 0
-    for size in sizes:
-        out.append(tuple(flat[start:start + size]))
-        start += size
-    return tuple(out)
 
 
 def _alternatives(alternative: str | Sequence[str], count: int) -> tuple[str, ...]:

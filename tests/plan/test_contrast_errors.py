@@ -130,7 +130,8 @@ CASES = [
             "  - {id: C2, kind: custom, label: y, weights: {low: 1, high: -1}}\n"
             "multiplicity: {method: tukey}\n",
      ["21: contrasts[1].kind: got 'custom' under multiplicity method 'tukey'; allowed: only "
-      "'pairwise' contrasts, one per outcome"]),
+      "'pairwise' contrasts, one per outcome (or declare multiplicity.families: a 'tukey' family "
+      "beside families of other methods for the other contrasts)"]),
     ("tukey with two pairwise contrasts on one outcome",
      BASE + "contrasts:\n  - {id: C1, kind: pairwise, label: x, outcomes: [pain]}\n"
             "  - {id: C2, kind: pairwise, label: y, outcomes: [sleep]}\n"
@@ -142,7 +143,8 @@ CASES = [
      BASE + "contrasts:\n  - {id: C1, kind: pairwise, label: x}\n"
             "multiplicity: {method: dunnett}\n",
      ["20: contrasts[0].kind: got 'pairwise' under multiplicity method 'dunnett'; allowed: only "
-      "'versus-control' contrasts, one per outcome"]),
+      "'versus-control' contrasts, one per outcome (or declare multiplicity.families: a 'dunnett' family "
+      "beside families of other methods for the other contrasts)"]),
     ("dunnett across the primary family",
      BASE + "contrasts:\n  - {id: C1, kind: versus-control, label: x}\n"
             "multiplicity: {method: dunnett, scope: primary-family}\n",

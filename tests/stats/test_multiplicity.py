@@ -251,34 +251,6 @@ def test_family_methods_reject_the_wrong_hypotheses() -> None:
                          cells=cells, alpha=0.05)
 
 
-# --- across outcomes (scope primary-family) ----------------------------------------------
-
-def test_adjust_across_equals_one_adjustment_of_the_concatenation() -> None:
-    first = mult.test_family(hypotheses_for("pairwise", LEVELS, contrast_id="C3", label="p"),
-                             ("two-sided",) * 6, method="classical", multiplicity="holm",
-                             cells=_invented_cells(8)[0], alpha=0.05)
-    second = mult.test_family(hypotheses_for("trend", LEVELS, degree=2, contrast_id="C4", label="t"),
-                              ("two-sided",) * 2, method="welch", multiplicity="holm",
-                              cells=_invented_cells(9)[0], alpha=0.05)
-    a, b = mult.adjust_across([first, second], "holm", 0.05)
-    assert (len(a), len(b)) == (6, 2)
-    expected = mult.adjust([r.p for r in first + second], "holm")
-    assert [r.p_adjusted for r in a + b] == pytest.approx(expected.tolist(), rel=1e-15)
-    bonf_a, _ = mult.adjust_across([first, second], "bonferroni", 0.05)
-    half = st.t.isf(0.05 / 8 / 2, bonf_a[0].df) * bonf_a[0].se  # m = 8 over both outcomes
-    assert bonf_a[0].ci_high - bonf_a[0].estimate == pytest.approx(half, rel=1e-12)
-    for method in ("tukey", "dunnett"):
-        with pytest.raises(InternalError):
-            mult.adjust_across([first, second], method, 0.05)
-
-
-def test_adjust_across_fixed_sequence_walks_outcome_after_outcome() -> None:
-    first, second = _results([0.01, 0.02, 0.03, 0.04, 0.01, 0.02]), _results([0.01, 0.9, 0.01, 0.01, 0.01, 0.01])
-    a, b = mult.adjust_across([first, second], "fixed-sequence", 0.05, order=["C3"])
-    assert all(r.decision == "reject" for r in a)
-    assert [r.decision for r in b] == ["reject", "retain"] + ["not-tested"] * 4
-
-
 def test_dunnett_degenerate_levels_without_floating_point_warnings() -> None:
     import warnings
 
@@ -363,7 +335,7 @@ def test_graphical_family_errors_and_unavailable_hypotheses() -> None:
     tested = mult.apply_multiplicity(results, "graphical", 0.05, graph=graph)
     assert tested[1] is results[1]  # passes through, never rejected
     assert (tested[0].decision, tested[0].p_adjusted) == ("reject", pytest.approx(0.02))
-    with pytest.raises(InternalError, match="one hypothesis per contrast"):
+    with pytest.raises(InternalError, match="one hypothesis per node"):
         mult.apply_multiplicity(_results([0.01] * 6), "graphical", 0.05, graph=graph)
     with pytest.raises(InternalError, match="not among"):
         mult.apply_multiplicity(_one_per_contrast([0.01, 0.02], ["A", "C"]), "graphical", 0.05,
@@ -372,5 +344,3 @@ def test_graphical_family_errors_and_unavailable_hypotheses() -> None:
         mult.apply_multiplicity(results, "holm", 0.05, graph=graph)
     with pytest.raises(InternalError, match="a graph belongs to method graphical only"):
         mult.apply_multiplicity(results, "graphical", 0.05)
-    with pytest.raises(InternalError, match="cannot adjust across outcomes"):
-        mult.adjust_across([results], "graphical", 0.05)
