@@ -19,7 +19,10 @@ from appendix.results import PlanSetting
 _RESOLVED = {"design.sums_of_squares": lambda plan: plan.ss_type}
 
 #: Sections whose settings apply only where the plan uses them.
-_APPLIES = {"multiplicity": lambda plan: bool(plan.contrasts)}
+_APPLIES = {"multiplicity": lambda plan: bool(plan.contrasts),
+            # declared families each state their own method; the top-level keys then do not apply
+            "multiplicity.method": lambda plan: not plan.multiplicity.families,
+            "multiplicity.scope": lambda plan: not plan.multiplicity.families}
 
 
 def plan_settings(plan: Plan, lines: Mapping[str, int]) -> tuple[PlanSetting, ...]:

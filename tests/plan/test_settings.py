@@ -112,3 +112,12 @@ def test_values_are_spelled_as_a_study_file_writes_them():
     assert settings["design.factors[0].ordered"].value == "false"
     # one between-unit term: the type is resolved (every type gives the same table)
     assert (settings["design.sums_of_squares"].value, settings["design.sums_of_squares"].stated) == ("2", False)
+
+
+def test_declared_families_have_no_top_level_multiplicity_setting(tmp_path):
+    from tests.test_families_end_to_end import write_study
+
+    study, _ = write_study(tmp_path, 1.0)
+    keys = [s.key for s in load_plan(study).settings]
+    # each family states its method (required), so no multiplicity setting holds by default
+    assert [k for k in keys if k.startswith("multiplicity")] == []
