@@ -152,6 +152,8 @@ def test_the_open_gate_in_the_adjusted_p_the_sentences_and_the_page(opened):
            "rejected" in html
     assert "No simultaneous intervals compatible with the graphical procedure are computed" in html
     assert "Registered families of hypotheses" in html and "Serial gatekeeping</" in html
+    assert "Family Q is tested apart from the others, so the family-wise error rate is " \
+           "controlled within each family, not across them." in html
 
 
 def test_the_closed_gate_leaves_the_secondary_family_untested(tmp_path):
