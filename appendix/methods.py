@@ -849,13 +849,17 @@ def _families_method(declared: list[Mapping[str, Any]]) -> Method:
         if f["gate"]:
             text += f", tested only after every hypothesis of family {f['gate']['after']} is rejected"
         parts.append(text)
+    chained = {f["id"] for f in declared if f["gate"]} | {f["gate"]["after"] for f in declared if f["gate"]}
+    alone = [f["id"] for f in declared if f["id"] not in chained]
+    apart = ("" if len(declared) < 2 or not alone else
+             f" {'Family ' + alone[0] + ' is' if len(alone) == 1 else 'Families ' + ', '.join(alone) + ' are'}"
+             " tested apart from the others, so the family-wise error rate is controlled within "
+             "each family, not across them.")
     return Method("families", "Registered families of hypotheses",
                   "The plan registers its hypotheses in families, each tested by its own method "
                   "over all its members (across outcomes where it spans several) at the full "
                   "\u03b1: "
-                  + "; ".join(parts) + ". Each conclusion names its family. Families not linked "
-                  "by a gatekeeping sequence each control the family-wise error rate on their own, "
-                  "not jointly.", ())
+                  + "; ".join(parts) + ". Each conclusion names its family." + apart, ())
 
 
 #: The multiplicity key of a family as the family-level name of its method (the analysis

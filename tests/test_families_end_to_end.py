@@ -152,6 +152,8 @@ def test_the_open_gate_in_the_adjusted_p_the_sentences_and_the_page(opened):
            "rejected" in html
     assert "No simultaneous intervals compatible with the graphical procedure are computed" in html
     assert "Registered families of hypotheses" in html and "Serial gatekeeping</" in html
+    assert "Family Q is tested apart from the others, so the family-wise error rate is " \
+           "controlled within each family, not across them." in html
 
 
 def test_the_closed_gate_leaves_the_secondary_family_untested(tmp_path):
@@ -187,3 +189,14 @@ def test_one_declared_family_per_outcome_is_the_top_level_form(tmp_path):
     second = api.compute(again).results
     for a, b in zip(first.outcomes, second.outcomes):
         assert [f.hypotheses for f in a.contrasts] == [f.hypotheses for f in b.contrasts]
+
+
+def test_a_changed_family_is_a_deviation_named_by_its_id(tmp_path):
+    study, _ = write_study(tmp_path, 6.0)
+    assert main(["lock", str(study)], stdout=io.StringIO(), stderr=io.StringIO(), cwd=tmp_path) == 0
+    plan = yaml.safe_load(study.read_text(encoding="utf-8"))
+    plan["multiplicity"]["families"][1]["method"] = "bonferroni"
+    study.write_text(yaml.safe_dump(plan, sort_keys=False), encoding="utf-8")
+    changed = [(d.kind, d.subject, d.message) for d in api.compute(study).results.deviations]
+    assert changed == [("plan-changed", "multiplicity.families[Q].method",
+                        "multiplicity.families[Q].method: registered holm, now bonferroni.")]

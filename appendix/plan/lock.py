@@ -43,7 +43,8 @@ WITH_DATA = "the data file existed at lock time"
 #: Lists whose items are told apart by a key: compared item by item under that key.
 _KEYED = {("outcomes",): "name", ("contrasts",): "id", ("exploratory",): "id",
           ("data", "exclusions"): "id", ("design", "factors"): "name",
-          ("design", "covariates"): "name", ("deviations",): None}
+          ("design", "covariates"): "name", ("multiplicity", "families"): "id",
+          ("deviations",): None}
 _NOT_COMPARED = ("deviations",)
 
 

@@ -61,7 +61,10 @@ def _checked(folder: Path, case: Case) -> bool:
     event(f"design: {case.shape}")
     if any("outcomes" in c for c in case.plan["design"].get("covariates", [])):
         event("a covariate of some outcomes only")
-    event(f"multiplicity: {case.plan.get('multiplicity', {}).get('method', 'holm')}")
+    settings = case.plan.get("multiplicity", {})
+    event(f"multiplicity: {'families' if 'families' in settings else settings.get('method', 'holm')}")
+    if "sequence" in settings:
+        event("multiplicity: a gatekeeping sequence")
     return code == 0
 
 
@@ -76,6 +79,24 @@ def test_every_checked_plan_is_analysed_and_rendered(folder: Path, case: Case):
     records_text(computed.loaded, computed.dataset)
     html = render_html(to_plain(computed.results), {}, RenderOptions())
     assert text.startswith("{") and html.startswith("<!DOCTYPE html>")
+
+
+@pytest.mark.filterwarnings("error::RuntimeWarning")
+@settings(max_examples=80, **PARITY)
+@given(case=cases("families"))
+def test_every_checked_family_plan_is_analysed_and_rendered(folder: Path, case: Case):
+    # declared families only: each with a method its members allow, graphs and orders over
+    # nodes across outcomes, a serial gatekeeping sequence; every family recorded
+    if not _checked(folder, case):
+        return
+    computed = api.compute(folder / "study.yaml")
+    results = computed.results
+    declared = case.plan["multiplicity"]["families"]
+    assert [f.id for f in results.families] == [f["id"] for f in declared]
+    assert sum(f.hypotheses for f in results.families) == sum(
+        len(h.hypotheses) for o in results.outcomes for h in o.contrasts if h.registered)
+    html = render_html(to_plain(results), {}, RenderOptions())
+    assert to_json(results).startswith("{") and html.startswith("<!DOCTYPE html>")
 
 
 @pytest.mark.filterwarnings("error::RuntimeWarning")

@@ -4,7 +4,8 @@
 factor roles and levels, blocks, covariates (for every outcome or some), one or two within
 factors, interactions, outcome roles,
 every contrast kind with `by`, `outcomes` and one-sided alternatives, every multiplicity
-method and scope, exploratory entries, exclusions, fallbacks, outlier thresholds, planned
+method and scope, declared families (each with a method its members allow, graphs and
+orders over nodes across outcomes, a serial gatekeeping sequence), exploratory entries, exclusions, fallbacks, outlier thresholds, planned
 numbers, acknowledgements) together with a small CSV of invented values laid out as the
 plan says (one row per unit, or per unit and cell of the within grid). Some data are awkward on
 purpose: missing cells, a level or a whole cell without units, excluded units, constant
@@ -184,6 +185,65 @@ def _contrasts(draw, factors: list[dict], outcomes: list[str], method: str) -> l
     return entries
 
 
+def _applies(contrast: dict, outcome: str) -> bool:
+    return outcome in contrast.get("outcomes", [outcome])
+
+
+def _family_method(draw, contrasts: list[dict], outcomes: list[str]) -> str:
+    """A method the family's members allow: Tukey or Dunnett over one contrast of their kind
+    on one outcome, graphical over contrasts of one hypothesis, any p-value method."""
+    # the methods particular to the members first: the simplest draws come first
+    methods = []
+    if len(outcomes) == 1 and len(contrasts) == 1:
+        methods += {"pairwise": ["tukey"], "versus-control": ["dunnett"]}.get(contrasts[0]["kind"], [])
+    if all(c["kind"] == "custom" and "by" not in c for c in contrasts):
+        methods += ["graphical"]
+    methods += ["holm", "fixed-sequence", "bonferroni", "hochberg", "sidak", "benjamini-hochberg",
+                "none"]
+    return draw(st.sampled_from(methods))
+
+
+@st.composite
+def _families(draw, contrasts: list[dict], outcomes: list[str]) -> dict:
+    """Declared families: the outcomes in groups, each group's contrasts in groups; each
+    (contrast group, outcome group) that holds a member is a family with a method its
+    members allow, and a serial gatekeeping sequence over some of them."""
+    outcome_groups: dict[int, list[str]] = {}
+    for name in outcomes:
+        outcome_groups.setdefault(draw(st.integers(0, len(outcomes) - 1)), []).append(name)
+    families = []
+    for group in outcome_groups.values():
+        contrast_groups: dict[int, list[dict]] = {}
+        for i, c in enumerate(contrasts):
+            if any(_applies(c, o) for o in group):  # simplest draw: a family per contrast
+                shift = draw(st.integers(0, len(contrasts) - 1))
+                contrast_groups.setdefault((i + shift) % len(contrasts), []).append(c)
+        for members in contrast_groups.values():
+            on = [o for o in group if any(_applies(c, o) for c in members)]
+            method = _family_method(draw, members, on)
+            family: dict = {"id": f"F{len(families) + 1}", "contrasts": [c["id"] for c in members],
+                            "outcomes": on, "method": method}
+            if draw(st.booleans()):
+                family["label"] = f"invented family {len(families) + 1}"
+            nodes = [(c["id"], o) for o in on for c in members if _applies(c, o)]
+            bare = len(on) == 1 and draw(st.booleans())  # one outcome: the id alone may name a node
+            names = [c if bare else f"{c}@{o}" for c, o in nodes]
+            if method == "fixed-sequence":
+                family["order"] = list(draw(st.permutations(names)))
+            elif method == "graphical":
+                share = draw(st.sampled_from([1.0, 0.5]))
+                family["weights"] = {n: share / len(names) for n in names}
+                if len(names) > 1 and draw(st.booleans()):  # Holm's graph over the nodes
+                    family["transitions"] = {n: {k: 1.0 / (len(names) - 1) for k in names if k != n}
+                                             for n in names}
+            families.append(family)
+    settings: dict = {"families": families}
+    gateable = [f["id"] for f in families if f["method"] not in ("none", "benjamini-hochberg")]
+    if len(gateable) > 1 and draw(st.sampled_from([True, False])):
+        settings["sequence"] = _subset(draw, gateable, 2)
+    return settings
+
+
 def _assumptions(draw, one_way_classical: bool) -> dict:
     assumptions: dict = {}
     normality = draw(st.sampled_from(["shapiro-wilk", "none", None]))
@@ -211,8 +271,9 @@ def _assumptions(draw, one_way_classical: bool) -> dict:
 
 
 @st.composite
-def plans(draw) -> dict:
-    """A study file that the plan model accepts (see the module docstring)."""
+def plans(draw, method: str | None = None) -> dict:
+    """A study file that the plan model accepts (see the module docstring); `method` fixes
+    the multiplicity method (``families``: declared families), else it is drawn."""
     roles = _roles(draw)
     counts = [draw(st.integers(2, 4 if len(roles) == 1 else 3)) for _ in roles]
     factors = [draw(_factor(f"f{i}", role, k)) for i, (role, k) in enumerate(zip(roles, counts))]
@@ -241,10 +302,22 @@ def plans(draw) -> dict:
     for covariate in covariates:  # a baseline of one outcome is no covariate of the other
         if draw(st.integers(0, 2)) == 0:
             covariate["outcomes"] = _subset(draw, outcome_names, 1)
-    method = draw(st.sampled_from((*METHODS, "fixed-sequence")))
+    method = method or draw(st.sampled_from((*METHODS, "fixed-sequence", "families")))
     if method == "dunnett" and not any("control" in f for f in factors if _role(f) != "block"):
         method = "holm"
-    contrasts = draw(_contrasts(factors, outcome_names, method))
+    if method == "families":  # declared families over any contrasts, each with its own method
+        # any kind, with single-hypothesis custom contrasts (graph nodes) and comparisons
+        # with a control (a Dunnett family beside others) drawn often
+        kinds = [None, "custom"] + (["versus-control"] if any(
+            "control" in f for f in factors if _role(f) != "block") else [])
+        contrasts = [draw(_contrast(factors, outcome_names, draw(st.sampled_from(kinds))))
+                     for _ in range(draw(st.integers(1, 4)))]
+        for i, entry in enumerate(contrasts):
+            entry["id"] = f"C{i + 1}"
+            if entry["kind"] == "custom" and draw(st.booleans()):
+                entry.pop("by", None)
+    else:
+        contrasts = draw(_contrasts(factors, outcome_names, method))
     data: dict = {"source": "units.csv", "unit": UNIT}
     if draw(st.booleans()):
         data["exclusions"] = [{"id": "X1", "column": FLAG, "equals": draw(st.sampled_from(["yes", 1, True])),
@@ -269,7 +342,9 @@ def plans(draw) -> dict:
     if contrasts:
         plan["contrasts"] = contrasts
     multiplicity: dict = {"method": method}
-    if method not in ("tukey", "dunnett", "graphical") and draw(st.booleans()):
+    if method == "families":
+        multiplicity = draw(_families(contrasts, outcome_names))
+    elif method not in ("tukey", "dunnett", "graphical") and draw(st.booleans()):
         multiplicity["scope"] = draw(st.sampled_from(["per-outcome", "primary-family"]))
     if method == "fixed-sequence" and contrasts:
         multiplicity["order"] = list(draw(st.permutations([c["id"] for c in contrasts])))
@@ -363,9 +438,9 @@ def data_for(plan: dict, quirks: tuple[str, ...], seed: int) -> str:
 
 
 @st.composite
-def cases(draw) -> Case:
-    """A valid plan and data that fit it (see the module docstring)."""
-    plan = draw(plans())
+def cases(draw, method: str | None = None) -> Case:
+    """A valid plan and data that fit it (see the module docstring); `method` as in `plans`."""
+    plan = draw(plans(method))
     quirks = tuple(_subset(draw, DATA_QUIRKS, 0, 2))
     seed = draw(st.integers(0, 2**32 - 1))
     return Case(plan=plan, csv=data_for(plan, quirks, seed), quirks=quirks)

@@ -203,7 +203,7 @@ def _fixed_sequence(hypotheses, alpha: float = 0.05) -> tuple[R.HypothesisResult
 def _family(outcome: str, method: str, groups, specs, registered: bool) -> R.ContrastFamily:
     hypotheses = _fixed_sequence([_hypothesis(s, method, groups) for s in specs])
     return R.ContrastFamily(outcome, "per-outcome", "fixed-sequence", method, 0.05, registered,
-                            hypotheses)
+                            hypotheses, family=outcome)
 
 
 _DECISION_WORDS = {"reject": "is rejected", "retain": "is not rejected",
@@ -249,7 +249,7 @@ def _degenerate() -> R.OutcomeResult:
         robust=R.RobustTests(welch=R.WelchAnova(None, None, None, None, (gap,)),
                              kruskal=R.KruskalWallis(None, 2, None, None, (gap,))),
         contrasts=(R.ContrastFamily("pain", "per-outcome", "fixed-sequence", "classical", 0.05,
-                                    True, (_unavailable(gap),)),),
+                                    True, (_unavailable(gap),), family="pain"),),
         contingencies=(R.Contingency("assumptions.fallbacks[0]", "non-normal", "shapiro-wilk",
                                      None, 0.05, False, "rank-based"),
                        R.Contingency("assumptions.fallbacks[1]", "unequal-variance",
@@ -302,9 +302,25 @@ def _flow() -> R.UnitFlow:
                   R.OutcomeFlow("pain", _counts(5, 5, 5), _counts(3, 3, 3))))
 
 
+def _record(outcome: R.OutcomeResult) -> R.RegisteredFamily:
+    """The record of an outcome's fixed-sequence family, as a run writes it."""
+    from appendix.methods import interval_note
+
+    hypotheses = next(f for f in outcome.contrasts if f.registered).hypotheses
+    kind, note = interval_note("fixed-sequence", sum(h.p is not None for h in hypotheses))
+    return R.RegisteredFamily(
+        id=outcome.name, method="fixed-sequence", scope="per-outcome", alpha=0.05,
+        members=tuple(R.FamilyMember(h.contrast, h.contrast, outcome.name, (h.id,))
+                      for h in hypotheses),
+        tested=True, hypotheses=len(hypotheses),
+        rejected=sum(h.decision == "reject" for h in hypotheses), intervals=kind,
+        interval_note=note, order=tuple(h.contrast for h in hypotheses))
+
+
 def build_results() -> R.StudyResults:
     """A StudyResults built by hand from INVENTED numbers."""
     values, codes = _invented_values()
+    outcomes = (_degenerate(), _primary(values, codes))
     return R.StudyResults(
         study=R.StudyInfo("DEMO-BP-01", "Invented dose-finding study (test data only)",
                           "2026-02-14", "all randomised units"),
@@ -313,7 +329,7 @@ def build_results() -> R.StudyResults:
         inputs=(R.InputFile("study", "study.yaml", STUDY_SHA, 1204),
                 R.InputFile("data", "data/units.csv", DATA_SHA, 812)),
         unit_flow=_flow(),
-        outcomes=(_degenerate(), _primary(values, codes)),
+        outcomes=outcomes,
         findings=(R.Finding("planned-n-not-met", "Planned 10 units per group; 8 analysed."),),
         software=(R.Software("appendix", "0.1.0"), R.Software("numpy", np.__version__)),
         exploratory=(_exploratory(values, codes),),
@@ -324,6 +340,7 @@ def build_results() -> R.StudyResults:
             True, "Fallback assumptions.fallbacks[1] of the registered plan."),),
         multiplicity="fixed-sequence", multiplicity_scope="per-outcome",
         factors=(R.FactorInfo("arm", "Treatment arm", LEVELS, "placebo", True),),
+        families=tuple(_record(o) for o in outcomes),
     )
 
 

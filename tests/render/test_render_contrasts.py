@@ -94,7 +94,10 @@ def test_family_note_names_method_multiplicity_scope_and_interval_kind(page):
                            "Welch\u2013Satterthwaite degrees of freedom")
     assert ("Adjusted p: fixed-sequence testing in the registered order, across this "
             "outcome's hypotheses; decisions at \u03b1 = .05 on the adjusted p.") in note
-    assert "95% confidence intervals are not adjusted for multiplicity (not simultaneous)" in note
+    assert ("95% confidence intervals are not adjusted for multiplicity (not simultaneous). No "
+            "simultaneous intervals compatible with fixed-sequence testing are computed, so each "
+            "interval is the unadjusted one at level 1 \u2212 \u03b1, from the reference "
+            "distribution and degrees of freedom of the test beside it.") in note
     assert "their intervals are open (\u221e) on the side" in note
     assert "Not tested under the plan: the fixed sequence stopped" in note
     assert "(Hedges, 1981)." in note
