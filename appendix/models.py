@@ -192,7 +192,7 @@ def _between_outcome(plan, outcome, data, missing_by_cell, cell_labels):
                                                                decimals=data.decimals)
         if data.summary is not None:
             descriptives = _full_data_moments(descriptives, one, data)
-        table = _one_factor_notes(table, one, plan.alpha)
+        table = one_factor_notes(table, one)
         robust = RobustTests(welch=welch_anova(one),
                              kruskal=kruskal_wallis(data.values, treatment, k, cell_labels))
         selected, contingencies = one_factor.select_method(plan, diagnostics)
@@ -223,16 +223,33 @@ def _between_outcome(plan, outcome, data, missing_by_cell, cell_labels):
             outcome.name, _read_only(data.values - residuals), _read_only(residuals), treatment)
 
 
-def _one_factor_notes(table: ModelTable, cells, alpha: float) -> ModelTable:
-    """A one-factor table with the one-way layout's own notes (empty levels, single
-    groups, no within-group df), which say in the design's words why a test is missing;
-    the factor's row carries them when its F is undefined."""
-    from appendix.stats.oneway import variance_table
+_SAID_BY_THE_LAYOUT = ("term-partly-estimable", "term-not-estimable", "type3-empty-cells")
+"""The engine's row notes on a one-factor term that an empty level's note says in the
+design's words (with one factor, an empty level only leaves that level out of the test)."""
 
-    notes = tuple(variance_table(cells, alpha).warnings)
+
+def one_factor_notes(table: ModelTable, cells) -> ModelTable:
+    """A one-factor table (the one-term model's) with the one-way layout's own notes
+    (`appendix.stats.oneway.partition`: empty levels, single-unit levels, a single group,
+    no within-group df, identical values, zero within-group variance), which say in the
+    design's words why a test is missing; they stand for the engine's notes on the table.
+    The factor's row carries them when its F is undefined; otherwise it keeps the engine's
+    own notes (an effect-size interval that cannot be computed) except those on empty
+    cells, which the empty-level notes say. Where the layout sees variation that the engine
+    finds zero up to rounding, the engine's notes say why the F is missing."""
+    from appendix.stats.oneway import partition
+
+    layout = partition(cells)
+    notes = tuple(layout.warnings)
     row = table.rows[0]
-    return replace(table, warnings=notes,
-                   rows=(replace(row, warnings=notes if row.statistic is None else ()),))
+    own = tuple(w for w in row.warnings if w.code not in _SAID_BY_THE_LAYOUT)
+    if row.statistic is not None:
+        table_notes, row_notes = notes, own
+    elif layout.statistic is not None:
+        table_notes, row_notes = (*notes, *table.warnings), own
+    else:
+        table_notes, row_notes = notes, notes
+    return replace(table, warnings=table_notes, rows=(replace(row, warnings=row_notes),))
 
 
 def _full_data_moments(descriptives: Descriptives, cells, data: OutcomeData) -> Descriptives:
@@ -280,7 +297,7 @@ def model_table(fit, label, scale: float = 1.0, stratum: str = "units", *, alpha
         return None if value is None else value * scale
 
     rows = tuple(ModelRow(term=r.term, label=label(r.term), kind=r.kind, df=r.df,
-                          sum_of_squares=times(r.ss), mean_square=times(r.ms), statistic=r.f, p=r.p,
+                          sum_of_squares=times(r.ss), mean_square=times(r.ms), statistic=r.statistic, p=r.p,
                           partial_eta_squared=r.partial_eta_squared, partial_eta_ci=r.partial_eta_ci,
                           partial_omega_squared=r.partial_omega_squared,
                           partial_omega_ci=r.partial_omega_ci, confidence_level=r.confidence_level,
@@ -337,7 +354,7 @@ def _slopes_checks(plan: Plan, cells, fit) -> tuple[SlopesCheck, ...]:
         row = slopes_homogeneity(cells, plan.model_terms, covariate.name, by, plan.alpha)
         checks.append(SlopesCheck(covariate=covariate.label, by=tuple(plan.factor_named(n).label or n
                                                                       for n in by),
-                                  df1=row.df, df2=fit.residual_df - row.df, statistic=row.f, p=row.p,
+                                  df1=row.df, df2=fit.residual_df - row.df, statistic=row.statistic, p=row.p,
                                   warnings=tuple(row.warnings)))
     return tuple(checks)
 
@@ -878,7 +895,7 @@ def _interacting(plan: Plan, stratum: tuple[str, ...]) -> tuple[tuple[str, ...],
 def _repeated_row(plan: Plan, row) -> ModelRow:
     label = _label(plan, [n for n in row.term if n != "units"]) if row.kind != "error" else row.label
     return ModelRow(term=row.term, label=label, kind=row.kind, df=row.df, sum_of_squares=row.ss,
-                    mean_square=row.ms, statistic=row.f, p=row.p, partial_eta_squared=row.partial_eta_squared,
+                    mean_square=row.ms, statistic=row.statistic, p=row.p, partial_eta_squared=row.partial_eta_squared,
                     partial_eta_ci=row.partial_eta_ci, partial_omega_squared=row.partial_omega_squared,
                     partial_omega_ci=row.partial_omega_ci, confidence_level=row.confidence_level,
                     cohens_f=_cohens_f(row.partial_eta_squared),

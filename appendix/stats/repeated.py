@@ -165,6 +165,7 @@ class RepeatedRow:
     `confidence_level` (1 - 2 alpha; Steiger 2004), computed on `effect_ci_df`: the df of
     the test in force, i.e. the Greenhouse-Geisser corrected df of a within term (when
     its epsilon exists), else the term's df and its error df; None without an interval.
+    `statistic` is the F ratio MS / MS_error, `p` its right tail on (`df`, error df).
     """
 
     term: tuple[str, ...]
@@ -173,7 +174,7 @@ class RepeatedRow:
     df: float
     ss: float
     ms: float | None
-    f: float | None
+    statistic: float | None
     p: float | None
     gg_df: tuple[float, float] | None
     gg_p: float | None
