@@ -469,7 +469,7 @@ def _raw_result(h, contrast, estimate, by=None, level: str | None = None, factor
     return HypothesisResult(
         id=hid, contrast=contrast.id, kind=contrast.kind, label=label, weights=h.weights,
         alternative=contrast.alternative, method="marginal-means", estimate=estimate.estimate,
-        se=estimate.se, statistic=estimate.t, statistic_name="t", df=estimate.df, p=estimate.p,
+        se=estimate.se, statistic=estimate.statistic, statistic_name="t", df=estimate.df, p=estimate.p,
         p_adjusted=None, ci_low=estimate.ci_low, ci_high=estimate.ci_high,
         confidence_level=estimate.confidence_level, ci_simultaneous=False, standardized=None,
         decision="unavailable" if estimate.p is None else "retain",

@@ -438,15 +438,16 @@ def _corrected(f: float, df: int, df_error: int,
 class WithinContrast:
     """A contrast sum_l w_l mu_l of the within levels, tested on the units' own scores.
 
-    `estimate` is the mean contrast score; `se` its standard error on `df` df; `t`, `p`
-    (for `alternative`) and the CI at `confidence_level` (one-sided: one end None).
+    `estimate` is the mean contrast score; `se` its standard error on `df` df; `statistic`
+    (the t ratio), `p` (for `alternative`) and the CI at `confidence_level` (one-sided:
+    one end None).
     """
 
     weights: tuple[float, ...]
     estimate: float | None
     se: float | None
     df: int
-    t: float | None
+    statistic: float | None
     p: float | None
     alternative: str
     ci_low: float | None

@@ -157,7 +157,7 @@ def test_a_large_common_offset_changes_nothing():
         plain.sphericity.greenhouse_geisser, rel=1e-9)
     assert shifted.sphericity.mauchly_w == pytest.approx(plain.sphericity.mauchly_w, rel=1e-9)
     a, b = (within_contrast(_units(v, groups), [0.5, 0.25, -1.5, 0.75]) for v in (y, y + 1e9))
-    assert (b.estimate, b.se, b.t) == pytest.approx((a.estimate, a.se, a.t), rel=1e-9)
+    assert (b.estimate, b.se, b.statistic) == pytest.approx((a.estimate, a.se, a.statistic), rel=1e-9)
     a, b = (within_means(_units(v, groups), 0.95).means[2] for v in (y, y + 1e9))
     assert b.mean - 1e9 == pytest.approx(a.mean, abs=1e-6)
     assert b.se == pytest.approx(a.se, rel=1e-9)
@@ -180,7 +180,7 @@ def test_two_levels_match_the_paired_t_test():
         None, None, 1.0, 1.0, 1.0)
     assert [w.code for w in s.warnings] == ["sphericity-two-levels"]
     c = within_contrast(data, [-1, 1])
-    assert c.t == pytest.approx(ref.statistic, rel=1e-12)
+    assert c.statistic == pytest.approx(ref.statistic, rel=1e-12)
     assert c.p == pytest.approx(ref.pvalue, rel=1e-10)
     assert c.df == 8
 
@@ -225,7 +225,7 @@ def test_one_unit_gives_no_tests_and_no_crash(strict):
     assert fit.sphericity.greenhouse_geisser is None
     assert [w.code for w in fit.sphericity.warnings] == ["sphericity-undefined"]
     c = within_contrast(data, [1, 0, -1])
-    assert (c.estimate, c.se, c.t, c.p) == (-3.0, None, None, None)
+    assert (c.estimate, c.se, c.statistic, c.p) == (-3.0, None, None, None)
     assert [w.code for w in c.warnings] == ["single-unit"]
 
 
@@ -236,7 +236,7 @@ def test_constant_data_give_none_with_warnings(strict):
     assert fit.rows[1].partial_eta_squared is None
     assert fit.sphericity.mauchly_w is None
     c = within_contrast(data, [1, -1, 0])
-    assert c.estimate == 0.0 and c.t is None
+    assert c.estimate == 0.0 and c.statistic is None
     assert [w.code for w in c.warnings] == ["zero-variance"]
     assert [w.code for m in within_means(data, 0.95).means for w in m.warnings] == [
         "zero-variance"] * 3
