@@ -68,9 +68,9 @@ def _eta(name: str, row) -> Parts:
     """``, η² = .38 (90% CI [.14, .52])`` under `name`, or nothing when unavailable."""
     if row.partial_eta_squared is None:
         return ()
-    ci = () if row.partial_eta_ci is None else (
+    ci = () if row.partial_eta_ci_low is None else (
         " (", Number("percent", row.confidence_level), " CI ",
-        Number("proportion-interval", *row.partial_eta_ci), ")")
+        Number("proportion-interval", row.partial_eta_ci_low, row.partial_eta_ci_high), ")")
     return parts(f", {name} = ", Number("proportion", row.partial_eta_squared), ci)
 
 
@@ -81,9 +81,9 @@ def eta_clause(row) -> Parts:
 
 
 def _compatible(row) -> Parts:
-    if row.partial_eta_ci is None:
+    if row.partial_eta_ci_high is None:
         return ("the data cannot rule out differences of a size that would matter.",)
-    return parts("an effect as large as \u03b7\u00b2 = ", Number("proportion", row.partial_eta_ci[1]),
+    return parts("an effect as large as \u03b7\u00b2 = ", Number("proportion", row.partial_eta_ci_high),
                  ", the upper confidence limit, remains compatible with the data.")
 
 

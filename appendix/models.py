@@ -281,13 +281,7 @@ def model_table(fit, label, scale: float = 1.0, stratum: str = "units", *, alpha
 
     rows = tuple(ModelRow(term=r.term, label=label(r.term), kind=r.kind, df=r.df,
                           sum_of_squares=times(r.ss), mean_square=times(r.ms), statistic=r.f, p=r.p,
-                          partial_eta_squared=r.partial_eta_squared, partial_eta_ci=r.partial_eta_ci,
-                          partial_omega_squared=r.partial_omega_squared,
-                          partial_omega_ci=r.partial_omega_ci, confidence_level=r.confidence_level,
-                          cohens_f=_cohens_f(r.partial_eta_squared),
-                          cohens_f_ci=(tuple(_cohens_f(v) for v in r.partial_eta_ci)
-                                       if r.partial_eta_ci is not None else None),
-                          critical_f=_critical_f(alpha, r.df, fit.residual_df),
+                          **_effect_sizes(r), critical_f=_critical_f(alpha, r.df, fit.residual_df),
                           full_df=r.full_df, effect_ci_df=r.effect_ci_df, warnings=tuple(r.warnings))
                  for r in fit.terms)
     return ModelTable(ss_type=fit.ss_type, rows=rows, residual_df=fit.residual_df,
@@ -306,6 +300,19 @@ def _critical_f(alpha: float, df1: float, df2: float) -> float | None:
     from scipy import stats
 
     return float(stats.f.isf(alpha, df1, df2)) if df1 > 0 and df2 > 0 else None
+
+
+def _effect_sizes(row) -> dict[str, float | None]:
+    """A model row's effect-size fields from an engine row (`appendix.stats.linear.TermRow`
+    or `appendix.stats.repeated.RepeatedRow`): partial eta and omega squared, which share
+    one interval, and Cohen's f with that interval mapped to its scale."""
+    low, high = row.partial_eta_ci or (None, None)
+    omega_low, omega_high = row.partial_omega_ci or (None, None)
+    return dict(partial_eta_squared=row.partial_eta_squared, partial_eta_ci_low=low,
+                partial_eta_ci_high=high, partial_omega_squared=row.partial_omega_squared,
+                partial_omega_ci_low=omega_low, partial_omega_ci_high=omega_high,
+                confidence_level=row.confidence_level, cohens_f=_cohens_f(row.partial_eta_squared),
+                cohens_f_ci_low=_cohens_f(low), cohens_f_ci_high=_cohens_f(high))
 
 
 def _cohens_f(share: float | None) -> float | None:
@@ -878,11 +885,5 @@ def _interacting(plan: Plan, stratum: tuple[str, ...]) -> tuple[tuple[str, ...],
 def _repeated_row(plan: Plan, row) -> ModelRow:
     label = _label(plan, [n for n in row.term if n != "units"]) if row.kind != "error" else row.label
     return ModelRow(term=row.term, label=label, kind=row.kind, df=row.df, sum_of_squares=row.ss,
-                    mean_square=row.ms, statistic=row.f, p=row.p, partial_eta_squared=row.partial_eta_squared,
-                    partial_eta_ci=row.partial_eta_ci, partial_omega_squared=row.partial_omega_squared,
-                    partial_omega_ci=row.partial_omega_ci, confidence_level=row.confidence_level,
-                    cohens_f=_cohens_f(row.partial_eta_squared),
-                    cohens_f_ci=(tuple(_cohens_f(v) for v in row.partial_eta_ci)
-                                 if row.partial_eta_ci is not None else None),
-                    gg_df=row.gg_df, gg_p=row.gg_p, hf_df=row.hf_df, hf_p=row.hf_p,
+                    mean_square=row.ms, statistic=row.f, p=row.p, **_effect_sizes(row), gg_df=row.gg_df, gg_p=row.gg_p, hf_df=row.hf_df, hf_p=row.hf_p,
                     effect_ci_df=row.effect_ci_df, warnings=tuple(row.warnings))

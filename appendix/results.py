@@ -483,12 +483,15 @@ class ModelRow:
     statistic: float | None
     p: float | None
     partial_eta_squared: float | None
-    partial_eta_ci: tuple[float, float] | None
+    partial_eta_ci_low: float | None
+    partial_eta_ci_high: float | None
     partial_omega_squared: float | None
-    partial_omega_ci: tuple[float, float] | None
+    partial_omega_ci_low: float | None
+    partial_omega_ci_high: float | None
     confidence_level: float
     cohens_f: float | None = None
-    cohens_f_ci: tuple[float, float] | None = None
+    cohens_f_ci_low: float | None = None
+    cohens_f_ci_high: float | None = None
     critical_f: float | None = None
     full_df: float | None = None
     gg_df: tuple[float, float] | None = None
