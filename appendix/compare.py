@@ -302,11 +302,12 @@ def compare_conclusions(a: Mapping[str, Any], b: Mapping[str, Any]) -> tuple[Con
 
 # --- 2. numbers -----------------------------------------------------------------------
 
-#: A row's effect sizes: (field of the estimate, field of its interval, words). With one
-#: term in one table a partial share is the share itself (the error is all that is left).
-_EFFECTS = (("partial_eta_squared", "partial_eta_ci", "eta squared"),
-            ("partial_omega_squared", "partial_omega_ci", "omega squared"),
-            ("cohens_f", "cohens_f_ci", "Cohen's f"))
+#: A row's effect sizes: (field of the estimate, prefix of its interval's ``_ci_low`` and
+#: ``_ci_high`` fields, words). With one term in one table a partial share is the share
+#: itself (the error is all that is left).
+_EFFECTS = (("partial_eta_squared", "partial_eta", "eta squared"),
+            ("partial_omega_squared", "partial_omega", "omega squared"),
+            ("cohens_f", "cohens_f", "Cohen's f"))
 
 
 def _interval(found: dict, outcome: str, quantity: str, label: str, item: Mapping[str, Any],
@@ -364,9 +365,9 @@ def _term_numbers(found: dict, name: str, o: Mapping[str, Any]) -> None:
     for term, label, row in _rows(o):
         for estimate, interval, words in _EFFECTS:
             words = words if one_term or estimate == "cohens_f" else f"partial {words}"
-            low, high = row.get(interval) or (None, None)
             _interval(found, name, f"{term}.{estimate}", f"{words}, {label}",
-                      {"estimate": row.get(estimate), "ci_low": low, "ci_high": high})
+                      {"estimate": row.get(estimate), "ci_low": row.get(f"{interval}_ci_low"),
+                       "ci_high": row.get(f"{interval}_ci_high")})
 
 
 def numbers_of(results: Mapping[str, Any]) -> dict[tuple[str, str], tuple[str, float | None]]:

@@ -32,7 +32,7 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-from appendix import conclude, families as one_factor
+from appendix import families as one_factor
 from appendix.data.dataset import OutcomeData
 from appendix.families import provisional, shares_on
 from appendix.plan.family_plan import SINGLE_STEP
@@ -200,22 +200,15 @@ def _between_outcome(plan, outcome, data, missing_by_cell, cell_labels):
         exploratory = one_factor.exploratory_families(plan, outcome.name, selected, one, data.values,
                                                       treatment)
         deviations = one_factor.contingency_deviations(outcome.name, contingencies, selected)
-        conclusions = (conclude.conclusion(plan, outcome, table.rows[0], table.residual_df,
-                                           method=selected, robust=robust),)
     else:
         families, exploratory = _contrast_families(plan, outcome, fit=fit)
-        conclusions = tuple(conclude.with_caveat(
-            conclude.term_conclusion(plan, outcome, row, table.ss_type, table.residual_df),
-            conclude.slopes_caveat(slopes, plan.alpha))
-            for row in table.rows if _concluded(plan, row.term))
     n = data.sample_of if data.sample_of is not None else int(data.values.size)
     return OutcomeResult(
         name=outcome.name, label=outcome.label, unit=outcome.unit, role=outcome.role,
         design=design_words(plan), n_units=n, n_observations=n,
         arithmetic=cells.arithmetic,
         descriptives=descriptives, tables=(table,), marginal_means=means, slopes=slopes,
-        diagnostics=diagnostics, conclusions=conclusions,
-        robust=robust, robust_absent=plan.robust_absent, selected_method=selected,
+        diagnostics=diagnostics, robust=robust, robust_absent=plan.robust_absent, selected_method=selected,
         contingencies=contingencies, sample_of=data.sample_of,
         sample_size=int(data.values.size) if data.sample_of is not None else None,
         contrasts=families, covariate_slopes=_covariate_slopes(plan, fit),
@@ -274,13 +267,6 @@ def _full_data_moments(descriptives: Descriptives, cells, data: OutcomeData) -> 
                                warnings=(*descriptives.warnings, note))
 
 
-def _concluded(plan: Plan, term: tuple[str, ...]) -> bool:
-    """Whether a term's test is a conclusion: terms of treatment and within factors only;
-    blocks and covariates adjust the model and are reported in its table."""
-    tested = {f.name for f in plan.treatments} | {f.name for f in plan.within_factors}
-    return set(term) <= tested
-
-
 def _model_table(plan: Plan, fit, scale: float = 1.0, stratum: str = "units") -> ModelTable:
     """The variance table of a fit, its terms labelled as the plan names them."""
     return model_table(fit, lambda term: _label(plan, term), scale, stratum, alpha=plan.alpha,
@@ -298,13 +284,7 @@ def model_table(fit, label, scale: float = 1.0, stratum: str = "units", *, alpha
 
     rows = tuple(ModelRow(term=r.term, label=label(r.term), kind=r.kind, df=r.df,
                           sum_of_squares=times(r.ss), mean_square=times(r.ms), statistic=r.statistic, p=r.p,
-                          partial_eta_squared=r.partial_eta_squared, partial_eta_ci=r.partial_eta_ci,
-                          partial_omega_squared=r.partial_omega_squared,
-                          partial_omega_ci=r.partial_omega_ci, confidence_level=r.confidence_level,
-                          cohens_f=_cohens_f(r.partial_eta_squared),
-                          cohens_f_ci=(tuple(_cohens_f(v) for v in r.partial_eta_ci)
-                                       if r.partial_eta_ci is not None else None),
-                          critical_f=_critical_f(alpha, r.df, fit.residual_df),
+                          **_effect_sizes(r), critical_f=_critical_f(alpha, r.df, fit.residual_df),
                           full_df=r.full_df, effect_ci_df=r.effect_ci_df, warnings=tuple(r.warnings))
                  for r in fit.terms)
     return ModelTable(ss_type=fit.ss_type, rows=rows, residual_df=fit.residual_df,
@@ -323,6 +303,19 @@ def _critical_f(alpha: float, df1: float, df2: float) -> float | None:
     from scipy import stats
 
     return float(stats.f.isf(alpha, df1, df2)) if df1 > 0 and df2 > 0 else None
+
+
+def _effect_sizes(row) -> dict[str, float | None]:
+    """A model row's effect-size fields from an engine row (`appendix.stats.linear.TermRow`
+    or `appendix.stats.repeated.RepeatedRow`): partial eta and omega squared, which share
+    one interval, and Cohen's f with that interval mapped to its scale."""
+    low, high = row.partial_eta_ci or (None, None)
+    omega_low, omega_high = row.partial_omega_ci or (None, None)
+    return dict(partial_eta_squared=row.partial_eta_squared, partial_eta_ci_low=low,
+                partial_eta_ci_high=high, partial_omega_squared=row.partial_omega_squared,
+                partial_omega_ci_low=omega_low, partial_omega_ci_high=omega_high,
+                confidence_level=row.confidence_level, cohens_f=_cohens_f(row.partial_eta_squared),
+                cohens_f_ci_low=_cohens_f(low), cohens_f_ci_high=_cohens_f(high))
 
 
 def _cohens_f(share: float | None) -> float | None:
@@ -439,9 +432,6 @@ def _diagnostics(plan: Plan, values: np.ndarray, cells: np.ndarray, cell_labels,
     outliers = studentized_screen(values, residuals, leverage, fit.residual_ss, fit.residual_df, units,
                                   [str(cell_labels[c]) for c in cells], settings.outliers.threshold)
     return Diagnostics(normality=normality, equal_variance=tuple(tests), outliers=outliers,
-                       assumptions=conclude.assumption_statuses(
-                           plan, normality, tests, within=within, qq_plot=True,
-                           welch_shown=plan.robust_absent is None),
                        within_normality=within)
 
 
@@ -791,12 +781,6 @@ def _repeated_outcome(plan, outcome, data, missing_by_cell, cell_labels):
     families, exploratory = _contrast_families(plan, outcome, fit=fit.between, complete=complete,
                                                occasion_fit=occasion_fit,
                                                occasion_residuals=occasion_residuals)
-    conclusions = tuple(conclude.with_caveat(
-        conclude.term_conclusion(plan, outcome, row, between.ss_type, between.residual_df),
-        conclude.slopes_caveat(slopes, plan.alpha))
-        for row in between.rows if _concluded(plan, row.term))
-    conclusions += tuple(conclude.term_conclusion(plan, outcome, row, table.ss_type, table.residual_df)
-                         for table in within_tables for row in table.rows if _concluded(plan, row.term))
     notes = tuple(fit.warnings)
     if complete.dropped:
         grid_words = (f"level of {within[0].label or within[0].name}" if len(within) == 1
@@ -811,7 +795,7 @@ def _repeated_outcome(plan, outcome, data, missing_by_cell, cell_labels):
         arithmetic="float64", descriptives=descriptives, tables=(between, *within_tables),
         marginal_means=(_marginal(plan, fit.between, over=over)
                         + _occasion_means(plan, complete, cell_labels)),
-        slopes=slopes, diagnostics=diagnostics, conclusions=conclusions,
+        slopes=slopes, diagnostics=diagnostics,
         robust_absent=plan.robust_absent, contrasts=families,
         covariate_slopes=_covariate_slopes(plan, fit.between), warnings=notes), exploratory, (), Residuals(
             outcome.name, _read_only(unit_means - residuals), _read_only(residuals), complete.groups,
@@ -895,11 +879,6 @@ def _interacting(plan: Plan, stratum: tuple[str, ...]) -> tuple[tuple[str, ...],
 def _repeated_row(plan: Plan, row) -> ModelRow:
     label = _label(plan, [n for n in row.term if n != "units"]) if row.kind != "error" else row.label
     return ModelRow(term=row.term, label=label, kind=row.kind, df=row.df, sum_of_squares=row.ss,
-                    mean_square=row.ms, statistic=row.statistic, p=row.p, partial_eta_squared=row.partial_eta_squared,
-                    partial_eta_ci=row.partial_eta_ci, partial_omega_squared=row.partial_omega_squared,
-                    partial_omega_ci=row.partial_omega_ci, confidence_level=row.confidence_level,
-                    cohens_f=_cohens_f(row.partial_eta_squared),
-                    cohens_f_ci=(tuple(_cohens_f(v) for v in row.partial_eta_ci)
-                                 if row.partial_eta_ci is not None else None),
+                    mean_square=row.ms, statistic=row.statistic, p=row.p, **_effect_sizes(row),
                     gg_df=row.gg_df, gg_p=row.gg_p, hf_df=row.hf_df, hf_p=row.hf_p,
                     effect_ci_df=row.effect_ci_df, warnings=tuple(row.warnings))

@@ -186,7 +186,7 @@ class Diagnostics:
     normality: NormalityTest | None
     equal_variance: tuple[VarianceTest, ...]
     outliers: OutlierScreen | None
-    assumptions: tuple[AssumptionStatus, ...]
+    assumptions: tuple[AssumptionStatus, ...] = ()
     within_normality: NormalityTest | None = None
 
 
@@ -436,12 +436,15 @@ class ModelRow:
     statistic: float | None
     p: float | None
     partial_eta_squared: float | None
-    partial_eta_ci: tuple[float, float] | None
+    partial_eta_ci_low: float | None
+    partial_eta_ci_high: float | None
     partial_omega_squared: float | None
-    partial_omega_ci: tuple[float, float] | None
+    partial_omega_ci_low: float | None
+    partial_omega_ci_high: float | None
     confidence_level: float
     cohens_f: float | None = None
-    cohens_f_ci: tuple[float, float] | None = None
+    cohens_f_ci_low: float | None = None
+    cohens_f_ci_high: float | None = None
     critical_f: float | None = None
     full_df: float | None = None
     gg_df: tuple[float, float] | None = None
@@ -600,7 +603,7 @@ class OutcomeResult:
     marginal_means: tuple[MarginalMeans, ...]
     slopes: tuple[SlopesCheck, ...]
     diagnostics: Diagnostics
-    conclusions: tuple[Conclusion, ...]
+    conclusions: tuple[Conclusion, ...] = ()
     robust: RobustTests | None = None
     robust_absent: str | None = None
     selected_method: str = "classical"

@@ -25,8 +25,8 @@ def row(f, p, effect=None, warnings=()):
     return ModelRow(term=("coating",), label="seed coating", kind="factor", df=3,
                     sum_of_squares=30.0, mean_square=10.0, statistic=f, p=p,
                     partial_eta_squared=estimate,
-                    partial_eta_ci=(low, high) if effect is not None else None,
-                    partial_omega_squared=None, partial_omega_ci=None, confidence_level=0.9,
+                    partial_eta_ci_low=low, partial_eta_ci_high=high, partial_omega_squared=None,
+                    partial_omega_ci_low=None, partial_omega_ci_high=None, confidence_level=0.9,
                     warnings=warnings)
 
 

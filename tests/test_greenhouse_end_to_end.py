@@ -89,6 +89,6 @@ def test_every_tested_term_of_both_strata_has_cohens_f(run):
     for row in rows:
         share = row["partial_eta_squared"]
         assert row["cohens_f"] == pytest.approx((share / (1 - share)) ** 0.5, rel=1e-12)
-        low, high = row["partial_eta_ci"]
-        assert row["cohens_f_ci"] == pytest.approx([(low / (1 - low)) ** 0.5,
-                                                    (high / (1 - high)) ** 0.5], rel=1e-12)
+        low, high = row["partial_eta_ci_low"], row["partial_eta_ci_high"]
+        assert row["cohens_f_ci_low"] == pytest.approx((low / (1 - low)) ** 0.5, rel=1e-12)
+        assert row["cohens_f_ci_high"] == pytest.approx((high / (1 - high)) ** 0.5, rel=1e-12)

@@ -60,7 +60,7 @@ def test_the_effect_interval_is_on_the_corrected_df_and_the_appendix_says_so(tmp
         stated = re.search(r"partial η² = \S+ \(90% CI \[([.\d]+), ([.\d]+)\]\)", sentence)
         rejected = "is rejected" in sentence
         # the stated interval excludes zero exactly when the corrected test rejects
-        assert (row.partial_eta_ci[0] > 0) == rejected == (row.gg_p < 0.05), sentence
+        assert (row.partial_eta_ci_low > 0) == rejected == (row.gg_p < 0.05), sentence
         assert stated is not None and "Greenhouse-Geisser corrected" in sentence
         assert row.effect_ci_df == row.gg_df
         decisions.add(rejected)

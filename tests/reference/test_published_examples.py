@@ -171,7 +171,9 @@ def test_effect_sizes_on_the_steiger_example() -> None:
     assert row.partial_eta_squared == pytest.approx(15 / 91, rel=1e-15)
     assert row.partial_omega_squared == pytest.approx((15 - 3 * 1.0) / (91 + 1.0), rel=1e-15)
     assert row.cohens_f == pytest.approx(np.sqrt(15 / 76), rel=1e-15)
-    assert row.partial_eta_ci == pytest.approx((1.8666 / 81.8666, 32.563 / 112.563), abs=1e-5)
-    assert row.partial_omega_ci == row.partial_eta_ci
-    assert row.cohens_f_ci == pytest.approx((np.sqrt(1.8666 / 80), np.sqrt(32.563 / 80)), abs=1e-5)
+    eta_ci = (row.partial_eta_ci_low, row.partial_eta_ci_high)
+    assert eta_ci == pytest.approx((1.8666 / 81.8666, 32.563 / 112.563), abs=1e-5)
+    assert (row.partial_omega_ci_low, row.partial_omega_ci_high) == eta_ci
+    assert (row.cohens_f_ci_low, row.cohens_f_ci_high) == pytest.approx(
+        (np.sqrt(1.8666 / 80), np.sqrt(32.563 / 80)), abs=1e-5)
     assert row.effect_ci_df == (3.0, 76.0)

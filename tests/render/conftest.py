@@ -108,12 +108,15 @@ def _one_term_table(df_b, df_w, ss_between, ss_within, f, p, effects=None, warni
     """The one-term variance table of the arm factor; `effects` is (eta squared, its CI,
     omega squared, its CI, Cohen's f, its CI) at 95%, or None."""
     eta, eta_ci, omega, omega_ci, cohens_f, f_ci = effects or (None,) * 6
+    eta_ci, omega_ci, f_ci = (pair or (None, None) for pair in (eta_ci, omega_ci, f_ci))
     ms_b, ms_w = ss_between / df_b, ss_within / df_w
     row = R.ModelRow(term=("arm",), label="Treatment arm", kind="factor", df=df_b,
                      sum_of_squares=ss_between, mean_square=ms_b, statistic=f, p=p,
-                     partial_eta_squared=eta, partial_eta_ci=eta_ci, partial_omega_squared=omega,
-                     partial_omega_ci=omega_ci, confidence_level=0.95, cohens_f=cohens_f,
-                     cohens_f_ci=f_ci, critical_f=float(stats.f.isf(0.05, df_b, df_w)),
+                     partial_eta_squared=eta, partial_eta_ci_low=eta_ci[0],
+                     partial_eta_ci_high=eta_ci[1], partial_omega_squared=omega,
+                     partial_omega_ci_low=omega_ci[0], partial_omega_ci_high=omega_ci[1],
+                     confidence_level=0.95, cohens_f=cohens_f, cohens_f_ci_low=f_ci[0],
+                     cohens_f_ci_high=f_ci[1], critical_f=float(stats.f.isf(0.05, df_b, df_w)),
                      warnings=warnings)
     total = ss_between + ss_within
     return R.ModelTable(ss_type=2, rows=(row,), residual_df=df_w, residual_ss=ss_within,

@@ -176,13 +176,13 @@ def test_no_exception_and_every_gap_is_explained(sizes, pool, seed) -> None:
     if r["test"].statistic is None:
         assert r["table"].warnings, "the table says nothing of the missing test"
     test = r["test"]
-    for estimate, interval in ((test.partial_eta_squared, test.partial_eta_ci),
-                               (test.partial_omega_squared, test.partial_omega_ci),
-                               (test.cohens_f, test.cohens_f_ci)):
-        if interval is None:
-            assert test.warnings, "an effect-size interval is missing without a warning"
+    for measure in ("partial_eta", "partial_omega", "cohens_f"):
+        estimate = getattr(test, "cohens_f" if measure == "cohens_f" else f"{measure}_squared")
+        low, high = getattr(test, f"{measure}_ci_low"), getattr(test, f"{measure}_ci_high")
+        if low is None:
+            assert high is None and test.warnings, f"{measure}: interval missing without a warning"
         else:
-            assert estimate is not None and 0.0 <= interval[0] <= interval[1]
+            assert estimate is not None and 0.0 <= low <= high, measure
 
 
 def test_brown_forsythe_with_two_units_per_level() -> None:

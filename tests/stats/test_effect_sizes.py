@@ -42,7 +42,7 @@ def test_ninety_percent_interval_excludes_zero_iff_the_test_rejects_at_five_perc
         values = rng.normal(size=36) + shift * (codes == 2)
         row = one_term_table(values, codes, 3, alpha=0.05).rows[0]
         assert row.confidence_level == 0.90
-        low, high = row.partial_eta_ci
+        low, high = row.partial_eta_ci_low, row.partial_eta_ci_high
         assert (low > 0) == (row.p < 0.05)
         assert low <= high
 
@@ -61,7 +61,8 @@ def test_enormous_f_gives_no_interval_but_keeps_the_estimates() -> None:
     # Cohen's f = sqrt(SS / SS within) = sqrt(3.75e11); taken from eta squared, whose
     # distance from 1 (2.7e-12) carries float64 rounding, so to 1e-4 only.
     assert row.cohens_f == pytest.approx(np.sqrt(3.75e11), rel=1e-4)
-    assert row.partial_eta_ci is None and row.partial_omega_ci is None and row.cohens_f_ci is None
+    assert (row.partial_eta_ci_low, row.partial_eta_ci_high, row.partial_omega_ci_low,
+            row.partial_omega_ci_high, row.cohens_f_ci_low, row.cohens_f_ci_high) == (None,) * 6
     assert row.effect_ci_df is None
     assert [w.code for w in row.warnings] == ["effect-size-ci-unavailable"]
     assert "F = 1.5e+12 for group is too large" in row.warnings[0].message
