@@ -192,7 +192,7 @@ def _between_outcome(plan, outcome, data, missing_by_cell, cell_labels):
                                                                decimals=data.decimals)
         if data.summary is not None:
             descriptives = _full_data_moments(descriptives, one, data)
-        table = _one_factor_notes(table, one, plan.alpha)
+        table = one_factor_notes(table, one)
         robust = RobustTests(welch=welch_anova(one),
                              kruskal=kruskal_wallis(data.values, treatment, k, cell_labels))
         selected, contingencies = one_factor.select_method(plan, diagnostics)
@@ -216,16 +216,33 @@ def _between_outcome(plan, outcome, data, missing_by_cell, cell_labels):
             outcome.name, _read_only(data.values - residuals), _read_only(residuals), treatment)
 
 
-def _one_factor_notes(table: ModelTable, cells, alpha: float) -> ModelTable:
-    """A one-factor table with the one-way layout's own notes (empty levels, single
-    groups, no within-group df), which say in the design's words why a test is missing;
-    the factor's row carries them when its F is undefined."""
-    from appendix.stats.oneway import variance_table
+_SAID_BY_THE_LAYOUT = ("term-partly-estimable", "term-not-estimable", "type3-empty-cells")
+"""The engine's row notes on a one-factor term that an empty level's note says in the
+design's words (with one factor, an empty level only leaves that level out of the test)."""
 
-    notes = tuple(variance_table(cells, alpha).warnings)
+
+def one_factor_notes(table: ModelTable, cells) -> ModelTable:
+    """A one-factor table (the one-term model's) with the one-way layout's own notes
+    (`appendix.stats.oneway.partition`: empty levels, single-unit levels, a single group,
+    no within-group df, identical values, zero within-group variance), which say in the
+    design's words why a test is missing; they stand for the engine's notes on the table.
+    The factor's row carries them when its F is undefined; otherwise it keeps the engine's
+    own notes (an effect-size interval that cannot be computed) except those on empty
+    cells, which the empty-level notes say. Where the layout sees variation that the engine
+    finds zero up to rounding, the engine's notes say why the F is missing."""
+    from appendix.stats.oneway import partition
+
+    layout = partition(cells)
+    notes = tuple(layout.warnings)
     row = table.rows[0]
-    return replace(table, warnings=notes,
-                   rows=(replace(row, warnings=notes if row.statistic is None else ()),))
+    own = tuple(w for w in row.warnings if w.code not in _SAID_BY_THE_LAYOUT)
+    if row.statistic is not None:
+        table_notes, row_notes = notes, own
+    elif layout.statistic is not None:
+        table_notes, row_notes = (*notes, *table.warnings), own
+    else:
+        table_notes, row_notes = notes, notes
+    return replace(table, warnings=table_notes, rows=(replace(row, warnings=row_notes),))
 
 
 def _full_data_moments(descriptives: Descriptives, cells, data: OutcomeData) -> Descriptives:
@@ -266,7 +283,7 @@ def model_table(fit, label, scale: float = 1.0, stratum: str = "units", *, alpha
         return None if value is None else value * scale
 
     rows = tuple(ModelRow(term=r.term, label=label(r.term), kind=r.kind, df=r.df,
-                          sum_of_squares=times(r.ss), mean_square=times(r.ms), statistic=r.f, p=r.p,
+                          sum_of_squares=times(r.ss), mean_square=times(r.ms), statistic=r.statistic, p=r.p,
                           **_effect_sizes(r), critical_f=_critical_f(alpha, r.df, fit.residual_df),
                           full_df=r.full_df, effect_ci_df=r.effect_ci_df, warnings=tuple(r.warnings))
                  for r in fit.terms)
@@ -330,7 +347,7 @@ def _slopes_checks(plan: Plan, cells, fit) -> tuple[SlopesCheck, ...]:
         row = slopes_homogeneity(cells, plan.model_terms, covariate.name, by, plan.alpha)
         checks.append(SlopesCheck(covariate=covariate.label, by=tuple(plan.factor_named(n).label or n
                                                                       for n in by),
-                                  df1=row.df, df2=fit.residual_df - row.df, statistic=row.f, p=row.p,
+                                  df1=row.df, df2=fit.residual_df - row.df, statistic=row.statistic, p=row.p,
                                   warnings=tuple(row.warnings)))
     return tuple(checks)
 
@@ -442,7 +459,7 @@ def _raw_result(h, contrast, estimate, by=None, level: str | None = None, factor
     return HypothesisResult(
         id=hid, contrast=contrast.id, kind=contrast.kind, label=label, weights=h.weights,
         alternative=contrast.alternative, method="marginal-means", estimate=estimate.estimate,
-        se=estimate.se, statistic=estimate.t, statistic_name="t", df=estimate.df, p=estimate.p,
+        se=estimate.se, statistic=estimate.statistic, statistic_name="t", df=estimate.df, p=estimate.p,
         p_adjusted=None, ci_low=estimate.ci_low, ci_high=estimate.ci_high,
         confidence_level=estimate.confidence_level, ci_simultaneous=False, standardized=None,
         decision="unavailable" if estimate.p is None else "retain",
@@ -862,5 +879,6 @@ def _interacting(plan: Plan, stratum: tuple[str, ...]) -> tuple[tuple[str, ...],
 def _repeated_row(plan: Plan, row) -> ModelRow:
     label = _label(plan, [n for n in row.term if n != "units"]) if row.kind != "error" else row.label
     return ModelRow(term=row.term, label=label, kind=row.kind, df=row.df, sum_of_squares=row.ss,
-                    mean_square=row.ms, statistic=row.f, p=row.p, **_effect_sizes(row), gg_df=row.gg_df, gg_p=row.gg_p, hf_df=row.hf_df, hf_p=row.hf_p,
+                    mean_square=row.ms, statistic=row.statistic, p=row.p, **_effect_sizes(row),
+                    gg_df=row.gg_df, gg_p=row.gg_p, hf_df=row.hf_df, hf_p=row.hf_p,
                     effect_ci_df=row.effect_ci_df, warnings=tuple(row.warnings))

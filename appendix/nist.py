@@ -102,14 +102,15 @@ def one_factor_cells(case: NistCase, *, exact: bool = True) -> DesignCells:
     return design_cells(grid, [case.codes], case.values, decimals=case.decimals if exact else None)
 
 
-def engine_table(cells: DesignCells) -> ModelTable:
+def engine_table(cells: DesignCells, alpha: float = 0.05) -> ModelTable:
     """The variance table the appendix reports for a one-factor outcome: the one-term
-    model fitted by the design engine (`appendix.stats.linear.fit_linear`)."""
+    model fitted by the design engine (`appendix.stats.linear.fit_linear`), its critical
+    F at `alpha` and its effect-size intervals at 1 - 2 alpha."""
     from appendix.models import model_table
     from appendix.stats.linear import fit_linear, label_of
 
-    return model_table(fit_linear(cells, [cells.grid.names], ss_type=2, alpha=0.05), label_of,
-                       alpha=0.05)
+    return model_table(fit_linear(cells, [cells.grid.names], ss_type=2, alpha=alpha), label_of,
+                       alpha=alpha)
 
 
 def engine_values(table: ModelTable) -> dict[str, float]:

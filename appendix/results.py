@@ -87,38 +87,6 @@ class Descriptives:
 
 
 @dataclass(frozen=True)
-class VarianceRow:
-    """One line of a variance table. `term` is ``between``, ``within`` or ``total``."""
-
-    term: str
-    df: int
-    sum_of_squares: float
-    mean_square: float | None
-    f: float | None
-    p: float | None
-
-
-@dataclass(frozen=True)
-class OneWayTable:
-    """The classical one-way variance table (Fisher 1925) and its reference distribution.
-
-    The F test refers `f` to F(`df_between`, `df_within`), right tail; `critical_f` is the
-    upper-`alpha` quantile. `r_squared` = SS_between / SS_total; `residual_sd` = sqrt(MS_within).
-    """
-
-    rows: tuple[VarianceRow, ...]
-    df_between: int
-    df_within: int
-    f: float | None
-    p: float | None
-    alpha: float
-    critical_f: float | None
-    r_squared: float | None
-    residual_sd: float | None
-    warnings: Warnings = ()
-
-
-@dataclass(frozen=True)
 class WelchAnova:
     """Welch's (1951) heteroscedastic one-way test: the F `statistic` on (`df1`, `df2`),
     `df2` fractional."""
@@ -139,21 +107,6 @@ class KruskalWallis:
     df1: int | None
     p: float | None
     tie_correction: float | None
-    warnings: Warnings = ()
-
-
-@dataclass(frozen=True)
-class EffectSize:
-    """A variance-explained effect size with a CI from inverting the noncentral F (Steiger 2004).
-
-    `measure` is ``eta_squared``, ``omega_squared`` or ``cohens_f``.
-    """
-
-    measure: str
-    estimate: float | None
-    ci_low: float | None
-    ci_high: float | None
-    confidence_level: float
     warnings: Warnings = ()
 
 

@@ -73,7 +73,7 @@ def _check_same_table(values: np.ndarray, codes: np.ndarray) -> None:
     n, means, ssd = bare_two_pass(values, codes)
     grand = values.mean()
     f = (np.dot(n, (means - grand) ** 2) / (LEVELS - 1)) / (ssd.sum() / (values.size - LEVELS))
-    if abs(engine(values, codes).f / f - 1) > 1e-9:
+    if abs(engine(values, codes).statistic / f - 1) > 1e-9:
         raise RuntimeError("engine and bare two-pass disagree")
 
 

@@ -62,7 +62,7 @@ def statsmodels_table(frame):
 def _check_same_table(ours, reference) -> None:
     rows = reference.drop(index=["Intercept", "Residual"])
     for row, (_, expected) in zip(ours.terms, rows.iterrows()):
-        if row.df != expected["df"] or abs(row.f / expected["F"] - 1) > 1e-8:
+        if row.df != expected["df"] or abs(row.statistic / expected["F"] - 1) > 1e-8:
             raise RuntimeError(f"appendix and statsmodels disagree on {row.label}")
 
 

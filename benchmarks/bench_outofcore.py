@@ -3,8 +3,9 @@
 The file (invented data: unit id int64, a factor of 100 levels, one float64 outcome whose
 level means differ a little) is generated once, row group by row group with pyarrow, in
 the benchmark scratch folder outside the repo, and reused when its row count is right.
-A fresh child process then runs `build_dataset_out_of_core` and the one-way variance
-table on the full-data cell summary; the child's peak resident set size (VmHWM from
+A fresh child process then runs `build_dataset_out_of_core` and the one-term model's
+variance table (the design engine, as a one-factor outcome is fitted) on the full-data
+cell summary; the child's peak resident set size (VmHWM from
 /proc/self/status: it starts afresh at exec, whereas ru_maxrss inherits the RSS of the
 forked parent, which `benchmarks/run.py` makes large) is compared with the 1 GiB
 target. Wall time is printed beside it.
@@ -61,22 +62,17 @@ def peak_kib():
 
 
 from pathlib import Path
-import numpy as np
 from appendix.plan.load import load_plan
 from appendix.data.outofcore import build_dataset_out_of_core
-from appendix.stats import cells, oneway
+from appendix.stats.cells import cells_from_summary
+from appendix.stats.design import Grid, design_cells_from_stats
+from appendix.stats.linear import fit_linear
 loaded = load_plan(Path(sys.argv[1]))
 data = build_dataset_out_of_core(loaded).outcome("y")
 s, labels = data.summary, loaded.plan.factor.levels
-if hasattr(cells, "cells_from_summary"):
-    table = cells.cells_from_summary(s, labels)
-else:
-    n_total = int(s.n.sum())
-    grand = float(np.dot(s.n, s.mean) / n_total)
-    table = cells.CellStats(labels=tuple(labels), n=s.n, mean=s.mean, ssd=s.ssd, shift=0.0,
-                            centred_mean=s.mean, n_total=n_total, grand_mean=grand)
-part = oneway.partition(table)
-print(json.dumps({"seconds": time.perf_counter() - start, "n": int(s.n.sum()), "f": part.f,
+grid = Grid(("arm",), (tuple(labels),))
+row = fit_linear(design_cells_from_stats(grid, cells_from_summary(s, labels)), [("arm",)], 2, 0.05).terms[0]
+print(json.dumps({"seconds": time.perf_counter() - start, "n": int(s.n.sum()), "f": row.statistic,
                   "sample": int(data.values.size), "counts": s.n.tolist(),
                   "mean": s.mean.tolist(), "ssd": s.ssd.tolist(),
                   "peak_kib": peak_kib()}))

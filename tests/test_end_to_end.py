@@ -70,7 +70,7 @@ def test_html_holds_every_section_and_working_links(demo_run: Path):
     assert parser.links and set(parser.links) <= parser.ids
 
 
-def test_pdf_text_holds_the_variance_table(demo_run: Path):
+def test_pdf_text_holds_the_model_table(demo_run: Path):
     results = json.loads((demo_run / "run" / "results.json").read_text())
     reader = PdfReader(demo_run / "run" / "appendix.pdf")
     text = " ".join(page.extract_text() for page in reader.pages)

@@ -150,7 +150,7 @@ def test_unit_flow_matches_counts_by_hand(results):
 
 
 @pytest.mark.parametrize("name", list(OUTCOMES))
-def test_variance_table_matches_statsmodels_type_2(results, name):
+def test_model_table_matches_statsmodels_type_2(results, name):
     # reference: statsmodels anova_lm(ols(MODEL).fit(), typ=2)
     reference = anova_lm(_fit(OUTCOMES[name]), typ=2)
     (table,) = _model(results, name)["tables"]

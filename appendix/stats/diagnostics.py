@@ -78,7 +78,7 @@ def brown_forsythe(
     spread = _median_deviations(values, codes, k, decimals)
     part = partition(cell_stats(spread, codes, k, levels,
                                 decimals=None if decimals is None else decimals + 1))
-    if part.f is None:
+    if part.statistic is None:
         # Keep the layout warnings; restate the F failure in terms of this test.
         kept = tuple(w for w in part.warnings if w.code in _LAYOUT_CODES)
         failure = (StatWarning(
@@ -86,7 +86,7 @@ def brown_forsythe(
             "The absolute deviations from the level medians show no within-level variation "
             "(or there are too few units); the Brown-Forsythe test is undefined."),)
         return VarianceTest("brown-forsythe", None, None, None, None, kept + failure)
-    return VarianceTest("brown-forsythe", part.f, float(part.df_between), float(part.df_within),
+    return VarianceTest("brown-forsythe", part.statistic, float(part.df_between), float(part.df_within),
                         part.p, part.warnings)
 
 

@@ -1,15 +1,17 @@
-"""Variance-explained effect sizes of the one-way layout, with noncentral-F intervals."""
+"""The noncentral-F interval behind every variance-explained effect size's CI.
+
+The design engine (`appendix.stats.linear`, `appendix.stats.repeated`) converts it into
+the interval of each term's partial eta and omega squared (and Cohen's f).
+"""
 
 from __future__ import annotations
 
-import math
 import warnings as _warnings
 
 from scipy import optimize as _opt
 from scipy import stats as _st
 
 from appendix.errors import InternalError
-from appendix.results import EffectSize, OneWayTable, StatWarning
 from appendix.stats.descriptives import check_confidence
 
 # Beyond this noncentrality scipy's noncentral F (Boost series) slows down and then stops
@@ -74,51 +76,3 @@ def noncentrality_interval(f: float, df1: float, df2: float,
             return _solve(f, df1, df2, tail), _solve(f, df1, df2, 1.0 - tail)
         except (_OutOfRange, RuntimeWarning, ValueError):  # ValueError: NaN from the series
             return None
-
-
-def effect_sizes(table: OneWayTable, confidence: float) -> tuple[EffectSize, ...]:
-    """Eta squared, omega squared and Cohen's f, each with a noncentral-F interval.
-
-    Estimates: eta^2 = SS_between / SS_total; omega^2 = (SS_between - df_b MS_within) /
-    (SS_total + MS_within) (Hays 1963); f = sqrt(eta^2 / (1 - eta^2)) (Cohen 1988,
-    *Statistical Power Analysis*, 2nd ed., ch. 8). omega^2 may be negative; it is shown
-    as computed.
-
-    Intervals: the CI [lambda_L, lambda_U] of the noncentrality is converted with
-    f^2 = lambda / N, so the population proportion of variance explained is
-    lambda / (lambda + N) (Steiger 2004). Eta^2 and omega^2 estimate that same
-    population quantity, so they share that interval; Cohen's f gets sqrt(lambda / N).
-    Steiger (2004) recommends a 90% interval for a test at alpha = .05 (confidence
-    1 - 2 alpha), so that it excludes zero exactly when the F test rejects; the caller
-    passes the level.
-    """
-    confidence = check_confidence(confidence)
-    if table.f is None:
-        warning = StatWarning("effect-size-undefined",
-                              "Effect sizes need the F ratio, which is undefined for these data.")
-        return tuple(EffectSize(measure, None, None, None, confidence, (warning,))
-                     for measure in ("eta_squared", "omega_squared", "cohens_f"))
-    between, _, total = table.rows
-    n_total = table.df_between + table.df_within + 1
-    ms_within = table.rows[1].mean_square
-    eta2 = between.sum_of_squares / total.sum_of_squares
-    omega2 = (between.sum_of_squares - table.df_between * ms_within) / (total.sum_of_squares + ms_within)
-    cohens_f = math.sqrt(eta2 / (1.0 - eta2)) if eta2 < 1.0 else math.inf
-    interval = noncentrality_interval(table.f, table.df_between, table.df_within, confidence)
-    if interval is None:
-        note = (StatWarning("effect-size-ci-unavailable",
-                            f"F = {table.f:.4g} is too large for the noncentral-F interval to be "
-                            "computed reliably; the interval is not reported."),)
-        return (
-            EffectSize("eta_squared", eta2, None, None, confidence, note),
-            EffectSize("omega_squared", omega2, None, None, confidence, note),
-            EffectSize("cohens_f", cohens_f, None, None, confidence, note),
-        )
-    lam_low, lam_high = interval
-    share_low, share_high = lam_low / (lam_low + n_total), lam_high / (lam_high + n_total)
-    f_low, f_high = math.sqrt(lam_low / n_total), math.sqrt(lam_high / n_total)
-    return (
-        EffectSize("eta_squared", eta2, share_low, share_high, confidence),
-        EffectSize("omega_squared", omega2, share_low, share_high, confidence),
-        EffectSize("cohens_f", cohens_f, f_low, f_high, confidence),
-    )

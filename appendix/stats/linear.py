@@ -89,7 +89,7 @@ class TermRow:
     `df` is the term's rank increment; `full_df` the df it would have with every cell
     filled. Effect-size intervals are at `confidence_level` = 1 - 2 alpha, from the
     noncentral F on `effect_ci_df` (the term's df and the residual df; None without an
-    interval).
+    interval). `statistic` is the F ratio MS / MS_residual, `p` its right tail.
     """
 
     term: Term
@@ -98,7 +98,7 @@ class TermRow:
     df: int
     ss: float | None
     ms: float | None
-    f: float | None
+    statistic: float | None
     p: float | None
     partial_eta_squared: float | None
     partial_eta_ci: tuple[float, float] | None
@@ -123,7 +123,9 @@ class ModelFit:
     `covariance` (p, p) MS_res times a generalized inverse of X'X (NaN without residual
     df), `inverse` (p, p) that generalized inverse itself (whatever MS_res is),
     `row_space` (p, r) an orthonormal basis of the estimable functions in the
-    coordinates l * `column_scale`. Arrays are read-only.
+    coordinates l * `column_scale`. Arrays are read-only. `r_squared` is None when the
+    data have no variation or the model fits nothing beyond the intercept (no term
+    estimable, e.g. a single occupied cell).
     """
 
     ss_type: int
@@ -536,7 +538,7 @@ def fit_linear(cells: DesignCells, terms: Sequence[Term], ss_type: int, alpha: f
     return ModelFit(
         ss_type=ss_type, terms=tuple(rows), residual_df=residual.df, residual_ss=residual.ss,
         residual_ms=residual.ms, total_df=max(n - 1, 0), total_ss=total_ss,
-        r_squared=1.0 - residual.ss / total_ss if total_ss > 0 else None, n=n,
+        r_squared=1.0 - residual.ss / total_ss if total_ss > 0 and full.rank > 1 else None, n=n,
         empty_cells=tuple(grid.cell_levels(int(c)) for c in np.flatnonzero(cells.n == 0)),
         estimability=_estimability(cells, rows, ss_type), grid=grid,
         covariates=cells.covariates, model_terms=terms, coding=coding,

@@ -49,7 +49,8 @@ class MarginalMean:
 class MarginalContrast:
     """sum_i w_i m_i over `factor`'s marginal means m_i (at the levels `at`), with its t test.
 
-    For a one-sided `alternative` the open end of the interval is None.
+    `statistic` is the t ratio estimate / `se` on `df` df. For a one-sided `alternative`
+    the open end of the interval is None.
     """
 
     factor: str
@@ -58,7 +59,7 @@ class MarginalContrast:
     estimate: float | None
     se: float | None
     df: int
-    t: float | None
+    statistic: float | None
     p: float | None
     alternative: str
     ci_low: float | None

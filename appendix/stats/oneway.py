@@ -1,15 +1,19 @@
-"""One-way analysis of variance from cell statistics: Fisher's F test and Welch's test."""
+"""One-way layouts from cell statistics: the between/within partition and Welch's test.
+
+The variance table a one-factor outcome reports is the design engine's one-term model
+(`appendix.stats.linear`); `partition` serves the tests that are themselves one-way
+analyses of variance (Brown-Forsythe on absolute deviations) and words the one-way
+layout's own notes on a one-factor table (`appendix.models`).
+"""
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass
 
 import numpy as np
 from scipy import stats as _st
 
-from appendix.errors import InternalError
-from appendix.results import OneWayTable, StatWarning, VarianceRow, WelchAnova, Warnings
+from appendix.results import StatWarning, WelchAnova, Warnings
 from appendix.stats.cells import CellStats, layout_warnings, single_group_warning, ss_between
 
 
@@ -17,8 +21,9 @@ from appendix.stats.cells import CellStats, layout_warnings, single_group_warnin
 class Partition:
     """The partition of the total sum of squares into between- and within-cell parts.
 
-    `f` and `p` are None (with a warning) when the F ratio is undefined: fewer than two
-    occupied cells, no within-cell degrees of freedom, or zero within-cell variance.
+    `statistic` is the F ratio MS_between / MS_within; it and `p` are None (with a
+    warning) when the F ratio is undefined: fewer than two occupied cells, no within-cell
+    degrees of freedom, or zero within-cell variance.
     """
 
     ss_between: float
@@ -27,17 +32,9 @@ class Partition:
     df_within: int
     ms_between: float | None
     ms_within: float | None
-    f: float | None
+    statistic: float | None
     p: float | None
     warnings: Warnings
-
-    @property
-    def ss_total(self) -> float:
-        return self.ss_between + self.ss_within
-
-    @property
-    def df_total(self) -> int:
-        return self.df_between + self.df_within
 
 
 def partition(cells: CellStats) -> Partition:
@@ -45,6 +42,12 @@ def partition(cells: CellStats) -> Partition:
 
     F is referred to F(k - 1, N - k), right tail (Fisher 1925, *Statistical Methods for
     Research Workers*), where k counts occupied cells only.
+
+    >>> from appendix.stats.cells import cell_stats
+    >>> c = cell_stats(np.array([1.0, 2.0, 3.0, 5.0, 6.0, 7.0]), np.array([0, 0, 0, 1, 1, 1]), 2)
+    >>> part = partition(c)
+    >>> part.ss_between, part.ss_within, part.statistic
+    (24.0, 4.0, 24.0)
     """
     warnings: list[StatWarning] = list(layout_warnings(cells))
     ssb = ss_between(cells)
@@ -72,43 +75,6 @@ def partition(cells: CellStats) -> Partition:
         f = ms_b / ms_w
         p = float(_st.f.sf(f, df_b, df_w))
     return Partition(ssb, ssw, df_b, df_w, ms_b, ms_w, f, p, tuple(warnings))
-
-
-def variance_table(cells: CellStats, alpha: float) -> OneWayTable:
-    """The classical one-way variance table: between, within and total rows.
-
-    `critical_f` is the upper-`alpha` point of F(df_between, df_within) (from `isf`);
-    `r_squared` = SS_between / SS_total; `residual_sd` = sqrt(MS_within).
-
-    >>> from appendix.stats.cells import cell_stats
-    >>> c = cell_stats(np.array([1.0, 2.0, 3.0, 5.0, 6.0, 7.0]), np.array([0, 0, 0, 1, 1, 1]), 2)
-    >>> variance_table(c, 0.05).f
-    24.0
-    """
-    if not 0.0 < alpha < 1.0:
-        raise InternalError(f"alpha must lie strictly between 0 and 1, got {alpha!r}")
-    part = partition(cells)
-    ss_total = part.ss_total
-    rows = (
-        VarianceRow("between", part.df_between, part.ss_between, part.ms_between, part.f, part.p),
-        VarianceRow("within", part.df_within, part.ss_within, part.ms_within, None, None),
-        VarianceRow("total", part.df_total, ss_total, None, None, None),
-    )
-    critical = None
-    if part.df_between > 0 and part.df_within > 0:
-        critical = float(_st.f.isf(alpha, part.df_between, part.df_within))
-    return OneWayTable(
-        rows=rows,
-        df_between=part.df_between,
-        df_within=part.df_within,
-        f=part.f,
-        p=part.p,
-        alpha=alpha,
-        critical_f=critical,
-        r_squared=part.ss_between / ss_total if ss_total > 0 and part.df_between > 0 else None,
-        residual_sd=math.sqrt(part.ms_within) if part.ms_within is not None else None,
-        warnings=part.warnings,
-    )
 
 
 def welch_anova(cells: CellStats) -> WelchAnova:

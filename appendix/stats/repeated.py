@@ -165,6 +165,7 @@ class RepeatedRow:
     `confidence_level` (1 - 2 alpha; Steiger 2004), computed on `effect_ci_df`: the df of
     the test in force, i.e. the Greenhouse-Geisser corrected df of a within term (when
     its epsilon exists), else the term's df and its error df; None without an interval.
+    `statistic` is the F ratio MS / MS_error, `p` its right tail on (`df`, error df).
     """
 
     term: tuple[str, ...]
@@ -173,7 +174,7 @@ class RepeatedRow:
     df: float
     ss: float
     ms: float | None
-    f: float | None
+    statistic: float | None
     p: float | None
     gg_df: tuple[float, float] | None
     gg_p: float | None
@@ -437,15 +438,16 @@ def _corrected(f: float, df: int, df_error: int,
 class WithinContrast:
     """A contrast sum_l w_l mu_l of the within levels, tested on the units' own scores.
 
-    `estimate` is the mean contrast score; `se` its standard error on `df` df; `t`, `p`
-    (for `alternative`) and the CI at `confidence_level` (one-sided: one end None).
+    `estimate` is the mean contrast score; `se` its standard error on `df` df; `statistic`
+    (the t ratio), `p` (for `alternative`) and the CI at `confidence_level` (one-sided:
+    one end None).
     """
 
     weights: tuple[float, ...]
     estimate: float | None
     se: float | None
     df: int
-    t: float | None
+    statistic: float | None
     p: float | None
     alternative: str
     ci_low: float | None

@@ -30,7 +30,7 @@ def test_demo_results_match_their_golden_file(computed_demos, name):
     assert compare_results(_without_machine_keys(expected), _without_machine_keys(actual)) == []
 
 
-def test_nist_variance_tables_match_their_golden_file():
+def test_nist_model_tables_match_their_golden_file():
     expected = json.loads(golden.nist_path().read_text(encoding="utf-8"))
     actual = json.loads(golden.nist_text())
     assert sorted(expected) == sorted(actual) and len(expected) == 11

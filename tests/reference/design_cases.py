@@ -56,7 +56,7 @@ class PrintedRow:
     term: Term
     df: int
     ss: str | None = None
-    f: str | None = None
+    statistic: str | None = None
     p: str | None = None
     partial_eta_squared: str | None = None
 
@@ -211,9 +211,9 @@ KIDNEY_TABLES = (
     PrintedTable(
         design="kidney", terms=KIDNEY_TERMS, ss_type=1,
         rows=(
-            PrintedRow(("Duration",), 1, ss="2.339693", f="4.358293", p="0.0415617"),
-            PrintedRow(("Weight",), 2, ss="16.97129", f="15.80674", p="3.944502e-06"),
-            PrintedRow(("Duration", "Weight"), 2, ss="0.6356584", f="0.5920404", p="0.5567479"),
+            PrintedRow(("Duration",), 1, ss="2.339693", statistic="4.358293", p="0.0415617"),
+            PrintedRow(("Weight",), 2, ss="16.97129", statistic="15.80674", p="3.944502e-06"),
+            PrintedRow(("Duration", "Weight"), 2, ss="0.6356584", statistic="0.5920404", p="0.5567479"),
         ),
         residual_df=54, residual_ss="28.9892",
         source="statsmodels 0.15.0 test_anova.py TestAnovaLM",
@@ -224,9 +224,9 @@ KIDNEY_TABLES = (
     PrintedTable(
         design="kidney-less-3", terms=KIDNEY_TERMS, ss_type=2,
         rows=(
-            PrintedRow(("Duration",), 1, ss="3.067066", f="5.667033", p="0.02106078"),
-            PrintedRow(("Weight",), 2, ss="13.27205", f="12.26141", p="4.487909e-05"),
-            PrintedRow(("Duration", "Weight"), 2, ss="0.1905093", f="0.1760025", p="0.8391231"),
+            PrintedRow(("Duration",), 1, ss="3.067066", statistic="5.667033", p="0.02106078"),
+            PrintedRow(("Weight",), 2, ss="13.27205", statistic="12.26141", p="4.487909e-05"),
+            PrintedRow(("Duration", "Weight"), 2, ss="0.1905093", statistic="0.1760025", p="0.8391231"),
         ),
         residual_df=51, residual_ss="27.60181",
         source="statsmodels 0.15.0 test_anova.py TestAnova2",
@@ -237,9 +237,9 @@ KIDNEY_TABLES = (
     PrintedTable(
         design="kidney-less-3", terms=KIDNEY_TERMS, ss_type=3,
         rows=(
-            PrintedRow(("Duration",), 1, ss="2.904723", f="5.367071", p="0.02457384"),
-            PrintedRow(("Weight",), 2, ss="13.45718", f="12.43245", p="3.999431e-05"),
-            PrintedRow(("Duration", "Weight"), 2, ss="0.1905093", f="0.1760025", p="0.8391231"),
+            PrintedRow(("Duration",), 1, ss="2.904723", statistic="5.367071", p="0.02457384"),
+            PrintedRow(("Weight",), 2, ss="13.45718", statistic="12.43245", p="3.999431e-05"),
+            PrintedRow(("Duration", "Weight"), 2, ss="0.1905093", statistic="0.1760025", p="0.8391231"),
         ),
         residual_df=51, residual_ss="27.60181",
         source="statsmodels 0.15.0 test_anova.py TestAnova3",
@@ -294,9 +294,9 @@ PINGOUIN_TABLES = (
     PrintedTable(
         design="anova2", terms=TWO_WAY_TERMS["anova2"], ss_type=2,
         rows=(
-            PrintedRow(("Blend",), 1, ss="2.042", f="0.004", p="0.952", partial_eta_squared="0.000"),
-            PrintedRow(("Crop",), 2, ss="2736.583", f="2.525", p="0.108", partial_eta_squared="0.219"),
-            PrintedRow(("Blend", "Crop"), 2, ss="2360.083", f="2.178", p="0.142",
+            PrintedRow(("Blend",), 1, ss="2.042", statistic="0.004", p="0.952", partial_eta_squared="0.000"),
+            PrintedRow(("Crop",), 2, ss="2736.583", statistic="2.525", p="0.108", partial_eta_squared="0.219"),
+            PrintedRow(("Blend", "Crop"), 2, ss="2360.083", statistic="2.178", p="0.142",
                        partial_eta_squared="0.195"),
         ),
         residual_df=18, residual_ss="9753.250",
@@ -308,9 +308,9 @@ PINGOUIN_TABLES = (
     PrintedTable(
         design="anova2_unbalanced", terms=TWO_WAY_TERMS["anova2_unbalanced"], ss_type=2,
         rows=(
-            PrintedRow(("Diet",), 1, ss="390.625", f="7.423", p="0.034"),
-            PrintedRow(("Exercise",), 1, ss="180.625", f="3.432", p="0.113"),
-            PrintedRow(("Diet", "Exercise"), 1, ss="15.625", f="0.297", p="0.605"),
+            PrintedRow(("Diet",), 1, ss="390.625", statistic="7.423", p="0.034"),
+            PrintedRow(("Exercise",), 1, ss="180.625", statistic="3.432", p="0.113"),
+            PrintedRow(("Diet", "Exercise"), 1, ss="15.625", statistic="0.297", p="0.605"),
         ),
         residual_df=6, residual_ss="315.750",
         source="pingouin 0.7.0 pingouin.anova docstring, unbalanced two-way example",
@@ -319,13 +319,13 @@ PINGOUIN_TABLES = (
     PrintedTable(
         design="anova3", terms=THREE_WAY_TERMS, ss_type=3,
         rows=(
-            PrintedRow(("Sex",), 1, ss="2.075", f="2.462", p="0.123", partial_eta_squared="0.049"),
-            PrintedRow(("Risk",), 1, ss="11.332", f="13.449", p="0.001", partial_eta_squared="0.219"),
-            PrintedRow(("Drug",), 2, ss="0.816", f="0.484", p="0.619", partial_eta_squared="0.020"),
-            PrintedRow(("Sex", "Risk"), 1, ss="0.117", f="0.139", p="0.711", partial_eta_squared="0.003"),
-            PrintedRow(("Sex", "Drug"), 2, ss="2.564", f="1.522", p="0.229", partial_eta_squared="0.060"),
-            PrintedRow(("Risk", "Drug"), 2, ss="2.438", f="1.446", p="0.245", partial_eta_squared="0.057"),
-            PrintedRow(("Sex", "Risk", "Drug"), 2, ss="1.844", f="1.094", p="0.343",
+            PrintedRow(("Sex",), 1, ss="2.075", statistic="2.462", p="0.123", partial_eta_squared="0.049"),
+            PrintedRow(("Risk",), 1, ss="11.332", statistic="13.449", p="0.001", partial_eta_squared="0.219"),
+            PrintedRow(("Drug",), 2, ss="0.816", statistic="0.484", p="0.619", partial_eta_squared="0.020"),
+            PrintedRow(("Sex", "Risk"), 1, ss="0.117", statistic="0.139", p="0.711", partial_eta_squared="0.003"),
+            PrintedRow(("Sex", "Drug"), 2, ss="2.564", statistic="1.522", p="0.229", partial_eta_squared="0.060"),
+            PrintedRow(("Risk", "Drug"), 2, ss="2.438", statistic="1.446", p="0.245", partial_eta_squared="0.057"),
+            PrintedRow(("Sex", "Risk", "Drug"), 2, ss="1.844", statistic="1.094", p="0.343",
                        partial_eta_squared="0.044"),
         ),
         residual_df=48, residual_ss="40.445",
@@ -386,7 +386,7 @@ BLOCK_TABLES = (
     PrintedTable(
         design="vascular-graft", terms=(("Pressure",), ("Batch",)), ss_type=1,
         rows=(
-            PrintedRow(("Pressure",), 3, ss="178.17", f="8.11", p="0.0019"),
+            PrintedRow(("Pressure",), 3, ss="178.17", statistic="8.11", p="0.0019"),
             PrintedRow(("Batch",), 5, ss="192.25"),
         ),
         residual_df=15, residual_ss="109.89",
@@ -397,7 +397,7 @@ BLOCK_TABLES = (
     PrintedTable(
         design="hardness", terms=(("Tip",), ("Coupon",)), ss_type=1,
         rows=(
-            PrintedRow(("Tip",), 3, ss="0.3850", f="14.44"),
+            PrintedRow(("Tip",), 3, ss="0.3850", statistic="14.44"),
             PrintedRow(("Coupon",), 3, ss="0.8250"),
         ),
         residual_df=9, residual_ss="0.0800",
@@ -450,9 +450,9 @@ COVARIATE_TABLES = (
     PrintedTable(
         design="ancova", terms=(("Income",), ("Method",)), ss_type=2,
         rows=(
-            PrintedRow(("Method",), 3, ss="571.029883", f="3.336482", p="0.031940",
+            PrintedRow(("Method",), 3, ss="571.029883", statistic="3.336482", p="0.031940",
                        partial_eta_squared="0.244077"),
-            PrintedRow(("Income",), 1, ss="1678.352687", f="29.419438", p="0.000006",
+            PrintedRow(("Income",), 1, ss="1678.352687", statistic="29.419438", p="0.000006",
                        partial_eta_squared="0.486920"),
         ),
         residual_df=31, residual_ss="1768.522313",
@@ -463,9 +463,9 @@ COVARIATE_TABLES = (
     PrintedTable(
         design="ancova", terms=(("Income",), ("BMI",), ("Method",)), ss_type=2,
         rows=(
-            PrintedRow(("Method",), 3, ss="552.284043", f="3.232550", p="0.036113"),
-            PrintedRow(("Income",), 1, ss="1573.952434", f="27.637304", p="0.000011"),
-            PrintedRow(("BMI",), 1, ss="60.013656", f="1.053790", p="0.312842"),
+            PrintedRow(("Method",), 3, ss="552.284043", statistic="3.232550", p="0.036113"),
+            PrintedRow(("Income",), 1, ss="1573.952434", statistic="27.637304", p="0.000011"),
+            PrintedRow(("BMI",), 1, ss="60.013656", statistic="1.053790", p="0.312842"),
         ),
         residual_df=30, residual_ss="1708.508657",
         source="pingouin 0.7.0 pingouin.ancova docstring, example 2",
@@ -474,7 +474,7 @@ COVARIATE_TABLES = (
     # error 27.99 (11 df), F0 = 2.61; the adjusted treatment SS is the type 2 (= type 3) row.
     PrintedTable(
         design="fiber", terms=(("Diameter",), ("Machine",)), ss_type=2,
-        rows=(PrintedRow(("Machine",), 2, ss="13.28", f="2.61"),),
+        rows=(PrintedRow(("Machine",), 2, ss="13.28", statistic="2.61"),),
         residual_df=11, residual_ss="27.99",
         source="Montgomery 2013, 8th ed., ch. 15 (from memory)",
     ),

@@ -212,7 +212,7 @@ def test_statsmodels_reproduces_printed_table(printed: PrintedTable) -> None:
         assert reference["df"] == row.df, row.term
         ss, f, p = reference["sum_sq"], reference["F"], reference["PR(>F)"]
         assert row.ss is None or _within_print(ss, row.ss), (row.term, ss, row.ss)
-        assert row.f is None or _within_print(f, row.f), (row.term, f, row.f)
+        assert row.statistic is None or _within_print(f, row.statistic), (row.term, f, row.statistic)
         assert row.p is None or _within_print(p, row.p), (row.term, p, row.p)
         eta = ss / (ss + residual["sum_sq"])
         assert row.partial_eta_squared is None or _within_print(eta, row.partial_eta_squared)
@@ -288,7 +288,7 @@ def test_engine_matches_printed_table(printed: PrintedTable) -> None:
         row = _row(fit, expected.term)
         assert row.df == expected.df, expected.term
         assert expected.ss is None or _within_print(row.ss, expected.ss), (expected.term, row.ss)
-        assert expected.f is None or _within_print(row.f, expected.f), (expected.term, row.f)
+        assert expected.statistic is None or _within_print(row.statistic, expected.statistic), (expected.term, row.statistic)
         assert expected.p is None or _within_print(row.p, expected.p), (expected.term, row.p)
         assert expected.partial_eta_squared is None or _within_print(
             row.partial_eta_squared, expected.partial_eta_squared), expected.term
@@ -313,7 +313,7 @@ def test_engine_matches_statsmodels(name: str, terms: tuple[Term, ...], ss_type:
         assert row.df == ref["df"], term
         assert row.ss == pytest.approx(ref["sum_sq"], rel=REL), term
         assert row.ms == pytest.approx(ref["sum_sq"] / ref["df"], rel=REL), term
-        assert row.f == pytest.approx(ref["F"], rel=REL), term
+        assert row.statistic == pytest.approx(ref["F"], rel=REL), term
         assert row.p == pytest.approx(ref["PR(>F)"], rel=REL, abs=1e-300), term
         assert row.partial_eta_squared == pytest.approx(
             ref["sum_sq"] / (ref["sum_sq"] + residual["sum_sq"]), rel=REL), term
@@ -347,7 +347,7 @@ def test_engine_balanced_two_way_matches_pingouin(ss_type: int) -> None:
         row = _row(fit, sources[ref["Source"]])
         assert row.df == ref["DF"]
         assert row.ss == pytest.approx(ref["SS"], rel=REL)
-        assert row.f == pytest.approx(ref["F"], rel=REL)
+        assert row.statistic == pytest.approx(ref["F"], rel=REL)
         assert row.p == pytest.approx(ref["p_unc"], rel=REL)
         assert row.partial_eta_squared == pytest.approx(ref["np2"], rel=REL)
 
@@ -417,7 +417,7 @@ def test_engine_partial_eta_interval_inverts_scipy_noncentral_f(name, terms, ss_
     # 9:164-182, from memory). Tolerance 1e-7 absolute: two root finders' stopping rules.
     fit = _engine_fit(DESIGNS[name], terms, ss_type)
     for row in fit.terms:
-        bounds = [_scipy_noncentrality_bound(row.f, row.df, fit.residual_df, tail) for tail in (0.05, 0.95)]
+        bounds = [_scipy_noncentrality_bound(row.statistic, row.df, fit.residual_df, tail) for tail in (0.05, 0.95)]
         expected = [lam / (lam + row.df + fit.residual_df + 1) for lam in bounds]
         assert row.partial_eta_ci == pytest.approx(expected, abs=1e-7), row.term
 
@@ -437,5 +437,5 @@ def test_engine_slopes_homogeneity_matches_statsmodels(name, terms, covariate, f
     step = anova_lm(equal, separate).iloc[1]
     assert row.df == step["df_diff"]
     assert row.ss == pytest.approx(step["ss_diff"], rel=REL)
-    assert row.f == pytest.approx(step["F"], rel=REL)
+    assert row.statistic == pytest.approx(step["F"], rel=REL)
     assert row.p == pytest.approx(step["Pr(>F)"], rel=REL)

@@ -1,4 +1,7 @@
-"""Published one-way worked examples; the source is named beside every expected value."""
+"""Published one-way worked examples; the source is named beside every expected value.
+
+The variance table and effect sizes are the design engine's one-term model, as a run
+reports a one-factor outcome (`tests/one_term.py`)."""
 
 from __future__ import annotations
 
@@ -8,10 +11,10 @@ import pytest
 
 from appendix.stats.cells import cell_stats
 from appendix.stats.diagnostics import bartlett, brown_forsythe, shapiro_wilk
-from appendix.stats.effect_sizes import effect_sizes, noncentrality_interval
-from appendix.stats.oneway import variance_table, welch_anova
+from appendix.stats.effect_sizes import noncentrality_interval
+from appendix.stats.oneway import welch_anova
 from appendix.stats.rank import kruskal_wallis
-from appendix.results import OneWayTable, VarianceRow
+from tests.one_term import one_term_table
 
 
 def _pain_threshold():
@@ -44,20 +47,22 @@ def _gear():
     return values, np.repeat(np.arange(10), 10)
 
 
-def test_variance_table_pain_threshold() -> None:
+def test_model_table_pain_threshold() -> None:
     values, codes, levels = _pain_threshold()
-    table = variance_table(cell_stats(values, codes, len(levels), levels), alpha=0.05)
-    between, within, total = table.rows
+    table = one_term_table(values, codes, len(levels), levels, alpha=0.05)
+    (between,) = table.rows
     # Expected: pingouin 0.7.0 docstring of pingouin.anova (detailed=True, and effsize="n2").
-    assert (between.df, within.df, total.df) == (3, 15, 18)
+    assert (between.df, table.residual_df, table.total_df) == (3, 15, 18)
     assert between.sum_of_squares == pytest.approx(1360.726, abs=5e-4)
-    assert within.sum_of_squares == pytest.approx(1001.800, abs=5e-4)
+    assert table.residual_ss == pytest.approx(1001.800, abs=5e-4)
     assert between.mean_square == pytest.approx(453.575, abs=5e-4)
-    assert within.mean_square == pytest.approx(66.787, abs=5e-4)
-    assert table.f == pytest.approx(6.791407, abs=5e-7)
-    assert table.p == pytest.approx(0.004114, abs=5e-7)
+    assert table.residual_ms == pytest.approx(66.787, abs=5e-4)
+    assert between.statistic == pytest.approx(6.791407, abs=5e-7)
+    assert between.p == pytest.approx(0.004114, abs=5e-7)
     assert table.r_squared == pytest.approx(0.575962, abs=5e-7)
-    assert table.warnings == ()
+    # With one factor, eta squared is the partial eta squared of its term: n2 = 0.575962.
+    assert between.partial_eta_squared == pytest.approx(0.575962, abs=5e-7)
+    assert table.warnings == () and between.warnings == ()
 
 
 def test_welch_pain_threshold() -> None:
@@ -141,16 +146,34 @@ def test_noncentrality_interval_r_effectsize() -> None:
     assert [low, high] == pytest.approx(expected, rel=1e-6)
 
 
+def _steiger_example_data():
+    """Invented data with Steiger's example-3 table: 4 levels of 20 units, level means
+    10.75, 9.75, 9.75, 9.75 (SS between 20 * 0.75 = 15) and deviations of +1, -1 and 0
+    (SS within 2 * (10 + 10 + 9 + 9) = 76), so F = 5 on (3, 76), N = 80. Every value is
+    exact in binary."""
+    values, codes = [], []
+    for level, (mean, pairs) in enumerate(zip((10.75, 9.75, 9.75, 9.75), (10, 10, 9, 9))):
+        deviations = [1.0] * pairs + [-1.0] * pairs + [0.0] * (20 - 2 * pairs)
+        values += [mean + d for d in deviations]
+        codes += [level] * 20
+    return np.array(values), np.array(codes)
+
+
 def test_effect_sizes_on_the_steiger_example() -> None:
     # A table with F = 5 on (3, 76), N = 80 (SS between 15, SS within 76): Steiger's example 3.
-    rows = (VarianceRow("between", 3, 15.0, 5.0, 5.0, None), VarianceRow("within", 76, 76.0, 1.0, None, None),
-            VarianceRow("total", 79, 91.0, None, None, None))
-    table = OneWayTable(rows, 3, 76, 5.0, None, 0.05, None, 15 / 91, 1.0)
-    eta, omega, cohen = effect_sizes(table, 0.95)
+    # alpha = 0.025 gives the engine's 1 - 2 alpha = 95% intervals, the example's level.
+    values, codes = _steiger_example_data()
+    table = one_term_table(values, codes, 4, alpha=0.025)
+    (row,) = table.rows
+    assert (row.sum_of_squares, table.residual_ss) == pytest.approx((15.0, 76.0), rel=1e-14)
+    assert row.statistic == pytest.approx(5.0, rel=1e-14) and row.confidence_level == 0.95
     # Lambda bounds from Steiger (2004) example 3 (above), converted with f^2 = lambda / N.
-    assert eta.estimate == pytest.approx(15 / 91, rel=1e-15)
-    assert omega.estimate == pytest.approx((15 - 3 * 1.0) / (91 + 1.0), rel=1e-15)
-    assert cohen.estimate == pytest.approx(np.sqrt(15 / 76), rel=1e-15)
-    assert (eta.ci_low, eta.ci_high) == pytest.approx((1.8666 / 81.8666, 32.563 / 112.563), abs=1e-5)
-    assert (omega.ci_low, omega.ci_high) == (eta.ci_low, eta.ci_high)
-    assert (cohen.ci_low, cohen.ci_high) == pytest.approx((np.sqrt(1.8666 / 80), np.sqrt(32.563 / 80)), abs=1e-5)
+    assert row.partial_eta_squared == pytest.approx(15 / 91, rel=1e-15)
+    assert row.partial_omega_squared == pytest.approx((15 - 3 * 1.0) / (91 + 1.0), rel=1e-15)
+    assert row.cohens_f == pytest.approx(np.sqrt(15 / 76), rel=1e-15)
+    eta_ci = (row.partial_eta_ci_low, row.partial_eta_ci_high)
+    assert eta_ci == pytest.approx((1.8666 / 81.8666, 32.563 / 112.563), abs=1e-5)
+    assert (row.partial_omega_ci_low, row.partial_omega_ci_high) == eta_ci
+    assert (row.cohens_f_ci_low, row.cohens_f_ci_high) == pytest.approx(
+        (np.sqrt(1.8666 / 80), np.sqrt(32.563 / 80)), abs=1e-5)
+    assert row.effect_ci_df == (3.0, 76.0)

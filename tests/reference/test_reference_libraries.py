@@ -23,8 +23,9 @@ from statsmodels.stats.outliers_influence import OLSInfluence
 from appendix.stats.cells import cell_stats
 from appendix.stats.descriptives import describe
 from appendix.stats.diagnostics import bartlett, brown_forsythe, outlier_screen
-from appendix.stats.oneway import variance_table, welch_anova
+from appendix.stats.oneway import welch_anova
 from appendix.stats.rank import kruskal_wallis
+from tests.one_term import one_term_table
 
 REL = 1e-10
 
@@ -60,24 +61,25 @@ seeds = hs.integers(min_value=0, max_value=2**32 - 1)
 
 @settings(max_examples=40, deadline=None)
 @given(seeds, hs.sampled_from([None, 0, 2, 5]))
-def test_variance_table_matches_statsmodels_anova_lm(seed: int, decimals: int | None) -> None:
+def test_model_table_matches_statsmodels_anova_lm(seed: int, decimals: int | None) -> None:
     values, codes, k = _design(seed, decimals=decimals)
     cells = cell_stats(values, codes, k, decimals=decimals)
     assert cells.arithmetic == ("float64" if decimals is None else "exact-decimal")
-    table = variance_table(cells, alpha=0.05)
+    table = one_term_table(values, codes, k, decimals=decimals, alpha=0.05)
+    (between,) = table.rows
     if cells.ss_within == 0.0:
         # Rounding made every level constant: the F ratio is undefined (statsmodels
         # returns a meaningless huge F from rounding noise).
-        assert table.f is None and table.warnings[-1].code in ("zero-within-variance", "all-identical")
+        assert between.statistic is None
+        assert table.warnings[-1].code in ("zero-within-variance", "all-identical")
         return
     fit = smf.ols("y ~ C(g)", data=_frame(values, codes)).fit()
     reference = anova_lm(fit, typ=1)  # statsmodels 0.15.0
-    between, within, _ = table.rows
-    assert between.df == reference["df"].iloc[0] and within.df == reference["df"].iloc[1]
+    assert between.df == reference["df"].iloc[0] and table.residual_df == reference["df"].iloc[1]
     assert between.sum_of_squares == pytest.approx(reference["sum_sq"].iloc[0], rel=REL)
-    assert within.sum_of_squares == pytest.approx(reference["sum_sq"].iloc[1], rel=REL)
-    assert table.f == pytest.approx(reference["F"].iloc[0], rel=REL)
-    assert table.p == pytest.approx(reference["PR(>F)"].iloc[0], rel=1e-8)
+    assert table.residual_ss == pytest.approx(reference["sum_sq"].iloc[1], rel=REL)
+    assert between.statistic == pytest.approx(reference["F"].iloc[0], rel=REL)
+    assert between.p == pytest.approx(reference["PR(>F)"].iloc[0], rel=1e-8)
     assert table.r_squared == pytest.approx(fit.rsquared, rel=REL)
     assert table.residual_sd == pytest.approx(np.sqrt(fit.mse_resid), rel=REL)
 

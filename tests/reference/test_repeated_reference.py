@@ -95,7 +95,7 @@ def _check_mixed(fit, aov: pd.DataFrame) -> None:
         _close(row.ss, ref["SS"])
         assert row.df == ref["DF1"]
         _close(row.ms, ref["MS"])
-        _close(row.f, ref["F"])
+        _close(row.statistic, ref["F"])
         _close(row.p, ref["p_unc"])
         _close(row.partial_eta_squared, ref["np2"])
         if name != "between" and "p_GG_corr" in aov:
@@ -135,11 +135,11 @@ def test_mixed_dataset_rounded_values_in_pingouin_docstring():
     # Interaction SS 5.167 F 2.728 p 0.070 np2 0.045.
     _, fit = _fit(pg.read_dataset("mixed_anova"), "Scores", "Time", "Subject", "Group")
     group, time, inter = _row(fit, "between"), _row(fit, "within"), _row(fit, "within", 2)
-    assert [round(v, 3) for v in (group.ss, group.f, group.p, group.partial_eta_squared)] == [
+    assert [round(v, 3) for v in (group.ss, group.statistic, group.p, group.partial_eta_squared)] == [
         5.460, 5.052, 0.028, 0.080]
-    assert [round(v, 3) for v in (time.ss, time.f, time.p)] == [7.628, 4.027, 0.020]
+    assert [round(v, 3) for v in (time.ss, time.statistic, time.p)] == [7.628, 4.027, 0.020]
     assert round(fit.sphericity.greenhouse_geisser, 3) == 0.998
-    assert [round(v, 3) for v in (inter.ss, inter.f, inter.p, inter.partial_eta_squared)] == [
+    assert [round(v, 3) for v in (inter.ss, inter.statistic, inter.p, inter.partial_eta_squared)] == [
         5.167, 2.728, 0.070, 0.045]
 
 
@@ -168,7 +168,7 @@ def test_insect_dataset_against_pingouin_rm_anova():
     _close(row.ss, aov.loc[0, "SS"])
     _close(error.ss, aov.loc[1, "SS"])
     assert (row.df, error.df) == (aov.loc[0, "DF"], aov.loc[1, "DF"])
-    _close(row.f, aov.loc[0, "F"])
+    _close(row.statistic, aov.loc[0, "F"])
     _close(row.p, aov.loc[0, "p_unc"])
     _close(row.gg_p, aov.loc[0, "p_GG_corr"])
     _close(row.partial_eta_squared, aov.loc[0, "np2"])
@@ -197,7 +197,7 @@ def test_insect_dataset_sphericity_and_epsilons():
     row = _row(fit, "within")
     # Huynh-Feldt corrected p: scipy's F survival function at pingouin's HF epsilon.
     hf = pg.epsilon(frame, dv="DesireToKill", within="cell", subject="Subject", correction="hf")
-    _close(row.hf_p, st.f.sf(row.f, hf * row.df, hf * _error(fit, "within").df))
+    _close(row.hf_p, st.f.sf(row.statistic, hf * row.df, hf * _error(fit, "within").df))
 
 
 def test_insect_dataset_mixed_by_gender_against_pingouin():
@@ -215,7 +215,7 @@ def test_insect_dataset_against_statsmodels_anova_rm():
     _, fit = _fit(complete, "DesireToKill", "cell", "Subject")
     table = AnovaRM(complete, "DesireToKill", "Subject", within=["cell"]).fit().anova_table
     row = _row(fit, "within")
-    _close(row.f, table.loc["cell", "F Value"])
+    _close(row.statistic, table.loc["cell", "F Value"])
     _close(row.p, table.loc["cell", "Pr > F"])
     assert (row.df, _error(fit, "within").df) == (table.loc["cell", "Num DF"],
                                                   table.loc["cell", "Den DF"])
@@ -229,7 +229,7 @@ def test_wide_dataset_value_in_pingouin_docstring():
     _, fit = _fit(long, "y", "time", "unit")
     row = _row(fit, "within")
     assert (row.df, _error(fit, "within").df) == (3, 24)
-    assert round(row.f, 6) == 5.200652
+    assert round(row.statistic, 6) == 5.200652
     assert round(row.p, 6) == 0.006557
     assert round(fit.sphericity.greenhouse_geisser, 6) == 0.694329
 
@@ -263,7 +263,7 @@ def test_statsmodels_published_single_factor_value():
     _, fit = _fit(frame, "DV", "B", "id")
     row = _row(fit, "within")
     assert (row.df, _error(fit, "within").df) == (1, 7)
-    assert row.f == pytest.approx(22.4, abs=5e-6)
+    assert row.statistic == pytest.approx(22.4, abs=5e-6)
     assert row.p == pytest.approx(0.002125452, abs=5e-10)
     # two levels: GG = HF = 1 by construction, W undefined, and no corrected test is given
     assert fit.sphericity.mauchly_w is None
@@ -354,11 +354,11 @@ def test_random_designs_against_pingouin_and_statsmodels(seed):
                           detailed=True, effsize="np2")
         row = _row(fit, "within")
         _close(row.ss, aov.loc[0, "SS"])
-        _close(row.f, aov.loc[0, "F"])
+        _close(row.statistic, aov.loc[0, "F"])
         _close(row.p, aov.loc[0, "p_unc"])
         _close(row.partial_eta_squared, aov.loc[0, "np2"])
         table = AnovaRM(frame, "y", "unit", within=["level"]).fit().anova_table
-        _close(row.f, table.loc["level", "F Value"])
+        _close(row.statistic, table.loc["level", "F Value"])
         assert _error(fit, "within").df == table.loc["level", "Den DF"]
         eps = {c: pg.epsilon(frame, dv="y", within="level", subject="unit", correction=c)
                for c in ("gg", "hf", "lb")}
@@ -379,9 +379,9 @@ def test_random_designs_against_pingouin_and_statsmodels(seed):
         _check_mauchly_p(s, mauchly[1], fit.n_units - 1)
     between_error, within_error = _error(fit, "between").df, _error(fit, "within").df
     for row in fit.rows:
-        if row.kind == "between" and row.f is not None:
+        if row.kind == "between" and row.statistic is not None:
             _check_interval(row, row.df, between_error)
-        elif row.kind == "within" and row.f is not None:
+        elif row.kind == "within" and row.statistic is not None:
             # within terms: the test in force is on the Greenhouse-Geisser corrected df,
             # the epsilon taken from pingouin (or 1 for two levels)
             _check_interval(row, eps["gg"] * row.df, eps["gg"] * within_error)
@@ -397,10 +397,10 @@ def _check_interval(row, df1: float, df2: float) -> None:
     assert row.partial_omega_ci == row.partial_eta_ci
     if low > 0:
         lam = low * size / (1 - low)
-        assert st.ncf.sf(row.f, df1, df2, lam) == pytest.approx(alpha, abs=1e-7)
+        assert st.ncf.sf(row.statistic, df1, df2, lam) == pytest.approx(alpha, abs=1e-7)
     lam = high * size / (1 - high)
     if lam > 0:
-        assert st.ncf.sf(row.f, df1, df2, lam) == pytest.approx(1 - alpha, abs=1e-7)
+        assert st.ncf.sf(row.statistic, df1, df2, lam) == pytest.approx(1 - alpha, abs=1e-7)
 
 
 def _pooled_mean_reference(scores: np.ndarray, groups: np.ndarray | None):
@@ -428,7 +428,7 @@ def test_random_within_contrasts_and_means(seed):
     c = within_contrast(data, weights, confidence=0.9)
     _close(c.estimate, ols.params[0])
     _close(c.se, ols.bse[0])
-    _close(c.t, ols.tvalues[0])
+    _close(c.statistic, ols.tvalues[0])
     _close(c.p, ols.pvalues[0])
     assert c.df == ols.df_resid
     _close((c.ci_low, c.ci_high), tuple(ols.conf_int(alpha=0.1)[0]))
@@ -436,7 +436,7 @@ def test_random_within_contrasts_and_means(seed):
     rows = data.groups == 0
     ref = st.ttest_1samp(scores[rows], 0.0, alternative="greater")
     c = within_contrast(data, weights, group=0, alternative="greater")
-    _close(c.t, ref.statistic)
+    _close(c.statistic, ref.statistic)
     _close(c.p, ref.pvalue)
     _close(c.ci_low, ref.confidence_interval(0.95).low)
     assert c.ci_high is None and c.df == rows.sum() - 1
@@ -462,7 +462,7 @@ def test_between_term_omega_matches_hays_on_unit_means():
     ms_w = ss_w / df_w
     row = _row(fit, "between")
     _close(row.partial_omega_squared, (ss_b - df_b * ms_w) / (ss_b + ss_w + ms_w))
-    _close(row.f, table["F"].iloc[0])
+    _close(row.statistic, table["F"].iloc[0])
     assert math.isclose(row.ss, data.y.shape[1] * ss_b, rel_tol=1e-12)
 
 
@@ -495,11 +495,11 @@ def test_within_interval_is_scipy_ncf_inverted_on_the_greenhouse_geisser_df():
         assert eps < 0.5
         row = _row(fit, "within")
         df1, df2 = eps * 3, eps * 3 * 11
-        _close(row.gg_p, st.f.sf(row.f, df1, df2))
+        _close(row.gg_p, st.f.sf(row.statistic, df1, df2))
         size = df1 + df2 + 1
         alpha = (1 - row.confidence_level) / 2
         expected = tuple(lam / (lam + size) for lam in
-                         (_ncf_bound(row.f, df1, df2, alpha), _ncf_bound(row.f, df1, df2, 1 - alpha)))
+                         (_ncf_bound(row.statistic, df1, df2, alpha), _ncf_bound(row.statistic, df1, df2, 1 - alpha)))
         assert row.partial_eta_ci == pytest.approx(expected, rel=1e-7, abs=1e-10)
         assert row.partial_omega_ci == row.partial_eta_ci
         assert row.effect_ci_df == pytest.approx((df1, df2), rel=1e-9)

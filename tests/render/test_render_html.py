@@ -81,7 +81,7 @@ def test_plan_and_data_strings_are_escaped(hostile_results, figures):
     assert title == "Statistics appendix: <script>alert(1)</script>"
 
 
-def test_variance_table_cells_are_formatted_apa_style(page):
+def test_model_table_cells_are_formatted_apa_style(page):
     # between-groups row of the primary outcome: F(2, 21) = 5.73, p = .010
     cells = _cells(page, "between")
     assert cells == ["Between groups (Treatment arm)", "2", "240.2", "120.1", "5.73", ".010"]

@@ -1,4 +1,5 @@
-"""Noncentral-F intervals: the defining tail probabilities hold at the bounds."""
+"""Noncentral-F intervals: the defining tail probabilities hold at the bounds; the effect
+sizes of a one-factor outcome (the engine's one-term model, `tests/one_term.py`) carry them."""
 
 from __future__ import annotations
 
@@ -6,9 +7,8 @@ import numpy as np
 import pytest
 from scipy import stats as st
 
-from appendix.stats.cells import cell_stats
-from appendix.stats.effect_sizes import effect_sizes, noncentrality_interval
-from appendix.stats.oneway import variance_table
+from appendix.stats.effect_sizes import noncentrality_interval
+from tests.one_term import one_term_table
 
 
 @pytest.mark.parametrize(("f", "df1", "df2"), [(5.0, 3, 76), (2.1, 2, 12), (45.8, 3, 35), (1.3, 5, 200)])
@@ -40,22 +40,29 @@ def test_ninety_percent_interval_excludes_zero_iff_the_test_rejects_at_five_perc
     for shift in np.linspace(0.0, 1.5, 16):
         codes = np.repeat([0, 1, 2], 12)
         values = rng.normal(size=36) + shift * (codes == 2)
-        table = variance_table(cell_stats(values, codes, 3), 0.05)
-        eta = effect_sizes(table, 0.90)[0]
-        assert (eta.ci_low > 0) == (table.p < 0.05)
-        assert eta.ci_low <= eta.ci_high
+        row = one_term_table(values, codes, 3, alpha=0.05).rows[0]
+        assert row.confidence_level == 0.90
+        low, high = row.partial_eta_ci_low, row.partial_eta_ci_high
+        assert (low > 0) == (row.p < 0.05)
+        assert low <= high
 
 
 @pytest.mark.filterwarnings("error")
 def test_enormous_f_gives_no_interval_but_keeps_the_estimates() -> None:
-    # Invented data: two tight clusters 1e9 apart, F ~ 1e20, far beyond lambda = 1e10
-    # where scipy's noncentral F series stops converging.
-    values = np.array([0.0, 0.001, 0.002, 1e9, 1e9 + 0.001, 1e9 + 0.002])
-    table = variance_table(cell_stats(values, np.repeat([0, 1], 3), 2), 0.05)
-    assert table.f > 1e18
-    assert noncentrality_interval(table.f, 1, 4, 0.90) is None
-    eta, omega, cohen = effect_sizes(table, 0.90)
-    assert eta.estimate == pytest.approx(1.0, abs=1e-15) and cohen.estimate > 1e9
-    for effect in (eta, omega, cohen):
-        assert effect.ci_low is None and effect.ci_high is None
-        assert [w.code for w in effect.warnings] == ["effect-size-ci-unavailable"]
+    # Invented data: two clusters 1e6 apart with unit spread: SS between 1.5e12, SS within
+    # 4, F = 1.5e12 on (1, 4), whose noncentrality bound lies far beyond lambda = 1e10.
+    values = np.array([0.0, 1.0, 2.0, 1e6, 1e6 + 1.0, 1e6 + 2.0])
+    table = one_term_table(values, np.repeat([0, 1], 3), 2, alpha=0.05)
+    (row,) = table.rows
+    assert row.statistic == pytest.approx(1.5e12, rel=1e-12)
+    assert noncentrality_interval(row.statistic, 1, 4, 0.90) is None
+    assert row.partial_eta_squared == pytest.approx(1.5e12 / (1.5e12 + 4.0), rel=1e-13)
+    assert row.partial_omega_squared == pytest.approx((1.5e12 - 1.0) / (1.5e12 + 5.0), rel=1e-13)
+    # Cohen's f = sqrt(SS / SS within) = sqrt(3.75e11); taken from eta squared, whose
+    # distance from 1 (2.7e-12) carries float64 rounding, so to 1e-4 only.
+    assert row.cohens_f == pytest.approx(np.sqrt(3.75e11), rel=1e-4)
+    assert (row.partial_eta_ci_low, row.partial_eta_ci_high, row.partial_omega_ci_low,
+            row.partial_omega_ci_high, row.cohens_f_ci_low, row.cohens_f_ci_high) == (None,) * 6
+    assert row.effect_ci_df is None
+    assert [w.code for w in row.warnings] == ["effect-size-ci-unavailable"]
+    assert "F = 1.5e+12 for group is too large" in row.warnings[0].message

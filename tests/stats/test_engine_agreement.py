@@ -1,6 +1,7 @@
-"""Agreement of the engine's two paths with independent references on random designs.
+"""Agreement of the engine's two arithmetic paths with independent references on random designs.
 
-Float path: every value of the variance table against statsmodels 0.15.0
+Float path: every value of the one-factor variance table (the design engine's one-term
+model, as a run reports it: `tests/one_term.py`) against statsmodels 0.15.0
 (`statsmodels.formula.api.ols("y ~ C(g)").fit()` then `statsmodels.stats.anova.anova_lm`,
 typ 1) to relative 1e-10. Exact path: against rational arithmetic (`fractions.Fraction`)
 on the decimals themselves, which the engine must reproduce correctly rounded, i.e. equal.
@@ -23,8 +24,8 @@ from statsmodels.stats.anova import anova_lm
 from appendix.data.dataset import CellSummary
 from appendix.errors import InternalError
 from appendix.stats.cells import cell_stats, cells_from_summary, ss_between
-from appendix.stats.oneway import variance_table
 from appendix.stats.sweep import BLOCK
+from tests.one_term import one_term_table, summary_table
 
 REL = 1e-10
 
@@ -66,16 +67,17 @@ def test_float_path_matches_statsmodels_anova_lm(design, log_scale, offset) -> N
     shifted = values - offset
     assume(all(Fraction(v) - Fraction(offset) == Fraction(s)
                for v, s in zip(values.tolist(), shifted.tolist())))
-    table = variance_table(cell_stats(values, codes, design["k"]), alpha=0.05)
+    table = one_term_table(values, codes, design["k"], alpha=0.05)
     reference = _statsmodels_table(shifted, codes)  # statsmodels 0.15.0
-    between, within, total = table.rows
-    for row, at in ((between, 0), (within, 1)):
-        assert row.df == reference["df"].iloc[at]
-        assert row.sum_of_squares == pytest.approx(reference["sum_sq"].iloc[at], rel=REL)
-        assert row.mean_square == pytest.approx(reference["mean_sq"].iloc[at], rel=REL)
-    assert table.f == pytest.approx(reference["F"].iloc[0], rel=REL)
-    assert table.p == pytest.approx(reference["PR(>F)"].iloc[0], rel=REL)
-    assert total.sum_of_squares == pytest.approx(reference["sum_sq"].sum(), rel=REL)
+    (between,) = table.rows
+    assert between.df == reference["df"].iloc[0] and table.residual_df == reference["df"].iloc[1]
+    assert between.sum_of_squares == pytest.approx(reference["sum_sq"].iloc[0], rel=REL)
+    assert between.mean_square == pytest.approx(reference["mean_sq"].iloc[0], rel=REL)
+    assert table.residual_ss == pytest.approx(reference["sum_sq"].iloc[1], rel=REL)
+    assert table.residual_ms == pytest.approx(reference["mean_sq"].iloc[1], rel=REL)
+    assert between.statistic == pytest.approx(reference["F"].iloc[0], rel=REL)
+    assert between.p == pytest.approx(reference["PR(>F)"].iloc[0], rel=REL)
+    assert table.total_ss == pytest.approx(reference["sum_sq"].sum(), rel=REL)
 
 
 @settings(max_examples=40, deadline=None)
@@ -138,9 +140,10 @@ def test_float_path_reports_a_bad_code_or_value_in_a_late_block() -> None:
             cell_stats(spoiled, codes, 2, decimals=1)
 
 
-def test_cells_from_summary_gives_the_same_table_as_the_rows() -> None:
+def test_cells_from_summary_give_the_table_of_the_rows() -> None:
     # Invented, seeded data with an empty third level. The summary is what an out-of-core
-    # aggregation would deliver: n, mean and SSD per level (here from pandas 3 groupby).
+    # aggregation would deliver: n, mean and SSD per level (here from pandas 3 groupby);
+    # its table is checked against statsmodels 0.15.0 anova_lm (typ 1) on the rows.
     rng = np.random.default_rng(3)
     codes = rng.integers(0, 2, size=500)
     values = 1e6 + rng.normal(0, 1, size=500) + codes
@@ -153,10 +156,15 @@ def test_cells_from_summary_gives_the_same_table_as_the_rows() -> None:
     assert summary.arithmetic == "float64" and summary.n.tolist() == rows.n.tolist()
     assert np.isnan(summary.mean[2]) and summary.ssd[2] == 0.0
     assert summary.grand_mean == pytest.approx(rows.grand_mean, rel=1e-15)
-    one, other = variance_table(summary, 0.05), variance_table(rows, 0.05)
-    assert one.f == pytest.approx(other.f, rel=1e-9)
-    for a, b in zip(one.rows, other.rows):
-        assert a.sum_of_squares == pytest.approx(b.sum_of_squares, rel=1e-9)
+    table = summary_table(summary, alpha=0.05)
+    reference = _statsmodels_table(values - 1e6, codes)  # exact (Sterbenz); not in the table
+    (between,) = table.rows
+    assert [w.code for w in table.warnings] == ["empty-level"] and between.warnings == ()
+    assert between.df == reference["df"].iloc[0] and table.residual_df == reference["df"].iloc[1]
+    assert between.statistic == pytest.approx(reference["F"].iloc[0], rel=1e-9)
+    assert between.sum_of_squares == pytest.approx(reference["sum_sq"].iloc[0], rel=1e-9)
+    assert table.residual_ss == pytest.approx(reference["sum_sq"].iloc[1], rel=1e-9)
+    assert table.total_ss == pytest.approx(reference["sum_sq"].sum(), rel=1e-9)
 
 
 @pytest.mark.parametrize(

@@ -106,7 +106,7 @@ def test_empty_cells_type3_is_the_documented_column_deletion_test(drop, dfs) -> 
             assert any(w.code == "term-not-estimable" for w in row.warnings)
         else:
             assert row.ss == pytest.approx(table["ss_diff"].iloc[1], rel=1e-8)
-            assert row.f == pytest.approx(table["F"].iloc[1], rel=1e-8)
+            assert row.statistic == pytest.approx(table["F"].iloc[1], rel=1e-8)
             assert any(w.code == "term-partly-estimable" for w in row.warnings)
         assert any(w.code == "type3-empty-cells" for w in row.warnings)
     assert fit.residual_df == full.df_resid
@@ -157,7 +157,7 @@ def test_slopes_homogeneity_is_the_separate_slopes_comparison() -> None:
                      smf.ols("y ~ C(A) * C(B) + x + x:C(A) * C(B)", data=frame).fit())
     assert row.term == ("A", "B", "x") and row.df == table["df_diff"].iloc[1] == 5
     assert row.ss == pytest.approx(table["ss_diff"].iloc[1], rel=RELATIVE)
-    assert row.f == pytest.approx(table["F"].iloc[1], rel=RELATIVE)
+    assert row.statistic == pytest.approx(table["F"].iloc[1], rel=RELATIVE)
     assert row.p == pytest.approx(table["Pr(>F)"].iloc[1], rel=RELATIVE)
     one = slopes_homogeneity(cells, [A, B, ("x",)], "x", A, 0.05)
     reference = anova_lm(smf.ols("y ~ C(A) + C(B) + x", data=frame).fit(),
@@ -200,7 +200,7 @@ def test_a_million_rows_give_the_table_of_their_twenty_thousand_distinct_rows() 
         assert row.df == expected["df"]
         assert row.ss == pytest.approx(copies * expected["sum_sq"], rel=1e-9)
         f = copies * expected["sum_sq"] / expected["df"] / ms_res
-        assert row.f == pytest.approx(f, rel=1e-9)
+        assert row.statistic == pytest.approx(f, rel=1e-9)
         assert row.p == pytest.approx(st.f.sf(f, expected["df"], df_res), rel=1e-8, abs=1e-300)
 
 
@@ -225,10 +225,10 @@ def test_effect_size_interval_ends_have_the_noncentral_f_tails() -> None:
     low, high = row.partial_eta_ci
     scale = row.df + fit.residual_df + 1
     lam_high = high / (1 - high) * scale
-    assert st.ncf.cdf(row.f, row.df, fit.residual_df, lam_high) == pytest.approx(0.05, abs=1e-8)
+    assert st.ncf.cdf(row.statistic, row.df, fit.residual_df, lam_high) == pytest.approx(0.05, abs=1e-8)
     if low > 0:
         lam_low = low / (1 - low) * scale
-        assert st.ncf.cdf(row.f, row.df, fit.residual_df, lam_low) == pytest.approx(0.95, abs=1e-8)
+        assert st.ncf.cdf(row.statistic, row.df, fit.residual_df, lam_low) == pytest.approx(0.95, abs=1e-8)
 
 
 def test_a_saturated_model_with_one_unit_per_cell_has_no_residual_df() -> None:
@@ -236,13 +236,13 @@ def test_a_saturated_model_with_one_unit_per_cell_has_no_residual_df() -> None:
     fit = fit_linear(design_cells(grid_of(2, 3), codes, y), [A, B, AB], 3, 0.05)
     assert fit.residual_df == 0 and fit.residual_ms is None
     assert [r.df for r in fit.terms] == [1, 2, 2]
-    assert all(r.f is None and r.p is None and r.partial_eta_squared is None for r in fit.terms)
+    assert all(r.statistic is None and r.p is None and r.partial_eta_squared is None for r in fit.terms)
     assert all(r.warnings[-1].message == f"The F ratio of {r.label} is undefined: the model "
                "leaves no residual degrees of freedom." for r in fit.terms)
     assert any(w.code == "no-residual-df" for w in fit.warnings)
     # Without the interaction the same rows leave 2 residual df (6 cells - 4 columns).
     additive = fit_linear(design_cells(grid_of(2, 3), codes, y), [A, B], 3, 0.05)
-    assert additive.residual_df == 2 and additive.terms[0].f is not None
+    assert additive.residual_df == 2 and additive.terms[0].statistic is not None
 
 
 def test_zero_within_cell_variation_gives_no_f() -> None:
@@ -251,7 +251,7 @@ def test_zero_within_cell_variation_gives_no_f() -> None:
     y = np.array([1.0, 2.0, 4.0, 8.0])[cell]  # constant within each cell
     fit = fit_linear(design_cells(grid_of(2, 2), codes, y), [A, B, AB], 2, 0.05)
     assert fit.residual_ss == pytest.approx(0.0, abs=1e-20) and fit.residual_ms == 0.0
-    assert all(r.ss is not None and r.f is None and r.p is None for r in fit.terms)
+    assert all(r.ss is not None and r.statistic is None and r.p is None for r in fit.terms)
     assert all(r.warnings[-1].code == "f-undefined" for r in fit.terms)
     assert any(w.code == "zero-residual-variance" for w in fit.warnings)
 
@@ -261,7 +261,7 @@ def test_a_single_level_factor_has_no_row_to_test() -> None:
     grid = Grid(("A", "B"), (("a1", "a2", "a3"), ("only",)))
     fit = fit_linear(design_cells(grid, [codes[0], np.zeros_like(codes[0])], y), [A, B], 2, 0.05)
     assert fit.terms[1].df == 0 and fit.terms[1].ss is None and fit.terms[1].full_df == 0
-    assert fit.terms[0].df == 2 and fit.terms[0].f is not None
+    assert fit.terms[0].df == 2 and fit.terms[0].statistic is not None
     assert any(w.code == "single-level" for w in fit.warnings)
 
 

@@ -87,7 +87,7 @@ def assert_same_table(fit, table, names):
         assert row.df == expected["df"]
         assert row.ss == pytest.approx(expected["sum_sq"], rel=RELATIVE)
         assert row.ms == pytest.approx(expected["sum_sq"] / expected["df"], rel=RELATIVE)
-        assert row.f == pytest.approx(expected["F"], rel=RELATIVE)
+        assert row.statistic == pytest.approx(expected["F"], rel=RELATIVE)
         assert row.p == pytest.approx(expected["PR(>F)"], rel=RELATIVE, abs=1e-300)
     residual = table.loc["Residual"]
     assert fit.residual_df == residual["df"]

@@ -109,7 +109,7 @@ def test_contrasts_simple_effects_and_their_covariance_match_statsmodels() -> No
             result = marginal_contrast(fit, "A", ws, at=at)
             assert result.estimate == pytest.approx(estimate, rel=RELATIVE)
             assert result.se == pytest.approx(se, rel=RELATIVE)
-            assert result.t == pytest.approx(estimate / se, rel=RELATIVE)
+            assert result.statistic == pytest.approx(estimate / se, rel=RELATIVE)
             assert result.p == pytest.approx(2 * st.t.sf(abs(estimate / se), df), rel=1e-8)
             assert result.ci_low == pytest.approx(estimate - st.t.ppf(0.975, df) * se, rel=RELATIVE)
         expected = np.array(rows) @ reference.model.cov_params().to_numpy() @ np.array(rows).T
@@ -156,7 +156,7 @@ def test_no_residual_df_leaves_estimates_without_standard_errors() -> None:
     assert mean.estimate == pytest.approx(frame.loc[frame["A"] == 0, "y"].mean(), rel=RELATIVE)
     assert mean.se is None and mean.ci_low is None and mean.warnings[0].code == "no-residual-df"
     contrast = marginal_contrast(fit, "B", [1, 0, -1])
-    assert contrast.estimate is not None and contrast.t is None and contrast.p is None
+    assert contrast.estimate is not None and contrast.statistic is None and contrast.p is None
     assert np.isnan(contrast_covariance(fit, "B", [[1, 0, -1]])).all()
 
 

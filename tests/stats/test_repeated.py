@@ -150,14 +150,14 @@ def test_a_large_common_offset_changes_nothing():
     shifted = repeated_measures(_units(y + 1e9, groups), "t", list("abcd"), "g", ["x", "y"])
     for a, b in zip(plain.rows, shifted.rows):
         assert b.ss == pytest.approx(a.ss, rel=1e-9, abs=1e-9)
-        assert (b.f is None) == (a.f is None)
-        if a.f is not None:
-            assert b.f == pytest.approx(a.f, rel=1e-9)
+        assert (b.statistic is None) == (a.statistic is None)
+        if a.statistic is not None:
+            assert b.statistic == pytest.approx(a.statistic, rel=1e-9)
     assert shifted.sphericity.greenhouse_geisser == pytest.approx(
         plain.sphericity.greenhouse_geisser, rel=1e-9)
     assert shifted.sphericity.mauchly_w == pytest.approx(plain.sphericity.mauchly_w, rel=1e-9)
     a, b = (within_contrast(_units(v, groups), [0.5, 0.25, -1.5, 0.75]) for v in (y, y + 1e9))
-    assert (b.estimate, b.se, b.t) == pytest.approx((a.estimate, a.se, a.t), rel=1e-9)
+    assert (b.estimate, b.se, b.statistic) == pytest.approx((a.estimate, a.se, a.statistic), rel=1e-9)
     a, b = (within_means(_units(v, groups), 0.95).means[2] for v in (y, y + 1e9))
     assert b.mean - 1e9 == pytest.approx(a.mean, abs=1e-6)
     assert b.se == pytest.approx(a.se, rel=1e-9)
@@ -171,7 +171,7 @@ def test_two_levels_match_the_paired_t_test():
     fit = repeated_measures(data, "t", ["pre", "post"])
     ref = st.ttest_rel(y[:, 1], y[:, 0])
     within = fit.rows[1]
-    assert within.f == pytest.approx(ref.statistic**2, rel=1e-12)
+    assert within.statistic == pytest.approx(ref.statistic**2, rel=1e-12)
     assert within.p == pytest.approx(ref.pvalue, rel=1e-10)
     # epsilon is 1 by construction: no corrected test is given beside the one in force
     assert (within.gg_df, within.gg_p, within.hf_df, within.hf_p) == (None, None, None, None)
@@ -180,7 +180,7 @@ def test_two_levels_match_the_paired_t_test():
         None, None, 1.0, 1.0, 1.0)
     assert [w.code for w in s.warnings] == ["sphericity-two-levels"]
     c = within_contrast(data, [-1, 1])
-    assert c.t == pytest.approx(ref.statistic, rel=1e-12)
+    assert c.statistic == pytest.approx(ref.statistic, rel=1e-12)
     assert c.p == pytest.approx(ref.pvalue, rel=1e-10)
     assert c.df == 8
 
@@ -220,12 +220,12 @@ def test_helmert_contrasts_are_orthonormal_and_orthogonal_to_one():
 def test_one_unit_gives_no_tests_and_no_crash(strict):
     data = _units(np.array([[1.0, 2.0, 4.0]]))
     fit = repeated_measures(data, "t", ["a", "b", "c"])
-    assert all(r.f is None and r.p is None for r in fit.rows)
+    assert all(r.statistic is None and r.p is None for r in fit.rows)
     assert _codes(fit) == ["no-error-df"]
     assert fit.sphericity.greenhouse_geisser is None
     assert [w.code for w in fit.sphericity.warnings] == ["sphericity-undefined"]
     c = within_contrast(data, [1, 0, -1])
-    assert (c.estimate, c.se, c.t, c.p) == (-3.0, None, None, None)
+    assert (c.estimate, c.se, c.statistic, c.p) == (-3.0, None, None, None)
     assert [w.code for w in c.warnings] == ["single-unit"]
 
 
@@ -236,7 +236,7 @@ def test_constant_data_give_none_with_warnings(strict):
     assert fit.rows[1].partial_eta_squared is None
     assert fit.sphericity.mauchly_w is None
     c = within_contrast(data, [1, -1, 0])
-    assert c.estimate == 0.0 and c.t is None
+    assert c.estimate == 0.0 and c.statistic is None
     assert [w.code for w in c.warnings] == ["zero-variance"]
     assert [w.code for m in within_means(data, 0.95).means for w in m.warnings] == [
         "zero-variance"] * 3
@@ -246,7 +246,7 @@ def test_additive_data_leave_no_within_error(strict):
     # unit effect + level effect, nothing else: the within error is rounding noise only.
     y = np.array([0.1, 0.7, 2.3, 5.9])[:, None] + np.array([0.3, 1.1, 1.6])[None, :]
     fit = repeated_measures(_units(y), "t", ["a", "b", "c"])
-    assert fit.rows[1].f is None
+    assert fit.rows[1].statistic is None
     assert _codes(fit) == ["zero-error-variance"]
 
 
@@ -257,7 +257,7 @@ def test_fewer_units_than_levels_leave_mauchly_undefined(strict):
     assert s.mauchly_w is None and s.chi_square is None and s.p is None
     assert 0.25 <= s.greenhouse_geisser <= 1.0
     assert "mauchly-too-few-units" in [w.code for w in s.warnings]
-    assert fit.rows[1].f is not None
+    assert fit.rows[1].statistic is not None
 
 
 def test_two_units_at_three_levels_leave_huynh_feldt_undefined(strict):
@@ -269,7 +269,7 @@ def test_two_units_at_three_levels_leave_huynh_feldt_undefined(strict):
     assert [w.code for w in s.warnings] == ["huynh-feldt-undefined", "mauchly-too-few-units"]
     within = fit.rows[1]
     assert within.hf_df is None and within.hf_p is None
-    assert within.gg_p is not None and within.f is not None
+    assert within.gg_p is not None and within.statistic is not None
 
 
 def test_singular_contrast_covariance_gives_w_zero(strict):
@@ -287,9 +287,9 @@ def test_empty_group_and_single_occupied_group(strict):
     data = _units(y, groups=np.zeros(6, dtype=int))
     fit = repeated_measures(data, "t", ["a", "b", "c"], "arm", ["A", "B"])
     assert [w.code for w in fit.warnings] == ["group-no-complete-units"]
-    assert fit.rows[0].f is None and fit.rows[3].f is None
+    assert fit.rows[0].statistic is None and fit.rows[3].statistic is None
     assert _codes(fit) == ["term-no-df", "term-no-df"]
-    assert fit.rows[2].f is not None and fit.rows[1].df == 5
+    assert fit.rows[2].statistic is not None and fit.rows[1].df == 5
 
 
 def test_no_complete_units(strict):
@@ -297,7 +297,7 @@ def test_no_complete_units(strict):
     fit = repeated_measures(data, "t", ["x", "y"])
     assert fit.n_units == 0
     assert [w.code for w in fit.warnings] == ["units-dropped", "no-complete-units"]
-    assert all(r.f is None for r in fit.rows)
+    assert all(r.statistic is None for r in fit.rows)
     assert [w.code for w in within_contrast(data, [1, -1]).warnings] == ["no-units"]
 
 

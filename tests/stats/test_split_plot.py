@@ -44,7 +44,7 @@ def test_balanced_mixed_design_equals_pingouin():
     within, interaction, error = stratum.rows
     assert within.ss == pytest.approx(reference.loc["t", "SS"], rel=1e-9)
     assert interaction.ss == pytest.approx(reference.loc["Interaction", "SS"], rel=1e-9)
-    assert within.f == pytest.approx(reference.loc["t", "F"], rel=1e-9)
+    assert within.statistic == pytest.approx(reference.loc["t", "F"], rel=1e-9)
     assert error.df == reference.loc["t", "DF2"]
     assert fit.between.terms[0].ss * 4 == pytest.approx(reference.loc["arm", "SS"], rel=1e-9)
     assert fit.strata[0].sphericity.greenhouse_geisser == pytest.approx(reference.loc["t", "eps"], rel=1e-9)
@@ -86,7 +86,7 @@ def test_blocks_and_a_covariate_equal_statsmodels_per_stratum():
     between = anova_lm(smf.ols("mean ~ base + C(block, Sum) + C(arm, Sum)", frame).fit(), typ=3)
     for row, name in zip(fit.between.terms, ["base", "C(block, Sum)", "C(arm, Sum)"]):
         assert row.ss == pytest.approx(between.loc[name, "sum_sq"], rel=1e-9)
-        assert row.f == pytest.approx(between.loc[name, "F"], rel=1e-9)
+        assert row.statistic == pytest.approx(between.loc[name, "F"], rel=1e-9)
     # Within units: each orthonormal score column's type 3 table; the stratum sums them.
     scores = y @ helmert_contrasts(m)
     tables = [anova_lm(smf.ols("s ~ C(arm, Sum)", frame.assign(s=scores[:, j])).fit(), typ=3)
