@@ -11,8 +11,9 @@
 4. the plan: its hash, and key by key when both runs hold the canonical plan;
 5. checksums of the inputs (and of the output files, from the manifests).
 
-Only the run folders' results.json (of `appendix.results.FORMAT_VERSION`; an older
-format is refused with a sentence), records.json and manifest.json are read. Output:
+Only the run folders' results.json (read once into `appendix.results.StudyResults`;
+one that is truncated, of another format than `appendix.results.FORMAT_VERSION` or not of
+the declared types is refused with a sentence), records.json and manifest.json are read. Output:
 text for people (`report_lines`), canonical JSON for machines (`to_json`, stable keys)
 and an HTML page in the appendix's look (`render_page`).
 
