@@ -408,10 +408,13 @@ def test_fields_the_results_format_gives_a_default_may_be_absent(demo_runs, tmp_
             del outcome[key]
     (bare / "results.json").write_text(json.dumps(results), encoding="utf-8")
     diff = compare_runs(demo_runs[0], bare)
-    # the registered hypotheses are gone with the contrasts: each is a conclusion of run A only
-    gone = {c.id for c in diff.conclusions if c.b is None}
-    assert gone == {h["id"] for o in json.loads((demo_runs[0] / "results.json").read_text(encoding="utf-8"))[
-        "outcomes"] for f in o["contrasts"] if f["registered"] for h in f["hypotheses"]}
+    # the registered hypotheses are gone with the contrasts, and the terms' conclusions with
+    # theirs: each is a conclusion of run A only
+    gone = {(c.outcome, c.kind, c.id) for c in diff.conclusions if c.b is None}
+    run_a = json.loads((demo_runs[0] / "results.json").read_text(encoding="utf-8"))
+    assert gone == {(o["name"], "hypothesis", h["id"]) for o in run_a["outcomes"]
+                    for f in o["contrasts"] if f["registered"] for h in f["hypotheses"]} | {
+        (o["name"], "term", "coating") for o in run_a["outcomes"]}
     moved = {(m.outcome, m.quantity): m for m in diff.numbers}
     assert moved[("dry_mass", "welch.statistic")].b is None and moved[("dry_mass", "units/coating.cohens_f.estimate")].b is None
     assert moved[("dry_mass", "units/coating.statistic")].b is not None
