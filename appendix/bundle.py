@@ -14,12 +14,14 @@ anything is extracted, checks every hash, cross-checks the run manifest and the 
 embedded evidence, recomputes in a temporary folder (with the run the caller passes in,
 `appendix.api.run` for `appendix verify`) and compares results.json: strings
 (conclusions, decisions) and integers exactly, other numbers to `appendix.tolerance`'s
-tolerance. Packaged results of another format
-than `appendix.results.FORMAT_VERSION` are not compared, and verify says so.
+tolerance. The packaged results.json is read once, typed (`appendix.jsonread.read_results`):
+one that is truncated, of another format than `appendix.results.FORMAT_VERSION` or not of
+the declared types is refused with a sentence, as nothing can be compared with it.
 """
 
 from __future__ import annotations
 
+import dataclasses
 import datetime as _dt
 import json
 import platform
@@ -36,11 +38,11 @@ from typing import Any
 
 from appendix.errors import UserError
 from appendix.hashing import copy_hashed, sha256_bytes, sha256_file
-from appendix.jsonread import checked, read_json
+from appendix.jsonread import checked, read_json, read_results
 from appendix.names import (ENVIRONMENT_FILE, HTML_FILE, LOCK_FILE, MANIFEST_FILE, NOTE_FILE, PDF_FILE,
                             RESULTS_FILE, RUN_FILES, SUMS_FILE)
 from appendix.publish import RunManifest, manifest_text, pdf_evidence
-from appendix.results import FORMAT_VERSION
+from appendix.results import FORMAT_VERSION, Software, StudyResults, to_plain
 from appendix.staging import staged_file
 from appendix.targets import check_file_target, is_package
 from appendix.tolerance import DEFAULT as TOLERANCE
@@ -112,7 +114,7 @@ def _checked(path: Path, expected: str, what: str) -> Path:
 Content = bytes | Path  # an entry's bytes, or the file that holds them
 
 
-def _run_entries(run: Path, manifest: Mapping[str, Any]) -> dict[str, Content]:
+def _run_entries(run: Path, manifest: RunManifest) -> dict[str, Content]:
     """The run folder's files under ``run/``, each checked against the run manifest."""
     entries = {}
     for item in manifest.get("outputs", []):
@@ -129,7 +131,7 @@ def _run_entries(run: Path, manifest: Mapping[str, Any]) -> dict[str, Content]:
     return entries
 
 
-def _study_entries(manifest: Mapping[str, Any], run: Path) -> dict[str, Content]:
+def _study_entries(manifest: RunManifest, run: Path) -> dict[str, Content]:
     """The study file, its lock and data under ``study/``, checked against the run's inputs."""
     if "study_file" not in manifest:
         raise UserError(f"{run / MANIFEST_FILE} does not record where the study file is; "
@@ -150,7 +152,7 @@ def _study_entries(manifest: Mapping[str, Any], run: Path) -> dict[str, Content]
     return entries
 
 
-def _environment_record(manifest: Mapping[str, Any]) -> dict[str, Any]:
+def _environment_record(manifest: RunManifest) -> dict[str, Any]:
     here = {"python": sys.version.split()[0], "platform": platform.platform(),
             "distributions": [{"name": d.name, "version": d.version}
                               for d in installed_distributions()]}
@@ -359,7 +361,7 @@ def _hash_problems(digests: Mapping[str, str], folder: Path) -> list[str]:
     return problems
 
 
-def _manifest_problems(folder: Path) -> tuple[list[str], dict[str, Any] | None]:
+def _manifest_problems(folder: Path) -> tuple[list[str], RunManifest | None]:
     """The run manifest against the packaged files: each output and input it records."""
     path = folder / "run" / MANIFEST_FILE
     if not path.is_file():
@@ -384,7 +386,7 @@ def _manifest_problems(folder: Path) -> tuple[list[str], dict[str, Any] | None]:
     return problems, manifest
 
 
-def _pdf_problems(folder: Path, manifest: Mapping[str, Any]) -> tuple[list[str], list[str]]:
+def _pdf_problems(folder: Path, manifest: RunManifest) -> tuple[list[str], list[str]]:
     """The PDF's embedded study file, results.json and manifest against the packaged ones."""
     try:
         import pypdf
@@ -413,8 +415,9 @@ def _pdf_problems(folder: Path, manifest: Mapping[str, Any]) -> tuple[list[str],
 
 
 def compare_results(expected: Any, actual: Any, path: str = "") -> list[str]:
-    """Each difference between two parsed results.json trees, by key path: text, booleans,
-    None and integers exactly; a float against a number to `appendix.tolerance.DEFAULT`.
+    """Each difference between two results (typed results, or plain trees), by key path
+    as results.json writes it (fields in key order): text, booleans, None and integers
+    exactly; a float against a number to `appendix.tolerance.DEFAULT`.
 
     >>> compare_results({"f": 5.0, "d": "reject"}, {"f": 5.0 + 1e-12, "d": "retain"})
     ["d: 'reject' packaged, 'retain' recomputed"]
@@ -423,6 +426,12 @@ def compare_results(expected: Any, actual: Any, path: str = "") -> list[str]:
     number = (int, float)
     if isinstance(expected, bool) or isinstance(actual, bool) or \
             not (isinstance(expected, number) and isinstance(actual, number)):
+        if dataclasses.is_dataclass(expected) and type(expected) is type(actual):
+            found = []
+            for name in sorted(f.name for f in dataclasses.fields(expected)):
+                found += compare_results(getattr(expected, name), getattr(actual, name),
+                                         f"{path}.{name}" if path else name)
+            return found
         if isinstance(expected, dict) and isinstance(actual, dict):
             found = []
             for key in sorted(expected.keys() | actual.keys()):
@@ -434,7 +443,7 @@ def compare_results(expected: Any, actual: Any, path: str = "") -> list[str]:
                 else:
                     found += compare_results(expected[key], actual[key], sub)
             return found
-        if isinstance(expected, list) and isinstance(actual, list):
+        if isinstance(expected, (list, tuple)) and isinstance(actual, (list, tuple)):
             if len(expected) != len(actual):
                 return [f"{where}: {len(expected)} items packaged, {len(actual)} recomputed"]
             found = []
@@ -443,7 +452,7 @@ def compare_results(expected: Any, actual: Any, path: str = "") -> list[str]:
             return found
         if type(expected) is type(actual) and expected == actual:
             return []
-        return [f"{where}: {expected!r} packaged, {actual!r} recomputed"]
+        return [f"{where}: {_shown(expected)} packaged, {_shown(actual)} recomputed"]
     if isinstance(expected, int) and isinstance(actual, int):
         same = expected == actual
     else:
@@ -451,9 +460,14 @@ def compare_results(expected: Any, actual: Any, path: str = "") -> list[str]:
     return [] if same else [f"{where}: {expected!r} packaged, {actual!r} recomputed"]
 
 
-def _version_notes(packaged: list, recomputed: list) -> list[str]:
-    before = {s["name"]: s["version"] for s in packaged}
-    now = {s["name"]: s["version"] for s in recomputed}
+def _shown(value: Any) -> str:
+    """A value in a difference, as results.json writes it."""
+    return repr(to_plain(value))
+
+
+def _version_notes(packaged: Iterable[Software], recomputed: Iterable[Software]) -> list[str]:
+    before = {s.name: s.version for s in packaged}
+    now = {s.name: s.version for s in recomputed}
     return [f"versions differ: {name} {before[name]} in the package, {now[name]} here"
             for name in sorted(before.keys() & now.keys()) if before[name] != now[name]]
 
@@ -465,9 +479,32 @@ def _inside_package(root: Path, path: str | Path) -> bool:
     return place != base and base in place.parents
 
 
-def _recompute(folder: Path, manifest: Mapping[str, Any],
+#: Ends the sentence that refuses packaged results of another format.
+_OTHER_FORMAT = (f"verifies results of format {FORMAT_VERSION} only: verify the package with the "
+                 "appendix version its environment.json names")
+
+
+def _packaged_results(folder: Path, package: Path, problems: list[str]) -> StudyResults | None:
+    """The package's results.json, typed (None when it has none). One that is not a results
+    file of this version is refused with a `UserError` naming it (nothing can be compared
+    with it), unless the hashes already show it changed or damaged since packing: then
+    that is one more difference, added to `problems`."""
+    name = f"run/{RESULTS_FILE}"
+    if not (folder / name).is_file():
+        return None
+    try:
+        return read_results(folder / name, "a package holds the results.json `appendix run` "
+                            "wrote", other_format=_OTHER_FORMAT, shown=f"{name} in {package}")
+    except UserError as error:
+        if not any(p == f"changed: {name}" or p.startswith(f"damaged: {name} (") for p in problems):
+            raise
+        problems.append(f"{name} cannot be compared: {error}")
+        return None
+
+
+def _recompute(folder: Path, manifest: RunManifest, packaged: StudyResults,
                recompute: Recompute) -> tuple[list[str], list[str]]:
-    """Rerun the packaged study in `folder` and compare its results.json with the package's."""
+    """Rerun the packaged study in `folder` and compare its results with the package's."""
     from appendix.plan.load import load_plan
 
     study = next((i.get("path") for i in manifest["inputs"]
@@ -484,19 +521,11 @@ def _recompute(folder: Path, manifest: Mapping[str, Any],
         recompute(folder / "study" / study, folder / "recomputed")
     except UserError as error:
         return [f"the packaged study could not be recomputed: {error}"], []
-    try:
-        packaged = json.loads((folder / "run" / RESULTS_FILE).read_text(encoding="utf-8"))
-    except (UnicodeDecodeError, json.JSONDecodeError, RecursionError) as error:
-        return [f"run/results.json is not valid JSON ({error!r}); nothing to compare"], []
-    if not isinstance(packaged, dict):
-        return ["run/results.json does not hold a results object; nothing to compare"], []
-    again = json.loads((folder / "recomputed" / RESULTS_FILE).read_text(encoding="utf-8"))
-    notes = _version_notes(packaged.pop("software", []), again.pop("software", []))
-    if packaged.get("format_version") != FORMAT_VERSION:
-        return [f"run/results.json is of results format {packaged.get('format_version')!r} and this "
-                f"version of appendix writes format {FORMAT_VERSION}, so the results were not "
-                "compared: verify the package with the appendix version environment.json names"], notes
-    problems = compare_results(packaged, again)
+    again = read_results(folder / "recomputed" / RESULTS_FILE, "the results just recomputed",
+                         other_format=_OTHER_FORMAT)
+    notes = _version_notes(packaged.software, again.software)
+    problems = compare_results(dataclasses.replace(packaged, software=()),
+                               dataclasses.replace(again, software=()))
     html = folder / "run" / HTML_FILE
     if html.is_file() and html.read_bytes() != (folder / "recomputed" / HTML_FILE).read_bytes():
         # the same versions render the same bytes; other versions may draw figures differently
@@ -527,7 +556,9 @@ class Verification:
 def verify(package: Path, recompute: Recompute) -> Verification:
     """Check a package made by `pack` (see the module docstring), rerunning its study with
     `recompute(study file, new run folder)`; raises `UserError` for a file that is not a
-    zip archive or holds unsafe entry names."""
+    zip archive, holds unsafe entry names, or whose results.json, unchanged since packing,
+    is not a results file of this version (truncated, of another format, or not of the
+    declared types)."""
     package = Path(package)
     if not package.is_file():
         raise UserError(f"{package} not found: give the zip that `appendix pack` wrote")
@@ -541,6 +572,7 @@ def verify(package: Path, recompute: Recompute) -> Verification:
         digests, damaged = _extract(archive, folder)
         problems = [f"damaged: {name}" for name in damaged]
         problems += _hash_problems(digests, folder)
+        packaged = _packaged_results(folder, package, problems)
         found, manifest = _manifest_problems(folder)
         problems += found
         notes: list[str] = []
@@ -549,11 +581,11 @@ def verify(package: Path, recompute: Recompute) -> Verification:
                 found, noted = _pdf_problems(folder, manifest)
                 problems += found
                 notes += noted
-            if (folder / "run" / RESULTS_FILE).is_file():
-                found, noted = _recompute(folder, manifest, recompute)
+            if packaged is not None:
+                found, noted = _recompute(folder, manifest, packaged, recompute)
                 problems += found
                 notes += noted
-            else:
+            elif not (folder / "run" / RESULTS_FILE).is_file():
                 problems.append("missing: run/results.json")
         shutil.rmtree(folder / "recomputed", ignore_errors=True)
     return Verification(package, len(digests), tuple(problems), tuple(notes))

@@ -11,8 +11,9 @@
 4. the plan: its hash, and key by key when both runs hold the canonical plan;
 5. checksums of the inputs (and of the output files, from the manifests).
 
-Only the run folders' results.json (of `appendix.results.FORMAT_VERSION`; an older
-format is refused with a sentence), records.json and manifest.json are read. Output:
+Only the run folders' results.json (read once into `appendix.results.StudyResults`;
+one that is truncated, of another format than `appendix.results.FORMAT_VERSION` or not of
+the declared types is refused with a sentence), records.json and manifest.json are read. Output:
 text for people (`report_lines`), canonical JSON for machines (`to_json`, stable keys)
 and an HTML page in the appendix's look (`render_page`).
 
@@ -25,18 +26,26 @@ from __future__ import annotations
 
 import dataclasses
 import json
-from collections.abc import Iterator, Mapping
+from collections.abc import Iterable, Iterator, Mapping
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
 from appendix.errors import UserError
-from appendix.jsonread import checked, read_json
+from appendix.jsonread import checked, read_json, read_results
 from appendix.names import MANIFEST_FILE, RESULTS_FILE
-from appendix.numbers import write_parts
 from appendix.publish import RunManifest
 from appendix.records import Records, RowRecord, read_records
-from appendix.results import FORMAT_VERSION, StudyResults
+from appendix.results import (
+    FORMAT_VERSION,
+    Conclusion,
+    ContrastFamily,
+    Descriptives,
+    HypothesisResult,
+    ModelRow,
+    OutcomeResult,
+    StudyResults,
+)
 from appendix.tolerance import DEFAULT, Tolerance
 
 #: 2: quantities are named after the results of format 2 (``units/coating.statistic``, ``n_units``).
@@ -192,13 +201,17 @@ class RunDiff:
 @dataclass(frozen=True)
 class _Run:
     folder: Path
-    results: Mapping[str, Any]
-    manifest: Mapping[str, Any] | None
+    results: StudyResults
+    manifest: RunManifest | None
     records: Records | None
 
 
-def _read_json(path: Path) -> Any:
-    return read_json(path, "a run folder holds the files `appendix run` writes")
+#: What a file of a run folder should be, for the messages.
+_RUN_FILES = "a run folder holds the files `appendix run` writes"
+
+#: Ends the sentence that refuses a results file of another format.
+_OTHER_FORMAT = (f"compares results of format {FORMAT_VERSION} only: rerun both studies with it, "
+                 "then compare the new run folders")
 
 
 def _load_run(folder: Path) -> _Run:
@@ -206,18 +219,10 @@ def _load_run(folder: Path) -> _Run:
     if not (folder / RESULTS_FILE).is_file():
         raise UserError(f"not a run folder: {folder} has no results.json "
                         "(give the folders that `appendix run` wrote)")
-    results = _read_json(folder / RESULTS_FILE)
-    version = results.get("format_version") if isinstance(results, dict) else None
-    if type(version) is not int:
-        raise UserError(f"{folder / RESULTS_FILE}: not a results file of format {FORMAT_VERSION}")
-    if version != FORMAT_VERSION:
-        raise UserError(f"{folder / RESULTS_FILE} is a results file of format {version}, and this "
-                        f"version of appendix compares results of format {FORMAT_VERSION} only: rerun "
-                        "both studies with it, then compare the new run folders")
-    checked(results, StudyResults, folder / RESULTS_FILE, "a results file of this version")
+    results = read_results(folder / RESULTS_FILE, _RUN_FILES, other_format=_OTHER_FORMAT)
     manifest = None
     if (folder / MANIFEST_FILE).is_file():
-        manifest = checked(_read_json(folder / MANIFEST_FILE), RunManifest,
+        manifest = checked(read_json(folder / MANIFEST_FILE, _RUN_FILES), RunManifest,
                            folder / MANIFEST_FILE, "a run manifest of this version")
     return _Run(folder, results, manifest, read_records(folder))
 
@@ -225,60 +230,62 @@ def _load_run(folder: Path) -> _Run:
 # --- 1. conclusions -------------------------------------------------------------------
 
 
-def _ordered(items: list[Mapping[str, Any]]) -> list[Mapping[str, Any]]:
+def _ordered(outcomes: Iterable[OutcomeResult]) -> list[OutcomeResult]:
     """Primary outcomes first, otherwise in results order (as the appendix shows them)."""
-    return sorted(items, key=lambda o: o["role"] != "primary")
+    return sorted(outcomes, key=lambda o: o.role != "primary")
 
 
-def _hypotheses(outcome: Mapping[str, Any]) -> Iterator[tuple[Mapping[str, Any], str]]:
+def _hypotheses(outcome: OutcomeResult) -> Iterator[tuple[HypothesisResult, str]]:
     """Registered hypotheses with their sentence (the results list the sentences in the
     same order as the registered families' hypotheses)."""
-    hypotheses = [h for f in outcome.get("contrasts", []) if f["registered"] for h in f["hypotheses"]]
-    sentences = [write_parts(c["parts"]) for c in outcome.get("hypothesis_conclusions", [])]
+    hypotheses = [h for f in outcome.contrasts if f.registered for h in f.hypotheses]
+    sentences = [c.sentence for c in outcome.hypothesis_conclusions]
     if len(sentences) != len(hypotheses):
         sentences = [""] * len(hypotheses)
     yield from zip(hypotheses, sentences)
 
 
-def _tested_terms(results: Mapping[str, Any], outcome: Mapping[str, Any]) -> list[Mapping[str, Any]]:
+def _tested_terms(results: StudyResults, outcome: OutcomeResult) -> list[ModelRow]:
     """The table rows an outcome concludes on: terms of treatment and within factors only
     (blocks and covariates adjust the model), tables in order."""
-    tested = {f["name"] for f in results.get("factors", []) if f.get("role") in ("treatment", "within")}
-    return [row for table in outcome["tables"] for row in table["rows"] if set(row["term"]) <= tested]
+    tested = {f.name for f in results.factors if f.role in ("treatment", "within")}
+    return [row for table in outcome.tables for row in table.rows if set(row.term) <= tested]
 
 
 #: The test a one-factor outcome's conclusion is decided by, per `selected_method`.
 _METHOD_WORDS = {"classical": "F test", "welch": "Welch's test", "rank-based": "Kruskal-Wallis test"}
 
 
-def _term_conclusions(results: Mapping[str, Any],
-                      o: Mapping[str, Any]) -> Iterator[tuple[str, str, Decision]]:
+def _decision(conclusion: Conclusion) -> Decision:
+    return Decision(conclusion.decision, conclusion.p, conclusion.sentence)
+
+
+def _term_conclusions(results: StudyResults, o: OutcomeResult) -> Iterator[tuple[str, str, Decision]]:
     """(term id, label, decision) of each tested term of an outcome. Where the robust tests
     are computed (one factor), the label names the test in force."""
     rows = _tested_terms(results, o)
-    method = o.get("selected_method", "classical")
-    test = f" ({_METHOD_WORDS.get(method, method)})" if o.get("robust") is not None else ""
-    if len(rows) == len(o["conclusions"]):
-        for row, c in zip(rows, o["conclusions"]):
-            yield (CROSS.join(row["term"]), f"{o['label']}: {row['label']}{test}",
-                   Decision(c["decision"], c["p"], write_parts(c["parts"])))
+    method = o.selected_method
+    test = f" ({_METHOD_WORDS.get(method, method)})" if o.robust is not None else ""
+    if len(rows) == len(o.conclusions):
+        for row, c in zip(rows, o.conclusions):
+            yield CROSS.join(row.term), f"{o.label}: {row.label}{test}", _decision(c)
     else:  # a results file whose conclusions do not pair with its rows: by position
-        for i, c in enumerate(o["conclusions"], start=1):
-            yield f"term {i}", f"{o['label']}: term {i}", Decision(c["decision"], c["p"], write_parts(c["parts"]))
+        for i, c in enumerate(o.conclusions, start=1):
+            yield f"term {i}", f"{o.label}: term {i}", _decision(c)
 
 
-def conclusions_of(results: Mapping[str, Any]) -> dict[tuple[str, str, str], tuple[str, str, Decision]]:
+def conclusions_of(results: StudyResults) -> dict[tuple[str, str, str], tuple[str, str, Decision]]:
     """Every conclusion of a run: (outcome, kind, id) -> (role, label, decision); primary
     outcomes first, each with its tested terms (a one-factor outcome: its factor), then
     its hypotheses."""
     found: dict[tuple[str, str, str], tuple[str, str, Decision]] = {}
-    for o in _ordered(list(results.get("outcomes", []))):
+    for o in _ordered(results.outcomes):
         for term, label, decision in _term_conclusions(results, o):
-            found[(o["name"], "term", term)] = (o["role"], label, decision)
+            found[(o.name, "term", term)] = (o.role, label, decision)
         for h, sentence in _hypotheses(o):
-            p = h["p_adjusted"] if h["p_adjusted"] is not None else h["p"]
-            found[(o["name"], "hypothesis", h["id"])] = (
-                o["role"], f"{o['label']}: {h['label']} ({h['id']})", Decision(h["decision"], p, sentence))
+            p = h.p_adjusted if h.p_adjusted is not None else h.p
+            found[(o.name, "hypothesis", h.id)] = (
+                o.role, f"{o.label}: {h.label} ({h.id})", Decision(h.decision, p, sentence))
     return found
 
 
@@ -287,7 +294,7 @@ def _union(a: Mapping, b: Mapping) -> list:
     return [*a, *(k for k in b if k not in a)]
 
 
-def compare_conclusions(a: Mapping[str, Any], b: Mapping[str, Any]) -> tuple[ConclusionChange, ...]:
+def compare_conclusions(a: StudyResults, b: StudyResults) -> tuple[ConclusionChange, ...]:
     ca, cb = conclusions_of(a), conclusions_of(b)
     changes = []
     for key in _union(ca, cb):
@@ -302,102 +309,104 @@ def compare_conclusions(a: Mapping[str, Any], b: Mapping[str, Any]) -> tuple[Con
 
 # --- 2. numbers -----------------------------------------------------------------------
 
-#: A row's effect sizes: (field of the estimate, prefix of its interval's ``_ci_low`` and
-#: ``_ci_high`` fields, words). With one term in one table a partial share is the share
-#: itself (the error is all that is left).
-_EFFECTS = (("partial_eta_squared", "partial_eta", "eta squared"),
-            ("partial_omega_squared", "partial_omega", "omega squared"),
-            ("cohens_f", "cohens_f", "Cohen's f"))
+#: (outcome, quantity) -> (label, value): the numbers of a run.
+Numbers = dict[tuple[str, str], tuple[str, float | None]]
 
 
-def _interval(found: dict, outcome: str, quantity: str, label: str, item: Mapping[str, Any],
-              estimate: str = "estimate") -> None:
-    found[(outcome, f"{quantity}.estimate")] = (label, item.get(estimate))
-    found[(outcome, f"{quantity}.ci_low")] = (f"{label}, CI low", item.get("ci_low"))
-    found[(outcome, f"{quantity}.ci_high")] = (f"{label}, CI high", item.get("ci_high"))
+def _interval(found: Numbers, outcome: str, quantity: str, label: str, estimate: float | None,
+              ci_low: float | None, ci_high: float | None) -> None:
+    found[(outcome, f"{quantity}.estimate")] = (label, estimate)
+    found[(outcome, f"{quantity}.ci_low")] = (f"{label}, CI low", ci_low)
+    found[(outcome, f"{quantity}.ci_high")] = (f"{label}, CI high", ci_high)
 
 
-def _hypothesis_numbers(found: dict, outcome: str, families: list[Mapping[str, Any]],
+def _hypothesis_numbers(found: Numbers, outcome: str, families: Iterable[ContrastFamily],
                         note: str = "") -> None:
     for family in families:
-        for h in family["hypotheses"]:
-            name = f"{h['id']}{note}"
-            _interval(found, outcome, h["id"], f"{name} estimate", h)
-            found[(outcome, f"{h['id']}.p")] = (f"{name} p (unadjusted)", h["p"])
-            found[(outcome, f"{h['id']}.p_adjusted")] = (f"{name} p (adjusted)", h["p_adjusted"])
-            found[(outcome, f"{h['id']}.standardized")] = (f"{name} standardized (Hedges)",
-                                                          h["standardized"])
+        for h in family.hypotheses:
+            name = f"{h.id}{note}"
+            _interval(found, outcome, h.id, f"{name} estimate", h.estimate, h.ci_low, h.ci_high)
+            found[(outcome, f"{h.id}.p")] = (f"{name} p (unadjusted)", h.p)
+            found[(outcome, f"{h.id}.p_adjusted")] = (f"{name} p (adjusted)", h.p_adjusted)
+            found[(outcome, f"{h.id}.standardized")] = (f"{name} standardized (Hedges)", h.standardized)
 
 
-def _group_numbers(found: dict, outcome: str, descriptives: Mapping[str, Any]) -> None:
-    for g in descriptives["groups"]:
-        _interval(found, outcome, f"mean[{g['level']}]", f"mean, {g['level']}", g, estimate="mean")
-        found[(outcome, f"n[{g['level']}]")] = (f"n, {g['level']}", g["n"])
+def _group_numbers(found: Numbers, outcome: str, descriptives: Descriptives) -> None:
+    for g in descriptives.groups:
+        _interval(found, outcome, f"mean[{g.level}]", f"mean, {g.level}", g.mean, g.ci_low, g.ci_high)
+        found[(outcome, f"n[{g.level}]")] = (f"n, {g.level}", g.n)
 
 
-def _rows(o: Mapping[str, Any]) -> Iterator[tuple[str, str, Mapping[str, Any]]]:
+def _rows(o: OutcomeResult) -> Iterator[tuple[str, str, ModelRow]]:
     """(quantity prefix, label, row) of every row of every table of an outcome: the prefix
     ``stratum/term`` (``units/coating``), the label the term's, with the stratum unless it
     is ``units`` (a design without a within factor: one stratum)."""
-    for table in o["tables"]:
-        stratum = table.get("stratum", "units")
-        for row in table["rows"]:
-            where = "" if stratum == "units" else f" ({stratum})"
-            yield f"{stratum}/{CROSS.join(row['term'])}", f"{row['label']}{where}", row
+    for table in o.tables:
+        where = "" if table.stratum == "units" else f" ({table.stratum})"
+        for row in table.rows:
+            yield f"{table.stratum}/{CROSS.join(row.term)}", f"{row.label}{where}", row
 
 
-def _term_numbers(found: dict, name: str, o: Mapping[str, Any]) -> None:
+def _effects(row: ModelRow) -> tuple[tuple[str, str, float | None, float | None, float | None], ...]:
+    """A row's effect sizes: (quantity, words, estimate, CI low, CI high)."""
+    return (("partial_eta_squared", "eta squared", row.partial_eta_squared,
+             row.partial_eta_ci_low, row.partial_eta_ci_high),
+            ("partial_omega_squared", "omega squared", row.partial_omega_squared,
+             row.partial_omega_ci_low, row.partial_omega_ci_high),
+            ("cohens_f", "Cohen's f", row.cohens_f, row.cohens_f_ci_low, row.cohens_f_ci_high))
+
+
+def _term_numbers(found: Numbers, name: str, o: OutcomeResult) -> None:
     """Each term's F and p (corrected p of within-unit terms), then Welch and Kruskal-Wallis
-    where they are computed, then each term's effect sizes with their intervals."""
+    where they are computed, then each term's effect sizes with their intervals. With one
+    term in one table a partial share is the share itself (the error is all that is left)."""
     for term, label, row in _rows(o):
-        found[(name, f"{term}.statistic")] = (f"F, {label}", row["statistic"])
-        found[(name, f"{term}.p")] = (f"p, {label}", row["p"])
-        if row["kind"] == "within":
-            found[(name, f"{term}.gg_p")] = (f"p Greenhouse-Geisser, {label}", row.get("gg_p"))
-            found[(name, f"{term}.hf_p")] = (f"p Huynh-Feldt, {label}", row.get("hf_p"))
-    robust = o.get("robust")
-    if robust is not None:
-        found[(name, "welch.statistic")] = ("F (Welch)", robust["welch"]["statistic"])
-        found[(name, "welch.p")] = ("p (Welch)", robust["welch"]["p"])
-        found[(name, "kruskal.statistic")] = ("H (Kruskal-Wallis)", robust["kruskal"]["statistic"])
-        found[(name, "kruskal.p")] = ("p (Kruskal-Wallis)", robust["kruskal"]["p"])
-    one_term = len(o["tables"]) == 1 and len(o["tables"][0]["rows"]) == 1
+        found[(name, f"{term}.statistic")] = (f"F, {label}", row.statistic)
+        found[(name, f"{term}.p")] = (f"p, {label}", row.p)
+        if row.kind == "within":
+            found[(name, f"{term}.gg_p")] = (f"p Greenhouse-Geisser, {label}", row.gg_p)
+            found[(name, f"{term}.hf_p")] = (f"p Huynh-Feldt, {label}", row.hf_p)
+    if o.robust is not None:
+        found[(name, "welch.statistic")] = ("F (Welch)", o.robust.welch.statistic)
+        found[(name, "welch.p")] = ("p (Welch)", o.robust.welch.p)
+        found[(name, "kruskal.statistic")] = ("H (Kruskal-Wallis)", o.robust.kruskal.statistic)
+        found[(name, "kruskal.p")] = ("p (Kruskal-Wallis)", o.robust.kruskal.p)
+    one_term = len(o.tables) == 1 and len(o.tables[0].rows) == 1
     for term, label, row in _rows(o):
-        for estimate, interval, words in _EFFECTS:
-            words = words if one_term or estimate == "cohens_f" else f"partial {words}"
-            _interval(found, name, f"{term}.{estimate}", f"{words}, {label}",
-                      {"estimate": row.get(estimate), "ci_low": row.get(f"{interval}_ci_low"),
-                       "ci_high": row.get(f"{interval}_ci_high")})
+        for quantity, words, estimate, low, high in _effects(row):
+            words = words if one_term or quantity == "cohens_f" else f"partial {words}"
+            _interval(found, name, f"{term}.{quantity}", f"{words}, {label}", estimate, low, high)
 
 
-def numbers_of(results: Mapping[str, Any]) -> dict[tuple[str, str], tuple[str, float | None]]:
+def numbers_of(results: StudyResults) -> Numbers:
     """The run's reported numbers: (outcome, quantity) -> (label, value), most telling first
     within an outcome (tests, effect sizes, hypotheses, then means and counts)."""
-    found: dict[tuple[str, str], tuple[str, float | None]] = {}
-    exploratory: dict[str, list] = {}
-    for entry in results.get("exploratory", []):
-        for family in entry["families"]:
-            exploratory.setdefault(family["outcome"], []).append(family)
-    for o in _ordered(list(results.get("outcomes", []))):
-        name = o["name"]
+    found: Numbers = {}
+    exploratory: dict[str, list[ContrastFamily]] = {}
+    for entry in results.exploratory:
+        for family in entry.families:
+            exploratory.setdefault(family.outcome, []).append(family)
+    for o in _ordered(results.outcomes):
+        name = o.name
         _term_numbers(found, name, o)
-        _hypothesis_numbers(found, name, [f for f in o.get("contrasts", []) if f["registered"]])
+        _hypothesis_numbers(found, name, [f for f in o.contrasts if f.registered])
         _hypothesis_numbers(found, name, exploratory.get(name, []), " (exploratory)")
-        for means in o["marginal_means"]:
-            for mean in means["means"]:
-                at = ", ".join(f"{f}={v}" for f, v in zip(means["factors"], mean["levels"]))
-                _interval(found, name, f"marginal[{at}]", f"marginal mean, {at}", mean)
-        for slope in o.get("covariate_slopes", []):
-            _interval(found, name, f"slope[{slope['covariate']}]", f"slope on {slope['covariate']}", slope)
-        found[(name, "n_units")] = ("units analysed", o["n_units"])
-        if any(table.get("within") for table in o["tables"]):
-            found[(name, "n_observations")] = ("observations analysed", o["n_observations"])
-        _group_numbers(found, name, o["descriptives"])
+        for means in o.marginal_means:
+            for mean in means.means:
+                at = ", ".join(f"{f}={v}" for f, v in zip(means.factors, mean.levels))
+                _interval(found, name, f"marginal[{at}]", f"marginal mean, {at}",
+                          mean.estimate, mean.ci_low, mean.ci_high)
+        for slope in o.covariate_slopes:
+            _interval(found, name, f"slope[{slope.covariate}]", f"slope on {slope.covariate}",
+                      slope.estimate, slope.ci_low, slope.ci_high)
+        found[(name, "n_units")] = ("units analysed", o.n_units)
+        if any(table.within for table in o.tables):
+            found[(name, "n_observations")] = ("observations analysed", o.n_observations)
+        _group_numbers(found, name, o.descriptives)
     return found
 
 
-def compare_numbers(a: Mapping[str, Any], b: Mapping[str, Any],
-                    tolerance: Tolerance) -> tuple[NumberMove, ...]:
+def compare_numbers(a: StudyResults, b: StudyResults, tolerance: Tolerance) -> tuple[NumberMove, ...]:
     na, nb = numbers_of(a), numbers_of(b)
     moves = []
     for key in _union(na, nb):
@@ -494,7 +503,7 @@ def flatten_plan(value: Any, prefix: str = "") -> dict[str, Any]:
 
 
 def compare_plans(a: _Run, b: _Run) -> PlanDiff:
-    sha_a, sha_b = a.results["plan_sha256"], b.results["plan_sha256"]
+    sha_a, sha_b = a.results.plan_sha256, b.results.plan_sha256
     if a.records is None or b.records is None:
         return PlanDiff(sha_a, sha_b, sha_a != sha_b, False, (), ())
     fa, fb = flatten_plan(dict(a.records.plan)), flatten_plan(dict(b.records.plan))
@@ -510,25 +519,37 @@ def compare_plans(a: _Run, b: _Run) -> PlanDiff:
 # --- 5. checksums ---------------------------------------------------------------------
 
 
-def _checksums(kind: str, a: list[Mapping[str, Any]], b: list[Mapping[str, Any]]) -> list[Checksum]:
-    """Inputs are matched by role (a renamed data file is still the data), outputs by path."""
-    field = "role" if kind == "input" else "path"
-    ia, ib = {i[field]: i for i in a}, {i[field]: i for i in b}
+#: A file as the checksums compare it: (what matches it across runs, path, SHA-256, role).
+_File = tuple[str, str, str, str]
+
+
+def _inputs(results: StudyResults) -> list[_File]:
+    """Inputs are matched by role (a renamed data file is still the data)."""
+    return [(i.role, i.path, i.sha256, i.role) for i in results.inputs]
+
+
+def _outputs(manifest: RunManifest) -> list[_File]:
+    """Outputs are matched by path."""
+    return [(o["path"], o["path"], o["sha256"], "output") for o in manifest["outputs"]]
+
+
+def _checksums(kind: str, a: list[_File], b: list[_File]) -> list[Checksum]:
+    ia, ib = {f[0]: f for f in a}, {f[0]: f for f in b}
     rows = []
     for key in _union(ia, ib):
         x, y = ia.get(key), ib.get(key)
-        path = (y or x)["path"]
-        if x and y and x["path"] != y["path"]:
-            path = f"{x['path']} -> {y['path']}"
-        sa, sb = x["sha256"] if x else None, y["sha256"] if y else None
-        rows.append(Checksum(kind, (y or x).get("role", kind), path, sa, sb, sa != sb))
+        path = (y or x)[1]
+        if x and y and x[1] != y[1]:
+            path = f"{x[1]} -> {y[1]}"
+        sa, sb = x[2] if x else None, y[2] if y else None
+        rows.append(Checksum(kind, (y or x)[3], path, sa, sb, sa != sb))
     return rows
 
 
 def compare_checksums(a: _Run, b: _Run) -> tuple[Checksum, ...]:
-    rows = _checksums("input", a.results.get("inputs", []), b.results.get("inputs", []))
+    rows = _checksums("input", _inputs(a.results), _inputs(b.results))
     if a.manifest and b.manifest:
-        rows += _checksums("output", a.manifest.get("outputs", []), b.manifest.get("outputs", []))
+        rows += _checksums("output", _outputs(a.manifest), _outputs(b.manifest))
     return tuple(rows)
 
 
@@ -537,8 +558,7 @@ def compare_checksums(a: _Run, b: _Run) -> tuple[Checksum, ...]:
 
 def _info(run: _Run) -> RunInfo:
     r = run.results
-    return RunInfo(folder=str(run.folder), study=r["study"]["id"], plan_sha256=r["plan_sha256"],
-                   alpha=r["alpha"])
+    return RunInfo(folder=str(run.folder), study=r.study.id, plan_sha256=r.plan_sha256, alpha=r.alpha)
 
 
 def compare_runs(run_a: Path, run_b: Path, tolerance: Tolerance = DEFAULT) -> RunDiff:

@@ -12,7 +12,6 @@ import json
 import os
 from collections.abc import Callable, Mapping
 from pathlib import Path
-from typing import Any
 
 from typing_extensions import NotRequired, TypedDict  # the form pydantic validates on 3.10-3.11
 
@@ -64,10 +63,10 @@ def run_time(clock: Callable[[], _dt.datetime] | None = None,
 
 
 def _manifest(folder: Path, results: StudyResults, now: _dt.datetime,
-              environment: dict[str, str], study_file: Path | None) -> dict[str, Any]:
+              environment: dict[str, str], study_file: Path | None) -> RunManifest:
     """The manifest of `folder` as it stands (every file in it is listed as an output)."""
     outputs = sorted(p.relative_to(folder).as_posix() for p in folder.rglob("*") if p.is_file())
-    manifest = {
+    manifest: RunManifest = {
         "format_version": MANIFEST_FORMAT,
         "tool": {"name": "appendix", "version": __version__},
         "run_time": now.astimezone(_dt.timezone.utc).isoformat(timespec="seconds"),
@@ -89,7 +88,7 @@ def _manifest(folder: Path, results: StudyResults, now: _dt.datetime,
     return manifest
 
 
-def manifest_text(manifest: Mapping[str, Any]) -> str:
+def manifest_text(manifest: RunManifest) -> str:
     """The canonical text of a manifest: sorted keys, two-space indent, final newline."""
     return json.dumps(manifest, sort_keys=True, indent=2, ensure_ascii=False) + "\n"
 
@@ -109,10 +108,10 @@ def write_manifest(folder: Path, results: StudyResults, now: _dt.datetime,
     return (*(item["path"] for item in manifest["outputs"]), MANIFEST_FILE)
 
 
-def pdf_evidence(manifest: Mapping[str, Any]) -> dict[str, Any]:
+def pdf_evidence(manifest: RunManifest) -> RunManifest:
     """The manifest the PDF carries: the run manifest without the PDF's own entry (a file
     cannot hold its own hash). `appendix verify` checks the two agree."""
-    carried = dict(manifest)
+    carried = RunManifest(**manifest)
     carried["outputs"] = [o for o in manifest["outputs"] if o["path"] != PDF_FILE]
     return carried
 

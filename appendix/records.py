@@ -24,6 +24,7 @@ from __future__ import annotations
 import json
 from collections.abc import Mapping
 from dataclasses import dataclass
+from functools import cache
 from pathlib import Path
 from typing import Any
 
@@ -34,6 +35,7 @@ from appendix.data.values import is_missing, match_key
 from appendix.errors import UserError
 from appendix.names import RECORDS_FILE
 from appendix.plan.load import LoadedPlan
+from appendix.results import first_errors
 
 RECORDS_FORMAT = 1
 
@@ -240,23 +242,34 @@ def _canonical(header: Mapping[str, Any], rows: list[dict[str, Any]] | None) -> 
 
 def read_records(folder: Path) -> Records | None:
     """The records of a run folder, or None when it has none (a run made before records
-    were written). Raises `UserError` for a file that is not a records file."""
+    were written), read once and checked against the declared types of `Records`. Raises
+    `UserError` for a file that is not a records file of this version."""
+    from pydantic import ValidationError
+
     path = Path(folder) / RECORDS_FILE
     if not path.is_file():
         return None
     try:
         raw = json.loads(path.read_text(encoding="utf-8"))
-        version = raw["format_version"]
+        version = raw.get("format_version") if isinstance(raw, dict) else None
         if version != RECORDS_FORMAT:
             raise UserError(f"{path}: records format {version!r}; this version reads "
                             f"format {RECORDS_FORMAT}")
-        rows = raw["rows"]
-        return Records(
-            format_version=version, source=raw["source"], unit_column=raw["unit_column"],
-            within_factor=raw["within_factor"],
-            columns=tuple(ColumnInfo(**c) for c in raw["columns"]),
-            plan=raw["plan"], plan_sha256=raw["plan_sha256"],
-            rows=None if rows is None else tuple(RowRecord(**row) for row in rows),
-            skipped=raw["skipped"])
-    except (ValueError, KeyError, TypeError, RecursionError) as error:
+        return _records_reader().validate_python(raw)
+    except ValidationError as error:
+        raise UserError(f"{path} is not a records file this version can read "
+                        f"({first_errors(error)})") from None
+    except (ValueError, RecursionError) as error:
         raise UserError(f"{path} is not a records file this version can read ({error!r})") from None
+
+
+@cache
+def _records_reader():
+    from pydantic import TypeAdapter
+
+    return TypeAdapter(Records)
+
+
+# A key that no field declares is an error when records are read back.
+for _type in (ColumnInfo, RowRecord, Records):
+    _type.__pydantic_config__ = {"extra": "forbid"}

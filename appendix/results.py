@@ -864,21 +864,34 @@ def from_json(text: str | bytes) -> StudyResults:
     checked against its declared type, so `to_json(from_json(text)) == text` for a text
     that `to_json` wrote. Raises `ResultsFormatError` for anything else (another format,
     a missing or misspelled key, a value of the wrong type, text that is not JSON)."""
-    from pydantic import TypeAdapter, ValidationError
-
     try:
         data = json.loads(text)
     except (json.JSONDecodeError, UnicodeDecodeError) as error:
         raise ResultsFormatError(f"not JSON ({error})") from None
+    return from_plain(data)
+
+
+def from_plain(data: Any) -> StudyResults:
+    """`from_json` of a results.json text already parsed (the reader of a file that words
+    its own JSON errors, `appendix.jsonread.read_results`)."""
+    from pydantic import ValidationError
+
     version = data.get("format_version") if isinstance(data, dict) else None
     if version != FORMAT_VERSION:
         raise ResultsFormatError(f"results format {version!r}; this version reads {FORMAT_VERSION}")
     try:
         return _reader().validate_python(data)
     except ValidationError as error:
-        shown = [f"{'.'.join(str(p) for p in e['loc']) or '(top)'}: {e['msg']}"
-                 for e in error.errors()[:3]]
-        raise ResultsFormatError("; ".join(shown)) from None
+        raise ResultsFormatError(first_errors(error)) from None
+
+
+def first_errors(error, limit: int = 3) -> str:
+    """The first keys a pydantic `ValidationError` found wrong, in words, for the sentence
+    that refuses a file we read back."""
+    shown = [f"{'.'.join(str(p) for p in e['loc']) or '(top)'}: {e['msg']}"
+             for e in error.errors()[:limit]]
+    more = error.error_count() - len(shown)
+    return "; ".join(shown) + (f"; and {more} more" if more > 0 else "")
 
 
 @cache

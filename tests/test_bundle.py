@@ -226,23 +226,21 @@ def test_forged_results_with_fresh_hashes_are_caught_by_recomputation(packed, tm
             "recomputed") in lines
 
 
-def test_packaged_results_of_format_1_are_not_compared_and_verify_says_so(packed, tmp_path):
+def test_packaged_results_of_format_1_are_refused_with_a_sentence(packed, tmp_path):
     """A package whose results.json an earlier version wrote (format 1), hashes rewritten
-    to match: the recomputation gives format 2, which is not compared key by key."""
+    to match: nothing can be compared with it, so verify refuses it (exit 2) and says
+    which version to verify it with."""
     entries = entries_of(packed[2])
     results = json.loads(entries["run/results.json"])
     results["format_version"] = 1
     old = json.dumps(results, sort_keys=True, indent=2, ensure_ascii=False) + "\n"
-    code, lines = verify_lines(_forge(entries, "results.json", old.encode("utf-8"),
-                                      tmp_path / "old.zip"))
-    assert code == 1
-    assert lines[2:] == [
-        "  the results.json embedded in run/appendix.pdf differs from the package's",
-        "  the manifest.json embedded in run/appendix.pdf differs from the package's",
-        ("  run/results.json is of results format 1 and this version of appendix writes format 2, "
-         "so the results were not compared: verify the package with the appendix version "
-         "environment.json names"),
-        "not reproduced: 3 differences"]
+    package = _forge(entries, "results.json", old.encode("utf-8"), tmp_path / "old.zip")
+    out, err = io.StringIO(), io.StringIO()
+    assert main(["verify", str(package)], stdout=out, stderr=err, cwd=tmp_path) == 2
+    assert (out.getvalue(), err.getvalue()) == ("", (
+        f"error: run/results.json in {package} is a results file of format 1, and this version of "
+        "appendix verifies results of format 2 only: verify the package with the appendix version "
+        "its environment.json names\n"))
 
 
 def test_forged_page_with_fresh_hashes_is_caught(packed, tmp_path):

@@ -31,6 +31,7 @@ from appendix.compare import (
 from appendix.errors import UserError
 from appendix.names import RECORDS_FILE
 from appendix.records import write_records
+from appendix.results import from_json
 from appendix.tolerance import Tolerance
 
 REPO = Path(__file__).resolve().parent.parent
@@ -144,7 +145,7 @@ def test_one_factor_numbers_are_its_terms_test_the_robust_tests_and_effect_sizes
     # warning is ignored by name); omega squared (SS_b - df_b MS_w) / (SS_t + MS_w) and
     # Cohen's f = sqrt(eta^2 / (1 - eta^2)) as textbook formulas (Hays 1963; Cohen 1988,
     # ch. 8; from memory).
-    results = json.loads((demo_runs[side] / "results.json").read_text(encoding="utf-8"))
+    results = from_json((demo_runs[side] / "results.json").read_text(encoding="utf-8"))
     numbers = {key[1]: value for key, value in numbers_of(results).items() if key[0] == "dry_mass"}
     groups = _groups(_csv(data), "shoot_dry_mass_mg")
     frame = pd.DataFrame({"y": [y for g in groups for y in g],
@@ -285,14 +286,16 @@ def test_without_records_data_and_plan_fall_back_to_hashes(demo_runs, tmp_path):
 def test_model_terms_pair_with_their_conclusions(tmp_path):
     study = REPO / "studies" / "greenhouse-split" / "study.yaml"
     run_a = _run(study, tmp_path / "a")
-    results = json.loads((run_a / "results.json").read_text(encoding="utf-8"))
-    terms = {key[2]: value[2].decision for key, value in conclusions_of(results).items() if key[1] == "term"}
+    text = (run_a / "results.json").read_text(encoding="utf-8")
+    terms = {key[2]: value[2].decision for key, value in conclusions_of(from_json(text)).items()
+             if key[1] == "term"}
     # treatment and within terms only; the bench block and the baseline covariate adjust the model
     assert list(terms) == ["coating", "irrigation", "coating × irrigation", "visit", "coating × visit"]
     assert terms["coating × irrigation"] == "retain"
     # the same run with one term's decision edited: the diff names exactly that term
     run_b = tmp_path / "b"
     shutil.copytree(run_a, run_b)
+    results = json.loads(text)
     model = results["outcomes"][0]
     model["conclusions"][2]["decision"] = "reject"
     (run_b / "results.json").write_text(json.dumps(results), encoding="utf-8")
@@ -405,10 +408,13 @@ def test_fields_the_results_format_gives_a_default_may_be_absent(demo_runs, tmp_
             del outcome[key]
     (bare / "results.json").write_text(json.dumps(results), encoding="utf-8")
     diff = compare_runs(demo_runs[0], bare)
-    # the registered hypotheses are gone with the contrasts: each is a conclusion of run A only
-    gone = {c.id for c in diff.conclusions if c.b is None}
-    assert gone == {h["id"] for o in json.loads((demo_runs[0] / "results.json").read_text(encoding="utf-8"))[
-        "outcomes"] for f in o["contrasts"] if f["registered"] for h in f["hypotheses"]}
+    # the registered hypotheses are gone with the contrasts, and the terms' conclusions with
+    # theirs: each is a conclusion of run A only
+    gone = {(c.outcome, c.kind, c.id) for c in diff.conclusions if c.b is None}
+    run_a = json.loads((demo_runs[0] / "results.json").read_text(encoding="utf-8"))
+    assert gone == {(o["name"], "hypothesis", h["id"]) for o in run_a["outcomes"]
+                    for f in o["contrasts"] if f["registered"] for h in f["hypotheses"]} | {
+        (o["name"], "term", "coating") for o in run_a["outcomes"]}
     moved = {(m.outcome, m.quantity): m for m in diff.numbers}
     assert moved[("dry_mass", "welch.statistic")].b is None and moved[("dry_mass", "units/coating.cohens_f.estimate")].b is None
     assert moved[("dry_mass", "units/coating.statistic")].b is not None

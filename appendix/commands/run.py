@@ -37,10 +37,9 @@ def decision_lines(results) -> list[str]:
     (primary): reject`` for an outcome with one, else each tested term's, ``  yield
     (primary): coating: reject; irrigation: retain``."""
     from appendix.compare import conclusions_of
-    from appendix.results import to_plain
 
     terms: dict[str, list[tuple[str, str]]] = {}
-    for (outcome, kind, term), (_, _, decision) in conclusions_of(to_plain(results)).items():
+    for (outcome, kind, term), (_, _, decision) in conclusions_of(results).items():
         if kind == "term":
             terms.setdefault(outcome, []).append((term, decision.decision))
     lines = []

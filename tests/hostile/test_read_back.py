@@ -4,12 +4,16 @@ read outside the package, never an unbounded expansion."""
 
 from __future__ import annotations
 
+import hashlib
+import json
+import shutil
 import zipfile
 from pathlib import Path
 
 import pytest
 
-from tests.hostile.helpers import run_cli
+from appendix import bundle, publish
+from tests.hostile.helpers import hashes, run_cli
 
 DEEP = "[" * 100_000 + "]" * 100_000
 
@@ -109,3 +113,90 @@ def test_verify_never_reads_data_outside_the_package(place: Path):
     code, out, err = run_cli(["verify", changed], place)
     assert code == 1 and "Traceback" not in err
     assert "names a data file outside the package" in out
+
+
+def _truncated(text: str) -> str:
+    return text[:len(text) // 2]   # a copy cut off halfway
+
+
+def _format_1(text: str) -> str:
+    return text.replace('"format_version": 2,', '"format_version": 1,', 1)  # as an earlier version wrote
+
+
+def _wrong_type(text: str) -> str:
+    tree = json.loads(text)
+    tree["outcomes"][0]["tables"][0]["rows"][0]["statistic"] = "large"
+    return json.dumps(tree, sort_keys=True, indent=2, ensure_ascii=False) + "\n"
+
+
+#: (change of results.json, the words that follow the file's name in the first line)
+BROKEN_RESULTS = [
+    (_truncated, " is not valid JSON (line "),
+    (_format_1, " is a results file of format 1, and this version of appendix "),
+    (_wrong_type, " is not a results file of this version (outcomes.0.tables.0.rows.0.statistic: "
+                  "Input should be a valid number"),
+]
+BROKEN_IDS = ["truncated", "format-1", "wrong-type"]
+
+
+@pytest.mark.parametrize("change, words", BROKEN_RESULTS, ids=BROKEN_IDS)
+@pytest.mark.parametrize("side", ["A", "B"])
+def test_diff_refuses_results_it_cannot_read_naming_the_file(place: Path, change, words, side):
+    shutil.copytree(place / "run", place / "other")
+    broken = place / ("run" if side == "A" else "other") / "results.json"
+    broken.write_text(change(broken.read_text(encoding="utf-8")), encoding="utf-8")
+    before = hashes(place)
+    code, out, err = run_cli(["diff", "run", "other", "--html", "diff.html"], place)
+    assert (code, out) == (2, "") and "Traceback" not in err, err
+    assert err.splitlines()[0].startswith(f"error: {broken}{words}"), err
+    assert hashes(place) == before   # no page written, nothing else touched
+
+
+def _forged(package: Path, change) -> Path:
+    """The package with its results.json changed and every hash rewritten to match (SHA256SUMS
+    and the run manifest): the hashes agree, only the results cannot be read."""
+    def forge(entries):
+        results = change(entries["run/results.json"].decode("utf-8")).encode("utf-8")
+        entries["run/results.json"] = results
+        manifest = json.loads(entries["run/manifest.json"])
+        for item in manifest["outputs"]:
+            if item["path"] == "results.json":
+                item["sha256"], item["bytes"] = hashlib.sha256(results).hexdigest(), len(results)
+        entries["run/manifest.json"] = publish.manifest_text(manifest).encode("utf-8")
+        body = {name: data for name, data in entries.items() if name != "SHA256SUMS"}
+        entries["SHA256SUMS"] = bundle.sums_text(body).encode("ascii")
+
+    return _rewrite(package, forge)
+
+
+@pytest.fixture(scope="module")
+def demo_package(demo_run: Path, tmp_path_factory) -> Path:
+    """The demo run's package, made once for the verify cases below."""
+    target = tmp_path_factory.mktemp("package") / "run.zip"
+    code, _, err = run_cli(["pack", demo_run / "run", "--out", target], demo_run)
+    assert code == 0, err
+    return target
+
+
+@pytest.mark.parametrize("change, words", BROKEN_RESULTS, ids=BROKEN_IDS)
+def test_verify_refuses_packaged_results_it_cannot_read_naming_the_file(demo_package: Path,
+                                                                       tmp_path: Path, change, words):
+    forged = _forged(shutil.copy(demo_package, tmp_path / "run.zip"), change)
+    code, out, err = run_cli(["verify", forged], tmp_path)
+    assert (code, out) == (2, "") and "Traceback" not in err, err
+    assert err.splitlines()[0].startswith(f"error: run/results.json in {forged}{words}"), err
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["changed.zip", "run.zip"]
+
+
+def test_verify_counts_results_changed_since_packing_as_a_difference(demo_package: Path, tmp_path: Path):
+    """Cut off without its hashes rewritten: SHA256SUMS already shows the change, so the
+    unreadable results are one more difference (exit 1), not a refusal."""
+    cut = _rewrite(shutil.copy(demo_package, tmp_path / "run.zip"), lambda entries: entries.update(
+        {"run/results.json": _truncated(entries["run/results.json"].decode("utf-8")).encode("utf-8")}))
+    code, out, err = run_cli(["verify", cut], tmp_path)
+    assert code == 1 and err == "", err
+    lines = out.splitlines()
+    assert "  changed: run/results.json" in lines
+    assert any(line.startswith(f"  run/results.json cannot be compared: run/results.json in {cut} "
+                               "is not valid JSON (line ") for line in lines), out
+    assert lines[-1].startswith("not reproduced: ")
