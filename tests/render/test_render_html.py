@@ -18,7 +18,7 @@ from render_helpers import changed, floats_to_none, parse, squash
 
 from appendix.methods import methods_used, references_for
 from appendix.render import RenderOptions, render_html, template_root
-from appendix.results import to_json
+from appendix.results import from_json, to_json
 
 CSP = "default-src 'none'; style-src 'unsafe-inline'; img-src data:"
 
@@ -268,6 +268,16 @@ def test_any_pattern_of_missing_statistics_renders(study_results, seed):
 
 def test_same_inputs_give_identical_html(study_results, figures, html):
     assert render_html(study_results, figures, RenderOptions()) == html
+
+
+def test_results_read_back_from_results_json_render_the_same_page(study_results,
+                                                                  computed_demos):
+    # the renderer reads the typed results a run holds; what results.json gives back
+    # (ints of float fields as floats, tuples rebuilt, NaN as None) must read the same
+    runs = {"fixture": study_results, **{n: c.results for n, c in computed_demos.items()}}
+    for name, results in runs.items():
+        page = render_html(results, {}, RenderOptions())
+        assert render_html(from_json(to_json(results)), {}, RenderOptions()) == page, name
 
 
 def test_installed_templates_win_over_the_repository(tmp_path, monkeypatch):
