@@ -21,6 +21,7 @@ from appendix.results import (
     HypothesisResult,
     NormalityTest,
     Number,
+    OutcomeResult,
     RegisteredFamily,
     StatWarning,
     VarianceTest,
@@ -436,6 +437,28 @@ def term_conclusion(plan: Plan, outcome: Outcome, row, ss_type: int, df_error: f
                          "equal, not which levels differ nor whether the differences matter in "
                          "practice.")
     return Conclusion(sentence, decision=decision, p=p, alpha=alpha)
+
+
+def _concluded(plan: Plan, term: tuple[str, ...]) -> bool:
+    """Whether a term's test is a conclusion: terms of treatment and within factors only;
+    blocks and covariates adjust the model and are reported in its table."""
+    tested = {f.name for f in plan.treatments} | {f.name for f in plan.within_factors}
+    return set(term) <= tested
+
+
+def term_conclusions(plan: Plan, outcome: Outcome, result: OutcomeResult) -> tuple[Conclusion, ...]:
+    """One sentence per tested term of an outcome's tables, in table order: where the
+    one-factor tests are defined (`result.robust`), the factor's test in force after the
+    registered contingencies; elsewhere each treatment and within term's F test, the
+    between-unit ones with the covariate slopes' caveat."""
+    if result.robust is not None:
+        (table,) = result.tables
+        return (conclusion(plan, outcome, table.rows[0], table.residual_df,
+                           method=result.selected_method, robust=result.robust),)
+    caveat = slopes_caveat(result.slopes, plan.alpha)
+    return tuple(with_caveat(term_conclusion(plan, outcome, row, table.ss_type, table.residual_df),
+                             () if table.within else caveat)
+                 for table in result.tables for row in table.rows if _concluded(plan, row.term))
 
 
 def _model_adjustment(plan: Plan, row) -> str:

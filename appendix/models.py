@@ -32,7 +32,7 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-from appendix import conclude, families as one_factor
+from appendix import families as one_factor
 from appendix.data.dataset import OutcomeData
 from appendix.families import provisional, shares_on
 from appendix.plan.family_plan import SINGLE_STEP
@@ -200,22 +200,15 @@ def _between_outcome(plan, outcome, data, missing_by_cell, cell_labels):
         exploratory = one_factor.exploratory_families(plan, outcome.name, selected, one, data.values,
                                                       treatment)
         deviations = one_factor.contingency_deviations(outcome.name, contingencies, selected)
-        conclusions = (conclude.conclusion(plan, outcome, table.rows[0], table.residual_df,
-                                           method=selected, robust=robust),)
     else:
         families, exploratory = _contrast_families(plan, outcome, fit=fit)
-        conclusions = tuple(conclude.with_caveat(
-            conclude.term_conclusion(plan, outcome, row, table.ss_type, table.residual_df),
-            conclude.slopes_caveat(slopes, plan.alpha))
-            for row in table.rows if _concluded(plan, row.term))
     n = data.sample_of if data.sample_of is not None else int(data.values.size)
     return OutcomeResult(
         name=outcome.name, label=outcome.label, unit=outcome.unit, role=outcome.role,
         design=design_words(plan), n_units=n, n_observations=n,
         arithmetic=cells.arithmetic,
         descriptives=descriptives, tables=(table,), marginal_means=means, slopes=slopes,
-        diagnostics=diagnostics, conclusions=conclusions,
-        robust=robust, robust_absent=plan.robust_absent, selected_method=selected,
+        diagnostics=diagnostics, robust=robust, robust_absent=plan.robust_absent, selected_method=selected,
         contingencies=contingencies, sample_of=data.sample_of,
         sample_size=int(data.values.size) if data.sample_of is not None else None,
         contrasts=families, covariate_slopes=_covariate_slopes(plan, fit),
@@ -255,13 +248,6 @@ def _full_data_moments(descriptives: Descriptives, cells, data: OutcomeData) -> 
         "a source aggregated out of core.")
     return dataclasses.replace(descriptives, groups=tuple(groups),
                                warnings=(*descriptives.warnings, note))
-
-
-def _concluded(plan: Plan, term: tuple[str, ...]) -> bool:
-    """Whether a term's test is a conclusion: terms of treatment and within factors only;
-    blocks and covariates adjust the model and are reported in its table."""
-    tested = {f.name for f in plan.treatments} | {f.name for f in plan.within_factors}
-    return set(term) <= tested
 
 
 def _model_table(plan: Plan, fit, scale: float = 1.0, stratum: str = "units") -> ModelTable:
@@ -429,9 +415,6 @@ def _diagnostics(plan: Plan, values: np.ndarray, cells: np.ndarray, cell_labels,
     outliers = studentized_screen(values, residuals, leverage, fit.residual_ss, fit.residual_df, units,
                                   [str(cell_labels[c]) for c in cells], settings.outliers.threshold)
     return Diagnostics(normality=normality, equal_variance=tuple(tests), outliers=outliers,
-                       assumptions=conclude.assumption_statuses(
-                           plan, normality, tests, within=within, qq_plot=True,
-                           welch_shown=plan.robust_absent is None),
                        within_normality=within)
 
 
@@ -781,12 +764,6 @@ def _repeated_outcome(plan, outcome, data, missing_by_cell, cell_labels):
     families, exploratory = _contrast_families(plan, outcome, fit=fit.between, complete=complete,
                                                occasion_fit=occasion_fit,
                                                occasion_residuals=occasion_residuals)
-    conclusions = tuple(conclude.with_caveat(
-        conclude.term_conclusion(plan, outcome, row, between.ss_type, between.residual_df),
-        conclude.slopes_caveat(slopes, plan.alpha))
-        for row in between.rows if _concluded(plan, row.term))
-    conclusions += tuple(conclude.term_conclusion(plan, outcome, row, table.ss_type, table.residual_df)
-                         for table in within_tables for row in table.rows if _concluded(plan, row.term))
     notes = tuple(fit.warnings)
     if complete.dropped:
         grid_words = (f"level of {within[0].label or within[0].name}" if len(within) == 1
@@ -801,7 +778,7 @@ def _repeated_outcome(plan, outcome, data, missing_by_cell, cell_labels):
         arithmetic="float64", descriptives=descriptives, tables=(between, *within_tables),
         marginal_means=(_marginal(plan, fit.between, over=over)
                         + _occasion_means(plan, complete, cell_labels)),
-        slopes=slopes, diagnostics=diagnostics, conclusions=conclusions,
+        slopes=slopes, diagnostics=diagnostics,
         robust_absent=plan.robust_absent, contrasts=families,
         covariate_slopes=_covariate_slopes(plan, fit.between), warnings=notes), exploratory, (), Residuals(
             outcome.name, _read_only(unit_means - residuals), _read_only(residuals), complete.groups,

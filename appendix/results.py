@@ -233,7 +233,7 @@ class Diagnostics:
     normality: NormalityTest | None
     equal_variance: tuple[VarianceTest, ...]
     outliers: OutlierScreen | None
-    assumptions: tuple[AssumptionStatus, ...]
+    assumptions: tuple[AssumptionStatus, ...] = ()
     within_normality: NormalityTest | None = None
 
 
@@ -650,7 +650,7 @@ class OutcomeResult:
     marginal_means: tuple[MarginalMeans, ...]
     slopes: tuple[SlopesCheck, ...]
     diagnostics: Diagnostics
-    conclusions: tuple[Conclusion, ...]
+    conclusions: tuple[Conclusion, ...] = ()
     robust: RobustTests | None = None
     robust_absent: str | None = None
     selected_method: str = "classical"

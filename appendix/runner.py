@@ -28,18 +28,26 @@ from appendix.results import (
 )
 
 
-def _with_hypothesis_conclusions(plan: Plan, result: OutcomeResult,
-                                 tested: tuple[RegisteredFamily, ...]) -> OutcomeResult:
+def _with_conclusions(plan: Plan, result: OutcomeResult,
+                      tested: tuple[RegisteredFamily, ...]) -> OutcomeResult:
+    """The outcome's results worded: the status of each assumption, one sentence per
+    tested term and one per registered hypothesis (under its family's record)."""
     plan = plan.for_outcome(result.name)
     outcome = next(o for o in plan.outcomes if o.name == result.name)
-    caveat = conclude.slopes_caveat(getattr(result, "slopes", ()), plan.alpha)
+    caveat = conclude.slopes_caveat(result.slopes, plan.alpha)
     records = {r.id: r for r in tested}
     sentences = tuple(
         conclude.with_caveat(conclude.hypothesis_conclusion(plan, outcome, h, family.multiplicity,
                                                             records.get(family.family)),
                              caveat if _between_units(plan, h) else "")
         for family in result.contrasts if family.registered for h in family.hypotheses)
-    return dataclasses.replace(result, hypothesis_conclusions=sentences)
+    found = result.diagnostics
+    statuses = conclude.assumption_statuses(plan, found.normality, found.equal_variance,
+                                            within=found.within_normality, qq_plot=True,
+                                            welch_shown=result.robust is not None)
+    return dataclasses.replace(result, diagnostics=dataclasses.replace(found, assumptions=statuses),
+                               conclusions=conclude.term_conclusions(plan, outcome, result),
+                               hypothesis_conclusions=sentences)
 
 
 def _between_units(plan: Plan, h) -> bool:
@@ -82,7 +90,7 @@ def study_analysis(loaded: LoadedPlan, dataset: Dataset, software: tuple[Softwar
                             [c.n for c in flows[outcome.name].missing], dataset.levels)
             for outcome in ordered]
     outcomes, tested = families.test_families(plan, tuple(result for result, _, _, _ in work))
-    outcomes = tuple(_with_hypothesis_conclusions(plan, o, tested) for o in outcomes)
+    outcomes = tuple(_with_conclusions(plan, o, tested) for o in outcomes)
     exploratory = _exploratory(plan, [found for _, found, _, _ in work])
     factor = plan.factor
     study = plan.study

@@ -49,14 +49,6 @@ ONLY_FROM = {
     "appendix.render": ("ground", "contract"),
 }
 
-#: Imports that still run back up a layer, each with the reason; to be removed, not added to.
-KNOWN_BACK_IMPORTS = {
-    # the engine words each term's conclusion while it assembles an outcome; moving that
-    # into the results stage (as the hypothesis sentences already are) removes this import
-    ("appendix.models", "appendix.conclude"),
-}
-
-
 def _modules() -> dict[str, Path]:
     found = {}
     for path in sorted(PACKAGE.rglob("*.py")):
@@ -115,14 +107,10 @@ def _back_imports() -> set[tuple[str, str]]:
 
 
 def test_every_module_imports_only_from_its_own_and_earlier_layers():
-    found = sorted(_back_imports() - KNOWN_BACK_IMPORTS)
+    found = sorted(_back_imports())
     named = [f"{a} ({LAYERS[layer_of(a)][0]}) imports {b} ({LAYERS[layer_of(b)][0]})"
              for a, b in found]
     assert named == []
-
-
-def test_every_known_back_import_still_exists():
-    assert KNOWN_BACK_IMPORTS <= _back_imports(), "remove the entries that were resolved"
 
 
 @pytest.mark.parametrize(("members", "allowed"), ONLY_FROM.items())

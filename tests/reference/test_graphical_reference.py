@@ -109,10 +109,10 @@ def test_two_primary_and_two_secondary_hypotheses() -> None:
     # The graph of Bretz et al. (2009) for two primary hypotheses H1, H2 (weight 1/2 each)
     # and two secondary ones H3, H4 (weight 0): H1 -> H3, H2 -> H4, H3 -> H2 and H4 -> H1,
     # each with weight 1, so that a secondary hypothesis is tested only after its primary
-    # one and passes its level on to the other primary (their Figure 6, from memory; the
-    # figure number is not checked). The p-values and adjusted p-values are those printed
-    # in the reference page of fadjpbon in the R package lrstat (Kaifeng Lu), example rows
-    # 1 and 2; they are checked by hand here too.
+    # one and passes its level on to the other primary (the paper's worked example of two
+    # primary and two secondary hypotheses, from memory; its figure number is not checked).
+    # The p-values are invented for this test and the expected adjusted p-values worked by
+    # hand with the paper's update rule (Algorithm 1), as written out below.
     weights = [0.5, 0.5, 0.0, 0.0]
     transitions = [[0, 0, 1, 0], [0, 0, 0, 1], [0, 1, 0, 0], [1, 0, 0, 0]]
     # Row 1 by hand: p/w = (.02, .01, inf, inf): H2 first (.01), H4 gets 1/2 and H3 now
