@@ -24,7 +24,7 @@ from appendix.deviations import unacknowledged as _unacknowledged
 from appendix.errors import UserError
 from appendix.plan.load import LoadedPlan, load_plan
 from appendix.plan.lock import Lock, LockOutcome, lock_path, lock_plan, read_lock
-from appendix.results import Deviation, StudyResults, to_json, to_plain
+from appendix.results import Deviation, StudyResults, to_json
 from appendix.runner import Residuals, study_analysis
 from appendix.versions import software_versions
 
@@ -133,13 +133,14 @@ def check(study: str | Path) -> list[str]:
 
 
 def render(computed: Computed, options=None) -> Rendered:
-    """Figures and HTML from the results; rendering sees only results.json and figures."""
+    """Figures and HTML from the results; rendering sees only the typed results (what
+    results.json holds) and the figures."""
     from appendix import figures, render as html
 
     options = options or html.RenderOptions()
     text = to_json(computed.results)
     svgs = figures.make_figures(computed.dataset, computed.results, computed.residuals)
-    page = html.render_html(to_plain(computed.results), svgs, options)
+    page = html.render_html(computed.results, svgs, options)
     return Rendered(results_json=text, figures=svgs, html=page)
 
 

@@ -1,8 +1,8 @@
 """Method descriptions and references for the appendix's methods section, as typed data.
 
 Each `Method` names a published procedure, says in a sentence or two what was computed,
-and lists the keys of its references. `methods_used` picks the methods that the results
-say were run, so that the section never describes an analysis that did not happen.
+and lists the keys of its references. `methods_used` picks the methods that the typed results
+(`appendix.results.StudyResults`) say were run, so that the section never describes an analysis that did not happen.
 References are stored in parts so that the template can set them in APA 7 style; the
 bibliographic details were written from memory and are worth a check against the
 publishers' records before a release.
@@ -16,7 +16,9 @@ import unicodedata
 from collections.abc import Mapping
 from dataclasses import dataclass
 from types import MappingProxyType
-from typing import Any
+
+from appendix.results import (ContrastFamily, ModelTable, OutcomeResult, RegisteredFamily,
+                              StudyResults)
 
 
 @dataclass(frozen=True)
@@ -603,14 +605,14 @@ METHODS: Mapping[str, Method] = MappingProxyType({m.key: m for m in (
 )})
 
 
-def _ran(outcomes: list[dict[str, Any]], test) -> bool:
+def _ran(outcomes: list[OutcomeResult], test) -> bool:
     return any(test(o) for o in outcomes)
 
 
-def all_families(results: Mapping[str, Any]) -> list[dict[str, Any]]:
+def all_families(results: StudyResults) -> list[ContrastFamily]:
     """Every contrast family of the run: each outcome's, then each exploratory analysis's."""
-    return ([f for o in results["outcomes"] for f in o.get("contrasts", ())]
-            + [f for e in results.get("exploratory", ()) for f in e["families"]])
+    return ([f for o in results.outcomes for f in o.contrasts]
+            + [f for e in results.exploratory for f in e.families])
 
 
 _CONTRAST_METHODS = MappingProxyType({
@@ -690,9 +692,9 @@ def adjustment(multiplicity: str, method: str) -> Adjustment:
     return ADJUSTMENTS[key]
 
 
-def multiplicity_method(family: Mapping[str, Any]) -> str:
+def multiplicity_method(family: ContrastFamily) -> str:
     """The `METHODS` key of a family's multiplicity control (Tukey under Welch: Games-Howell)."""
-    return adjustment(family["multiplicity"], family["method"]).key
+    return adjustment(family.multiplicity, family.method).key
 
 
 #: What each method's intervals are, and why, for the table note: (kind, sentence).
@@ -743,14 +745,14 @@ def interval_note(method: str, m: int, tested: bool = True) -> tuple[str, str]:
     return kind, sentence.format(m=m)
 
 
-def _contrast_methods(results: Mapping[str, Any]) -> list[str]:
-    families = [f for f in all_families(results) if f["hypotheses"]]
-    hypotheses = [h for f in families for h in f["hypotheses"]]
-    used = {_CONTRAST_METHODS.get(f["method"]) for f in families}
-    used |= {h["kind"] for h in hypotheses} | {multiplicity_method(f) for f in families}
-    if any(h["standardized"] is not None for h in hypotheses):
+def _contrast_methods(results: StudyResults) -> list[str]:
+    families = [f for f in all_families(results) if f.hypotheses]
+    hypotheses = [h for f in families for h in f.hypotheses]
+    used = {_CONTRAST_METHODS.get(f.method) for f in families}
+    used |= {h.kind for h in hypotheses} | {multiplicity_method(f) for f in families}
+    if any(h.standardized is not None for h in hypotheses):
         used.add("hedges")
-    if any(h["alternative"] != "two-sided" for h in hypotheses):
+    if any(h.alternative != "two-sided" for h in hypotheses):
         used.add("one-sided")
     return [key for key in _CONTRAST_ORDER if key in used]
 
@@ -762,95 +764,95 @@ _CONTRAST_ORDER = (
     "fixed-sequence", "graphical", "unadjusted", "hedges", "one-sided")
 
 
-def methods_used(results: Mapping[str, Any]) -> tuple[Method, ...]:
-    """The methods that `results` (parsed results.json) show were run, in appendix order:
-    each block is chosen by what some outcome's results hold, whatever its design."""
-    outcomes = list(results["outcomes"])
-    one_factor = [o for o in outcomes if o.get("robust")]
-    beyond = [o for o in outcomes if not o.get("robust")]
-    diagnostics = [o["diagnostics"] for o in outcomes]
-    variance_methods = {t["method"] for d in diagnostics for t in d["equal_variance"]}
+def methods_used(results: StudyResults) -> tuple[Method, ...]:
+    """The methods that `results` show were run, in appendix order: each block is chosen
+    by what some outcome's results hold, whatever its design."""
+    outcomes = list(results.outcomes)
+    one_factor = [o for o in outcomes if o.robust]
+    beyond = [o for o in outcomes if not o.robust]
+    diagnostics = [o.diagnostics for o in outcomes]
+    variance_methods = {t.method for d in diagnostics for t in d.equal_variance}
     chosen = ["descriptives"] if one_factor else []
     chosen += ["model-descriptives"] if beyond else []
     chosen += ["anova"] if one_factor else []
-    chosen += ["linear-model"] if _ran(beyond, lambda o: o["marginal_means"] or not _strata(o)) else []
-    chosen += ["marginal-means"] if _ran(beyond, lambda o: o["marginal_means"]) else []
-    chosen += ["simple-effects"] if any(h.get("within") for f in all_families(results)
-                                        for h in f["hypotheses"]) else []
-    chosen += ["slopes"] if _ran(outcomes, lambda o: any(c["by"] for c in o["slopes"])) else []
+    chosen += ["linear-model"] if _ran(beyond, lambda o: o.marginal_means or not _strata(o)) else []
+    chosen += ["marginal-means"] if _ran(beyond, lambda o: o.marginal_means) else []
+    chosen += ["simple-effects"] if any(h.within for f in all_families(results)
+                                        for h in f.hypotheses) else []
+    chosen += ["slopes"] if _ran(outcomes, lambda o: any(c.by for c in o.slopes)) else []
     chosen += ["covariates-per-outcome"] if len(_covariate_sets(outcomes)) > 1 else []
     if _ran(outcomes, _strata):
         # a lower bound 1/d of 1 in every stratum: single contrasts, no correction anywhere
-        two_levels = all(t["sphericity"]["lower_bound"] >= 1 for o in outcomes for t in _strata(o))
+        two_levels = all(t.sphericity.lower_bound >= 1 for o in outcomes for t in _strata(o))
         chosen.append("repeated-two-levels" if two_levels else "repeated")
         chosen += ["within-strata"] if _ran(outcomes, lambda o: len(_strata(o)) > 1) else []
-    chosen += ["welch"] if _ran(one_factor, lambda o: o["robust"]["welch"]["statistic"] is not None) else []
-    chosen += ["kruskal"] if _ran(one_factor, lambda o: o["robust"]["kruskal"]["statistic"] is not None) else []
+    chosen += ["welch"] if _ran(one_factor, lambda o: o.robust.welch.statistic is not None) else []
+    chosen += ["kruskal"] if _ran(one_factor, lambda o: o.robust.kruskal.statistic is not None) else []
     chosen += ["effect_sizes"] if _ran(outcomes, lambda o: any(
-        r["partial_eta_squared"] is not None for t in o["tables"] for r in t["rows"])) else []
-    chosen += ["shapiro"] if _ran(one_factor, lambda o: o["diagnostics"]["normality"]) else []
-    if _ran(beyond, lambda o: o["diagnostics"]["normality"]):
-        strata = _ran(beyond, lambda o: o["diagnostics"].get("within_normality"))
+        r.partial_eta_squared is not None for t in o.tables for r in t.rows)) else []
+    chosen += ["shapiro"] if _ran(one_factor, lambda o: o.diagnostics.normality) else []
+    if _ran(beyond, lambda o: o.diagnostics.normality):
+        strata = _ran(beyond, lambda o: o.diagnostics.within_normality)
         chosen.append("shapiro-strata" if strata else "shapiro-model")
     chosen += [m for m in ("brown-forsythe", "bartlett") if m in variance_methods]
-    chosen += ["outliers"] if any(d["outliers"] for d in diagnostics) else []
-    arithmetic = {o.get("arithmetic", "float64") for o in outcomes}
+    chosen += ["outliers"] if any(d.outliers for d in diagnostics) else []
+    arithmetic = {o.arithmetic for o in outcomes}
     chosen += [m for m in ("exact-decimal", "float64") if m in arithmetic]
-    chosen += ["subsample"] if _ran(outcomes, lambda o: o.get("sample_of")) else []
+    chosen += ["subsample"] if _ran(outcomes, lambda o: o.sample_of) else []
     chosen += _contrast_methods(results)
-    declared = [f for f in results.get("families", ()) if f["scope"] == "declared"]
+    declared = [f for f in results.families if f.scope == "declared"]
     extra = [_families_method(declared)] if declared else []
-    if any(f["gate"] for f in declared):
+    if any(f.gate for f in declared):
         extra.append(METHODS["serial-gatekeeping"])
     # with a registered fallback the diagnostics can choose the analysis: say so instead
-    chosen += ["contingency"] if _ran(outcomes, lambda o: o.get("contingencies")) else ["pretest"]
+    chosen += ["contingency"] if _ran(outcomes, lambda o: o.contingencies) else ["pretest"]
     chosen += ["reporting"]
-    defaults = {s["key"] for s in results.get("plan_settings", ()) if not s["stated"]}
+    defaults = {s.key for s in results.plan_settings if not s.stated}
     listed = [_as_stated(METHODS[key], defaults) if key in METHODS
               else _per_outcome_covariates(outcomes) for key in chosen]
     # the families after the contrast methods, before the contingency (or pretest) and reporting
     return tuple(listed[:-2] + extra + listed[-2:])
 
 
-def _strata(outcome) -> list:
+def _strata(outcome: OutcomeResult) -> list[ModelTable]:
     """The within strata's tables of an outcome (none without a within factor)."""
-    return [t for t in outcome["tables"] if t.get("sphericity")]
+    return [t for t in outcome.tables if t.sphericity]
 
 
-def _covariate_sets(outcomes) -> set[tuple[str, ...]]:
-    return {tuple(c["label"] for c in o["covariate_slopes"]) for o in outcomes}
+def _covariate_sets(outcomes: list[OutcomeResult]) -> set[tuple[str, ...]]:
+    return {tuple(c.label for c in o.covariate_slopes) for o in outcomes}
 
 
-def _per_outcome_covariates(outcomes) -> Method:
+def _per_outcome_covariates(outcomes: list[OutcomeResult]) -> Method:
     """Which covariates adjust which outcome, when they differ between outcomes."""
-    def adjusted(o) -> str:
-        labels = [c["label"] for c in o["covariate_slopes"]]
+    def adjusted(o: OutcomeResult) -> str:
+        labels = [c.label for c in o.covariate_slopes]
         if not labels:
-            return f"{o['label']} is adjusted for no covariate"
+            return f"{o.label} is adjusted for no covariate"
         listed = ", ".join(labels[:-1]) + (" and " if len(labels) > 1 else "") + labels[-1]
-        return f"{o['label']} is adjusted for {listed}"
+        return f"{o.label} is adjusted for {listed}"
 
     return Method("covariates-per-outcome", "Covariates by outcome",
                   "Each outcome is adjusted only for the covariates the plan registers for it: "
                   + "; ".join(adjusted(o) for o in outcomes) + ".", ())
 
 
-def _families_method(declared: list[Mapping[str, Any]]) -> Method:
+def _families_method(declared: list[RegisteredFamily]) -> Method:
     """The registered families of a plan that declares them, each with its method, members
     and place in the gatekeeping sequence, in one paragraph."""
     parts = []
     for f in declared:
-        outcomes = list(dict.fromkeys(m["outcome"] for m in f["members"]))
-        name = ADJUSTMENTS[_FAMILY_KEYS.get(f["method"], f["method"])].name
+        outcomes = list(dict.fromkeys(m.outcome for m in f.members))
+        name = ADJUSTMENTS[_FAMILY_KEYS.get(f.method, f.method)].name
         where = ", ".join(outcomes[:-1]) + (" and " if len(outcomes) > 1 else "") + outcomes[-1]
-        text = (f"family {f['id']}{' (' + f['label'] + ')' if f['label'] else ''}: "
-                f"{f['hypotheses']} hypothes{'is' if f['hypotheses'] == 1 else 'es'} on {where}, "
+        text = (f"family {f.id}{' (' + f.label + ')' if f.label else ''}: "
+                f"{f.hypotheses} hypothes{'is' if f.hypotheses == 1 else 'es'} on {where}, "
                 f"{name}")
-        if f["gate"]:
-            text += f", tested only after every hypothesis of family {f['gate']['after']} is rejected"
+        if f.gate:
+            text += f", tested only after every hypothesis of family {f.gate.after} is rejected"
         parts.append(text)
-    chained = {f["id"] for f in declared if f["gate"]} | {f["gate"]["after"] for f in declared if f["gate"]}
-    alone = [f["id"] for f in declared if f["id"] not in chained]
+    chained = {f.id for f in declared if f.gate} | {f.gate.after for f in declared if f.gate}
+    alone = [f.id for f in declared if f.id not in chained]
     apart = ("" if len(declared) < 2 or not alone else
              f" {'Family ' + alone[0] + ' is' if len(alone) == 1 else 'Families ' + ', '.join(alone) + ' are'}"
              " tested apart from the others, so the family-wise error rate is controlled within "

@@ -1,6 +1,8 @@
 """The appendix as one self-contained HTML file, and that file as a PDF.
 
-`render_html` reads only the parsed results.json and the figures' SVG text; a fresh
+`render_html` reads only the typed results (`appendix.results.StudyResults`, what
+results.json holds) and the figures' SVG text; the templates read their attributes, and
+what a template needs derived from them is computed by the small functions below. A fresh
 Jinja2 environment is made per call (autoescape on, undefined names are errors) with the
 number filters of `appendix.numbers`, configured by `RenderOptions`; only the compiled
 template code is kept between calls (`_CompiledTemplates`). `render_pdf` hands
@@ -36,6 +38,8 @@ from markupsafe import Markup
 from appendix import numbers
 from appendix.figure_spec import FIGURE_KINDS, PLOT_POINTS
 from appendix.methods import adjustment, methods_used, references_for
+from appendix.results import (Diagnostics, HypothesisResult, LevelCount, ModelRow, ModelTable,
+                              OutcomeResult, StatWarning, StudyResults)
 
 PAPER_SIZES = ("A4", "Letter")
 
@@ -98,7 +102,7 @@ def _filters(options: RenderOptions) -> dict[str, Any]:
         "alpha": _alpha,
         "column_decimals": column_decimals,
         "sentence": lambda conclusion: numbers.write_parts(
-            conclusion["parts"], statistic_decimals=options.statistic_decimals,
+            conclusion.parts, statistic_decimals=options.statistic_decimals,
             effect_decimals=options.effect_decimals,
             estimate_decimals=2 if options.decimals is None else options.decimals),
         "short_hash": lambda digest: digest[:12],
@@ -106,8 +110,10 @@ def _filters(options: RenderOptions) -> dict[str, Any]:
         "upper_first": _upper_first,
         "contrast_interval": _contrast_interval,
         "error_bound": _error_bound,
-        "adjustment": lambda family: adjustment(family["multiplicity"], family["method"]),
+        "adjustment": lambda family: adjustment(family.multiplicity, family.method),
         "words_list": _words_list,
+        "word": _word,
+        "squared_unit": _squared_unit,
     }
 
 
@@ -118,7 +124,7 @@ def _words_list(names) -> str:
 
 
 #: Words the templates show for the results' stable identifiers.
-WORDS: Mapping[str, Mapping[str, str]] = MappingProxyType({
+WORDS: Mapping[str, Mapping[Any, str]] = MappingProxyType({
     "analyses": MappingProxyType({
         "classical": "classical (pooled variance)", "welch": "Welch (unequal variances)",
         "rank-based": "rank-based (Dunn)", "marginal-means": "estimated marginal means"}),
@@ -170,7 +176,30 @@ WORDS: Mapping[str, Mapping[str, str]] = MappingProxyType({
     "tests": MappingProxyType({
         "brown-forsythe": "Brown\u2013Forsythe", "bartlett": "Bartlett",
         "shapiro-wilk": "Shapiro\u2013Wilk"}),
-    "deviations": MappingProxyType({"registered-contingency": "Registered contingency applied"}),
+    "deviations": MappingProxyType({  # keys of Deviation.kind
+        "registered-contingency": "Registered contingency applied",
+        "plan-not-registered": "Plan not registered",
+        "plan-changed": "Plan changed since registration",
+        "outcome-added": "Outcome added",
+        "outcome-removed": "Outcome removed",
+        "outcome-role-switched": "Outcome switched between primary and secondary",
+        "below-planned-n": "Fewer units than planned",
+        "level-without-units": "Level without units",
+        "missing-above-limit": "Missing data above the registered limit",
+        "acknowledgement-unmatched": "Acknowledgement matches no deviation"}),
+    "input_roles": MappingProxyType({  # keys of InputFile.role
+        "study": "Study file", "data": "Data file", "lock": "Registration lock"}),
+    "factor_roles": MappingProxyType({  # keys of FactorInfo.role
+        "treatment": "Treatment factor", "block": "Block factor", "within": "Within-unit factor"}),
+    "sums_of_squares": MappingProxyType({  # values of ModelTable.ss_type
+        1: "type 1 (sequential, in the order listed)",
+        2: "type 2 (each term adjusted for every term that does not contain it)",
+        3: "type 3 (each term adjusted for all others, sum-to-zero coding)"}),
+    "variance_symbols": MappingProxyType({  # keys of VarianceTest.method: its statistic
+        "brown-forsythe": "F", "bartlett": "\u03c7\u00b2"}),
+    "bases": MappingProxyType({  # keys of AssumptionStatus.basis
+        "checked": "Checked", "attested": "Attested by the plan", "not-attested": "Not attested",
+        "by-construction": "By construction"}),
     "settings": MappingProxyType({  # keys of PlanSetting.key; an unlisted key is shown as is
         "alpha": "Significance level α",
         "design.sums_of_squares": "Type of sums of squares",
@@ -185,14 +214,81 @@ WORDS: Mapping[str, Mapping[str, str]] = MappingProxyType({
 })
 
 
-def _contrast_interval(h: Mapping[str, Any], decimals: int) -> str:
+_AS_IS = object()
+
+
+def _word(key: Any, group: str, default: Any = _AS_IS) -> Any:
+    """The words `WORDS[group]` gives a stable identifier; an unlisted one is shown as it
+    is, or as `default` when one is given."""
+    return WORDS[group].get(key, key if default is _AS_IS else default)
+
+
+#: A unit's square where its last symbol is already a power: mm² squared is mm⁴.
+_SQUARED_POWERS = MappingProxyType({"\u00b2": "\u2074", "\u00b3": "\u2076"})
+
+
+def _squared_unit(unit: str | None) -> str | None:
+    """The unit of a sum of squares: ``mg²``, ``%²``, ``mm⁴`` for mm², and ``(mg/L)²``
+    where the unit is several symbols; None without a unit."""
+    if not unit:
+        return None
+    if unit[-1] in _SQUARED_POWERS:
+        return unit[:-1] + _SQUARED_POWERS[unit[-1]]
+    if any(mark in unit for mark in (" ", "/", "\u00b7")):
+        return f"({unit})\u00b2"
+    return unit + "\u00b2"
+
+
+def _covariate_use(outcomes: Sequence[OutcomeResult]) -> list[tuple[str, list[str]]]:
+    """Each covariate (by label, in order of first use) with the labels of the outcomes
+    it adjusts."""
+    adjusted: dict[str, list[str]] = {}
+    for o in outcomes:
+        for c in o.covariate_slopes:
+            adjusted.setdefault(c.label, []).append(o.label)
+    return list(adjusted.items())
+
+
+def _sums_of_squares_table(outcomes: Sequence[OutcomeResult]) -> ModelTable | None:
+    """The first between-units table of several terms, whose sums-of-squares type the
+    cover states (with one term every type gives the same table); None without one."""
+    return next((t for o in outcomes for t in o.tables if len(t.rows) > 1 and not t.within),
+                None)
+
+
+def _first_treatment_factor(results: StudyResults) -> str | None:
+    """The name of the first treatment factor, None in a design without one."""
+    return next((f.name for f in results.factors if f.role == "treatment"), None)
+
+
+def _first_treatment_row(outcome: OutcomeResult, factor: str | None) -> ModelRow | None:
+    """The row of `factor`'s own term in the outcome's first variance table (the F test
+    the reference-F figure and the one-way table note speak of); None without it."""
+    if factor is None or not outcome.tables:
+        return None
+    return next((row for row in outcome.tables[0].rows if row.term == (factor,)), None)
+
+
+def _registered_hypotheses(outcome: OutcomeResult) -> list[HypothesisResult]:
+    """The hypotheses of the outcome's registered families, family by family in plan order
+    (what the forest plot draws)."""
+    return [h for f in outcome.contrasts if f.registered for h in f.hypotheses]
+
+
+def _diagnostic_warnings(diagnostics: Diagnostics) -> list[StatWarning]:
+    """The warnings of the normality and equal-variance tests, in the order of their table."""
+    tests = [t for t in (diagnostics.normality, diagnostics.within_normality) if t is not None]
+    return [w for t in (*tests, *diagnostics.equal_variance) for w in t.warnings]
+
+
+def _contrast_interval(h: HypothesisResult, decimals: int) -> str:
     """A contrast's CI in brackets; a one-sided interval's open end is written as infinity."""
-    low, high = h["ci_low"], h["ci_high"]
+    low, high = h.ci_low, h.ci_high
     if low is None and high is None:
         return numbers.DASH
-    left = numbers.MINUS + "\u221e" if low is None and h["alternative"] == "less" else \
+    left = numbers.MINUS + "\u221e" if low is None and h.alternative == "less" else \
         numbers.fixed(low, decimals)
-    right = "\u221e" if high is None and h["alternative"] == "greater" else \
+    right = "\u221e" if high is None and h.alternative == "greater" else \
         numbers.fixed(high, decimals)
     return f"[{left}, {right}]"
 
@@ -223,9 +319,9 @@ def _upper_first(text: str) -> str:
     return text[:1].upper() + text[1:]
 
 
-def _level_counts(items: list[Mapping[str, Any]], levels: list[str]) -> list[int]:
+def _level_counts(items: Sequence[LevelCount], levels: list[str]) -> list[int]:
     """Counts in registered level order; a level absent from `items` counts zero."""
-    by_level = {item["level"]: item["n"] for item in items}
+    by_level = {item.level: item.n for item in items}
     return [by_level.get(level, 0) for level in levels]
 
 
@@ -252,23 +348,23 @@ class _Numbering:
         return self._numbers.setdefault(key, len(self._numbers) + 1)
 
 
-def _data_checksum(results: Mapping[str, Any]) -> str:
+def _data_checksum(results: StudyResults) -> str:
     """SHA-256 of the data file (role ``data``, else the first input) for the header."""
-    inputs = list(results["inputs"])
-    data = [i for i in inputs if i["role"] == "data"] or inputs
-    return data[0]["sha256"] if data else ""
+    inputs = list(results.inputs)
+    data = [i for i in inputs if i.role == "data"] or inputs
+    return data[0].sha256 if data else ""
 
 
-def _tool_version(results: Mapping[str, Any]) -> str:
-    for item in results["software"]:
-        if item["name"] == "appendix":
-            return item["version"]
+def _tool_version(results: StudyResults) -> str:
+    for item in results.software:
+        if item.name == "appendix":
+            return item.version
     return "unknown"
 
 
-def _ordered_outcomes(results: Mapping[str, Any]) -> list[dict[str, Any]]:
+def _ordered_outcomes(results: StudyResults) -> list[OutcomeResult]:
     """Outcomes with the primary ones first, otherwise in registered order."""
-    return sorted(results["outcomes"], key=lambda o: o["role"] != "primary")
+    return sorted(results.outcomes, key=lambda o: o.role != "primary")
 
 
 class _CompiledTemplates(jinja2.BytecodeCache):
@@ -297,8 +393,9 @@ class _CompiledTemplates(jinja2.BytecodeCache):
 _COMPILED = _CompiledTemplates()
 
 
-def render_html(results: dict, figures: dict[str, str], options: RenderOptions) -> str:
-    """The appendix as one self-contained HTML document (inline CSS and SVG, no scripts)."""
+def render_html(results: StudyResults, figures: dict[str, str], options: RenderOptions) -> str:
+    """The appendix as one self-contained HTML document (inline CSS and SVG, no scripts)
+    of the typed `results`."""
     root = template_root()
     env = jinja2.Environment(
         loader=jinja2.FileSystemLoader(str(root)),
@@ -312,15 +409,21 @@ def render_html(results: dict, figures: dict[str, str], options: RenderOptions) 
     )
     env.filters.update(_filters(options))
     methods = methods_used(results)
+    records = {f.id: f for f in results.families}
     return env.get_template("appendix.html.j2").render(
         r=results,
-        families={f["id"]: f for f in results.get("families", ())},
         outcomes=_ordered_outcomes(results),
         figures={key: _inline_svg(svg) for key, svg in figures.items()},
         figure_kinds=FIGURE_KINDS,
         plot_points=PLOT_POINTS,
-        words=WORDS,
         options=options,
+        family_record=lambda family: records.get(family.family) if family.family else None,
+        covariate_use=_covariate_use,
+        sums_of_squares_table=_sums_of_squares_table,
+        first_treatment_factor=_first_treatment_factor,
+        first_treatment_row=_first_treatment_row,
+        registered_hypotheses=_registered_hypotheses,
+        diagnostic_warnings=_diagnostic_warnings,
         methods=methods,
         references=references_for(methods),
         data_sha256=_data_checksum(results),

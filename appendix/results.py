@@ -850,7 +850,7 @@ def to_json(results: StudyResults) -> str:
 
 
 def to_plain(results: Any) -> Any:
-    """The same JSON-ready structure `to_json` writes, for rendering without a file."""
+    """The same JSON-ready structure `to_json` writes (dicts, lists and plain values)."""
     return json.loads(json.dumps(_plain(results), allow_nan=False))
 
 

@@ -43,7 +43,7 @@ GROUND_FLOOR = ("appendix.names", "appendix.hashing", "appendix.staging", "appen
 
 #: Modules that are handed plain values and reach no earlier stage than these layers: the
 #: numeric core reads arrays (never the plan or a data-stage type), the renderer reads the
-#: plain results and figures already drawn (never the engine, stats or figure code).
+#: typed results and figures already drawn (never the engine, stats or figure code).
 ONLY_FROM = {
     "appendix.stats.*": ("ground", "contract", "stats"),
     "appendix.render": ("ground", "contract"),

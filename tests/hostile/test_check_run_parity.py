@@ -26,7 +26,7 @@ from appendix.errors import PlanError
 from appendix.plan.load import load_plan
 from appendix.records import records_text
 from appendix.render import RenderOptions, render_html
-from appendix.results import to_json, to_plain
+from appendix.results import to_json
 from tests.hostile.valid_plans import Case, cases
 
 PARITY = dict(deadline=None, derandomize=True, database=None,
@@ -77,7 +77,7 @@ def test_every_checked_plan_is_analysed_and_rendered(folder: Path, case: Case):
     computed = api.compute(folder / "study.yaml")  # any exception fails the test
     text = to_json(computed.results)
     records_text(computed.loaded, computed.dataset)
-    html = render_html(to_plain(computed.results), {}, RenderOptions())
+    html = render_html(computed.results, {}, RenderOptions())
     assert text.startswith("{") and html.startswith("<!DOCTYPE html>")
 
 
@@ -95,7 +95,7 @@ def test_every_checked_family_plan_is_analysed_and_rendered(folder: Path, case: 
     assert [f.id for f in results.families] == [f["id"] for f in declared]
     assert sum(f.hypotheses for f in results.families) == sum(
         len(h.hypotheses) for o in results.outcomes for h in o.contrasts if h.registered)
-    html = render_html(to_plain(results), {}, RenderOptions())
+    html = render_html(results, {}, RenderOptions())
     assert to_json(results).startswith("{") and html.startswith("<!DOCTYPE html>")
 
 
@@ -185,7 +185,7 @@ def test_repeated_measures_with_no_complete_unit(tmp_path):
     assert model.n_units == 0
     assert [row.statistic for table in model.tables for row in table.rows] == [None]
     assert "no-residual-df" in [w.code for w in model.tables[0].warnings]
-    assert render_html(to_plain(computed.results), {}, RenderOptions())
+    assert render_html(computed.results, {}, RenderOptions())
 
 
 @pytest.mark.filterwarnings("error::RuntimeWarning")
@@ -240,5 +240,5 @@ def test_covariate_in_a_design_without_treatment_factor(tmp_path):
     (slope,) = model.covariate_slopes
     means = [sum(r) / 3 for r in values.values()]
     assert slope.estimate == pytest.approx(np.polyfit(list(base.values()), means, 1)[0], rel=1e-10)
-    html = render_html(to_plain(computed.results), {}, RenderOptions())
+    html = render_html(computed.results, {}, RenderOptions())
     assert "Covariate Baseline: not computed." in html

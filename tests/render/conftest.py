@@ -15,7 +15,6 @@ warning. E1 is an exploratory pairwise analysis.
 
 from __future__ import annotations
 
-import copy
 import dataclasses
 
 import numpy as np
@@ -28,7 +27,7 @@ from appendix.data.dataset import Dataset, OutcomeData, frozen_array
 from appendix.figures import make_figures
 from appendix.models import Residuals
 from appendix.render import RenderOptions, render_html
-from render_helpers import parse
+from render_helpers import changed, parse
 
 LEVELS = ("placebo", "low dose", "high dose")
 PER_GROUP = 8
@@ -368,11 +367,6 @@ def study_results() -> R.StudyResults:
 
 
 @pytest.fixture(scope="session")
-def plain_results(study_results) -> dict:
-    return R.to_plain(study_results)
-
-
-@pytest.fixture(scope="session")
 def residuals(dataset) -> dict[str, Residuals]:
     return build_residuals(dataset)
 
@@ -383,9 +377,9 @@ def figures(dataset, study_results, residuals) -> dict[str, str]:
 
 
 @pytest.fixture(scope="session")
-def html(plain_results, figures) -> str:
+def html(study_results, figures) -> str:
     """The fixture's appendix HTML with default options."""
-    return render_html(plain_results, figures, RenderOptions())
+    return render_html(study_results, figures, RenderOptions())
 
 
 @pytest.fixture(scope="session")
@@ -394,10 +388,8 @@ def page(html):
 
 
 @pytest.fixture()
-def hostile_results(plain_results) -> dict:
-    """Plain results whose plan and data strings try to inject markup."""
-    hostile = copy.deepcopy(plain_results)
-    hostile["study"]["title"] = "<script>alert(1)</script>"
-    hostile["outcomes"][1]["label"] = "<b onmouseover=alert(2)>x</b>"
-    hostile["unit_flow"]["exclusions"][0]["reason"] = "<img src=x onerror=alert(3)>"
-    return hostile
+def hostile_results(study_results) -> R.StudyResults:
+    """Results whose plan and data strings try to inject markup."""
+    hostile = changed(study_results, "study", title="<script>alert(1)</script>")
+    hostile = changed(hostile, "outcomes[1]", label="<b onmouseover=alert(2)>x</b>")
+    return changed(hostile, "unit_flow.exclusions[0]", reason="<img src=x onerror=alert(3)>")

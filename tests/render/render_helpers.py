@@ -1,7 +1,10 @@
-"""Small HTML inspection helpers for the render tests (standard library parser only)."""
+"""Small HTML inspection helpers for the render tests (standard library parser only), and
+changed copies of the frozen results they render."""
 
 from __future__ import annotations
 
+import dataclasses
+import re
 from dataclasses import dataclass, field
 from html.parser import HTMLParser
 
@@ -79,3 +82,53 @@ def journal_tables(page: Page) -> dict[str, list[tuple[str | None, list[str]]]]:
                 rows[-1][1].append(squash(inner.text))
         tables[title] = rows
     return tables
+
+
+_STEP = re.compile(r"\.?([A-Za-z_]\w*)|\[(\d+)\]")
+
+
+def _steps(path: str) -> list[str | int]:
+    steps, at = [], 0
+    while at < len(path):
+        match = _STEP.match(path, at)
+        assert match, f"bad path {path!r} at {at}"
+        steps.append(match.group(1) if match.group(1) else int(match.group(2)))
+        at = match.end()
+    return steps
+
+
+def at(value, path: str):
+    """The object at `path` of frozen results (``outcomes[1].contrasts[0]``)."""
+    for step in _steps(path):
+        value = value[step] if isinstance(step, int) else getattr(value, step)
+    return value
+
+
+def changed(value, path: str, **fields):
+    """`value` (frozen results) with the object at `path` (``outcomes[1].tables[0]``, or
+    ``""`` for `value` itself) replaced by a copy with `fields` changed; nothing else moves."""
+    def down(node, steps):
+        if not steps:
+            return dataclasses.replace(node, **fields)
+        step, *rest = steps
+        if isinstance(step, int):
+            items = list(node)
+            items[step] = down(items[step], rest)
+            return tuple(items)
+        return dataclasses.replace(node, **{step: down(getattr(node, step), rest)})
+
+    return down(value, _steps(path))
+
+
+def floats_to_none(value, keep, path: str = ""):
+    """`value` (frozen results) with every float replaced by None where `keep(path)` is
+    false (paths as `changed` reads them)."""
+    if dataclasses.is_dataclass(value):
+        return dataclasses.replace(value, **{
+            f.name: floats_to_none(getattr(value, f.name), keep, f"{path}.{f.name}")
+            for f in dataclasses.fields(value) if f.init})
+    if isinstance(value, tuple):
+        return tuple(floats_to_none(v, keep, f"{path}[{i}]") for i, v in enumerate(value))
+    if isinstance(value, float) and not keep(path):
+        return None
+    return value

@@ -31,8 +31,8 @@ def _need_browser() -> None:
 
 
 @pytest.fixture(scope="module")
-def page_url(dataset, study_results, plain_results, residuals, tmp_path_factory) -> str:
-    html = render_html(plain_results, make_figures(dataset, study_results, residuals),
+def page_url(dataset, study_results, residuals, tmp_path_factory) -> str:
+    html = render_html(study_results, make_figures(dataset, study_results, residuals),
                        RenderOptions())
     path = tmp_path_factory.mktemp("browser") / "appendix.html"
     path.write_text(html, encoding="utf-8")

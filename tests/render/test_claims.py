@@ -16,7 +16,7 @@ from pathlib import Path
 import pytest
 
 from appendix import api
-from appendix.results import to_plain
+from appendix.results import StudyResults
 
 STUDIES = Path(__file__).resolve().parents[2] / "studies"
 
@@ -32,12 +32,12 @@ def _defaulted_greenhouse(folder: Path) -> Path:
 
 
 @pytest.fixture(scope="module")
-def rendered(tmp_path_factory, computed_demos) -> dict[str, tuple[dict, str]]:
-    """Name -> (results as plain data, HTML) of each rendered study."""
+def rendered(tmp_path_factory, computed_demos) -> dict[str, tuple[StudyResults, str]]:
+    """Name -> (results, HTML) of each rendered study."""
     computed = dict(computed_demos)
     computed["greenhouse-defaulted"] = api.compute(
         _defaulted_greenhouse(tmp_path_factory.mktemp("g") / "g"))
-    return {name: (to_plain(c.results), api.render(c).html) for name, c in computed.items()}
+    return {name: (c.results, api.render(c).html) for name, c in computed.items()}
 
 
 def _sections(html: str) -> dict[str, str]:
@@ -55,36 +55,36 @@ CASES = ("seed-coating", "greenhouse-split", "wound-dose", "greenhouse-defaulted
 def test_each_claim_of_an_outcome_has_its_object(rendered, name):
     results, html = rendered[name]
     sections = _sections(html)
-    assert set(sections) == {o["name"] for o in results["outcomes"]}
-    for outcome in results["outcomes"]:
-        page = sections[outcome["name"]]
-        key = outcome["name"]
+    assert set(sections) == {o.name for o in results.outcomes}
+    for outcome in results.outcomes:
+        page = sections[outcome.name]
+        key = outcome.name
         if "Welch's test is shown alongside" in page:
-            assert outcome["robust"] is not None and f'id="{key}-robust"' in page
+            assert outcome.robust is not None and f'id="{key}-robust"' in page
             assert "Welch's heteroscedastic" in page
         if "see also the normal Q-Q plot" in page:
             assert f'id="figure-{key}-qq"' in page
         if "see the homogeneity-of-slopes check" in page:
-            assert outcome["slopes"] and f'id="{key}-slopes"' in page
+            assert outcome.slopes and f'id="{key}-slopes"' in page
         if "put in force by a registered contingency (see below)" in page:
-            assert outcome["contingencies"] and f'id="{key}-contingencies"' in page
+            assert outcome.contingencies and f'id="{key}-contingencies"' in page
         if "(see Diagnostics)" in page:
             assert f'id="{key}-diagnostics"' in page
         if "They select the analysis only through the registered contingency rules" in page:
-            assert outcome["contingencies"]
+            assert outcome.contingencies
         if "Contrasts of a within-unit factor are tested on the units' own contrast scores" in page:
-            within = {f["name"] for f in results["factors"] if f["role"] == "within"}
-            assert any(h["factor"] in within for f in outcome["contrasts"] for h in f["hypotheses"])
+            within = {f.name for f in results.factors if f.role == "within"}
+            assert any(h.factor in within for f in outcome.contrasts for h in f.hypotheses)
         if "A simple effect compares the levels within one level" in page:
-            assert any(h["within"] for f in outcome["contrasts"] for h in f["hypotheses"])
+            assert any(h.within for f in outcome.contrasts for h in f.hypotheses)
         # every figure the page numbers is drawn on the page
         for figure in re.findall(r'<figure id="figure-([^"]+)"', page):
             assert re.search(rf'<figure id="figure-{re.escape(figure)}" class="figure">\s*'
                              r'<div class="figure-art"><svg', page), figure
 
 
-def _defaults(results: dict) -> set[str]:
-    return {s["key"] for s in results["plan_settings"] if not s["stated"]}
+def _defaults(results: StudyResults) -> set[str]:
+    return {s.key for s in results.plan_settings if not s.stated}
 
 
 @pytest.mark.parametrize("name", CASES)
@@ -96,11 +96,11 @@ def test_settings_table_says_the_source_of_every_plan_level_setting(rendered, na
     rows = {key: (value, source) for key, value, source in re.findall(
         r'<code>([^<]+)</code></td><td class="text">([^<]*)</td><td class="text">'
         r'(as registered|by default)</td>', block)}
-    top = {s["key"]: s for s in results["plan_settings"] if "[" not in s["key"]}
+    top = {s.key: s for s in results.plan_settings if "[" not in s.key}
     assert top and set(rows) == set(top)
     for key, (value, source) in rows.items():
-        assert (value, source) == (top[key]["value"], "as registered" if top[key]["stated"] else "by default"), key
-    alpha = "as registered" if top["alpha"]["stated"] else "by default"
+        assert (value, source) == (top[key].value, "as registered" if top[key].stated else "by default"), key
+    alpha = "as registered" if top["alpha"].stated else "by default"
     assert f"Every test uses the significance level &#945; = .05, {alpha}" in text
 
 
@@ -111,11 +111,11 @@ def test_as_registered_only_for_what_the_study_file_states(rendered, name):
     text = " ".join(re.sub(r"<[^>]+>", " ", html).split())
     stated_ss = "design.sums_of_squares" not in defaults
     said = re.findall(r"Sums of squares are type \d \([^)]*\), (as registered|by default)", text)
-    several = any(len(t["rows"]) > 1 or t["stratum"] != "units"
-                  for o in results["outcomes"] for t in o["tables"])
+    several = any(len(t.rows) > 1 or t.stratum != "units"
+                  for o in results.outcomes for t in o.tables)
     assert bool(said) == several  # one term: every type gives the same table, none is named
     assert set(said) <= {"as registered" if stated_ss else "by default"}
-    if any(t.get("sphericity") for o in results["outcomes"] for t in o["tables"]):
+    if any(t.sphericity for o in results.outcomes for t in o.tables):
         rule = "as registered" if "repeated.missing" not in defaults else "by default"
         assert f"complete units only, {rule}" in text
         assert f"complete units only, {'by default' if rule == 'as registered' else 'as registered'}" not in text

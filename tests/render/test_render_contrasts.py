@@ -8,10 +8,10 @@ appendix shows of them and how, not the statistics.
 
 from __future__ import annotations
 
-import copy
+import dataclasses
 
 import pytest
-from render_helpers import journal_tables, parse, squash
+from render_helpers import at, changed, journal_tables, parse, squash
 
 from appendix.methods import methods_used, references_for
 from appendix.render import RenderOptions, render_html
@@ -48,15 +48,22 @@ def _section(page, section_id):
     return next(e for e in page.elements if e.attrs.get("id") == section_id)
 
 
-def _without_contrasts(plain):
-    """The plain results of a one-way plan without contrasts, fallbacks or exploratory
+def _without_contrasts(results):
+    """The results of a one-way plan without contrasts, fallbacks or exploratory
     analyses (the shape of results before issue 3)."""
-    bare = copy.deepcopy(plain)
-    for outcome in bare["outcomes"]:
-        outcome.update(contrasts=[], contingencies=[], hypothesis_conclusions=[],
-                       selected_method="classical")
-    bare.update(exploratory=[], deviations=[], multiplicity=None, multiplicity_scope=None)
-    return bare
+    outcomes = tuple(dataclasses.replace(o, contrasts=(), contingencies=(),
+                                         hypothesis_conclusions=(), selected_method="classical")
+                     for o in results.outcomes)
+    return dataclasses.replace(results, outcomes=outcomes, exploratory=(), deviations=(),
+                               multiplicity=None, multiplicity_scope=None)
+
+
+def _with_hypotheses(results, path, family=None, **fields):
+    """`results` with every hypothesis of the family at `path` changed by `fields`, and
+    the family itself by `family`."""
+    hypotheses = at(results, path).hypotheses
+    return changed(results, path, **(family or {}), hypotheses=tuple(
+        dataclasses.replace(h, **fields) for h in hypotheses))
 
 
 def test_registered_family_rows_show_every_column_formatted(tables):
@@ -106,16 +113,14 @@ def test_family_note_names_method_multiplicity_scope_and_interval_kind(page):
             "not depend on this scale.") in note
 
 
-def test_simultaneous_intervals_are_stated(plain_results, figures):
-    changed = copy.deepcopy(plain_results)
-    family = changed["outcomes"][1]["contrasts"][0]
-    family.update(multiplicity="tukey")
-    for h in family["hypotheses"]:
-        h.update(ci_simultaneous=True)
-    note = next(n for n in _notes(parse(render_html(changed, figures, RenderOptions())))
+def test_simultaneous_intervals_are_stated(study_results, figures):
+    family = study_results.outcomes[1].contrasts[0]
+    tukey = _with_hypotheses(study_results, "outcomes[1].contrasts[0]",
+                             {"multiplicity": "tukey"}, ci_simultaneous=True)
+    note = next(n for n in _notes(parse(render_html(tukey, figures, RenderOptions())))
                 if "Welch\u2013Satterthwaite" in n)
     assert "Adjusted p: Games\u2013Howell single-step, across this outcome's hypotheses" in note
-    n = len(family["hypotheses"])
+    n = len(family.hypotheses)
     assert (f"95% confidence intervals hold simultaneously for all {n} hypotheses of the family, "
             "approximately (Games\u2013Howell).") in note
     assert "not simultaneous" not in note
@@ -132,13 +137,10 @@ def test_unavailable_hypothesis_shows_dashes_and_its_reason(tables, page):
     assert "Not drawn: the forest plot of the contrasts" in missing
 
 
-def test_rank_based_family_is_in_mean_ranks(plain_results, figures):
-    changed = copy.deepcopy(plain_results)
-    family = changed["outcomes"][1]["contrasts"][0]
-    family["method"] = "rank-based"
-    for h in family["hypotheses"]:
-        h.update(statistic_name="z", df=None, standardized=None)
-    page = parse(render_html(changed, figures, RenderOptions()))
+def test_rank_based_family_is_in_mean_ranks(study_results, figures):
+    ranks = _with_hypotheses(study_results, "outcomes[1].contrasts[0]", {"method": "rank-based"},
+                             statistic_name="z", df=None, standardized=None)
+    page = parse(render_html(ranks, figures, RenderOptions()))
     title = WELCH.replace("Welch (unequal variances)", "rank-based (Dunn)")
     table = journal_tables(page)[title]
     assert table[0][1][1] == "Difference in mean ranks"
@@ -166,7 +168,7 @@ def test_contingencies_list_each_rule_and_whether_it_fired(page):
     assert "Analysis in force for this outcome: classical (pooled variance)." in pain
 
 
-def test_deviations_are_listed_with_acknowledgement(page, plain_results, figures):
+def test_deviations_are_listed_with_acknowledgement(page, study_results, figures):
     rows = _body(journal_tables(page)[
         "Departures from the registered plan and registered contingencies applied"], "deviation")
     assert rows == [["Registered contingency applied", "sbp_change",
@@ -174,9 +176,8 @@ def test_deviations_are_listed_with_acknowledgement(page, plain_results, figures
                      "fallback put the Welch analysis in force; the classical analysis is shown "
                      "for comparison.", "yes",
                      "Fallback assumptions.fallbacks[1] of the registered plan."]]
-    changed = copy.deepcopy(plain_results)
-    changed["deviations"][0].update(acknowledged=False, justification=None)
-    rows = _body(journal_tables(parse(render_html(changed, figures, RenderOptions())))[
+    pending = changed(study_results, "deviations[0]", acknowledged=False, justification=None)
+    rows = _body(journal_tables(parse(render_html(pending, figures, RenderOptions())))[
         "Departures from the registered plan and registered contingencies applied"], "deviation")
     assert rows[0][3:] == ["no, not acknowledged", "none given"]
 
@@ -231,8 +232,8 @@ def _headings_have_content(page) -> None:
         assert len(squash(section.text)) > len(squash(heading.text)) + 10, section.attrs
 
 
-def test_plan_without_contrasts_renders_as_before(plain_results, page):
-    bare = parse(render_html(_without_contrasts(plain_results), {}, RenderOptions()))
+def test_plan_without_contrasts_renders_as_before(study_results, page):
+    bare = parse(render_html(_without_contrasts(study_results), {}, RenderOptions()))
     ids = bare.ids()
     assert not [i for i in ids if "contrasts" in i or "contingencies" in i or "xplor" in i]
     headings = {squash(e.text) for e in bare.elements if e.tag in {"h2", "h3"}}
@@ -247,14 +248,13 @@ def test_plan_without_contrasts_renders_as_before(plain_results, page):
     _headings_have_content(page)
 
 
-def test_labels_reasons_and_messages_are_escaped(plain_results, figures):
-    hostile = copy.deepcopy(plain_results)
-    primary = hostile["outcomes"][1]
-    primary["contrasts"][0]["hypotheses"][0]["label"] = "<img src=x onerror=alert(4)>"
-    primary["contingencies"][0]["rule"] = "<i>rule</i>"
-    hostile["exploratory"][0]["reason"] = "<script>alert(5)</script>"
-    hostile["deviations"][0]["message"] = "<b onclick=x>moved</b>"
-    primary["hypothesis_conclusions"][0]["parts"] = ["<u>said</u>"]
+def test_labels_reasons_and_messages_are_escaped(study_results, figures):
+    hostile = changed(study_results, "outcomes[1].contrasts[0].hypotheses[0]",
+                      label="<img src=x onerror=alert(4)>")
+    hostile = changed(hostile, "outcomes[1].contingencies[0]", rule="<i>rule</i>")
+    hostile = changed(hostile, "exploratory[0]", reason="<script>alert(5)</script>")
+    hostile = changed(hostile, "deviations[0]", message="<b onclick=x>moved</b>")
+    hostile = changed(hostile, "outcomes[1].hypothesis_conclusions[0]", parts=("<u>said</u>",))
     html = render_html(hostile, figures, RenderOptions())
     for raw in ("<img src=x", "<i>rule</i>", "<script>", "<b onclick", "<u>said"):
         assert raw not in html
@@ -264,13 +264,15 @@ def test_labels_reasons_and_messages_are_escaped(plain_results, figures):
     assert not page.by_tag("script") and not page.by_tag("img") and not page.by_tag("u")
 
 
-def _set_families(plain, multiplicity, method):
-    changed = copy.deepcopy(plain)
-    families = [f for o in changed["outcomes"] for f in o["contrasts"]]
-    families += [f for e in changed["exploratory"] for f in e["families"]]
-    for family in families:
-        family.update(multiplicity=multiplicity, method=method)
-    return changed
+def _set_families(results, multiplicity, method):
+    def each(families):
+        return tuple(dataclasses.replace(f, multiplicity=multiplicity, method=method)
+                     for f in families)
+
+    outcomes = tuple(dataclasses.replace(o, contrasts=each(o.contrasts)) for o in results.outcomes)
+    exploratory = tuple(dataclasses.replace(e, families=each(e.families))
+                        for e in results.exploratory)
+    return dataclasses.replace(results, outcomes=outcomes, exploratory=exploratory)
 
 
 @pytest.mark.parametrize(("multiplicity", "method", "keys", "reference"), [
@@ -290,37 +292,36 @@ def _set_families(plain, multiplicity, method):
     ("graphical", "classical", ["contrasts-classical", "graphical"], "bretz2009"),
     ("none", "classical", ["contrasts-classical", "unadjusted"], "ich1998"),
 ])
-def test_methods_name_exactly_the_contrast_methods_used(plain_results, multiplicity, method,
+def test_methods_name_exactly_the_contrast_methods_used(study_results, multiplicity, method,
                                                         keys, reference):
-    methods = methods_used(_set_families(plain_results, multiplicity, method))
+    methods = methods_used(_set_families(study_results, multiplicity, method))
     used = [m.key for m in methods if m.key in CONTRAST_KEYS]
     assert used == [keys[0], "trend", keys[1], "hedges", "one-sided"]
     assert reference in {r.key for r in references_for(methods)}
 
 
-def test_methods_without_contrasts_keep_the_one_way_list(plain_results):
-    keys = [m.key for m in methods_used(_without_contrasts(plain_results))]
+def test_methods_without_contrasts_keep_the_one_way_list(study_results):
+    keys = [m.key for m in methods_used(_without_contrasts(study_results))]
     assert not CONTRAST_KEYS & set(keys)
     assert keys[-2:] == ["pretest", "reporting"] and "contingency" not in keys
-    refs = {r.key for r in references_for(methods_used(plain_results))}
+    refs = {r.key for r in references_for(methods_used(study_results))}
     assert {"zimmerman2004", "rochon2012", "maurer1995", "hedges1981", "welch1947",
             "satterthwaite1946", "fisher1938", "kirk2013"} <= refs
 
 
-def test_helmert_contrasts_are_described(plain_results):
-    changed = copy.deepcopy(plain_results)
-    changed["outcomes"][1]["contrasts"][0]["hypotheses"][0]["kind"] = "helmert"
-    assert "helmert" in [m.key for m in methods_used(changed)]
+def test_helmert_contrasts_are_described(study_results):
+    helmert = changed(study_results, "outcomes[1].contrasts[0].hypotheses[0]", kind="helmert")
+    assert "helmert" in [m.key for m in methods_used(helmert)]
 
 
-def test_chapter_and_diacritic_references_are_set_and_filed(plain_results, figures, html):
+def test_chapter_and_diacritic_references_are_set_and_filed(study_results, figures, html):
     assert ("Maurer, W., Hothorn, L. A., &amp; Lehmacher, W. (1995). Multiple comparisons in "
             "drug clinical trials and preclinical assays: A-priori ordered hypotheses. In J. "
             "Vollmar (Ed.), <i>Biometrie in der chemisch-pharmazeutischen Industrie: Vol. 6. "
             "Testing principles in clinical and preclinical trials</i> (pp. 3\u201318). Gustav "
             "Fischer.") in html
     keys = [r.key for r in references_for(methods_used(
-        _set_families(plain_results, "sidak", "classical")))]
+        _set_families(study_results, "sidak", "classical")))]
     # APA files Šidák under S, between Shapiro and Steiger
     assert keys.index("shapiro1965") + 1 == keys.index("sidak1967") == keys.index("steiger2004") - 1
 
@@ -330,7 +331,7 @@ def _forest_caption(page) -> str:
                 if "registered hypotheses" in e.text)
 
 
-def test_forest_caption_says_what_the_intervals_are(page, plain_results, figures):
+def test_forest_caption_says_what_the_intervals_are(page, study_results, figures):
     caption = _forest_caption(page)
     assert caption.startswith("Figure 6. Estimates of the registered hypotheses for Change in "
                               "systolic blood pressure under the Welch (unequal variances) "
@@ -339,12 +340,10 @@ def test_forest_caption_says_what_the_intervals_are(page, plain_results, figures
     assert "An arrow marks an interval open" in caption and "labelled gaps" in caption
     assert ("Trend estimates are on their own scales, slopes or polynomial coefficients over "
             "the level scores, which the table note states.") in caption
-    changed = copy.deepcopy(plain_results)
-    family = changed["outcomes"][1]["contrasts"][0]
-    family.update(multiplicity="tukey")  # pairs under welch: Games-Howell
-    for h in family["hypotheses"]:
-        h.update(alternative="two-sided", decision="reject", ci_simultaneous=True)
-    caption = _forest_caption(parse(render_html(changed, figures, RenderOptions())))
+    # pairs under welch: Games-Howell
+    tukey = _with_hypotheses(study_results, "outcomes[1].contrasts[0]", {"multiplicity": "tukey"},
+                             alternative="two-sided", decision="reject", ci_simultaneous=True)
+    caption = _forest_caption(parse(render_html(tukey, figures, RenderOptions())))
     assert ("95% confidence intervals, simultaneous for the family (Games\u2013Howell, "
             "approximately);") in caption
     assert "Tukey" not in caption

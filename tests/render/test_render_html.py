@@ -5,8 +5,6 @@ Values asserted come from the INVENTED fixture data of conftest.py (numpy comput
 
 from __future__ import annotations
 
-import copy
-import json
 import random
 import re
 import subprocess
@@ -16,10 +14,11 @@ from pathlib import Path
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
-from render_helpers import parse, squash
+from render_helpers import changed, floats_to_none, parse, squash
 
 from appendix.methods import methods_used, references_for
 from appendix.render import RenderOptions, render_html, template_root
+from appendix.results import from_json, to_json
 
 CSP = "default-src 'none'; style-src 'unsafe-inline'; img-src data:"
 
@@ -112,10 +111,8 @@ def test_degenerate_f_is_an_explained_gap(page):
     assert any("reference F distribution" in m for m in missing)
 
 
-def test_tiny_p_is_written_below_one_thousandth(plain_results, figures):
-    tiny = copy.deepcopy(plain_results)
-    primary = tiny["outcomes"][1]
-    primary["tables"][0]["rows"][0]["p"] = 2.0e-7
+def test_tiny_p_is_written_below_one_thousandth(study_results, figures):
+    tiny = changed(study_results, "outcomes[1].tables[0].rows[0]", p=2.0e-7)
     page = parse(render_html(tiny, figures, RenderOptions()))
     assert _cells(page, "between")[-1] == "< .001"
 
@@ -141,7 +138,7 @@ def test_descriptive_columns_keep_one_number_of_decimals(page):
     assert means[:3] == ["\u22123.41", "\u22126.32", "\u221211.09"]
 
 
-def test_summary_puts_primary_first_and_quotes_each_conclusion(page, plain_results):
+def test_summary_puts_primary_first_and_quotes_each_conclusion(page):
     items = [squash(e.text) for e in page.by_tag("li")
              if "Primary," in e.text or "Secondary," in e.text]
     assert items[0].startswith("Primary, Change in systolic blood pressure. Mean change")
@@ -150,14 +147,14 @@ def test_summary_puts_primary_first_and_quotes_each_conclusion(page, plain_resul
                         "could not be tested for the pain score: every value was 2.")
 
 
-def test_cover_shows_checksums_short_and_full_and_the_caution(page, plain_results):
+def test_cover_shows_checksums_short_and_full_and_the_caution(page, study_results):
     text = squash(" ".join(e.text for e in page.by_tag("p")))
-    sha = plain_results["inputs"][1]["sha256"]
-    assert plain_results["inputs"][1]["role"] == "data"
+    sha = study_results.inputs[1].sha256
+    assert study_results.inputs[1].role == "data"
     header = [e for e in page.elements if e.attrs.get("class") == "running-data"]
     assert header and "running-header" in {e.attrs.get("class") for e in page.by_tag("p")}
     short = [e.text for e in page.elements if e.attrs.get("class") == "hash-short"]
-    assert sha[:12] in short and plain_results["plan_sha256"][:12] in short
+    assert sha[:12] in short and study_results.plan_sha256[:12] in short
     codes = [e for e in page.elements if e.tag == "code" and e.attrs.get("class") == "hash"]
     assert len(codes) == 6  # plan, study and data file, on the cover and in the final table
     header_text = squash(" ".join(e.text for e in header))
@@ -166,9 +163,8 @@ def test_cover_shows_checksums_short_and_full_and_the_caution(page, plain_result
     assert "qualified, licensed statistician" in text
 
 
-def test_lowercase_labels_start_sentences_capitalised(plain_results, figures):
-    lower = copy.deepcopy(plain_results)
-    lower["outcomes"][1]["label"] = "change in HbA1c"
+def test_lowercase_labels_start_sentences_capitalised(study_results, figures):
+    lower = changed(study_results, "outcomes[1]", label="change in HbA1c")
     page = parse(render_html(lower, figures, RenderOptions()))
     titles = [squash(e.text) for e in page.elements if e.attrs.get("class") == "table-title"]
     assert "Change in HbA1c by group" in titles
@@ -177,31 +173,30 @@ def test_lowercase_labels_start_sentences_capitalised(plain_results, figures):
     assert rows == ["Change in HbA1c: analysed"]
 
 
-def test_methods_follow_what_was_run(plain_results):
-    names = [m.key for m in methods_used(plain_results)]
+def test_methods_follow_what_was_run(study_results):
+    names = [m.key for m in methods_used(study_results)]
     assert names == ["descriptives", "anova", "welch", "kruskal", "effect_sizes", "shapiro",
                      "brown-forsythe", "bartlett", "outliers", "float64", "contrasts-classical",
                      "contrasts-welch", "custom", "trend", "fixed-sequence", "unadjusted", "hedges",
                      "one-sided", "contingency", "reporting"]
-    stripped = copy.deepcopy(plain_results)
-    for outcome in stripped["outcomes"]:
-        outcome["diagnostics"]["normality"] = None
-        outcome["robust"]["welch"]["statistic"] = None
+    stripped = study_results
+    for i in range(len(stripped.outcomes)):
+        stripped = changed(stripped, f"outcomes[{i}].diagnostics", normality=None)
+        stripped = changed(stripped, f"outcomes[{i}].robust.welch", statistic=None)
     keys = [m.key for m in methods_used(stripped)]
     assert "shapiro" not in keys and "welch" not in keys
     refs = [r.key for r in references_for(methods_used(stripped))]
     assert "shapiro1965" not in refs and "welch1951" not in refs and "fisher1925" in refs
 
 
-def test_methods_name_the_arithmetic_path_and_the_subsample(plain_results):
-    changed = copy.deepcopy(plain_results)
-    changed["outcomes"][0]["arithmetic"] = "exact-decimal"
-    keys = [m.key for m in methods_used(changed)]
+def test_methods_name_the_arithmetic_path_and_the_subsample(study_results):
+    exact = changed(study_results, "outcomes[0]", arithmetic="exact-decimal")
+    keys = [m.key for m in methods_used(exact)]
     assert keys.index("exact-decimal") < keys.index("float64")  # second outcome stays float
     assert "subsample" not in keys
-    changed["outcomes"][1]["sample_of"] = 100_000_000
-    assert "subsample" in [m.key for m in methods_used(changed)]
-    refs = [r.key for r in references_for(methods_used(changed))]
+    sampled = changed(exact, "outcomes[1]", sample_of=100_000_000)
+    assert "subsample" in [m.key for m in methods_used(sampled)]
+    refs = [r.key for r in references_for(methods_used(sampled))]
     assert "mccullough1998" in refs and "chan1983" in refs
 
 
@@ -224,45 +219,35 @@ def test_references_are_set_in_apa_style(html):
             "Psychological Association</i> (7th ed.). <span") in html
 
 
-def test_paper_option_reaches_the_page_rule(plain_results, figures):
-    html = render_html(plain_results, figures, RenderOptions(paper="Letter"))
+def test_paper_option_reaches_the_page_rule(study_results, figures):
+    html = render_html(study_results, figures, RenderOptions(paper="Letter"))
     assert "@page { size: Letter; }" in html
     with pytest.raises(ValueError, match="paper must be one of"):
         RenderOptions(paper="A5")
 
 
-def test_fixed_decimals_option_overrides_per_column_choice(plain_results, figures):
-    page = parse(render_html(plain_results, figures, RenderOptions(decimals=3)))
+def test_fixed_decimals_option_overrides_per_column_choice(study_results, figures):
+    page = parse(render_html(study_results, figures, RenderOptions(decimals=3)))
     assert _cells(page, "between")[2:4] == ["240.186", "120.093"]
 
 
-def test_templates_are_found_and_weasyprint_is_not_imported(tmp_path: Path, plain_results):
+def test_templates_are_found_and_weasyprint_is_not_imported(tmp_path: Path, study_results):
+    # results.json read back as typed results renders, and rendering loads no PDF library
     assert (template_root() / "appendix.html.j2").is_file()
     source = tmp_path / "results.json"
-    source.write_text(json.dumps(plain_results))
-    code = ("import json, sys; from appendix.render import render_html, RenderOptions; "
-            f"html = render_html(json.load(open({str(source)!r})), {{}}, RenderOptions()); "
+    source.write_text(to_json(study_results), encoding="utf-8")
+    code = ("import sys; from pathlib import Path; from appendix.results import from_json; "
+            "from appendix.render import render_html, RenderOptions; "
+            f"html = render_html(from_json(Path({str(source)!r}).read_text(encoding='utf-8')), "
+            "{}, RenderOptions()); "
             "print('weasyprint' in sys.modules, len(html) > 1000)")
     done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
                           check=True, cwd=Path(__file__).resolve().parents[2])
     assert done.stdout.split() == ["False", "True"]
 
 
-def _floats_to_none(value, keep):
-    """`value` with every float replaced by None where `keep(path)` is false."""
-    def walk(item, path):
-        if isinstance(item, dict):
-            return {k: walk(v, f"{path}.{k}") for k, v in item.items()}
-        if isinstance(item, list):
-            return [walk(v, f"{path}[{i}]") for i, v in enumerate(item)]
-        if isinstance(item, float) and not keep(path):
-            return None
-        return item
-    return walk(value, "")
-
-
-def test_every_missing_statistic_renders_as_a_dash(plain_results):
-    empty = _floats_to_none(plain_results, keep=lambda path: path.endswith(
+def test_every_missing_statistic_renders_as_a_dash(study_results):
+    empty = floats_to_none(study_results, keep=lambda path: path.endswith(
         ("alpha", "confidence_level", "threshold")))
     page = parse(render_html(empty, {}, RenderOptions()))
     assert _cells(page, "between")[2:] == ["\u2014"] * 4
@@ -273,16 +258,26 @@ def test_every_missing_statistic_renders_as_a_dash(plain_results):
 
 @settings(max_examples=25, derandomize=True, deadline=None)
 @given(st.integers(min_value=0, max_value=2**31 - 1))
-def test_any_pattern_of_missing_statistics_renders(plain_results, seed):
+def test_any_pattern_of_missing_statistics_renders(study_results, seed):
     chooser = random.Random(seed)
-    partial = _floats_to_none(plain_results, keep=lambda path: path.endswith(
+    partial = floats_to_none(study_results, keep=lambda path: path.endswith(
         ("alpha", "confidence_level", "threshold")) or chooser.random() < 0.5)
     page = parse(render_html(partial, {}, RenderOptions()))
     assert set(SECTION_IDS) <= set(page.ids())
 
 
-def test_same_inputs_give_identical_html(plain_results, figures, html):
-    assert render_html(plain_results, figures, RenderOptions()) == html
+def test_same_inputs_give_identical_html(study_results, figures, html):
+    assert render_html(study_results, figures, RenderOptions()) == html
+
+
+def test_results_read_back_from_results_json_render_the_same_page(study_results,
+                                                                  computed_demos):
+    # the renderer reads the typed results a run holds; what results.json gives back
+    # (ints of float fields as floats, tuples rebuilt, NaN as None) must read the same
+    runs = {"fixture": study_results, **{n: c.results for n, c in computed_demos.items()}}
+    for name, results in runs.items():
+        page = render_html(results, {}, RenderOptions())
+        assert render_html(from_json(to_json(results)), {}, RenderOptions()) == page, name
 
 
 def test_installed_templates_win_over_the_repository(tmp_path, monkeypatch):
@@ -304,10 +299,8 @@ def test_exploratory_decisions_read_as_nominal(html):
 
 @pytest.mark.parametrize("unit, squared", [("mmHg", "mmHg²"), ("mm²", "mm⁴"), ("%", "%²"),
                                            ("mg/L", "(mg/L)²"), ("index units", "(index units)²")])
-def test_sums_of_squares_carry_the_squared_unit(plain_results, figures, unit, squared):
+def test_sums_of_squares_carry_the_squared_unit(study_results, figures, unit, squared):
     # a square of a squared unit is a fourth power (mm² squared is mm⁴), never "mm²²"
-    changed = copy.deepcopy(plain_results)
-    changed["outcomes"][1]["unit"] = unit
-    page = parse(render_html(changed, figures, RenderOptions()))
+    page = parse(render_html(changed(study_results, "outcomes[1]", unit=unit), figures, RenderOptions()))
     headers = [squash(e.text) for e in page.by_tag("th") if "Sum of squares" in e.text]
     assert f"Sum of squares ({squared})" in headers
