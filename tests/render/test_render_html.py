@@ -107,6 +107,10 @@ def test_degenerate_f_is_an_explained_gap(page):
     assert cells[-2:] == ["\u2014", "\u2014"]
     notes = [squash(p.text) for p in page.by_tag("p") if p.attrs.get("class") == "table-note gap"]
     assert any("within-variance-zero: Every group's values are identical" in n for n in notes)
+    # a test that could not be computed is neither referred to its F distribution nor quoted
+    table_notes = [squash(p.text) for p in page.by_tag("p") if p.attrs.get("class") == "table-note"]
+    assert sum(n.startswith("Note. The F statistic is referred") for n in table_notes) == 1
+    assert not any("= \u2014" in n or "p \u2014" in n for n in table_notes)
     missing = [squash(p.text) for p in page.by_tag("p") if p.attrs.get("class") == "figure-missing"]
     assert any("reference F distribution" in m for m in missing)
 
