@@ -84,10 +84,12 @@ class Grid:
             column = np.asarray(column)
             if column.shape != shape or (column.size and not np.issubdtype(column.dtype, np.integer)):
                 raise InternalError(f"codes of '{name}' must be integers of shape {shape}")
-            if column.size and (column.min() < 0 or column.max() >= k):
+            column = column.astype(np.int64, copy=False)
+            # one pass: a negative code reads as a huge unsigned one
+            if column.size and int(column.view(np.uint64).max()) >= k:
                 raise InternalError(f"codes of '{name}' must lie in 0..{k - 1}")
             if len(self.names) == 1:  # one factor: its codes are the cells (no copy)
-                return np.asarray(column, dtype=np.int64)
+                return column
             cell *= k
             cell += column
         return cell

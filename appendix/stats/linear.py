@@ -55,7 +55,7 @@ from __future__ import annotations
 import itertools
 import math
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 from scipy import stats as _st
@@ -285,6 +285,8 @@ class _Problem:
     y_mean: float
     x_means: np.ndarray          # (q,) overall covariate means
     total_ss: float
+    # thin SVDs of R's scaled column sets already taken, by column tuple (`_svd`)
+    svds: dict = field(default_factory=dict, repr=False)
 
 
 def _compress(cells: DesignCells, columns: _Columns) -> _Problem:
@@ -324,11 +326,22 @@ def _compress(cells: DesignCells, columns: _Columns) -> _Problem:
         r = np.vstack([r, np.zeros((p + 1 - r.shape[0], p + 1))])
     scale = np.linalg.norm(r[:, :p], axis=0)
     scale[scale == 0.0] = 1.0
-    top = np.linalg.svd(r[:, :p] / scale, compute_uv=False)[0]
+    every = tuple(map(_read_only, np.linalg.svd(r[:, :p] / scale, full_matrices=False)))
     y_gap = gaps[:, 0]
     total_ss = float(cells.cross[occupied, 0, 0].sum() + n @ (y_gap * y_gap))
-    return _Problem(r, scale, RANK_TOLERANCE * top, float(shift[0] + centre[0]),
-                    shift[1:] + centre[1:], total_ss)
+    return _Problem(r, scale, RANK_TOLERANCE * every[1][0], float(shift[0] + centre[0]),
+                    shift[1:] + centre[1:], total_ss, svds={tuple(range(p)): every})
+
+
+def _svd(problem: _Problem, cols: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """The thin SVD of R's columns `cols`, scaled to unit length, taken once per fit (the
+    whole model's columns serve the threshold, the residual, its terms' sums of squares
+    and the coefficients)."""
+    key = tuple(int(c) for c in cols)
+    if key not in problem.svds:
+        problem.svds[key] = tuple(map(_read_only, np.linalg.svd(
+            problem.r[:, cols] / problem.scale[cols], full_matrices=False)))
+    return problem.svds[key]
 
 
 @dataclass(frozen=True, eq=False)
@@ -345,7 +358,7 @@ class _Space:
 def _space(problem: _Problem, cols: np.ndarray) -> _Space:
     if cols.size == 0:
         return _Space(np.zeros((problem.r.shape[0], 0)), 0)
-    u, s, _ = np.linalg.svd(problem.r[:, cols] / problem.scale[cols], full_matrices=False)
+    u, s, _ = _svd(problem, cols)
     rank = int(np.count_nonzero(s > problem.threshold))
     return _Space(u[:, :rank], rank)
 
@@ -554,7 +567,7 @@ def fit_linear(cells: DesignCells, terms: Sequence[Term], ss_type: int, alpha: f
 def _solution(problem: _Problem, cols: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Minimum-norm (scaled) coefficients, a generalized inverse of X'X, row space."""
     scale = problem.scale[cols]
-    u, s, wt = np.linalg.svd(problem.r[:, cols] / scale, full_matrices=False)
+    u, s, wt = _svd(problem, cols)
     rank = int(np.count_nonzero(s > problem.threshold))
     u, s, w = u[:, :rank], s[:rank], wt[:rank].T
     coefficients = (w @ ((u.T @ problem.r[:, -1]) / s)) / scale
