@@ -149,7 +149,10 @@ def design_cells(grid: Grid, codes: Sequence[np.ndarray], y: np.ndarray,
     for name in covariates:
         if name in grid.names:
             raise InternalError(f"'{name}' is both a factor and a covariate")
-    cell = grid.cell_codes(codes)
+    # One factor: its codes are the cells, and the grouped sweep of cell_stats rejects a
+    # code outside 0..k-1 as it counts, so they skip the grid's own pass over them.
+    one = len(grid.names) == 1 and len(codes) == 1
+    cell = np.asarray(codes[0]) if one else grid.cell_codes(codes)
     k = grid.n_cells
     columns = [np.asarray(y, dtype=np.float64)]
     columns += [np.asarray(covariates[name], dtype=np.float64) for name in covariates]
