@@ -6,7 +6,9 @@ what a template needs derived from them is computed by the small functions below
 Jinja2 environment is made per call (autoescape on, undefined names are errors) with the
 number filters of `appendix.numbers`, configured by `RenderOptions`; only the compiled
 template code is kept between calls (`_CompiledTemplates`). `render_pdf` hands
-the HTML to WeasyPrint with a fetcher that refuses every URL except ``data:``.
+the HTML to WeasyPrint with a fetcher that refuses every URL except ``data:``, and with the
+``@font-face`` rules of the fonts the package ships (`PDF_FONTS`), so that no installed
+font takes part in the layout.
 
 The PDF is PDF/A-3b (ISO 19005-3, conformance level B) through WeasyPrint's
 ``pdf_variant``, and carries its evidence as associated files (`PdfAttachment`: the study
@@ -433,6 +435,36 @@ def render_html(results: StudyResults, figures: dict[str, str], options: RenderO
     )
 
 
+#: The faces the PDF is typeset in, shipped in ``templates/fonts`` (see its README.md for
+#: their origin and licences): family, weight, style, file. The family names are ours, so
+#: no installed font can stand in for them; the stylesheet names only these (and a generic
+#: family last).
+PDF_FONTS = (
+    ("Appendix Serif", "normal", "normal", "LiberationSerif-Regular.ttf"),
+    ("Appendix Serif", "bold", "normal", "LiberationSerif-Bold.ttf"),
+    ("Appendix Serif", "normal", "italic", "LiberationSerif-Italic.ttf"),
+    ("Appendix Serif", "bold", "italic", "LiberationSerif-BoldItalic.ttf"),
+    ("Appendix Sans", "normal", "normal", "LiberationSans-Regular.ttf"),
+    ("Appendix Sans", "bold", "normal", "LiberationSans-Bold.ttf"),
+    ("Appendix Sans", "normal", "italic", "LiberationSans-Italic.ttf"),
+    ("Appendix Mono", "normal", "normal", "DejaVuSansMono.ttf"),
+    ("Appendix Mono", "bold", "normal", "DejaVuSansMono-Bold.ttf"),
+)
+
+
+def font_faces() -> str:
+    """The ``@font-face`` rules of `PDF_FONTS`, each font file inlined as a ``data:`` URL
+    (the offline fetcher serves nothing else). Only the PDF carries them: the HTML's
+    Content-Security-Policy loads no fonts, and a browser reflows the page anyway."""
+    folder = template_root() / "fonts"
+    rules = []
+    for family, weight, style, name in PDF_FONTS:
+        encoded = base64.b64encode((folder / name).read_bytes()).decode("ascii")
+        rules.append(f'@font-face {{ font-family: "{family}"; font-weight: {weight}; '
+                     f'font-style: {style}; src: url("data:font/ttf;base64,{encoded}"); }}')
+    return "\n".join(rules)
+
+
 def _offline_fetcher():
     """A WeasyPrint URL fetcher that serves ``data:`` URLs and refuses every other URL."""
     from weasyprint import URLFetcher
@@ -523,16 +555,20 @@ def render_pdf(html: str, out_path: Path, options: RenderOptions, *,
     """
     # imported here: commands that write no PDF should not pay for loading WeasyPrint
     from weasyprint import CSS, HTML
+    from weasyprint.text.fonts import FontConfiguration
 
     if attachments and dated is None:
         raise ValueError("attachments need a date: pass dated=")
     fetcher = _offline_fetcher()
     paper = CSS(string=f"@page {{ size: {options.paper}; }}", url_fetcher=fetcher)
+    fonts = FontConfiguration()
+    faces = CSS(string=font_faces(), url_fetcher=fetcher, font_config=fonts)
     notes = _SvgStyleNotes()
     logger = logging.getLogger("weasyprint")
     logger.addFilter(notes)  # for this call only
     try:
-        document = HTML(string=html, url_fetcher=fetcher).render(stylesheets=[paper])
+        document = HTML(string=html, url_fetcher=fetcher).render(
+            stylesheets=[faces, paper], font_config=fonts)
         if dated is not None:
             document.metadata.created = document.metadata.modified = _w3c_date(dated)
         document.write_pdf(
