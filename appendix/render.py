@@ -7,7 +7,7 @@ Jinja2 environment is made per call (autoescape on, undefined names are errors) 
 number filters of `appendix.numbers`, configured by `RenderOptions`; only the compiled
 template code is kept between calls (`_CompiledTemplates`). `render_pdf` hands
 the HTML to WeasyPrint with a fetcher that refuses every URL except ``data:``, and with the
-``@font-face`` rules of the fonts the package ships (`PDF_FONTS`), so that no installed
+``@font-face`` rules of the fonts the package ships (`font_faces`), so that no installed
 font takes part in the layout.
 
 The PDF is PDF/A-3b (ISO 19005-3, conformance level B) through WeasyPrint's
@@ -23,7 +23,6 @@ from __future__ import annotations
 
 import base64
 import datetime as _dt
-import importlib.resources
 import logging
 import math
 import re
@@ -42,6 +41,7 @@ from appendix.figure_spec import FIGURE_KINDS, PLOT_POINTS
 from appendix.methods import adjustment, methods_used, references_for
 from appendix.results import (Diagnostics, HypothesisResult, LevelCount, ModelRow, ModelTable,
                               OutcomeResult, StatWarning, StudyResults)
+from appendix.typefaces import FONT_FACES, font_folder, template_root
 
 PAPER_SIZES = ("A4", "Letter")
 
@@ -71,14 +71,6 @@ class RenderOptions:
 
 class RefusedURL(ValueError):
     """The PDF renderer asked for a URL; the appendix is self-contained, so none is fetched."""
-
-
-def template_root() -> Path:
-    """The templates folder: ``appendix/templates`` in a wheel, else the repository's."""
-    installed = importlib.resources.files("appendix") / "templates"
-    if installed.is_dir():
-        return Path(str(installed))
-    return Path(__file__).resolve().parent.parent / "templates"
 
 
 def _filters(options: RenderOptions) -> dict[str, Any]:
@@ -435,30 +427,14 @@ def render_html(results: StudyResults, figures: dict[str, str], options: RenderO
     )
 
 
-#: The faces the PDF is typeset in, shipped in ``templates/fonts`` (see its README.md for
-#: their origin and licences): family, weight, style, file. The family names are ours, so
-#: no installed font can stand in for them; the stylesheet names only these (and a generic
-#: family last).
-PDF_FONTS = (
-    ("Appendix Serif", "normal", "normal", "LiberationSerif-Regular.ttf"),
-    ("Appendix Serif", "bold", "normal", "LiberationSerif-Bold.ttf"),
-    ("Appendix Serif", "normal", "italic", "LiberationSerif-Italic.ttf"),
-    ("Appendix Serif", "bold", "italic", "LiberationSerif-BoldItalic.ttf"),
-    ("Appendix Sans", "normal", "normal", "LiberationSans-Regular.ttf"),
-    ("Appendix Sans", "bold", "normal", "LiberationSans-Bold.ttf"),
-    ("Appendix Sans", "normal", "italic", "LiberationSans-Italic.ttf"),
-    ("Appendix Mono", "normal", "normal", "DejaVuSansMono.ttf"),
-    ("Appendix Mono", "bold", "normal", "DejaVuSansMono-Bold.ttf"),
-)
-
-
 def font_faces() -> str:
-    """The ``@font-face`` rules of `PDF_FONTS`, each font file inlined as a ``data:`` URL
-    (the offline fetcher serves nothing else). Only the PDF carries them: the HTML's
-    Content-Security-Policy loads no fonts, and a browser reflows the page anyway."""
-    folder = template_root() / "fonts"
+    """The ``@font-face`` rules of the shipped fonts (`appendix.typefaces.FONT_FACES`), each
+    file inlined as a ``data:`` URL (the offline fetcher serves nothing else). Only the PDF
+    carries them: the HTML's Content-Security-Policy loads no fonts, and a browser reflows
+    the page anyway."""
+    folder = font_folder()
     rules = []
-    for family, weight, style, name in PDF_FONTS:
+    for family, weight, style, name in FONT_FACES:
         encoded = base64.b64encode((folder / name).read_bytes()).decode("ascii")
         rules.append(f'@font-face {{ font-family: "{family}"; font-weight: {weight}; '
                      f'font-style: {style}; src: url("data:font/ttf;base64,{encoded}"); }}')

@@ -1,6 +1,6 @@
 """The PDF is typeset in the fonts the package ships, never in the machine's.
 
-The stylesheet names only our own families (`render.PDF_FONTS`), which `render_pdf`
+The stylesheet names only our own families (`appendix.typefaces.FONT_FACES`), which `render_pdf`
 declares from the files in ``templates/fonts``; a PDF rendered with no system font at all
 (an empty fontconfig) must be the same file as one rendered with the machine's fonts.
 """
@@ -18,11 +18,12 @@ import pytest
 from fontTools.ttLib import TTFont
 
 from appendix import api, render
-from appendix.render import PDF_FONTS, RenderOptions, render_pdf, template_root
+from appendix.render import RenderOptions, render_pdf
+from appendix.typefaces import FIGURE_FAMILY, FONT_FACES, font_folder, template_root
 
-FAMILIES = {family for family, _, _, _ in PDF_FONTS}
+FAMILIES = {family for family, _, _, _ in FONT_FACES}
 GENERIC = {"serif", "sans-serif", "monospace"}
-FONTS = template_root() / "fonts"
+FONTS = font_folder()
 
 
 def _families(css: str) -> list[list[str]]:
@@ -45,9 +46,9 @@ def test_page_declares_no_fonts_and_names_no_system_family(html):
 
 
 def test_each_face_is_shipped_once_with_its_licence():
-    files = [name for _, _, _, name in PDF_FONTS]
+    files = [name for _, _, _, name in FONT_FACES]
     assert len(set(files)) == len(files)
-    assert len({(f, w, s) for f, w, s, _ in PDF_FONTS}) == len(PDF_FONTS)
+    assert len({(f, w, s) for f, w, s, _ in FONT_FACES}) == len(FONT_FACES)
     assert sorted(p.name for p in FONTS.glob("*.ttf")) == sorted(files)  # nothing unused
     for name in files:
         font = TTFont(FONTS / name)
@@ -64,8 +65,8 @@ def test_each_face_is_shipped_once_with_its_licence():
 
 def test_font_faces_declare_every_face_as_data():
     faces = render.font_faces()
-    assert faces.count("@font-face") == len(PDF_FONTS)
-    assert re.findall(r'url\("([a-z]+):', faces) == ["data"] * len(PDF_FONTS)
+    assert faces.count("@font-face") == len(FONT_FACES)
+    assert re.findall(r'url\("([a-z]+):', faces) == ["data"] * len(FONT_FACES)
 
 
 def _base_fonts(path: Path) -> set[str]:
@@ -78,7 +79,7 @@ def _shipped_names() -> set[str]:
     """The names WeasyPrint 70 gives an embedded @font-face font: its family, hyphenated,
     with the weight and style (observed)."""
     names = set()
-    for family, weight, style, _ in PDF_FONTS:
+    for family, weight, style, _ in FONT_FACES:
         suffix = "-".join(w for w, on in (("Bold", weight == "bold"),
                                          ("Italic", style == "italic")) if on)
         names.add(family.replace(" ", "-") + (f"-{suffix}" if suffix else ""))
@@ -131,3 +132,16 @@ def test_demo_pdf_is_the_same_without_any_system_font(computed_demos, tmp_path):
                                 check=True).stdout.splitlines()[2:]
         assert listed and {line.split()[0].split("+", 1)[1] for line in listed} \
             <= _shipped_names()
+
+
+def test_figures_measure_and_name_their_text_in_the_shipped_sans(figures):
+    from matplotlib import font_manager
+
+    families = {m for svg in figures.values() for m in re.findall(r"font-family: ([^;\"]+)", svg)}
+    assert families == {f"'{FIGURE_FAMILY}', sans-serif"}
+    for style in ("normal", "italic"):
+        found = font_manager.findfont(font_manager.FontProperties(family=FIGURE_FAMILY,
+                                                                  style=style),
+                                      fallback_to_default=False)
+        expected = {"normal": "LiberationSans-Regular.ttf", "italic": "LiberationSans-Italic.ttf"}
+        assert Path(found) == font_folder() / expected[style]
