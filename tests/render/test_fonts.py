@@ -1,12 +1,13 @@
 """The PDF is typeset in the fonts the package ships, never in the machine's.
 
-The stylesheet names only our own families (`appendix.typefaces.FONT_FACES`), which `render_pdf`
-declares from the files in ``templates/fonts``; a PDF rendered with no system font at all
+The stylesheet names only our own families (`appendix.typefaces.FONT_FACES`), which
+`render_pdf` declares from the files in ``templates/fonts``; a PDF rendered with no system font at all
 (an empty fontconfig) must be the same file as one rendered with the machine's fonts.
 """
 
 from __future__ import annotations
 
+import os
 import re
 import shutil
 import subprocess
@@ -16,6 +17,7 @@ from pathlib import Path
 import pypdf
 import pytest
 from fontTools.ttLib import TTFont
+from render_helpers import base_fonts, shipped_names
 
 from appendix import api, render
 from appendix.render import RenderOptions, render_pdf
@@ -69,30 +71,6 @@ def test_font_faces_declare_every_face_as_data():
     assert re.findall(r'url\("([a-z]+):', faces) == ["data"] * len(FONT_FACES)
 
 
-def _base_fonts(path: Path) -> set[str]:
-    reader = pypdf.PdfReader(path)
-    return {str(font.get_object()["/BaseFont"]).split("+", 1)[1]
-            for page in reader.pages for font in page["/Resources"]["/Font"].values()}
-
-
-def _shipped_names() -> set[str]:
-    """The names WeasyPrint 70 gives an embedded @font-face font: its family, hyphenated,
-    with the weight and style (observed)."""
-    names = set()
-    for family, weight, style, _ in FONT_FACES:
-        suffix = "-".join(w for w, on in (("Bold", weight == "bold"),
-                                         ("Italic", style == "italic")) if on)
-        names.add(family.replace(" ", "-") + (f"-{suffix}" if suffix else ""))
-    return names
-
-
-def test_fixture_pdf_uses_only_shipped_fonts(html, tmp_path):
-    path = tmp_path / "fixture.pdf"
-    render_pdf(html, path, RenderOptions())
-    used = _base_fonts(path)
-    assert {"Appendix-Serif", "Appendix-Sans", "Appendix-Mono"} <= used <= _shipped_names()
-
-
 EMPTY_FONTCONFIG = """<?xml version="1.0"?>
 <!DOCTYPE fontconfig SYSTEM "urn:fontconfig:fonts.dtd">
 <fontconfig></fontconfig>
@@ -115,8 +93,9 @@ def test_demo_pdf_is_the_same_without_any_system_font(computed_demos, tmp_path):
     config = tmp_path / "fonts.conf"
     config.write_text(EMPTY_FONTCONFIG, encoding="utf-8")
     bare = tmp_path / "bare.pdf"
-    env = {"PATH": "/usr/bin:/bin", "FONTCONFIG_FILE": str(config),
-           "PYTHONPATH": str(Path(__file__).resolve().parents[2]), "HOME": str(tmp_path)}
+    env = {**os.environ, "FONTCONFIG_FILE": str(config),
+           "PYTHONPATH": str(Path(__file__).resolve().parents[2])}
+    env.pop("FONTCONFIG_PATH", None)
     done = subprocess.run([sys.executable, "-c", RENDER, str(source), str(bare)], env=env,
                           capture_output=True, text=True, check=True)
     # WeasyPrint's own notice that fontconfig knows no font: the empty configuration held
@@ -126,12 +105,12 @@ def test_demo_pdf_is_the_same_without_any_system_font(computed_demos, tmp_path):
     assert len(texts[0]) == len(texts[1]) > 1
     assert texts[0] == texts[1]
     assert bare.read_bytes() == normal.read_bytes()
-    assert _base_fonts(bare) <= _shipped_names()
+    assert base_fonts(bare) <= shipped_names()
     if shutil.which("pdffonts"):  # poppler-utils, installed by .ci/run
         listed = subprocess.run(["pdffonts", str(bare)], capture_output=True, text=True,
                                 check=True).stdout.splitlines()[2:]
         assert listed and {line.split()[0].split("+", 1)[1] for line in listed} \
-            <= _shipped_names()
+            <= shipped_names()
 
 
 def test_figures_measure_and_name_their_text_in_the_shipped_sans(figures):
