@@ -37,6 +37,7 @@ from types import MappingProxyType
 
 import matplotlib
 import numpy as np
+from matplotlib import font_manager, ft2font
 from matplotlib.figure import Figure
 from matplotlib.lines import Line2D
 from scipy import stats
@@ -47,6 +48,7 @@ from appendix.figure_spec import FIGURE_KINDS, PLOT_POINTS
 from appendix.models import Residuals
 from appendix.results import ContrastFamily, HypothesisResult, OutcomeResult, StudyResults
 from appendix.stats.sampling import subsample_indices
+from appendix.typefaces import FIGURE_FAMILY, FONT_FACES, font_folder
 
 #: Level colours, in level order (cycled beyond eight levels).
 PALETTE: tuple[str, ...] = (
@@ -71,7 +73,7 @@ _RC = MappingProxyType({
     "svg.fonttype": "none",  # text stays text: light, searchable, same in both renderers
     "text.parse_math": False,  # labels come from the plan and data: "$" is a dollar sign
     "font.family": "sans-serif",
-    "font.sans-serif": ["Liberation Sans", "DejaVu Sans"],
+    "font.sans-serif": [FIGURE_FAMILY],  # the shipped faces, `_register_figure_fonts`
     "font.size": 9,
     "axes.titlesize": 9,
     "axes.labelsize": 9,
@@ -85,6 +87,26 @@ _RC = MappingProxyType({
     "savefig.bbox": "standard",
     "svg.image_inline": True,
 })
+
+
+def _register_figure_fonts() -> None:
+    """Give matplotlib the shipped faces of `FIGURE_FAMILY` under that name (once per
+    process), so that it measures the figures' text in the font the PDF draws it in,
+    whatever fonts the machine has; the SVG names that family, then ``sans-serif``."""
+    manager = font_manager.fontManager
+    if any(entry.name == FIGURE_FAMILY for entry in manager.ttflist):
+        return
+    for family, _, _, name in FONT_FACES:
+        if family == FIGURE_FAMILY:
+            entry = font_manager.ttfFontProperty(ft2font.FT2Font(str(font_folder() / name)))
+            manager.ttflist.append(dataclasses.replace(entry, name=FIGURE_FAMILY))
+
+
+def _figure_settings(stem: str):
+    """The settings every figure is drawn under (`_RC`, an SVG id salt of its own), with
+    the shipped fonts known to matplotlib."""
+    _register_figure_fonts()
+    return matplotlib.rc_context({**_RC, "svg.hashsalt": stem})
 
 
 def level_colour(index: int) -> str:
@@ -146,7 +168,7 @@ def make_figures(dataset: Dataset, results: StudyResults,
 def _draw(figures: dict[str, str], stem: str, draw: Callable, source) -> None:
     """Draw one figure into `figures[stem]` (nothing when `draw` returns None)."""
     # drawing inside the context: font sizes are fixed when artists are made
-    with matplotlib.rc_context({**_RC, "svg.hashsalt": stem}):
+    with _figure_settings(stem):
         figure = draw(source)
         if figure is not None:
             figures[stem] = _to_svg(figure, stem)
@@ -715,7 +737,7 @@ def _accessible_figure(stem: str, draw: Callable[[], Figure | None], title: str,
                        desc: str) -> str | None:
     """Draw under the figure settings and give the SVG a <title> and <desc> (read by
     screen readers; the ids carry `stem` like every other id)."""
-    with matplotlib.rc_context({**_RC, "svg.hashsalt": stem}):
+    with _figure_settings(stem):
         figure = draw()
         if figure is None:
             return None

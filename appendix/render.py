@@ -6,7 +6,9 @@ what a template needs derived from them is computed by the small functions below
 Jinja2 environment is made per call (autoescape on, undefined names are errors) with the
 number filters of `appendix.numbers`, configured by `RenderOptions`; only the compiled
 template code is kept between calls (`_CompiledTemplates`). `render_pdf` hands
-the HTML to WeasyPrint with a fetcher that refuses every URL except ``data:``.
+the HTML to WeasyPrint with a fetcher that refuses every URL except ``data:``, and with the
+``@font-face`` rules of the fonts the package ships (`font_faces`), so that no installed
+font takes part in the layout.
 
 The PDF is PDF/A-3b (ISO 19005-3, conformance level B) through WeasyPrint's
 ``pdf_variant``, and carries its evidence as associated files (`PdfAttachment`: the study
@@ -21,7 +23,6 @@ from __future__ import annotations
 
 import base64
 import datetime as _dt
-import importlib.resources
 import logging
 import math
 import re
@@ -40,6 +41,7 @@ from appendix.figure_spec import FIGURE_KINDS, PLOT_POINTS
 from appendix.methods import adjustment, methods_used, references_for
 from appendix.results import (Diagnostics, HypothesisResult, LevelCount, ModelRow, ModelTable,
                               OutcomeResult, StatWarning, StudyResults)
+from appendix.typefaces import FONT_FACES, font_folder, template_root
 
 PAPER_SIZES = ("A4", "Letter")
 
@@ -69,14 +71,6 @@ class RenderOptions:
 
 class RefusedURL(ValueError):
     """The PDF renderer asked for a URL; the appendix is self-contained, so none is fetched."""
-
-
-def template_root() -> Path:
-    """The templates folder: ``appendix/templates`` in a wheel, else the repository's."""
-    installed = importlib.resources.files("appendix") / "templates"
-    if installed.is_dir():
-        return Path(str(installed))
-    return Path(__file__).resolve().parent.parent / "templates"
 
 
 def _filters(options: RenderOptions) -> dict[str, Any]:
@@ -433,6 +427,20 @@ def render_html(results: StudyResults, figures: dict[str, str], options: RenderO
     )
 
 
+def font_faces() -> str:
+    """The ``@font-face`` rules of the shipped fonts (`appendix.typefaces.FONT_FACES`), each
+    file inlined as a ``data:`` URL (the offline fetcher serves nothing else). Only the PDF
+    carries them: the HTML's Content-Security-Policy loads no fonts, and a browser reflows
+    the page anyway."""
+    folder = font_folder()
+    rules = []
+    for family, weight, style, name in FONT_FACES:
+        encoded = base64.b64encode((folder / name).read_bytes()).decode("ascii")
+        rules.append(f'@font-face {{ font-family: "{family}"; font-weight: {weight}; '
+                     f'font-style: {style}; src: url("data:font/ttf;base64,{encoded}"); }}')
+    return "\n".join(rules)
+
+
 def _offline_fetcher():
     """A WeasyPrint URL fetcher that serves ``data:`` URLs and refuses every other URL."""
     from weasyprint import URLFetcher
@@ -523,16 +531,20 @@ def render_pdf(html: str, out_path: Path, options: RenderOptions, *,
     """
     # imported here: commands that write no PDF should not pay for loading WeasyPrint
     from weasyprint import CSS, HTML
+    from weasyprint.text.fonts import FontConfiguration
 
     if attachments and dated is None:
         raise ValueError("attachments need a date: pass dated=")
     fetcher = _offline_fetcher()
     paper = CSS(string=f"@page {{ size: {options.paper}; }}", url_fetcher=fetcher)
+    fonts = FontConfiguration()
+    faces = CSS(string=font_faces(), url_fetcher=fetcher, font_config=fonts)
     notes = _SvgStyleNotes()
     logger = logging.getLogger("weasyprint")
     logger.addFilter(notes)  # for this call only
     try:
-        document = HTML(string=html, url_fetcher=fetcher).render(stylesheets=[paper])
+        document = HTML(string=html, url_fetcher=fetcher).render(
+            stylesheets=[faces, paper], font_config=fonts)
         if dated is not None:
             document.metadata.created = document.metadata.modified = _w3c_date(dated)
         document.write_pdf(

@@ -23,7 +23,7 @@ PACKAGE = Path(__file__).resolve().parent.parent / "appendix"
 LAYERS: tuple[tuple[str, tuple[str, ...]], ...] = (
     ("ground", ("appendix", "appendix.errors", "appendix.names", "appendix.hashing",
                 "appendix.staging", "appendix.tolerance", "appendix.figure_spec",
-                "appendix.numbers", "appendix.epoch")),
+                "appendix.numbers", "appendix.epoch", "appendix.typefaces")),
     ("contract", ("appendix.results", "appendix.methods", "appendix.versions")),
     ("plan", ("appendix.plan.*",)),
     ("data", ("appendix.data.*",)),
@@ -39,7 +39,8 @@ LAYERS: tuple[tuple[str, tuple[str, ...]], ...] = (
 
 #: The small shared modules of the ground floor, which import nothing of ours at all.
 GROUND_FLOOR = ("appendix.names", "appendix.hashing", "appendix.staging", "appendix.tolerance",
-                "appendix.figure_spec", "appendix.numbers", "appendix.errors")
+                "appendix.figure_spec", "appendix.numbers", "appendix.errors",
+                "appendix.typefaces")
 
 #: Modules that are handed plain values and reach no earlier stage than these layers: the
 #: numeric core reads arrays (never the plan or a data-stage type), the renderer reads the

@@ -26,6 +26,9 @@ def test_wheel_contains_templates_and_entry_point(tmp_path: Path):
     for name in template_files:
         assert "appendix/" + name in names
     assert "appendix = appendix.cli:console" in scripts
+    from appendix.typefaces import FONT_FACES  # the PDF's faces and their licences ship too
+    for name in [f for *_, f in FONT_FACES] + ["LICENSE-Liberation.txt", "LICENSE-DejaVu.txt"]:
+        assert f"appendix/templates/fonts/{name}" in names
 
 
 def test_check_does_not_import_weasyprint(demo_study: Path):

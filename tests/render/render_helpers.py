@@ -1,5 +1,5 @@
-"""Small HTML inspection helpers for the render tests (standard library parser only), and
-changed copies of the frozen results they render."""
+"""Small HTML inspection helpers for the render tests (standard library parser only),
+changed copies of the frozen results they render, and the fonts a PDF embeds."""
 
 from __future__ import annotations
 
@@ -7,6 +7,11 @@ import dataclasses
 import re
 from dataclasses import dataclass, field
 from html.parser import HTMLParser
+from pathlib import Path
+
+import pypdf
+
+from appendix.typefaces import FONT_FACES
 
 
 _VOID = {"area", "base", "br", "col", "embed", "hr", "img", "input", "link", "meta", "source",
@@ -132,3 +137,21 @@ def floats_to_none(value, keep, path: str = ""):
     if isinstance(value, float) and not keep(path):
         return None
     return value
+
+
+def base_fonts(path: Path) -> set[str]:
+    """The names of the fonts a PDF embeds, without their subset tags."""
+    reader = pypdf.PdfReader(path)
+    return {str(font.get_object()["/BaseFont"]).split("+", 1)[1]
+            for page in reader.pages for font in page["/Resources"]["/Font"].values()}
+
+
+def shipped_names() -> set[str]:
+    """The names WeasyPrint 70 gives an embedded @font-face font: its family, hyphenated,
+    with the weight and style (observed)."""
+    names = set()
+    for family, weight, style, _ in FONT_FACES:
+        suffix = "-".join(w for w, on in (("Bold", weight == "bold"),
+                                         ("Italic", style == "italic")) if on)
+        names.add(family.replace(" ", "-") + (f"-{suffix}" if suffix else ""))
+    return names

@@ -286,10 +286,12 @@ def test_results_read_back_from_results_json_render_the_same_page(study_results,
 
 def test_installed_templates_win_over_the_repository(tmp_path, monkeypatch):
     import appendix.render as render
+    import appendix.typefaces as typefaces
 
     (tmp_path / "templates").mkdir()
-    monkeypatch.setattr(render.importlib.resources, "files", lambda package: tmp_path)
+    monkeypatch.setattr(typefaces.importlib.resources, "files", lambda package: tmp_path)
     assert render.template_root() == tmp_path / "templates"
+    assert typefaces.font_folder() == tmp_path / "templates" / "fonts"
     (tmp_path / "templates").rmdir()
     assert render.template_root() == Path(render.__file__).resolve().parents[1] / "templates"
 

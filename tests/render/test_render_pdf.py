@@ -11,6 +11,7 @@ from pathlib import Path
 
 import pypdf
 import pytest
+from render_helpers import base_fonts, shipped_names
 
 from appendix import numbers, render
 from appendix.render import RenderOptions, render_pdf
@@ -56,6 +57,11 @@ def test_contents_carry_page_numbers(pdf_path):
                         if "Every test uses the significance level" in p.extract_text())
     line = next(ln for ln in contents.splitlines() if ln.startswith("Methods"))
     assert line.rstrip().endswith(str(methods_page))
+
+
+def test_pdf_embeds_only_the_shipped_fonts(pdf_path):
+    used = base_fonts(pdf_path)
+    assert {"Appendix-Serif", "Appendix-Sans", "Appendix-Mono"} <= used <= shipped_names()
 
 
 def test_same_html_gives_identical_pdf_bytes_and_no_warnings(html, pdf_path, tmp_path, caplog):
