@@ -6,8 +6,9 @@ Kinds (stable identifiers, listed in `appendix.plan.choices.DEVIATION_KINDS`):
 - ``plan-changed``, ``outcome-added``, ``outcome-removed``, ``outcome-role-switched``: the
   plan against the lock, key by key (subject: the dotted key path); changes recorded as
   revisions of the lock are listed too, acknowledged by the revision's reason;
-- ``below-planned-n``: fewer analysed units than ``data.planned_n`` at a level (or cell)
-  that has eligible units (subject: the level), or in all (subject ``total``);
+- ``below-minimum-n``: fewer analysed units than ``data.planned_n.minimum`` at a level
+  (or cell) that has eligible units, for some outcome (subject: the level); fewer than the
+  planned number alone is attrition, shown in the unit flow, not a deviation;
 - ``level-without-units``: a plan level (or cell) with no eligible unit (subject: the level);
 - ``missing-above-limit``: a larger share of eligible units without a value than
   ``data.missing_limit`` (subject: the outcome);
@@ -112,8 +113,8 @@ def _analysed_words(counts: Sequence[tuple[str, int]]) -> str:
 
 
 def data_deviations(plan: Plan, flow: UnitFlow) -> tuple[Deviation, ...]:
-    """Levels without units, analysed numbers below the planned n, and missing values
-    above the registered limit, from the unit flow."""
+    """Levels without units, analysed numbers below the registered minimum, and missing
+    values above the registered limit, from the unit flow."""
     level, grouping = _grouping(plan)
     found: list[Deviation] = []
     read = {c.level: c.n for c in flow.read}
@@ -126,37 +127,34 @@ def data_deviations(plan: Plan, flow: UnitFlow) -> tuple[Deviation, ...]:
                 "level-without-units", count.level,
                 f"No eligible units at {level} {show(count.level)} of {grouping} ({why}).",
                 False, detected="eligible units per level in the unit flow"))
-    found += _below_planned(plan, flow, level, grouping, empty)
+    found += _below_minimum(plan, flow, level, grouping, empty)
     found += _missing_above_limit(plan, flow)
     return tuple(found)
 
 
-def _below_planned(plan: Plan, flow: UnitFlow, level: str, grouping: str,
+def _below_minimum(plan: Plan, flow: UnitFlow, level: str, grouping: str,
                    empty: set[str]) -> list[Deviation]:
+    """Groups (cells) with units whose analysed number is below the registered
+    ``data.planned_n.minimum`` for some outcome. A shortfall against the planned number
+    alone is attrition, which the unit flow shows by reason; it departs from no rule."""
     planned = plan.data.planned_n
-    if planned is None or not flow.outcomes:
+    minimum = planned.minimum if planned is not None else None
+    if minimum is None or not flow.outcomes:
         return []
-    detected = "analysed units in the unit flow compared with data.planned_n"
+    detected = "analysed units in the unit flow compared with data.planned_n.minimum"
+    per = "group" if level == "level" else "cell"
     found = []
-    if planned.per_group is not None:
-        analysed = [(o.outcome, {c.level: c.n for c in o.analysed}) for o in flow.outcomes]
-        for count in flow.eligible:
-            if count.level in empty:
-                continue
-            counts = [(name, by_level.get(count.level, 0)) for name, by_level in analysed]
-            if min(n for _, n in counts) < planned.per_group:
-                found.append(Deviation(
-                    "below-planned-n", count.level,
-                    f"{level.capitalize()} {show(count.level)} of {grouping}: "
-                    f"{_analysed_words(counts)}; {planned.per_group} planned per "
-                    f"{'group' if level == 'level' else 'cell'}.", False, detected=detected))
-    if planned.total is not None:
-        counts = [(o.outcome, sum(c.n for c in o.analysed)) for o in flow.outcomes]
-        if min(n for _, n in counts) < planned.total:
+    analysed = [(o.outcome, {c.level: c.n for c in o.analysed}) for o in flow.outcomes]
+    for count in flow.eligible:
+        if count.level in empty:
+            continue
+        counts = [(name, by_level.get(count.level, 0)) for name, by_level in analysed]
+        if min(n for _, n in counts) < minimum:
             found.append(Deviation(
-                "below-planned-n", "total",
-                f"In all: {_analysed_words(counts)}; {planned.total} planned.", False,
-                detected=detected))
+                "below-minimum-n", count.level,
+                f"{level.capitalize()} {show(count.level)} of {grouping}: "
+                f"{_analysed_words(counts)}; the plan's minimum is {minimum} per {per}.",
+                False, detected=detected))
     return found
 
 

@@ -665,6 +665,16 @@ class UnitFlow:
 
 
 @dataclass(frozen=True)
+class PlannedNumbers:
+    """The plan's ``data.planned_n``: analysed units planned per group (cell) and in all,
+    and the registered minimum per group below which a shortfall is a deviation."""
+
+    per_group: int | None = None
+    total: int | None = None
+    minimum: int | None = None
+
+
+@dataclass(frozen=True)
 class Finding:
     """Something about plan versus data that the reader must see (not an error)."""
 
@@ -797,6 +807,7 @@ class StudyResults:
     registration: Registration | None = None
     plan_settings: tuple[PlanSetting, ...] = ()
     families: tuple[RegisteredFamily, ...] = ()
+    planned_n: PlannedNumbers | None = None
     format_version: int = field(default=FORMAT_VERSION)
 
 
