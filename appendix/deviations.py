@@ -25,6 +25,7 @@ from __future__ import annotations
 import dataclasses
 from collections.abc import Iterable, Sequence
 
+from appendix.data.flow import analysed_words, groups_below
 from appendix.names import LOCK_FILE
 from appendix.plan.lock import Lock, PlanChange, compare_plans
 from appendix.plan.model import Plan
@@ -101,24 +102,12 @@ def _grouping(plan: Plan) -> tuple[str, str]:
     return "cell", " \u00d7 ".join(names)
 
 
-def _plural(n: int, word: str) -> str:
-    return f"{n} {word}{'' if n == 1 else 's'}"
-
-
-def _analysed_words(counts: Sequence[tuple[str, int]]) -> str:
-    """``10 units analysed`` when every outcome agrees, else each outcome's count."""
-    if len({n for _, n in counts}) == 1:
-        return f"{_plural(counts[0][1], 'unit')} analysed"
-    return "units analysed: " + ", ".join(f"{n} for {name}" for name, n in counts)
-
-
 def data_deviations(plan: Plan, flow: UnitFlow) -> tuple[Deviation, ...]:
     """Levels without units, analysed numbers below the registered minimum, and missing
     values above the registered limit, from the unit flow."""
     level, grouping = _grouping(plan)
     found: list[Deviation] = []
     read = {c.level: c.n for c in flow.read}
-    empty = {c.level for c in flow.eligible if c.n == 0}
     for count in flow.eligible:
         if count.n == 0:
             n_read = read.get(count.level, 0)
@@ -127,35 +116,26 @@ def data_deviations(plan: Plan, flow: UnitFlow) -> tuple[Deviation, ...]:
                 "level-without-units", count.level,
                 f"No eligible units at {level} {show(count.level)} of {grouping} ({why}).",
                 False, detected="eligible units per level in the unit flow"))
-    found += _below_minimum(plan, flow, level, grouping, empty)
+    found += _below_minimum(plan, flow, level, grouping)
     found += _missing_above_limit(plan, flow)
     return tuple(found)
 
 
-def _below_minimum(plan: Plan, flow: UnitFlow, level: str, grouping: str,
-                   empty: set[str]) -> list[Deviation]:
-    """Groups (cells) with units whose analysed number is below the registered
+def _below_minimum(plan: Plan, flow: UnitFlow, level: str, grouping: str) -> list[Deviation]:
+    """Groups (cells) with eligible units whose analysed number is below the registered
     ``data.planned_n.minimum`` for some outcome. A shortfall against the planned number
     alone is attrition, which the unit flow shows by reason; it departs from no rule."""
     planned = plan.data.planned_n
     minimum = planned.minimum if planned is not None else None
-    if minimum is None or not flow.outcomes:
+    if minimum is None:
         return []
     detected = "analysed units in the unit flow compared with data.planned_n.minimum"
     per = "group" if level == "level" else "cell"
-    found = []
-    analysed = [(o.outcome, {c.level: c.n for c in o.analysed}) for o in flow.outcomes]
-    for count in flow.eligible:
-        if count.level in empty:
-            continue
-        counts = [(name, by_level.get(count.level, 0)) for name, by_level in analysed]
-        if min(n for _, n in counts) < minimum:
-            found.append(Deviation(
-                "below-minimum-n", count.level,
-                f"{level.capitalize()} {show(count.level)} of {grouping}: "
-                f"{_analysed_words(counts)}; the plan's minimum is {minimum} per {per}.",
-                False, detected=detected))
-    return found
+    return [Deviation("below-minimum-n", group,
+                      f"{level.capitalize()} {show(group)} of {grouping}: "
+                      f"{analysed_words(counts)}; the plan's minimum is {minimum} per {per}.",
+                      False, detected=detected)
+            for group, counts in groups_below(flow, minimum)]
 
 
 def _missing_above_limit(plan: Plan, flow: UnitFlow) -> list[Deviation]:
