@@ -182,6 +182,20 @@ def test_revisions_are_listed_as_acknowledged_changes_with_their_reasons(demo_st
     assert "locked 2026-02-14T09:00:00Z, revised 1 time (last 2026-02-28T09:00:00Z)" in cover
 
 
+@pytest.mark.parametrize("name", ["seed-coating", "greenhouse-split", "wound-dose"])
+def test_every_demo_is_registered_and_opens_without_a_banner(computed_demos, name: str):
+    from tests.conftest import REPO
+
+    computed = computed_demos[name]
+    study = REPO / "studies" / name / "study.yaml"
+    assert computed.results.deviations == ()
+    assert computed.results.registration.plan_sha256 == load_plan(study).sha256
+    assert computed.results.registration.data_sha256_at_lock == next(
+        i.sha256 for i in computed.results.inputs if i.role == "data")
+    html = api.render(computed).html
+    assert _banner(html) is None and "unacknowledged deviation" not in html
+
+
 # --- data against the plan --------------------------------------------------------------
 
 
