@@ -37,13 +37,21 @@ NOT_REGISTERED = "plan-not-registered"
 
 
 def registration(lock: Lock | None) -> Registration | None:
-    """What the appendix shows of the lock: first lock time, last hash, revisions."""
+    """What the appendix shows of the lock: first lock time, last hash, revisions, and
+    the data file at the first lock and, after a revision, at the last one (a relock
+    made after the data existed must not read as "plan fixed before the data")."""
     if lock is None:
         return None
+    data, statement = lock.data, lock.data.statement
+    if lock.revisions:
+        last = lock.revisions[-1]
+        data = last.data
+        then = "the data file existed" if last.data.existed else "the data file did not exist yet"
+        statement = f"at the first lock, {lock.data.statement}; at revision {last.number}, {then}"
     return Registration(
         lock_file=LOCK_FILE, locked_at=lock.locked_at, plan_sha256=lock.plan_sha256,
-        tool_version=lock.tool_version, data_at_lock=lock.data.statement,
-        data_sha256_at_lock=lock.data.sha256,
+        tool_version=lock.tool_version, data_at_lock=statement,
+        data_sha256_at_lock=data.sha256,
         revisions=tuple(PlanRevision(r.number, r.time, r.previous_sha256, r.sha256, r.reason)
                         for r in lock.revisions))
 

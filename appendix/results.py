@@ -744,9 +744,12 @@ class Registration:
     """The registration lock the run compared the plan with (``study.lock.json``).
 
     `locked_at` is the first lock's time (UTC, ISO 8601); `plan_sha256` the hash of the
-    plan as last registered (after any revision); `data_at_lock` says in words whether
-    the data file existed when the plan was first locked, `data_sha256_at_lock` its
-    SHA-256 then (None when it did not exist).
+    plan as last registered (after any revision), which differs from the run's
+    `StudyResults.plan_sha256` (the plan analysed, its ``deviations`` acknowledgements
+    included) when the plan was changed or acknowledgements were added since;
+    `data_at_lock` says in words whether the data file existed when the plan was first
+    locked and, after a revision, at the last revision; `data_sha256_at_lock` is its
+    SHA-256 at the last registration (None when it did not exist then).
     """
 
     lock_file: str

@@ -110,8 +110,10 @@ def test_a_locked_unchanged_plan_shows_its_lock_on_the_cover(demo_study: Path):
     assert computed.results.deviations == ()
     cover = _text(api.render(computed).html, "cover")
     sha = registration.plan_sha256
-    assert (f"Plan registered locked 2026-02-14T09:00:00Z; SHA-256 {sha[:12]} {sha} ; the data "
-            "file existed at lock time (the same file as analysed)") in cover
+    assert (f"Plan registered locked 2026-02-14T09:00:00Z; registered plan SHA-256 {sha[:12]} "
+            f"{sha} (the plan analysed); the data file existed at lock time (the same file as "
+            "analysed)") in cover
+    assert f"Plan analysed, SHA-256 {sha[:12]} {sha} Study file" in cover
     # a data file corrected after the lock: the cover says the locked one was another file
     data = demo_study.parent / "data" / "units.csv"
     data.write_text(data.read_text(encoding="utf-8").replace(",no,", ",no ,", 1),
@@ -119,6 +121,41 @@ def test_a_locked_unchanged_plan_shows_its_lock_on_the_cover(demo_study: Path):
     cover = _text(api.render(api.compute(demo_study)).html, "cover")
     assert (f"the data file existed at lock time (SHA-256 "
             f"{registration.data_sha256_at_lock[:12]} then, not the file analysed)") in cover
+
+
+def test_the_cover_says_which_plan_each_sha256_is_of(demo_study: Path):
+    _lock(demo_study)
+    _append(demo_study, "deviations:\n  - {kind: plan-not-registered, subject: plan, "
+            "justification: none needed (invented)}\n")
+    computed = api.compute(demo_study)
+    locked, analysed = computed.results.registration.plan_sha256, computed.results.plan_sha256
+    assert locked != analysed  # the acknowledgements are in the plan analysed, never locked
+    cover = _text(api.render(computed).html, "cover")
+    assert (f"registered plan SHA-256 {locked[:12]} {locked} (the plan as locked; the plan "
+            "analysed has another SHA-256, below)") in cover
+    assert (f"Plan analysed, SHA-256 {analysed[:12]} {analysed} (the canonical plan as run, "
+            "its deviations acknowledgements included; not the registered plan's SHA-256 "
+            "above)") in cover
+
+
+def test_after_a_relock_the_cover_says_when_the_data_existed(demo_study: Path):
+    data = demo_study.parent / "data" / "units.csv"
+    kept = data.read_bytes()
+    data.unlink()
+    _lock(demo_study)  # before the data file existed
+    data.write_bytes(kept)
+    _edit(demo_study, "alpha: 0.05", "alpha: 0.01")
+    lock_plan(load_plan(demo_study), relock=True, reason="stricter level (invented)",
+              environ=SECOND)
+    computed = api.compute(demo_study)
+    registration = computed.results.registration
+    assert registration.data_at_lock == ("at the first lock, plan fixed before the data file "
+                                         "existed; at revision 1, the data file existed")
+    assert registration.data_sha256_at_lock == next(
+        i.sha256 for i in computed.results.inputs if i.role == "data")
+    cover = _text(api.render(computed).html, "cover")
+    assert ("(the plan analysed); at the first lock, plan fixed before the data file existed; "
+            "at revision 1, the data file existed (the same file as analysed)") in cover
 
 
 @pytest.mark.parametrize("old, new, kind, subject, message", [
