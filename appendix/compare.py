@@ -4,7 +4,7 @@
    for a one-factor outcome its factor under the analysis in force, and each registered
    hypothesis);
 2. numbers that moved beyond a stated tolerance (F and p of every term, Welch and
-   Kruskal-Wallis where computed, effect sizes with their intervals, estimates, marginal
+   Kruskal–Wallis where computed, effect sizes with their intervals, estimates, marginal
    means, counts), with the size of the move, absolute and relative;
 3. data: units added and removed, and changed cells by unit, outcome and column, read
    from each run's records (`appendix.records`);
@@ -253,7 +253,7 @@ def _tested_terms(results: StudyResults, outcome: OutcomeResult) -> list[ModelRo
 
 
 #: The test a one-factor outcome's conclusion is decided by, per `selected_method`.
-_METHOD_WORDS = {"classical": "F test", "welch": "Welch's test", "rank-based": "Kruskal-Wallis test"}
+_METHOD_WORDS = {"classical": "F test", "welch": "Welch's test", "rank-based": "Kruskal–Wallis test"}
 
 
 def _decision(conclusion: Conclusion) -> Decision:
@@ -357,20 +357,20 @@ def _effects(row: ModelRow) -> tuple[tuple[str, str, float | None, float | None,
 
 
 def _term_numbers(found: Numbers, name: str, o: OutcomeResult) -> None:
-    """Each term's F and p (corrected p of within-unit terms), then Welch and Kruskal-Wallis
+    """Each term's F and p (corrected p of within-unit terms), then Welch and Kruskal–Wallis
     where they are computed, then each term's effect sizes with their intervals. With one
     term in one table a partial share is the share itself (the error is all that is left)."""
     for term, label, row in _rows(o):
         found[(name, f"{term}.statistic")] = (f"F, {label}", row.statistic)
         found[(name, f"{term}.p")] = (f"p, {label}", row.p)
         if row.kind == "within":
-            found[(name, f"{term}.gg_p")] = (f"p Greenhouse-Geisser, {label}", row.gg_p)
-            found[(name, f"{term}.hf_p")] = (f"p Huynh-Feldt, {label}", row.hf_p)
+            found[(name, f"{term}.gg_p")] = (f"p Greenhouse–Geisser, {label}", row.gg_p)
+            found[(name, f"{term}.hf_p")] = (f"p Huynh–Feldt, {label}", row.hf_p)
     if o.robust is not None:
         found[(name, "welch.statistic")] = ("F (Welch)", o.robust.welch.statistic)
         found[(name, "welch.p")] = ("p (Welch)", o.robust.welch.p)
-        found[(name, "kruskal.statistic")] = ("H (Kruskal-Wallis)", o.robust.kruskal.statistic)
-        found[(name, "kruskal.p")] = ("p (Kruskal-Wallis)", o.robust.kruskal.p)
+        found[(name, "kruskal.statistic")] = ("H (Kruskal–Wallis)", o.robust.kruskal.statistic)
+        found[(name, "kruskal.p")] = ("p (Kruskal–Wallis)", o.robust.kruskal.p)
     one_term = len(o.tables) == 1 and len(o.tables[0].rows) == 1
     for term, label, row in _rows(o):
         for quantity, words, estimate, low, high in _effects(row):

@@ -28,8 +28,8 @@ from appendix.results import (
 )
 
 _TEST_NAMES = {
-    "shapiro-wilk": "Shapiro-Wilk",
-    "brown-forsythe": "Brown-Forsythe",
+    "shapiro-wilk": "Shapiro–Wilk",
+    "brown-forsythe": "Brown–Forsythe",
     "bartlett": "Bartlett",
 }
 
@@ -110,8 +110,8 @@ def _omnibus(method: str, row, df_error: float, robust) -> _Omnibus:
         return _Omnibus("Welch's F test", "Welch's F", clause,
                         welch.p if welch.statistic is not None else None, welch.warnings)
     if method == "rank-based" and kruskal is not None:
-        clause = _test("Kruskal-Wallis H", kruskal.df1, None, kruskal.statistic, kruskal.p)
-        return _Omnibus("The Kruskal-Wallis test", "H", clause,
+        clause = _test("Kruskal–Wallis H", kruskal.df1, None, kruskal.statistic, kruskal.p)
+        return _Omnibus("The Kruskal–Wallis test", "H", clause,
                         kruskal.p if kruskal.statistic is not None else None, kruskal.warnings,
                         hypothesis="identical distributions",
                         unequal="the distributions are not all identical",
@@ -228,7 +228,7 @@ def hypothesis_conclusion(plan: Plan, outcome: Outcome, h: HypothesisResult,
         unit = f"{unit} {h.scale.per}"
     adjusted = (("adjusted ", Number("p", h.p_adjusted))
                 if h.p_adjusted is not None and multiplicity != "none" else Number("p", h.p))
-    how = adjustment(multiplicity, h.method).plain  # the procedure computed, e.g. Games-Howell
+    how = adjustment(multiplicity, h.method).name  # the procedure computed, e.g. Games–Howell
     evidence = parts(" (", _interval_words(h, unit), ", ", adjusted, f", {how}{_family_words(family)})")
     factor = plan.factor_named(_contrast_factor(plan, h))
     pair = _levels_compared(h, factor.levels)
@@ -362,14 +362,14 @@ def assumption_statuses(plan: Plan, normality: NormalityTest | None,
     elif normality.statistic is None:
         normal = AssumptionStatus(
             "normally distributed residuals", "not-checked",
-            "Shapiro-Wilk could not be computed: "
+            "Shapiro–Wilk could not be computed: "
             + " ".join(w.message for w in normality.warnings))
     else:
         checks = [(normality, _RESIDUAL_WORDS[normality.residuals])]
         checks += [(within, _RESIDUAL_WORDS[within.residuals])] if within is not None else []
         normal = AssumptionStatus(
             "normally distributed residuals", "checked",
-            "; ".join(f"Shapiro-Wilk on {words}: " + (
+            "; ".join(f"Shapiro–Wilk on {words}: " + (
                 f"W = {fmt.fixed(test.statistic, 3)}, {fmt.p_clause(test.p)}"
                 if test.statistic is not None else "not computed") for test, words in checks)
             + " (a small p indicates non-normal residuals)"
@@ -406,7 +406,7 @@ def term_conclusion(plan: Plan, outcome: Outcome, row, ss_type: int, df_error: f
     """One model term's F test in plain words, e.g. "Coating × Irrigation: F(2, 60) = 4.10,
     p = .021, partial η² = .12 (90% CI [.01, .24]); the hypothesis of no interaction is
     rejected at α = .05 (type 3 sums of squares)." Within-unit terms name the corrected test
-    in force: Greenhouse-Geisser when its df are given."""
+    in force: Greenhouse–Geisser when its df are given."""
     alpha = plan.alpha
     # An interaction is a term of several factors, whichever stratum it is tested in.
     what = ("no interaction" if len(row.term) > 1 else
@@ -418,7 +418,7 @@ def term_conclusion(plan: Plan, outcome: Outcome, row, ss_type: int, df_error: f
                            f"{reasons}",), decision="unavailable", p=None, alpha=alpha)
     df1, df2, p, corrected = row.df, df_error, row.p, ""
     if row.gg_df is not None and row.gg_p is not None:
-        (df1, df2), p, corrected = row.gg_df, row.gg_p, ", Greenhouse-Geisser corrected"
+        (df1, df2), p, corrected = row.gg_df, row.gg_p, ", Greenhouse–Geisser corrected"
     clause = parts(_test("F", df1, df2, row.statistic, p), _eta("partial \u03b7\u00b2", row))
     if p < alpha:
         rest = parts(f"the hypothesis of {what} is rejected at ", _alpha(alpha))

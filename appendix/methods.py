@@ -593,8 +593,8 @@ METHODS: Mapping[str, Method] = MappingProxyType({m.key: m for m in (
            "database engine. Group counts, means and sums of squared deviations use every "
            "analysed unit, so the variance table, Welch's test, Bartlett's test, the effect "
            "sizes and the planned contrasts on means are exact for the full data; figures "
-           "and row-level diagnostics (quartiles, Shapiro-Wilk, Kruskal-Wallis, "
-           "Brown-Forsythe, the outlier screen and rank-based contrasts) use a deterministic "
+           "and row-level diagnostics (quartiles, Shapiro–Wilk, Kruskal–Wallis, "
+           "Brown–Forsythe, the outlier screen and rank-based contrasts) use a deterministic "
            "subsample whose size each outcome states.",
            ()),
     Method("reporting", "Reporting",
@@ -633,11 +633,6 @@ class Adjustment:
     name: str
     note: str
     approximate: bool = False
-
-    @property
-    def plain(self) -> str:
-        """The name as the conclusion sentences write names: hyphen, not en dash."""
-        return self.name.replace("\u2013", "-")
 
 
 #: Every multiplicity control by its `METHODS` key: the one place that names them.
@@ -684,8 +679,8 @@ def adjustment(multiplicity: str, method: str) -> Adjustment:
     `multiplicity` whose hypotheses were estimated by `method` (classical, welch,
     rank-based or marginal-means).
 
-    >>> adjustment("tukey", "welch").plain
-    'Games-Howell'
+    >>> adjustment("tukey", "welch").name
+    'Games–Howell'
     """
     key = _UNDER_METHOD.get((multiplicity, method),
                             "unadjusted" if multiplicity == "none" else multiplicity)
@@ -693,7 +688,7 @@ def adjustment(multiplicity: str, method: str) -> Adjustment:
 
 
 def multiplicity_method(family: ContrastFamily) -> str:
-    """The `METHODS` key of a family's multiplicity control (Tukey under Welch: Games-Howell)."""
+    """The `METHODS` key of a family's multiplicity control (Tukey under Welch: Games–Howell)."""
     return adjustment(family.multiplicity, family.method).key
 
 

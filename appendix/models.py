@@ -16,10 +16,10 @@ What is computed per outcome:
 - with within factors: over the units complete on the whole within grid, one table per
   within stratum (each within factor, each listed interaction of within factors, with its
   listed interactions with between-unit terms), each with its Mauchly test and
-  Greenhouse-Geisser and Huynh-Feldt corrections, and the means of every stratum's term;
+  Greenhouse–Geisser and Huynh–Feldt corrections, and the means of every stratum's term;
 - where they are defined (`Plan.robust_absent` is None: one treatment factor, nothing
-  else): Welch's and the Kruskal-Wallis tests, the registered contingencies that may put
-  one in force, and contrasts under every analysis the plan allows (Games-Howell, Welch
+  else): Welch's and the Kruskal–Wallis tests, the registered contingencies that may put
+  one in force, and contrasts under every analysis the plan allows (Games–Howell, Welch
   t); elsewhere registered contrasts are taken on the marginal means (simple effects
   with `by`), under the registered multiplicity control.
 """
@@ -400,7 +400,7 @@ def _marginal(plan: Plan, fit, over: str | None = None) -> tuple[MarginalMeans, 
 def _diagnostics(plan: Plan, values: np.ndarray, cells: np.ndarray, cell_labels, units, screen, *,
                  decimals: int | None = None, within_residuals: np.ndarray | None = None,
                  spread: bool = True) -> Diagnostics:
-    """The registered checks of one outcome, for every design: Shapiro-Wilk of the
+    """The registered checks of one outcome, for every design: Shapiro–Wilk of the
     residuals each registered test relies on (the model's, or in a split-plot design those
     of the unit means, between units, and of the within-units error); the registered
     equal-variance tests across the cells of the treatment factors, of the values with one

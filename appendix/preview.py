@@ -111,7 +111,7 @@ def _analysis_line(plan: Plan, scope: str) -> str:
     if plan.robust_absent is None:  # the one-factor layout, with its robust block
         return (
             f"{scope}, at alpha {plan.alpha:g}: descriptives; one-way variance table (F test); "
-            f"Welch's ANOVA; Kruskal-Wallis; eta squared, omega squared and Cohen's f with CIs; "
+            f"Welch's ANOVA; Kruskal–Wallis; eta squared, omega squared and Cohen's f with CIs; "
             f"diagnostics: {', '.join(checks)}")
     terms = ", ".join(" x ".join(t) for t in plan.model_terms)
     within = (f"; within units over {' x '.join(f.name for f in plan.within_factors)} "
@@ -119,7 +119,7 @@ def _analysis_line(plan: Plan, scope: str) -> str:
               + "; ".join(f"stratum units x {' x '.join(stratum)}: "
                           + ", ".join(" x ".join(t) for t in plan.stratum_terms(stratum))
                           for stratum in plan.within_strata)
-              + ", with Mauchly's test and Greenhouse-Geisser / Huynh-Feldt corrections per stratum"
+              + ", with Mauchly's test and Greenhouse–Geisser / Huynh–Feldt corrections per stratum"
               if plan.within_factors else "")
     spread = ("" if not plan.within_factors else
               " (no equal-variance test on repeated observations; outliers on unit means)")

@@ -232,11 +232,11 @@ class HypothesisResult:
     """One planned (or exploratory) contrast hypothesis: H0 says sum(weights * means) = 0.
 
     `method` says how estimate, SE and df were computed: ``classical`` (pooled within-group
-    variance, df N - k), ``welch`` (per-group variances, Welch-Satterthwaite df) or
+    variance, df N - k), ``welch`` (per-group variances, Welch–Satterthwaite df) or
     ``rank-based`` (Dunn 1964 z on mean ranks; the estimate is in mean-rank units).
     `p` is the raw p for the `alternative`; `p_adjusted` the p under the registered
     multiplicity control (None when not tested). `ci_simultaneous` is True when the interval
-    holds jointly for the family (Tukey-Kramer, Games-Howell, Nemenyi, Dunnett, Bonferroni, Sidak).
+    holds jointly for the family (Tukey–Kramer, Games–Howell, Nemenyi, Dunnett, Bonferroni, Sidak).
     For one-sided alternatives the open end of the interval is None. `standardized` is the
     estimate over the pooled SD with Hedges' (1981) small-sample correction
     J = 1 - 3 / (4 df - 1). `decision` is ``reject``, ``retain``, ``not-tested`` (a
@@ -285,8 +285,8 @@ class ContrastFamily:
 
     `joint` names the joint law a single-step family (Tukey, Dunnett) is adjusted over,
     always the family as a whole, every slice of a simple effect included:
-    ``studentized-range`` (all pairs of one factor's levels, Tukey-Kramer or
-    Games-Howell), ``many-to-one`` (Dunnett's law for comparisons with one shared
+    ``studentized-range`` (all pairs of one factor's levels, Tukey–Kramer or
+    Games–Howell), ``many-to-one`` (Dunnett's law for comparisons with one shared
     control), ``multivariate-t`` (the multivariate t with the estimates' correlation
     matrix, exact for estimates from one variance estimate) or
     ``multivariate-t-approximate`` (correlations from estimates with separate variance
@@ -419,11 +419,11 @@ class ModelRow:
     within-unit terms df1 (F - 1) / (df1 (F - 1) + df1 + df2 + 1). Both share one CI, by
     inverting the noncentral F (Steiger 2004) at `confidence_level` = 1 - 2 alpha. `full_df` is the df the term would have with every
     cell filled (smaller `df`: some of its contrasts are not estimable). For within-unit
-    terms `gg_*` and `hf_*` give the Greenhouse-Geisser and Huynh-Feldt corrected df and p
+    terms `gg_*` and `hf_*` give the Greenhouse–Geisser and Huynh–Feldt corrected df and p
     (None with two within levels: a single contrast, sphericity holds by construction).
     `effect_ci_df` is the (df1, df2) on which the noncentral F was inverted for the CI:
     those of the test in force, so the CI excludes zero exactly when that test rejects
-    (for a within-unit term the Greenhouse-Geisser corrected df, generally fractional;
+    (for a within-unit term the Greenhouse–Geisser corrected df, generally fractional;
     otherwise the term's df and its error df); None when there is no CI.
     """
 
@@ -585,8 +585,8 @@ class OutcomeResult:
     `arithmetic` is ``exact-decimal`` when the within-cell sums of squares were
     accumulated exactly on the decimal text as scaled integers, else ``float64``. When
     `sample_of` is set the source was aggregated out of core: cell-statistic results use
-    all `sample_of` analysed units, while figures and row-level diagnostics (Shapiro-Wilk,
-    Kruskal-Wallis, Brown-Forsythe, the outlier screen, quartiles) use a deterministic
+    all `sample_of` analysed units, while figures and row-level diagnostics (Shapiro–Wilk,
+    Kruskal–Wallis, Brown–Forsythe, the outlier screen, quartiles) use a deterministic
     subsample of `sample_size` units.
     """
 

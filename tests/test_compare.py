@@ -156,8 +156,8 @@ def test_one_factor_numbers_are_its_terms_test_the_robust_tests_and_effect_sizes
     assert numbers["units/coating.p"] == ("p, seed coating", pytest.approx(classical.pvalue, rel=1e-8))
     assert numbers["welch.statistic"] == ("F (Welch)", pytest.approx(float(welch["F"][0]), rel=1e-10))
     assert numbers["welch.p"] == ("p (Welch)", pytest.approx(float(welch["p_unc"][0]), rel=1e-8))
-    assert numbers["kruskal.statistic"] == ("H (Kruskal-Wallis)", pytest.approx(kruskal.statistic, rel=1e-10))
-    assert numbers["kruskal.p"] == ("p (Kruskal-Wallis)", pytest.approx(kruskal.pvalue, rel=1e-8))
+    assert numbers["kruskal.statistic"] == ("H (Kruskal–Wallis)", pytest.approx(kruskal.statistic, rel=1e-10))
+    assert numbers["kruskal.p"] == ("p (Kruskal–Wallis)", pytest.approx(kruskal.pvalue, rel=1e-8))
     # one term in one table: its partial share is the share itself, and is called so
     label, value = numbers["units/coating.partial_eta_squared.estimate"]
     assert (label, value) == ("eta squared, seed coating", pytest.approx(eta, rel=1e-10))

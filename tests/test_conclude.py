@@ -81,7 +81,7 @@ def test_assumptions_name_how_each_is_supported(plan):
         "equal variances across groups": "checked",
     }
     spread = statuses[-1].detail
-    assert spread.startswith("Brown-Forsythe: F(3, 39) = 0.48, p = .697; "
+    assert spread.startswith("Brown–Forsythe: F(3, 39) = 0.48, p = .697; "
                              "Bartlett: \u03c7\u00b2(3) = 2.46, p = .482")
 
 
@@ -138,15 +138,15 @@ def test_a_weighted_contrast_one_sided_and_not_tested(plan):
 
 
 @pytest.mark.parametrize(("multiplicity", "method", "name"), [
-    ("tukey", "classical", "Tukey-Kramer"),
+    ("tukey", "classical", "Tukey–Kramer"),
     ("tukey", "marginal-means", "Tukey on the joint t"),
-    ("tukey", "welch", "Games-Howell"),
+    ("tukey", "welch", "Games–Howell"),
     ("tukey", "rank-based", "Nemenyi"),
     ("dunnett", "classical", "Dunnett"),
     ("dunnett", "marginal-means", "Dunnett on the joint t"),
     ("dunnett", "welch", "Dunnett with unequal variances"),
     ("dunnett", "rank-based", "Dunnett on mean ranks"),
-    ("benjamini-hochberg", "welch", "Benjamini-Hochberg"),
+    ("benjamini-hochberg", "welch", "Benjamini–Hochberg"),
     ("none", "rank-based", "unadjusted"),
 ])
 def test_the_sentence_names_the_procedure_computed(plan, multiplicity, method, name):

@@ -215,7 +215,7 @@ def test_normality_fallback_selects_the_rank_based_analysis(tmp_path: Path):
     assert {h.statistic_name for h in registered.hypotheses} == {"z"}
     assert primary.conclusions[0].sentence.startswith("Response differed") or \
         primary.conclusions[0].sentence.startswith("Response did not differ")
-    assert "Kruskal-Wallis H(3)" in primary.conclusions[0].sentence
+    assert "Kruskal–Wallis H(3)" in primary.conclusions[0].sentence
 
 
 def test_exploratory_analyses_stay_out_of_the_conclusions(tmp_path: Path):
@@ -267,11 +267,11 @@ def _games_howell_sentence(study: Path, low: str, high: str) -> str:
             "evidence that there is no difference.")
     return (f"Mean response under {high} was {abs(estimate):.2f} mg {direction} than under {low} "
             f"(95% simultaneous CI {_typeset(estimate - half)} to {_typeset(estimate + half)} mg, "
-            f"{p_words}, Games-Howell); {rest}")
+            f"{p_words}, Games–Howell); {rest}")
 
 
 def test_tukey_under_welch_is_named_games_howell_everywhere(tmp_path: Path):
-    """analysis.method welch with multiplicity tukey computes Games-Howell pairs: the
+    """analysis.method welch with multiplicity tukey computes Games–Howell pairs: the
     conclusions, the table note and the Methods section say so, and none says Tukey."""
     study = write_study(tmp_path, contrasts=only("pairwise"), multiplicity={"method": "tukey"},
                         sds=(0.2, 0.4, 2.5, 5.0), extra={"analysis": {"method": "welch"}})
@@ -281,7 +281,7 @@ def test_tukey_under_welch_is_named_games_howell_everywhere(tmp_path: Path):
     sentences = [c.sentence for c in primary.hypothesis_conclusions]
     assert sentences[0] == _games_howell_sentence(study, "d0", "d1")
     assert sentences[5] == _games_howell_sentence(study, "d2", "d4")
-    assert all(", Games-Howell); " in s and "Tukey" not in s for s in sentences)
+    assert all(", Games–Howell); " in s and "Tukey" not in s for s in sentences)
     html = (tmp_path / "run" / "appendix.html").read_text(encoding="utf-8")
     assert "Adjusted <i>p</i>: Games&#8211;Howell single-step" in html or \
         "Adjusted <i>p</i>: Games\u2013Howell single-step" in html
@@ -291,8 +291,8 @@ def test_tukey_under_welch_is_named_games_howell_everywhere(tmp_path: Path):
 
 def test_tukey_after_an_unequal_variance_fallback_is_named_games_howell(tmp_path: Path):
     """A classical plan whose registered unequal-variance fallback fires: the registered
-    (Welch) family's conclusions name Games-Howell, never Tukey; the classical family shown
-    for comparison keeps its Tukey-Kramer note."""
+    (Welch) family's conclusions name Games–Howell, never Tukey; the classical family shown
+    for comparison keeps its Tukey–Kramer note."""
     fallback = {"assumptions": {"fallbacks": [{"when": "unequal-variance",
                                                "test": "brown-forsythe", "threshold": 0.05,
                                                "use": "welch"}]}}
@@ -304,7 +304,7 @@ def test_tukey_after_an_unequal_variance_fallback_is_named_games_howell(tmp_path
     sentences = [c.sentence for c in primary.hypothesis_conclusions]
     assert len(sentences) == 6
     assert sentences[2] == _games_howell_sentence(study, "d0", "d4")
-    assert all(", Games-Howell); " in s and "Tukey" not in s for s in sentences)
+    assert all(", Games–Howell); " in s and "Tukey" not in s for s in sentences)
     html = (tmp_path / "run" / "appendix.html").read_text(encoding="utf-8")
     assert "Games\u2013Howell single-step" in html and "Tukey\u2013Kramer single-step" in html
 

@@ -66,7 +66,7 @@ def test_both_strata_sphericity_slopes_and_the_registered_family(run):
 
 def test_the_pdf_names_the_design_and_carries_the_caution(run):
     text = " ".join(" ".join(page.extract_text() for page in PdfReader(run / "appendix.pdf").pages).split())
-    assert "Greenhouse-Geisser" in text and "Mauchly" in text
+    assert "Greenhouse–Geisser" in text and "Mauchly" in text
     assert "sum-to-zero coding" in text
     assert "not, a clinical or regulatory decision" in text
 

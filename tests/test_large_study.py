@@ -1,4 +1,4 @@
-"""A large in-memory study: every unit enters the tests, while Shapiro-Wilk and the point
+"""A large in-memory study: every unit enters the tests, while Shapiro–Wilk and the point
 clouds use deterministic subsamples that the appendix states (invented data)."""
 
 from __future__ import annotations

@@ -82,7 +82,7 @@ def run(tmp_path_factory):
 def test_check_lists_every_stratum_per_outcome(run):
     _, printed = run
     assert ("stratum units x phase x hour: phase x hour, arm x phase x hour, with Mauchly's test "
-            "and Greenhouse-Geisser / Huynh-Feldt corrections per stratum") in printed
+            "and Greenhouse–Geisser / Huynh–Feldt corrections per stratum") in printed
     assert "covariate base: column base; adjusts rate only" in printed
     assert "contrast C1 (pairwise of phase within each level of hour)" in printed
 

@@ -2,7 +2,7 @@
 to end: study file and CSV in, results, results.json and HTML out.
 
 The data are invented here (numpy seeded): the last within level varies far more than the
-others, so the Greenhouse-Geisser epsilon lies well below 1.
+others, so the Greenhouse–Geisser epsilon lies well below 1.
 """
 
 from __future__ import annotations
@@ -61,12 +61,12 @@ def test_the_effect_interval_is_on_the_corrected_df_and_the_appendix_says_so(tmp
         rejected = "is rejected" in sentence
         # the stated interval excludes zero exactly when the corrected test rejects
         assert (row.partial_eta_ci_low > 0) == rejected == (row.gg_p < 0.05), sentence
-        assert stated is not None and "Greenhouse-Geisser corrected" in sentence
+        assert stated is not None and "Greenhouse–Geisser corrected" in sentence
         assert row.effect_ci_df == row.gg_df
         decisions.add(rejected)
     assert decisions == {True, False}
     html = " ".join(render(computed).html.split())
-    assert ("for within-unit terms on the Greenhouse-Geisser corrected degrees of freedom, "
+    assert ("for within-unit terms on the Greenhouse–Geisser corrected degrees of freedom, "
             "those of the test in force, so that each excludes zero exactly when its F test "
             "rejects") in html.replace("<i>F</i>", "F")
     assert "inverts the noncentral F distribution on those corrected" in html

@@ -303,8 +303,8 @@ class Analysis(_Frozen):
 
     method: Literal["classical", "welch", "rank-based"] = Field(
         default="classical",
-        description="classical (F test, pooled variance), welch (Welch's ANOVA, Welch-Satterthwaite "
-                    "contrasts, Games-Howell pairs) or rank-based (Kruskal-Wallis, Dunn contrasts).")
+        description="classical (F test, pooled variance), welch (Welch's ANOVA, Welch–Satterthwaite "
+                    "contrasts, Games–Howell pairs) or rank-based (Kruskal–Wallis, Dunn contrasts).")
 
 
 class Contrast(_Frozen):
@@ -590,7 +590,7 @@ class Plan(_Frozen):
     @property
     def robust_absent(self) -> str | None:
         """None when the tests of the one-factor layout that assume neither equal variances
-        (Welch) nor normal errors (Kruskal-Wallis) are defined for this design: one
+        (Welch) nor normal errors (Kruskal–Wallis) are defined for this design: one
         treatment factor, nothing else. Else why they are not computed, in one sentence."""
         if self.is_one_way:
             return None
@@ -601,7 +601,7 @@ class Plan(_Frozen):
             ("covariates", bool(design.covariates)),
             ("repeated measures", bool(self.within_factors))) if present]
         listed = ", ".join(has[:-1]) + (" and " if len(has) > 1 else "") + has[-1] if has else "another layout"
-        return ("Welch's test and the Kruskal-Wallis test are defined for one treatment factor "
+        return ("Welch's test and the Kruskal–Wallis test are defined for one treatment factor "
                 f"without blocks, covariates or repeated measures; this design has {listed}, "
                 "so they are not computed.")
 

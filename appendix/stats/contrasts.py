@@ -6,7 +6,7 @@ sum_i w_i m_i then has variance sum_i w_i^2 v_i, and the three methods differ on
 and the reference distribution:
 
 - classical: v_i = MS_within / n_i, Student's t on N - k df;
-- welch: v_i = s_i^2 / n_i, t on the Welch-Satterthwaite df (Welch 1947, Biometrika
+- welch: v_i = s_i^2 / n_i, t on the Welch–Satterthwaite df (Welch 1947, Biometrika
   34:28-35; Satterthwaite 1946, Biometrics Bulletin 2:110-114);
 - rank-based: m_i the mean joint rank, v_i = S^2 / n_i with the tie-corrected rank
   variance S^2 = N(N+1)/12 - sum(t^3 - t) / (12 (N - 1)), standard normal z
@@ -203,7 +203,7 @@ def contrast_parts(h: Hypothesis, model: LevelModel) -> tuple[float, float, floa
     estimate = float(np.dot(w[used], model.centre[used]))
     df = model.df
     if model.method == "welch":
-        # Welch-Satterthwaite: df = (sum a_i)^2 / sum a_i^2 / (n_i - 1), a_i = w_i^2 s_i^2 / n_i.
+        # Welch–Satterthwaite: df = (sum a_i)^2 / sum a_i^2 / (n_i - 1), a_i = w_i^2 s_i^2 / n_i.
         n = model.n[used].astype(np.float64)
         df = variance**2 / float(np.sum(terms**2 / (n - 1)))
     return estimate, math.sqrt(variance), df
@@ -254,7 +254,7 @@ def classical_contrast(h: Hypothesis, cells: CellStats, alternative: str,
 
 def welch_contrast(h: Hypothesis, cells: CellStats, alternative: str,
                    confidence: float) -> HypothesisResult:
-    """One contrast with each level's own variance and Welch-Satterthwaite df."""
+    """One contrast with each level's own variance and Welch–Satterthwaite df."""
     return contrast_result(h, welch_model(cells), alternative, confidence)
 
 

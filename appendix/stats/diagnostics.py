@@ -31,10 +31,10 @@ def shapiro_wilk(residuals: np.ndarray) -> NormalityTest:
     n = int(x.size)
     if n < 3:
         return NormalityTest("shapiro-wilk", None, None, n, (StatWarning(
-            "normality-too-few", f"The Shapiro-Wilk test needs at least 3 residuals; there are {n}."),))
+            "normality-too-few", f"The Shapiro–Wilk test needs at least 3 residuals; there are {n}."),))
     if np.ptp(x) == 0.0:
         return NormalityTest("shapiro-wilk", None, None, n, (StatWarning(
-            "normality-constant", "All residuals are equal; the Shapiro-Wilk test is undefined."),))
+            "normality-constant", "All residuals are equal; the Shapiro–Wilk test is undefined."),))
     notes: tuple[StatWarning, ...] = ()
     with _warnings.catch_warnings():
         # scipy's own note for n > 5000 is replaced by the typed warning below.
@@ -44,7 +44,7 @@ def shapiro_wilk(residuals: np.ndarray) -> NormalityTest:
     if n > SHAPIRO_MAX_N:
         notes = (StatWarning(
             "normality-p-approximate",
-            f"With {n} residuals the Shapiro-Wilk p-value is an extrapolation beyond the "
+            f"With {n} residuals the Shapiro–Wilk p-value is an extrapolation beyond the "
             f"algorithm's stated range (n <= {SHAPIRO_MAX_N}); read it as approximate."),)
     return NormalityTest("shapiro-wilk", float(w), float(p), n, notes)
 
@@ -59,7 +59,7 @@ def shapiro_wilk_large(residuals: np.ndarray) -> NormalityTest:
         return shapiro_wilk(residuals)
     result = shapiro_wilk(residuals[subsample_indices(residuals.size, SHAPIRO_MAX_N)])
     note = StatWarning("normality-subsample",
-                       f"Shapiro-Wilk was computed on a deterministic subsample of "
+                       f"Shapiro–Wilk was computed on a deterministic subsample of "
                        f"{SHAPIRO_MAX_N} of the {residuals.size} residuals.")
     return dataclasses.replace(result, warnings=(*result.warnings, note))
 
@@ -84,7 +84,7 @@ def brown_forsythe(
         failure = (StatWarning(
             "brown-forsythe-undefined",
             "The absolute deviations from the level medians show no within-level variation "
-            "(or there are too few units); the Brown-Forsythe test is undefined."),)
+            "(or there are too few units); the Brown–Forsythe test is undefined."),)
         return VarianceTest("brown-forsythe", None, None, None, None, kept + failure)
     return VarianceTest("brown-forsythe", part.statistic, float(part.df_between), float(part.df_within),
                         part.p, part.warnings)

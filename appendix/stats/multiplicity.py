@@ -260,7 +260,7 @@ test_family.__test__ = False  # a library function whose name pytest would other
 
 def tukey_family(hs: Sequence[Hypothesis], cells: CellStats, alternative: str | Sequence[str],
                  alpha: float, welch: bool = False) -> tuple[HypothesisResult, ...]:
-    """Tukey-Kramer (classical) or Games-Howell (`welch`) single-step family of pairs."""
+    """Tukey–Kramer (classical) or Games–Howell (`welch`) single-step family of pairs."""
     return test_family(hs, _alternatives(alternative, len(hs)),
                        method="welch" if welch else "classical", multiplicity="tukey",
                        cells=cells, alpha=alpha)

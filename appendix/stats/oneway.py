@@ -2,7 +2,7 @@
 
 The variance table a one-factor outcome reports is the design engine's one-term model
 (`appendix.stats.linear`); `partition` serves the tests that are themselves one-way
-analyses of variance (Brown-Forsythe on absolute deviations) and words the one-way
+analyses of variance (Brown–Forsythe on absolute deviations) and words the one-way
 layout's own notes on a one-factor table (`appendix.models`).
 """
 

@@ -1,4 +1,4 @@
-"""Kruskal-Wallis rank test for a one-way layout."""
+"""Kruskal–Wallis rank test for a one-way layout."""
 
 from __future__ import annotations
 
@@ -41,7 +41,7 @@ def kruskal_wallis(
     ss_total = ss_ranks_between + cells.ss_within
     if ss_total == 0.0:
         warnings.append(StatWarning(
-            "all-identical", "All analysed values are tied; the Kruskal-Wallis test is undefined."))
+            "all-identical", "All analysed values are tied; the Kruskal–Wallis test is undefined."))
         return KruskalWallis(None, df, None, correction, tuple(warnings))
     h = (n - 1.0) * ss_ranks_between / ss_total
     return KruskalWallis(h, df, float(_st.chi2.sf(h, df)), correction, tuple(warnings))

@@ -159,11 +159,11 @@ class RepeatedRow:
     """One source of variation in the repeated-measures table.
 
     `kind` is ``between`` (tested against the between-units error), ``within`` (tested
-    against the within-units error; has Greenhouse-Geisser and Huynh-Feldt corrected df
+    against the within-units error; has Greenhouse–Geisser and Huynh–Feldt corrected df
     and p, except with two within levels, where sphericity holds by construction) or
     ``error``. Partial eta and omega squared share one noncentral-F interval at
     `confidence_level` (1 - 2 alpha; Steiger 2004), computed on `effect_ci_df`: the df of
-    the test in force, i.e. the Greenhouse-Geisser corrected df of a within term (when
+    the test in force, i.e. the Greenhouse–Geisser corrected df of a within term (when
     its epsilon exists), else the term's df and its error df; None without an interval.
     `statistic` is the F ratio MS / MS_error, `p` its right tail on (`df`, error df).
     """
@@ -270,7 +270,7 @@ def repeated_measures(data: CompleteUnits, within: str, within_levels: Sequence[
     Design*, 3rd ed.): the between factor against units within groups, on
     (g - 1, N - g) df; the within factor and the interaction against the within-units
     error, on (d, d(N - g)) and (d(g - 1), d(N - g)) df, d = levels - 1. With d > 1 every
-    within term also gets df multiplied by the Greenhouse-Geisser and by the Huynh-Feldt
+    within term also gets df multiplied by the Greenhouse–Geisser and by the Huynh–Feldt
     (Lecoutre 1991) epsilon and the p on them (see `sphericity`); with d = 1 epsilon is 1
     by construction and no correction is given. Without `between` any groups in
     `data` are ignored. Effect sizes: partial eta squared SS / (SS + SS_error) and
@@ -363,7 +363,7 @@ def effect_row(term: tuple[str, ...], label: str, kind: str, ss: float, df: int,
 
     The effect-size interval inverts the noncentral F (Steiger 2004, Psychological
     Methods 9:164-182) on the df of the test in force: for a within term the
-    Greenhouse-Geisser corrected (eps df1, eps df2), which need not be integers; for a
+    Greenhouse–Geisser corrected (eps df1, eps df2), which need not be integers; for a
     between term, or when the epsilon is undefined, (df1, df2). Its noncentrality bounds
     are turned into partial eta squared as lambda / (lambda + df1 + df2 + 1) on those same
     df, so that the 1 - 2 alpha interval excludes zero exactly when that test rejects at

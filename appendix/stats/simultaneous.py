@@ -1,4 +1,4 @@
-"""Single-step simultaneous tests: Tukey-Kramer / Games-Howell (all pairs) and Dunnett
+"""Single-step simultaneous tests: Tukey–Kramer / Games–Howell (all pairs) and Dunnett
 (many to one) for one factor's levels, and any family from the joint multivariate t of
 its estimates (`joint_results`), with simultaneous confidence intervals.
 
@@ -43,7 +43,7 @@ def _directed(r: HypothesisResult) -> float:
     return -r.statistic if r.alternative == "less" else r.statistic
 
 
-# --- Tukey-Kramer and Games-Howell -------------------------------------------------------
+# --- Tukey–Kramer and Games–Howell -------------------------------------------------------
 
 @lru_cache(maxsize=256)
 def _q_critical(alpha: float, k: int, df: float) -> float:
@@ -65,7 +65,7 @@ def tukey_results(raw: Sequence[HypothesisResult], alpha: float) -> tuple[Hypoth
     which is conservative (a warning says so).
     """
     if any(r.kind != "pairwise" for r in raw):
-        raise InternalError("Tukey-Kramer applies only to families of pairwise hypotheses")
+        raise InternalError("Tukey–Kramer applies only to families of pairwise hypotheses")
     ready = [r for r in raw if r.p is not None]
     levels = {i for r in ready for i, w in enumerate(r.weights) if w != 0.0}
     k = max(len(levels), 2)
@@ -78,7 +78,7 @@ def tukey_results(raw: Sequence[HypothesisResult], alpha: float) -> tuple[Hypoth
         extra: tuple[StatWarning, ...] = ()
         if r.method == "welch":
             extra += (StatWarning("games-howell-approximate",
-                                  "Games-Howell intervals use each pair's Welch df; their joint "
+                                  "Games–Howell intervals use each pair's Welch df; their joint "
                                   "coverage is approximate."),)
         if r.alternative == "two-sided":
             q = abs(r.statistic)
@@ -176,7 +176,7 @@ def dunnett_results(raw: Sequence[HypothesisResult], var_mean: Sequence[float],
     rho_ij = lam_i lam_j with lam_i = sqrt(v_c / (v_c + v_i)), `var_mean` the variance v
     of each level's estimate (n-based for classical and rank-based; each level's own
     variance under welch, where each comparison also keeps its Welch df, an
-    approximation like Games-Howell). Two-sided: p_adj = P(max |T| >= |t|); one-sided:
+    approximation like Games–Howell). Two-sided: p_adj = P(max |T| >= |t|); one-sided:
     P(max T >= t) in the alternative's direction; interval estimate -/+ d * SE.
     """
     pairs = [_versus_control(r) for r in raw]

@@ -126,7 +126,7 @@ def undefined_sphericity(d: int) -> Sphericity:
 
 
 def sphericity(y: np.ndarray, groups: np.ndarray | None = None) -> Sphericity:
-    """Mauchly's test and the Greenhouse-Geisser, Huynh-Feldt and lower-bound epsilons.
+    """Mauchly's test and the Greenhouse–Geisser, Huynh–Feldt and lower-bound epsilons.
 
     `y` is the (units, levels) matrix of complete units, `groups` the between-group code
     of each row (None for one group). The covariance is pooled within groups, so group
@@ -154,7 +154,7 @@ def sphericity(y: np.ndarray, groups: np.ndarray | None = None) -> Sphericity:
     if hf is None:
         notes.append(StatWarning("huynh-feldt-undefined",
                                  f"With {df_s} residual degrees of freedom for {d} contrasts the "
-                                 "Huynh-Feldt epsilon is not defined."))
+                                 "Huynh–Feldt epsilon is not defined."))
     if df_s < d:
         notes.append(StatWarning("mauchly-too-few-units",
                                  f"Mauchly's test needs at least {d} residual degrees of freedom "

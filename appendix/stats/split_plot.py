@@ -21,7 +21,7 @@ the means of the others), so its scores are s_i = C_S'y_i:
   of T's SS over the columns, df_T d_S; the error unit x S is the sum of the residual
   SS, df_res d_S. Between terms not listed with S (blocks above all) and covariates are
   pooled into that error. With one within factor there is one stratum.
-- sphericity of each stratum: Mauchly's test and the Greenhouse-Geisser and Huynh-Feldt
+- sphericity of each stratum: Mauchly's test and the Greenhouse–Geisser and Huynh–Feldt
   (Lecoutre) epsilons from the residual cross-products of its scores
   (`appendix.stats.sphericity`); a stratum of one contrast has epsilon 1.
 

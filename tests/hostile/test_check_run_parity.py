@@ -163,7 +163,7 @@ def test_type_3_repeated_measures_with_a_score_its_model_fits_exactly(tmp_path):
 
 @pytest.mark.filterwarnings("error::RuntimeWarning")
 def test_sphericity_of_repeated_measures_without_residual_variation(tmp_path):
-    """Leaked numpy's "invalid value in scalar divide" (0/0 in the Greenhouse-Geisser
+    """Leaked numpy's "invalid value in scalar divide" (0/0 in the Greenhouse–Geisser
     epsilon) when every unit's profile is parallel to the others (no unit x visit
     variation): sphericity is then undefined and says so, and the within F is undefined."""
     plan = WITHIN_ONLY + "outcomes:\n  - {name: y, label: Score, role: primary}\n"

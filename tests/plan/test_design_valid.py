@@ -154,5 +154,5 @@ def test_plan_built_in_code_checks_by_too(write_study):
 def test_the_plan_names_the_data_route(write_study, text, route):
     plan = load_plan(write_study(text)).plan
     assert plan.data_route == route
-    # the route is the one-factor layout that also decides whether Welch and Kruskal-Wallis apply
+    # the route is the one-factor layout that also decides whether Welch and Kruskal–Wallis apply
     assert (plan.robust_absent is None) == (route == "one-factor")

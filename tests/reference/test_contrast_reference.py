@@ -119,7 +119,7 @@ def test_many_to_one_tail_reduces_to_t_and_normal() -> None:
         -math.expm1(3 * math.log1p(-tail)), rel=1e-10)
 
 
-# --- Tukey-Kramer -------------------------------------------------------------------
+# --- Tukey–Kramer -------------------------------------------------------------------
 
 # NIST/SEMATECH e-Handbook of Statistical Methods, section 7.4.7.1 (Tukey's method),
 # four groups of five; as copied in scipy 1.17 test_hypotests.py (test_engineering_stat_handbook).
@@ -143,7 +143,7 @@ def test_tukey_nist_handbook_intervals() -> None:
 def _pain_threshold():
     """Pain threshold by hair colour (McClave & Dietrich 1991), as shipped with pingouin 0.7.
 
-    Unequal n (5, 5, 4, 5), so Tukey-Kramer."""
+    Unequal n (5, 5, 4, 5), so Tukey–Kramer."""
     frame = pingouin.read_dataset("anova")
     levels = tuple(dict.fromkeys(frame["Hair color"]))
     codes = np.array([levels.index(x) for x in frame["Hair color"]], dtype=np.intp)
@@ -191,7 +191,7 @@ def test_tukey_kramer_unequal_n_against_reference_libraries() -> None:
                         frozenset(("Light Blond", "Light Brunette"))}
 
 
-# --- Games-Howell -------------------------------------------------------------------
+# --- Games–Howell -------------------------------------------------------------------
 
 def test_games_howell_penguins_pingouin_docstring() -> None:
     # Palmer penguins body mass by species (Gorman, Williams & Fraser 2014), pingouin 0.7 dataset.

@@ -195,7 +195,7 @@ def test_insect_dataset_sphericity_and_epsilons():
         _close(value, pg.epsilon(frame, dv="DesireToKill", within="cell", subject="Subject",
                                  correction=correction))
     row = _row(fit, "within")
-    # Huynh-Feldt corrected p: scipy's F survival function at pingouin's HF epsilon.
+    # Huynh–Feldt corrected p: scipy's F survival function at pingouin's HF epsilon.
     hf = pg.epsilon(frame, dv="DesireToKill", within="cell", subject="Subject", correction="hf")
     _close(row.hf_p, st.f.sf(row.statistic, hf * row.df, hf * _error(fit, "within").df))
 
@@ -382,7 +382,7 @@ def test_random_designs_against_pingouin_and_statsmodels(seed):
         if row.kind == "between" and row.statistic is not None:
             _check_interval(row, row.df, between_error)
         elif row.kind == "within" and row.statistic is not None:
-            # within terms: the test in force is on the Greenhouse-Geisser corrected df,
+            # within terms: the test in force is on the Greenhouse–Geisser corrected df,
             # the epsilon taken from pingouin (or 1 for two levels)
             _check_interval(row, eps["gg"] * row.df, eps["gg"] * within_error)
 

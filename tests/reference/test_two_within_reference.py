@@ -90,7 +90,7 @@ def test_f_df_and_p_equal_statsmodels_anova_rm(within_only, dataset):
 
 def test_sums_of_squares_epsilon_and_sphericity_equal_pingouin_rm_anova(within_only, dataset):
     # pingouin 0.7.0 rm_anova(rm_anova2, within=[Time, Metric]): SS, F, p_unc, p_GG_corr,
-    # eps (Greenhouse-Geisser), W_spher and p_spher per effect
+    # eps (Greenhouse–Geisser), W_spher and p_spher per effect
     reference = pg.rm_anova(data=dataset, dv="Performance", within=["Time", "Metric"],
                             subject="Subject").set_index("Source")
     rows = _rows(within_only)

@@ -6,7 +6,7 @@ tables agree; the secondary outcome is degenerate on purpose (F unavailable, wit
 warning) so that the appendix must show an explained gap.
 
 Planned contrasts (registered order C1, C2, C3 under a fixed sequence): C1 custom, C2 a
-one-sided linear trend (open lower bound), C3 each dose versus placebo. The Brown-Forsythe
+one-sided linear trend (open lower bound), C3 each dose versus placebo. The Brown–Forsythe
 fallback fires on the primary outcome, so its Welch family is the registered result and
 the classical family is shown for comparison; the fixed sequence stops at C3:low dose, so
 C3:high dose is not tested. The secondary outcome's contrast is unavailable, with a
@@ -74,8 +74,8 @@ def _primary(values: np.ndarray, codes: np.ndarray) -> R.OutcomeResult:
         assumptions=(
             R.AssumptionStatus("Independent units", "attested", "One measurement per participant."),
             R.AssumptionStatus("Random allocation", "not-attested", "The plan does not say."),
-            R.AssumptionStatus("Normal errors", "checked", "Shapiro-Wilk on residuals, Q-Q plot."),
-            R.AssumptionStatus("Equal variances", "checked", "Brown-Forsythe and Bartlett."),
+            R.AssumptionStatus("Normal errors", "checked", "Shapiro–Wilk on residuals, Q-Q plot."),
+            R.AssumptionStatus("Equal variances", "checked", "Brown–Forsythe and Bartlett."),
             R.AssumptionStatus("Numeric outcome", "by-construction", "Values are read as numbers."),
         ))
     registered = _family("sbp_change", "welch", groups, REGISTERED, registered=True)
@@ -147,7 +147,7 @@ EXPLORATORY = (
 
 def _hypothesis(spec, method: str, groups, confidence: float = 0.95) -> R.HypothesisResult:
     """Contrast estimate, SE, t, df, p and CI by the textbook formulas (numpy/scipy):
-    pooled variance on N - k df, or per-group variances with Welch-Satterthwaite df."""
+    pooled variance on N - k df, or per-group variances with Welch–Satterthwaite df."""
     hid, contrast, kind, label, weights, alternative = spec
     w = np.array(weights)
     n = np.array([len(g) for g in groups], dtype=float)

@@ -340,7 +340,7 @@ def test_forest_caption_says_what_the_intervals_are(page, study_results, figures
     assert "An arrow marks an interval open" in caption and "labelled gaps" in caption
     assert ("Trend estimates are on their own scales, slopes or polynomial coefficients over "
             "the level scores, which the table note states.") in caption
-    # pairs under welch: Games-Howell
+    # pairs under welch: Games–Howell
     tukey = _with_hypotheses(study_results, "outcomes[1].contrasts[0]", {"multiplicity": "tukey"},
                              alternative="two-sided", decision="reject", ci_simultaneous=True)
     caption = _forest_caption(parse(render_html(tukey, figures, RenderOptions())))

@@ -1,4 +1,4 @@
-"""Brown-Forsythe on decimal data: the exact path gives the float path's answer, and both
+"""Brown–Forsythe on decimal data: the exact path gives the float path's answer, and both
 agree with scipy.stats.levene(center='median') (scipy 1.17) on invented seeded data."""
 
 from __future__ import annotations

@@ -320,7 +320,7 @@ def test_argument_errors_are_internal_errors():
 
 def _non_spherical(seed: int, groups: int = 1) -> tuple[np.ndarray, np.ndarray | None]:
     """Invented (numpy-seeded) scores at 4 within levels whose last level varies about 13
-    times as much as the others (independent levels): the Greenhouse-Geisser epsilon
+    times as much as the others (independent levels): the Greenhouse–Geisser epsilon
     lies near its lower bound 1/3. The last level is shifted by a random amount, so that
     some seeds reject and some do not."""
     rng = np.random.default_rng(seed)
