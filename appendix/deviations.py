@@ -6,8 +6,9 @@ Kinds (stable identifiers, listed in `appendix.plan.choices.DEVIATION_KINDS`):
 - ``plan-changed``, ``outcome-added``, ``outcome-removed``, ``outcome-role-switched``: the
   plan against the lock, key by key (subject: the dotted key path); changes recorded as
   revisions of the lock are listed too, acknowledged by the revision's reason;
-- ``below-planned-n``: fewer analysed units than ``data.planned_n`` at a level (or cell)
-  that has eligible units (subject: the level), or in all (subject ``total``);
+- ``below-minimum-n``: fewer analysed units than ``data.planned_n.minimum`` at a level
+  (or cell) that has eligible units, for some outcome (subject: the level); fewer than the
+  planned number alone is attrition, shown in the unit flow, not a deviation;
 - ``level-without-units``: a plan level (or cell) with no eligible unit (subject: the level);
 - ``missing-above-limit``: a larger share of eligible units without a value than
   ``data.missing_limit`` (subject: the outcome);
@@ -24,6 +25,7 @@ from __future__ import annotations
 import dataclasses
 from collections.abc import Iterable, Sequence
 
+from appendix.data.flow import analysed_words, groups_below
 from appendix.names import LOCK_FILE
 from appendix.plan.lock import Lock, PlanChange, compare_plans
 from appendix.plan.model import Plan
@@ -35,13 +37,21 @@ NOT_REGISTERED = "plan-not-registered"
 
 
 def registration(lock: Lock | None) -> Registration | None:
-    """What the appendix shows of the lock: first lock time, last hash, revisions."""
+    """What the appendix shows of the lock: first lock time, last hash, revisions, and
+    the data file at the first lock and, after a revision, at the last one (a relock
+    made after the data existed must not read as "plan fixed before the data")."""
     if lock is None:
         return None
+    data, statement = lock.data, lock.data.statement
+    if lock.revisions:
+        last = lock.revisions[-1]
+        data = last.data
+        then = "the data file existed" if last.data.existed else "the data file did not exist yet"
+        statement = f"at the first lock, {lock.data.statement}; at revision {last.number}, {then}"
     return Registration(
         lock_file=LOCK_FILE, locked_at=lock.locked_at, plan_sha256=lock.plan_sha256,
-        tool_version=lock.tool_version, data_at_lock=lock.data.statement,
-        data_sha256_at_lock=lock.data.sha256,
+        tool_version=lock.tool_version, data_at_lock=statement,
+        data_sha256_at_lock=data.sha256,
         revisions=tuple(PlanRevision(r.number, r.time, r.previous_sha256, r.sha256, r.reason)
                         for r in lock.revisions))
 
@@ -100,24 +110,12 @@ def _grouping(plan: Plan) -> tuple[str, str]:
     return "cell", " \u00d7 ".join(names)
 
 
-def _plural(n: int, word: str) -> str:
-    return f"{n} {word}{'' if n == 1 else 's'}"
-
-
-def _analysed_words(counts: Sequence[tuple[str, int]]) -> str:
-    """``10 units analysed`` when every outcome agrees, else each outcome's count."""
-    if len({n for _, n in counts}) == 1:
-        return f"{_plural(counts[0][1], 'unit')} analysed"
-    return "units analysed: " + ", ".join(f"{n} for {name}" for name, n in counts)
-
-
 def data_deviations(plan: Plan, flow: UnitFlow) -> tuple[Deviation, ...]:
-    """Levels without units, analysed numbers below the planned n, and missing values
-    above the registered limit, from the unit flow."""
+    """Levels without units, analysed numbers below the registered minimum, and missing
+    values above the registered limit, from the unit flow."""
     level, grouping = _grouping(plan)
     found: list[Deviation] = []
     read = {c.level: c.n for c in flow.read}
-    empty = {c.level for c in flow.eligible if c.n == 0}
     for count in flow.eligible:
         if count.n == 0:
             n_read = read.get(count.level, 0)
@@ -126,38 +124,26 @@ def data_deviations(plan: Plan, flow: UnitFlow) -> tuple[Deviation, ...]:
                 "level-without-units", count.level,
                 f"No eligible units at {level} {show(count.level)} of {grouping} ({why}).",
                 False, detected="eligible units per level in the unit flow"))
-    found += _below_planned(plan, flow, level, grouping, empty)
+    found += _below_minimum(plan, flow, level, grouping)
     found += _missing_above_limit(plan, flow)
     return tuple(found)
 
 
-def _below_planned(plan: Plan, flow: UnitFlow, level: str, grouping: str,
-                   empty: set[str]) -> list[Deviation]:
+def _below_minimum(plan: Plan, flow: UnitFlow, level: str, grouping: str) -> list[Deviation]:
+    """Groups (cells) with eligible units whose analysed number is below the registered
+    ``data.planned_n.minimum`` for some outcome. A shortfall against the planned number
+    alone is attrition, which the unit flow shows by reason; it departs from no rule."""
     planned = plan.data.planned_n
-    if planned is None or not flow.outcomes:
+    minimum = planned.minimum if planned is not None else None
+    if minimum is None:
         return []
-    detected = "analysed units in the unit flow compared with data.planned_n"
-    found = []
-    if planned.per_group is not None:
-        analysed = [(o.outcome, {c.level: c.n for c in o.analysed}) for o in flow.outcomes]
-        for count in flow.eligible:
-            if count.level in empty:
-                continue
-            counts = [(name, by_level.get(count.level, 0)) for name, by_level in analysed]
-            if min(n for _, n in counts) < planned.per_group:
-                found.append(Deviation(
-                    "below-planned-n", count.level,
-                    f"{level.capitalize()} {show(count.level)} of {grouping}: "
-                    f"{_analysed_words(counts)}; {planned.per_group} planned per "
-                    f"{'group' if level == 'level' else 'cell'}.", False, detected=detected))
-    if planned.total is not None:
-        counts = [(o.outcome, sum(c.n for c in o.analysed)) for o in flow.outcomes]
-        if min(n for _, n in counts) < planned.total:
-            found.append(Deviation(
-                "below-planned-n", "total",
-                f"In all: {_analysed_words(counts)}; {planned.total} planned.", False,
-                detected=detected))
-    return found
+    detected = "analysed units in the unit flow compared with data.planned_n.minimum"
+    per = "group" if level == "level" else "cell"
+    return [Deviation("below-minimum-n", group,
+                      f"{level.capitalize()} {show(group)} of {grouping}: "
+                      f"{analysed_words(counts)}; the plan's minimum is {minimum} per {per}.",
+                      False, detected=detected)
+            for group, counts in groups_below(flow, minimum)]
 
 
 def _missing_above_limit(plan: Plan, flow: UnitFlow) -> list[Deviation]:

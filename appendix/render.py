@@ -40,7 +40,7 @@ from appendix import numbers
 from appendix.figure_spec import FIGURE_KINDS, PLOT_POINTS
 from appendix.methods import adjustment, methods_used, references_for
 from appendix.results import (Diagnostics, HypothesisResult, LevelCount, ModelRow, ModelTable,
-                              OutcomeResult, StatWarning, StudyResults)
+                              OutcomeResult, PlannedNumbers, StatWarning, StudyResults)
 from appendix.typefaces import FONT_FACES, font_folder, template_root
 
 PAPER_SIZES = ("A4", "Letter")
@@ -101,6 +101,8 @@ def _filters(options: RenderOptions) -> dict[str, Any]:
             estimate_decimals=2 if options.decimals is None else options.decimals),
         "short_hash": lambda digest: digest[:12],
         "level_counts": _level_counts,
+        "planned_counts": planned_counts,
+        "shortfall": shortfall,
         "upper_first": _upper_first,
         "contrast_interval": _contrast_interval,
         "error_bound": _error_bound,
@@ -177,7 +179,7 @@ WORDS: Mapping[str, Mapping[Any, str]] = MappingProxyType({
         "outcome-added": "Outcome added",
         "outcome-removed": "Outcome removed",
         "outcome-role-switched": "Outcome switched between primary and secondary",
-        "below-planned-n": "Fewer units than planned",
+        "below-minimum-n": "Fewer units than the registered minimum",
         "level-without-units": "Level without units",
         "missing-above-limit": "Missing data above the registered limit",
         "acknowledgement-unmatched": "Acknowledgement matches no deviation"}),
@@ -317,6 +319,35 @@ def _level_counts(items: Sequence[LevelCount], levels: list[str]) -> list[int]:
     """Counts in registered level order; a level absent from `items` counts zero."""
     by_level = {item.level: item.n for item in items}
     return [by_level.get(level, 0) for level in levels]
+
+
+def planned_counts(planned: PlannedNumbers | None, levels: list[str]) -> list[int | None] | None:
+    """The unit flow's planned row: the planned number per group (None where the plan
+    plans only a total), then the planned total; None without ``data.planned_n``."""
+    if planned is None:
+        return None
+    per_group = [planned.per_group] * len(levels)
+    total = planned.total if planned.total is not None else (
+        planned.per_group * len(levels) if planned.per_group is not None else None)
+    return [*per_group, total]
+
+
+def shortfall(analysed: Sequence[LevelCount], planned: PlannedNumbers | None,
+              levels: list[str]) -> list[int | None] | None:
+    """Analysed units short of the planned number, per group and in all (0 where the plan
+    is met, None where no number is planned); None without ``data.planned_n``.
+
+    >>> shortfall([LevelCount("a", 10), LevelCount("b", 13)], PlannedNumbers(12), ["a", "b"])
+    [2, 0, 2]
+    """
+    row = planned_counts(planned, levels)
+    if row is None:
+        return None
+    counts = _level_counts(analysed, levels)
+    per_level = [None if p is None else max(p - n, 0) for p, n in zip(row, counts)]
+    if planned.per_group is not None and planned.total is None:
+        return [*per_level, sum(per_level)]
+    return [*per_level, None if row[-1] is None else max(row[-1] - sum(counts), 0)]
 
 
 def _alpha(value: float) -> str:

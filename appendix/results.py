@@ -665,6 +665,16 @@ class UnitFlow:
 
 
 @dataclass(frozen=True)
+class PlannedNumbers:
+    """The plan's ``data.planned_n``: analysed units planned per group (cell) and in all,
+    and the registered minimum per group below which a shortfall is a deviation."""
+
+    per_group: int | None = None
+    total: int | None = None
+    minimum: int | None = None
+
+
+@dataclass(frozen=True)
 class Finding:
     """Something about plan versus data that the reader must see (not an error)."""
 
@@ -734,9 +744,12 @@ class Registration:
     """The registration lock the run compared the plan with (``study.lock.json``).
 
     `locked_at` is the first lock's time (UTC, ISO 8601); `plan_sha256` the hash of the
-    plan as last registered (after any revision); `data_at_lock` says in words whether
-    the data file existed when the plan was first locked, `data_sha256_at_lock` its
-    SHA-256 then (None when it did not exist).
+    plan as last registered (after any revision), which differs from the run's
+    `StudyResults.plan_sha256` (the plan analysed, its ``deviations`` acknowledgements
+    included) when the plan was changed or acknowledgements were added since;
+    `data_at_lock` says in words whether the data file existed when the plan was first
+    locked and, after a revision, at the last revision; `data_sha256_at_lock` is its
+    SHA-256 at the last registration (None when it did not exist then).
     """
 
     lock_file: str
@@ -797,6 +810,7 @@ class StudyResults:
     registration: Registration | None = None
     plan_settings: tuple[PlanSetting, ...] = ()
     families: tuple[RegisteredFamily, ...] = ()
+    planned_n: PlannedNumbers | None = None
     format_version: int = field(default=FORMAT_VERSION)
 
 

@@ -21,6 +21,7 @@ from appendix.results import (
     ExploratoryAnalysis,
     FactorInfo,
     OutcomeResult,
+    PlannedNumbers,
     RegisteredFamily,
     Software,
     StudyInfo,
@@ -125,6 +126,9 @@ def study_analysis(loaded: LoadedPlan, dataset: Dataset, software: tuple[Softwar
         registration=registration(lock),
         plan_settings=loaded.settings,
         families=tested,
+        planned_n=(None if plan.data.planned_n is None else PlannedNumbers(
+            plan.data.planned_n.per_group, plan.data.planned_n.total,
+            plan.data.planned_n.minimum)),
     )
     return Analysis(results, {r.outcome: r for _, _, _, r in work})
 

@@ -14,9 +14,11 @@ DEMO = REPO / "studies" / "seed-coating"
 
 @pytest.fixture
 def demo_study(tmp_path: Path) -> Path:
-    """A copy of the demo study folder; returns the path of its study file."""
+    """A copy of the demo study folder without its registration lock (the plan as it is
+    before `appendix lock`, so that tests register it themselves); returns the path of
+    its study file."""
     target = tmp_path / "seed-coating"
-    shutil.copytree(DEMO, target, ignore=shutil.ignore_patterns("__pycache__"))
+    shutil.copytree(DEMO, target, ignore=shutil.ignore_patterns("__pycache__", "study.lock.json"))
     return target / "study.yaml"
 
 

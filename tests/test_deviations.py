@@ -61,6 +61,11 @@ def _demo_counts(study: Path) -> dict[str, Counter]:
     return counts | {"eligible": Counter(r["coating"] for r in eligible)}
 
 
+def _with_minimum(study: Path, minimum: int = 12) -> None:
+    """Register a minimum of analysed units per group beside the planned 12."""
+    _edit(study, "    per_group: 12\n", f"    per_group: 12\n    minimum: {minimum}\n")
+
+
 def _lock(study: Path, environ=FIRST) -> None:
     lock_plan(load_plan(study), environ=environ)
 
@@ -100,12 +105,15 @@ def test_a_locked_unchanged_plan_shows_its_lock_on_the_cover(demo_study: Path):
     registration = computed.results.registration
     assert (registration.locked_at, registration.plan_sha256, registration.data_at_lock) == (
         "2026-02-14T09:00:00Z", load_plan(demo_study).sha256, "the data file existed at lock time")
-    kinds = {d.kind for d in computed.results.deviations}
-    assert kinds == {"below-planned-n"}  # nothing about the plan itself
+    # the invented data fall short of the planned 12 per group, but the plan sets no
+    # minimum: attrition, shown in the unit flow, is no deviation
+    assert computed.results.deviations == ()
     cover = _text(api.render(computed).html, "cover")
     sha = registration.plan_sha256
-    assert (f"Plan registered locked 2026-02-14T09:00:00Z; SHA-256 {sha[:12]} {sha} ; the data "
-            "file existed at lock time (the same file as analysed)") in cover
+    assert (f"Plan registered locked 2026-02-14T09:00:00Z; registered plan SHA-256 {sha[:12]} "
+            f"{sha} (the plan analysed); the data file existed at lock time (the same file as "
+            "analysed)") in cover
+    assert f"Plan analysed, SHA-256 {sha[:12]} {sha} Study file" in cover
     # a data file corrected after the lock: the cover says the locked one was another file
     data = demo_study.parent / "data" / "units.csv"
     data.write_text(data.read_text(encoding="utf-8").replace(",no,", ",no ,", 1),
@@ -113,6 +121,41 @@ def test_a_locked_unchanged_plan_shows_its_lock_on_the_cover(demo_study: Path):
     cover = _text(api.render(api.compute(demo_study)).html, "cover")
     assert (f"the data file existed at lock time (SHA-256 "
             f"{registration.data_sha256_at_lock[:12]} then, not the file analysed)") in cover
+
+
+def test_the_cover_says_which_plan_each_sha256_is_of(demo_study: Path):
+    _lock(demo_study)
+    _append(demo_study, "deviations:\n  - {kind: plan-not-registered, subject: plan, "
+            "justification: none needed (invented)}\n")
+    computed = api.compute(demo_study)
+    locked, analysed = computed.results.registration.plan_sha256, computed.results.plan_sha256
+    assert locked != analysed  # the acknowledgements are in the plan analysed, never locked
+    cover = _text(api.render(computed).html, "cover")
+    assert (f"registered plan SHA-256 {locked[:12]} {locked} (the plan as locked; the plan "
+            "analysed has another SHA-256, below)") in cover
+    assert (f"Plan analysed, SHA-256 {analysed[:12]} {analysed} (the canonical plan as run, "
+            "its deviations acknowledgements included; not the registered plan's SHA-256 "
+            "above)") in cover
+
+
+def test_after_a_relock_the_cover_says_when_the_data_existed(demo_study: Path):
+    data = demo_study.parent / "data" / "units.csv"
+    kept = data.read_bytes()
+    data.unlink()
+    _lock(demo_study)  # before the data file existed
+    data.write_bytes(kept)
+    _edit(demo_study, "alpha: 0.05", "alpha: 0.01")
+    lock_plan(load_plan(demo_study), relock=True, reason="stricter level (invented)",
+              environ=SECOND)
+    computed = api.compute(demo_study)
+    registration = computed.results.registration
+    assert registration.data_at_lock == ("at the first lock, plan fixed before the data file "
+                                         "existed; at revision 1, the data file existed")
+    assert registration.data_sha256_at_lock == next(
+        i.sha256 for i in computed.results.inputs if i.role == "data")
+    cover = _text(api.render(computed).html, "cover")
+    assert ("(the plan analysed); at the first lock, plan fixed before the data file existed; "
+            "at revision 1, the data file existed (the same file as analysed)") in cover
 
 
 @pytest.mark.parametrize("old, new, kind, subject, message", [
@@ -133,7 +176,7 @@ def test_each_change_of_the_plan_against_the_lock(demo_study: Path, old, new, ki
     _lock(demo_study)
     _edit(demo_study, old, new)
     deviations = _deviations(demo_study)
-    found = [d for d in deviations if d.kind not in ("below-planned-n",)]
+    found = list(deviations)
     assert [(d.kind, d.subject, d.message, d.acknowledged) for d in found] == [
         (kind, subject, message, False)]
     assert found[0].detected.startswith("plan compared key by key with study.lock.json "
@@ -176,10 +219,25 @@ def test_revisions_are_listed_as_acknowledged_changes_with_their_reasons(demo_st
     assert "locked 2026-02-14T09:00:00Z, revised 1 time (last 2026-02-28T09:00:00Z)" in cover
 
 
+@pytest.mark.parametrize("name", ["seed-coating", "greenhouse-split", "wound-dose"])
+def test_every_demo_is_registered_and_opens_without_a_banner(computed_demos, name: str):
+    from tests.conftest import REPO
+
+    computed = computed_demos[name]
+    study = REPO / "studies" / name / "study.yaml"
+    assert computed.results.deviations == ()
+    assert computed.results.registration.plan_sha256 == load_plan(study).sha256
+    assert computed.results.registration.data_sha256_at_lock == next(
+        i.sha256 for i in computed.results.inputs if i.role == "data")
+    html = api.render(computed).html
+    assert _banner(html) is None and "unacknowledged deviation" not in html
+
+
 # --- data against the plan --------------------------------------------------------------
 
 
-def test_fewer_analysed_units_than_planned_per_group(demo_study: Path):
+def test_fewer_analysed_units_than_the_registered_minimum_per_group(demo_study: Path):
+    _with_minimum(demo_study)
     counts = _demo_counts(demo_study)
     expected = []
     for level in LEVELS:
@@ -187,21 +245,55 @@ def test_fewer_analysed_units_than_planned_per_group(demo_study: Path):
         if min(n for _, n in per) < 12:
             words = (f"{per[0][1]} units analysed" if per[0][1] == per[1][1] else
                      "units analysed: " + ", ".join(f"{n} for {name}" for name, n in per))
-            expected.append((level, f"Level '{level}' of seed coating: {words}; 12 planned "
-                                    "per group.", False))
+            expected.append((level, f"Level '{level}' of seed coating: {words}; the plan's "
+                                    "minimum is 12 per group.", False))
     assert len(expected) == 4  # every coating of the invented data falls short somewhere
-    assert _of(_deviations(demo_study), "below-planned-n") == expected
+    assert _of(_deviations(demo_study), "below-minimum-n") == expected
     assert expected[3][1] == ("Level 'humic' of seed coating: units analysed: 11 for dry_mass, "
-                              "12 for chlorophyll; 12 planned per group.")
+                              "12 for chlorophyll; the plan's minimum is 12 per group.")
 
 
-def test_fewer_analysed_units_than_planned_in_all(demo_study: Path):
-    _edit(demo_study, "    per_group: 12", "    total: 48")
+def test_a_lower_minimum_leaves_only_the_groups_below_it(demo_study: Path):
+    _with_minimum(demo_study, 11)
     counts = _demo_counts(demo_study)
-    dry, chl = sum(counts["dry_mass"].values()), sum(counts["chlorophyll"].values())
-    assert _of(_deviations(demo_study), "below-planned-n") == [
-        ("total", f"In all: units analysed: {dry} for dry_mass, {chl} for chlorophyll; 48 "
-                  "planned.", False)]
+    below = [level for level in LEVELS if min(counts[name][level] for name in OUTCOMES) < 11]
+    assert [s for s, _, _ in _of(_deviations(demo_study), "below-minimum-n")] == below
+    assert len(below) < 4  # the invented data keep 11 analysed in some coating
+
+
+def test_a_shortfall_without_a_minimum_is_attrition_in_the_unit_flow(demo_study: Path):
+    _lock(demo_study)
+    computed = api.compute(demo_study)
+    assert computed.results.deviations == ()
+    counts = _demo_counts(demo_study)
+    flow = _text(api.render(computed).html, "unit-flow")
+    assert "Planned 12 12 12 12 48 Read" in flow
+    short = [12 - counts["dry_mass"][level] for level in LEVELS]
+    assert (f"Shoot dry mass at day 21: short of the planned number "
+            f"{' '.join(map(str, short))} {sum(short)}") in flow
+    assert ("The plan registers no minimum per group, so a shortfall is not a deviation "
+            "from it.") in flow
+
+
+def test_a_shortfall_against_a_planned_total_is_no_deviation(demo_study: Path):
+    _edit(demo_study, "    per_group: 12", "    total: 48")
+    _lock(demo_study)
+    computed = api.compute(demo_study)
+    assert computed.results.deviations == ()
+    dry = sum(_demo_counts(demo_study)["dry_mass"].values())
+    flow = _text(api.render(computed).html, "unit-flow")
+    assert "Planned \u2014 \u2014 \u2014 \u2014 48 Read" in flow
+    assert (f"short of the planned number \u2014 \u2014 \u2014 \u2014 {48 - dry}") in flow
+
+
+def test_a_minimum_above_the_planned_number_is_refused(demo_study: Path):
+    _with_minimum(demo_study, 13)
+    with pytest.raises(PlanError) as caught:
+        load_plan(demo_study)
+    line = demo_study.read_text(encoding="utf-8").splitlines().index("    minimum: 13") + 1
+    assert str(caught.value).endswith(
+        f"study.yaml:{line}: data.planned_n.minimum: got 13, more than the 12 planned per "
+        "group; allowed: a whole number from 1 to per_group")
 
 
 def test_a_plan_level_without_units(demo_study: Path):
@@ -280,35 +372,36 @@ def test_a_registered_contingency_applied(tmp_path: Path):
 
 
 def test_an_acknowledgement_matches_kind_and_subject_exactly(demo_study: Path):
+    _with_minimum(demo_study)
     _append(demo_study, "deviations:\n"
-            "  - {kind: below-planned-n, subject: humic, "
+            "  - {kind: below-minimum-n, subject: humic, "
             "justification: two trays lost (invented)}\n"
-            "  - {kind: below-planned-n, subject: humik, justification: typo}\n"
+            "  - {kind: below-minimum-n, subject: humik, justification: typo}\n"
             "  - {kind: plan-changed, subject: humic, justification: wrong kind}\n")
     deviations = _deviations(demo_study)
-    humic = next(d for d in deviations if (d.kind, d.subject) == ("below-planned-n", "humic"))
+    humic = next(d for d in deviations if (d.kind, d.subject) == ("below-minimum-n", "humic"))
     assert (humic.acknowledged, humic.justification) == (True, "two trays lost (invented)")
-    assert [d.acknowledged for d in deviations if d.kind == "below-planned-n"] == [
+    assert [d.acknowledged for d in deviations if d.kind == "below-minimum-n"] == [
         False, False, False, True]
     assert _of(deviations, "acknowledgement-unmatched") == [
-        ("deviations[1]", "deviations[1] acknowledges below-planned-n 'humik', but this run "
+        ("deviations[1]", "deviations[1] acknowledges below-minimum-n 'humik', but this run "
                           "detected no such deviation; did you mean 'humic'?; it acknowledges "
                           "nothing.", False),
         ("deviations[2]", "deviations[2] acknowledges plan-changed 'humic', but this run "
                           "detected no such deviation; 'humic' has a deviation of kind "
-                          "below-planned-n; it acknowledges nothing.", False)]
+                          "below-minimum-n; it acknowledges nothing.", False)]
 
 
 def test_an_unknown_kind_is_refused_with_a_suggestion(demo_study: Path):
-    _append(demo_study, "deviations:\n  - {kind: below-plannd-n, subject: humic, "
+    _append(demo_study, "deviations:\n  - {kind: below-minimun-n, subject: humic, "
             "justification: x}\n")
     with pytest.raises(PlanError) as caught:
         load_plan(demo_study)
     assert str(caught.value).endswith(
-        "deviations[0].kind: got 'below-plannd-n'; allowed: 'plan-not-registered', "
+        "deviations[0].kind: got 'below-minimun-n'; allowed: 'plan-not-registered', "
         "'plan-changed', 'outcome-added', 'outcome-removed', 'outcome-role-switched', "
-        "'below-planned-n', 'level-without-units', 'missing-above-limit' or "
-        "'registered-contingency'; did you mean 'below-planned-n'?")
+        "'below-minimum-n', 'level-without-units', 'missing-above-limit' or "
+        "'registered-contingency'; did you mean 'below-minimum-n'?")
 
 
 def _run(study: Path, *flags: str) -> tuple[int, str, str]:
@@ -320,37 +413,39 @@ def _run(study: Path, *flags: str) -> tuple[int, str, str]:
 
 
 ACKNOWLEDGED = "".join(
-    f"  - {{kind: below-planned-n, subject: {level}, justification: units lost in handling "
+    f"  - {{kind: below-minimum-n, subject: {level}, justification: units lost in handling "
     f"(invented)}}\n" for level in LEVELS)
 
 
 def test_strict_exits_1_while_a_deviation_is_unacknowledged_and_the_pdf_shows_a_banner(
         demo_study: Path):
+    _with_minimum(demo_study)
     _lock(demo_study)
     code, out, err = _run(demo_study, "--strict")
     assert code == 1 and out.startswith("wrote ")
     lines = err.splitlines()
     assert lines[0] == ("strict: 4 deviations from the registered plan not acknowledged (see "
                         "the plan's deviations key):")
-    assert lines[1] == ("  below-planned-n (uncoated): Level 'uncoated' of seed coating: 10 "
-                        "units analysed; 12 planned per group.")
-    assert [line.split(" (")[0] for line in lines[1:]] == ["  below-planned-n"] * 4
+    assert lines[1] == ("  below-minimum-n (uncoated): Level 'uncoated' of seed coating: 10 "
+                        "units analysed; the plan's minimum is 12 per group.")
+    assert [line.split(" (")[0] for line in lines[1:]] == ["  below-minimum-n"] * 4
     run = demo_study.parent / "run"
     assert (run / "appendix.pdf").is_file() and (run / "results.json").is_file()
     html = (run / "appendix.html").read_text(encoding="utf-8")
     assert _banner(html) == (
-        "4 deviations from the registered plan not acknowledged Fewer units than planned: "
-        "uncoated Fewer units than planned: chitosan Fewer units than planned: seaweed Fewer "
-        "units than planned: humic The plan neither provides for nor justifies these; see "
+        "4 deviations from the registered plan not acknowledged "
+        + " ".join(f"Fewer units than the registered minimum: {level}" for level in LEVELS)
+        + " The plan neither provides for nor justifies these; see "
         "Deviations from the plan . Read the results with these departures in mind.")
     pages = [page.extract_text() for page in pypdf.PdfReader(run / "appendix.pdf").pages]
     assert "DEVIATIONS FROM THE REGISTERED PLAN NOT ACKNOWLEDGED" in pages[0].upper()
-    assert "Fewer units than planned: humic" in pages[0]
+    assert "Fewer units than the registered minimum: humic" in pages[0]
     # and the running header of every page says so
     assert all("4 unacknowledged deviations" in " ".join(text.split()) for text in pages)
 
 
 def test_strict_exits_0_once_every_deviation_is_acknowledged(demo_study: Path):
+    _with_minimum(demo_study)
     _lock(demo_study)
     _append(demo_study, "deviations:\n" + ACKNOWLEDGED)
     code, _, err = _run(demo_study, "--strict", "--no-pdf")
@@ -358,22 +453,24 @@ def test_strict_exits_0_once_every_deviation_is_acknowledged(demo_study: Path):
     html = (demo_study.parent / "run" / "appendix.html").read_text(encoding="utf-8")
     assert _banner(html) is None and "unacknowledged deviation" not in html
     table = _text(html, "deviations")
-    assert ("Fewer units than planned humic Level 'humic' of seed coating: units analysed: 11 "
-            "for dry_mass, 12 for chlorophyll; 12 planned per group. analysed units in the unit "
-            "flow compared with data.planned_n yes units lost in handling (invented)") in table
+    assert ("Fewer units than the registered minimum humic Level 'humic' of seed coating: "
+            "units analysed: 11 "
+            "for dry_mass, 12 for chlorophyll; the plan's minimum is 12 per group. analysed units in the unit "
+            "flow compared with data.planned_n.minimum yes units lost in handling (invented)") in table
 
 
 def test_without_strict_the_run_exits_0_but_the_banner_shows(demo_study: Path):
+    _with_minimum(demo_study)
     code, _, err = _run(demo_study, "--no-pdf")
     assert (code, err) == (0, "")
     html = (demo_study.parent / "run" / "appendix.html").read_text(encoding="utf-8")
     assert _banner(html).startswith("5 deviations from the registered plan not acknowledged "
-                                    "Plan not registered: plan Fewer units than planned:")
+                                    "Plan not registered: plan Fewer units than the registered minimum:")
     # unacknowledged first in the table, the header has its How detected column
     assert "<th class=\"text\">How detected</th>" in html
 
 
-def test_crossed_factors_report_cells_below_the_planned_n(tmp_path: Path):
+def test_crossed_factors_report_cells_below_the_minimum(tmp_path: Path):
     import shutil
 
     import pandas as pd
@@ -383,6 +480,7 @@ def test_crossed_factors_report_cells_below_the_planned_n(tmp_path: Path):
     target = tmp_path / "greenhouse"
     shutil.copytree(REPO / "studies" / "greenhouse-split", target,
                     ignore=shutil.ignore_patterns("__pycache__"))
+    _with_minimum(target / "study.yaml")
     # Complete units counted here with pandas: a pot with a chlorophyll reading at each of
     # the three visits (the registered complete-units rule), per coating x irrigation cell.
     pots = pd.read_csv(target / "data" / "pots.csv")
@@ -393,9 +491,9 @@ def test_crossed_factors_report_cells_below_the_planned_n(tmp_path: Path):
              for c in ("none", "thin", "thick") for i in ("steady", "pulsed")
              if per_cell.get((c, i), 0) < 12]
     assert short  # the invented data fall short in some cell
-    assert _of(_deviations(target / "study.yaml"), "below-planned-n") == [
+    assert _of(_deviations(target / "study.yaml"), "below-minimum-n") == [
         (cell, f"Cell '{cell}' of seed coating \u00d7 irrigation regime: {n} units analysed; "
-               "12 planned per cell.", False) for cell, n in short]
+               "the plan's minimum is 12 per cell.", False) for cell, n in short]
 
 
 def test_an_unregistered_plan_can_be_acknowledged(demo_study: Path):
@@ -422,7 +520,7 @@ def test_a_missing_limit_outside_its_range_is_refused(demo_study: Path, old, new
 
 
 def test_an_acknowledgement_without_justification_is_refused(demo_study: Path):
-    _append(demo_study, "deviations:\n  - {kind: below-planned-n, subject: humic}\n")
+    _append(demo_study, "deviations:\n  - {kind: below-minimum-n, subject: humic}\n")
     with pytest.raises(PlanError) as caught:
         load_plan(demo_study)
     last = len(demo_study.read_text(encoding="utf-8").splitlines())  # the entry's own line

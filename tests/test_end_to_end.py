@@ -56,7 +56,8 @@ def test_run_folder_holds_every_output(demo_run: Path):
     listed = {item["path"] for item in manifest["outputs"]}
     assert listed == names - {"manifest.json"}
     assert manifest["run_time"] == "2026-03-01T12:00:00+00:00"
-    assert [i["role"] for i in manifest["inputs"]] == ["study", "data"]
+    # the demo comes registered: its study.lock.json is an input too
+    assert [i["role"] for i in manifest["inputs"]] == ["study", "data", "lock"]
 
 
 def test_html_holds_every_section_and_working_links(demo_run: Path):

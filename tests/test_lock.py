@@ -163,7 +163,7 @@ def test_relocks_build_a_revision_history(demo_study: Path):
 def test_acknowledgements_are_never_locked(demo_study: Path):
     lock_plan(load_plan(demo_study), environ=FIRST)
     demo_study.write_text(demo_study.read_text(encoding="utf-8") + (
-        "deviations:\n  - {kind: below-planned-n, subject: humic, justification: lost trays}\n"),
+        "deviations:\n  - {kind: below-minimum-n, subject: humic, justification: lost trays}\n"),
         encoding="utf-8")
     outcome = lock_plan(load_plan(demo_study))
     assert outcome.status == "unchanged"

@@ -28,6 +28,42 @@ def count_levels(codes: np.ndarray, levels: Sequence[str]) -> tuple[LevelCount, 
     return tuple(LevelCount(level=level, n=int(counts[i])) for i, level in enumerate(levels))
 
 
+def _plural(n: int, word: str) -> str:
+    return f"{n} {word}{'' if n == 1 else 's'}"
+
+
+def analysed_words(counts: Sequence[tuple[str, int]]) -> str:
+    """``10 units analysed`` when every outcome agrees, else each outcome's count.
+
+    >>> analysed_words([("a", 10), ("b", 11)])
+    'units analysed: 10 for a, 11 for b'
+    """
+    if len({n for _, n in counts}) == 1:
+        return f"{_plural(counts[0][1], 'unit')} analysed"
+    return "units analysed: " + ", ".join(f"{n} for {name}" for name, n in counts)
+
+
+def analysed_in_all(flow: UnitFlow) -> list[tuple[str, int]]:
+    """Each outcome's number of analysed units, over every level."""
+    return [(o.outcome, sum(c.n for c in o.analysed)) for o in flow.outcomes]
+
+
+def groups_below(flow: UnitFlow, required: int) -> list[tuple[str, list[tuple[str, int]]]]:
+    """The levels (cells) with eligible units where some outcome has fewer than `required`
+    analysed units, each with every outcome's analysed count: the one count that both
+    the findings (against the planned number) and the deviations (against the registered
+    minimum) compare. A level without eligible units is a finding of its own."""
+    analysed = [(o.outcome, {c.level: c.n for c in o.analysed}) for o in flow.outcomes]
+    found = []
+    for count in flow.eligible:
+        if count.n == 0 or not analysed:
+            continue
+        counts = [(name, by_level.get(count.level, 0)) for name, by_level in analysed]
+        if min(n for _, n in counts) < required:
+            found.append((count.level, counts))
+    return found
+
+
 def flow_findings(plan: Plan, flow: UnitFlow, grouping: str | None = None) -> tuple[Finding, ...]:
     """What the reader must see about plan versus data.
 
@@ -37,8 +73,9 @@ def flow_findings(plan: Plan, flow: UnitFlow, grouping: str | None = None) -> tu
     ``level-without-units``: a plan level with no eligible unit. ``level-without-values``:
     an outcome with no analysed value at a level that does have eligible units (a level
     without units is reported once, not again per outcome). ``below-planned-n``: fewer
-    eligible units (after exclusions, before missing values) than ``data.planned_n``
-    states, in all (``total``) or at a level that has units (``per_group``).
+    analysed units, for some outcome, than ``data.planned_n`` states, in all (``total``)
+    or at a level that has eligible units (``per_group``): the count the deviations
+    compare with ``data.planned_n.minimum`` (`groups_below`).
     """
     factor = grouping or plan.factor.label or plan.factor.name
     level = "cell" if grouping else "level"
@@ -54,17 +91,18 @@ def flow_findings(plan: Plan, flow: UnitFlow, grouping: str | None = None) -> tu
                                  f"No eligible units at {level} {show(count.level)} of {factor} "
                                  f"({why})."))
     planned_n = plan.data.planned_n
-    planned = planned_n.per_group if planned_n else None
-    total = sum(c.n for c in flow.eligible)
-    if planned_n and planned_n.total is not None and total < planned_n.total:
-        found.append(Finding("below-planned-n",
-                             f"{total} eligible units in all, {planned_n.total} planned."))
-    if planned is not None:
-        for count in flow.eligible:
-            if 0 < count.n < planned:
-                found.append(Finding("below-planned-n",
-                                     f"{level.capitalize()} {show(count.level)} of {factor}: {count.n} eligible "
-                                     f"unit{'s' if count.n != 1 else ''}, {planned} planned."))
+    if planned_n is not None and planned_n.total is not None:
+        counts = analysed_in_all(flow)
+        if counts and min(n for _, n in counts) < planned_n.total:
+            found.append(Finding("below-planned-n",
+                                 f"In all: {analysed_words(counts)}; {planned_n.total} planned."))
+    if planned_n is not None and planned_n.per_group is not None:
+        per = level if level == "cell" else "group"
+        for group, counts in groups_below(flow, planned_n.per_group):
+            found.append(Finding("below-planned-n",
+                                 f"{level.capitalize()} {show(group)} of {factor}: "
+                                 f"{analysed_words(counts)}; {planned_n.per_group} planned "
+                                 f"per {per}."))
     for outcome in flow.outcomes:
         missing = {c.level: c.n for c in outcome.missing}
         for count in outcome.analysed:

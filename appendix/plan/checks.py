@@ -26,6 +26,7 @@ def consistency_problems(raw: object) -> list[Found]:
     data = _mapping(raw.get("data"))
     found: list[Found] = []
     found += _source_format(data)
+    found += _planned_minimum(_mapping(data.get("planned_n")))
     factors = _items(_mapping(raw.get("design")).get("factors"))
     for i, factor in factors:
         found += _factor_levels(("design", "factors", i), factor)
@@ -48,6 +49,16 @@ def _source_format(data: Mapping) -> list[Found]:
         return [(("data", "sheet"),
                  f"got {show(data['sheet'])}, but {show(source)} is not an Excel file; "
                  "allowed: a sheet only for a .xlsx source")]
+    return []
+
+
+def _planned_minimum(planned: Mapping) -> list[Found]:
+    minimum, per_group = planned.get("minimum"), planned.get("per_group")
+    if (isinstance(minimum, int) and isinstance(per_group, int)
+            and not isinstance(minimum, bool) and minimum > per_group):
+        return [(("data", "planned_n", "minimum"),
+                 f"got {minimum}, more than the {per_group} planned per group; allowed: a "
+                 "whole number from 1 to per_group")]
     return []
 
 

@@ -148,12 +148,17 @@ class Exclusion(_Frozen):
 
 
 class PlannedN(_Frozen):
-    """Planned numbers of analysed units (reported against the numbers achieved)."""
+    """Planned numbers of analysed units, shown in the unit flow against the numbers
+    achieved; a shortfall is attrition, a deviation only below a registered `minimum`."""
 
     per_group: int | None = Field(
         default=None, ge=1, strict=True,
         description="Units per cell of the crossed treatment factors (per group of a one-way design).")
     total: int | None = Field(default=None, ge=1, strict=True)
+    minimum: int | None = Field(
+        default=None, ge=1, strict=True, exclude_if=_is(None),
+        description="Fewest analysed units per group (per cell) the plan accepts, for every "
+                    "outcome; fewer is reported as a deviation. At most `per_group`.")
 
 
 class Data(_Frozen):

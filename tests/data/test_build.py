@@ -101,13 +101,16 @@ def test_findings(tmp_path):
                                "u3,low,yes,5,3,9\nu4,high,no,5,,9\nu5,high,no,5,NA,9\n", planned=2)
     assert dataset.findings == (
         Finding("level-without-units", "No eligible units at level 'low' of arm (all 1 excluded)."),
+        # planned numbers count analysed units, as the deviations' minimum does
+        Finding("below-planned-n", "Level 'high' of arm: units analysed: 0 for pain, 2 for sleep; "
+                                   "2 planned per group."),
         Finding("level-without-values",
                 "Outcome pain: no analysed values at level 'high' (2 eligible units, all missing)."),
     )
     dataset = _build(tmp_path, "u1,placebo,no,5,1.5,7\nu2,high,no,5,2,9\nu3,high,no,5,3,9\n", planned=2)
     assert dataset.findings == (
         Finding("level-without-units", "No eligible units at level 'low' of arm (none in the data)."),
-        Finding("below-planned-n", "Level 'placebo' of arm: 1 eligible unit, 2 planned."),
+        Finding("below-planned-n", "Level 'placebo' of arm: 1 unit analysed; 2 planned per group."),
     )
 
 
@@ -189,7 +192,7 @@ def test_planned_total(tmp_path):
     text = study.read_text(encoding="utf-8").replace("{per_group: 8}", "{total: 4}")
     study.write_text(text, encoding="utf-8")
     assert build_dataset(load_plan(study)).findings == (
-        Finding("below-planned-n", "3 eligible units in all, 4 planned."),)
+        Finding("below-planned-n", "In all: 3 units analysed; 4 planned."),)
 
 
 def test_boolean_cells_match_true(tmp_path):

@@ -323,7 +323,8 @@ def plans(draw, method: str | None = None) -> dict:
         data["exclusions"] = [{"id": "X1", "column": FLAG, "equals": draw(st.sampled_from(["yes", 1, True])),
                                "reason": "protocol violated (invented)"}]
     if draw(st.booleans()):
-        data["planned_n"] = draw(st.sampled_from([{"per_group": 2}, {"per_group": 50}, {"total": 10}]))
+        data["planned_n"] = draw(st.sampled_from([{"per_group": 2}, {"per_group": 50}, {"total": 10},
+                                                    {"per_group": 4, "minimum": 3}]))
     if draw(st.booleans()):
         data["missing_limit"] = draw(st.sampled_from([0.0, 0.1, 0.5]))
     study = {"id": "generated-plan", "title": "Generated plan with invented data"}
