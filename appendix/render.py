@@ -183,6 +183,13 @@ WORDS: Mapping[str, Mapping[Any, str]] = MappingProxyType({
         "level-without-units": "Level without units",
         "missing-above-limit": "Missing data above the registered limit",
         "acknowledgement-unmatched": "Acknowledgement matches no deviation"}),
+    "findings": MappingProxyType({  # keys of Finding.code
+        "below-planned-n": "Fewer units analysed than planned",
+        "level-without-units": "Level without units",
+        "level-without-values": "Level without values",
+        "level-read-by-value": "Level read by its value",
+        "covariate-missing": "Covariate value missing",
+        "incomplete-units": "Units without every repeated value"}),
     "input_roles": MappingProxyType({  # keys of InputFile.role
         "study": "Study file", "data": "Data file", "lock": "Registration lock"}),
     "factor_roles": MappingProxyType({  # keys of FactorInfo.role

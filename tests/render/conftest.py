@@ -332,7 +332,7 @@ def build_results() -> R.StudyResults:
                 R.InputFile("data", "data/units.csv", DATA_SHA, 812)),
         unit_flow=_flow(),
         outcomes=outcomes,
-        findings=(R.Finding("planned-n-not-met", "Planned 10 units per group; 8 analysed."),),
+        findings=(R.Finding("below-planned-n", "Level 'placebo' of Treatment arm: units analysed: 8; 10 planned per group."),),
         software=(R.Software("appendix", "0.1.0"), R.Software("numpy", np.__version__)),
         exploratory=(_exploratory(values, codes),),
         deviations=(R.Deviation(

@@ -310,3 +310,20 @@ def test_sums_of_squares_carry_the_squared_unit(study_results, figures, unit, sq
     page = parse(render_html(changed(study_results, "outcomes[1]", unit=unit), figures, RenderOptions()))
     headers = [squash(e.text) for e in page.by_tag("th") if "Sum of squares" in e.text]
     assert f"Sum of squares ({squared})" in headers
+
+
+def test_findings_are_introduced_in_words_not_by_their_code(page, html):
+    # every code the data stage can write (read from its source) has its words, and the
+    # page shows those words, not the code
+    from appendix.render import WORDS
+
+    sources = (Path(__file__).parents[2] / "appendix" / "data").glob("*.py")
+    codes = {code for path in sources
+             for code in re.findall(r'Finding\(\s*"([a-z-]+)"', path.read_text(encoding="utf-8"))}
+    assert "below-planned-n" in codes and codes <= set(WORDS["findings"])
+    kinds = [squash(e.text) for e in page.by_tag("span") if e.attrs.get("class") == "finding-kind"]
+    assert kinds == ["Fewer units analysed than planned."]
+    start = html.index('<section id="findings">')
+    findings = html[start:html.index("</section>", start)]
+    assert "Level &#39;placebo&#39; of Treatment arm: units analysed: 8; 10 planned per group." in findings
+    assert "below-planned-n" not in findings
