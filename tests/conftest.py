@@ -30,3 +30,22 @@ def computed_demos() -> dict:
 
     return {name: api.compute(REPO / "studies" / name / "study.yaml")
             for name in ("seed-coating", "greenhouse-split", "wound-dose")}
+
+
+@pytest.fixture(scope="session")
+def rendered_demos(computed_demos) -> dict:
+    """Each demo's figures and HTML (`api.render`), rendered once per session."""
+    from appendix import api
+
+    return {name: api.render(computed) for name, computed in computed_demos.items()}
+
+
+@pytest.fixture(scope="session")
+def demo_layouts(rendered_demos) -> dict:
+    """Each demo's HTML laid out on A4 by WeasyPrint (`render.typeset`, what the PDF is
+    written from), once per session: a `page_layout.Layout` by folder name."""
+    from appendix.render import RenderOptions, typeset
+    from page_layout import Layout
+
+    return {name: Layout(typeset(r.html, RenderOptions(paper="A4")))
+            for name, r in rendered_demos.items()}
