@@ -65,8 +65,12 @@ PALETTE: tuple[str, ...] = (
 #: Beyond this many points in a figure its scatters are rasterised inside the SVG to keep files light.
 DENSE_POINTS = 5000
 
-_WIDTH_IN = 6.0
-_HEIGHT_IN = 2.9
+# figures stand two to a row in print: half the A4 text block (174 mm less a gap), so
+# they print at the size they are drawn and their text stays 8-9 pt; the forest plot of
+# the contrasts, whose rows carry long labels, takes three fifths of it, its caption beside
+_WIDTH_IN = 3.3
+_HEIGHT_IN = 2.1
+_WIDE_IN = 4.1
 _JITTER_SEED = 20260214  # fixed: the same data always give the same picture
 
 _RC = MappingProxyType({
@@ -194,8 +198,8 @@ def _panel(dataset: Dataset, results: StudyResults, outcome: OutcomeResult,
                   tested=tested_row(results, outcome))
 
 
-def _new_figure(height: float = _HEIGHT_IN) -> tuple[Figure, object]:
-    figure = Figure(figsize=(_WIDTH_IN, height), layout="constrained")
+def _new_figure(height: float = _HEIGHT_IN, width: float = _WIDTH_IN) -> tuple[Figure, object]:
+    figure = Figure(figsize=(width, height), layout="constrained")
     return figure, figure.add_subplot()
 
 
@@ -353,7 +357,7 @@ def _f_reference(panel: _Panel) -> Figure | None:
     right = max(scale, row.statistic * 1.15) if on_scale else scale
     x = np.linspace(right / 2000, right, 1200)
     y = dist.pdf(x)
-    figure, ax = _new_figure(height=2.8)
+    figure, ax = _new_figure()
     ax.plot(x, y, color=PALETTE[0],
             label=f"F({numbers.df_value(df1)}, {numbers.df_value(df2)}) density")
     tail = x >= critical
@@ -406,7 +410,7 @@ def _forest(outcome: OutcomeResult, family: ContrastFamily) -> Figure | None:
     if any(h.ci_high is None for h in shown):
         right += 2 * pad
     rows = len(hypotheses)
-    figure, ax = _new_figure(height=max(1.7, 0.75 + 0.36 * rows))
+    figure, ax = _new_figure(height=max(1.5, 0.7 + 0.3 * rows), width=_WIDE_IN)
     ax.axvline(0.0, color="#000000", linewidth=0.7)
     gap_place = ax.get_yaxis_transform()  # x in axes fraction, y in data
     for i, h in enumerate(hypotheses):
@@ -446,9 +450,21 @@ def _wrap(label: str, width: int = 44) -> str:
     return "\n".join(textwrap.wrap(label, width=width)) or label
 
 
-def _legend_outside(ax) -> None:
-    # beside the axes, never over the points
-    ax.legend(frameon=False, loc="upper left", bbox_to_anchor=(1.01, 1.0), borderaxespad=0)
+def _legend_columns(handles) -> int:
+    # as many columns as half a page's width holds: three short labels, else two, else one
+    longest = max((len(h.get_label()) for h in handles), default=0)
+    return min(len(handles) or 1, 3 if longest <= 12 else 2 if longest <= 22 else 1)
+
+
+def _legend_outside(ax, **options) -> None:
+    """The axes' legend below them, never over the points (beside them would leave a
+    half-width figure too narrow an axis)."""
+    handles = options.pop("handles", None)
+    if handles is None:
+        handles, _ = ax.get_legend_handles_labels()
+    ax.figure.legend(handles=handles, frameon=False, loc="outside lower center",
+                     ncols=_legend_columns(handles),
+                     **options)
 
 
 def _level_axis(ax, levels: tuple[str, ...]) -> None:
@@ -591,8 +607,7 @@ def _draw_lines_of_means(spec: _LinesOfMeans) -> Figure | None:
     ax.set_xlim(-0.6, len(spec.x_levels) - 0.4)
     ax.set_xlabel(_wrap(spec.x_label, 60))
     ax.set_ylabel(_wrap(spec.y_label))
-    ax.legend(frameon=False, loc="upper left", bbox_to_anchor=(1.01, 1.0), borderaxespad=0,
-              title=_wrap(spec.lines_label, 24), alignment="left")
+    _legend_outside(ax, title=_wrap(spec.lines_label, 24), alignment="left")
     return figure
 
 
@@ -688,8 +703,7 @@ def _draw_covariate(fit: _CovariateFit) -> Figure | None:
     marker.set_gid("covariate-mean")
     ax.set_xlabel(_wrap(fit.x_label, 60))
     ax.set_ylabel(_wrap(fit.y_label))
-    ax.legend(handles=[*keys, marker], frameon=False, loc="upper left",
-              bbox_to_anchor=(1.01, 1.0), borderaxespad=0)
+    _legend_outside(ax, handles=[*keys, marker])
     return figure
 
 

@@ -443,7 +443,7 @@ def render_html(results: StudyResults, figures: dict[str, str], options: RenderO
     env.filters.update(_filters(options))
     methods = methods_used(results)
     records = {f.id: f for f in results.families}
-    return env.get_template("appendix.html.j2").render(
+    return said_once(env.get_template("appendix.html.j2").render(
         r=results,
         outcomes=_ordered_outcomes(results),
         figures={key: _inline_svg(svg) for key, svg in figures.items()},
@@ -463,7 +463,69 @@ def render_html(results: StudyResults, figures: dict[str, str], options: RenderO
         tool_version=_tool_version(results),
         table_number=_Numbering(),
         figure_number=_Numbering(),
-    )
+    ))
+
+
+# the notes under tables and the figures' captions, and the table or figure each belongs to
+_NOTE_PARTS = re.compile(
+    r'<span class="table-number">Table (?P<table>\d+)</span>'
+    r'|<span class="figure-number">Figure (?P<figure>\d+)\.</span>(?P<caption>.*?)</figcaption>'
+    r'|<p class="table-note">(?P<note>.*?)</p>', re.S)
+_NOTE_LEAD = "<i>Note.</i>"
+# a sentence ends at a full stop followed by a space and a capital (perhaps inside a tag)
+_SENTENCE_END = re.compile(r'(?<=\.)\s+(?=(?:<[^>]+>)*[A-Z\u0391-\u03a9])')
+_TAG = re.compile(r"<[^>]+>")
+
+
+def sentence_key(html: str) -> str:
+    """The words of an HTML sentence, without tags and with spaces squashed: what makes
+    two sentences the same."""
+    return " ".join(_TAG.sub(" ", html).split())
+
+
+def said_once(html: str) -> str:
+    """The page with every sentence of a table note or figure caption said only where it
+    is first said: a later note or caption drops the sentences an earlier one holds and
+    ends instead with a pointer to it ("Other notes as for Table 3."), so that a
+    definition or a caveat is read once and not on every outcome."""
+    said: dict[str, str] = {}
+    current = ""
+
+    def pointer(sources: list[str]) -> str:
+        return " and ".join(dict.fromkeys(sources))
+
+    def thin(body: str, lead: str) -> str | None:
+        sentences = [s for s in _SENTENCE_END.split(body.strip()) if s]
+        kept, sources = [], []
+        for sentence in sentences:
+            key = sentence_key(sentence)
+            if key in said and len(key) > 30:
+                sources.append(said[key])
+                continue
+            said.setdefault(key, current)
+            kept.append(sentence)
+        if not sources:
+            return None
+        tail = (f"Other notes as for {pointer(sources)}." if kept
+                else f"As for {pointer(sources)}.")
+        return " ".join([*kept, tail]) if not lead else " ".join([lead, *kept, tail])
+
+    def one(match: re.Match) -> str:
+        nonlocal current
+        if match["table"]:
+            current = f"Table {match['table']}"
+            return match[0]
+        if match["figure"]:
+            current = f"Figure {match['figure']}"
+            caption = thin(match["caption"], "")
+            return match[0] if caption is None else (
+                f'<span class="figure-number">Figure {match["figure"]}.</span> {caption}</figcaption>')
+        body = match["note"].strip()
+        lead = _NOTE_LEAD if body.startswith(_NOTE_LEAD) else ""
+        note = thin(body[len(lead):], lead)
+        return match[0] if note is None else f'<p class="table-note">{note}</p>'
+
+    return _NOTE_PARTS.sub(one, html)
 
 
 def font_faces() -> str:

@@ -79,7 +79,7 @@ def test_each_claim_of_an_outcome_has_its_object(rendered, name):
             assert any(h.within for f in outcome.contrasts for h in f.hypotheses)
         # every figure the page numbers is drawn on the page
         for figure in re.findall(r'<figure id="figure-([^"]+)"', page):
-            assert re.search(rf'<figure id="figure-{re.escape(figure)}" class="figure">\s*'
+            assert re.search(rf'<figure id="figure-{re.escape(figure)}" class="figure(?: forest)?">\s*'
                              r'<div class="figure-art"><svg', page), figure
 
 

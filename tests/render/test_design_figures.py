@@ -179,7 +179,7 @@ def test_interaction_bars_span_the_given_interval_and_are_dodged():
     bars = [_segments(_group(svg, f"interaction-line-{j}-ci")) for j in range(2)]
     for i in range(3):
         (x0, _), (x1, _) = bars[0][i][0], bars[1][i][0]
-        assert abs(x0 - x1) > 10  # points: the two regimes' bars never share an x
+        assert abs(x0 - x1) > 6  # points: wider apart than a marker (6 pt), never sharing an x
     # bar length in SVG units is proportional to the interval width (same y scale)
     heights = np.array([abs(s[0][1] - s[1][1]) for j in range(2) for s in bars[j]])
     widths = np.array([h - lo for j in range(2) for h, lo in zip(HIGH[j], LOW[j])])
@@ -401,5 +401,12 @@ def test_the_covariate_caption_names_what_the_points_are_adjusted_for(computed_d
     from appendix import api
 
     html = api.render(computed_demos["wound-dose"]).html
-    assert html.count("Each point is adjusted for cohort: its cell's line at its covariate "
-                      "value plus its model residual.") == 3  # one covariate figure per outcome
+    sentence = ("Each point is adjusted for cohort: its cell's line at its covariate value "
+                "plus its model residual.")
+    captions = re.findall(r'<figure id="figure-[a-z_]+-covariate-1" class="figure">.*?'
+                          r'Figure (\d+)\.</span>(.*?)</figcaption>', html, re.S)
+    assert len(captions) == 3  # one covariate figure per outcome
+    # said under the first; the others point to it (render.said_once)
+    (first, text), *later = captions
+    assert sentence in text and html.count(sentence) == 1
+    assert all(f"Other notes as for Figure {first}." in other for _, other in later)

@@ -27,10 +27,11 @@ def test_statistic_and_effect_decimals_apply_to_the_sentences(computed_demos):
     html = api.render(computed, RenderOptions(statistic_decimals=4, effect_decimals=3)).html
     f_text = f"{row.statistic:.4f}"  # four decimals, as asked, not the default two
     eta = f"{row.partial_eta_squared:.3f}".lstrip("0")
-    sentence = next(s for s in re.findall(r'<p class="conclusion">(.*?)</p>', html, re.S)
-                    if "shoot dry mass" in s)
+    summary = html.split('<section id="summary">')[1].split("</section>")[0]
+    sentence = next(s for s in re.findall(r'<li id="summary-dry_mass">(.*?)<ul', summary, re.S))
     assert f"F(3, 39) = {f_text}" in sentence and f"\u03b7\u00b2 = {eta}" in sentence
-    assert f_text in html.split('<p class="conclusion">')[0]  # the variance table above shows it too
+    # the variance table shows it too
+    assert f_text in html.split('<section id="dry_mass-variance">')[1].split("</section>")[0]
 
 
 def test_estimate_decimals_follow_the_decimals_option(computed_demos):
