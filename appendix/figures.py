@@ -69,7 +69,7 @@ DENSE_POINTS = 5000
 # they print at the size they are drawn and their text stays 8-9 pt; the forest plot of
 # the contrasts, whose rows carry long labels, takes three fifths of it, its caption beside
 _WIDTH_IN = 3.3
-_HEIGHT_IN = 2.1
+_HEIGHT_IN = 1.9
 _WIDE_IN = 4.1
 _JITTER_SEED = 20260214  # fixed: the same data always give the same picture
 

@@ -1,0 +1,116 @@
+"""The appendix's length is proportionate to the study (issue 13, item 2), measured on the
+layout WeasyPrint makes of each demo on A4 (`demo_layouts`, what the PDF is written from).
+
+Budgets (the project's own, no outside source): the one-factor, two-outcome demo on at most
+12 pages with everything registered still shown; each outcome after the first, of the same
+design, at most 3 pages; no page under 40 % filled except the first (the front matter,
+which ends with the only forced page break) and the last; a sentence of a table note or a
+figure caption said once; the conclusions stated once."""
+
+from __future__ import annotations
+
+import html as markup
+import re
+
+import pytest
+
+from appendix.render import sentence_key
+
+DEMOS = ("seed-coating", "greenhouse-split", "wound-dose")
+# the boxes that hold content; sections, divs and the body stretch over what they hold
+CONTENT = frozenset({"p", "li", "tr", "caption", "h1", "h2", "h3", "h4", "dt", "dd",
+                     "figcaption", "svg"})
+
+
+def fill(page) -> float:
+    """(bottom of the lowest content box - top of the text block) / text block height."""
+    bottoms = [b.bottom for b in page.boxes if b.tag in CONTENT and b.height > 0]
+    return (max(bottoms) - page.top) / page.height if bottoms else 0.0
+
+
+def spans(layout) -> dict[str, float]:
+    """Pages each outcome section spans, from the top of its first part to the bottom of its
+    last, whole pages counted between: gaps left by blocks kept whole count too."""
+    ends: dict[str, tuple[float, float]] = {}
+    for i, page in enumerate(layout.pages):
+        for b in page.boxes:
+            if b.tag == "section" and "outcome" in b.classes:
+                start = ends.get(b.id, (i + (b.y - page.top) / page.height, 0.0))[0]
+                ends[b.id] = (start, i + (b.bottom - page.top) / page.height)
+    return {name: end - start for name, (start, end) in ends.items()}
+
+
+def test_seed_coating_fits_twelve_pages_with_everything_registered(demo_layouts,
+                                                                  rendered_demos,
+                                                                  computed_demos):
+    assert len(demo_layouts["seed-coating"].pages) <= 12
+    html = rendered_demos["seed-coating"].html
+    results = computed_demos["seed-coating"].results
+    ids = set(re.findall(r'\bid="([^"]+)"', html))
+    for o in results.outcomes:
+        assert {f"{o.name}-{part}" for part in (
+            "descriptives", "figures", "variance", "robust", "contrasts", "contingencies",
+            "effects", "diagnostics", "assumptions", "conclusion")} <= ids
+        for family in o.contrasts:
+            for h in family.hypotheses:
+                assert h.id in html and markup.escape(h.label, quote=False) in html
+        for a in o.diagnostics.assumptions:
+            assert a.assumption in markup.unescape(html).lower()
+    for key in rendered_demos["seed-coating"].figures:
+        assert f'id="figure-{key}"' in html
+    assert {"methods", "references", "reproducibility", "exploratory", "deviations",
+            "findings", "unit-flow"} <= ids
+    for item in results.inputs:
+        assert item.sha256 in html
+    text = markup.unescape(html)
+    for finding in results.findings:
+        assert finding.message in text
+
+
+def test_each_further_outcome_of_the_one_factor_design_spans_at_most_three_pages(demo_layouts):
+    # the budget is for the one-factor design of seed-coating; its second outcome is what one
+    # more outcome costs (wound-dose, covariate-adjusted with a figure more, spans 3.2 today)
+    measured = spans(demo_layouts["seed-coating"])
+    first, *further = measured  # document order: the first outcome carries the notes
+    for name in further:
+        assert measured[name] <= 3.0, (name, round(measured[name], 2))
+
+
+@pytest.mark.parametrize("demo", DEMOS)
+def test_no_page_is_left_mostly_empty(demo_layouts, demo):
+    pages = demo_layouts[demo].pages
+    under = [(p.number, round(fill(p), 2)) for p in pages[1:-1] if fill(p) < 0.4]
+    assert under == []
+
+
+def _notes(html: str) -> list[str]:
+    parts = re.findall(r'<p class="table-note">(.*?)</p>|<figcaption>(.*?)</figcaption>',
+                       html, re.S)
+    return [a or b for a, b in parts]
+
+
+@pytest.mark.parametrize("demo", DEMOS)
+def test_each_sentence_of_a_note_or_caption_is_said_once(rendered_demos, demo):
+    seen: dict[str, int] = {}
+    for note in _notes(rendered_demos[demo].html):
+        note = note.strip().removeprefix("<i>Note.</i>")
+        for sentence in re.split(r"(?<=\.)\s+(?=(?:<[^>]+>)*[A-Z\u0391-\u03a9])", note):
+            key = sentence_key(sentence)
+            if len(key) > 30:
+                seen[key] = seen.get(key, 0) + 1
+    assert [s for s, n in seen.items() if n > 1] == []
+    # and later notes do point back (the demos have two outcomes or more)
+    assert any("as for Table" in n or "as for Figure" in n for n in _notes(rendered_demos[demo].html))
+
+
+@pytest.mark.parametrize("demo", DEMOS)
+def test_conclusions_are_stated_once_in_the_summary(rendered_demos, computed_demos, demo):
+    html = rendered_demos[demo].html
+    summary = html.split('<section id="summary">')[1].split("</section>")[0]
+    for o in computed_demos[demo].results.outcomes:
+        section = html.split(f'<section id="{o.name}-conclusion">')[1].split("</section>")[0]
+        assert f'href="#summary-{o.name}"' in section
+        assert f'id="summary-{o.name}"' in summary
+        summary_sentences = {sentence_key(s) for s in re.split(r"(?<=\.)\s+", summary)
+                             if len(sentence_key(s)) > 30}
+        assert not summary_sentences & {sentence_key(s) for s in re.split(r"(?<=\.)\s+", section)}
