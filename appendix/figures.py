@@ -229,7 +229,7 @@ def _distribution(panel: _Panel) -> Figure | None:
         jitter = rng.uniform(-0.17, 0.17, size=len(mine))
         _scatter(ax, panel, i + jitter, mine, level_colour(i), zorder=3)
     _level_axis(ax, panel.levels)
-    ax.set_ylabel(panel.axis_label)
+    ax.set_ylabel(_wrap(panel.axis_label, 26))
     return figure
 
 
@@ -254,7 +254,7 @@ def _means(panel: _Panel) -> Figure | None:
                 markeredgecolor="#000000", markeredgewidth=0.6, linestyle="none")
     _level_axis(ax, panel.levels)
     ax.set_xlim(-0.6, len(panel.levels) - 0.4)
-    ax.set_ylabel(panel.axis_label)  # the caption says these are means
+    ax.set_ylabel(_wrap(panel.axis_label, 26))  # the caption says these are means
     return figure
 
 
@@ -309,7 +309,7 @@ def _qq(panel: _Panel) -> Figure | None:
     ax.plot(ends, ends * sd, color="#000000", linewidth=0.8, linestyle="--",
             label="Normal, SD = residual SD")
     ax.set_xlabel("Standard normal quantile")
-    ax.set_ylabel(panel.residual_label())
+    ax.set_ylabel(_wrap(panel.residual_label(), 26))
     _legend_outside(ax)
     return figure
 
@@ -327,7 +327,7 @@ def _versus_fitted(panel: _Panel) -> Figure | None:
                      label=panel.levels[i], zorder=3)
     unit = panel.outcome.unit
     ax.set_xlabel(f"Fitted value ({unit})" if unit else "Fitted value")
-    ax.set_ylabel(panel.residual_label())
+    ax.set_ylabel(_wrap(panel.residual_label(), 26))
     _legend_outside(ax)
     return figure
 
@@ -446,14 +446,14 @@ def _forest(outcome: OutcomeResult, family: ContrastFamily) -> Figure | None:
 
 
 def _wrap(label: str, width: int = 44) -> str:
-    # long labels would run off a 2.9-inch axis; break them between words
+    # long labels would run off a short axis; break them between words
     return "\n".join(textwrap.wrap(label, width=width)) or label
 
 
 def _legend_columns(handles) -> int:
     # as many columns as half a page's width holds: three short labels, else two, else one
     longest = max((len(h.get_label()) for h in handles), default=0)
-    return min(len(handles) or 1, 3 if longest <= 12 else 2 if longest <= 22 else 1)
+    return min(len(handles) or 1, 3 if longest <= 12 else 2 if longest <= 26 else 1)
 
 
 def _legend_outside(ax, **options) -> None:
