@@ -30,3 +30,11 @@ def computed_demos() -> dict:
 
     return {name: api.compute(REPO / "studies" / name / "study.yaml")
             for name in ("seed-coating", "greenhouse-split", "wound-dose")}
+
+
+@pytest.fixture(scope="session")
+def rendered_demos(computed_demos) -> dict[str, str]:
+    """The appendix HTML of each demo (`computed_demos`), rendered once per session."""
+    from appendix import api
+
+    return {name: api.render(computed).html for name, computed in computed_demos.items()}
