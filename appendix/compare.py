@@ -653,12 +653,9 @@ def value_text(move: NumberMove, which: str) -> str:
 
 
 def move_text(move: NumberMove) -> str:
-    """The change from A to B, signed, with the relative change: ``+0.0123 (+4.1%)``; a
-    p-value's change is shown by its two values only."""
+    """The change from A to B, signed, with the relative change: ``+0.0123 (+4.1%)``."""
     if move.change is None:
         return "appeared" if move.a is None else "disappeared" if move.b is None else ""
-    if _style(move.quantity) == "p":
-        return f"{numbers.p_value(move.a)} to {numbers.p_value(move.b)}"
     change = numbers.fixed(move.change, _decimals(move))
     sign = "+" if not change.startswith(numbers.MINUS) else ""
     relative = ""

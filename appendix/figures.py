@@ -453,7 +453,7 @@ def _legend_outside(ax) -> None:
     ax.legend(frameon=False, loc="upper left", bbox_to_anchor=(1.01, 1.0), borderaxespad=0)
 
 
-def _level_axis(ax, levels: tuple[str, ...], label: str) -> None:
+def _level_axis(ax, levels: tuple[str, ...], title: str) -> None:
     ax.set_xticks(range(len(levels)), labels=list(levels))
     # many or long level names would overlap side by side
     if len(levels) > 6 or max(len(level) for level in levels) > 14:
@@ -461,7 +461,7 @@ def _level_axis(ax, levels: tuple[str, ...], label: str) -> None:
         for label in ax.get_xticklabels():
             label.set_horizontalalignment("right")
             label.set_rotation_mode("anchor")
-    ax.set_xlabel(_wrap(label, 60))
+    ax.set_xlabel(_wrap(title, 60))
 
 
 #: The drawer of each kind of `FIGURE_KINDS`.

@@ -43,8 +43,9 @@ def demo_run(tmp_path_factory) -> Path:
     code, out, err = run_cli(["run", "study/study.yaml", "--out", "run"], root)
     assert (code, err) == (0, ""), err
     assert out.splitlines() == ["wrote " + str(root / "run"),
-                                "  dry_mass (primary): reject",
-                                "  chlorophyll (secondary): retain"]
+                                "  Shoot dry mass at day 21 (primary): Seed coating (F test): rejected",
+                                "  Leaf chlorophyll index at day 21 (secondary): Seed coating (F "
+                                "test): not rejected"]
     return root
 
 

@@ -344,7 +344,7 @@ def _incomplete(plan, flows, stated: bool) -> tuple[Finding, ...]:
         left = sum(c.n for c in flow.missing)
         if left:
             found.append(Finding("incomplete-units",
-                                 f"{labels.get(flow.outcome, flow.outcome)}: {left} eligible unit{'s' if left != 1 else ''} "
+                                 f"Outcome {labels.get(flow.outcome, flow.outcome)}: {left} eligible unit{'s' if left != 1 else ''} "
                                  f"without a value at every {grid} (or "
                                  "without a covariate value) left out: complete units only, "
                                  + ("as registered." if stated else "by default (the plan states no "

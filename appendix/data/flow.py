@@ -115,8 +115,8 @@ def flow_findings(plan: Plan, flow: UnitFlow, grouping: str | None = None) -> tu
         for count in outcome.analysed:
             if count.n == 0 and count.level not in empty:
                 found.append(Finding("level-without-values",
-                                     f"{labelled(plan, [(outcome.outcome, 0)])[0][0]}: no "
-                                     f"analysed values at {level} "
+                                     f"Outcome {labelled(plan, [(outcome.outcome, 0)])[0][0]}: "
+                                     f"no analysed values at {level} "
                                      f"{show(count.level)} ({missing[count.level]} eligible "
                                      "units, all missing)."))
     return tuple(found)

@@ -126,7 +126,8 @@ _BREAKABLE = (
     # the comma between two degrees of freedom or two limits: ``(3, 39)``, ``[1.2, 3.4]``
     re.compile(r"[(\[]" + _NUMBERISH + r"+, " + _NUMBERISH),
     # a level and CI, CI and its bracket: ``95% CI [``
-    re.compile(r"% (?:simultaneous )?CI|CI \["),
+    re.compile(r"% (?:simultaneous )?CI"),
+    re.compile(r"CI \["),
 )
 
 
@@ -175,7 +176,7 @@ def test_the_demo_pages_keep_the_number_style(rendered_demos, demo, rule):
     ("breakable space", "<p>95% CI [1.20, 3.40]</p>", 3),
     ("breakable space", "<p><i>F</i>(3,\u00a039)\u00a0=\u00a04.21, <i>p</i>\u00a0&lt;\u00a0.001, "
                         "95%\u00a0CI\u00a0[1.20,\u00a03.40]</p>", 0),
-    ("upright symbol", "<p>F(3, 39) = 4.21, p < .001, W = .97</p>", 3),
+    ("upright symbol", "<p>F(3, 39) = 4.21, p &lt; .001, W = .97</p>", 3),
     ("upright symbol", "<p><i>F</i>(3, 39), <i>p</i> &lt; .001; at step 2; the t-test</p>", 0),
 ])
 def test_each_rule_finds_what_it_is_for(rule, html, found):

@@ -29,7 +29,8 @@ def test_statistic_and_effect_decimals_apply_to_the_sentences(computed_demos):
     eta = f"{row.partial_eta_squared:.3f}".lstrip("0")
     sentence = next(s for s in re.findall(r'<p class="conclusion">(.*?)</p>', html, re.S)
                     if "shoot dry mass" in s)
-    assert f"F(3, 39) = {f_text}" in sentence and f"\u03b7\u00b2 = {eta}" in sentence
+    assert f"<i>F</i>(3,\u00a039)\u00a0=\u00a0{f_text}" in sentence
+    assert f"\u03b7\u00b2\u00a0=\u00a0{eta}" in sentence
     assert f_text in html.split('<p class="conclusion">')[0]  # the variance table above shows it too
 
 
