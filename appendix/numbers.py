@@ -187,6 +187,10 @@ _CLAUSE_SPACES = (
 )
 
 
+WORD_JOINER = "\u2060"  # invisible; forbids a line break where it stands
+_LEADING_POINT = re.compile(r"(?<=[\s\u00a0(\[\u2212-])\.(?=\d)")
+
+
 def tie(text: str) -> str:
     """`text` with no-break spaces inside its number clauses, so that ``p < .001``,
     ``F(3, 39) = 4.21`` and ``95% CI [1.20, 3.40]`` never break across lines.
@@ -202,13 +206,15 @@ def tie(text: str) -> str:
 def typeset(text: str) -> Markup:
     """Plain prose written by the pipeline (a conclusion, a diagnostic's detail) as HTML in
     the number style of the tables: escaped, each statistic symbol that opens a number
-    clause in italics (`ITALIC_SYMBOLS`), and the clause's spaces unbreakable (`tie`).
+    clause in italics (`ITALIC_SYMBOLS`), the clause's spaces unbreakable (`tie`), and a
+    word joiner after a leading decimal point, where a line could otherwise break.
     Plain-text outputs (terminal, results.json) keep the text as it is.
 
     >>> str(typeset("p < .001 & n = 4"))
-    '<i>p</i>\xa0&lt;\xa0.001 &amp; <i>n</i>\xa0=\xa04'
+    '<i>p</i>\xa0&lt;\xa0.\u2060001 &amp; <i>n</i>\xa0=\xa04'
     """
-    tied = tie(text)
+    # a line may otherwise break between a leading decimal point and its digits (". | 121")
+    tied = _LEADING_POINT.sub("." + WORD_JOINER, tie(text))
     out, start = [], 0
     for match in _SYMBOL.finditer(tied):
         out += [escape(tied[start:match.start()]), Markup("<i>%s</i>") % match.group(1)]

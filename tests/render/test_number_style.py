@@ -119,7 +119,7 @@ def interval_variants(page: str) -> list[str]:
     return [_around(text, m) for m in _CI_OTHERWISE.finditer(text)]
 
 
-_NUMBERISH = r"[\d.\u2212\u221e]"
+_NUMBERISH = r"[\d.\u2212\u221e\u2060]"
 _BREAKABLE = (
     # a relation sign between a symbol or closing bracket and a number: ``p < .001``
     re.compile(r"[\w\u00b2)](?: [=<>\u2264\u2265][\s\u00a0]|\u00a0[=<>\u2264\u2265] )(?=" + _NUMBERISH + ")"),

@@ -26,7 +26,8 @@ def test_statistic_and_effect_decimals_apply_to_the_sentences(computed_demos):
     row = outcome.tables[0].rows[0]
     html = api.render(computed, RenderOptions(statistic_decimals=4, effect_decimals=3)).html
     f_text = f"{row.statistic:.4f}"  # four decimals, as asked, not the default two
-    eta = f"{row.partial_eta_squared:.3f}".lstrip("0")
+    # no leading zero (APA 7, from memory); a word joiner keeps the point with its digits
+    eta = "." + "\u2060" + f"{row.partial_eta_squared:.3f}"[2:]
     sentence = next(s for s in re.findall(r'<p class="conclusion">(.*?)</p>', html, re.S)
                     if "shoot dry mass" in s)
     assert f"<i>F</i>(3,\u00a039)\u00a0=\u00a0{f_text}" in sentence
