@@ -155,7 +155,7 @@ def write_parts(parts, *, html: bool = False, **decimals: int) -> str:
     """A sentence from its parts: text as it stands, each number (a `Number` of
     `appendix.results`, or its plain mapping from results.json) by `write_number` with
     the given decimals. With `html`, the sentence is typeset for the appendix's HTML by
-    `typeset` (escaped, statistic symbols in italics, number clauses unbreakable)."""
+    `prose_html` (escaped, statistic symbols in italics, number clauses unbreakable)."""
     out = []
     for part in parts:
         if isinstance(part, str):
@@ -165,7 +165,7 @@ def write_parts(parts, *, html: bool = False, **decimals: int) -> str:
         else:
             out.append(write_number(part.kind, part.value, part.high, **decimals))
     text = "".join(out)
-    return typeset(text) if html else text
+    return prose_html(text) if html else text
 
 
 #: Statistic symbols set in italics (APA 7, section 6.45, from memory: Latin letters used as
@@ -203,14 +203,14 @@ def tie(text: str) -> str:
     return text
 
 
-def typeset(text: str) -> Markup:
+def prose_html(text: str) -> Markup:
     """Plain prose written by the pipeline (a conclusion, a diagnostic's detail) as HTML in
     the number style of the tables: escaped, each statistic symbol that opens a number
     clause in italics (`ITALIC_SYMBOLS`), the clause's spaces unbreakable (`tie`), and a
     word joiner after a leading decimal point, where a line could otherwise break.
     Plain-text outputs (terminal, results.json) keep the text as it is.
 
-    >>> str(typeset("p < .001 & n = 4"))
+    >>> str(prose_html("p < .001 & n = 4"))
     '<i>p</i>\xa0&lt;\xa0.\u2060001 &amp; <i>n</i>\xa0=\xa04'
     """
     # a line may otherwise break between a leading decimal point and its digits (". | 121")

@@ -22,6 +22,7 @@ byte-identical PDFs.
 from __future__ import annotations
 
 import base64
+import contextlib
 import datetime as _dt
 import logging
 import math
@@ -107,8 +108,8 @@ def _filters(options: RenderOptions) -> dict[str, Any]:
         "interval": lambda lo, hi, decimals=2, bounded=False: numbers.tie(
             numbers.interval(lo, hi, decimals, bounded)),
         "pvalue": numbers.p_value,
-        "p_clause": lambda p: numbers.typeset(numbers.p_clause(p)),
-        "prose": numbers.typeset,
+        "p_clause": lambda p: numbers.prose_html(numbers.p_clause(p)),
+        "prose": numbers.prose_html,
         "df": numbers.df_value,
         "percent": numbers.percent,
         "alpha": _alpha,
@@ -523,6 +524,18 @@ class _SvgStyleNotes(logging.Filter):
         return not _SVG_STYLE.match(record.getMessage())
 
 
+@contextlib.contextmanager
+def _svg_notes_dropped():
+    """WeasyPrint's logger without the SVG style false alarms, for one call only."""
+    notes = _SvgStyleNotes()
+    logger = logging.getLogger("weasyprint")
+    logger.addFilter(notes)
+    try:
+        yield
+    finally:
+        logger.removeFilter(notes)
+
+
 PDF_VARIANT = "pdf/a-3b"
 
 #: PDF/A-3 AFRelationship values we use (ISO 19005-3 / ISO 32000-2 section 7.11.3).
@@ -574,6 +587,22 @@ def _unique_associated_files(_document, pdf) -> None:
         listed[:] = list(dict.fromkeys(listed))
 
 
+def typeset(html: str, options: RenderOptions):
+    """Lay `html` out on the options' paper with the shipped fonts: WeasyPrint's
+    Document, whose pages and layout boxes the PDF is written from (tests measure them)."""
+    # imported here: commands that write no PDF should not pay for loading WeasyPrint
+    from weasyprint import CSS, HTML
+    from weasyprint.text.fonts import FontConfiguration
+
+    fetcher = _offline_fetcher()
+    paper = CSS(string=f"@page {{ size: {options.paper}; }}", url_fetcher=fetcher)
+    fonts = FontConfiguration()
+    faces = CSS(string=font_faces(), url_fetcher=fetcher, font_config=fonts)
+    with _svg_notes_dropped():
+        return HTML(string=html, url_fetcher=fetcher).render(
+            stylesheets=[faces, paper], font_config=fonts)
+
+
 def render_pdf(html: str, out_path: Path, options: RenderOptions, *,
                attachments: Sequence[PdfAttachment] = (),
                dated: _dt.datetime | None = None) -> None:
@@ -584,27 +613,14 @@ def render_pdf(html: str, out_path: Path, options: RenderOptions, *,
     is SOURCE_DATE_EPOCH when that is set). Without `dated` the PDF carries no date;
     attachments need one.
     """
-    # imported here: commands that write no PDF should not pay for loading WeasyPrint
-    from weasyprint import CSS, HTML
-    from weasyprint.text.fonts import FontConfiguration
-
     if attachments and dated is None:
         raise ValueError("attachments need a date: pass dated=")
+    document = typeset(html, options)
+    if dated is not None:
+        document.metadata.created = document.metadata.modified = _w3c_date(dated)
     fetcher = _offline_fetcher()
-    paper = CSS(string=f"@page {{ size: {options.paper}; }}", url_fetcher=fetcher)
-    fonts = FontConfiguration()
-    faces = CSS(string=font_faces(), url_fetcher=fetcher, font_config=fonts)
-    notes = _SvgStyleNotes()
-    logger = logging.getLogger("weasyprint")
-    logger.addFilter(notes)  # for this call only
-    try:
-        document = HTML(string=html, url_fetcher=fetcher).render(
-            stylesheets=[faces, paper], font_config=fonts)
-        if dated is not None:
-            document.metadata.created = document.metadata.modified = _w3c_date(dated)
+    with _svg_notes_dropped():
         document.write_pdf(
             Path(out_path), finisher=_unique_associated_files,
             pdf_variant=PDF_VARIANT, pdf_identifier=True,
             attachments=[_weasy_attachment(a, fetcher, dated) for a in attachments])
-    finally:
-        logger.removeFilter(notes)

@@ -33,8 +33,19 @@ def computed_demos() -> dict:
 
 
 @pytest.fixture(scope="session")
-def rendered_demos(computed_demos) -> dict[str, str]:
-    """The appendix HTML of each demo (`computed_demos`), rendered once per session."""
+def rendered_demos(computed_demos) -> dict:
+    """Each demo's figures and HTML (`api.render`), rendered once per session."""
     from appendix import api
 
-    return {name: api.render(computed).html for name, computed in computed_demos.items()}
+    return {name: api.render(computed) for name, computed in computed_demos.items()}
+
+
+@pytest.fixture(scope="session")
+def demo_layouts(rendered_demos) -> dict:
+    """Each demo's HTML laid out on A4 by WeasyPrint (`render.typeset`, what the PDF is
+    written from), once per session: a `page_layout.Layout` by folder name."""
+    from appendix.render import RenderOptions, typeset
+    from page_layout import Layout
+
+    return {name: Layout(typeset(r.html, RenderOptions(paper="A4")))
+            for name, r in rendered_demos.items()}

@@ -157,7 +157,7 @@ RULES = {"leading zero": leading_zeros, "interval": interval_variants,
 @pytest.mark.parametrize("rule", RULES)
 @pytest.mark.parametrize("demo", DEMOS)
 def test_the_demo_pages_keep_the_number_style(rendered_demos, demo, rule):
-    assert RULES[rule](rendered_demos[demo]) == []
+    assert RULES[rule](rendered_demos[demo].html) == []
 
 
 # --- each rule finds what it is for ------------------------------------------------------
