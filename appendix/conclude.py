@@ -13,7 +13,7 @@ from collections.abc import Iterable
 from dataclasses import dataclass
 
 from appendix import numbers as fmt
-from appendix.methods import adjustment
+from appendix.methods import TEST_NAMES, adjustment
 from appendix.plan.model import Outcome, Plan
 from appendix.results import (
     AssumptionStatus,
@@ -27,11 +27,6 @@ from appendix.results import (
     VarianceTest,
 )
 
-TEST_NAMES = {
-    "shapiro-wilk": "Shapiro–Wilk",
-    "brown-forsythe": "Brown–Forsythe",
-    "bartlett": "Bartlett",
-}
 
 
 Parts = tuple[str | Number, ...]

@@ -20,8 +20,7 @@ from collections.abc import Mapping
 import numpy as np
 
 from appendix import numbers
-from appendix.conclude import TEST_NAMES
-from appendix.methods import interval_note
+from appendix.methods import TEST_NAMES, interval_note
 from appendix.plan.family_plan import SINGLE_STEP, FamilyPlan, Node, gate_order
 from appendix.plan.model import Contrast, Plan
 from appendix.results import (

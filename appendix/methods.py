@@ -20,6 +20,14 @@ from types import MappingProxyType
 from appendix.results import (ContrastFamily, ModelTable, OutcomeResult, RegisteredFamily,
                               StudyResults)
 
+#: The assumption tests by their published names, as sentences write them.
+TEST_NAMES = {
+    "shapiro-wilk": "Shapiro–Wilk",
+    "brown-forsythe": "Brown–Forsythe",
+    "bartlett": "Bartlett",
+}
+
+
 
 @dataclass(frozen=True)
 class Reference:
