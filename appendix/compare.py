@@ -31,6 +31,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
+from appendix import numbers
 from appendix.errors import UserError
 from appendix.jsonread import checked, read_json, read_results
 from appendix.names import MANIFEST_FILE, RESULTS_FILE
@@ -63,6 +64,7 @@ class Decision:
     decision: str
     p: float | None
     sentence: str
+    adjusted: bool = False  # `p` is adjusted for multiplicity
 
 
 @dataclass(frozen=True)
@@ -260,9 +262,10 @@ def _decision(conclusion: Conclusion) -> Decision:
     return Decision(conclusion.decision, conclusion.p, conclusion.sentence)
 
 
-def _term_conclusions(results: StudyResults, o: OutcomeResult) -> Iterator[tuple[str, str, Decision]]:
-    """(term id, label, decision) of each tested term of an outcome. Where the robust tests
-    are computed (one factor), the label names the test in force."""
+def term_conclusions(results: StudyResults, o: OutcomeResult) -> Iterator[tuple[str, str, Decision]]:
+    """(term id, label, decision) of each tested term of an outcome, the label
+    ``outcome label: term label``. Where the robust tests are computed (one factor), the
+    label names the test used."""
     rows = _tested_terms(results, o)
     method = o.selected_method
     test = f" ({_METHOD_WORDS.get(method, method)})" if o.robust is not None else ""
@@ -280,12 +283,13 @@ def conclusions_of(results: StudyResults) -> dict[tuple[str, str, str], tuple[st
     its hypotheses."""
     found: dict[tuple[str, str, str], tuple[str, str, Decision]] = {}
     for o in _ordered(results.outcomes):
-        for term, label, decision in _term_conclusions(results, o):
+        for term, label, decision in term_conclusions(results, o):
             found[(o.name, "term", term)] = (o.role, label, decision)
         for h, sentence in _hypotheses(o):
             p = h.p_adjusted if h.p_adjusted is not None else h.p
             found[(o.name, "hypothesis", h.id)] = (
-                o.role, f"{o.label}: {h.label} ({h.id})", Decision(h.decision, p, sentence))
+                o.role, f"{o.label}: {h.label} ({h.id})",
+                Decision(h.decision, p, sentence, adjusted=h.p_adjusted is not None))
     return found
 
 
@@ -595,26 +599,77 @@ STATUS_WORDS = {"analysed": "analysed", "excluded": "excluded by rule", "missing
                 "left-out": "left out"}
 
 
-def number_text(value: float | None) -> str:
-    """A number for the diff: six significant digits; "none" for no value."""
+#: Quantities (the last part of a `NumberMove.quantity`) written as p-values, and those
+#: bounded by 1 (written without a leading zero, APA 7).
+_P_QUANTITIES = ("p", "p_adjusted", "gg_p", "hf_p")
+_BOUNDED_QUANTITIES = ("partial_eta_squared", "partial_omega_squared")
+
+
+def _style(quantity: str | None) -> str:
+    """How the appendix writes a quantity of `numbers_of`: ``p``, ``bounded``, ``count``
+    or ``estimate``."""
+    if quantity is None:
+        return "estimate"
+    name, _, part = quantity.rpartition(".")
+    if part in _P_QUANTITIES:
+        return "p"
+    if part in ("ci_low", "ci_high", "estimate"):
+        part = name.rpartition(".")[2]
+    if part in _BOUNDED_QUANTITIES:
+        return "bounded"
+    if quantity.startswith("n_") or quantity.startswith("n["):
+        return "count"
+    return "estimate"
+
+
+def number_text(value: float | None, quantity: str | None = None, decimals: int = 4) -> str:
+    """A number for the diff in the appendix's number style (`appendix.numbers`): a p-value
+    as ``.041`` or ``< .001``, a share of variance without its leading zero, a count as a
+    whole number, anything else to `decimals` decimals with a true minus; "none" for no value.
+
+    >>> number_text(0.120608, "C1.p_adjusted"), number_text(-1.77e-05, decimals=6)
+    ('.121', '−0.000018')
+    """
     if value is None:
         return "none"
-    if isinstance(value, int):
-        return str(value)
-    return f"{value:.6g}"
+    style = _style(quantity)
+    if style == "p":
+        return numbers.p_value(value)
+    if style == "count" or isinstance(value, int):
+        return str(int(value))
+    if style == "bounded":
+        return numbers.proportion(value, 3)
+    return numbers.fixed(value, decimals)
+
+
+def _decimals(move: NumberMove) -> int:
+    """Enough decimals that a move shows in both values and in the change itself."""
+    return numbers.decimals_for([move.a, move.b, move.change], minimum=2, maximum=6)
+
+
+def value_text(move: NumberMove, which: str) -> str:
+    """Run A's or run B's value of a moved number (`which` is ``a`` or ``b``)."""
+    return number_text(getattr(move, which), move.quantity, _decimals(move))
 
 
 def move_text(move: NumberMove) -> str:
+    """The change from A to B, signed, with the relative change: ``+0.0123 (+4.1%)``."""
     if move.change is None:
         return "appeared" if move.a is None else "disappeared" if move.b is None else ""
-    relative = f", {move.relative_change:+.1%}" if move.relative_change is not None else ""
-    return f"{move.change:+.3g}{relative}"
+    change = numbers.fixed(move.change, _decimals(move))
+    sign = "+" if not change.startswith(numbers.MINUS) else ""
+    relative = ""
+    if move.relative_change is not None:
+        percent = numbers.fixed(move.relative_change * 100, 1)
+        relative = f" ({'+' if not percent.startswith(numbers.MINUS) else ''}{percent}%)"
+    return f"{sign}{change}{relative}"
 
 
 def decision_text(d: Decision | None) -> str:
+    """``rejected (adjusted p = .003)``, ``not rejected (p = .120)``."""
     if d is None:
         return "absent"
-    p = f" (p = {number_text(d.p)})" if d.p is not None else ""
+    p = f" ({'adjusted ' if d.adjusted else ''}{numbers.p_clause(d.p)})" if d.p is not None else ""
     return f"{DECISION_WORDS.get(d.decision, d.decision)}{p}"
 
 
@@ -642,8 +697,11 @@ def report_lines(diff: RunDiff, listed: int = LISTED_NUMBERS) -> list[str]:
     lines = [f"appendix diff: A = {diff.a.folder}", f"               B = {diff.b.folder}"]
     if diff.a.study != diff.b.study:
         lines.append(f"note: different studies: {diff.a.study} and {diff.b.study}")
-    alpha = (f"alpha {number_text(diff.a.alpha)} in both runs" if diff.a.alpha == diff.b.alpha
-             else f"alpha {number_text(diff.a.alpha)} in A, {number_text(diff.b.alpha)} in B")
+    def alpha(value: float) -> str:
+        return numbers.no_leading_zero(f"{value:g}")
+
+    alpha = (f"alpha {alpha(diff.a.alpha)} in both runs" if diff.a.alpha == diff.b.alpha
+             else f"alpha {alpha(diff.a.alpha)} in A, {alpha(diff.b.alpha)} in B")
     lines += [f"study {diff.a.study}; {alpha}", ""]
     lines.append(f"1. Conclusions that changed: {len(diff.conclusions) or 'none'}")
     for c in diff.conclusions:
@@ -654,7 +712,7 @@ def report_lines(diff: RunDiff, listed: int = LISTED_NUMBERS) -> list[str]:
     lines += ["", (f"2. Numbers that moved: {len(diff.numbers) or 'none'} (tolerance: relative "
                    f"{tol.relative:g}, absolute {tol.absolute:g})")]
     for m in diff.numbers[:listed]:
-        lines.append(f"   {m.outcome}  {m.label}: {number_text(m.a)} -> {number_text(m.b)}  "
+        lines.append(f"   {m.outcome}  {m.label}: {value_text(m, 'a')} -> {value_text(m, 'b')}  "
                      f"({move_text(m)})")
     if len(diff.numbers) > listed:
         lines.append(f"   and {len(diff.numbers) - listed} more (all of them in --json and the HTML page)")
@@ -708,9 +766,11 @@ def render_page(diff: RunDiff) -> str:
     env = jinja2.Environment(loader=jinja2.FileSystemLoader(str(template_root())), autoescape=True,
                              undefined=jinja2.StrictUndefined, trim_blocks=True, lstrip_blocks=True,
                              keep_trailing_newline=True, finalize=visible_controls)
-    env.filters.update({"num": number_text, "short_hash": lambda d: (d or "absent")[:12],
+    env.filters.update({"num": number_text, "tol": lambda v: f"{v:g}",
+                        "alpha": lambda v: numbers.no_leading_zero(f"{v:g}"), "short_hash": lambda d: (d or "absent")[:12],
                         "plan_value": lambda v: json.dumps(v, ensure_ascii=False)})
     return env.get_template("diff.html.j2").render(
-        d=diff, decision_text=decision_text, move_text=move_text, cell_text=cell_text,
+        d=diff, decision_text=decision_text, move_text=move_text, value_text=value_text,
+        cell_text=cell_text,
         row_name=row_name, row_identity_text=row_identity_text)
 

@@ -13,7 +13,7 @@ from collections.abc import Iterable
 from dataclasses import dataclass
 
 from appendix import numbers as fmt
-from appendix.methods import adjustment
+from appendix.methods import TEST_NAMES, adjustment
 from appendix.plan.model import Outcome, Plan
 from appendix.results import (
     AssumptionStatus,
@@ -27,11 +27,6 @@ from appendix.results import (
     VarianceTest,
 )
 
-_TEST_NAMES = {
-    "shapiro-wilk": "Shapiro–Wilk",
-    "brown-forsythe": "Brown–Forsythe",
-    "bartlett": "Bartlett",
-}
 
 
 Parts = tuple[str | Number, ...]
@@ -168,12 +163,13 @@ def _levels_compared(h: HypothesisResult, levels: tuple[str, ...]) -> tuple[str,
     return None
 
 
-def _interval_words(h: HypothesisResult, unit: str) -> Parts:
+def _interval_words(h: HypothesisResult) -> Parts:
+    """``95% CI [1.20, 3.40]`` (APA 7: a CI in brackets, its unit stated by the estimate)."""
     level = (Number("percent", h.confidence_level), " simultaneous CI" if h.ci_simultaneous else " CI")
     if h.ci_low is None and h.ci_high is None:
         return parts(level, " not available")
-    return parts(level, " ", Number("lower-limit", h.ci_low), " to ",
-                 Number("upper-limit", h.ci_high), unit)
+    return parts(level, " [", Number("lower-limit", h.ci_low), ", ",
+                 Number("upper-limit", h.ci_high), "]")
 
 
 def _family_words(family: RegisteredFamily | None) -> str:
@@ -207,16 +203,16 @@ def _not_tested(ref: str, family: RegisteredFamily | None) -> str:
 def hypothesis_conclusion(plan: Plan, outcome: Outcome, h: HypothesisResult,
                           multiplicity: str, family: RegisteredFamily | None = None) -> Conclusion:
     """One registered contrast hypothesis in plain words, e.g. "Mean shoot dry mass under
-    seaweed was 6.1 mg higher than under uncoated (95% simultaneous CI 2.0 to 10.2 mg,
+    seaweed was 6.1 mg higher than under uncoated (95% simultaneous CI [2.0, 10.2],
     adjusted p = .002, Dunnett); the hypothesis of no difference is rejected at α = .05."
-    A trend names the scale of its estimate: "The linear trend (C4:linear) of mean dry
+    A trend names the scale of its estimate: "The linear trend of mean dry
     mass, its least-squares slope per step between adjacent levels of dose, was estimated
     at 0.80 mg per step (...)".
     `family` is the registered family the hypothesis belongs to: a declared family is named
     in the evidence, and a hypothesis behind a closed gate says why it was not tested.
     """
     alpha = plan.alpha
-    ref = f"{h.label} ({h.id})"
+    ref = h.label  # the id stays in the tables' key column and in results.json
     if h.decision == "not-tested":
         return Conclusion((_not_tested(ref, family),), decision="unavailable", p=None, alpha=alpha)
     if h.estimate is None or h.p is None:
@@ -229,7 +225,7 @@ def hypothesis_conclusion(plan: Plan, outcome: Outcome, h: HypothesisResult,
     adjusted = (("adjusted ", Number("p", h.p_adjusted))
                 if h.p_adjusted is not None and multiplicity != "none" else Number("p", h.p))
     how = adjustment(multiplicity, h.method).name  # the procedure computed, e.g. Games–Howell
-    evidence = parts(" (", _interval_words(h, unit), ", ", adjusted, f", {how}{_family_words(family)})")
+    evidence = parts(" (", _interval_words(h), ", ", adjusted, f", {how}{_family_words(family)})")
     factor = plan.factor_named(_contrast_factor(plan, h))
     pair = _levels_compared(h, factor.levels)
     size = abs(h.estimate)
@@ -244,7 +240,7 @@ def hypothesis_conclusion(plan: Plan, outcome: Outcome, h: HypothesisResult,
                       Number("estimate", h.estimate), unit, evidence)
         null = absent = f"no {h.label}"
     else:
-        first = parts(f"The contrast {ref} of {measure} was estimated at ",
+        first = parts(f"The contrast of {measure}, {ref}, was estimated at ",
                       Number("estimate", h.estimate), unit, evidence)
         null, absent = "a zero contrast", "no difference"
     if h.within is not None:  # a simple effect: the comparison within one level of another factor
@@ -320,7 +316,7 @@ def _contrast_factor(plan: Plan, h: HypothesisResult) -> str:
 
 
 def _variance_detail(test: VarianceTest) -> str:
-    name = _TEST_NAMES.get(test.method, test.method)
+    name = TEST_NAMES.get(test.method, test.method)
     if test.statistic is None:
         return f"{name}: not computed ({' '.join(w.message for w in test.warnings)})"
     if test.df2 is not None:
@@ -370,7 +366,7 @@ def assumption_statuses(plan: Plan, normality: NormalityTest | None,
         normal = AssumptionStatus(
             "normally distributed residuals", "checked",
             "; ".join(f"Shapiro–Wilk on {words}: " + (
-                f"W = {fmt.fixed(test.statistic, 3)}, {fmt.p_clause(test.p)}"
+                f"W = {fmt.proportion(test.statistic, 3)}, {fmt.p_clause(test.p)}"
                 if test.statistic is not None else "not computed") for test, words in checks)
             + " (a small p indicates non-normal residuals)"
             + ("; see also the normal Q-Q plot." if qq_plot else "."))

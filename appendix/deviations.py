@@ -25,7 +25,7 @@ from __future__ import annotations
 import dataclasses
 from collections.abc import Iterable, Sequence
 
-from appendix.data.flow import analysed_words, groups_below
+from appendix.data.flow import analysed_words, groups_below, labelled
 from appendix.names import LOCK_FILE
 from appendix.plan.lock import Lock, PlanChange, compare_plans
 from appendix.plan.model import Plan
@@ -141,7 +141,8 @@ def _below_minimum(plan: Plan, flow: UnitFlow, level: str, grouping: str) -> lis
     per = "group" if level == "level" else "cell"
     return [Deviation("below-minimum-n", group,
                       f"{level.capitalize()} {show(group)} of {grouping}: "
-                      f"{analysed_words(counts)}; the plan's minimum is {minimum} per {per}.",
+                      f"{analysed_words(labelled(plan, counts))}; the plan's minimum is {minimum} "
+                      f"per {per}.",
                       False, detected=detected)
             for group, counts in groups_below(flow, minimum)]
 

@@ -19,7 +19,8 @@ from collections.abc import Mapping
 
 import numpy as np
 
-from appendix.methods import interval_note
+from appendix import numbers
+from appendix.methods import TEST_NAMES, interval_note
 from appendix.plan.family_plan import SINGLE_STEP, FamilyPlan, Node, gate_order
 from appendix.plan.model import Contrast, Plan
 from appendix.results import (
@@ -312,18 +313,26 @@ def test_families(plan: Plan, outcomes: tuple[OutcomeResult, ...]
 test_families.__test__ = False  # a library function whose name pytest would otherwise collect
 
 
+#: Words of the deviation a fallback rule writes (the render stage words its tables itself).
+_FALLBACK_WORDS = {"unequal-variance": "unequal variances", "non-normal": "non-normal errors",
+                   "welch": "Welch", "rank-based": "rank-based", "classical": "classical"}
+
+
 def contingency_deviations(outcome: str, records: tuple[Contingency, ...],
-                           selected: str) -> tuple[Deviation, ...]:
-    """A registered contingency applied is listed among the deviations (acknowledged by
-    the plan itself, which registered the rule)."""
+                           selected: str, label: str | None = None) -> tuple[Deviation, ...]:
+    """A pre-specified fallback rule applied is listed among the deviations (acknowledged by
+    the plan itself, which registered the rule), in words: the test by its name, p in the
+    appendix's number style, the outcome by its `label`."""
     for record in records:
         if record.fired:
             return (Deviation(
                 kind="registered-contingency", subject=outcome,
-                message=(f"{record.test} p = {record.p:.4g} is below the registered "
-                         f"threshold {record.threshold:g}: the registered rule "
-                         f"{record.rule} ({record.when}) selects the {selected} analysis "
-                         f"for {outcome}."),
+                message=(f"{TEST_NAMES.get(record.test, record.test)} "
+                         f"{numbers.p_clause(record.p)} is below the pre-specified threshold "
+                         f"{numbers.no_leading_zero(f'{record.threshold:g}')}: the fallback rule "
+                         f"for {_FALLBACK_WORDS.get(record.when, record.when)} selects the "
+                         f"{_FALLBACK_WORDS.get(selected, selected)} analysis for "
+                         f"{label or outcome}."),
                 acknowledged=True,
-                justification="registered in the plan's fallback rules"),)
+                justification="pre-specified in the plan's fallback rules"),)
     return ()

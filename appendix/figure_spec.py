@@ -13,3 +13,12 @@ FIGURE_KINDS: tuple[str, ...] = ("distribution", "means", "qq", "residuals", "f-
 #: Point clouds larger than this are drawn from a deterministic subsample of this size
 #: (appendix.stats.sampling); boxes, means and lines still use every unit.
 PLOT_POINTS = 20_000
+
+
+def cells_label(results) -> str:
+    """What a figure's axis and a table's column call the treatment cells of `results` (a
+    `StudyResults`): the factor's label (``Seed coating``), or the crossed factors'
+    (``Coating × Irrigation regime``); ``Group`` where no factor is a treatment."""
+    labels = [f.label or f.name for f in results.factors if f.role == "treatment"]
+    text = " \u00d7 ".join(labels)
+    return text[:1].upper() + text[1:] if labels else "Group"

@@ -44,7 +44,7 @@ from scipy import stats
 
 from appendix import numbers
 from appendix.data.dataset import Dataset, OutcomeData
-from appendix.figure_spec import FIGURE_KINDS, PLOT_POINTS
+from appendix.figure_spec import FIGURE_KINDS, PLOT_POINTS, cells_label
 from appendix.models import Residuals
 from appendix.results import ContrastFamily, HypothesisResult, OutcomeResult, StudyResults
 from appendix.stats.sampling import subsample_indices
@@ -131,6 +131,7 @@ class _Panel:
     df_residual: float | None
     alpha: float
     tested: tuple
+    group_label: str = "Group"  # the treatment factors' labels, crossed, when there are any
 
     @property
     def axis_label(self) -> str:
@@ -195,7 +196,8 @@ def _panel(dataset: Dataset, results: StudyResults, outcome: OutcomeResult,
     return _Panel(outcome=outcome, data=data, levels=dataset.levels,
                   cells=treatment_cells(results, data), residuals=residuals,
                   df_residual=tested.residual_df if tested is not None else None, alpha=results.alpha,
-                  tested=tested_row(results, outcome))
+                  tested=tested_row(results, outcome), group_label=cells_label(results))
+
 
 
 def _new_figure(height: float = _HEIGHT_IN, width: float = _WIDTH_IN) -> tuple[Figure, object]:
@@ -228,7 +230,7 @@ def _distribution(panel: _Panel) -> Figure | None:
         mine = points[point_codes == i]
         jitter = rng.uniform(-0.17, 0.17, size=len(mine))
         _scatter(ax, panel, i + jitter, mine, level_colour(i), zorder=3)
-    _level_axis(ax, panel.levels)
+    _level_axis(ax, panel.levels, panel.group_label)
     ax.set_ylabel(_wrap(panel.axis_label, 26))
     return figure
 
@@ -252,7 +254,7 @@ def _means(panel: _Panel) -> Figure | None:
                         elinewidth=1.4, capsize=5)
         ax.plot([i], [group.mean], marker="o", markersize=6, color=level_colour(i),
                 markeredgecolor="#000000", markeredgewidth=0.6, linestyle="none")
-    _level_axis(ax, panel.levels)
+    _level_axis(ax, panel.levels, panel.group_label)
     ax.set_xlim(-0.6, len(panel.levels) - 0.4)
     ax.set_ylabel(_wrap(panel.axis_label, 26))  # the caption says these are means
     return figure
@@ -467,7 +469,7 @@ def _legend_outside(ax, **options) -> None:
                      **options)
 
 
-def _level_axis(ax, levels: tuple[str, ...]) -> None:
+def _level_axis(ax, levels: tuple[str, ...], title: str) -> None:
     ax.set_xticks(range(len(levels)), labels=list(levels))
     # many or long level names would overlap side by side
     if len(levels) > 6 or max(len(level) for level in levels) > 14:
@@ -475,7 +477,7 @@ def _level_axis(ax, levels: tuple[str, ...]) -> None:
         for label in ax.get_xticklabels():
             label.set_horizontalalignment("right")
             label.set_rotation_mode("anchor")
-    ax.set_xlabel("Group")
+    ax.set_xlabel(_wrap(title, 60))
 
 
 #: The drawer of each kind of `FIGURE_KINDS`.
@@ -603,9 +605,8 @@ def _draw_lines_of_means(spec: _LinesOfMeans) -> Figure | None:
                           marker=level_marker(j), markersize=6, markeredgecolor="#000000",
                           markeredgewidth=0.6, label=_wrap(name, 24), zorder=3)
         line.set_gid(f"line-{j}-means")
-    _level_axis(ax, spec.x_levels)
+    _level_axis(ax, spec.x_levels, spec.x_label)
     ax.set_xlim(-0.6, len(spec.x_levels) - 0.4)
-    ax.set_xlabel(_wrap(spec.x_label, 60))
     ax.set_ylabel(_wrap(spec.y_label))
     _legend_outside(ax, title=_wrap(spec.lines_label, 24), alignment="left")
     return figure

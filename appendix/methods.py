@@ -20,6 +20,14 @@ from types import MappingProxyType
 from appendix.results import (ContrastFamily, ModelTable, OutcomeResult, RegisteredFamily,
                               StudyResults)
 
+#: The assumption tests by their published names, as sentences write them.
+TEST_NAMES = {
+    "shapiro-wilk": "Shapiro–Wilk",
+    "brown-forsythe": "Brown–Forsythe",
+    "bartlett": "Bartlett",
+}
+
+
 
 @dataclass(frozen=True)
 class Reference:
@@ -561,12 +569,12 @@ METHODS: Mapping[str, Method] = MappingProxyType({m.key: m for m in (
            "with an interval open on the side the alternative does not bound. The regulatory "
            "convention is half the two-sided \u03b1 (ICH E9, 1998, section 5.5).",
            ("ich1998",)),
-    Method("contingency", "Registered contingencies",
-           "The plan registers fallback rules: a named test of an assumption whose p below the "
-           "threshold puts another analysis in force, evaluated in plan order, the first that "
-           "fires winning. Such two-stage rules distort the error rates of the final test "
+    Method("contingency", "Pre-specified fallback rules",
+           "The plan pre-specifies fallback rules: a named test of an assumption whose p below "
+           "the threshold selects another analysis, evaluated in plan order, the first that "
+           "applies being used. Such two-stage rules distort the error rates of the final test "
            "(Zimmerman, 2004; Rochon et al., 2012); the appendix therefore shows every rule, "
-           "whether it fired, and, when one fired, the analyses both with and without it.",
+           "whether it was applied, and, when one was, the analyses both with and without it.",
            ("zimmerman2004", "rochon2012")),
     Method("pretest", "Diagnostics are shown, not used to choose the test",
            "Choosing a test by the outcome of a preliminary test of an assumption distorts "

@@ -199,7 +199,8 @@ def _between_outcome(plan, outcome, data, missing_by_cell, cell_labels):
         families = one_factor.registered_families(plan, outcome.name, selected, one, data.values, treatment)
         exploratory = one_factor.exploratory_families(plan, outcome.name, selected, one, data.values,
                                                       treatment)
-        deviations = one_factor.contingency_deviations(outcome.name, contingencies, selected)
+        deviations = one_factor.contingency_deviations(outcome.name, contingencies, selected,
+                                                        outcome.label)
     else:
         families, exploratory = _contrast_families(plan, outcome, fit=fit)
     n = data.sample_of if data.sample_of is not None else int(data.values.size)

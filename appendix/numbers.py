@@ -7,9 +7,13 @@ a table cell never disagree about how a value is shown.
 from __future__ import annotations
 
 import math
+import re
+
+from markupsafe import Markup, escape
 
 MINUS = "\u2212"  # typographic minus, as journals print it
 DASH = "\u2014"  # shown where a value is not available
+NBSP = "\u00a0"  # no-break space: a number clause never breaks across lines in HTML
 
 
 def _missing(value: float | None) -> bool:
@@ -147,10 +151,11 @@ def write_number(kind: str, value: float | None, high: float | None = None, *,
     raise ValueError(f"unknown number kind {kind!r}")
 
 
-def write_parts(parts, **decimals: int) -> str:
+def write_parts(parts, *, html: bool = False, **decimals: int) -> str:
     """A sentence from its parts: text as it stands, each number (a `Number` of
     `appendix.results`, or its plain mapping from results.json) by `write_number` with
-    the given decimals."""
+    the given decimals. With `html`, the sentence is typeset for the appendix's HTML by
+    `prose_html` (escaped, statistic symbols in italics, number clauses unbreakable)."""
     out = []
     for part in parts:
         if isinstance(part, str):
@@ -159,4 +164,60 @@ def write_parts(parts, **decimals: int) -> str:
             out.append(write_number(part["kind"], part["value"], part.get("high"), **decimals))
         else:
             out.append(write_number(part.kind, part.value, part.high, **decimals))
-    return "".join(out)
+    text = "".join(out)
+    return prose_html(text) if html else text
+
+
+#: Statistic symbols set in italics (APA 7, section 6.45, from memory: Latin letters used as
+#: statistical symbols are italic; Greek letters, and abbreviations such as CI, are not).
+ITALIC_SYMBOLS = ("SD", "SE", "df", "F", "H", "M", "N", "R\u00b2", "W", "g", "n", "p", "r",
+                  "t", "z")
+
+# A symbol as a whole word that opens a number clause: ``F(``, ``p =``, ``n = 12``.
+_SYMBOL = re.compile(r"(?<![\w\u00b2'])(" + "|".join(sorted(
+    (re.escape(s) for s in ITALIC_SYMBOLS), key=len, reverse=True)) + r")(?=\(|[ \u00a0][=<>≤≥][ \u00a0][\d.\u2212\u221e-])")
+# The spaces a number clause holds: around a relation sign, after the comma between two
+# numbers (``F(3, 39)``, ``[1.20, 3.40]``), between a level and ``CI`` and before its bracket.
+_CLAUSE_SPACES = (
+    (re.compile(r" ([=<>≤≥]) (?=[\d.\u2212\u221e-])"), NBSP + r"\1" + NBSP),
+    (re.compile(r"(?<=[\d\u221e]), (?=[\d.\u2212\u221e-])"), "," + NBSP),
+    (re.compile(r"(?<=%) (?=(?:simultaneous )?CI\b)"), NBSP),
+    (re.compile(r"(?<=\bsimultaneous) (?=CI\b)"), NBSP),
+    (re.compile(r"(?<=\bCI) (?=\[)"), NBSP),
+)
+
+
+WORD_JOINER = "\u2060"  # invisible; forbids a line break where it stands
+_LEADING_POINT = re.compile(r"(?<=[\s\u00a0(\[\u2212-])\.(?=\d)")
+
+
+def tie(text: str) -> str:
+    """`text` with no-break spaces inside its number clauses, so that ``p < .001``,
+    ``F(3, 39) = 4.21`` and ``95% CI [1.20, 3.40]`` never break across lines.
+
+    >>> tie("F(3, 39) = 4.21, p < .001") == "F(3,\u00a039)\u00a0=\u00a04.21, p\u00a0<\u00a0.001"
+    True
+    """
+    for pattern, replacement in _CLAUSE_SPACES:
+        text = pattern.sub(replacement, text)
+    return text
+
+
+def prose_html(text: str) -> Markup:
+    """Plain prose written by the pipeline (a conclusion, a diagnostic's detail) as HTML in
+    the number style of the tables: escaped, each statistic symbol that opens a number
+    clause in italics (`ITALIC_SYMBOLS`), the clause's spaces unbreakable (`tie`), and a
+    word joiner after a leading decimal point, where a line could otherwise break.
+    Plain-text outputs (terminal, results.json) keep the text as it is.
+
+    >>> str(prose_html("p < .001 & n = 4"))
+    '<i>p</i>\xa0&lt;\xa0.\u2060001 &amp; <i>n</i>\xa0=\xa04'
+    """
+    # a line may otherwise break between a leading decimal point and its digits (". | 121")
+    tied = _LEADING_POINT.sub("." + WORD_JOINER, tie(text))
+    out, start = [], 0
+    for match in _SYMBOL.finditer(tied):
+        out += [escape(tied[start:match.start()]), Markup("<i>%s</i>") % match.group(1)]
+        start = match.end()
+    out.append(escape(tied[start:]))
+    return Markup("").join(out)

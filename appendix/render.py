@@ -38,7 +38,7 @@ from jinja2.bccache import Bucket
 from markupsafe import Markup
 
 from appendix import numbers
-from appendix.figure_spec import FIGURE_KINDS, PLOT_POINTS
+from appendix.figure_spec import FIGURE_KINDS, PLOT_POINTS, cells_label
 from appendix.methods import adjustment, methods_used, references_for
 from appendix.results import (Diagnostics, HypothesisResult, LevelCount, ModelRow, ModelTable,
                               OutcomeResult, PlannedNumbers, StatWarning, StudyResults)
@@ -82,24 +82,41 @@ def _filters(options: RenderOptions) -> dict[str, Any]:
             return options.decimals
         return numbers.decimals_for(list(values))
 
+    def mean_decimals(outcome: OutcomeResult) -> int:
+        """The decimals of an outcome's group means, which its differences of means (the
+        contrast tables and the sentences about them) share."""
+        return column_decimals(g.mean for g in outcome.descriptives.groups)
+
+    def sentence(conclusion, outcome: OutcomeResult | None = None) -> Markup:
+        """A conclusion typeset; its estimates with the decimals of `outcome`'s tables."""
+        return numbers.write_parts(
+            conclusion.parts, html=True, statistic_decimals=options.statistic_decimals,
+            effect_decimals=options.effect_decimals,
+            estimate_decimals=(mean_decimals(outcome) if outcome is not None else
+                               2 if options.decimals is None else options.decimals))
+
     return {
         "fixed": numbers.fixed,
         "stat": lambda v: numbers.fixed(v, options.statistic_decimals),
         "effect": lambda v: numbers.fixed(v, options.effect_decimals),
-        "proportion": lambda v: numbers.proportion(v, options.effect_decimals),
-        "effect_interval": lambda lo, hi, bounded=False: numbers.interval(
-            lo, hi, options.effect_decimals, bounded),
-        "interval": numbers.interval,
+        # a statistic bounded by 1 (Mauchly's W, epsilon): the statistics' decimals, no leading zero
+        "bounded_stat": lambda v: numbers.proportion(v, options.statistic_decimals),
+        "proportion": lambda v, decimals=None: numbers.proportion(
+            v, options.effect_decimals if decimals is None else decimals),
+        "effect_interval": lambda lo, hi, bounded=False: numbers.tie(numbers.interval(
+            lo, hi, options.effect_decimals, bounded)),
+        "interval": lambda lo, hi, decimals=2, bounded=False: numbers.tie(
+            numbers.interval(lo, hi, decimals, bounded)),
         "pvalue": numbers.p_value,
-        "p_clause": numbers.p_clause,
+        "p_clause": lambda p: numbers.prose_html(numbers.p_clause(p)),
+        "prose": numbers.prose_html,
         "df": numbers.df_value,
         "percent": numbers.percent,
         "alpha": _alpha,
         "column_decimals": column_decimals,
-        "sentence": lambda conclusion: numbers.write_parts(
-            conclusion.parts, statistic_decimals=options.statistic_decimals,
-            effect_decimals=options.effect_decimals,
-            estimate_decimals=2 if options.decimals is None else options.decimals),
+        "sentence": sentence,
+        "mean_decimals": mean_decimals,
+        "cells_label": cells_label,
         "short_hash": lambda digest: digest[:12],
         "level_counts": _level_counts,
         "planned_counts": planned_counts,
@@ -174,7 +191,7 @@ WORDS: Mapping[str, Mapping[Any, str]] = MappingProxyType({
         "brown-forsythe": "Brown\u2013Forsythe", "bartlett": "Bartlett",
         "shapiro-wilk": "Shapiro\u2013Wilk"}),
     "deviations": MappingProxyType({  # keys of Deviation.kind
-        "registered-contingency": "Registered contingency applied",
+        "registered-contingency": "Pre-specified fallback rule applied",
         "plan-not-registered": "Plan not registered",
         "plan-changed": "Plan changed since registration",
         "outcome-added": "Outcome added",
@@ -294,7 +311,7 @@ def _contrast_interval(h: HypothesisResult, decimals: int) -> str:
         numbers.fixed(low, decimals)
     right = "\u221e" if high is None and h.alternative == "greater" else \
         numbers.fixed(high, decimals)
-    return f"[{left}, {right}]"
+    return numbers.tie(f"[{left}, {right}]")
 
 
 def _error_bound(value: float) -> str:

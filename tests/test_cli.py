@@ -145,11 +145,11 @@ def test_run_prints_the_decision_of_each_tested_term_of_a_factorial_outcome(tmp_
     frame = _factorial(tmp_path, ss=2, covariate=False, interaction=True)
     table, _ = _statsmodels_table(frame, 2, covariate=False, interaction=True)
     p = table["PR(>F)"]
-    decided = {term: "reject" if p[f"C({term})" if ":" not in term else term] < 0.05 else "retain"
+    decided = {term: "rejected" if p[f"C({term})" if ":" not in term else term] < 0.05 else "not rejected"
                for term in ("coating", "water", "C(coating):C(water)")}
     code, out, err = run_cli(["run", "study.yaml", "--no-pdf", "--out", "run"], tmp_path)
     assert (code, err) == (0, "")
     assert out.splitlines() == [
         f"wrote {tmp_path / 'run'}",
-        f"  mass (primary): coating: {decided['coating']}; water: {decided['water']}; "
-        f"coating × water: {decided['C(coating):C(water)']}"]
+        f"  Dry mass (primary): Coating: {decided['coating']}; Water: {decided['water']}; "
+        f"Coating × water: {decided['C(coating):C(water)']}"]

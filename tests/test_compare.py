@@ -221,8 +221,12 @@ def test_demo_diff_text_for_people(demo_runs):
     code, out = diff_command(*demo_runs)
     assert code == 1
     text = out.getvalue()
-    assert ("   dry_mass (primary) hypothesis C2:humic: not rejected (p = 0.120608) -> rejected"
-            in text)
+    # in the appendix's number style (APA 7, from memory): p to three decimals without its
+    # leading zero, said to be adjusted when it is
+    assert ("   dry_mass (primary) hypothesis C2:humic: not rejected (adjusted p = .121) -> "
+            "rejected (adjusted p = .028)" in text)
+    moved = text[text.index("2. Numbers"):text.index("3. Data")].splitlines()[1:]
+    assert moved and not [line for line in moved if "e-0" in line or "0.120608" in line]
     assert "   units added: P049 (line 50; coating humic)" in text
     assert "   P024  shoot_dry_mass_mg (outcome dry_mass): '37.2' (analysed) -> '47.2' (analysed)" in text
     order = [text.index(h) for h in ("1. Conclusions", "2. Numbers", "3. Data", "4. Plan", "5. Checksums")]

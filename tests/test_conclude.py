@@ -104,14 +104,14 @@ def test_a_simple_difference_reads_as_higher_or_lower(plan):
     assert result.decision == "reject" and result.p == 0.0014
     assert result.sentence == (
         "Mean shoot dry mass at day 21 under seaweed was 6.12 mg higher than under uncoated "
-        "(95% simultaneous CI 2.01 to 10.23 mg, adjusted p = .001, Dunnett); the hypothesis "
+        "(95% simultaneous CI [2.01, 10.23], adjusted p = .001, Dunnett); the hypothesis "
         "of no difference is rejected at \u03b1 = .05.")
     lower = hypothesis_conclusion(plan, plan.outcomes[0], hypothesis(
         estimate=-1.5, ci_low=-3.0, ci_high=0.1, p=0.06, p_adjusted=0.12, decision="retain",
         ci_simultaneous=False), "holm")
     assert lower.sentence == (
         "Mean shoot dry mass at day 21 under seaweed was 1.50 mg lower than under uncoated "
-        "(95% CI \u22123.00 to 0.10 mg, adjusted p = .120, Holm); the hypothesis of no "
+        "(95% CI [\u22123.00, 0.10], adjusted p = .120, Holm); the hypothesis of no "
         "difference is not rejected at \u03b1 = .05, which is not evidence that there is no "
         "difference.")
 
@@ -125,16 +125,28 @@ def test_a_weighted_contrast_one_sided_and_not_tested(plan):
                         p_adjusted=0.0031)
     sentence = hypothesis_conclusion(plan, plan.outcomes[0], custom, "fixed-sequence").sentence
     assert sentence == (
-        "The contrast coated versus uncoated (C1) of mean shoot dry mass at day 21 was "
-        "estimated at 3.90 mg (95% CI 1.60 to \u221e mg, adjusted p = .003, fixed-sequence); "
+        "The contrast of mean shoot dry mass at day 21, coated versus uncoated, was "
+        "estimated at 3.90 mg (95% CI [1.60, \u221e], adjusted p = .003, fixed-sequence); "
         "the hypothesis of a zero contrast against the one-sided alternative 'greater' is "
         "rejected at \u03b1 = .05.")
     skipped = hypothesis_conclusion(plan, plan.outcomes[0],
                                     hypothesis(decision="not-tested", p_adjusted=None), "fixed-sequence")
     assert skipped.decision == "unavailable"
-    assert skipped.sentence == ("Seaweed \u2212 uncoated (C2:seaweed) was not tested under the "
+    assert skipped.sentence == ("Seaweed \u2212 uncoated was not tested under the "
                                 "plan: fixed-sequence testing stopped at an earlier hypothesis "
                                 "that was not rejected.")
+
+
+def test_a_sentence_names_a_hypothesis_by_its_label_not_its_id(plan):
+    # the id (C2:seaweed) is the tables' key and results.json's; prose uses the label
+    from appendix.conclude import hypothesis_conclusion
+
+    for changes in ({}, {"decision": "not-tested", "p_adjusted": None},
+                    {"kind": "custom", "weights": (-1.0, 1 / 3, 1 / 3, 1 / 3)},
+                    {"estimate": None, "p": None, "decision": "unavailable"}):
+        sentence = hypothesis_conclusion(plan, plan.outcomes[0], hypothesis(**changes),
+                                         "holm").sentence
+        assert "C2" not in sentence and "seaweed" in sentence.lower()
 
 
 @pytest.mark.parametrize(("multiplicity", "method", "name"), [

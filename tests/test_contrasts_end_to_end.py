@@ -266,7 +266,7 @@ def _games_howell_sentence(study: Path, low: str, high: str) -> str:
             "the hypothesis of no difference is not rejected at \u03b1 = .05, which is not "
             "evidence that there is no difference.")
     return (f"Mean response under {high} was {abs(estimate):.2f} mg {direction} than under {low} "
-            f"(95% simultaneous CI {_typeset(estimate - half)} to {_typeset(estimate + half)} mg, "
+            f"(95% simultaneous CI [{_typeset(estimate - half)}, {_typeset(estimate + half)}], "
             f"{p_words}, Games–Howell); {rest}")
 
 
@@ -329,13 +329,13 @@ def test_one_way_trend_estimates_are_slope_and_curvature_in_outcome_units(tmp_pa
     assert quadratic.estimate == pytest.approx(np.polyfit(x, means, 2)[0], rel=1e-9)
     sentence = primary.hypothesis_conclusions[0].sentence
     assert sentence.startswith(
-        "The linear trend (C4:linear) of mean response, its least-squares slope per dose unit "
+        "The linear trend of mean response, its least-squares slope per dose unit "
         f"of the registered spacing 0, 1, 2, 4, was estimated at {slope:.2f} mg per dose unit "
-        "(95% CI ")
-    assert "mg per dose unit, p < .001, unadjusted); the hypothesis of no linear trend is " \
+        "(95% CI [")
+    assert "], p < .001, unadjusted); the hypothesis of no linear trend is " \
            "rejected at \u03b1 = .05." in sentence
     assert primary.hypothesis_conclusions[1].sentence.startswith(
-        "The quadratic trend (C4:quadratic) of mean response, its coefficient of x\u00b2 in the "
+        "The quadratic trend of mean response, its coefficient of x\u00b2 in the "
         "least-squares quadratic in x, x in dose units of the registered spacing 0, 1, 2, 4, "
         "was estimated at ")
-    assert " mg per dose unit\u00b2 (95% CI " in primary.hypothesis_conclusions[1].sentence
+    assert " mg per dose unit\u00b2 (95% CI [" in primary.hypothesis_conclusions[1].sentence

@@ -96,7 +96,7 @@ def test_each_outcome_is_analysed_with_its_own_covariates(tmp_path):
     assert flows == {"grip": 2, "walk": 0}
     finding = next(f for f in results.findings if f.code == "covariate-missing")
     assert finding.message == ("2 eligible units without a value of the covariate grip strength "
-                               "at entry: not analysed for outcome grip (the outcomes it adjusts).")
+                               "at entry: not analysed for outcome grip strength (the outcomes it adjusts).")
 
 
 def test_the_plan_as_an_outcome_sees_it(tmp_path):

@@ -277,7 +277,7 @@ multiplicity: {method: none}
     slope = stats.linregress(np.arange(4.0), wide.mean(axis=0).to_numpy()).slope
     assert trend.estimate == pytest.approx(slope, rel=1e-10)
     assert model.hypothesis_conclusions[0].sentence.startswith(
-        "The linear trend (T1:linear) of mean Leaf index, its least-squares slope per step "
+        "The linear trend of mean Leaf index, its least-squares slope per step "
         f"between adjacent levels of visit, was estimated at {slope:.2f} per step (95% CI ")
     assert "all units" in render(computed).html
 
@@ -318,7 +318,7 @@ multiplicity: {method: none}
     assert quadratic.estimate == pytest.approx(np.polyfit(spacing, means.to_numpy(), 2)[0], rel=1e-9)
     assert linear.scale.per == "per coat thickness unit"
     assert model.hypothesis_conclusions[1].sentence.startswith(
-        "The quadratic trend (T1:quadratic) of mean Dry mass, its coefficient of x\u00b2 in the "
+        "The quadratic trend of mean Dry mass, its coefficient of x\u00b2 in the "
         "least-squares quadratic in x, x in coat thickness units of the registered spacing "
         "0, 1, 3, was estimated at ")
     assert " g per coat thickness unit\u00b2 (95% CI " in model.hypothesis_conclusions[1].sentence

@@ -30,6 +30,7 @@ FIRST = {"SOURCE_DATE_EPOCH": "1771059600"}   # 2026-02-14T09:00:00Z
 SECOND = {"SOURCE_DATE_EPOCH": "1772269200"}  # 2026-02-28T09:00:00Z
 LEVELS = ("uncoated", "chitosan", "seaweed", "humic")
 OUTCOMES = {"dry_mass": "shoot_dry_mass_mg", "chlorophyll": "chlorophyll_index"}
+LABELS = {"dry_mass": "shoot dry mass at day 21", "chlorophyll": "leaf chlorophyll index at day 21"}
 MISSING = {"", "NA", "N/A", "NaN", "nan", "."}  # the missing-value spellings of docs/study-file.md
 
 
@@ -244,13 +245,15 @@ def test_fewer_analysed_units_than_the_registered_minimum_per_group(demo_study: 
         per = [(name, counts[name][level]) for name in OUTCOMES]
         if min(n for _, n in per) < 12:
             words = (f"{per[0][1]} units analysed" if per[0][1] == per[1][1] else
-                     "units analysed: " + ", ".join(f"{n} for {name}" for name, n in per))
+                     "units analysed: " + ", ".join(f"{n} for {LABELS[name]}" for name, n in per))
             expected.append((level, f"Level '{level}' of seed coating: {words}; the plan's "
                                     "minimum is 12 per group.", False))
     assert len(expected) == 4  # every coating of the invented data falls short somewhere
     assert _of(_deviations(demo_study), "below-minimum-n") == expected
-    assert expected[3][1] == ("Level 'humic' of seed coating: units analysed: 11 for dry_mass, "
-                              "12 for chlorophyll; the plan's minimum is 12 per group.")
+    # outcomes by their labels, not their names (dry_mass)
+    assert expected[3][1] == ("Level 'humic' of seed coating: units analysed: 11 for shoot dry "
+                              "mass at day 21, 12 for leaf chlorophyll index at day 21; the "
+                              "plan's minimum is 12 per group.")
 
 
 def test_a_lower_minimum_leaves_only_the_groups_below_it(demo_study: Path):
@@ -364,8 +367,11 @@ def test_a_registered_contingency_applied(tmp_path: Path):
     assert (found.kind, found.subject, found.acknowledged, found.detected) == (
         "registered-contingency", "y", True,
         "the registered fallback rule's test on this run's data")
-    assert found.message.startswith(f"brown-forsythe p = {rule.p:.4g} is below the registered "
-                                    "threshold 0.05")
+    # in words and in the appendix's number style: the test's name, p without a leading zero
+    assert round(rule.p, 3) == 0.002
+    assert found.message == ("Brown\u2013Forsythe p = .002 is below the pre-specified threshold "
+                             ".05: the fallback rule for unequal variances selects the Welch "
+                             "analysis for response.")
 
 
 # --- acknowledgements, --strict and the banner -------------------------------------------
@@ -454,8 +460,8 @@ def test_strict_exits_0_once_every_deviation_is_acknowledged(demo_study: Path):
     assert _banner(html) is None and "unacknowledged deviation" not in html
     table = _text(html, "deviations")
     assert ("Fewer units than the registered minimum humic Level 'humic' of seed coating: "
-            "units analysed: 11 "
-            "for dry_mass, 12 for chlorophyll; the plan's minimum is 12 per group. analysed units in the unit "
+            "units analysed: 11 for shoot dry mass at day 21, 12 for leaf chlorophyll index at day "
+            "21; the plan's minimum is 12 per group. analysed units in the unit "
             "flow compared with data.planned_n.minimum yes units lost in handling (invented)") in table
 
 

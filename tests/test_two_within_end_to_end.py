@@ -112,7 +112,7 @@ def test_results_cover_every_within_term_and_read_back(run):
                    "C3:active@rest", "C3:active@load"]
     assert [f["outcome"] for e in results["exploratory"] for f in e["families"]] == ["rate", "pressure"]
     messages = [f["message"] for f in results["findings"] if f["code"] == "incomplete-units"]
-    assert messages[0].startswith("Outcome rate: 1 eligible unit without a value at every cell of "
+    assert messages[0].startswith("Outcome heart rate: 1 eligible unit without a value at every cell of "
                                   "phase \u00d7 hour")
 
 
@@ -121,7 +121,7 @@ def test_the_appendix_shows_every_stratum(run):
     html = (folder / "run" / "appendix.html").read_text(encoding="utf-8")
     text = " ".join(re.sub(r"<[^>]+>", " ", html).split())
     assert "Variance table of heart rate, units \u00d7 phase \u00d7 hour stratum" in text
-    assert "Mauchly's test of sphericity for hour (units \u00d7 hour stratum): W =" in text
+    assert "Mauchly's test of sphericity for hour (units \u00d7 hour stratum): W &nbsp;=&nbsp;." in text
     assert "Mauchly's test of sphericity for phase \u00d7 hour (units \u00d7 phase \u00d7 hour stratum)" in text
     assert "Phase (units \u00d7 phase stratum) has a single contrast, so sphericity holds trivially" in text
     assert "Several within-unit factors" in text  # the Methods block

@@ -67,7 +67,7 @@ def test_the_effect_interval_is_on_the_corrected_df_and_the_appendix_says_so(tmp
     assert decisions == {True, False}
     html = " ".join(render(computed).html.split())
     assert ("for within-unit terms on the Greenhouse–Geisser corrected degrees of freedom, "
-            "those of the test in force, so that each excludes zero exactly when its F test "
+            "those of the test used, so that each excludes zero exactly when its F test "
             "rejects") in html.replace("<i>F</i>", "F")
     assert "inverts the noncentral F distribution on those corrected" in html
     assert json.loads(to_json(computed.results))["outcomes"][0]["tables"][1]["rows"][0][

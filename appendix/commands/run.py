@@ -33,19 +33,17 @@ def run(args, io: CommandIO) -> int:
 
 
 def decision_lines(results) -> list[str]:
-    """One line per outcome with the decision of each of its conclusions: ``  dry_mass
-    (primary): reject`` for an outcome with one, else each tested term's, ``  yield
-    (primary): coating: reject; irrigation: retain``."""
-    from appendix.compare import conclusions_of
+    """One line per outcome, the same for every design: the outcome's label and role, then
+    each tested term with its decision in the appendix's words, ``  Shoot dry mass
+    (primary): Seed coating (F test): rejected``, ``  Yield (primary): Coating: rejected;
+    Irrigation: not rejected``."""
+    from appendix.compare import DECISION_WORDS, term_conclusions
 
-    terms: dict[str, list[tuple[str, str]]] = {}
-    for (outcome, kind, term), (_, _, decision) in conclusions_of(results).items():
-        if kind == "term":
-            terms.setdefault(outcome, []).append((term, decision.decision))
     lines = []
     for outcome in results.outcomes:
-        found = terms.get(outcome.name, [])
-        said = (found[0][1] if len(found) == 1 else
-                "; ".join(f"{term}: {decision}" for term, decision in found) or "no conclusion")
-        lines.append(f"  {outcome.name} ({outcome.role}): {said}")
+        found = [(label.removeprefix(f"{outcome.label}: "), decision.decision)
+                 for _, label, decision in term_conclusions(results, outcome)]
+        said = "; ".join(f"{term[:1].upper()}{term[1:]}: {DECISION_WORDS.get(d, d)}"
+                         for term, d in found) or "no conclusion"
+        lines.append(f"  {outcome.label[:1].upper()}{outcome.label[1:]} ({outcome.role}): {said}")
     return lines

@@ -323,8 +323,10 @@ def _lacking_covariates(plan, counts: dict[str, int]) -> tuple[Finding, ...]:
         lacking = counts[covariate.name]
         if lacking:
             named = covariate.outcomes
+            labels = {o.name: o.label or o.name for o in plan.outcomes}
             where = ("" if named is None or set(named) == {o.name for o in plan.outcomes}
-                     else f" for {'outcome' if len(named) == 1 else 'outcomes'} {', '.join(named)}"
+                     else f" for {'outcome' if len(named) == 1 else 'outcomes'} "
+                          f"{', '.join(labels.get(n, n) for n in named)}"
                           " (the outcomes it adjusts)")
             found.append(Finding("covariate-missing",
                                  f"{lacking} eligible unit{'s' if lacking != 1 else ''} without a value of "
@@ -336,12 +338,13 @@ def _incomplete(plan, flows, stated: bool) -> tuple[Finding, ...]:
     within = plan.within_factors
     grid = (f"level of {within[0].label or within[0].name}" if len(within) == 1 else
             "cell of " + CROSS.join(f.label or f.name for f in within))
+    labels = {o.name: o.label or o.name for o in plan.outcomes}
     found = []
     for flow in flows:
         left = sum(c.n for c in flow.missing)
         if left:
             found.append(Finding("incomplete-units",
-                                 f"Outcome {flow.outcome}: {left} eligible unit{'s' if left != 1 else ''} "
+                                 f"Outcome {labels.get(flow.outcome, flow.outcome)}: {left} eligible unit{'s' if left != 1 else ''} "
                                  f"without a value at every {grid} (or "
                                  "without a covariate value) left out: complete units only, "
                                  + ("as registered." if stated else "by default (the plan states no "

@@ -43,6 +43,12 @@ def analysed_words(counts: Sequence[tuple[str, int]]) -> str:
     return "units analysed: " + ", ".join(f"{n} for {name}" for name, n in counts)
 
 
+def labelled(plan: Plan, counts: Sequence[tuple[str, int]]) -> list[tuple[str, int]]:
+    """Each outcome's count under the outcome's label, as a sentence names it."""
+    labels = {o.name: o.label or o.name for o in plan.outcomes}
+    return [(labels.get(name, name), n) for name, n in counts]
+
+
 def analysed_in_all(flow: UnitFlow) -> list[tuple[str, int]]:
     """Each outcome's number of analysed units, over every level."""
     return [(o.outcome, sum(c.n for c in o.analysed)) for o in flow.outcomes]
@@ -95,20 +101,22 @@ def flow_findings(plan: Plan, flow: UnitFlow, grouping: str | None = None) -> tu
         counts = analysed_in_all(flow)
         if counts and min(n for _, n in counts) < planned_n.total:
             found.append(Finding("below-planned-n",
-                                 f"In all: {analysed_words(counts)}; {planned_n.total} planned."))
+                                 f"In all: {analysed_words(labelled(plan, counts))}; {planned_n.total} planned."))
     if planned_n is not None and planned_n.per_group is not None:
         per = level if level == "cell" else "group"
         for group, counts in groups_below(flow, planned_n.per_group):
             found.append(Finding("below-planned-n",
                                  f"{level.capitalize()} {show(group)} of {factor}: "
-                                 f"{analysed_words(counts)}; {planned_n.per_group} planned "
+                                 f"{analysed_words(labelled(plan, counts))}; "
+                                 f"{planned_n.per_group} planned "
                                  f"per {per}."))
     for outcome in flow.outcomes:
         missing = {c.level: c.n for c in outcome.missing}
         for count in outcome.analysed:
             if count.n == 0 and count.level not in empty:
                 found.append(Finding("level-without-values",
-                                     f"Outcome {outcome.outcome}: no analysed values at {level} "
+                                     f"Outcome {labelled(plan, [(outcome.outcome, 0)])[0][0]}: "
+                                     f"no analysed values at {level} "
                                      f"{show(count.level)} ({missing[count.level]} eligible "
                                      "units, all missing)."))
     return tuple(found)

@@ -102,10 +102,12 @@ def test_findings(tmp_path):
     assert dataset.findings == (
         Finding("level-without-units", "No eligible units at level 'low' of arm (all 1 excluded)."),
         # planned numbers count analysed units, as the deviations' minimum does
-        Finding("below-planned-n", "Level 'high' of arm: units analysed: 0 for pain, 2 for sleep; "
+        Finding("below-planned-n", "Level 'high' of arm: units analysed: 0 for Pain score, 2 for "
+                                   "Sleep hours; "
                                    "2 planned per group."),
         Finding("level-without-values",
-                "Outcome pain: no analysed values at level 'high' (2 eligible units, all missing)."),
+                "Outcome Pain score: no analysed values at level 'high' (2 eligible units, all "
+                "missing)."),
     )
     dataset = _build(tmp_path, "u1,placebo,no,5,1.5,7\nu2,high,no,5,2,9\nu3,high,no,5,3,9\n", planned=2)
     assert dataset.findings == (

@@ -66,11 +66,11 @@ def test_each_claim_of_an_outcome_has_its_object(rendered, name):
             assert f'id="figure-{key}-qq"' in page
         if "see the homogeneity-of-slopes check" in page:
             assert outcome.slopes and f'id="{key}-slopes"' in page
-        if "put in force by a registered contingency (see below)" in page:
+        if "selected by a pre-specified fallback rule (see below)" in page:
             assert outcome.contingencies and f'id="{key}-contingencies"' in page
         if "(see Diagnostics)" in page:
             assert f'id="{key}-diagnostics"' in page
-        if "They select the analysis only through the registered contingency rules" in page:
+        if "They select the analysis only through the pre-specified fallback rules" in page:
             assert outcome.contingencies
         if "Contrasts of a within-unit factor are tested on the units' own contrast scores" in page:
             within = {f.name for f in results.factors if f.role == "within"}
@@ -101,7 +101,7 @@ def test_settings_table_says_the_source_of_every_plan_level_setting(rendered, na
     for key, (value, source) in rows.items():
         assert (value, source) == (top[key].value, "as registered" if top[key].stated else "by default"), key
     alpha = "as registered" if top["alpha"].stated else "by default"
-    assert f"Every test uses the significance level &#945; = .05, {alpha}" in text
+    assert f"Every test uses the significance level &#945;&nbsp;=&nbsp;.05, {alpha}" in text
 
 
 @pytest.mark.parametrize("name", CASES)

@@ -8,6 +8,8 @@ appendix shows of them and how, not the statistics.
 
 from __future__ import annotations
 
+import re
+
 import dataclasses
 
 import pytest
@@ -91,8 +93,9 @@ def test_registered_and_comparison_families_are_marked(page):
     # the secondary outcome has a single family and the exploratory one is apart: no mark
     assert marks == ["Registered result", "Shown for comparison, not the registered result"]
     text = squash(_section(page, "sbp_change-contrasts").text)
-    assert "Analysis in force: Welch (unequal variances), put in force by a registered " \
-           "contingency (see below)." in text
+    assert "Analysis used: Welch (unequal variances), selected by a pre-specified fallback " \
+           "rule (see below)." in text
+    assert "in force" not in text and "contingency" not in text
 
 
 def test_family_note_names_method_multiplicity_scope_and_interval_kind(page):
@@ -151,34 +154,39 @@ def test_rank_based_family_is_in_mean_ranks(study_results, figures):
 
 def test_contingencies_list_each_rule_and_whether_it_fired(page):
     contingency = journal_tables(page)[
-        "Registered fallback rules for Change in systolic blood pressure and whether they fired"]
-    assert contingency[0][1] == ["Rule", "Condition", "Test", "p", "Threshold", "Fired",
-                                 "Analysis if fired"]
+        "Pre-specified fallback rules for Change in systolic blood pressure and whether they "
+        "were applied"]
+    assert contingency[0][1] == ["Rule", "Condition", "Test", "p", "Threshold", "Applied",
+                                 "Analysis if applied"]
     assert _body(contingency, "contingency") == [
         ["assumptions.fallbacks[0]", "non-normal errors", "Shapiro\u2013Wilk", ".684", ".05",
-         "no", "rank-based (Dunn)"],
+         "not applied", "rank-based (Dunn)"],
         ["assumptions.fallbacks[1]", "unequal variances", "Brown\u2013Forsythe", ".031", ".05",
-         "yes", "Welch (unequal variances)"],
+         "applied", "Welch (unequal variances)"],
     ]
     pain_rows = _body(journal_tables(page)[
-        "Registered fallback rules for Pain score and whether they fired"], "contingency")
+        "Pre-specified fallback rules for Pain score and whether they were applied"],
+        "contingency")
     assert [row[3:6] for row in pain_rows] == [["\u2014", ".05", "not evaluated"]] * 2
     pain = squash(_section(page, "pain-contingencies").text)
     assert "Not evaluated: the rule's test" in pain
-    assert "Analysis in force for this outcome: classical (pooled variance)." in pain
+    assert "Analysis used for this outcome: classical (pooled variance)." in pain
+    assert not {"fire", "fired", "force"} & set(re.findall(r"\w+", pain))
 
 
 def test_deviations_are_listed_with_acknowledgement(page, study_results, figures):
     rows = _body(journal_tables(page)[
-        "Departures from the registered plan and registered contingencies applied"], "deviation")
-    assert rows == [["Registered contingency applied", "sbp_change",
+        "Departures from the registered plan and pre-specified fallback rules applied"],
+        "deviation")
+    assert rows == [["Pre-specified fallback rule applied", "sbp_change",
                      "Brown\u2013Forsythe p = .031 < .05 on the primary outcome: the registered "
                      "fallback put the Welch analysis in force; the classical analysis is shown "
                      "for comparison.", "yes",
                      "Fallback assumptions.fallbacks[1] of the registered plan."]]
     pending = changed(study_results, "deviations[0]", acknowledged=False, justification=None)
     rows = _body(journal_tables(parse(render_html(pending, figures, RenderOptions())))[
-        "Departures from the registered plan and registered contingencies applied"], "deviation")
+        "Departures from the registered plan and pre-specified fallback rules applied"],
+        "deviation")
     assert rows[0][3:] == ["no, not acknowledged", "none given"]
 
 
@@ -241,9 +249,9 @@ def test_plan_without_contrasts_renders_as_before(study_results, page):
     ids = bare.ids()
     assert not [i for i in ids if "contrasts" in i or "contingencies" in i or "xplor" in i]
     headings = {squash(e.text) for e in bare.elements if e.tag in {"h2", "h3"}}
-    assert not {"Planned contrasts", "Registered contingencies",
+    assert not {"Planned contrasts", "Pre-specified fallback rules",
                 "Exploratory analyses (not pre-registered)"} & headings
-    assert "None detected: no registered contingency was applied." in squash(
+    assert "None detected: no pre-specified fallback rule was applied." in squash(
         _section(bare, "deviations").text)
     assert not [e for e in bare.by_tag("ul") if e.attrs.get("class") == "hypothesis-conclusions"]
     tables = [e for e in bare.elements if e.attrs.get("class") == "table-number"]
