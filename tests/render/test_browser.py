@@ -19,6 +19,9 @@ ARGS = ["--no-sandbox", "--disable-gpu", "--disable-background-networking",
         "--disable-component-update", "--disable-sync", "--no-first-run"]
 
 pytestmark = pytest.mark.browser
+# a figure's least width on a narrow screen, in CSS px: its 8-point text is then about
+# 10 px high (432 pt wide SVG); 10 px as the least readable text is common practice, no source
+NARROW_FIGURE_MIN = 560
 
 
 def _need_browser() -> None:
@@ -80,6 +83,19 @@ def test_appendix_in_chromium(page_url):
             # on a phone-sized screen wide tables scroll inside their blocks, not the page
             page.set_viewport_size({"width": 400, "height": 800})
             assert page.evaluate("document.documentElement.scrollWidth") <= 400
+            # and figures keep a readable width (NARROW_FIGURE_MIN), scrolling in their frame
+            frames = page.eval_on_selector_all(
+                "figure svg", "els => els.map(e => { const f = e.closest('.figure-art');"
+                " return [e.getBoundingClientRect().width, getComputedStyle(f).overflowX,"
+                " f.clientWidth, f.scrollWidth]; })")
+            assert len(frames) == 9
+            for width, overflow, shown, full in frames:
+                assert width >= NARROW_FIGURE_MIN, frames
+                assert overflow == "auto" and shown <= 400 < full, frames
+            wide = page.eval_on_selector_all(
+                "table", "els => els.map(e => [e.getBoundingClientRect().width,"
+                " getComputedStyle(e.closest('.table-block')).overflowX])")
+            assert wide and all(o == "auto" for _, o in wide), wide
             assert problems == []
         finally:
             browser.close()
