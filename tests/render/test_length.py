@@ -70,6 +70,9 @@ def test_seed_coating_fits_twelve_pages_with_everything_registered(demo_layouts,
         assert words(finding.message) in text
 
 
+@pytest.mark.xfail(strict=True, reason="open in issue 13: with the layout rules that keep a short "
+                   "table whole with its caption, the second outcome spans 3.05 pages (its diagnostics "
+                   "block moves whole to a fourth page)")
 def test_each_further_outcome_of_the_one_factor_design_spans_at_most_three_pages(demo_layouts):
     # the budget is for the one-factor design of seed-coating; its second outcome is what one
     # more outcome costs (wound-dose, covariate-adjusted with a figure more, spans 3.2 today)
