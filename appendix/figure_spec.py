@@ -13,3 +13,6 @@ FIGURE_KINDS: tuple[str, ...] = ("distribution", "means", "qq", "residuals", "f-
 #: Point clouds larger than this are drawn from a deterministic subsample of this size
 #: (appendix.stats.sampling); boxes, means and lines still use every unit.
 PLOT_POINTS = 20_000
+
+#: The key of the unit-flow diagram (one per study, drawn from the results' unit flow).
+UNIT_FLOW_FIGURE = "unit-flow"
