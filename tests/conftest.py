@@ -30,3 +30,12 @@ def computed_demos() -> dict:
 
     return {name: api.compute(REPO / "studies" / name / "study.yaml")
             for name in ("seed-coating", "greenhouse-split", "wound-dose")}
+
+
+@pytest.fixture(scope="session")
+def rendered_demos(computed_demos) -> dict:
+    """Each demo of `computed_demos` rendered once per session (`api.render`: figures and
+    HTML, no PDF), by folder name."""
+    from appendix import api
+
+    return {name: api.render(computed) for name, computed in computed_demos.items()}
