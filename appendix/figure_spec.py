@@ -22,3 +22,6 @@ def cells_label(results) -> str:
     labels = [f.label or f.name for f in results.factors if f.role == "treatment"]
     text = " \u00d7 ".join(labels)
     return text[:1].upper() + text[1:] if labels else "Group"
+
+#: The key of the unit-flow diagram (one per study, drawn from the results' unit flow).
+UNIT_FLOW_FIGURE = "unit-flow"

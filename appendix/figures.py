@@ -44,9 +44,10 @@ from scipy import stats
 
 from appendix import numbers
 from appendix.data.dataset import Dataset, OutcomeData
-from appendix.figure_spec import FIGURE_KINDS, PLOT_POINTS, cells_label
+from appendix.figure_spec import FIGURE_KINDS, PLOT_POINTS, UNIT_FLOW_FIGURE, cells_label
 from appendix.models import Residuals
-from appendix.results import ContrastFamily, HypothesisResult, OutcomeResult, StudyResults
+from appendix.results import (ContrastFamily, HypothesisResult, LevelCount, OutcomeResult,
+                              StudyResults, UnitFlow)
 from appendix.stats.sampling import subsample_indices
 from appendix.typefaces import FIGURE_FAMILY, FONT_FACES, font_folder
 
@@ -151,6 +152,9 @@ def make_figures(dataset: Dataset, results: StudyResults,
     Deterministic: two calls on the same inputs give identical text.
     """
     figures: dict[str, str] = {}
+    flow = unit_flow_diagram(results)
+    if flow is not None:
+        figures[UNIT_FLOW_FIGURE] = flow
     drawable = {item.name for item in dataset.outcomes}
     for outcome in results.outcomes:
         # without data only the data figures are skipped; the appendix says "not drawn"
@@ -871,3 +875,118 @@ def _lines_of_means(results: StudyResults, model: OutcomeResult) -> dict[str, st
         if svg is not None:
             out[stem] = svg
     return out
+
+
+# --- the flow of units -----------------------------------------------------------------
+
+_FLOW_WIDTH_IN = 6.0
+_FLOW_FONT = 7.5  # points
+_FLOW_LINE_IN = 0.135  # one text line of the boxes
+_FLOW_GAP_IN = 0.26  # between rows of boxes, room for the arrows
+_CHAR_IN = 0.064  # a generous mean character width at `_FLOW_FONT` (browsers use their own sans)
+
+
+@dataclass(frozen=True)
+class _FlowBox:
+    x: float  # centre, inches
+    top: float
+    width: float
+    lines: tuple[str, ...]
+
+    @property
+    def height(self) -> float:
+        return len(self.lines) * _FLOW_LINE_IN + 0.1
+
+    @property
+    def bottom(self) -> float:
+        return self.top - self.height
+
+
+def _box_lines(width: float, texts: list[str], counts: tuple[LevelCount, ...] = ()) -> tuple[str, ...]:
+    """`texts` wrapped to the box, then the counts by group, never breaking one group's
+    name from its count."""
+    chars = max(int((width - 0.12) / _CHAR_IN), 12)
+    lines = [line for text in texts for line in textwrap.wrap(text, chars) or [""]]
+    entries = [f"{c.level}: {c.n}" for c in counts]
+    line = ""
+    for entry in entries:
+        joined = f"{line}, {entry}" if line else entry
+        if line and len(joined) > chars:
+            lines.append(line + ",")
+            line = entry
+        else:
+            line = joined
+    if line:
+        lines.append(line)
+    return tuple(lines)
+
+
+def unit_flow_boxes(flow: UnitFlow, labels: Mapping[str, str]) -> list[list[_FlowBox]]:
+    """The boxes of the flow diagram, row by row from the top: units read and those set
+    aside by each registered rule; eligible units by group; per outcome the units missing
+    a value and those analysed, by group. `labels` maps outcome names to their labels."""
+    read = sum(c.n for c in flow.read)
+    eligible = sum(c.n for c in flow.eligible)
+    main_w, side_w = 2.3, 2.9
+    top = [_FlowBox(main_w / 2 + 0.05, 0.0, main_w, _box_lines(main_w, [f"Read from the data: {read} units"]))]
+    if flow.exclusions:
+        lines = [f"Excluded by a registered rule: {read - eligible}"] + [
+            f"{x.rule} ({x.reason}): {x.total}" for x in flow.exclusions]
+    else:
+        lines = ["Excluded: 0 (the plan registers no exclusion rule)"]
+    top.append(_FlowBox(_FLOW_WIDTH_IN - side_w / 2 - 0.05, 0.0, side_w, _box_lines(side_w, lines)))
+    first = -max(b.height for b in top) - _FLOW_GAP_IN
+    wide = _FLOW_WIDTH_IN - 0.1
+    middle = [_FlowBox(_FLOW_WIDTH_IN / 2, first, wide,
+                       _box_lines(wide, [f"Eligible for analysis: {eligible} units, by group"],
+                                  flow.eligible))]
+    second = middle[0].bottom - _FLOW_GAP_IN
+    k = max(len(flow.outcomes), 1)
+    w = (_FLOW_WIDTH_IN - 0.1 * (k + 1)) / k
+    bottom = [
+        _FlowBox(0.1 + w / 2 + i * (w + 0.1), second, w, _box_lines(w, [
+            labels.get(o.outcome, o.outcome)[:1].upper() + labels.get(o.outcome, o.outcome)[1:],
+            f"Missing a value: {sum(c.n for c in o.missing)}",
+            f"Analysed: {sum(c.n for c in o.analysed)} units, by group"], o.analysed))
+        for i, o in enumerate(flow.outcomes)]
+    return [top, middle, bottom] if bottom else [top, middle]
+
+
+def _draw_flow(rows: list[list[_FlowBox]]) -> Figure:
+    from matplotlib.patches import Rectangle
+
+    height = -min(b.bottom for row in rows for b in row) + 0.04
+    figure = Figure(figsize=(_FLOW_WIDTH_IN, height))
+    ax = figure.add_axes((0, 0, 1, 1))
+    ax.set_xlim(0, _FLOW_WIDTH_IN)
+    ax.set_ylim(-height + 0.02, 0.02)
+    ax.axis("off")
+    for row in rows:
+        for b in row:
+            ax.add_patch(Rectangle((b.x - b.width / 2, b.bottom), b.width, b.height,
+                                   facecolor="#ffffff", edgecolor="#2B2B2B", linewidth=0.8))
+            ax.text(b.x, b.top - 0.06, "\n".join(b.lines), ha="center",
+                    va="top", fontsize=_FLOW_FONT, linespacing=1.3, multialignment="center")
+    arrow = {"arrowstyle": "-|>", "color": "#2B2B2B", "linewidth": 0.8, "shrinkA": 0,
+             "shrinkB": 0, "mutation_scale": 8}
+    read, side = rows[0]
+    eligible = rows[1][0]
+    ax.annotate("", xy=(read.x, eligible.top), xytext=(read.x, read.bottom), arrowprops=arrow)
+    mid = (read.bottom + eligible.top) / 2
+    ax.annotate("", xy=(side.x - side.width / 2, mid), xytext=(read.x, mid), arrowprops=arrow)
+    for b in rows[2] if len(rows) > 2 else ():
+        ax.annotate("", xy=(b.x, b.top), xytext=(b.x, eligible.bottom), arrowprops=arrow)
+    return figure
+
+
+def unit_flow_diagram(results: StudyResults) -> str | None:
+    """The flow of units as boxes and arrows (read, excluded by rule, eligible by group,
+    per outcome missing and analysed by group), SVG text with a <title> and <desc>; None
+    when no unit was read."""
+    flow = results.unit_flow
+    if not flow.read:
+        return None
+    labels = {o.name: o.label for o in results.outcomes}
+    rows = unit_flow_boxes(flow, labels)
+    desc = " ".join(" ".join(b.lines) + "." for row in rows for b in row)
+    return _accessible_figure(UNIT_FLOW_FIGURE, lambda: _draw_flow(rows), "Flow of units", desc)

@@ -38,10 +38,11 @@ from jinja2.bccache import Bucket
 from markupsafe import Markup
 
 from appendix import numbers
-from appendix.figure_spec import FIGURE_KINDS, PLOT_POINTS, cells_label
+from appendix.figure_spec import FIGURE_KINDS, PLOT_POINTS, UNIT_FLOW_FIGURE, cells_label
 from appendix.methods import adjustment, methods_used, references_for
-from appendix.results import (Diagnostics, HypothesisResult, LevelCount, ModelRow, ModelTable,
-                              OutcomeResult, PlannedNumbers, StatWarning, StudyResults)
+from appendix.results import (ContrastFamily, Diagnostics, HypothesisResult, LevelCount, ModelRow,
+                              ModelTable, OutcomeResult, PlannedNumbers, RegisteredFamily,
+                              StatWarning, StudyResults)
 from appendix.typefaces import FONT_FACES, font_folder, template_root
 
 PAPER_SIZES = ("A4", "Letter")
@@ -120,7 +121,6 @@ def _filters(options: RenderOptions) -> dict[str, Any]:
         "short_hash": lambda digest: digest[:12],
         "level_counts": _level_counts,
         "planned_counts": planned_counts,
-        "shortfall": shortfall,
         "upper_first": _upper_first,
         "contrast_interval": _contrast_interval,
         "error_bound": _error_bound,
@@ -296,6 +296,66 @@ def _registered_hypotheses(outcome: OutcomeResult) -> list[HypothesisResult]:
     return [h for f in outcome.contrasts if f.registered for h in f.hypotheses]
 
 
+@dataclass(frozen=True)
+class OverviewRow:
+    """A row of the table of every registered hypothesis: a hypothesis of a registered
+    contrast family (`hypothesis`, `family`, `adjusted_over` in words), or, for an
+    outcome without registered contrasts, the test of its first treatment term in force
+    (`test`: the variance table's row, or Welch's or the rank-based test where a
+    registered fallback put it in force), its `p` unadjusted. `decision` is a
+    `Conclusion.decision` or `HypothesisResult.decision`."""
+
+    outcome: OutcomeResult
+    label: str
+    decision: str
+    p: float | None
+    hypothesis: HypothesisResult | None = None
+    adjusted_over: str | None = None
+    test: str | None = None
+
+
+def _adjusted_over(family: ContrastFamily, record: RegisteredFamily | None) -> str:
+    """Which registered family a hypothesis's p is adjusted over, in words."""
+    name = adjustment(family.multiplicity, family.method).name
+    if family.multiplicity == "none":
+        return "not adjusted"
+    n = record.hypotheses if record else len(family.hypotheses)
+    if record is None or record.scope == "per-outcome":
+        return f"{name} over this outcome's {n} hypotheses"
+    if record.scope == "primary-family":
+        return f"{name} over the {n} hypotheses of the primary outcomes"
+    label = f" ({record.label})" if record.label else ""
+    return f"{name} over the {n} hypotheses of family {record.id}{label}"
+
+
+def _hypothesis_overview(results: StudyResults, outcomes: list[OutcomeResult]) -> list[OverviewRow]:
+    """Every registered hypothesis, outcome by outcome (primary first), family by family
+    in plan order; an outcome without registered contrasts gives the row of the test of
+    its first treatment term in force (none in a design without a treatment factor)."""
+    records = {f.id: f for f in results.families}
+    rows: list[OverviewRow] = []
+    factor = _first_treatment_factor(results)
+    for o in outcomes:
+        shares = [f for f in o.contrasts if f.registered]
+        for f in shares:
+            over = _adjusted_over(f, records.get(f.family) if f.family else None)
+            rows.extend(OverviewRow(o, h.label, h.decision, h.p_adjusted, hypothesis=h,
+                                    adjusted_over=over) for h in f.hypotheses)
+        if any(f.hypotheses for f in shares):
+            continue
+        row = _first_treatment_row(o, factor)
+        if row is None:
+            continue
+        test, p = "F", row.p
+        if o.robust is not None and o.selected_method == "welch":
+            test, p = "welch", o.robust.welch.p
+        elif o.robust is not None and o.selected_method == "rank-based":
+            test, p = "kruskal", o.robust.kruskal.p
+        decision = "unavailable" if p is None else ("reject" if p < results.alpha else "retain")
+        rows.append(OverviewRow(o, row.label, decision, p, test=test))
+    return rows
+
+
 def _diagnostic_warnings(diagnostics: Diagnostics) -> list[StatWarning]:
     """The warnings of the normality and equal-variance tests, in the order of their table."""
     tests = [t for t in (diagnostics.normality, diagnostics.within_normality) if t is not None]
@@ -355,24 +415,6 @@ def planned_counts(planned: PlannedNumbers | None, levels: list[str]) -> list[in
     total = planned.total if planned.total is not None else (
         planned.per_group * len(levels) if planned.per_group is not None else None)
     return [*per_group, total]
-
-
-def shortfall(analysed: Sequence[LevelCount], planned: PlannedNumbers | None,
-              levels: list[str]) -> list[int | None] | None:
-    """Analysed units short of the planned number, per group and in all (0 where the plan
-    is met, None where no number is planned); None without ``data.planned_n``.
-
-    >>> shortfall([LevelCount("a", 10), LevelCount("b", 13)], PlannedNumbers(12), ["a", "b"])
-    [2, 0, 2]
-    """
-    row = planned_counts(planned, levels)
-    if row is None:
-        return None
-    counts = _level_counts(analysed, levels)
-    per_level = [None if p is None else max(p - n, 0) for p, n in zip(row, counts)]
-    if planned.per_group is not None and planned.total is None:
-        return [*per_level, sum(per_level)]
-    return [*per_level, None if row[-1] is None else max(row[-1] - sum(counts), 0)]
 
 
 def _alpha(value: float) -> str:
@@ -460,11 +502,13 @@ def render_html(results: StudyResults, figures: dict[str, str], options: RenderO
     env.filters.update(_filters(options))
     methods = methods_used(results)
     records = {f.id: f for f in results.families}
-    return said_once(env.get_template("appendix.html.j2").render(
+    template = env.get_template("appendix.html.j2")
+    context = dict(
         r=results,
         outcomes=_ordered_outcomes(results),
         figures={key: _inline_svg(svg) for key, svg in figures.items()},
         figure_kinds=FIGURE_KINDS,
+        unit_flow_figure=UNIT_FLOW_FIGURE,
         plot_points=PLOT_POINTS,
         options=options,
         family_record=lambda family: records.get(family.family) if family.family else None,
@@ -473,14 +517,83 @@ def render_html(results: StudyResults, figures: dict[str, str], options: RenderO
         first_treatment_factor=_first_treatment_factor,
         first_treatment_row=_first_treatment_row,
         registered_hypotheses=_registered_hypotheses,
+        hypothesis_overview=_hypothesis_overview(results, _ordered_outcomes(results)),
         diagnostic_warnings=_diagnostic_warnings,
         methods=methods,
         references=references_for(methods),
         data_sha256=_data_checksum(results),
         tool_version=_tool_version(results),
-        table_number=_Numbering(),
-        figure_number=_Numbering(),
-    ))
+    )
+    # The lists of tables and figures in the contents are read from the captions of a
+    # first rendering (numbers are given in page order, so the lists, which number
+    # nothing, cannot change them); the second rendering numbers afresh.
+    first = template.render(listed=None, table_number=_Numbering(),
+                            figure_number=_Numbering(), **context)
+    return said_once(template.render(listed=_listings(first, results), table_number=_Numbering(),
+                                     figure_number=_Numbering(), **context))
+
+
+@dataclass(frozen=True)
+class Listed:
+    """An entry of the list of tables or of figures: its number and anchor as the page
+    shows them, a short title (the caption's title, or its first clause for a figure), and
+    the label of the outcome whose section holds it (None outside the outcome sections)."""
+
+    number: int
+    title: str
+    anchor: str
+    outcome: str | None
+
+
+_TABLE = re.compile(r'<caption id="(table-\d+)"><span class="table-number">Table (\d+)</span>'
+                    r'<span class="table-title">(.*?)</span>', re.S)
+_FIGURE = re.compile(r'<figure id="([^"]+)"[^>]*>.*?<span class="figure-number">Figure (\d+)\.'
+                     r'</span>(.*?)</figcaption>', re.S)
+_OUTCOME_SECTION = re.compile(r'<section id="outcome-([^"]+)"')
+
+
+def _first_clause(text: str, limit: int = 90) -> str:
+    """A caption's first clause: up to the first full stop, comma, colon or semicolon
+    outside parentheses, cut at a word before `limit` characters."""
+    depth = 0
+    for i, ch in enumerate(text):
+        if ch == "(":
+            depth += 1
+        elif ch == ")" and depth:
+            depth -= 1
+        if depth == 0 and ch in ".,:;" and (i + 1 == len(text) or text[i + 1] == " "):
+            text = text[:i]
+            break
+    if len(text) > limit:
+        text = text[:limit].rsplit(" ", 1)[0] + "\u2026"
+    return text
+
+
+def _listings(page: str, results: StudyResults) -> tuple[list[Listed], list[Listed]]:
+    """The tables and figures of a rendered page, in page order, as its captions number
+    and title them (read from the page, so the lists cannot disagree with the captions)."""
+    import html as _html
+
+    labels = {o.name: o.label for o in results.outcomes}
+    starts = [(m.start(), m.group(1)) for m in _OUTCOME_SECTION.finditer(page)]
+    end = page.find('<section id="exploratory"')
+    end = page.find('<section id="methods"') if end < 0 else end
+
+    def outcome_at(position: int) -> str | None:
+        inside = [name for start, name in starts if start < position]
+        if not inside or (end >= 0 and position > end):
+            return None
+        return labels.get(inside[-1], inside[-1])
+
+    def text(markup: str) -> str:
+        return " ".join(_html.unescape(_TAG.sub("", markup)).split())
+
+    tables = [Listed(int(m.group(2)), text(m.group(3)), m.group(1), outcome_at(m.start()))
+              for m in _TABLE.finditer(page)]
+    figures = [Listed(int(m.group(2)), _first_clause(text(m.group(3))), m.group(1),
+                      outcome_at(m.start()))
+               for m in _FIGURE.finditer(page)]
+    return tables, figures
 
 
 # the notes under tables and the figures' captions, and the table or figure each belongs to

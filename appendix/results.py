@@ -649,9 +649,16 @@ class ExclusionCount:
 
 @dataclass(frozen=True)
 class OutcomeFlow:
+    """One outcome's eligible units `missing` a value and `analysed`, per level, and the
+    analysed units `short` of the planned number per level (empty unless
+    ``data.planned_n.per_group`` is planned; 0 where the plan is met) and `short_in_all`
+    in all (None without ``data.planned_n``): attrition, not in itself a deviation."""
+
     outcome: str
     missing: tuple[LevelCount, ...]
     analysed: tuple[LevelCount, ...]
+    short: tuple[LevelCount, ...] = ()
+    short_in_all: int | None = None
 
 
 @dataclass(frozen=True)
@@ -672,6 +679,30 @@ class PlannedNumbers:
     per_group: int | None = None
     total: int | None = None
     minimum: int | None = None
+
+
+@dataclass(frozen=True)
+class BaselineGroup:
+    """A covariate's values in one level of the treatment factor: units with a value,
+    their mean and SD (n - 1 divisor); None where there are too few units."""
+
+    level: str
+    n: int
+    mean: float | None
+    sd: float | None
+
+
+@dataclass(frozen=True)
+class BaselineSummary:
+    """A covariate (a baseline value) by level of the treatment factor, over the units
+    analysed for `outcomes`: the outcomes it adjusts whose analysed units are the same
+    (one summary per distinct set of units, in outcome order)."""
+
+    covariate: str
+    label: str
+    unit: str | None
+    outcomes: tuple[str, ...]
+    groups: tuple[BaselineGroup, ...]
 
 
 @dataclass(frozen=True)
@@ -791,7 +822,8 @@ class StudyResults:
 
     `plan_settings` holds every plan key with a default, its resolved value and whether the
     study file states it (`appendix.plan.settings`): the appendix says "as registered" only
-    for stated keys."""
+    for stated keys. `baselines` summarises each covariate by level of the treatment
+    factor over the units analysed (`appendix.baselines`)."""
 
     study: StudyInfo
     plan_sha256: str
@@ -811,6 +843,7 @@ class StudyResults:
     plan_settings: tuple[PlanSetting, ...] = ()
     families: tuple[RegisteredFamily, ...] = ()
     planned_n: PlannedNumbers | None = None
+    baselines: tuple[BaselineSummary, ...] = ()
     format_version: int = field(default=FORMAT_VERSION)
 
 

@@ -10,6 +10,7 @@ import dataclasses
 from dataclasses import dataclass
 
 from appendix import conclude, families
+from appendix.baselines import baseline_summaries
 from appendix.data.dataset import Dataset
 from appendix.deviations import all_deviations, registration
 from appendix.models import Residuals, analyse_outcome
@@ -129,6 +130,7 @@ def study_analysis(loaded: LoadedPlan, dataset: Dataset, software: tuple[Softwar
         planned_n=(None if plan.data.planned_n is None else PlannedNumbers(
             plan.data.planned_n.per_group, plan.data.planned_n.total,
             plan.data.planned_n.minimum)),
+        baselines=baseline_summaries(plan, dataset),
     )
     return Analysis(results, {r.outcome: r for _, _, _, r in work})
 

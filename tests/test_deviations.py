@@ -272,7 +272,12 @@ def test_a_shortfall_without_a_minimum_is_attrition_in_the_unit_flow(demo_study:
     flow = _text(api.render(computed).html, "unit-flow")
     assert "Planned 12 12 12 12 48 Read" in flow
     short = [12 - counts["dry_mass"][level] for level in LEVELS]
-    assert (f"Shoot dry mass at day 21: short of the planned number "
+    analysed = [counts["dry_mass"][level] for level in LEVELS]
+    missing = [counts["eligible"][level] - n for level, n in zip(LEVELS, analysed)]
+    # one row group per outcome: its label, then its missing, analysed and short rows
+    assert (f"Shoot dry mass at day 21 Missing a value {' '.join(map(str, missing))} "
+            f"{sum(missing)} Analysed "
+            f"{' '.join(map(str, analysed))} {sum(analysed)} Short of the planned number "
             f"{' '.join(map(str, short))} {sum(short)}") in flow
     assert ("The plan registers no minimum per group, so a shortfall is not a deviation "
             "from it.") in flow
@@ -286,7 +291,7 @@ def test_a_shortfall_against_a_planned_total_is_no_deviation(demo_study: Path):
     dry = sum(_demo_counts(demo_study)["dry_mass"].values())
     flow = _text(api.render(computed).html, "unit-flow")
     assert "Planned \u2014 \u2014 \u2014 \u2014 48 Read" in flow
-    assert (f"short of the planned number \u2014 \u2014 \u2014 \u2014 {48 - dry}") in flow
+    assert (f"Short of the planned number \u2014 \u2014 \u2014 \u2014 {48 - dry}") in flow
 
 
 def test_a_minimum_above_the_planned_number_is_refused(demo_study: Path):

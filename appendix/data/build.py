@@ -21,6 +21,7 @@ from appendix.data import problems as say
 from appendix.data.build_rows import build_from_table
 from appendix.data.checksums import study_inputs
 from appendix.data.dataset import Dataset
+from appendix.data.flow import with_shortfall
 from appendix.data.readers import read_table
 from appendix.data.source import require_data_file
 from appendix.errors import DataError
@@ -32,8 +33,11 @@ _DELIMITERS = {".csv": ",", ".tsv": "\t"}
 
 def build_dataset(loaded: LoadedPlan) -> Dataset:
     """Read the plan's data source and turn it into the analysed `Dataset`; a source with
-    no rows, or an outcome value beyond `problems.VALUE_LIMIT`, is a user error."""
+    no rows, or an outcome value beyond `problems.VALUE_LIMIT`, is a user error. Each
+    outcome's flow carries its shortfall against ``data.planned_n`` (`with_shortfall`)."""
     dataset = _build_dataset(loaded)
+    dataset = replace(dataset, unit_flow=with_shortfall(dataset.unit_flow,
+                                                        loaded.plan.data.planned_n))
     require_units(loaded, dataset)
     require_finite_range(loaded, dataset)
     return dataset

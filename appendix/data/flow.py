@@ -4,12 +4,13 @@ from __future__ import annotations
 
 from collections import Counter
 from collections.abc import Iterable, Sequence
+from dataclasses import replace
 
 import numpy as np
 
-from appendix.plan.model import Plan
+from appendix.plan.model import Plan, PlannedN
 from appendix.plan.wording import show
-from appendix.results import Finding, LevelCount, UnitFlow
+from appendix.results import Finding, LevelCount, OutcomeFlow, UnitFlow
 
 
 def level_counts(codes: Iterable[int], levels: Sequence[str]) -> tuple[LevelCount, ...]:
@@ -26,6 +27,30 @@ def count_levels(codes: np.ndarray, levels: Sequence[str]) -> tuple[LevelCount, 
     """
     counts = np.bincount(codes, minlength=len(levels)) if codes.size else np.zeros(len(levels), int)
     return tuple(LevelCount(level=level, n=int(counts[i])) for i, level in enumerate(levels))
+
+
+def with_shortfall(flow: UnitFlow, planned: PlannedN | None) -> UnitFlow:
+    """The flow with each outcome's analysed units short of `planned` (the plan's
+    ``data.planned_n``): per level against ``per_group`` (0 where it is met), and in all
+    against ``total``, else the sum of the levels' shortfalls; unchanged without a plan.
+
+    >>> flow = UnitFlow((), (), (), (OutcomeFlow("y", (), (LevelCount("a", 10), LevelCount("b", 13))),))
+    >>> o = with_shortfall(flow, PlannedN(per_group=12)).outcomes[0]
+    >>> [c.n for c in o.short], o.short_in_all
+    ([2, 0], 2)
+    """
+    if planned is None:
+        return flow
+    outcomes = []
+    for o in flow.outcomes:
+        short = () if planned.per_group is None else tuple(
+            LevelCount(c.level, max(planned.per_group - c.n, 0)) for c in o.analysed)
+        if planned.total is not None:
+            in_all = max(planned.total - sum(c.n for c in o.analysed), 0)
+        else:
+            in_all = sum(c.n for c in short)
+        outcomes.append(replace(o, short=short, short_in_all=in_all))
+    return replace(flow, outcomes=tuple(outcomes))
 
 
 def _plural(n: int, word: str) -> str:

@@ -60,7 +60,7 @@ import numpy as np
 from appendix.data import problems as say
 from appendix.data.checksums import study_inputs
 from appendix.data.dataset import CellSummary, Dataset, OutcomeData, frozen_array
-from appendix.data.flow import flow_findings
+from appendix.data.flow import flow_findings, with_shortfall
 from appendix.data.levels import LevelReading, reading_findings
 from appendix.data.values import MISSING_TEXTS, match_key
 from appendix.errors import DataError, Problem, UserError
@@ -395,8 +395,9 @@ def _build(connection, loaded: LoadedPlan, sample_size: int) -> Dataset:
         flows.append(OutcomeFlow(outcome=outcome.name,
                                  missing=_level_tuple(counts["missing"][j], levels),
                                  analysed=_level_tuple(summary.n, levels)))
-    flow = UnitFlow(read=_level_tuple(read, levels), exclusions=exclusions,
-                    eligible=_level_tuple(eligible, levels), outcomes=tuple(flows))
+    flow = with_shortfall(UnitFlow(read=_level_tuple(read, levels), exclusions=exclusions,
+                                   eligible=_level_tuple(eligible, levels), outcomes=tuple(flows)),
+                          plan.data.planned_n)
     return Dataset(levels=levels, inputs=study_inputs(loaded.path, loaded.data_path),
                    unit_flow=flow, outcomes=tuple(outcomes),
                    findings=reading_findings(plan.factor.name, levels, respelled)

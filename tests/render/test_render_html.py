@@ -55,7 +55,12 @@ def test_every_contents_link_has_a_target(page):
     links = [e.attrs["href"] for e in page.elements
              if e.tag == "a" and (e.attrs.get("href") or "").startswith("#")
              and e.attrs.get("class") != "summary-ref"]  # an outcome's pointer to its conclusions
-    assert len(links) == len(SECTION_IDS) - 2  # cover and contents are not listed
+    sections = [link for link in links if not link.startswith(("#table-", "#figure-"))]
+    assert len(sections) == len(SECTION_IDS) - 2  # cover and contents are not listed
+    # the lists of tables and figures: one link per caption
+    assert len(links) - len(sections) == (
+        sum(e.attrs.get("class") == "table-number" for e in page.elements)
+        + sum(e.attrs.get("class") == "figure-number" for e in page.elements))
     assert {link[1:] for link in links} <= set(page.ids())
 
 
@@ -125,11 +130,13 @@ def test_tiny_p_is_written_below_one_thousandth(study_results, figures):
 def test_tables_and_figures_are_numbered_in_order(page):
     tables = [squash(e.text) for e in page.elements if e.attrs.get("class") == "table-number"]
     assert tables == [f"Table {i}" for i in range(1, len(tables) + 1)]
-    # flow, deviations; primary: 10 (two contrast families); degenerate: 5 (no effect,
-    # diagnostics or assumption table); exploratory 1; inputs, software
-    assert len(tables) == 20
+    # every registered hypothesis, flow, deviations; primary: 10 (two contrast families);
+    # degenerate: 5 (no effect, diagnostics or assumption table); exploratory 1; inputs,
+    # software
+    assert len(tables) == 21
     figures = [squash(e.text) for e in page.elements if e.attrs.get("class") == "figure-number"]
-    assert figures == [f"Figure {i}." for i in range(1, 10)]  # the forest plot is the ninth
+    # the unit flow is the first, the forest plot the tenth
+    assert figures == [f"Figure {i}." for i in range(1, 11)]
 
 
 def test_descriptive_columns_keep_one_number_of_decimals(page):
@@ -174,8 +181,11 @@ def test_lowercase_labels_start_sentences_capitalised(study_results, figures):
     titles = [squash(e.text) for e in page.elements if e.attrs.get("class") == "table-title"]
     assert "Change in HbA1c by group" in titles
     assert "One-way analysis of variance of change in HbA1c" in titles
-    rows = [squash(e.text) for e in page.by_tag("th") if "HbA1c: analysed" in e.text]
-    assert rows == ["Change in HbA1c: analysed"]
+    # the unit flow's and the hypotheses table's row groups of the outcome
+    rows = [squash(e.text) for e in page.by_tag("th")
+            if e.attrs.get("scope") == "rowgroup" and "HbA1c" in e.text]
+    assert rows == ["Primary, change in HbA1c (mmHg): p adjusted by fixed-sequence over this "
+                    "outcome's 4 hypotheses", "Change in HbA1c"]
 
 
 def test_methods_follow_what_was_run(study_results):

@@ -1,0 +1,235 @@
+"""The reporting elements a reviewer looks for (CONSORT 2025 flow diagram and baseline
+table; one overview of the registered hypotheses; lists of tables and figures), checked
+on the three invented demos, each computed and rendered once per session.
+
+The baseline means and the analysed counts are checked against pandas (2.x) reading the
+demo's CSV file on its own: groupby on the rows the plan analyses, an oracle that is not
+the code under test.
+"""
+
+from __future__ import annotations
+
+import html as _html
+import re
+from pathlib import Path
+
+import pandas as pd
+import pytest
+
+from appendix import numbers
+from appendix.data.flow import with_shortfall
+from appendix.figure_spec import UNIT_FLOW_FIGURE
+from appendix.plan.model import PlannedN
+from appendix.render import RenderOptions, render_html
+from appendix.results import LevelCount, OutcomeFlow, UnitFlow, to_plain
+from render_helpers import changed
+
+STUDIES = Path(__file__).resolve().parents[2] / "studies"
+DEMOS = ("seed-coating", "greenhouse-split", "wound-dose")
+
+
+def _text(markup: str) -> str:
+    return " ".join(_html.unescape(re.sub(r"<[^>]+>", " ", markup)).split())
+
+
+def _element(page: str, start: str, end: str) -> str:
+    i = page.index(start)
+    return page[i:page.index(end, i)]
+
+
+def _svg_lines(svg: str) -> list[str]:
+    return [_html.unescape(t).strip() for t in re.findall(r"<text[^>]*>([^<]*)", svg)]
+
+
+# --- the unit-flow diagram and table -------------------------------------------------
+
+
+@pytest.mark.parametrize("name", DEMOS)
+def test_flow_figure_boxes_carry_the_unit_flow_counts(computed_demos, rendered_demos, name):
+    results = computed_demos[name].results
+    flow = results.unit_flow
+    svg = rendered_demos[name].figures[UNIT_FLOW_FIGURE]
+    lines = _svg_lines(svg)
+    text = " ".join(lines)
+    assert lines[0] == f"Read from the data: {sum(c.n for c in flow.read)} units"
+    excluded = sum(x.total for x in flow.exclusions)
+    assert sum(c.n for c in flow.read) - sum(c.n for c in flow.eligible) == excluded
+    if flow.exclusions:
+        assert f"Excluded by a registered rule: {excluded}" in lines
+        for x in flow.exclusions:
+            assert f"{x.rule} (" in text and text.count(f"): {x.total}") >= 1
+    else:
+        assert "Excluded: 0 (the plan registers no exclusion" in text
+    groups = lambda counts: ", ".join(f"{c.level}: {c.n}" for c in counts)  # noqa: E731
+    assert (f"Eligible for analysis: {sum(c.n for c in flow.eligible)} units, by group "
+            f"{groups(flow.eligible)}") in text
+    labels = {o.name: o.label for o in results.outcomes}
+    for o in flow.outcomes:
+        label = labels[o.outcome]
+        block = (f"Missing a value: {sum(c.n for c in o.missing)} Analysed: "
+                 f"{sum(c.n for c in o.analysed)} units, by group {groups(o.analysed)}")
+        assert block in text, (label, block)
+    # drawn in the shipped sans, named as the other figures name it
+    assert set(re.findall(r"font-family: ([^;\"]+)", svg)) == {"'Appendix Sans', sans-serif"}
+    assert '<title id="unit-flow-title">Flow of units</title>' in svg
+
+
+@pytest.mark.parametrize("name", DEMOS)
+def test_flow_figure_sits_in_the_flow_section_with_its_number(rendered_demos, name):
+    page = rendered_demos[name].html
+    section = _element(page, '<section id="unit-flow">', "</section>")
+    assert '<figure id="figure-unit-flow"' in section
+    assert section.index('<figure id="figure-unit-flow"') < section.index('<table class="journal flow"')
+    assert '<span class="figure-number">Figure 1.</span>' in section
+
+
+def test_flow_table_groups_each_outcome_with_counts_from_pandas(computed_demos, rendered_demos):
+    """seed-coating: rule X1 drops damaged == yes; a missing value leaves the unit out of
+    that outcome only; 12 planned per group."""
+    frame = pd.read_csv(STUDIES / "seed-coating" / "data" / "units.csv", dtype=str,
+                        keep_default_na=False)
+    eligible = frame[frame["damaged"].str.strip() != "yes"]
+    results = computed_demos["seed-coating"].results
+    levels = list(results.factor.levels)
+    table = _element(rendered_demos["seed-coating"].html, '<table class="journal flow"', "</table>")
+    bodies = re.findall(r'<tbody class="flow-outcome">(.*?)</tbody>', table, re.S)
+    assert len(bodies) == len(results.outcomes) == 2
+    columns = {"dry_mass": "shoot_dry_mass_mg", "chlorophyll": "chlorophyll_index"}
+    for body, o in zip(bodies, sorted(results.outcomes, key=lambda o: o.role != "primary")):
+        rows = [_text(r) for r in re.findall(r"<tr.*?</tr>", body, re.S)]
+        # the missing-value spellings of docs/study-file.md
+        present = ~eligible[columns[o.name]].str.strip().isin(["", "NA", "N/A", "NaN", "nan", "."])
+        analysed = eligible[present].groupby("coating").size().reindex(levels, fill_value=0)
+        missing = eligible.groupby("coating").size().reindex(levels, fill_value=0) - analysed
+        short = (12 - analysed).clip(lower=0)
+        line = lambda s: " ".join(map(str, s.tolist())) + f" {int(s.sum())}"  # noqa: E731
+        assert rows == [o.label[:1].upper() + o.label[1:], f"Missing a value {line(missing)}",
+                        f"Analysed {line(analysed)}", f"Short of the planned number {line(short)}"]
+
+
+def test_shortfall_is_computed_by_the_data_stage():
+    flow = UnitFlow((), (), (), (OutcomeFlow("y", (), (LevelCount("a", 10), LevelCount("b", 13))),))
+    per_group = with_shortfall(flow, PlannedN(per_group=12)).outcomes[0]
+    assert per_group.short == (LevelCount("a", 2), LevelCount("b", 0)) and per_group.short_in_all == 2
+    total = with_shortfall(flow, PlannedN(total=30)).outcomes[0]
+    assert total.short == () and total.short_in_all == 7
+    both = with_shortfall(flow, PlannedN(per_group=12, total=20)).outcomes[0]
+    assert [c.n for c in both.short] == [2, 0] and both.short_in_all == 0
+    assert with_shortfall(flow, None) is flow
+
+
+def test_results_carry_the_shortfall(computed_demos):
+    plain = to_plain(computed_demos["wound-dose"].results)
+    for o in plain["unit_flow"]["outcomes"]:
+        assert [c["n"] for c in o["short"]] == [max(12 - c["n"], 0) for c in o["analysed"]]
+        assert o["short_in_all"] == sum(c["n"] for c in o["short"])
+
+
+# --- every registered hypothesis in one table ------------------------------------------
+
+
+@pytest.mark.parametrize("name", DEMOS)
+def test_hypotheses_table_rows_equal_the_contrast_results(computed_demos, rendered_demos, name):
+    results = computed_demos[name].results
+    plain = to_plain(results)
+    page = rendered_demos[name].html
+    summary = _element(page, '<section id="summary">', "</section>")
+    table = _element(summary, '<table class="journal hypotheses"', "</table>")
+    rows = [_text(r) for r in re.findall(r'<tr class="hypothesis[^"]*">(.*?)</tr>', table, re.S)]
+    words = {"reject": "rejected", "retain": "not rejected",
+             "not-tested": "not tested under the plan", "unavailable": "unavailable"}
+    outcomes = sorted(plain["outcomes"], key=lambda o: o["role"] != "primary")
+    expected = [(h["label"], numbers.p_value(h["p_adjusted"]), words[h["decision"]], h["estimate"])
+                for o in outcomes for f in o["contrasts"] if f["registered"] for h in f["hypotheses"]]
+    assert len(rows) == len(expected) > 0
+    for row, (label, p, decision, estimate) in zip(rows, expected):
+        assert row.startswith(label + " ")
+        assert row.endswith(f" {p} {decision}")
+        shown = float(row[len(label):].split()[0].replace("\u2212", "-"))
+        assert abs(shown - estimate) <= 0.051  # one decimal shown for these demos' means
+    heads = [_text(h) for h in re.findall(r'<tr class="outcome-head">(.*?)</tr>', table, re.S)]
+    assert [h.split(":")[0].strip() for h in heads] == [
+        f"{o['role'].capitalize()}, {o['label']}" + (f" ({o['unit']})" if o["unit"] else "")
+        for o in outcomes]
+    assert all("p adjusted by" in h and "over this outcome's" in h for h in heads)
+
+
+def test_an_outcome_without_contrasts_shows_its_omnibus_test(study_results, figures):
+    bare = changed(study_results, "outcomes[0]", contrasts=())
+    page = render_html(bare, figures, RenderOptions())
+    table = _element(page, '<table class="journal hypotheses"', "</table>")
+    rows = [_text(r) for r in re.findall(r'<tr class="omnibus[^"]*">(.*?)</tr>', table, re.S)]
+    # the fixture's pain score: F undefined, so its decision is unavailable
+    assert rows == ["Treatment arm: F test \u2014 \u2014 \u2014 (unadjusted) unavailable"]
+
+
+# --- lists of tables and figures ---------------------------------------------------------
+
+
+@pytest.mark.parametrize("name", DEMOS)
+def test_lists_of_tables_and_figures_follow_the_captions(rendered_demos, name):
+    page = rendered_demos[name].html
+    contents = _element(page, '<nav id="contents"', "</nav>")
+    body = page[page.index("</nav>"):]
+    captions = re.findall(r'<caption id="(table-\d+)"><span class="table-number">Table (\d+)'
+                          r'</span><span class="table-title">(.*?)</span>', body, re.S)
+    lists = re.findall(r'<ol class="list-of">(.*?)</ol>', contents, re.S)
+    assert len(lists) == 2
+    tables = re.findall(r'<a href="#([^"]+)"><span class="entry-number">Table (\d+)</span> (.*?)</a>',
+                        lists[0], re.S)
+    assert [(a, n, _text(t)) for a, n, t in tables] == [(a, n, _text(t)) for a, n, t in captions]
+    assert [n for _, n, _ in tables] == [str(i) for i in range(1, len(tables) + 1)]
+    figures = re.findall(r'<figure id="([^"]+)"[^>]*>.*?<span class="figure-number">Figure (\d+)\.',
+                         body, re.S)
+    listed = re.findall(r'<a href="#([^"]+)"><span class="entry-number">Figure (\d+)</span>',
+                        lists[1])
+    assert listed == figures and len(listed) > 0
+    assert listed[0] == ("figure-unit-flow", "1")
+
+
+# --- baseline values by group -------------------------------------------------------------
+
+
+def test_wound_dose_baselines_equal_pandas_groupby(computed_demos, rendered_demos):
+    """Rule X1 drops dressing_lost == yes; an outcome's analysed units have its value."""
+    frame = pd.read_csv(STUDIES / "wound-dose" / "data" / "animals.csv")
+    eligible = frame[frame["dressing_lost"] != "yes"]
+    results = computed_demos["wound-dose"].results
+    columns = {"wound_area": "wound_area_d7_mm2", "reepithelialisation": "reepithelialisation_pct",
+               "granulation": "granulation_um"}
+    levels = list(results.factor.levels)
+    assert [b.outcomes for b in results.baselines] == [("wound_area",), ("reepithelialisation",),
+                                                       ("granulation",)]
+    for b in results.baselines:
+        analysed = eligible[eligible[columns[b.outcomes[0]]].notna()]
+        grouped = analysed.groupby("dose")["wound_area_d0_mm2"]
+        assert [g.level for g in b.groups] == levels
+        assert [g.n for g in b.groups] == grouped.count().reindex(levels).tolist()
+        assert [g.mean for g in b.groups] == pytest.approx(grouped.mean().reindex(levels).tolist(), rel=1e-12)
+        assert [g.sd for g in b.groups] == pytest.approx(grouped.std(ddof=1).reindex(levels).tolist(), rel=1e-12)
+    section = _text(_element(rendered_demos["wound-dose"].html, '<section id="baselines">', "</section>"))
+    first = results.baselines[0].groups[0]
+    assert (f"Wound area at day 0 (mm²): units analysed for wound area at day 7 Mean (SD) "
+            f"{first.mean:.1f} ({first.sd:.1f})") in section
+
+
+def test_split_plot_baselines_count_each_unit_once(computed_demos):
+    """greenhouse-split: complete units only (a pot missing a reading at any visit is left
+    out); the baseline is one value per pot, repeated on each visit's row."""
+    frame = pd.read_csv(STUDIES / "greenhouse-split" / "data" / "pots.csv")
+    results = computed_demos["greenhouse-split"].results
+    visits = frame["visit"].nunique()
+    complete = frame.groupby("pot_id").filter(
+        lambda pot: pot["chlorophyll_index"].notna().sum() == visits)
+    per_pot = complete.groupby("pot_id").first()
+    grouped = per_pot.groupby("coating")["baseline_height_mm"]
+    levels = list(results.factor.levels)
+    (b,) = results.baselines
+    assert [g.n for g in b.groups] == grouped.count().reindex(levels).tolist()
+    assert [g.mean for g in b.groups] == pytest.approx(grouped.mean().reindex(levels).tolist(), rel=1e-12)
+    assert [g.sd for g in b.groups] == pytest.approx(grouped.std(ddof=1).reindex(levels).tolist(), rel=1e-12)
+
+
+def test_no_baseline_table_without_covariates(computed_demos, rendered_demos):
+    assert computed_demos["seed-coating"].results.baselines == ()
+    assert 'id="baselines"' not in rendered_demos["seed-coating"].html
