@@ -60,13 +60,19 @@ def test_appendix_in_chromium(page_url):
             boxes = page.eval_on_selector_all(
                 "figure svg", "els => els.map(e => [e.getBoundingClientRect().width,"
                 " e.getBoundingClientRect().height])")
-            assert len(boxes) == 9  # primary: five kinds and the forest plot; "pain": three
+            # the unit-flow diagram; primary: five kinds and the forest plot; "pain": three
+            assert len(boxes) == 10
             assert all(w > 100 and h > 50 for w, h in boxes), boxes
 
             targets = page.eval_on_selector_all(
                 "#contents a", "els => els.map(e => e.getAttribute('href'))")
+            sections = [t for t in targets if not t.startswith(("#table-", "#figure-"))]
             # seven top-level sections, eleven links per outcome, exploratory and its E1
-            assert len(targets) == 7 + 2 * 11 + 2
+            assert len(sections) == 7 + 2 * 11 + 2
+            # the lists of tables and figures: one link per figure drawn and per table
+            assert len([t for t in targets if t.startswith("#figure-")]) == 10
+            assert len([t for t in targets if t.startswith("#table-")]) == page.eval_on_selector_all(
+                "caption", "els => els.length")
             for href in targets:
                 page.click(f'#contents a[href="{href}"]')
                 assert page.evaluate("location.hash") == href
