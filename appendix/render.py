@@ -586,7 +586,8 @@ def _listings(page: str, results: StudyResults) -> tuple[list[Listed], list[List
         return labels.get(inside[-1], inside[-1])
 
     def text(markup: str) -> str:
-        return " ".join(_html.unescape(_TAG.sub("", markup)).split())
+        # ASCII white space only: the captions' no-break spaces stay in the lists
+        return re.sub(r"[ \t\r\n]+", " ", _html.unescape(_TAG.sub("", markup))).strip()
 
     tables = [Listed(int(m.group(2)), text(m.group(3)), m.group(1), outcome_at(m.start()))
               for m in _TABLE.finditer(page)]

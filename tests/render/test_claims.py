@@ -91,7 +91,7 @@ def _defaults(results: StudyResults) -> set[str]:
 def test_settings_table_says_the_source_of_every_plan_level_setting(rendered, name):
     results, html = rendered[name]
     text = " ".join(re.sub(r"<[^>]+>", " ", html).split())
-    block = html[html.index("Analysis settings, as the study file states them"):]
+    block = html[html.index('<span class="table-title">Analysis settings, as the study file states them'):]
     block = block[:block.index("</table>")]
     rows = {key: (value, source) for key, value, source in re.findall(
         r'<code>([^<]+)</code></td><td class="text">([^<]*)</td><td class="text">'

@@ -14,7 +14,7 @@ import numpy as np
 import pytest
 
 from appendix.data.dataset import Dataset, OutcomeData, frozen_array
-from appendix.figure_spec import FIGURE_KINDS
+from appendix.figure_spec import FIGURE_KINDS, UNIT_FLOW_FIGURE
 from appendix.figures import _DRAWERS, DENSE_POINTS, PALETTE, make_figures
 from conftest import build_residuals
 
@@ -32,6 +32,7 @@ def test_every_figure_is_valid_svg(figures):
     expected = {f"sbp_change-{kind}" for kind in (*FIGURE_KINDS, "contrasts")}
     # the degenerate outcome has no F, residuals without spread and no contrast estimate
     expected |= {"pain-distribution", "pain-means", "pain-residuals"}
+    expected.add(UNIT_FLOW_FIGURE)  # one per study, from the unit flow
     assert set(figures) == expected
     for svg in figures.values():
         assert ET.fromstring(svg.encode()).tag == SVG
