@@ -105,8 +105,9 @@ def test_every_section_is_there_and_every_link_lands(run):
     assert set(parser.links) <= parser.ids
     # every figure of the one-factor appendix, for this design too, plus the covariate plot
     kinds = ("contrasts", "covariate-1", "distribution", "f-reference", "means", "qq", "residuals")
-    assert sorted(p.name for p in (run / "figures").iterdir()) == [
-        f"{o}-{kind}.svg" for o in sorted(OUTCOMES) for kind in kinds]
+    # and the study's unit-flow diagram
+    assert sorted(p.name for p in (run / "figures").iterdir()) == sorted(
+        [f"{o}-{kind}.svg" for o in OUTCOMES for kind in kinds] + ["unit-flow.svg"])
 
 
 def test_the_pdf_renders_names_the_method_and_carries_the_caution(run):
