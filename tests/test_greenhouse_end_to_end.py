@@ -59,9 +59,11 @@ def test_both_strata_sphericity_slopes_and_the_registered_family(run):
     interaction = next(r for r in within["rows"] if r["term"] == ["coating", "visit"])
     assert coating["p"] < 0.001 and interaction["gg_p"] < 0.001
     # the residual figures are of the unit means; the profile plot takes the means' place
+    # (and the study's unit-flow diagram)
     assert sorted(p.name for p in (run / "figures").iterdir()) == [
         f"chlorophyll-{kind}.svg" for kind in ("contrasts", "covariate-1", "distribution", "f-reference",
-                                               "interaction-3", "profile", "qq", "residuals")]
+                                               "interaction-3", "profile", "qq", "residuals")
+    ] + ["unit-flow.svg"]
 
 
 def test_the_pdf_names_the_design_and_carries_the_caution(run):
