@@ -83,9 +83,12 @@ def test_appendix_in_chromium(page_url):
                 # scrolled into view: the section now starts inside the viewport (at its
                 # top, or lower when the end of the page stopped the scroll)
                 assert -1 <= top < 800, (href, top)
-            # the forest plot sits in its outcome's contrasts section
+            # the forest plot sits with its outcome's other figures, the contrasts point to it
             assert page.evaluate(
-                "document.querySelector('#sbp_change-contrasts figure svg') !== null")
+                "document.querySelector('#sbp_change-figures figure.forest svg') !== null")
+            assert page.evaluate(
+                "document.querySelector('#sbp_change-contrasts a.figure-ref')"
+                ".getAttribute('href')") == "#figure-sbp_change-contrasts"
             # on a phone-sized screen wide tables scroll inside their blocks, not the page
             page.set_viewport_size({"width": 400, "height": 800})
             assert page.evaluate("document.documentElement.scrollWidth") <= 400

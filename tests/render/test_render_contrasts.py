@@ -136,7 +136,8 @@ def test_unavailable_hypothesis_shows_dashes_and_its_reason(tables, page):
                                     "\u2014", "\u2014", "\u2014", "unavailable"]]
     assert ("\u2014 Active doses versus placebo (unavailable): within-variance-zero: Every "
             "group's values are identical, so F is undefined.") in _notes(page, "table-note gap")
-    missing = squash(_section(page, "pain-contrasts").text)
+    # the forest plot's place is with the outcome's other figures
+    missing = squash(_section(page, "pain-figures").text)
     assert "Not drawn: the forest plot of the contrasts" in missing
 
 

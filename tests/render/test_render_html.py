@@ -54,7 +54,8 @@ def test_every_section_has_its_id_and_ids_are_unique(page):
 def test_every_contents_link_has_a_target(page):
     links = [e.attrs["href"] for e in page.elements
              if e.tag == "a" and (e.attrs.get("href") or "").startswith("#")
-             and e.attrs.get("class") != "summary-ref"]  # an outcome's pointer to its conclusions
+             # an outcome's pointers to its conclusions and to its forest plot
+             and e.attrs.get("class") not in ("summary-ref", "figure-ref")]
     sections = [link for link in links if not link.startswith(("#table-", "#figure-"))]
     assert len(sections) == len(SECTION_IDS) - 2  # cover and contents are not listed
     # the lists of tables and figures: one link per caption
