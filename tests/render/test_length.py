@@ -14,7 +14,7 @@ import re
 
 import pytest
 
-from appendix.render import sentence_key
+from appendix.captions import sentence_key
 
 DEMOS = ("seed-coating", "greenhouse-split", "wound-dose")
 # the boxes that hold content; sections, divs and the body stretch over what they hold
