@@ -116,6 +116,8 @@ def _filters(options: RenderOptions) -> dict[str, Any]:
         "df": numbers.df_value,
         "percent": numbers.percent,
         "alpha": _alpha,
+        # "α = .05" in running text, typeset as the sentences' number clauses are
+        "alpha_clause": lambda a: numbers.prose_html(numbers.write_number("alpha", a)),
         "column_decimals": column_decimals,
         "sentence": sentence,
         "mean_decimals": mean_decimals,

@@ -26,12 +26,12 @@ def test_statistic_and_effect_decimals_apply_to_the_sentences(computed_demos):
     row = outcome.tables[0].rows[0]
     html = api.render(computed, RenderOptions(statistic_decimals=4, effect_decimals=3)).html
     f_text = f"{row.statistic:.4f}"  # four decimals, as asked, not the default two
-    # no leading zero (APA 7, from memory); a word joiner keeps the point with its digits
-    eta = "." + "\u2060" + f"{row.partial_eta_squared:.3f}"[2:]
+    # no leading zero (APA 7, from memory); a nowrap span keeps the point with its digits
+    eta = "." + f"{row.partial_eta_squared:.3f}"[2:]
     summary = html.split('<section id="summary">')[1].split("</section>")[0]
     sentence = next(s for s in re.findall(r'<li id="summary-dry_mass">(.*?)<ul', summary, re.S))
     assert f"<i>F</i>(3,\u00a039)\u00a0=\u00a0{f_text}" in sentence
-    assert f"\u03b7\u00b2\u00a0=\u00a0{eta}" in sentence
+    assert f'<span class="nobreak">\u03b7\u00b2\u00a0=\u00a0{eta}' in sentence
     # the variance table shows it too
     assert f_text in html.split('<section id="dry_mass-variance">')[1].split("</section>")[0]
 
