@@ -90,13 +90,33 @@ def _filters(options: RenderOptions) -> dict[str, Any]:
         contrast tables and the sentences about them) share."""
         return column_decimals(g.mean for g in outcome.descriptives.groups)
 
+    def hypothesis_decimals(h: HypothesisResult, outcome: OutcomeResult) -> int:
+        """The decimals of hypothesis `h`'s estimate in its family's table: those of the
+        outcome's group means, or, for a rank-based family (differences in mean ranks), those
+        its estimates choose as one column."""
+        family = next((f for f in outcome.contrasts if any(x is h for x in f.hypotheses)), None)
+        if family is not None and family.method == "rank-based":
+            return column_decimals(x.estimate for x in family.hypotheses)
+        return mean_decimals(outcome)
+
+    def estimate_decimals(conclusion, outcome: OutcomeResult | None) -> int:
+        """The decimals of the table that shows a conclusion's estimates: a registered
+        hypothesis's family table (`hypothesis_decimals`), else the outcome's means."""
+        if outcome is None:
+            return 2 if options.decimals is None else options.decimals
+        # the hypothesis conclusions follow the registered hypotheses one for one
+        for said, h in zip(outcome.hypothesis_conclusions, _registered_hypotheses(outcome)):
+            if said is conclusion:
+                return hypothesis_decimals(h, outcome)
+        return mean_decimals(outcome)
+
     def sentence(conclusion, outcome: OutcomeResult | None = None) -> Markup:
-        """A conclusion typeset; its estimates with the decimals of `outcome`'s tables."""
+        """A conclusion typeset; its estimates with the decimals of the table that shows
+        them (`estimate_decimals`)."""
         return numbers.write_parts(
             conclusion.parts, html=True, statistic_decimals=options.statistic_decimals,
             effect_decimals=options.effect_decimals,
-            estimate_decimals=(mean_decimals(outcome) if outcome is not None else
-                               2 if options.decimals is None else options.decimals))
+            estimate_decimals=estimate_decimals(conclusion, outcome))
 
     return {
         "fixed": numbers.fixed,
@@ -121,6 +141,7 @@ def _filters(options: RenderOptions) -> dict[str, Any]:
         "column_decimals": column_decimals,
         "sentence": sentence,
         "mean_decimals": mean_decimals,
+        "hypothesis_decimals": hypothesis_decimals,
         "cells_label": cells_label,
         "short_hash": lambda digest: digest[:12],
         "level_counts": _level_counts,
