@@ -20,7 +20,7 @@ from collections.abc import Mapping
 import numpy as np
 
 from appendix import numbers
-from appendix.methods import TEST_NAMES, interval_note
+from appendix.methods import ANALYSIS_NAMES, FALLBACK_CONDITIONS, TEST_NAMES, interval_note
 from appendix.plan.family_plan import SINGLE_STEP, FamilyPlan, Node, gate_order
 from appendix.plan.model import Contrast, Plan
 from appendix.results import (
@@ -313,11 +313,6 @@ def test_families(plan: Plan, outcomes: tuple[OutcomeResult, ...]
 test_families.__test__ = False  # a library function whose name pytest would otherwise collect
 
 
-#: Words of the deviation a fallback rule writes (the render stage words its tables itself).
-_FALLBACK_WORDS = {"unequal-variance": "unequal variances", "non-normal": "non-normal errors",
-                   "welch": "Welch", "rank-based": "rank-based", "classical": "classical"}
-
-
 def contingency_deviations(outcome: str, records: tuple[Contingency, ...],
                            selected: str, label: str | None = None) -> tuple[Deviation, ...]:
     """A pre-specified fallback rule applied is listed among the deviations (acknowledged by
@@ -330,8 +325,8 @@ def contingency_deviations(outcome: str, records: tuple[Contingency, ...],
                 message=(f"{TEST_NAMES.get(record.test, record.test)} "
                          f"{numbers.p_clause(record.p)} is below the pre-specified threshold "
                          f"{numbers.no_leading_zero(f'{record.threshold:g}')}: the fallback rule "
-                         f"for {_FALLBACK_WORDS.get(record.when, record.when)} selects the "
-                         f"{_FALLBACK_WORDS.get(selected, selected)} analysis for "
+                         f"for {FALLBACK_CONDITIONS.get(record.when, record.when)} selects the "
+                         f"{ANALYSIS_NAMES.get(selected, selected)} analysis for "
                          f"{label or outcome}."),
                 acknowledged=True,
                 justification="pre-specified in the plan's fallback rules"),)

@@ -27,6 +27,12 @@ TEST_NAMES = {
     "bartlett": "Bartlett",
 }
 
+#: The conditions a registered fallback rule answers (`Contingency.when`), in words.
+FALLBACK_CONDITIONS = {"unequal-variance": "unequal variances", "non-normal": "non-normal errors"}
+
+#: The analyses a fallback rule selects, as sentences name them.
+ANALYSIS_NAMES = {"classical": "classical", "welch": "Welch", "rank-based": "rank-based"}
+
 
 
 @dataclass(frozen=True)

@@ -187,8 +187,10 @@ _CLAUSE_SPACES = (
 )
 
 
-WORD_JOINER = "\u2060"  # invisible; forbids a line break where it stands
-_LEADING_POINT = re.compile(r"(?<=[\s\u00a0(\[\u2212-])\.(?=\d)")
+# a decimal point that opens a number (".121", "[.05"): a line could break after it
+_LEADING_POINT = re.compile(r"(?:^|(?<=[\u00a0(\[\u2212-]))\.(?=\d)")
+# a word of running text: a number clause is one, its spaces being no-break spaces
+_WORD = re.compile(r"[^ \t\r\n]+|[ \t\r\n]+")
 
 
 def tie(text: str) -> str:
@@ -207,17 +209,26 @@ def prose_html(text: str) -> Markup:
     """Plain prose written by the pipeline (a conclusion, a diagnostic's detail) as HTML in
     the number style of the tables: escaped, each statistic symbol that opens a number
     clause in italics (`ITALIC_SYMBOLS`), the clause's spaces unbreakable (`tie`), and a
-    word joiner after a leading decimal point, where a line could otherwise break.
-    Plain-text outputs (terminal, results.json) keep the text as it is.
+    clause holding a leading decimal point, after which a line could otherwise break
+    (". | 121"), in a ``nobreak`` span (``white-space: nowrap`` in the appendix's CSS), which
+    adds no character to copied or searched text. Plain-text outputs (terminal,
+    results.json) keep the text as it is.
 
     >>> str(prose_html("p < .001 & n = 4"))
-    '<i>p</i>\xa0&lt;\xa0.\u2060001 &amp; <i>n</i>\xa0=\xa04'
+    '<span class="nobreak"><i>p</i>\xa0&lt;\xa0.001</span> &amp; <i>n</i>\xa0=\xa04'
     """
-    # a line may otherwise break between a leading decimal point and its digits (". | 121")
-    tied = _LEADING_POINT.sub("." + WORD_JOINER, tie(text))
-    out, start = [], 0
-    for match in _SYMBOL.finditer(tied):
-        out += [escape(tied[start:match.start()]), Markup("<i>%s</i>") % match.group(1)]
-        start = match.end()
-    out.append(escape(tied[start:]))
+    tied = tie(text)
+    symbols = [m.span(1) for m in _SYMBOL.finditer(tied)]
+    out = []
+    for word in _WORD.finditer(tied):
+        start, end = word.span()
+        html, at = [], start
+        for s, e in symbols:  # symbols hold no space: each lies within one word
+            if start <= s and e <= end:
+                html += [escape(tied[at:s]), Markup("<i>%s</i>") % tied[s:e]]
+                at = e
+        html.append(escape(tied[at:end]))
+        piece = Markup("").join(html)
+        out.append(Markup('<span class="nobreak">%s</span>') % piece
+                   if _LEADING_POINT.search(word.group()) else piece)
     return Markup("").join(out)

@@ -38,8 +38,10 @@ from jinja2.bccache import Bucket
 from markupsafe import Markup
 
 from appendix import numbers
+from appendix.captions import Captions
 from appendix.figure_spec import FIGURE_KINDS, PLOT_POINTS, UNIT_FLOW_FIGURE, cells_label
-from appendix.methods import adjustment, methods_used, references_for
+from appendix.methods import (FALLBACK_CONDITIONS, TEST_NAMES, adjustment, methods_used,
+                              references_for)
 from appendix.results import (ContrastFamily, Diagnostics, HypothesisResult, LevelCount, ModelRow,
                               ModelTable, OutcomeResult, PlannedNumbers, RegisteredFamily,
                               StatWarning, StudyResults)
@@ -88,13 +90,33 @@ def _filters(options: RenderOptions) -> dict[str, Any]:
         contrast tables and the sentences about them) share."""
         return column_decimals(g.mean for g in outcome.descriptives.groups)
 
+    def hypothesis_decimals(h: HypothesisResult, outcome: OutcomeResult) -> int:
+        """The decimals of hypothesis `h`'s estimate in its family's table: those of the
+        outcome's group means, or, for a rank-based family (differences in mean ranks), those
+        its estimates choose as one column."""
+        family = next((f for f in outcome.contrasts if any(x is h for x in f.hypotheses)), None)
+        if family is not None and family.method == "rank-based":
+            return column_decimals(x.estimate for x in family.hypotheses)
+        return mean_decimals(outcome)
+
+    def estimate_decimals(conclusion, outcome: OutcomeResult | None) -> int:
+        """The decimals of the table that shows a conclusion's estimates: a registered
+        hypothesis's family table (`hypothesis_decimals`), else the outcome's means."""
+        if outcome is None:
+            return 2 if options.decimals is None else options.decimals
+        # the hypothesis conclusions follow the registered hypotheses one for one
+        for said, h in zip(outcome.hypothesis_conclusions, _registered_hypotheses(outcome)):
+            if said is conclusion:
+                return hypothesis_decimals(h, outcome)
+        return mean_decimals(outcome)
+
     def sentence(conclusion, outcome: OutcomeResult | None = None) -> Markup:
-        """A conclusion typeset; its estimates with the decimals of `outcome`'s tables."""
+        """A conclusion typeset; its estimates with the decimals of the table that shows
+        them (`estimate_decimals`)."""
         return numbers.write_parts(
             conclusion.parts, html=True, statistic_decimals=options.statistic_decimals,
             effect_decimals=options.effect_decimals,
-            estimate_decimals=(mean_decimals(outcome) if outcome is not None else
-                               2 if options.decimals is None else options.decimals))
+            estimate_decimals=estimate_decimals(conclusion, outcome))
 
     return {
         "fixed": numbers.fixed,
@@ -114,9 +136,12 @@ def _filters(options: RenderOptions) -> dict[str, Any]:
         "df": numbers.df_value,
         "percent": numbers.percent,
         "alpha": _alpha,
+        # "α = .05" in running text, typeset as the sentences' number clauses are
+        "alpha_clause": lambda a: numbers.prose_html(numbers.write_number("alpha", a)),
         "column_decimals": column_decimals,
         "sentence": sentence,
         "mean_decimals": mean_decimals,
+        "hypothesis_decimals": hypothesis_decimals,
         "cells_label": cells_label,
         "short_hash": lambda digest: digest[:12],
         "level_counts": _level_counts,
@@ -185,11 +210,8 @@ WORDS: Mapping[str, Mapping[Any, str]] = MappingProxyType({
     "marks": MappingProxyType({
         "registered": "Registered result",
         "comparison": "Shown for comparison, not the registered result"}),
-    "conditions": MappingProxyType({
-        "unequal-variance": "unequal variances", "non-normal": "non-normal errors"}),
-    "tests": MappingProxyType({
-        "brown-forsythe": "Brown\u2013Forsythe", "bartlett": "Bartlett",
-        "shapiro-wilk": "Shapiro\u2013Wilk"}),
+    "conditions": MappingProxyType(FALLBACK_CONDITIONS),
+    "tests": MappingProxyType(TEST_NAMES),
     "deviations": MappingProxyType({  # keys of Deviation.kind
         "registered-contingency": "Pre-specified fallback rule applied",
         "plan-not-registered": "Plan not registered",
@@ -430,16 +452,6 @@ def _inline_svg(svg: str) -> Markup:
     return Markup(_SVG_PROLOGUE.sub("", svg, count=1))
 
 
-class _Numbering:
-    """Numbers tables or figures in the order the template first asks for them."""
-
-    def __init__(self) -> None:
-        self._numbers: dict[str, int] = {}
-
-    def __call__(self, key: str) -> int:
-        return self._numbers.setdefault(key, len(self._numbers) + 1)
-
-
 def _data_checksum(results: StudyResults) -> str:
     """SHA-256 of the data file (role ``data``, else the first input) for the header."""
     inputs = list(results.inputs)
@@ -502,8 +514,9 @@ def render_html(results: StudyResults, figures: dict[str, str], options: RenderO
     env.filters.update(_filters(options))
     methods = methods_used(results)
     records = {f.id: f for f in results.families}
-    template = env.get_template("appendix.html.j2")
-    context = dict(
+    # numbers, lists of tables and figures, and notes said once, as the templates write them
+    captions = Captions()
+    return env.get_template("appendix.html.j2").render(
         r=results,
         outcomes=_ordered_outcomes(results),
         figures={key: _inline_svg(svg) for key, svg in figures.items()},
@@ -523,140 +536,10 @@ def render_html(results: StudyResults, figures: dict[str, str], options: RenderO
         references=references_for(methods),
         data_sha256=_data_checksum(results),
         tool_version=_tool_version(results),
+        captions=captions,
+        table_number=captions.table_number,
+        figure_number=captions.figure_number,
     )
-    # The lists of tables and figures in the contents are read from the captions of a
-    # first rendering (numbers are given in page order, so the lists, which number
-    # nothing, cannot change them); the second rendering numbers afresh.
-    first = template.render(listed=None, table_number=_Numbering(),
-                            figure_number=_Numbering(), **context)
-    return said_once(template.render(listed=_listings(first, results), table_number=_Numbering(),
-                                     figure_number=_Numbering(), **context))
-
-
-@dataclass(frozen=True)
-class Listed:
-    """An entry of the list of tables or of figures: its number and anchor as the page
-    shows them, a short title (the caption's title, or its first clause for a figure), and
-    the label of the outcome whose section holds it (None outside the outcome sections)."""
-
-    number: int
-    title: str
-    anchor: str
-    outcome: str | None
-
-
-_TABLE = re.compile(r'<caption id="(table-\d+)"><span class="table-number">Table (\d+)</span>'
-                    r'<span class="table-title">(.*?)</span>', re.S)
-_FIGURE = re.compile(r'<figure id="([^"]+)"[^>]*>.*?<span class="figure-number">Figure (\d+)\.'
-                     r'</span>(.*?)</figcaption>', re.S)
-_OUTCOME_SECTION = re.compile(r'<section id="outcome-([^"]+)"')
-
-
-def _first_clause(text: str, limit: int = 90) -> str:
-    """A caption's first clause: up to the first full stop, comma, colon or semicolon
-    outside parentheses, cut at a word before `limit` characters."""
-    depth = 0
-    for i, ch in enumerate(text):
-        if ch == "(":
-            depth += 1
-        elif ch == ")" and depth:
-            depth -= 1
-        if depth == 0 and ch in ".,:;" and (i + 1 == len(text) or text[i + 1] == " "):
-            text = text[:i]
-            break
-    if len(text) > limit:
-        text = text[:limit].rsplit(" ", 1)[0] + "\u2026"
-    return text
-
-
-def _listings(page: str, results: StudyResults) -> tuple[list[Listed], list[Listed]]:
-    """The tables and figures of a rendered page, in page order, as its captions number
-    and title them (read from the page, so the lists cannot disagree with the captions)."""
-    import html as _html
-
-    labels = {o.name: o.label for o in results.outcomes}
-    starts = [(m.start(), m.group(1)) for m in _OUTCOME_SECTION.finditer(page)]
-    end = page.find('<section id="exploratory"')
-    end = page.find('<section id="methods"') if end < 0 else end
-
-    def outcome_at(position: int) -> str | None:
-        inside = [name for start, name in starts if start < position]
-        if not inside or (end >= 0 and position > end):
-            return None
-        return labels.get(inside[-1], inside[-1])
-
-    def text(markup: str) -> str:
-        # ASCII white space only: the captions' no-break spaces stay in the lists
-        return re.sub(r"[ \t\r\n]+", " ", _html.unescape(_TAG.sub("", markup))).strip()
-
-    tables = [Listed(int(m.group(2)), text(m.group(3)), m.group(1), outcome_at(m.start()))
-              for m in _TABLE.finditer(page)]
-    figures = [Listed(int(m.group(2)), _first_clause(text(m.group(3))), m.group(1),
-                      outcome_at(m.start()))
-               for m in _FIGURE.finditer(page)]
-    return tables, figures
-
-
-# the notes under tables and the figures' captions, and the table or figure each belongs to
-_NOTE_PARTS = re.compile(
-    r'<span class="table-number">Table (?P<table>\d+)</span>'
-    r'|<span class="figure-number">Figure (?P<figure>\d+)\.</span>(?P<caption>.*?)</figcaption>'
-    r'|<p class="table-note">(?P<note>.*?)</p>', re.S)
-_NOTE_LEAD = "<i>Note.</i>"
-# a sentence ends at a full stop followed by a space and a capital (perhaps inside a tag)
-_SENTENCE_END = re.compile(r'(?<=\.)\s+(?=(?:<[^>]+>)*[A-Z\u0391-\u03a9])')
-_TAG = re.compile(r"<[^>]+>")
-
-
-def sentence_key(html: str) -> str:
-    """The words of an HTML sentence, without tags and with spaces squashed: what makes
-    two sentences the same."""
-    return " ".join(_TAG.sub(" ", html).split())
-
-
-def said_once(html: str) -> str:
-    """The page with every sentence of a table note or figure caption said only where it
-    is first said: a later note or caption drops the sentences an earlier one holds and
-    ends instead with a pointer to it ("Other notes as for Table 3."), so that a
-    definition or a caveat is read once and not on every outcome."""
-    said: dict[str, str] = {}
-    current = ""
-
-    def pointer(sources: list[str]) -> str:
-        return " and ".join(dict.fromkeys(sources))
-
-    def thin(body: str, lead: str) -> str | None:
-        sentences = [s for s in _SENTENCE_END.split(body.strip()) if s]
-        kept, sources = [], []
-        for sentence in sentences:
-            key = sentence_key(sentence)
-            if key in said and len(key) > 30:
-                sources.append(said[key])
-                continue
-            said.setdefault(key, current)
-            kept.append(sentence)
-        if not sources:
-            return None
-        tail = (f"Other notes as for {pointer(sources)}." if kept
-                else f"As for {pointer(sources)}.")
-        return " ".join([*kept, tail]) if not lead else " ".join([lead, *kept, tail])
-
-    def one(match: re.Match) -> str:
-        nonlocal current
-        if match["table"]:
-            current = f"Table {match['table']}"
-            return match[0]
-        if match["figure"]:
-            current = f"Figure {match['figure']}"
-            caption = thin(match["caption"], "")
-            return match[0] if caption is None else (
-                f'<span class="figure-number">Figure {match["figure"]}.</span> {caption}</figcaption>')
-        body = match["note"].strip()
-        lead = _NOTE_LEAD if body.startswith(_NOTE_LEAD) else ""
-        note = thin(body[len(lead):], lead)
-        return match[0] if note is None else f'<p class="table-note">{note}</p>'
-
-    return _NOTE_PARTS.sub(one, html)
 
 
 def font_faces() -> str:

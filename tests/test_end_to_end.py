@@ -75,9 +75,9 @@ def test_html_holds_every_section_and_working_links(demo_run: Path):
 def test_pdf_text_holds_the_model_table(demo_run: Path):
     results = json.loads((demo_run / "run" / "results.json").read_text())
     reader = PdfReader(demo_run / "run" / "appendix.pdf")
-    # no-break spaces (number clauses never break) read as spaces; word joiners are invisible
-    text = " ".join(page.extract_text() for page in reader.pages).replace(
-        "\u00a0", " ").replace("\u2060", "")
+    # no-break spaces (number clauses never break) read as spaces
+    text = " ".join(page.extract_text() for page in reader.pages).replace("\u00a0", " ")
+    assert "\u2060" not in text  # a leading point is kept with its digits by CSS, not a character
     for outcome in results["outcomes"]:
         table = outcome["tables"][0]
         row = table["rows"][0]

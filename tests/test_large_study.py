@@ -42,7 +42,7 @@ def test_large_study_subsamples_only_figures_and_shapiro(tmp_path: Path):
     statement = (f"Points are a deterministic subsample of {PLOT_POINTS} of the {N} units; "
                  "every unit enters the boxes, means and tests.")
     # said once, in the first of the distribution, Q-Q and residual figures; the others point
-    # back to it (render.said_once)
+    # back to it (captions.Captions.note)
     assert html.count(statement) == 1
     assert len(re.findall(r"Other notes as for Figure \d+\.|As for Figure \d+\.", html)) >= 2
     rerun = api.run(study, tmp_path / "again", pdf=False)

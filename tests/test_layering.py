@@ -23,7 +23,7 @@ PACKAGE = Path(__file__).resolve().parent.parent / "appendix"
 LAYERS: tuple[tuple[str, tuple[str, ...]], ...] = (
     ("ground", ("appendix", "appendix.errors", "appendix.names", "appendix.hashing",
                 "appendix.staging", "appendix.tolerance", "appendix.figure_spec",
-                "appendix.numbers", "appendix.epoch", "appendix.typefaces")),
+                "appendix.numbers", "appendix.captions", "appendix.epoch", "appendix.typefaces")),
     ("contract", ("appendix.results", "appendix.methods", "appendix.versions")),
     ("plan", ("appendix.plan.*",)),
     ("data", ("appendix.data.*",)),
@@ -40,7 +40,7 @@ LAYERS: tuple[tuple[str, tuple[str, ...]], ...] = (
 
 #: The small shared modules of the ground floor, which import nothing of ours at all.
 GROUND_FLOOR = ("appendix.names", "appendix.hashing", "appendix.staging", "appendix.tolerance",
-                "appendix.figure_spec", "appendix.numbers", "appendix.errors",
+                "appendix.figure_spec", "appendix.numbers", "appendix.captions", "appendix.errors",
                 "appendix.typefaces")
 
 #: Modules that are handed plain values and reach no earlier stage than these layers: the

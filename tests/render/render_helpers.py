@@ -66,9 +66,8 @@ def parse(html: str) -> Page:
 
 
 def squash(text: str) -> str:
-    """Text as a reader sees it: whitespace collapsed, word joiners (U+2060, invisible; the
-    appendix keeps a leading decimal point with its digits by them) dropped."""
-    return " ".join(text.replace("\u2060", "").split())
+    """Text as a reader sees it: whitespace collapsed."""
+    return " ".join(text.split())
 
 
 def journal_tables(page: Page) -> dict[str, list[tuple[str | None, list[str]]]]:

@@ -101,7 +101,9 @@ def test_settings_table_says_the_source_of_every_plan_level_setting(rendered, na
     for key, (value, source) in rows.items():
         assert (value, source) == (top[key].value, "as registered" if top[key].stated else "by default"), key
     alpha = "as registered" if top["alpha"].stated else "by default"
-    assert f"Every test uses the significance level &#945;&nbsp;=&nbsp;.05, {alpha}" in text
+    # the clause typeset as the sentences' are: in a nowrap span, with no-break spaces
+    plain = re.sub(r"<[^>]+>", "", html)
+    assert f"Every test uses the significance level \u03b1\u00a0=\u00a0.05, {alpha}" in plain
 
 
 @pytest.mark.parametrize("name", CASES)

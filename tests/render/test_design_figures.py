@@ -406,7 +406,7 @@ def test_the_covariate_caption_names_what_the_points_are_adjusted_for(computed_d
     captions = re.findall(r'<figure id="figure-[a-z_]+-covariate-1" class="figure">.*?'
                           r'Figure (\d+)\.</span>(.*?)</figcaption>', html, re.S)
     assert len(captions) == 3  # one covariate figure per outcome
-    # said under the first; the others point to it (render.said_once)
+    # said under the first; the others point to it (captions.Captions.note)
     (first, text), *later = captions
     assert sentence in text and html.count(sentence) == 1
     assert all(f"Other notes as for Figure {first}." in other for _, other in later)

@@ -15,7 +15,7 @@ from pathlib import Path
 
 import pytest
 
-from appendix.render import sentence_key
+from appendix.captions import sentence_key
 
 REPO = Path(__file__).resolve().parents[2]
 
@@ -66,9 +66,9 @@ def test_seed_coating_holds_everything_registered(rendered_demos, computed_demos
             "findings", "unit-flow"} <= ids
     for item in results.inputs:
         assert item.sha256 in html
-    # words compared with spaces squashed: the page may hold no-break spaces and joiners
+    # words compared with spaces squashed: the page may hold no-break spaces
     def words(t):
-        return " ".join(t.replace("\u2060", "").split())
+        return " ".join(t.split())
     text = words(markup.unescape(html))
     for finding in results.findings:
         assert words(finding.message) in text

@@ -119,7 +119,7 @@ def interval_variants(page: str) -> list[str]:
     return [_around(text, m) for m in _CI_OTHERWISE.finditer(text)]
 
 
-_NUMBERISH = r"[\d.\u2212\u221e\u2060]"
+_NUMBERISH = r"[\d.\u2212\u221e]"
 _BREAKABLE = (
     # a relation sign between a symbol or closing bracket and a number: ``p < .001``
     re.compile(r"[\w\u00b2)](?: [=<>\u2264\u2265][\s\u00a0]|\u00a0[=<>\u2264\u2265] )(?=" + _NUMBERISH + ")"),
@@ -181,3 +181,62 @@ def test_the_demo_pages_keep_the_number_style(rendered_demos, demo, rule):
 ])
 def test_each_rule_finds_what_it_is_for(rule, html, found):
     assert len(RULES[rule](html)) == found
+
+
+# --- a leading decimal point stays with its digits, invisibly ----------------------------
+
+def _lines(document) -> list[str]:
+    """The text of each laid-out line of a WeasyPrint document, in order."""
+    from weasyprint.formatting_structure import boxes
+
+    found: list[str] = []
+
+    def text(box) -> str:
+        own = box.text if isinstance(box, boxes.TextBox) else ""
+        return own + "".join(text(c) for c in getattr(box, "children", ()))
+
+    def walk(box) -> None:
+        if isinstance(box, boxes.LineBox):
+            found.append(text(box))
+            return
+        for child in getattr(box, "children", ()):
+            walk(child)
+
+    for page in document.pages:
+        walk(page._page_box)
+    return found
+
+
+@pytest.mark.parametrize(("typeset_with", "whole"), [("prose_html", 13), ("tie only", 10)])
+def test_a_p_clause_never_breaks_after_its_decimal_point(typeset_with, whole, tmp_path):
+    """Narrow paragraphs put the line end at every position around ``p = .121``; typeset by
+    `numbers.prose_html` (a nowrap span) the clause stays on one line every time, where
+    no-break spaces alone (`numbers.tie`) let WeasyPrint break after the point three times.
+    The PDF's text holds the clause and no invisible character (pdftotext)."""
+    import subprocess
+
+    from appendix import numbers
+    from appendix.render import RenderOptions, typeset
+    from appendix.typefaces import template_root
+
+    write = (lambda t: str(numbers.prose_html(t))) if typeset_with == "prose_html" else numbers.tie
+    css = (template_root() / "appendix.css").read_text(encoding="utf-8")
+    paragraphs = "".join(f'<p style="width: 9em">{write("x" * k + " aa bb p = .121 and more")}</p>'
+                         for k in range(1, 14))
+    document = typeset(f"<html><head><style>{css}</style></head><body>{paragraphs}</body></html>",
+                       RenderOptions())
+    lines = _lines(document)
+    assert sum(f"p{NBSP}={NBSP}.121" in line for line in lines) == whole
+    if typeset_with == "prose_html":
+        assert not [line for line in lines if line.rstrip().endswith(".") or line.startswith("121")]
+        document.write_pdf(tmp_path / "clauses.pdf")
+        text = subprocess.run(["pdftotext", "-enc", "UTF-8", str(tmp_path / "clauses.pdf"), "-"],
+                              capture_output=True, text=True, check=True).stdout
+        assert text.count(".121") == 13 and "\u2060" not in text
+
+
+@pytest.mark.parametrize("demo", DEMOS)
+def test_the_demo_pages_hold_no_word_joiner(rendered_demos, demo):
+    html = rendered_demos[demo].html
+    assert "\u2060" not in html and "&#8288;" not in html
+    assert '<span class="nobreak">' in html

@@ -1,0 +1,152 @@
+"""The captions and notes of one rendering of the appendix, kept as the templates write them.
+
+A `Captions` is made per rendering and handed to the templates, which consult it as they
+write each table caption, figure caption and table note, in page order:
+
+- tables and figures are numbered in the order they are first asked for (a caption, or a
+  sentence that refers to one, "Table 2 gives them");
+- each caption is listed (`Listed`: number, title, anchor, outcome section) for the lists
+  of tables and figures in the contents, which the page writes after its body, so that the
+  lists are the captions themselves and the page is rendered once;
+- a sentence of a note or caption already said under an earlier table or figure is not
+  said again: the later note keeps its own sentences and ends with a pointer to where the
+  others stand ("Other notes as for Table 3.", or "As for Table 3." when nothing is left),
+  so that a definition or a caveat is read once and not on every outcome.
+
+>>> c = Captions()
+>>> c.table("a", "Means"), c.note(Markup("SD = standard deviation of the values."))
+(1, Markup('SD = standard deviation of the values.'))
+>>> c.table("b", "More means"), c.note(Markup("SD = standard deviation of the values."))
+(2, Markup('As for Table 1.'))
+"""
+
+from __future__ import annotations
+
+import html as _html
+import re
+from dataclasses import dataclass
+
+from markupsafe import Markup
+
+#: Sentences no longer than this (tag-free, spaces squashed) are repeated where they stand:
+#: "Blank cells: not applicable." costs less than a pointer to it.
+SHORTEST_THINNED = 30
+
+# a sentence ends at a full stop followed by a space and a capital (perhaps inside a tag)
+_SENTENCE_END = re.compile(r'(?<=\.)\s+(?=(?:<[^>]+>)*[A-Z\u0391-\u03a9])')
+_TAG = re.compile(r"<[^>]+>")
+
+
+@dataclass(frozen=True)
+class Listed:
+    """An entry of the list of tables or of figures: its number and anchor as the page
+    shows them, a short title (the caption's title, or its first clause for a figure), and
+    the label of the outcome whose section holds it (None outside the outcome sections)."""
+
+    number: int
+    title: str
+    anchor: str
+    outcome: str | None
+
+
+def sentence_key(html: str) -> str:
+    """The words of an HTML sentence, without tags and with spaces squashed: what makes
+    two sentences the same."""
+    return " ".join(_TAG.sub(" ", html).split())
+
+
+def plain_text(value: str) -> str:
+    """What a reader sees of a caption: markup without its tags and entities, a plain
+    string as it is; ASCII white space squashed (no-break spaces stay)."""
+    text = _html.unescape(_TAG.sub("", value)) if isinstance(value, Markup) else str(value)
+    return re.sub(r"[ \t\r\n]+", " ", text).strip()
+
+
+def first_clause(text: str, limit: int = 90) -> str:
+    """A caption's first clause: up to the first full stop, comma, colon or semicolon
+    outside parentheses, cut at a word before `limit` characters.
+
+    >>> first_clause("Means of yield (raw, by group) with 95% confidence intervals. Bars")
+    'Means of yield (raw, by group) with 95% confidence intervals'
+    """
+    depth = 0
+    for i, ch in enumerate(text):
+        if ch == "(":
+            depth += 1
+        elif ch == ")" and depth:
+            depth -= 1
+        if depth == 0 and ch in ".,:;" and (i + 1 == len(text) or text[i + 1] == " "):
+            text = text[:i]
+            break
+    if len(text) > limit:
+        text = text[:limit].rsplit(" ", 1)[0] + "\u2026"
+    return text
+
+
+class Captions:
+    """The tables, figures and note sentences of one rendering, in page order."""
+
+    def __init__(self) -> None:
+        self._numbers: dict[str, dict[str, int]] = {"table": {}, "figure": {}}
+        self.tables: list[Listed] = []
+        self.figures: list[Listed] = []
+        self._outcome: str | None = None
+        self._current = ""  # "Table 3": the table or figure whose notes are being written
+        self._said: dict[str, str] = {}  # sentence key -> where it was first said
+
+    def _number(self, kind: str, key: str) -> int:
+        numbers = self._numbers[kind]
+        return numbers.setdefault(key, len(numbers) + 1)
+
+    def table_number(self, key: str) -> int:
+        """The number of table `key`, given in the order tables are first asked for."""
+        return self._number("table", key)
+
+    def figure_number(self, key: str) -> int:
+        """The number of figure `key`, given in the order figures are first asked for."""
+        return self._number("figure", key)
+
+    def within(self, outcome: str | None) -> str:
+        """Enter the section of the outcome labelled `outcome` (None: leave it); what
+        follows is listed under it. Returns "" so that a template may call it anywhere."""
+        self._outcome = outcome
+        return ""
+
+    def table(self, key: str, title: str) -> int:
+        """The caption of table `key` is being written: its number, the table listed under
+        its title, and the notes that follow belong to it."""
+        number = self.table_number(key)
+        if all(entry.number != number for entry in self.tables):
+            self.tables.append(Listed(number, plain_text(title), f"table-{number}", self._outcome))
+        self._current = f"Table {number}"
+        return number
+
+    def figure(self, key: str, caption: Markup) -> Markup:
+        """The caption of figure `key` (numbered before its text was written, which may
+        number other tables): the figure listed under the caption's first clause, and the
+        caption as the page shows it, without the sentences said before (`note`)."""
+        number = self.figure_number(key)
+        if all(entry.number != number for entry in self.figures):
+            self.figures.append(Listed(number, first_clause(plain_text(caption)),
+                                       f"figure-{key}", self._outcome))
+        self._current = f"Figure {number}"
+        return self.note(caption)
+
+    def note(self, body: Markup) -> Markup:
+        """A note of the current table or figure without the sentences (longer than
+        `SHORTEST_THINNED` characters) said under an earlier one, and then a pointer to
+        where they stand; as it is when it repeats nothing."""
+        kept: list[str] = []
+        sources: list[str] = []
+        for sentence in (s for s in _SENTENCE_END.split(str(body).strip()) if s):
+            key = sentence_key(sentence)
+            if key in self._said and len(key) > SHORTEST_THINNED:
+                sources.append(self._said[key])
+                continue
+            self._said.setdefault(key, self._current)
+            kept.append(sentence)
+        if not sources:
+            return Markup(body)
+        where = " and ".join(dict.fromkeys(sources))
+        tail = f"Other notes as for {where}." if kept else f"As for {where}."
+        return Markup(" ".join([*kept, tail]))
