@@ -38,7 +38,7 @@ from jinja2.bccache import Bucket
 from markupsafe import Markup
 
 from appendix import numbers
-from appendix.figure_spec import FIGURE_KINDS, PLOT_POINTS, UNIT_FLOW_FIGURE, cells_label
+from appendix.figure_spec import FIGURE_KINDS, PLOT_POINTS, UNIT_FLOW_FIGURE, cells_label, cells_words
 from appendix.methods import adjustment, methods_used, references_for
 from appendix.results import (ContrastFamily, Diagnostics, HypothesisResult, LevelCount, ModelRow,
                               ModelTable, OutcomeResult, PlannedNumbers, RegisteredFamily,
@@ -118,6 +118,7 @@ def _filters(options: RenderOptions) -> dict[str, Any]:
         "sentence": sentence,
         "mean_decimals": mean_decimals,
         "cells_label": cells_label,
+        "cells_words": cells_words,
         "short_hash": lambda digest: digest[:12],
         "level_counts": _level_counts,
         "planned_counts": planned_counts,
