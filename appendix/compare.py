@@ -696,7 +696,8 @@ def move_text(move: NumberMove) -> str:
     """The change from A to B, signed, with the relative change: ``+0.0123 (+4.1%)``."""
     if move.change is None:
         return "appeared" if move.a is None else "disappeared" if move.b is None else ""
-    change = numbers.fixed(move.change, _decimals(move))
+    change = (numbers.fixed(move.change, 0) if move.kind == "count"
+              else numbers.fixed(move.change, _decimals(move)))
     sign = "+" if not change.startswith(numbers.MINUS) else ""
     relative = ""
     if move.relative_change is not None:
