@@ -199,6 +199,7 @@ WORDS: Mapping[str, Mapping[Any, str]] = MappingProxyType({
         "outcome-removed": "Outcome removed",
         "outcome-role-switched": "Outcome switched between primary and secondary",
         "below-minimum-n": "Fewer units than the registered minimum",
+        "below-minimum-total": "Fewer units in all than the registered minimum",
         "level-without-units": "Level without units",
         "missing-above-limit": "Missing data above the registered limit",
         "acknowledgement-unmatched": "Acknowledgement matches no deviation"}),

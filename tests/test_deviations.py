@@ -316,9 +316,10 @@ def test_a_minimum_total_at_or_below_the_analysed_totals_is_no_deviation(demo_st
     counts = _demo_counts(demo_study)
     lowest = min(sum(counts[name].values()) for name in OUTCOMES)
     _edit(demo_study, "    per_group: 12\n", f"    per_group: 12\n    minimum: 1\n    minimum_total: {lowest}\n")
+    # (one unit per group: the sentence says "unit")
     computed = api.compute(demo_study)
     assert _of(computed.results.deviations, "below-minimum-total") == []
-    assert (f"registered minimum of 1 units per group, or of {lowest} units in all are "
+    assert (f"registered minimum of 1 unit per group, or of {lowest} units in all are "
             "analysed.") in _text(api.render(computed).html, "unit-flow")
 
 
@@ -460,7 +461,7 @@ def test_an_unknown_kind_is_refused_with_a_suggestion(demo_study: Path):
     assert str(caught.value).endswith(
         "deviations[0].kind: got 'below-minimun-n'; allowed: 'plan-not-registered', "
         "'plan-changed', 'outcome-added', 'outcome-removed', 'outcome-role-switched', "
-        "'below-minimum-n', 'level-without-units', 'missing-above-limit' or "
+        "'below-minimum-n', 'below-minimum-total', 'level-without-units', 'missing-above-limit' or "
         "'registered-contingency'; did you mean 'below-minimum-n'?")
 
 
