@@ -27,9 +27,8 @@ def consistency_problems(raw: object) -> list[Found]:
     found: list[Found] = []
     found += _source_format(data)
     found += _planned_minimum(_mapping(data.get("planned_n")))
-    found += _planned_minimum_total(_mapping(data.get("planned_n")),
-                                    _items(_mapping(raw.get("design")).get("factors")))
     factors = _items(_mapping(raw.get("design")).get("factors"))
+    found += _planned_minimum_total(_mapping(data.get("planned_n")), factors)
     for i, factor in factors:
         found += _factor_levels(("design", "factors", i), factor)
     found += unique([(("outcomes",), raw.get("outcomes"))], "name", "outcome names")
@@ -76,7 +75,7 @@ def _planned_total(planned: Mapping, factors: list[tuple[int, Mapping]]) -> tupl
         return planned["total"], "planned in all"
     per_group = planned.get("per_group")
     treatment = [f.get("levels") for _, f in factors if f.get("role", "treatment") == "treatment"]
-    if not _whole(per_group) or not treatment or not all(isinstance(l, list) for l in treatment):
+    if not _whole(per_group) or not treatment or not all(isinstance(levels, list) for levels in treatment):
         return None
     cells = 1
     for levels in treatment:
