@@ -49,8 +49,9 @@ from appendix.results import (
 )
 from appendix.tolerance import DEFAULT, Tolerance
 
-#: 2: quantities are named after the results of format 2 (``units/coating.statistic``, ``n_units``).
-DIFF_FORMAT = 2
+#: 2: quantities are named after the results of format 2 (``units/coating.statistic``, ``n_units``);
+#: 3: each conclusion and moved number carries its outcome's label, each moved number its kind.
+DIFF_FORMAT = 3
 
 #: Joins the factors of an interaction in a term's id, as the appendix writes it.
 CROSS = " × "
@@ -71,9 +72,12 @@ class Decision:
 class ConclusionChange:
     """A conclusion whose decision differs, or that exists in one run only (None).
     `kind` is ``term`` (a tested term of the outcome's model; `id` the term, e.g.
-    ``coating × irrigation``) or ``hypothesis`` (`id` the hypothesis id)."""
+    ``coating × irrigation``) or ``hypothesis`` (`id` the hypothesis id). `label` is what a
+    reader is shown (``Dry shoot mass: humic versus uncoated``); `outcome` and `id` are the
+    plan's identifiers, for machines and to tell apart conclusions of the same label."""
 
     outcome: str
+    outcome_label: str
     role: str
     kind: str
     id: str
@@ -82,13 +86,30 @@ class ConclusionChange:
     b: Decision | None
 
 
+#: What a reported number is, which says how it is written (`number_text`): a p-value, a
+#: share of variance (bounded by 1), a count of units, a test statistic or an estimate.
+NUMBER_KINDS = ("p", "share", "count", "statistic", "estimate")
+
+
+@dataclass(frozen=True)
+class Reported:
+    """A number a run reports: the words a reader is shown, its kind (`NUMBER_KINDS`), its value."""
+
+    label: str
+    kind: str
+    value: float | None
+
+
 @dataclass(frozen=True)
 class NumberMove:
-    """A number that moved: `change` = b - a, `relative_change` = change / |a|."""
+    """A number that moved: `change` = b - a, `relative_change` = change / |a|; `kind`
+    (`NUMBER_KINDS`) says how it is written, `outcome_label` names its outcome for readers."""
 
     outcome: str
+    outcome_label: str
     quantity: str
     label: str
+    kind: str
     a: float | None
     b: float | None
     change: float | None
@@ -123,6 +144,7 @@ class CellChange:
     value_b: float | None
     status_a: str | None
     status_b: str | None
+    label: str | None = None  # the plan's label of the outcome, covariate or factor `name`
 
 
 @dataclass(frozen=True)
@@ -277,18 +299,29 @@ def term_conclusions(results: StudyResults, o: OutcomeResult) -> Iterator[tuple[
             yield f"term {i}", f"{o.label}: term {i}", _decision(c)
 
 
-def conclusions_of(results: StudyResults) -> dict[tuple[str, str, str], tuple[str, str, Decision]]:
-    """Every conclusion of a run: (outcome, kind, id) -> (role, label, decision); primary
-    outcomes first, each with its tested terms (a one-factor outcome: its factor), then
-    its hypotheses."""
-    found: dict[tuple[str, str, str], tuple[str, str, Decision]] = {}
+@dataclass(frozen=True)
+class _Concluded:
+    """One conclusion of a run, as `conclusions_of` finds it."""
+
+    outcome_label: str
+    role: str
+    label: str
+    decision: Decision
+
+
+def conclusions_of(results: StudyResults) -> dict[tuple[str, str, str], _Concluded]:
+    """Every conclusion of a run: (outcome, kind, id) -> its outcome's label and role, the
+    conclusion's label (``outcome label: term or hypothesis label``) and its decision;
+    primary outcomes first, each with its tested terms (a one-factor outcome: its factor),
+    then its hypotheses."""
+    found: dict[tuple[str, str, str], _Concluded] = {}
     for o in _ordered(results.outcomes):
         for term, label, decision in term_conclusions(results, o):
-            found[(o.name, "term", term)] = (o.role, label, decision)
+            found[(o.name, "term", term)] = _Concluded(o.label, o.role, label, decision)
         for h, sentence in _hypotheses(o):
             p = h.p_adjusted if h.p_adjusted is not None else h.p
-            found[(o.name, "hypothesis", h.id)] = (
-                o.role, f"{o.label}: {h.label} ({h.id})",
+            found[(o.name, "hypothesis", h.id)] = _Concluded(
+                o.label, o.role, f"{o.label}: {h.label}",
                 Decision(h.decision, p, sentence, adjusted=h.p_adjusted is not None))
     return found
 
@@ -303,42 +336,45 @@ def compare_conclusions(a: StudyResults, b: StudyResults) -> tuple[ConclusionCha
     changes = []
     for key in _union(ca, cb):
         da, db = ca.get(key), cb.get(key)
-        if da and db and da[2].decision == db[2].decision:
+        if da and db and da.decision.decision == db.decision.decision:
             continue
-        role, label, _ = da or db
-        changes.append(ConclusionChange(outcome=key[0], role=role, kind=key[1], id=key[2], label=label,
-                                        a=da[2] if da else None, b=db[2] if db else None))
+        shown = da or db
+        changes.append(ConclusionChange(
+            outcome=key[0], outcome_label=shown.outcome_label, role=shown.role, kind=key[1],
+            id=key[2], label=shown.label, a=da.decision if da else None,
+            b=db.decision if db else None))
     return tuple(changes)
 
 
 # --- 2. numbers -----------------------------------------------------------------------
 
-#: (outcome, quantity) -> (label, value): the numbers of a run.
-Numbers = dict[tuple[str, str], tuple[str, float | None]]
+#: (outcome, quantity) -> what the run reports there: the numbers of a run.
+Numbers = dict[tuple[str, str], Reported]
 
 
 def _interval(found: Numbers, outcome: str, quantity: str, label: str, estimate: float | None,
-              ci_low: float | None, ci_high: float | None) -> None:
-    found[(outcome, f"{quantity}.estimate")] = (label, estimate)
-    found[(outcome, f"{quantity}.ci_low")] = (f"{label}, CI low", ci_low)
-    found[(outcome, f"{quantity}.ci_high")] = (f"{label}, CI high", ci_high)
+              ci_low: float | None, ci_high: float | None, kind: str = "estimate") -> None:
+    found[(outcome, f"{quantity}.estimate")] = Reported(label, kind, estimate)
+    found[(outcome, f"{quantity}.ci_low")] = Reported(f"{label}, CI low", kind, ci_low)
+    found[(outcome, f"{quantity}.ci_high")] = Reported(f"{label}, CI high", kind, ci_high)
 
 
 def _hypothesis_numbers(found: Numbers, outcome: str, families: Iterable[ContrastFamily],
                         note: str = "") -> None:
     for family in families:
         for h in family.hypotheses:
-            name = f"{h.id}{note}"
+            name = f"{h.label}{note}"
             _interval(found, outcome, h.id, f"{name} estimate", h.estimate, h.ci_low, h.ci_high)
-            found[(outcome, f"{h.id}.p")] = (f"{name} p (unadjusted)", h.p)
-            found[(outcome, f"{h.id}.p_adjusted")] = (f"{name} p (adjusted)", h.p_adjusted)
-            found[(outcome, f"{h.id}.standardized")] = (f"{name} standardized (Hedges)", h.standardized)
+            found[(outcome, f"{h.id}.p")] = Reported(f"{name} p (unadjusted)", "p", h.p)
+            found[(outcome, f"{h.id}.p_adjusted")] = Reported(f"{name} p (adjusted)", "p", h.p_adjusted)
+            found[(outcome, f"{h.id}.standardized")] = Reported(
+                f"{name} standardized (Hedges)", "estimate", h.standardized)
 
 
 def _group_numbers(found: Numbers, outcome: str, descriptives: Descriptives) -> None:
     for g in descriptives.groups:
         _interval(found, outcome, f"mean[{g.level}]", f"mean, {g.level}", g.mean, g.ci_low, g.ci_high)
-        found[(outcome, f"n[{g.level}]")] = (f"n, {g.level}", g.n)
+        found[(outcome, f"n[{g.level}]")] = Reported(f"n, {g.level}", "count", g.n)
 
 
 def _rows(o: OutcomeResult) -> Iterator[tuple[str, str, ModelRow]]:
@@ -351,13 +387,14 @@ def _rows(o: OutcomeResult) -> Iterator[tuple[str, str, ModelRow]]:
             yield f"{table.stratum}/{CROSS.join(row.term)}", f"{row.label}{where}", row
 
 
-def _effects(row: ModelRow) -> tuple[tuple[str, str, float | None, float | None, float | None], ...]:
-    """A row's effect sizes: (quantity, words, estimate, CI low, CI high)."""
-    return (("partial_eta_squared", "eta squared", row.partial_eta_squared,
+def _effects(row: ModelRow) -> tuple[tuple[str, str, str, float | None, float | None, float | None], ...]:
+    """A row's effect sizes: (quantity, words, kind, estimate, CI low, CI high)."""
+    return (("partial_eta_squared", "eta squared", "share", row.partial_eta_squared,
              row.partial_eta_ci_low, row.partial_eta_ci_high),
-            ("partial_omega_squared", "omega squared", row.partial_omega_squared,
+            ("partial_omega_squared", "omega squared", "share", row.partial_omega_squared,
              row.partial_omega_ci_low, row.partial_omega_ci_high),
-            ("cohens_f", "Cohen's f", row.cohens_f, row.cohens_f_ci_low, row.cohens_f_ci_high))
+            ("cohens_f", "Cohen's f", "estimate", row.cohens_f, row.cohens_f_ci_low,
+             row.cohens_f_ci_high))
 
 
 def _term_numbers(found: Numbers, name: str, o: OutcomeResult) -> None:
@@ -365,31 +402,34 @@ def _term_numbers(found: Numbers, name: str, o: OutcomeResult) -> None:
     where they are computed, then each term's effect sizes with their intervals. With one
     term in one table a partial share is the share itself (the error is all that is left)."""
     for term, label, row in _rows(o):
-        found[(name, f"{term}.statistic")] = (f"F, {label}", row.statistic)
-        found[(name, f"{term}.p")] = (f"p, {label}", row.p)
+        found[(name, f"{term}.statistic")] = Reported(f"F, {label}", "statistic", row.statistic)
+        found[(name, f"{term}.p")] = Reported(f"p, {label}", "p", row.p)
         if row.kind == "within":
-            found[(name, f"{term}.gg_p")] = (f"p Greenhouse–Geisser, {label}", row.gg_p)
-            found[(name, f"{term}.hf_p")] = (f"p Huynh–Feldt, {label}", row.hf_p)
+            found[(name, f"{term}.gg_p")] = Reported(f"p Greenhouse–Geisser, {label}", "p", row.gg_p)
+            found[(name, f"{term}.hf_p")] = Reported(f"p Huynh–Feldt, {label}", "p", row.hf_p)
     if o.robust is not None:
-        found[(name, "welch.statistic")] = ("F (Welch)", o.robust.welch.statistic)
-        found[(name, "welch.p")] = ("p (Welch)", o.robust.welch.p)
-        found[(name, "kruskal.statistic")] = ("H (Kruskal–Wallis)", o.robust.kruskal.statistic)
-        found[(name, "kruskal.p")] = ("p (Kruskal–Wallis)", o.robust.kruskal.p)
+        found[(name, "welch.statistic")] = Reported("F (Welch)", "statistic", o.robust.welch.statistic)
+        found[(name, "welch.p")] = Reported("p (Welch)", "p", o.robust.welch.p)
+        found[(name, "kruskal.statistic")] = Reported("H (Kruskal–Wallis)", "statistic",
+                                                      o.robust.kruskal.statistic)
+        found[(name, "kruskal.p")] = Reported("p (Kruskal–Wallis)", "p", o.robust.kruskal.p)
     one_term = len(o.tables) == 1 and len(o.tables[0].rows) == 1
     for term, label, row in _rows(o):
-        for quantity, words, estimate, low, high in _effects(row):
+        for quantity, words, kind, estimate, low, high in _effects(row):
             words = words if one_term or quantity == "cohens_f" else f"partial {words}"
-            _interval(found, name, f"{term}.{quantity}", f"{words}, {label}", estimate, low, high)
+            _interval(found, name, f"{term}.{quantity}", f"{words}, {label}", estimate, low, high, kind)
 
 
 def numbers_of(results: StudyResults) -> Numbers:
-    """The run's reported numbers: (outcome, quantity) -> (label, value), most telling first
-    within an outcome (tests, effect sizes, hypotheses, then means and counts)."""
+    """The run's reported numbers: (outcome, quantity) -> label, kind and value, most
+    telling first within an outcome (tests, effect sizes, hypotheses, then means and
+    counts). Labels use the plan's labels of factors and covariates, not their names."""
     found: Numbers = {}
     exploratory: dict[str, list[ContrastFamily]] = {}
     for entry in results.exploratory:
         for family in entry.families:
             exploratory.setdefault(family.outcome, []).append(family)
+    factor_labels = {f.name: f.label or f.name for f in results.factors}
     for o in _ordered(results.outcomes):
         name = o.name
         _term_numbers(found, name, o)
@@ -398,29 +438,35 @@ def numbers_of(results: StudyResults) -> Numbers:
         for means in o.marginal_means:
             for mean in means.means:
                 at = ", ".join(f"{f}={v}" for f, v in zip(means.factors, mean.levels))
-                _interval(found, name, f"marginal[{at}]", f"marginal mean, {at}",
+                words = ", ".join(f"{factor_labels.get(f, f)} {v}"
+                                  for f, v in zip(means.factors, mean.levels))
+                _interval(found, name, f"marginal[{at}]", f"marginal mean, {words}",
                           mean.estimate, mean.ci_low, mean.ci_high)
         for slope in o.covariate_slopes:
-            _interval(found, name, f"slope[{slope.covariate}]", f"slope on {slope.covariate}",
+            _interval(found, name, f"slope[{slope.covariate}]", f"slope on {slope.label}",
                       slope.estimate, slope.ci_low, slope.ci_high)
-        found[(name, "n_units")] = ("units analysed", o.n_units)
+        found[(name, "n_units")] = Reported("units analysed", "count", o.n_units)
         if any(table.within for table in o.tables):
-            found[(name, "n_observations")] = ("observations analysed", o.n_observations)
+            found[(name, "n_observations")] = Reported("observations analysed", "count",
+                                                       o.n_observations)
         _group_numbers(found, name, o.descriptives)
     return found
 
 
 def compare_numbers(a: StudyResults, b: StudyResults, tolerance: Tolerance) -> tuple[NumberMove, ...]:
     na, nb = numbers_of(a), numbers_of(b)
+    outcome_labels = {o.name: o.label for o in (*b.outcomes, *a.outcomes)}  # A's label first
     moves = []
     for key in _union(na, nb):
-        label, va = na.get(key, (None, None))
-        label_b, vb = nb.get(key, (None, None))
+        ra, rb = na.get(key), nb.get(key)
+        va, vb = ra.value if ra else None, rb.value if rb else None
         if not tolerance.moved(va, vb):
             continue
+        shown = ra or rb
         change = vb - va if va is not None and vb is not None else None
         relative = change / abs(va) if change is not None and va != 0 else None
-        moves.append(NumberMove(outcome=key[0], quantity=key[1], label=label or label_b,
+        moves.append(NumberMove(outcome=key[0], outcome_label=outcome_labels[key[0]],
+                                quantity=key[1], label=shown.label, kind=shown.kind,
                                 a=va, b=vb, change=change, relative_change=relative))
     return tuple(moves)
 
@@ -432,13 +478,30 @@ def _identity(row: RowRecord) -> RowIdentity:
     return RowIdentity(unit=row.unit, within=row.within, line=row.line, levels=dict(row.levels))
 
 
-def _row_changes(ra: RowRecord, rb: RowRecord, roles: Mapping[str, tuple[str, str]]) -> list[CellChange]:
+#: (role, name) -> the plan's label: what the data section calls a column's outcome,
+#: covariate or factor.
+Labels = Mapping[tuple[str, str], str]
+
+
+def data_labels(*runs: StudyResults) -> dict[tuple[str, str], str]:
+    """The labels of the outcomes, factors and covariates of `runs` (the first run's win)."""
+    labels: dict[tuple[str, str], str] = {}
+    for results in reversed(runs):
+        labels.update({("factor", f.name): f.label or f.name for f in results.factors})
+        for o in results.outcomes:
+            labels[("outcome", o.name)] = o.label
+            labels.update({("covariate", c.covariate): c.label for c in o.covariate_slopes})
+    return labels
+
+
+def _row_changes(ra: RowRecord, rb: RowRecord, roles: Mapping[str, tuple[str, str]],
+                 labels: Labels) -> list[CellChange]:
     out = []
 
     def add(column: str, role: str, name: str, text_a, text_b, value_a=None, value_b=None,
             status_a=None, status_b=None) -> None:
         out.append(CellChange(ra.unit, ra.within, column, role, name, text_a, text_b,
-                              value_a, value_b, status_a, status_b))
+                              value_a, value_b, status_a, status_b, labels.get((role, name))))
 
     for factor in _union(ra.levels, rb.levels):
         if ra.levels.get(factor) != rb.levels.get(factor):
@@ -456,7 +519,7 @@ def _row_changes(ra: RowRecord, rb: RowRecord, roles: Mapping[str, tuple[str, st
     return out
 
 
-def compare_data(a: Records | None, b: Records | None) -> DataDiff:
+def compare_data(a: Records | None, b: Records | None, labels: Labels | None = None) -> DataDiff:
     if a is None or b is None or a.rows is None or b.rows is None:
         missing = [side for side, r in (("A", a), ("B", b)) if r is None]
         skipped = [f"run {side}: {r.skipped}" for side, r in (("A", a), ("B", b))
@@ -469,7 +532,7 @@ def compare_data(a: Records | None, b: Records | None) -> DataDiff:
     rows_b = {r.key: r for r in b.rows}
     roles = {c.column: (c.role, c.name) for c in (*a.columns, *b.columns)}
     changed = [change for key in rows_a if key in rows_b
-               for change in _row_changes(rows_a[key], rows_b[key], roles)]
+               for change in _row_changes(rows_a[key], rows_b[key], roles, labels or {})]
     return DataDiff(
         compared=True, note=None, rows_a=len(a.rows), rows_b=len(b.rows),
         added=tuple(_identity(r) for k, r in rows_b.items() if k not in rows_a),
@@ -571,7 +634,7 @@ def compare_runs(run_a: Path, run_b: Path, tolerance: Tolerance = DEFAULT) -> Ru
     return RunDiff(a=_info(a), b=_info(b), tolerance=tolerance,
                    conclusions=compare_conclusions(a.results, b.results),
                    numbers=compare_numbers(a.results, b.results, tolerance),
-                   data=compare_data(a.records, b.records),
+                   data=compare_data(a.records, b.records, data_labels(a.results, b.results)),
                    plan=compare_plans(a, b),
                    checksums=compare_checksums(a, b))
 
@@ -599,45 +662,22 @@ STATUS_WORDS = {"analysed": "analysed", "excluded": "excluded by rule", "missing
                 "left-out": "left out"}
 
 
-#: Quantities (the last part of a `NumberMove.quantity`) written as p-values, and those
-#: bounded by 1 (written without a leading zero, APA 7).
-_P_QUANTITIES = ("p", "p_adjusted", "gg_p", "hf_p")
-_BOUNDED_QUANTITIES = ("partial_eta_squared", "partial_omega_squared")
+def number_text(value: float | None, kind: str = "estimate", decimals: int = 4) -> str:
+    """A number for the diff in the appendix's number style (`appendix.numbers`), by its
+    kind (`NUMBER_KINDS`): a p-value as ``.041`` or ``< .001``, a share of variance without
+    its leading zero, a count as a whole number, anything else to `decimals` decimals with
+    a true minus; "none" for no value.
 
-
-def _style(quantity: str | None) -> str:
-    """How the appendix writes a quantity of `numbers_of`: ``p``, ``bounded``, ``count``
-    or ``estimate``."""
-    if quantity is None:
-        return "estimate"
-    name, _, part = quantity.rpartition(".")
-    if part in _P_QUANTITIES:
-        return "p"
-    if part in ("ci_low", "ci_high", "estimate"):
-        part = name.rpartition(".")[2]
-    if part in _BOUNDED_QUANTITIES:
-        return "bounded"
-    if quantity.startswith("n_") or quantity.startswith("n["):
-        return "count"
-    return "estimate"
-
-
-def number_text(value: float | None, quantity: str | None = None, decimals: int = 4) -> str:
-    """A number for the diff in the appendix's number style (`appendix.numbers`): a p-value
-    as ``.041`` or ``< .001``, a share of variance without its leading zero, a count as a
-    whole number, anything else to `decimals` decimals with a true minus; "none" for no value.
-
-    >>> number_text(0.120608, "C1.p_adjusted"), number_text(-1.77e-05, decimals=6)
+    >>> number_text(0.120608, "p"), number_text(-1.77e-05, decimals=6)
     ('.121', '−0.000018')
     """
     if value is None:
         return "none"
-    style = _style(quantity)
-    if style == "p":
+    if kind == "p":
         return numbers.p_value(value)
-    if style == "count" or isinstance(value, int):
+    if kind == "count":
         return str(int(value))
-    if style == "bounded":
+    if kind == "share":
         return numbers.proportion(value, 3)
     return numbers.fixed(value, decimals)
 
@@ -649,14 +689,15 @@ def _decimals(move: NumberMove) -> int:
 
 def value_text(move: NumberMove, which: str) -> str:
     """Run A's or run B's value of a moved number (`which` is ``a`` or ``b``)."""
-    return number_text(getattr(move, which), move.quantity, _decimals(move))
+    return number_text(getattr(move, which), move.kind, _decimals(move))
 
 
 def move_text(move: NumberMove) -> str:
     """The change from A to B, signed, with the relative change: ``+0.0123 (+4.1%)``."""
     if move.change is None:
         return "appeared" if move.a is None else "disappeared" if move.b is None else ""
-    change = numbers.fixed(move.change, _decimals(move))
+    change = (numbers.fixed(move.change, 0) if move.kind == "count"
+              else numbers.fixed(move.change, _decimals(move)))
     sign = "+" if not change.startswith(numbers.MINUS) else ""
     relative = ""
     if move.relative_change is not None:
@@ -705,14 +746,13 @@ def report_lines(diff: RunDiff, listed: int = LISTED_NUMBERS) -> list[str]:
     lines += [f"study {diff.a.study}; {alpha}", ""]
     lines.append(f"1. Conclusions that changed: {len(diff.conclusions) or 'none'}")
     for c in diff.conclusions:
-        lines.append(f"   {c.outcome} ({c.role}) {c.kind} {c.id}: "
-                     f"{decision_text(c.a)} -> {decision_text(c.b)}")
-        lines.append(f"      {c.label}")
+        lines.append(f"   {c.label} ({c.role} outcome): {decision_text(c.a)} -> {decision_text(c.b)}")
+        lines.append(f"      {c.kind} {c.id} of outcome {c.outcome}")
     tol = diff.tolerance
     lines += ["", (f"2. Numbers that moved: {len(diff.numbers) or 'none'} (tolerance: relative "
                    f"{tol.relative:g}, absolute {tol.absolute:g})")]
     for m in diff.numbers[:listed]:
-        lines.append(f"   {m.outcome}  {m.label}: {value_text(m, 'a')} -> {value_text(m, 'b')}  "
+        lines.append(f"   {m.outcome_label}, {m.label}: {value_text(m, 'a')} -> {value_text(m, 'b')}  "
                      f"({move_text(m)})")
     if len(diff.numbers) > listed:
         lines.append(f"   and {len(diff.numbers) - listed} more (all of them in --json and the HTML page)")
@@ -727,7 +767,7 @@ def report_lines(diff: RunDiff, listed: int = LISTED_NUMBERS) -> list[str]:
             lines.append(f"   units {word}: {names or 'none'}")
         lines.append(f"   changed cells: {len(data.changed) or 'none'}")
         for c in data.changed:
-            about = f"{c.column} ({c.role} {c.name})" if c.column else c.name
+            about = f"{c.column} ({c.role} {c.label or c.name})" if c.column else c.name
             lines.append(f"   {row_name(c.unit, c.within)}  {about}: "
                          f"{cell_text(c.text_a, c.value_a, c.status_a)} -> "
                          f"{cell_text(c.text_b, c.value_b, c.status_b)}")
@@ -761,12 +801,12 @@ def render_page(diff: RunDiff) -> str:
     """The diff as one self-contained HTML page in the appendix's look (no scripts)."""
     import jinja2
 
-    from appendix.render import template_root, visible_controls
+    from appendix.render import _upper_first, template_root, visible_controls
 
     env = jinja2.Environment(loader=jinja2.FileSystemLoader(str(template_root())), autoescape=True,
                              undefined=jinja2.StrictUndefined, trim_blocks=True, lstrip_blocks=True,
                              keep_trailing_newline=True, finalize=visible_controls)
-    env.filters.update({"num": number_text, "tol": lambda v: f"{v:g}",
+    env.filters.update({"num": number_text, "tol": lambda v: f"{v:g}", "upper_first": _upper_first,
                         "alpha": lambda v: numbers.no_leading_zero(f"{v:g}"), "short_hash": lambda d: (d or "absent")[:12],
                         "plan_value": lambda v: json.dumps(v, ensure_ascii=False)})
     return env.get_template("diff.html.j2").render(

@@ -9,6 +9,8 @@ Kinds (stable identifiers, listed in `appendix.plan.choices.DEVIATION_KINDS`):
 - ``below-minimum-n``: fewer analysed units than ``data.planned_n.minimum`` at a level
   (or cell) that has eligible units, for some outcome (subject: the level); fewer than the
   planned number alone is attrition, shown in the unit flow, not a deviation;
+- ``below-minimum-total``: fewer analysed units in all than ``data.planned_n.minimum_total``
+  for an outcome (subject: the outcome); above it, attrition stays in the unit flow;
 - ``level-without-units``: a plan level (or cell) with no eligible unit (subject: the level);
 - ``missing-above-limit``: a larger share of eligible units without a value than
   ``data.missing_limit`` (subject: the outcome);
@@ -25,7 +27,7 @@ from __future__ import annotations
 import dataclasses
 from collections.abc import Iterable, Sequence
 
-from appendix.data.flow import analysed_words, groups_below, labelled
+from appendix.data.flow import analysed_in_all, analysed_words, groups_below, labelled
 from appendix.names import LOCK_FILE
 from appendix.plan.lock import Lock, PlanChange, compare_plans
 from appendix.plan.model import Plan
@@ -125,6 +127,7 @@ def data_deviations(plan: Plan, flow: UnitFlow) -> tuple[Deviation, ...]:
                 f"No eligible units at {level} {show(count.level)} of {grouping} ({why}).",
                 False, detected="eligible units per level in the unit flow"))
     found += _below_minimum(plan, flow, level, grouping)
+    found += _below_minimum_total(plan, flow)
     found += _missing_above_limit(plan, flow)
     return tuple(found)
 
@@ -145,6 +148,21 @@ def _below_minimum(plan: Plan, flow: UnitFlow, level: str, grouping: str) -> lis
                       f"per {per}.",
                       False, detected=detected)
             for group, counts in groups_below(flow, minimum)]
+
+
+def _below_minimum_total(plan: Plan, flow: UnitFlow) -> list[Deviation]:
+    """Outcomes whose analysed units in all are fewer than the registered
+    ``data.planned_n.minimum_total``; fewer than the planned total alone is attrition."""
+    planned = plan.data.planned_n
+    minimum = planned.minimum_total if planned is not None else None
+    if minimum is None:
+        return []
+    detected = "analysed units in the unit flow compared with data.planned_n.minimum_total"
+    below = [(outcome, n) for outcome, n in analysed_in_all(flow) if n < minimum]
+    return [Deviation("below-minimum-total", outcome,
+                      f"{label[:1].upper()}{label[1:]}: {analysed_words([(label, n)])} in all; "
+                      f"the plan's minimum is {minimum} in all.", False, detected=detected)
+            for (outcome, n), (label, _) in zip(below, labelled(plan, below))]
 
 
 def _missing_above_limit(plan: Plan, flow: UnitFlow) -> list[Deviation]:

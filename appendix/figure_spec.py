@@ -15,13 +15,18 @@ FIGURE_KINDS: tuple[str, ...] = ("distribution", "means", "qq", "residuals", "f-
 PLOT_POINTS = 20_000
 
 
+def cells_words(results) -> str:
+    """The treatment cells of `results` (a `StudyResults`) in a sentence: the factor's label
+    as the plan writes it (``seed coating``), or the crossed factors' (``seed coating ×
+    irrigation regime``); empty where no factor is a treatment."""
+    return " \u00d7 ".join(f.label or f.name for f in results.factors if f.role == "treatment")
+
+
 def cells_label(results) -> str:
-    """What a figure's axis and a table's column call the treatment cells of `results` (a
-    `StudyResults`): the factor's label (``Seed coating``), or the crossed factors'
-    (``Coating × Irrigation regime``); ``Group`` where no factor is a treatment."""
-    labels = [f.label or f.name for f in results.factors if f.role == "treatment"]
-    text = " \u00d7 ".join(labels)
-    return text[:1].upper() + text[1:] if labels else "Group"
+    """What a figure's axis and a table's column call the treatment cells of `results`:
+    `cells_words` with a capital (``Seed coating``); ``Group`` where no factor is a treatment."""
+    text = cells_words(results)
+    return text[:1].upper() + text[1:] if text else "Group"
 
 #: The key of the unit-flow diagram (one per study, drawn from the results' unit flow).
 UNIT_FLOW_FIGURE = "unit-flow"

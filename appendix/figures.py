@@ -755,7 +755,9 @@ def covariate_scatter(x, y, groups, group_labels, slope, intercepts, *, x_label:
 def _accessible_figure(stem: str, draw: Callable[[], Figure | None], title: str,
                        desc: str) -> str | None:
     """Draw under the figure settings and give the SVG a <title> and <desc> (read by
-    screen readers; the ids carry `stem` like every other id)."""
+    screen readers; the ids carry `stem` like every other id). The title is a heading, so
+    it starts with a capital like the appendix's headings (sentence case)."""
+    title = title[:1].upper() + title[1:]
     with _figure_settings(stem):
         figure = draw()
         if figure is None:

@@ -781,7 +781,8 @@ def methods_used(results: StudyResults) -> tuple[Method, ...]:
     beyond = [o for o in outcomes if not o.robust]
     diagnostics = [o.diagnostics for o in outcomes]
     variance_methods = {t.method for d in diagnostics for t in d.equal_variance}
-    chosen = ["descriptives"] if one_factor else []
+    chosen = ["exclusions"] if results.unit_flow.exclusions else []
+    chosen += ["descriptives"] if one_factor else []
     chosen += ["model-descriptives"] if beyond else []
     chosen += ["anova"] if one_factor else []
     chosen += ["linear-model"] if _ran(beyond, lambda o: o.marginal_means or not _strata(o)) else []
@@ -817,8 +818,10 @@ def methods_used(results: StudyResults) -> tuple[Method, ...]:
     chosen += ["contingency"] if _ran(outcomes, lambda o: o.contingencies) else ["pretest"]
     chosen += ["reporting"]
     defaults = {s.key for s in results.plan_settings if not s.stated}
-    listed = [_as_stated(METHODS[key], defaults) if key in METHODS
-              else _per_outcome_covariates(outcomes) for key in chosen]
+    made = {"covariates-per-outcome": lambda: _per_outcome_covariates(outcomes),
+            "exclusions": lambda: _exclusions_method(results)}
+    listed = [_as_stated(METHODS[key], defaults) if key in METHODS else made[key]()
+              for key in chosen]
     # the families after the contrast methods, before the contingency (or pretest) and reporting
     return tuple(listed[:-2] + extra + listed[-2:])
 
@@ -844,6 +847,20 @@ def _per_outcome_covariates(outcomes: list[OutcomeResult]) -> Method:
     return Method("covariates-per-outcome", "Covariates by outcome",
                   "Each outcome is adjusted only for the covariates the plan registers for it: "
                   + "; ".join(adjusted(o) for o in outcomes) + ".", ())
+
+
+def _exclusions_method(results: StudyResults) -> Method:
+    """The registered exclusion rules with their data conditions, for reviewers: the rest of
+    the appendix names a rule by its reason."""
+    rules = [f"rule {x.rule} ({x.reason}) sets aside every unit with a row whose {x.column} "
+             f"cell reads “{x.equals}”, {x.total} unit{'s' if x.total != 1 else ''} here"
+             for x in results.unit_flow.exclusions]
+    return Method("exclusions", "Registered exclusion rules",
+                  "Units are set aside only by the exclusion rules the plan registers, applied in "
+                  "plan order before any analysis, each unit under the first rule it meets: "
+                  + "; ".join(rules) + ". A cell meets a rule when it equals the rule's value "
+                  "once spaces at either end are trimmed: numbers by value, true and false in "
+                  "any case, other text exactly.", ())
 
 
 def _families_method(declared: list[RegisteredFamily]) -> Method:

@@ -39,7 +39,7 @@ from markupsafe import Markup
 
 from appendix import numbers
 from appendix.captions import Captions
-from appendix.figure_spec import FIGURE_KINDS, PLOT_POINTS, UNIT_FLOW_FIGURE, cells_label
+from appendix.figure_spec import FIGURE_KINDS, PLOT_POINTS, UNIT_FLOW_FIGURE, cells_label, cells_words
 from appendix.methods import (FALLBACK_CONDITIONS, TEST_NAMES, adjustment, methods_used,
                               references_for)
 from appendix.results import (ContrastFamily, Diagnostics, HypothesisResult, LevelCount, ModelRow,
@@ -143,6 +143,7 @@ def _filters(options: RenderOptions) -> dict[str, Any]:
         "mean_decimals": mean_decimals,
         "hypothesis_decimals": hypothesis_decimals,
         "cells_label": cells_label,
+        "cells_words": cells_words,
         "short_hash": lambda digest: digest[:12],
         "level_counts": _level_counts,
         "planned_counts": planned_counts,
@@ -220,6 +221,7 @@ WORDS: Mapping[str, Mapping[Any, str]] = MappingProxyType({
         "outcome-removed": "Outcome removed",
         "outcome-role-switched": "Outcome switched between primary and secondary",
         "below-minimum-n": "Fewer units than the registered minimum",
+        "below-minimum-total": "Fewer units in all than the registered minimum",
         "level-without-units": "Level without units",
         "missing-above-limit": "Missing data above the registered limit",
         "acknowledgement-unmatched": "Acknowledgement matches no deviation"}),

@@ -674,11 +674,13 @@ class UnitFlow:
 @dataclass(frozen=True)
 class PlannedNumbers:
     """The plan's ``data.planned_n``: analysed units planned per group (cell) and in all,
-    and the registered minimum per group below which a shortfall is a deviation."""
+    and the registered minimums, per group and in all, below which a shortfall is a
+    deviation."""
 
     per_group: int | None = None
     total: int | None = None
     minimum: int | None = None
+    minimum_total: int | None = None
 
 
 @dataclass(frozen=True)

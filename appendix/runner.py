@@ -129,7 +129,7 @@ def study_analysis(loaded: LoadedPlan, dataset: Dataset, software: tuple[Softwar
         families=tested,
         planned_n=(None if plan.data.planned_n is None else PlannedNumbers(
             plan.data.planned_n.per_group, plan.data.planned_n.total,
-            plan.data.planned_n.minimum)),
+            plan.data.planned_n.minimum, plan.data.planned_n.minimum_total)),
         baselines=baseline_summaries(plan, dataset),
     )
     return Analysis(results, {r.outcome: r for _, _, _, r in work})

@@ -5,6 +5,7 @@ Expected data changes are read from the data files with Python's csv module."""
 from __future__ import annotations
 
 import csv
+import html.parser
 import importlib.util
 import io
 import json
@@ -146,7 +147,19 @@ def test_one_factor_numbers_are_its_terms_test_the_robust_tests_and_effect_sizes
     # Cohen's f = sqrt(eta^2 / (1 - eta^2)) as textbook formulas (Hays 1963; Cohen 1988,
     # ch. 8; from memory).
     results = from_json((demo_runs[side] / "results.json").read_text(encoding="utf-8"))
-    numbers = {key[1]: value for key, value in numbers_of(results).items() if key[0] == "dry_mass"}
+    reported = {key[1]: value for key, value in numbers_of(results).items() if key[0] == "dry_mass"}
+    numbers = {quantity: (r.label, r.value) for quantity, r in reported.items()}
+    # each number carries its kind, which says how the diff writes it
+    assert {q: reported[q].kind for q in ("units/coating.statistic", "units/coating.p", "welch.p",
+                                           "kruskal.statistic", "units/coating.partial_eta_squared.ci_low",
+                                           "units/coating.partial_omega_squared.estimate",
+                                           "units/coating.cohens_f.estimate", "n_units", "n[humic]",
+                                           "mean[humic].estimate", "C2:humic.p_adjusted")} == {
+        "units/coating.statistic": "statistic", "units/coating.p": "p", "welch.p": "p",
+        "kruskal.statistic": "statistic", "units/coating.partial_eta_squared.ci_low": "share",
+        "units/coating.partial_omega_squared.estimate": "share",
+        "units/coating.cohens_f.estimate": "estimate", "n_units": "count", "n[humic]": "count",
+        "mean[humic].estimate": "estimate", "C2:humic.p_adjusted": "p"}
     groups = _groups(_csv(data), "shoot_dry_mass_mg")
     frame = pd.DataFrame({"y": [y for g in groups for y in g],
                           "g": [level for level, g in zip(LEVELS, groups) for _ in g]})
@@ -182,8 +195,9 @@ def test_one_factor_numbers_are_its_terms_test_the_robust_tests_and_effect_sizes
     (term,) = [(key, value) for key, value in conclusions_of(results).items()
                if key[:2] == ("dry_mass", "term")]
     assert term[0] == ("dry_mass", "term", "coating")
-    role, label, decision = term[1]
+    role, label, decision = term[1].role, term[1].label, term[1].decision
     assert (role, label) == ("primary", "shoot dry mass at day 21: seed coating (F test)")
+    assert term[1].outcome_label == "shoot dry mass at day 21"
     assert decision.decision == ("reject" if classical.pvalue < 0.05 else "retain")
     assert decision.p == pytest.approx(classical.pvalue, rel=1e-8)
 
@@ -223,12 +237,15 @@ def test_demo_diff_text_for_people(demo_runs):
     text = out.getvalue()
     # in the appendix's number style (APA 7, from memory): p to three decimals without its
     # leading zero, said to be adjusted when it is
-    assert ("   dry_mass (primary) hypothesis C2:humic: not rejected (adjusted p = .121) -> "
-            "rejected (adjusted p = .028)" in text)
+    # the plan's labels lead; its identifiers follow on the line below, for reference
+    assert ("   shoot dry mass at day 21: humic − uncoated (primary outcome): not rejected "
+            "(adjusted p = .121) -> rejected (adjusted p = .028)\n"
+            "      hypothesis C2:humic of outcome dry_mass\n" in text)
     moved = text[text.index("2. Numbers"):text.index("3. Data")].splitlines()[1:]
     assert moved and not [line for line in moved if "e-0" in line or "0.120608" in line]
     assert "   units added: P049 (line 50; coating humic)" in text
-    assert "   P024  shoot_dry_mass_mg (outcome dry_mass): '37.2' (analysed) -> '47.2' (analysed)" in text
+    assert ("   P024  shoot_dry_mass_mg (outcome shoot dry mass at day 21): '37.2' (analysed) -> "
+            "'47.2' (analysed)" in text)
     order = [text.index(h) for h in ("1. Conclusions", "2. Numbers", "3. Data", "4. Plan", "5. Checksums")]
     assert order == sorted(order)
 
@@ -244,9 +261,36 @@ def test_demo_diff_page(demo_runs, tmp_path):
     assert "<script" not in page and "http://" not in page and "https://" not in page
     css = (REPO / "templates" / "appendix.css").read_text(encoding="utf-8")
     assert css.strip() in page  # the appendix's own style sheet, included
-    assert "C2:humic" in page and "P049" in page and "P024" in page
+    assert "P049" in page and "P024" in page
+    # readers see the plan's labels; its identifiers stay in title attributes
+    seen = _visible_text(page)
+    assert "Shoot dry mass at day 21 (primary)" in seen and "humic − uncoated" in seen
+    decisions_and_numbers = seen[seen.index("1. Conclusions that changed\n"):seen.index("3. Data\n")]
+    assert "C2:" not in decisions_and_numbers and "dry_mass" not in decisions_and_numbers
+    assert "chlorophyll" not in decisions_and_numbers.lower().replace("leaf chlorophyll index", "")
+    # a count moves by whole units
+    assert "Shoot dry mass at day 21n, humic1112+1 (+9.1%)" in decisions_and_numbers
+    assert ('<th scope="row" title="outcome dry_mass">Shoot dry mass at day 21 (primary)</th>'
+            '<td class="text" title="hypothesis C2:humic">shoot dry mass at day 21: humic − uncoated</td>') in page
+    assert '<td class="text" title="outcome dry_mass">outcome shoot dry mass at day 21</td>' in page
     assert "not a clinical or regulatory decision" in page
     assert "qualified, licensed statistician" in page
+
+
+def _visible_text(page: str) -> str:
+    """The text of a page's body as a reader sees it: tags and their attributes left out."""
+    parser = _TextOnly()
+    parser.feed(page[page.index("<body"):])
+    return "".join(parser.parts)
+
+
+class _TextOnly(html.parser.HTMLParser):
+    def __init__(self) -> None:
+        super().__init__()
+        self.parts: list[str] = []
+
+    def handle_data(self, data: str) -> None:
+        self.parts.append(data)
 
 
 def test_a_run_against_itself_changes_nothing(demo_runs):
@@ -291,7 +335,7 @@ def test_model_terms_pair_with_their_conclusions(tmp_path):
     study = REPO / "studies" / "greenhouse-split" / "study.yaml"
     run_a = _run(study, tmp_path / "a")
     text = (run_a / "results.json").read_text(encoding="utf-8")
-    terms = {key[2]: value[2].decision for key, value in conclusions_of(from_json(text)).items()
+    terms = {key[2]: value.decision.decision for key, value in conclusions_of(from_json(text)).items()
              if key[1] == "term"}
     # treatment and within terms only; the bench block and the baseline covariate adjust the model
     assert list(terms) == ["coating", "irrigation", "coating × irrigation", "visit", "coating × visit"]

@@ -127,10 +127,19 @@ def test_marginal_means_match_statsmodels_predictions(tmp_path):
 
 
 def test_the_appendix_names_the_design_and_the_sums_of_squares(tmp_path):
-    _factorial(tmp_path, ss=3, covariate=True, interaction=True)
+    frame = _factorial(tmp_path, ss=3, covariate=True, interaction=True)
     html = render(compute(tmp_path / "study.yaml")).html
     assert "type 3 (each term adjusted for all others, sum-to-zero coding)" in html
     assert "Estimated marginal means of dry mass by coating" in html.replace("Dry", "dry")
+    # blocked factorial with a covariate: the raw means are named by the crossed treatment
+    # factors (the block is not one), and the exclusion rule by its reason
+    assert "Means of Dry mass by coating × water (raw, before adjustment by the model)" in html
+    assert "Group means" not in html and "Cell means" not in html
+    flagged = frame.drop_duplicates("unit_id").flagged.eq("yes").sum()
+    assert flagged > 0
+    assert (f"rule X1 (Protocol violated) sets aside every unit with a row whose flagged cell "
+            f"reads “yes”, {flagged} units here.") in " ".join(html.split())
+    assert "flagged = yes" not in html
     assert "Covariate adjustment" in html and "Common slope of Dry mass on Baseline height" in html
     assert "statistical output informs, but is not, a clinical or regulatory decision" in " ".join(html.split())
 

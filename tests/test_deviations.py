@@ -279,8 +279,8 @@ def test_a_shortfall_without_a_minimum_is_attrition_in_the_unit_flow(demo_study:
             f"{sum(missing)} Analysed "
             f"{' '.join(map(str, analysed))} {sum(analysed)} Short of the planned number "
             f"{' '.join(map(str, short))} {sum(short)}") in flow
-    assert ("The plan registers no minimum per group, so a shortfall is not a deviation "
-            "from it.") in flow
+    assert ("The plan registers no minimum per group or in all, so a shortfall is not a "
+            "deviation from it.") in flow
 
 
 def test_a_shortfall_against_a_planned_total_is_no_deviation(demo_study: Path):
@@ -292,6 +292,56 @@ def test_a_shortfall_against_a_planned_total_is_no_deviation(demo_study: Path):
     flow = _text(api.render(computed).html, "unit-flow")
     assert "Planned \u2014 \u2014 \u2014 \u2014 48 Read" in flow
     assert (f"Short of the planned number \u2014 \u2014 \u2014 \u2014 {48 - dry}") in flow
+
+
+def test_fewer_analysed_units_in_all_than_the_registered_minimum_total(demo_study: Path):
+    counts = _demo_counts(demo_study)
+    dry, chlorophyll = (sum(counts[name].values()) for name in OUTCOMES)
+    assert dry < chlorophyll < 48  # the invented data: each outcome loses a different number
+    # a minimum between the two totals: only the outcome below it departs from the plan
+    _edit(demo_study, "    per_group: 12\n", f"    per_group: 12\n    minimum_total: {chlorophyll}\n")
+    computed = api.compute(demo_study)
+    assert _of(computed.results.deviations, "below-minimum-total") == [
+        ("dry_mass", f"Shoot dry mass at day 21: {dry} units analysed in all; the plan's minimum "
+                     f"is {chlorophyll} in all.", False)]
+    assert computed.results.planned_n.minimum_total == chlorophyll
+    html = api.render(computed).html
+    deviations = _text(html, "deviations")
+    assert f"Shoot dry mass at day 21: {dry} units analysed in all" in deviations
+    assert (f"It is a deviation from the plan only where fewer than the registered minimum of "
+            f"{chlorophyll} units in all are analysed.") in _text(html, "unit-flow")
+
+
+def test_a_minimum_total_at_or_below_the_analysed_totals_is_no_deviation(demo_study: Path):
+    counts = _demo_counts(demo_study)
+    lowest = min(sum(counts[name].values()) for name in OUTCOMES)
+    _edit(demo_study, "    per_group: 12\n", f"    per_group: 12\n    minimum: 1\n    minimum_total: {lowest}\n")
+    # (one unit per group: the sentence says "unit")
+    computed = api.compute(demo_study)
+    assert _of(computed.results.deviations, "below-minimum-total") == []
+    assert (f"registered minimum of 1 unit per group, or of {lowest} units in all are "
+            "analysed.") in _text(api.render(computed).html, "unit-flow")
+
+
+@pytest.mark.parametrize("planned, line, message", [
+    ("    per_group: 12\n    minimum_total: 49\n", "    minimum_total: 49",
+     "data.planned_n.minimum_total: got 49, more than the 48 planned in all (12 per group in 4 "
+     "groups); allowed: a whole number from 1 to the planned total"),
+    ("    total: 40\n    minimum_total: 41\n", "    minimum_total: 41",
+     "data.planned_n.minimum_total: got 41, more than the 40 planned in all; allowed: a whole "
+     "number from 1 to the planned total"),
+    ("    per_group: 12\n    minimum_total: 0\n", "    minimum_total: 0",
+     "data.planned_n.minimum_total: got 0; allowed: a whole number at least 1"),
+])
+def test_a_minimum_total_above_the_planned_total_is_refused(demo_study: Path, planned, line, message):
+    _edit(demo_study, "    per_group: 12\n", planned)
+    with pytest.raises(PlanError) as caught:
+        load_plan(demo_study)
+    number = demo_study.read_text(encoding="utf-8").splitlines().index(line) + 1
+    assert str(caught.value).endswith(f"study.yaml:{number}: {message}")
+    out, err = io.StringIO(), io.StringIO()
+    assert main(["check", str(demo_study)], stdout=out, stderr=err, cwd=demo_study.parent) == 2
+    assert message in err.getvalue() and "Traceback" not in err.getvalue()
 
 
 def test_a_minimum_above_the_planned_number_is_refused(demo_study: Path):
@@ -411,7 +461,7 @@ def test_an_unknown_kind_is_refused_with_a_suggestion(demo_study: Path):
     assert str(caught.value).endswith(
         "deviations[0].kind: got 'below-minimun-n'; allowed: 'plan-not-registered', "
         "'plan-changed', 'outcome-added', 'outcome-removed', 'outcome-role-switched', "
-        "'below-minimum-n', 'level-without-units', 'missing-above-limit' or "
+        "'below-minimum-n', 'below-minimum-total', 'level-without-units', 'missing-above-limit' or "
         "'registered-contingency'; did you mean 'below-minimum-n'?")
 
 

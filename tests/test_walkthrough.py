@@ -57,9 +57,11 @@ def test_lock_run_correct_rerun_diff_pack_verify(walked):
     assert done["run-1"][0] == done["run-2"][0] == 0
     code, out, _ = done["diff"]
     assert code == 1  # a conclusion changed
-    assert "C2:humic: not rejected" in out and "-> rejected" in out
+    assert ("shoot dry mass at day 21: humic − uncoated (primary outcome): not rejected" in out
+            and "-> rejected" in out and "hypothesis C2:humic of outcome dry_mass" in out)
     assert "P024" in out and "P049" in out
-    assert "C2:humic" in (trial / "diff.html").read_text(encoding="utf-8")
+    assert 'title="hypothesis C2:humic">shoot dry mass at day 21: humic − uncoated<' in (
+        trial / "diff.html").read_text(encoding="utf-8")
     assert json.loads(done["diff-json"][1])["conclusions_changed"] is True
     assert done["pack"][0] == 0, done["pack"][2]
     code, out, err = done["verify"]

@@ -28,6 +28,7 @@ def consistency_problems(raw: object) -> list[Found]:
     found += _source_format(data)
     found += _planned_minimum(_mapping(data.get("planned_n")))
     factors = _items(_mapping(raw.get("design")).get("factors"))
+    found += _planned_minimum_total(_mapping(data.get("planned_n")), factors)
     for i, factor in factors:
         found += _factor_levels(("design", "factors", i), factor)
     found += unique([(("outcomes",), raw.get("outcomes"))], "name", "outcome names")
@@ -59,6 +60,36 @@ def _planned_minimum(planned: Mapping) -> list[Found]:
         return [(("data", "planned_n", "minimum"),
                  f"got {minimum}, more than the {per_group} planned per group; allowed: a "
                  "whole number from 1 to per_group")]
+    return []
+
+
+def _whole(value: object) -> bool:
+    return isinstance(value, int) and not isinstance(value, bool)
+
+
+def _planned_total(planned: Mapping, factors: list[tuple[int, Mapping]]) -> tuple[int, str] | None:
+    """The planned total of analysed units with how the plan gives it: `total`, else
+    `per_group` times the cells of the crossed treatment factors; None when neither is given
+    (or the levels are not yet lists, which field validation reports)."""
+    if _whole(planned.get("total")):
+        return planned["total"], "planned in all"
+    per_group = planned.get("per_group")
+    treatment = [f.get("levels") for _, f in factors if f.get("role", "treatment") == "treatment"]
+    if not _whole(per_group) or not treatment or not all(isinstance(levels, list) for levels in treatment):
+        return None
+    cells = 1
+    for levels in treatment:
+        cells *= len(levels)
+    return per_group * cells, f"planned in all ({per_group} per group in {cells} groups)"
+
+
+def _planned_minimum_total(planned: Mapping, factors: list[tuple[int, Mapping]]) -> list[Found]:
+    minimum = planned.get("minimum_total")
+    total = _planned_total(planned, factors)
+    if _whole(minimum) and total is not None and minimum > total[0]:
+        return [(("data", "planned_n", "minimum_total"),
+                 f"got {minimum}, more than the {total[0]} {total[1]}; allowed: a whole "
+                 "number from 1 to the planned total")]
     return []
 
 

@@ -11,7 +11,8 @@ MultiplicityMethod = Literal["none", "bonferroni", "holm", "hochberg", "sidak",
                              "graphical"]
 #: What a run reports as a deviation from the registered plan (see appendix.deviations).
 DeviationKind = Literal["plan-not-registered", "plan-changed", "outcome-added", "outcome-removed",
-                        "outcome-role-switched", "below-minimum-n", "level-without-units",
+                        "outcome-role-switched", "below-minimum-n", "below-minimum-total",
+                        "level-without-units",
                         "missing-above-limit", "registered-contingency"]
 
 ROLES: tuple[str, ...] = get_args(FactorRole)

@@ -149,7 +149,8 @@ class Exclusion(_Frozen):
 
 class PlannedN(_Frozen):
     """Planned numbers of analysed units, shown in the unit flow against the numbers
-    achieved; a shortfall is attrition, a deviation only below a registered `minimum`."""
+    achieved; a shortfall is attrition, a deviation only below a registered `minimum`
+    (per group) or `minimum_total` (in all)."""
 
     per_group: int | None = Field(
         default=None, ge=1, strict=True,
@@ -159,6 +160,11 @@ class PlannedN(_Frozen):
         default=None, ge=1, strict=True, exclude_if=_is(None),
         description="Fewest analysed units per group (per cell) the plan accepts, for every "
                     "outcome; fewer is reported as a deviation. At most `per_group`.")
+    minimum_total: int | None = Field(
+        default=None, ge=1, strict=True, exclude_if=_is(None),
+        description="Fewest analysed units in all the plan accepts, for every outcome; fewer "
+                    "is reported as a deviation. At most the planned total (`total`, or "
+                    "`per_group` times the cells of the crossed treatment factors).")
 
 
 class Data(_Frozen):

@@ -324,7 +324,9 @@ def plans(draw, method: str | None = None) -> dict:
                                "reason": "protocol violated (invented)"}]
     if draw(st.booleans()):
         data["planned_n"] = draw(st.sampled_from([{"per_group": 2}, {"per_group": 50}, {"total": 10},
-                                                    {"per_group": 4, "minimum": 3}]))
+                                                    {"per_group": 4, "minimum": 3},
+                                                    {"total": 10, "minimum_total": 8},
+                                                    {"per_group": 4, "minimum_total": 5}]))
     if draw(st.booleans()):
         data["missing_limit"] = draw(st.sampled_from([0.0, 0.1, 0.5]))
     study = {"id": "generated-plan", "title": "Generated plan with invented data"}

@@ -159,6 +159,12 @@ def test_default_titles_name_the_labels():
     assert _root(_covariate())[0].text == "Dry mass (g) against Baseline height (mm) by group"
 
 
+def test_a_title_from_labels_written_in_lower_case_starts_with_a_capital():
+    svg = _interaction(y_label="leaf chlorophyll index (units)", x_label="seed coating",
+                       trace_label="irrigation regime")
+    assert _root(svg)[0].text == "Leaf chlorophyll index (units) by seed coating and irrigation regime"
+
+
 # --- interaction plot ------------------------------------------------------------------
 
 def test_interaction_plot_has_one_line_per_trace_level_with_its_points_and_bars():

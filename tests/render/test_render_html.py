@@ -191,7 +191,7 @@ def test_lowercase_labels_start_sentences_capitalised(study_results, figures):
 
 def test_methods_follow_what_was_run(study_results):
     names = [m.key for m in methods_used(study_results)]
-    assert names == ["descriptives", "anova", "welch", "kruskal", "effect_sizes", "shapiro",
+    assert names == ["exclusions", "descriptives", "anova", "welch", "kruskal", "effect_sizes", "shapiro",
                      "brown-forsythe", "bartlett", "outliers", "float64", "contrasts-classical",
                      "contrasts-welch", "custom", "trend", "fixed-sequence", "unadjusted", "hedges",
                      "one-sided", "contingency", "reporting"]
@@ -201,6 +201,8 @@ def test_methods_follow_what_was_run(study_results):
         stripped = changed(stripped, f"outcomes[{i}].robust.welch", statistic=None)
     keys = [m.key for m in methods_used(stripped)]
     assert "shapiro" not in keys and "welch" not in keys
+    # no registered exclusion rule, no paragraph on exclusion rules
+    assert "exclusions" not in [m.key for m in methods_used(changed(stripped, "unit_flow", exclusions=()))]
     refs = [r.key for r in references_for(methods_used(stripped))]
     assert "shapiro1965" not in refs and "welch1951" not in refs and "fisher1925" in refs
 

@@ -233,3 +233,56 @@ def test_split_plot_baselines_count_each_unit_once(computed_demos):
 def test_no_baseline_table_without_covariates(computed_demos, rendered_demos):
     assert computed_demos["seed-coating"].results.baselines == ()
     assert 'id="baselines"' not in rendered_demos["seed-coating"].html
+
+
+# --- exclusion rules in words, their conditions in Methods ----------------------------
+
+#: Each demo's registered exclusion rule: its data column and the value that excludes, as
+#: its study.yaml writes them (greenhouse-split registers none).
+EXCLUSION_COLUMNS = {"seed-coating": ("damaged", "yes"), "wound-dose": ("dressing_lost", "yes")}
+
+
+@pytest.mark.parametrize("name", sorted(EXCLUSION_COLUMNS))
+def test_the_flow_names_exclusions_by_reason_and_methods_states_their_condition(
+        computed_demos, rendered_demos, name):
+    column, value = EXCLUSION_COLUMNS[name]
+    (rule,) = computed_demos[name].results.unit_flow.exclusions
+    page = rendered_demos[name].html
+    flow = _text(_element(page, '<section id="unit-flow">', "</section>"))
+    assert f"Excluded by X1: {rule.reason}" in flow
+    assert column not in flow and f"= {value}" not in flow
+    assert ("Each exclusion rule is named by its registered reason; Methods (Registered "
+            "exclusion rules) states the data condition of each.") in flow
+    # the excluded units counted by pandas on the demo's CSV file: one row per unit
+    frame = pd.read_csv(STUDIES / name / computed_demos[name].loaded.plan.data.source, dtype=str)
+    excluded = int((frame[column].str.strip() == value).sum())
+    assert excluded == rule.total > 0
+    methods = _text(_element(page, '<section id="methods">', "</section>"))
+    assert (f"Registered exclusion rules Units are set aside only by the exclusion rules the "
+            f"plan registers, applied in plan order before any analysis, each unit under the "
+            f"first rule it meets: rule X1 ({rule.reason}) sets aside every unit with a row "
+            f"whose {column} cell reads “{value}”, {excluded} units here.") in methods
+
+
+def test_methods_state_no_exclusion_rule_where_the_plan_registers_none(rendered_demos):
+    page = rendered_demos["greenhouse-split"].html
+    assert "Registered exclusion rules" not in page
+    assert "The plan registers no exclusion rule." in page
+
+
+# --- means named by the treatment factors ------------------------------------------------
+
+
+@pytest.mark.parametrize("name, factors", [("seed-coating", "seed coating"), ("wound-dose", "dose of ZQ-118")])
+def test_means_captions_name_the_treatment_factor_by_its_label(computed_demos, rendered_demos, name, factors):
+    page = rendered_demos[name].html
+    results = computed_demos[name].results
+    assert [f.label for f in results.factors if f.role == "treatment"] == [factors]
+    text = _text(page)
+    titles = [_text(t) for t in re.findall(r"<(?:figcaption|caption|h[2-4])\b.*?</(?:figcaption|caption|h[2-4])>",
+                                             page, re.S)]
+    assert titles and not [t for t in titles if "group means" in t.lower() or "cell means" in t.lower()]
+    for o in results.outcomes:
+        assert f"Means of {o.label} by {factors}" in text
+        if o.robust is not None:  # one factor: its effect sizes are of the differences of means
+            assert f"Effect sizes for the differences between the means by {factors}" in text
