@@ -258,7 +258,7 @@ def test_the_flow_names_exclusions_by_reason_and_methods_states_their_condition(
     excluded = int((frame[column].str.strip() == value).sum())
     assert excluded == rule.total > 0
     methods = _text(_element(page, '<section id="methods">', "</section>"))
-    assert (f"Registered exclusion rules Units are set aside only by the exclusion rules the "
+    assert (f"Registered exclusion rules. Units are set aside only by the exclusion rules the "
             f"plan registers, applied in plan order before any analysis, each unit under the "
             f"first rule it meets: rule X1 ({rule.reason}) sets aside every unit with a row "
             f"whose {column} cell reads “{value}”, {excluded} units here.") in methods
