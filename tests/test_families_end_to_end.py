@@ -151,7 +151,8 @@ def test_the_open_gate_in_the_adjusted_p_the_sentences_and_the_page(opened):
     assert "Serial gatekeeping: family S was tested because every hypothesis of family P was " \
            "rejected" in html
     assert "No simultaneous intervals compatible with the graphical procedure are computed" in html
-    assert "Registered families of hypotheses" in html and "Serial gatekeeping</" in html
+    assert '<span class="method-name">Registered families of hypotheses.</span>' in html
+    assert '<span class="method-name">Serial gatekeeping.</span>' in html
     assert "Family Q is tested apart from the others, so the family-wise error rate is " \
            "controlled within each family, not across them." in html
 
