@@ -72,3 +72,22 @@ def test_a_results_text_that_does_not_fit_is_refused_with_the_key(change, words)
 def test_text_that_is_not_json_is_refused():
     with pytest.raises(ResultsFormatError, match="not JSON"):
         from_json('{"format_version": 2')
+
+
+def test_a_rewrite_keeps_stored_numbers_that_agree_within_the_tolerance():
+    """Last-bit noise (here 0.31646568403707376 against 0.3164656840370737, the same
+    eta squared from two CPU kernels) keeps the stored digits; a real change, a new key
+    and changed text are taken."""
+    stored = json.dumps({"eta": 0.3164656840370737, "p": 0.12, "rows": [1.5, 2.5], "w": "a"},
+                        sort_keys=True, indent=2) + "\n"
+    fresh = json.dumps({"eta": 0.31646568403707376, "p": 0.0284521, "rows": [1.5, 2.5000000001],
+                        "w": "b", "new": 2.0}, sort_keys=True, indent=2) + "\n"
+    tree = json.loads(golden.settled(stored, fresh))
+    assert tree == {"eta": 0.3164656840370737, "p": 0.0284521, "rows": [1.5, 2.5], "w": "b",
+                    "new": 2.0}
+    assert golden.settled(fresh, fresh) == fresh
+
+
+def test_rewriting_the_nist_golden_file_changes_nothing():
+    stored = golden.nist_path().read_text(encoding="utf-8")
+    assert golden.settled(stored, golden.nist_text()) == stored
