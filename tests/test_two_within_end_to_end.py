@@ -133,7 +133,7 @@ def test_the_appendix_shows_every_stratum(run):
     assert not any(n.startswith("pressure-covariate") for n in figures)
     # the interaction plot of phase x hour, among the outcome's marginal-means tables
     assert any(re.fullmatch(r"rate-interaction-\d+\.svg", n) for n in figures)
-    assert "Mean heart rate at each level of hour by group (each unit's mean over the other within factors)" in text
+    assert "Mean heart rate at each level of hour by arm (each unit's mean over the other within factors)" in text
 
 
 def test_records_name_each_row_by_its_cell_of_the_grid(run):

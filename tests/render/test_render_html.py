@@ -180,7 +180,7 @@ def test_lowercase_labels_start_sentences_capitalised(study_results, figures):
     lower = changed(study_results, "outcomes[1]", label="change in HbA1c")
     page = parse(render_html(lower, figures, RenderOptions()))
     titles = [squash(e.text) for e in page.elements if e.attrs.get("class") == "table-title"]
-    assert "Change in HbA1c by group" in titles
+    assert "Change in HbA1c by Treatment arm" in titles
     assert "One-way analysis of variance of change in HbA1c" in titles
     # the unit flow's and the hypotheses table's row groups of the outcome
     rows = [squash(e.text) for e in page.by_tag("th")
