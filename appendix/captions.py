@@ -24,7 +24,7 @@ from __future__ import annotations
 
 import html as _html
 import re
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 from markupsafe import Markup
 
@@ -41,12 +41,65 @@ _TAG = re.compile(r"<[^>]+>")
 class Listed:
     """An entry of the list of tables or of figures: its number and anchor as the page
     shows them, a short title (the caption's title, or its first clause for a figure), and
-    the label of the outcome whose section holds it (None outside the outcome sections)."""
+    the label of the outcome whose section holds it (None outside the outcome sections);
+    `pattern` is the whole title with that label masked, what makes two outcomes' entries
+    alike (`grouped`)."""
 
     number: int
     title: str
     anchor: str
     outcome: str | None
+    pattern: str = field(default="", compare=False)
+
+
+@dataclass(frozen=True)
+class ListGroup:
+    """The entries of one outcome section in a list of tables or of figures (`outcome`
+    None: of the sections outside them). `alike` are those titled as the entries of the
+    earlier outcome labelled `like` are, with this outcome's label in place of that one's:
+    they are listed by number only (each a link), and the other `entries` with their titles, so that a
+    further outcome of the same design costs a line of the list and not a column of titles
+    that differ only in the outcome they name."""
+
+    outcome: str | None
+    alike: tuple[Listed, ...]
+    like: str | None
+    entries: tuple[Listed, ...]
+
+
+#: An outcome's entries are listed by number as an earlier outcome's only from this many alike.
+FEWEST_ALIKE = 2
+
+
+def _masked(title: str, label: str) -> str:
+    """`title` with each `label` in it (any case) replaced by one mark."""
+    return re.sub(re.escape(label), "\x00", title, flags=re.IGNORECASE)
+
+
+def grouped(entries: list[Listed]) -> list[ListGroup]:
+    """`entries` in their runs by outcome section, in order, each outcome's entries set
+    against the first earlier outcome with at least `FEWEST_ALIKE` alike titles (`ListGroup`)."""
+    runs: list[list[Listed]] = []
+    for entry in entries:
+        if runs and runs[-1][0].outcome == entry.outcome:
+            runs[-1].append(entry)
+        else:
+            runs.append([entry])
+    earlier: list[tuple[str, set[str]]] = []  # outcome label, its masked titles
+    groups: list[ListGroup] = []
+    for run in runs:
+        label = run[0].outcome
+        if label is None:
+            groups.append(ListGroup(None, (), None, tuple(run)))
+            continue
+        masked = [e.pattern or _masked(e.title, label) for e in run]
+        like, seen = next(((other, titles) for other, titles in earlier
+                           if sum(m in titles for m in masked) >= FEWEST_ALIKE), (None, set()))
+        alike = tuple(e for e, m in zip(run, masked) if m in seen)
+        groups.append(ListGroup(label, alike, like,
+                                tuple(e for e, m in zip(run, masked) if m not in seen)))
+        earlier.append((label, set(masked)))
+    return groups
 
 
 def sentence_key(html: str) -> str:
@@ -62,9 +115,9 @@ def plain_text(value: str) -> str:
     return re.sub(r"[ \t\r\n]+", " ", text).strip()
 
 
-def first_clause(text: str, limit: int = 90) -> str:
+def first_clause(text: str, limit: int | None = 90) -> str:
     """A caption's first clause: up to the first full stop, comma, colon or semicolon
-    outside parentheses, cut at a word before `limit` characters.
+    outside parentheses, cut at a word before `limit` characters (None: not cut).
 
     >>> first_clause("Means of yield (raw, by group) with 95% confidence intervals. Bars")
     'Means of yield (raw, by group) with 95% confidence intervals'
@@ -78,7 +131,7 @@ def first_clause(text: str, limit: int = 90) -> str:
         if depth == 0 and ch in ".,:;" and (i + 1 == len(text) or text[i + 1] == " "):
             text = text[:i]
             break
-    if len(text) > limit:
+    if limit is not None and len(text) > limit:
         text = text[:limit].rsplit(" ", 1)[0] + "\u2026"
     return text
 
@@ -93,6 +146,18 @@ class Captions:
         self._outcome: str | None = None
         self._current = ""  # "Table 3": the table or figure whose notes are being written
         self._said: dict[str, str] = {}  # sentence key -> where it was first said
+
+    def table_groups(self) -> list[ListGroup]:
+        """The list of tables by outcome section (`grouped`)."""
+        return grouped(self.tables)
+
+    def figure_groups(self) -> list[ListGroup]:
+        """The list of figures by outcome section (`grouped`)."""
+        return grouped(self.figures)
+
+    def _listed(self, number: int, title: str, whole: str, anchor: str) -> Listed:
+        outcome = self._outcome
+        return Listed(number, title, anchor, outcome, _masked(whole, outcome) if outcome else "")
 
     def _number(self, kind: str, key: str) -> int:
         numbers = self._numbers[kind]
@@ -117,7 +182,8 @@ class Captions:
         its title, and the notes that follow belong to it."""
         number = self.table_number(key)
         if all(entry.number != number for entry in self.tables):
-            self.tables.append(Listed(number, plain_text(title), f"table-{number}", self._outcome))
+            self.tables.append(self._listed(number, plain_text(title), plain_text(title),
+                                            f"table-{number}"))
         self._current = f"Table {number}"
         return number
 
@@ -127,8 +193,9 @@ class Captions:
         caption as the page shows it, without the sentences said before (`note`)."""
         number = self.figure_number(key)
         if all(entry.number != number for entry in self.figures):
-            self.figures.append(Listed(number, first_clause(plain_text(caption)),
-                                       f"figure-{key}", self._outcome))
+            clause = first_clause(plain_text(caption), limit=None)
+            self.figures.append(self._listed(number, first_clause(clause), clause,
+                                             f"figure-{key}"))
         self._current = f"Figure {number}"
         return self.note(caption)
 

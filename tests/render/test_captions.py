@@ -9,7 +9,7 @@ from __future__ import annotations
 import jinja2
 from markupsafe import Markup
 
-from appendix.captions import Captions, Listed, first_clause, plain_text
+from appendix.captions import Captions, ListGroup, Listed, first_clause, grouped, plain_text
 from appendix.render import RenderOptions, render_html
 
 DEFINITION = "SD = standard deviation (<i>n</i> &#8722; 1 divisor)."
@@ -37,6 +37,58 @@ def test_captions_are_listed_under_the_outcome_section_they_stand_in():
                         Listed(2, "Yield by group & block n", "table-2", "yield"),
                         Listed(3, "Software", "table-3", None)]
     assert c.figures == [Listed(1, "Yield by group", "figure-yield-distribution", "yield")]
+
+
+def _outcome_tables(c: Captions, label: str, extra: str | None = None) -> None:
+    c.within(label)
+    c.table(f"{label}-descriptives", f"{label.capitalize()} by seed coating")
+    c.table(f"{label}-variance", f"One-way analysis of variance of {label}")
+    if extra:
+        c.table(f"{label}-extra", extra)
+    c.table(f"{label}-effects", "Effect sizes for the differences between the means")
+    c.within(None)
+
+
+def test_a_further_outcome_lists_by_number_the_entries_titled_as_an_earlier_ones():
+    c = Captions()
+    c.table("flow", "Number of units at each stage")
+    _outcome_tables(c, "shoot dry mass")
+    _outcome_tables(c, "leaf count", extra="Units with a large studentized residual")
+    c.table("software", "Software")
+    groups = c.table_groups()
+    assert [g.outcome for g in groups] == [None, "shoot dry mass", "leaf count", None]
+    first, second = groups[1:3]
+    assert (first.alike, first.like, [e.number for e in first.entries]) == ((), None, [2, 3, 4])
+    # "Leaf count by seed coating" is "Shoot dry mass by seed coating" with the other label,
+    # whatever the case of its first letter; the outlier table has no like
+    assert second.like == "shoot dry mass"
+    assert [e.number for e in second.alike] == [5, 6, 8]
+    assert [e.title for e in second.entries] == ["Units with a large studentized residual"]
+    html = render_like(groups)
+    assert 'Tables <a href="#table-5">5</a>, <a href="#table-6">6</a> and ' \
+           '<a href="#table-8">8</a>: titled as for shoot dry mass' in html
+
+
+def render_like(groups: list[ListGroup]) -> str:
+    """The list macro of the contents on `groups`, as the page writes it."""
+    from appendix.render import template_root
+
+    env = jinja2.Environment(loader=jinja2.FileSystemLoader(str(template_root())),
+                             autoescape=True)
+    env.filters["upper_first"] = lambda s: s[:1].upper() + s[1:]
+    module = env.get_template("listings.html.j2").make_module({"captions": Captions()})
+    return str(module.listing(groups, "Table"))
+
+
+def test_entries_are_set_against_an_earlier_outcome_only_when_two_or_more_are_alike():
+    one = [Listed(1, "Yield by arm", "table-1", "yield", "\x00 by arm"),
+           Listed(2, "Height by arm", "table-2", "height", "\x00 by arm"),
+           Listed(3, "Tests of height", "table-3", "height", "Tests of \x00")]
+    assert [(g.like, len(g.alike)) for g in grouped(one)] == [(None, 0), (None, 0)]
+    # the pattern is made from the whole title when none was recorded
+    two = [Listed(1, "Yield by arm", "table-1", "yield"), Listed(2, "Means of yield", "table-2", "yield"),
+           Listed(3, "Height by arm", "table-3", "height"), Listed(4, "Means of height", "table-4", "height")]
+    assert [(g.like, len(g.alike)) for g in grouped(two)] == [(None, 0), ("yield", 2)]
 
 
 def test_a_table_captioned_twice_is_listed_once():
