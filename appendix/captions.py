@@ -56,10 +56,10 @@ class Listed:
 class ListGroup:
     """The entries of one outcome section in a list of tables or of figures (`outcome`
     None: of the sections outside them). `alike` are those titled as the entries of the
-    earlier outcome labelled `like` are, with this outcome's label in place of that one's:
-    they are listed by number only (each a link), and the other `entries` with their titles, so that a
-    further outcome of the same design costs a line of the list and not a column of titles
-    that differ only in the outcome they name."""
+    earlier outcome labelled `like` are, with this outcome's label in place of that
+    one's: they are listed by number only (each a link), the other `entries` with their
+    titles, so that a further outcome of the same design costs a line of the list and
+    not a column of titles that differ only in the outcome they name."""
 
     outcome: str | None
     alike: tuple[Listed, ...]
@@ -78,7 +78,8 @@ def _masked(title: str, label: str) -> str:
 
 def grouped(entries: list[Listed]) -> list[ListGroup]:
     """`entries` in their runs by outcome section, in order, each outcome's entries set
-    against the first earlier outcome with at least `FEWEST_ALIKE` alike titles (`ListGroup`)."""
+    against the first earlier outcome with at least `FEWEST_ALIKE` alike titles
+    (`ListGroup`). An entry without a `pattern` is compared by its title, masked here."""
     runs: list[list[Listed]] = []
     for entry in entries:
         if runs and runs[-1][0].outcome == entry.outcome:
@@ -182,8 +183,8 @@ class Captions:
         its title, and the notes that follow belong to it."""
         number = self.table_number(key)
         if all(entry.number != number for entry in self.tables):
-            self.tables.append(self._listed(number, plain_text(title), plain_text(title),
-                                            f"table-{number}"))
+            text = plain_text(title)
+            self.tables.append(self._listed(number, text, text, f"table-{number}"))
         self._current = f"Table {number}"
         return number
 
