@@ -205,21 +205,56 @@ def tie(text: str) -> str:
     return text
 
 
+#: a label's word longer than this offers places to break (`breakable`)
+LONGEST_WORD = 12
+_WORD_END = re.compile(r"(?<=[_\-/.:])(?=[^\s])")
+
+
+def breakable(label: str) -> Markup:
+    """A label for a narrow column head (a level name such as
+    ``coating_formulation_long``) as HTML whose long words offer places to break: a
+    ``<wbr>`` after each ``_ - / . :`` inside a word longer than `LONGEST_WORD`
+    characters, else every `LONGEST_WORD` characters. Shorter words are left whole, so
+    that a table column is never narrower than its head's longest short word
+    (``overflow-wrap: break-word`` in the appendix's CSS breaks a word only where it
+    cannot fit), and the ``<wbr>`` adds no character to copied or searched text.
+
+    >>> str(breakable("3 mg/kg"))
+    '3 mg/kg'
+    >>> str(breakable("coating_formulation_long"))
+    'coating_<wbr>formulation_<wbr>long'
+    """
+    out = []
+    for word in _WORD.finditer(str(label)):
+        text = word.group()
+        if len(text) <= LONGEST_WORD:
+            out.append(escape(text))
+            continue
+        parts = _WORD_END.split(text)
+        if max(len(part) for part in parts) > LONGEST_WORD:
+            parts = [text[i:i + LONGEST_WORD] for i in range(0, len(text), LONGEST_WORD)]
+        out.append(Markup("<wbr>").join(escape(part) for part in parts))
+    return Markup("").join(out)
+
+
 def prose_html(text: str) -> Markup:
     """Plain prose written by the pipeline (a conclusion, a diagnostic's detail) as HTML in
     the number style of the tables: escaped, each statistic symbol that opens a number
-    clause in italics (`ITALIC_SYMBOLS`), the clause's spaces unbreakable (`tie`), and a
-    clause holding a leading decimal point, after which a line could otherwise break
-    (". | 121"), in a ``nobreak`` span (``white-space: nowrap`` in the appendix's CSS), which
-    adds no character to copied or searched text. Plain-text outputs (terminal,
-    results.json) keep the text as it is.
+    clause in italics (`ITALIC_SYMBOLS`), the clause's spaces unbreakable (`tie`), and each
+    tied clause in a ``nobreak`` span (``white-space: nowrap`` in the appendix's CSS), so
+    that a line never breaks after a leading decimal point (". | 121"). The space before
+    such a span is set in a span of its own: when the clause did not fit at the end of a
+    line, the PDF renderer's line breaker (WeasyPrint 70) missed the break at a space
+    ending the text before it and fell back to the line's first break, leaving one word
+    alone on the line ("Mean"). Neither span adds a character to copied or searched
+    text. Plain-text outputs (terminal, results.json) keep the text as it is.
 
-    >>> str(prose_html("p < .001 & n = 4"))
-    '<span class="nobreak"><i>p</i>\xa0&lt;\xa0.001</span> &amp; <i>n</i>\xa0=\xa04'
+    >>> str(prose_html("so p < .001 & more"))
+    'so<span> </span><span class="nobreak"><i>p</i>\xa0&lt;\xa0.001</span> &amp; more'
     """
     tied = tie(text)
     symbols = [m.span(1) for m in _SYMBOL.finditer(tied)]
-    out = []
+    out: list[Markup] = []
     for word in _WORD.finditer(tied):
         start, end = word.span()
         html, at = [], start
@@ -229,6 +264,9 @@ def prose_html(text: str) -> Markup:
                 at = e
         html.append(escape(tied[at:end]))
         piece = Markup("").join(html)
-        out.append(Markup('<span class="nobreak">%s</span>') % piece
-                   if _LEADING_POINT.search(word.group()) else piece)
+        if NBSP in word.group() or _LEADING_POINT.search(word.group()):
+            if out and not out[-1].strip():
+                out[-1] = Markup("<span>%s</span>") % out[-1]
+            piece = Markup('<span class="nobreak">%s</span>') % piece
+        out.append(piece)
     return Markup("").join(out)

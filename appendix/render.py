@@ -133,6 +133,7 @@ def _filters(options: RenderOptions) -> dict[str, Any]:
         "pvalue": numbers.p_value,
         "p_clause": lambda p: numbers.prose_html(numbers.p_clause(p)),
         "prose": numbers.prose_html,
+        "breakable": numbers.breakable,
         "df": numbers.df_value,
         "percent": numbers.percent,
         "alpha": _alpha,

@@ -1,11 +1,12 @@
 """What WeasyPrint laid out on each page of a typeset appendix, for layout tests: the
 page's text block and the boxes of the elements on it (tag, classes, position, size in
 CSS px, the element's key and its ancestors' keys, so that the parts of one element on
-several pages can be matched). Read from the Document that `render.typeset` returns, which the PDF is written
+several pages can be matched, and the text of its lines). Read from the Document that `render.typeset` returns, which the PDF is written
 from, so a test measures the PDF's own layout."""
 
 from __future__ import annotations
 
+import re
 from dataclasses import dataclass
 
 
@@ -23,6 +24,8 @@ class Box:
     height: float
     key: int = 0
     parents: tuple[int, ...] = ()  # the ancestors' keys, nearest first
+    lines: tuple[str, ...] = ()  # the text of each line box directly inside, in order
+    text: str = ""  # the element's text, ASCII white space squashed (if two lines or more)
 
     @property
     def right(self) -> float:
@@ -61,6 +64,15 @@ class Page:
         return [b for b in self.boxes if key in b.parents and (tag is None or b.tag == tag)]
 
 
+def _text(box) -> str:
+    """The text of a line box: its text boxes' text, in order."""
+    from weasyprint.formatting_structure import boxes
+
+    if isinstance(box, boxes.TextBox):
+        return box.text
+    return "".join(_text(child) for child in getattr(box, "children", ()))
+
+
 def _element_boxes(root, keys: dict[int, int]) -> tuple[Box, ...]:
     """The block-level boxes under `root`, in tree order; `keys` (id of an element -> its
     key) is shared by the pages of one Document, whose elements stay alive meanwhile."""
@@ -76,9 +88,13 @@ def _element_boxes(root, keys: dict[int, int]) -> tuple[Box, ...]:
             # a table is two boxes of one element (its wrapper with the caption, then the
             # grid): both are listed, the element is one parent
             inner = parents[1:] if parents and parents[0] == key else parents
+            lines = tuple(_text(c) for c in getattr(box, "children", ())
+                          if isinstance(c, boxes.LineBox))
             out.append(Box(box.element_tag, frozenset((element.get("class") or "").split()),
                            element.get("id") or "", box.border_box_x(), box.border_box_y(),
-                           box.border_width(), box.border_height(), key, inner))
+                           box.border_width(), box.border_height(), key, inner, lines,
+                           re.sub(r"[ \t\r\n]+", " ", "".join(element.itertext())).strip()
+                           if len(lines) > 1 else ""))
             parents = (key, *inner)
         for child in getattr(box, "children", ()):
             walk(child, parents)
